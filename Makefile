@@ -1,0 +1,31 @@
+# Curvewise developer entry points. Every target creates .venv on first use.
+PYTHON ?= python3
+VENV   := .venv
+BIN    := $(VENV)/bin
+STAMP  := $(VENV)/.installed-$(shell cat pyproject.toml client/pyproject.toml 2>/dev/null | cksum | cut -d' ' -f1)
+
+.PHONY: run test bench lint clean install
+
+$(STAMP): pyproject.toml
+	test -x $(BIN)/python || $(PYTHON) -m venv $(VENV)
+	$(BIN)/python -m pip install --quiet --upgrade pip
+	$(BIN)/python -m pip install --quiet -e ./client -e '.[test]'
+	rm -f $(VENV)/.installed-*
+	touch $(STAMP)
+
+install: $(STAMP)
+
+run: $(STAMP)  ## serve on 127.0.0.1:8000 with built-in defaults
+	$(BIN)/curvewise serve --host 127.0.0.1 --port 8000
+
+test: $(STAMP)  ## the whole suite
+	$(BIN)/python -m pytest
+
+bench: $(STAMP)  ## ratio benchmarks, printed side by side
+	for f in benchmarks/bench_*.py; do echo "== $$f"; $(BIN)/python $$f || exit 1; done
+
+lint: $(STAMP)
+	$(BIN)/ruff check service schemas client tests benchmarks
+
+clean:
+	rm -rf $(VENV) .pytest_cache .hypothesis

@@ -1,0 +1,1 @@
+"""The wire contract as marshmallow schemas. Imports nothing from ``service``."""

@@ -1,0 +1,3 @@
+"""Curvewise: a stateless HTTP service that fits, explains and inverts polynomial curves."""
+
+__version__ = "0.1.0"

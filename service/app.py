@@ -1,0 +1,33 @@
+"""Application factory: defaults -> CURVEWISE_* env -> overrides; blueprints; one error path."""
+
+from __future__ import annotations
+
+from flask import Flask
+
+from service import __version__
+from service import errors as error_handling
+from service.api import BLUEPRINT_MODULES
+from service.config import Settings
+from service.jsonio import OrjsonProvider
+
+
+def create_app(overrides: dict | None = None) -> Flask:
+    """Build the WSGI app. ``overrides`` are Settings fields (e.g. ``{"max_degree": 6}``)."""
+    settings = Settings.load(overrides)
+    app = Flask("curvewise")
+    app.json = OrjsonProvider(app)
+    app.config.update(
+        CURVEWISE=settings,
+        MAX_CONTENT_LENGTH=settings.max_body_bytes,
+        API_TITLE="Curvewise",
+        API_VERSION=__version__,
+        OPENAPI_VERSION="3.1.0",
+        OPENAPI_URL_PREFIX="/",
+        OPENAPI_JSON_PATH="openapi.json",
+    )
+    api = error_handling.CurvewiseApi(app)
+    error_handling.register(app)
+    for module in BLUEPRINT_MODULES:
+        api.register_blueprint(module.blp)
+    app.extensions["curvewise-api"] = api
+    return app

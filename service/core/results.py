@@ -1,0 +1,238 @@
+"""Frozen result types returned by the core.
+
+The core returns numbers only: undefined statistics are ``float('nan')``
+(the schemas turn them into JSON null), arrays are read-only numpy arrays.
+Nothing here is mutated after construction. Indices into the data always
+refer to positions in the caller's *original* arrays (before any dropping).
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Mapping
+
+import numpy as np
+
+FloatArray = np.ndarray  # 1-D float64, read-only
+Evidence = Mapping[str, float | int | str | bool | tuple]
+
+
+def frozen_array(values, dtype=float) -> np.ndarray:
+    """Return a read-only 1-D (or 2-D) copy-free view of ``values``."""
+    arr = np.asarray(values, dtype=dtype)
+    arr.setflags(write=False)
+    return arr
+
+
+@dataclass(frozen=True, slots=True)
+class Notice:
+    """A numerical or data warning turned into data (``code`` is stable snake_case)."""
+
+    code: str
+    message: str
+
+
+@dataclass(frozen=True, slots=True)
+class TrustFlag:
+    """A plain-language reason to be careful with this fit, with the evidence."""
+
+    code: str
+    severity: str  # "info" | "caution" | "serious"
+    message: str
+    evidence: Evidence
+
+
+@dataclass(frozen=True, slots=True)
+class Coefficient:
+    """One coefficient on the raw (transformed-if-asked) x scale."""
+
+    term: str
+    estimate: float
+    std_error: float
+    t: float
+    p_value: float
+    lower: float
+    upper: float
+
+
+@dataclass(frozen=True, slots=True)
+class AnovaRow:
+    """One row of the sequential (Type I) table; the residual row has nan f/p."""
+
+    term: str
+    df: int
+    sum_sq: float
+    mean_sq: float
+    f: float
+    p_value: float
+
+
+@dataclass(frozen=True, slots=True)
+class FitStatistics:
+    """Whole-fit statistics. ``centred`` is False without intercept (uncentred SS, R²)."""
+
+    n: int
+    n_parameters: int
+    df_model: int
+    df_residual: int
+    rss: float
+    tss: float
+    centred: bool
+    r_squared: float
+    adj_r_squared: float
+    sigma: float
+    f: float
+    f_p_value: float
+    log_likelihood: float
+    aic: float
+    aicc: float
+    bic: float
+    press: float
+    predicted_r_squared: float
+    condition_number: float
+
+
+@dataclass(frozen=True, slots=True)
+class Candidate:
+    """One row of the selection trail (one candidate degree)."""
+
+    degree: int
+    df_residual: int
+    rss: float
+    sigma: float
+    r_squared: float
+    adj_r_squared: float
+    aic: float
+    aicc: float
+    bic: float
+    press: float
+    f_last: float
+    p_last: float
+
+
+@dataclass(frozen=True, slots=True)
+class Selection:
+    """How the degree was chosen. ``method`` is ``"fixed"`` when the caller fixed it."""
+
+    method: str
+    chosen_degree: int
+    reason: str
+    alpha: float
+    candidates: tuple[Candidate, ...]
+
+
+@dataclass(frozen=True, slots=True)
+class Prediction:
+    """Fitted values and bands at a set of x (original y scale).
+
+    ``mean_*``: confidence band for the mean; ``obs_*``: band for ``m`` new
+    observations' mean (m = 1: one new observation); ``band_*``: simultaneous
+    (Working-Hotelling) band for the whole curve. ``extrapolated`` marks x
+    outside the fitted data range.
+    """
+
+    x: FloatArray
+    fit: FloatArray
+    se_fit: FloatArray
+    mean_lower: FloatArray
+    mean_upper: FloatArray
+    obs_lower: FloatArray
+    obs_upper: FloatArray
+    band_lower: FloatArray
+    band_upper: FloatArray
+    extrapolated: np.ndarray  # bool
+    level: float
+
+
+@dataclass(frozen=True, slots=True)
+class TestResult:
+    """A formal assumption test."""
+
+    name: str  # "shapiro_wilk" | "breusch_pagan" | "durbin_watson" | ...
+    statistic: float
+    p_value: float
+    df: tuple[float, ...] | None
+    note: str
+
+
+@dataclass(frozen=True, slots=True)
+class LackOfFit:
+    """Lack-of-fit F test against pure error from replicated x."""
+
+    df_lack: int
+    ss_lack: float
+    df_pure: int
+    ss_pure: float
+    f: float
+    p_value: float
+    n_levels: int
+
+
+@dataclass(frozen=True, slots=True)
+class Diagnostics:
+    """Per-point residual forms and influence, formal tests, and flagged points.
+
+    Arrays are aligned with ``index`` (original positions of the used points).
+    """
+
+    index: np.ndarray
+    residuals: FloatArray
+    standardized: FloatArray        # internally studentized
+    studentized: FloatArray         # externally studentized
+    leverage: FloatArray
+    cooks_distance: FloatArray
+    dffits: FloatArray
+    tests: tuple[TestResult, ...]
+    lack_of_fit: LackOfFit | None
+    outliers: tuple[int, ...]
+    high_leverage: tuple[int, ...]
+    influential: tuple[int, ...]
+    thresholds: Mapping[str, float]
+
+
+@dataclass(frozen=True, slots=True)
+class FittedPolynomial:
+    """Everything needed to predict and invert later, exactly.
+
+    The fit is computed on ``t = (u - x_shift) / x_scale`` where ``u`` is x
+    after ``transform_x``. ``basis_coefficients`` are on powers of ``t``;
+    ``r_factor`` is the upper-triangular R of the (weighted) design QR on
+    that basis, so ``se_mean(t) = sigma * ||R^-T v(t)||``.
+    ``raw_coefficients``/``raw_covariance`` are on powers of ``u``.
+    """
+
+    degree: int
+    intercept: bool
+    transform_x: str
+    transform_y: str
+    terms: tuple[str, ...]
+    x_shift: float
+    x_scale: float
+    basis_coefficients: FloatArray
+    r_factor: np.ndarray  # (p, p) upper triangular
+    raw_coefficients: FloatArray
+    raw_covariance: np.ndarray  # (p, p)
+    sigma: float
+    df_residual: int
+    n: int
+    x_min: float
+    x_max: float
+    weighted: bool
+    level: float
+
+
+@dataclass(frozen=True, slots=True)
+class FitReport:
+    """The full analysis of one series, computed once."""
+
+    model: FittedPolynomial
+    n_input: int
+    dropped: tuple[int, ...]
+    coefficients: tuple[Coefficient, ...]
+    anova: tuple[AnovaRow, ...]
+    statistics: FitStatistics
+    selection: Selection
+    diagnostics: Diagnostics | None
+    grid: Prediction | None
+    flags: tuple[TrustFlag, ...]
+    warnings: tuple[Notice, ...]

@@ -1,0 +1,99 @@
+"""What the caller asks the core to do: frozen, validated option objects.
+
+These are plain value objects. The web layer builds them from the loaded
+request (the marshmallow schemas produce dicts whose keys match these
+fields); library callers build them directly.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+SELECT_METHODS = ("sequential_f", "aic", "aicc", "bic", "press", "adj_r2")
+TRANSFORMS = ("none", "log", "log10", "sqrt", "reciprocal")
+MISSING_POLICIES = ("error", "drop")
+SECTIONS = ("coefficients", "anova", "statistics", "selection", "diagnostics", "grid",
+            "fitted_model")
+HARD_MAX_DEGREE = 12  # absolute ceiling of the core; the service limit may be lower
+
+
+@dataclass(frozen=True, slots=True)
+class ModelSpec:
+    """A polynomial model family request.
+
+    Parameters
+    ----------
+    family : str
+        Only ``"polynomial"`` today.
+    degree : int or None
+        Fixed degree. Mutually exclusive with ``max_degree``.
+    max_degree : int or None
+        Select the degree from ``min_degree .. max_degree`` by ``select``.
+    select : str
+        One of :data:`SELECT_METHODS`.
+    alpha : float
+        Significance level for ``sequential_f``.
+    intercept : bool
+        Include the constant term. Without it sums of squares are uncentred.
+    transform_x, transform_y : str
+        One of :data:`TRANSFORMS`, applied before fitting.
+    min_degree : int
+        Smallest candidate degree when selecting (default 1).
+    """
+
+    family: str = "polynomial"
+    degree: int | None = None
+    max_degree: int | None = None
+    select: str = "sequential_f"
+    alpha: float = 0.05
+    intercept: bool = True
+    transform_x: str = "none"
+    transform_y: str = "none"
+    min_degree: int = 1
+
+    @property
+    def selects(self) -> bool:
+        """True when the degree is chosen from candidates rather than fixed."""
+        return self.degree is None
+
+
+@dataclass(frozen=True, slots=True)
+class GridSpec:
+    """Where to evaluate the fitted curve and its bands.
+
+    Exactly one form is used: explicit ``x``; or ``start``/``stop``/``step``;
+    or ``count`` evenly spaced points over the data range (the default, 200).
+    ``start``/``stop`` without ``step`` use ``count`` points between them.
+    """
+
+    count: int | None = 200
+    start: float | None = None
+    stop: float | None = None
+    step: float | None = None
+    x: tuple[float, ...] | None = None
+
+
+@dataclass(frozen=True, slots=True)
+class FitOptions:
+    """Everything about a fit except the data and the model.
+
+    Parameters
+    ----------
+    level : float
+        Confidence level for coefficient limits and bands, in (0, 1).
+    missing : str
+        ``"error"`` (default): a null/NaN pair is an error. ``"drop"``: such
+        pairs are removed and their indices reported.
+    grid : GridSpec or None
+        None skips the grid.
+    include : frozenset of str
+        Sections of :data:`SECTIONS` to compute. Diagnostics are the costly one.
+    max_grid_points : int
+        Refuse grids larger than this (``SpecError``).
+    """
+
+    level: float = 0.95
+    missing: str = "error"
+    grid: GridSpec | None = field(default_factory=GridSpec)
+    include: frozenset[str] = frozenset(SECTIONS)
+    max_grid_points: int = 100_000

@@ -1,0 +1,52 @@
+"""Architecture guard: layers point one way (service.api -> schemas, service.core)."""
+
+from __future__ import annotations
+
+import ast
+import subprocess
+import sys
+from pathlib import Path
+
+ROOT = Path(__file__).resolve().parent.parent
+
+
+def _imports(package: Path) -> set[str]:
+    names: set[str] = set()
+    for path in package.rglob("*.py"):
+        tree = ast.parse(path.read_text(), filename=str(path))
+        for node in ast.walk(tree):
+            if isinstance(node, ast.Import):
+                names.update(alias.name for alias in node.names)
+            elif isinstance(node, ast.ImportFrom) and node.module and node.level == 0:
+                names.add(node.module)
+    return names
+
+
+def _top(names: set[str]) -> set[str]:
+    return {name.split(".")[0] for name in names}
+
+
+def test_core_imports_no_web_or_schema_code():
+    imported = _imports(ROOT / "service" / "core")
+    assert not _top(imported) & {"flask", "flask_smorest", "marshmallow", "webargs", "schemas",
+                                 "werkzeug", "apispec"}
+    assert not {n for n in imported if n.startswith("service.") and not n.startswith("service.core")}
+
+
+def test_schemas_import_nothing_from_service_or_numerics_internals():
+    imported = _top(_imports(ROOT / "schemas"))
+    assert not imported & {"service", "flask", "flask_smorest", "werkzeug", "scipy", "statsmodels"}
+
+
+def test_client_imports_nothing_from_the_server():
+    imported = _top(_imports(ROOT / "client" / "curvewise_client"))
+    assert not imported & {"service", "schemas", "flask", "numpy", "scipy", "statsmodels",
+                           "marshmallow"}
+
+
+def test_core_loads_without_flask_or_marshmallow_in_a_fresh_interpreter():
+    code = ("import sys, service.core; "
+            "bad = [m for m in ('flask', 'marshmallow', 'werkzeug', 'schemas') if m in sys.modules]; "
+            "print(bad); sys.exit(1 if bad else 0)")
+    result = subprocess.run([sys.executable, "-c", code], cwd=ROOT, capture_output=True, text=True)
+    assert result.returncode == 0, result.stdout + result.stderr
