@@ -31,3 +31,12 @@ def app():
 @pytest.fixture
 def client(app):
     return app.test_client()
+
+
+@pytest.fixture(scope="session")
+def live_url():
+    """Base URL of a real gunicorn server on a free loopback port (see tests/live_server.py)."""
+    from tests.live_server import live_server
+
+    with live_server() as base_url:
+        yield base_url

@@ -1,0 +1,54 @@
+"""Production gunicorn settings (``gunicorn -c python:service.gunicorn_conf``).
+
+``curvewise serve`` loads this module and then applies its flags on top.
+Numerical work is CPU-bound, so BLAS/OpenMP pools are pinned to one thread per
+worker (set here, before any worker imports numpy) and the worker count
+defaults to the number of usable cores.
+"""
+
+from __future__ import annotations
+
+import os
+
+BLAS_THREAD_VARS = ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS",
+                    "VECLIB_MAXIMUM_THREADS", "NUMEXPR_NUM_THREADS")
+for _var in BLAS_THREAD_VARS:
+    os.environ.setdefault(_var, "1")
+
+
+def usable_cores() -> int:
+    """CPUs this process may run on (respects affinity masks and containers' cpusets)."""
+    try:
+        return max(1, len(os.sched_getaffinity(0)))
+    except (AttributeError, OSError):  # pragma: no cover - non-Linux
+        return max(1, os.cpu_count() or 1)
+
+
+def default_workers() -> int:
+    """One sync worker per usable core (CPU-bound work), at least two for overlap."""
+    return max(2, usable_cores())
+
+
+def _env_float(name: str, default: float) -> float:
+    raw = os.environ.get(name)
+    return float(raw) if raw not in (None, "") else default
+
+
+wsgi_app = "service.app:create_app()"
+_host = os.environ.get("CURVEWISE_HOST", "127.0.0.1")
+bind = [f"{_host}:{os.environ.get('CURVEWISE_PORT', '8000')}"]
+workers = int(os.environ.get("CURVEWISE_WORKERS") or 0) or default_workers()
+worker_class = "sync"
+# The app enforces request_timeout itself (a 503 problem); the hard kill comes a little later.
+timeout = int(_env_float("CURVEWISE_REQUEST_TIMEOUT", 60.0)) + 30
+graceful_timeout = 30          # seconds a worker gets to finish in-flight requests on SIGTERM
+max_requests = 2000            # recycle workers now and then (bounds slow leaks) ...
+max_requests_jitter = 200      # ... but not all at once
+keepalive = 2
+limit_request_line = 8190
+limit_request_fields = 100
+accesslog = "-"
+errorlog = "-"
+loglevel = os.environ.get("CURVEWISE_LOG_LEVEL", "info").lower()
+forwarded_allow_ips = "127.0.0.1"
+proc_name = "curvewise"
