@@ -1,0 +1,101 @@
+"""Invented demo data for the README and examples (never a correctness reference).
+
+Each scenario from the project's demo-scenarios list is generated from a stated
+curve, noise level and fixed seed, so anyone can regenerate it::
+
+    python scripts/demo_data.py greenhouse          # a /v1/fit request body
+    python scripts/demo_data.py nitrate             # a /v1/fit request body
+    python scripts/demo_data.py soil --probes 20    # a /v1/batch request body
+
+The output is strict JSON on stdout.
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import sys
+
+import numpy as np
+
+SEED = 20261201
+
+
+def greenhouse(seed: int = SEED) -> dict:
+    """Tomato yield (kg/m^2) against nutrient conductivity EC (dS/m) on 24 benches.
+
+    Stated curve: yield = 2.0 + 7.2 EC - 1.05 EC^2, noise sd 0.45 kg/m^2,
+    EC evenly from 1.0 to 6.0. Yield rises then falls (a quadratic).
+    """
+    rng = np.random.default_rng(seed)
+    ec = np.round(np.linspace(1.0, 6.0, 24), 3)
+    yield_kg = 2.0 + 7.2 * ec - 1.05 * ec**2 + rng.normal(0.0, 0.45, ec.size)
+    return {
+        "x": ec.tolist(),
+        "y": np.round(yield_kg, 3).tolist(),
+        "model": {"family": "polynomial", "max_degree": 4, "select": "sequential_f",
+                  "alpha": 0.05},
+        "grid": {"start": 1.0, "stop": 6.0, "step": 0.01},
+        "level": 0.95,
+    }
+
+
+def nitrate(seed: int = SEED) -> dict:
+    """Absorbance of 6 nitrate standards (mg/L) in triplicate, slight curvature at the top.
+
+    Stated curve: A = 0.004 + 0.0215 c - 0.000085 c^2, noise sd 0.004 absorbance units.
+    """
+    rng = np.random.default_rng(seed + 1)
+    conc = np.repeat([0.0, 2.0, 5.0, 10.0, 20.0, 40.0], 3)
+    absorbance = 0.004 + 0.0215 * conc - 0.000085 * conc**2 + rng.normal(0.0, 0.004, conc.size)
+    return {
+        "x": conc.tolist(),
+        "y": np.round(absorbance, 4).tolist(),
+        "model": {"family": "polynomial", "max_degree": 2, "select": "sequential_f"},
+        "grid": {"count": 100},
+        "level": 0.95,
+    }
+
+
+def soil(probes: int = 20, seed: int = SEED) -> dict:
+    """Soil-moisture probes, 30-point calibration runs each; a few faulty probes.
+
+    Stated curve per probe: reading = a + b m + c m^2 with a ~ N(2, 0.3),
+    b ~ N(0.95, 0.03), c ~ N(0.002, 0.0005), noise sd 0.4 (% volumetric water);
+    every 7th probe is flat, every 11th noisy (sd 4), every 13th has one spike.
+    """
+    rng = np.random.default_rng(seed + 2)
+    moisture = np.linspace(5.0, 45.0, 30)
+    series = []
+    for i in range(probes):
+        a, b, c = rng.normal(2.0, 0.3), rng.normal(0.95, 0.03), rng.normal(0.002, 0.0005)
+        reading = a + b * moisture + c * moisture**2 + rng.normal(0.0, 0.4, moisture.size)
+        if i % 7 == 6:
+            reading = np.full(moisture.size, 21.0) + rng.normal(0.0, 0.05, moisture.size)
+        elif i % 11 == 10:
+            reading = reading + rng.normal(0.0, 4.0, moisture.size)
+        elif i % 13 == 12:
+            reading[rng.integers(0, moisture.size)] += 15.0
+        series.append({"id": f"probe-{i + 1:04d}", "x": np.round(moisture, 2).tolist(),
+                       "y": np.round(reading, 3).tolist()})
+    return {"series": series, "model": {"family": "polynomial", "max_degree": 3,
+                                        "select": "bic"}, "detail": "summary"}
+
+
+def main(argv: list[str] | None = None) -> int:
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("scenario", choices=("greenhouse", "nitrate", "soil"))
+    parser.add_argument("--probes", type=int, default=20, help="soil: number of probes")
+    parser.add_argument("--seed", type=int, default=SEED)
+    args = parser.parse_args(argv)
+    if args.scenario == "soil":
+        body = soil(args.probes, args.seed)
+    else:
+        body = {"greenhouse": greenhouse, "nitrate": nitrate}[args.scenario](args.seed)
+    json.dump(body, sys.stdout, allow_nan=False)
+    sys.stdout.write("\n")
+    return 0
+
+
+if __name__ == "__main__":
+    sys.exit(main())
