@@ -1,0 +1,361 @@
+"""The portable fitted-model document: a versioned, checksummed JSON-ready dict.
+
+A client stores the document that ``/v1/fit`` returns and sends it back to
+``/v1/predict`` and ``/v1/invert``. :func:`to_document` writes it from a
+:class:`~service.core.results.FittedPolynomial`; :func:`from_document` reads it
+back, checks every field and the checksum, and raises
+:class:`~service.core.errors.DocumentError` naming the first bad field.
+
+The checksum is ``"sha256:" + hex`` over the *canonical form*: every field
+except ``checksum``, each value first normalized to its declared type (so an
+integer-valued float that a JSON library wrote as ``0`` still reads as
+``0.0``), then serialized as JSON with sorted keys, no whitespace, ASCII only,
+floats in Python ``repr`` (shortest digits that round-trip exactly), undefined
+numbers as ``null``. Any faithful JSON transport therefore keeps the checksum
+valid, and any edited value breaks it. The format is specified in
+``docs/fitted-model.md``.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import math
+from collections.abc import Mapping
+from typing import Any
+
+import numpy as np
+
+from service.core.errors import DocumentError
+from service.core.results import FittedPolynomial, frozen_array
+from service.core.spec import HARD_MAX_DEGREE, TRANSFORMS
+
+SCHEMA_VERSION = 1
+SUPPORTED_VERSIONS = (1,)
+CHECKSUM_PREFIX = "sha256:"
+
+# field name -> kind; the order is the order written (readers must not rely on it)
+FIELDS: dict[str, str] = {
+    "schema_version": "int",
+    "family": "str",
+    "degree": "int",
+    "intercept": "bool",
+    "terms": "str_list",
+    "transform_x": "str",
+    "transform_y": "str",
+    "x_shift": "float",
+    "x_scale": "float",
+    "basis_coefficients": "vector",
+    "r_factor": "matrix",
+    "raw_coefficients": "vector",
+    "raw_covariance": "matrix_nullable",
+    "sigma": "float_nullable",
+    "df_residual": "int",
+    "n": "int",
+    "x_min": "float",
+    "x_max": "float",
+    "weighted": "bool",
+    "level": "float",
+    "checksum": "str",
+}
+
+
+def to_document(fitted: FittedPolynomial) -> dict:
+    """Write a fitted polynomial as a portable, checksummed document.
+
+    Parameters
+    ----------
+    fitted : FittedPolynomial
+        The model part of a fit report.
+
+    Returns
+    -------
+    dict
+        JSON-ready (plain ``int``/``float``/``str``/``bool``/``None``/lists);
+        NaN is written as ``None``. Includes ``schema_version`` and ``checksum``.
+    """
+    body = {
+        "schema_version": SCHEMA_VERSION,
+        "family": "polynomial",
+        "degree": int(fitted.degree),
+        "intercept": bool(fitted.intercept),
+        "terms": [str(term) for term in fitted.terms],
+        "transform_x": str(fitted.transform_x),
+        "transform_y": str(fitted.transform_y),
+        "x_shift": _float(fitted.x_shift),
+        "x_scale": _float(fitted.x_scale),
+        "basis_coefficients": _vector(fitted.basis_coefficients),
+        "r_factor": _matrix(fitted.r_factor),
+        "raw_coefficients": _vector(fitted.raw_coefficients),
+        "raw_covariance": _matrix(fitted.raw_covariance),
+        "sigma": _float(fitted.sigma),
+        "df_residual": int(fitted.df_residual),
+        "n": int(fitted.n),
+        "x_min": _float(fitted.x_min),
+        "x_max": _float(fitted.x_max),
+        "weighted": bool(fitted.weighted),
+        "level": _float(fitted.level),
+    }
+    body["checksum"] = checksum(body)
+    return body
+
+
+def from_document(doc: Mapping[str, Any], *, field_prefix: str = "") -> FittedPolynomial:
+    """Read and verify a fitted-model document.
+
+    Parameters
+    ----------
+    doc : mapping
+        A document as written by :func:`to_document` (after any JSON round trip).
+    field_prefix : str
+        Prepended to field names in errors (the web layer passes ``"fitted_model."``).
+
+    Returns
+    -------
+    FittedPolynomial
+
+    Raises
+    ------
+    DocumentError
+        Not a mapping, unsupported ``schema_version``, unknown or missing field,
+        wrong type or shape, inconsistent content, or checksum mismatch. ``field``
+        names the offending field.
+    """
+    reader = _Reader(doc, field_prefix)
+    values = reader.read()
+    p = len(values["terms"])
+    basis = np.asarray(values["basis_coefficients"], dtype=float)
+    raw = np.asarray(values["raw_coefficients"], dtype=float)
+    r_factor = np.asarray(values["r_factor"], dtype=float)
+    covariance = np.asarray(values["raw_covariance"], dtype=float)
+    reader.check_consistency(values, basis, raw, r_factor, covariance, p)
+    reader.check_checksum(values)
+    return FittedPolynomial(
+        degree=values["degree"], intercept=values["intercept"],
+        transform_x=values["transform_x"], transform_y=values["transform_y"],
+        terms=tuple(values["terms"]), x_shift=values["x_shift"], x_scale=values["x_scale"],
+        basis_coefficients=frozen_array(basis), r_factor=frozen_array(r_factor),
+        raw_coefficients=frozen_array(raw), raw_covariance=frozen_array(covariance),
+        sigma=values["sigma"], df_residual=values["df_residual"], n=values["n"],
+        x_min=values["x_min"], x_max=values["x_max"], weighted=values["weighted"],
+        level=values["level"],
+    )
+
+
+def checksum(body: Mapping[str, Any]) -> str:
+    """The ``sha256:<hex>`` checksum of a document's canonical form (``checksum`` excluded)."""
+    return CHECKSUM_PREFIX + hashlib.sha256(canonical_bytes(body)).hexdigest()
+
+
+def canonical_bytes(body: Mapping[str, Any]) -> bytes:
+    """Canonical JSON of every field but ``checksum``: sorted keys, no spaces, float repr."""
+    payload = {key: value for key, value in body.items() if key != "checksum"}
+    text = json.dumps(payload, sort_keys=True, separators=(",", ":"), ensure_ascii=True,
+                      allow_nan=False)
+    return text.encode("ascii")
+
+
+def basis_to_raw(basis: np.ndarray, x_shift: float, x_scale: float, intercept: bool) -> np.ndarray:
+    """Coefficients on powers of ``u`` from coefficients on powers of ``t = (u - shift)/scale``.
+
+    Returned on the same powers as the model's terms (0..d with intercept, 1..d
+    without; without intercept a non-zero shift would create a constant, which
+    is returned as the first element instead so that callers can detect it).
+    """
+    powers = np.arange(0 if intercept else 1, (0 if intercept else 1) + len(basis))
+    degree = int(powers[-1]) if len(powers) else 0
+    full = np.zeros(degree + 1)
+    for coefficient, k in zip(basis, powers, strict=True):
+        for j in range(k + 1):
+            full[j] += coefficient * math.comb(k, j) * (-x_shift) ** (k - j) / x_scale ** k
+    return full if intercept else full[1:] if full[0] == 0.0 else full
+
+
+# ----------------------------------------------------------------------------- helpers
+
+
+def _float(value) -> float | None:
+    value = float(value)
+    return value if math.isfinite(value) else None
+
+
+def _vector(values) -> list:
+    return [_float(v) for v in np.asarray(values, dtype=float).ravel()]
+
+
+def _matrix(values) -> list:
+    return [_vector(row) for row in np.atleast_2d(np.asarray(values, dtype=float))]
+
+
+class _Reader:
+    """Field-by-field validation with errors that name the field."""
+
+    def __init__(self, doc, prefix: str) -> None:
+        self.doc = doc
+        self.prefix = prefix
+
+    def fail(self, name: str | None, message: str, fix: str, code: str = "invalid_document"):
+        field = (self.prefix + name) if name else (self.prefix.rstrip(".") or None)
+        raise DocumentError(message, field=field, fix=fix, code=code)
+
+    def read(self) -> dict:
+        doc = self.doc
+        if not isinstance(doc, Mapping):
+            self.fail(None, "The fitted-model document must be a JSON object.",
+                      "Send the fitted_model object exactly as /v1/fit returned it.")
+        if "schema_version" not in doc:
+            self.fail("schema_version", "The document has no schema_version.",
+                      "Send the fitted_model object exactly as /v1/fit returned it.",
+                      "missing_document_field")
+        version = doc["schema_version"]
+        if isinstance(version, bool) or version not in SUPPORTED_VERSIONS:
+            self.fail("schema_version",
+                      f"Unsupported schema_version {version!r}; this service reads "
+                      f"{', '.join(map(str, SUPPORTED_VERSIONS))}.",
+                      "Refit with this service to get a current document.",
+                      "unsupported_document_version")
+        unknown = sorted(str(key) for key in doc if key not in FIELDS)
+        if unknown:
+            self.fail(unknown[0], f"Unknown field {unknown[0]!r} in a schema_version "
+                      f"{version} document.", "Remove fields that /v1/fit did not write.")
+        for name in FIELDS:
+            if name not in doc:
+                self.fail(name, f"The document is missing the required field {name!r}.",
+                          "Send the fitted_model object unchanged, with every field.",
+                          "missing_document_field")
+        values = {name: getattr(self, "_" + kind)(name, doc[name]) for name, kind in FIELDS.items()}
+        self._check_scalars(values)
+        return values
+
+    # --- typed readers
+    def _int(self, name, value):
+        if isinstance(value, bool) or not isinstance(value, (int, float)) or value != int(value):
+            self.fail(name, f"{name} must be an integer, got {value!r}.",
+                      f"Send the {name} that /v1/fit wrote.")
+        return int(value)
+
+    def _bool(self, name, value):
+        if not isinstance(value, bool):
+            self.fail(name, f"{name} must be true or false, got {value!r}.",
+                      f"Send the {name} that /v1/fit wrote.")
+        return value
+
+    def _str(self, name, value):
+        if not isinstance(value, str):
+            self.fail(name, f"{name} must be a string.", f"Send the {name} that /v1/fit wrote.")
+        return value
+
+    def _str_list(self, name, value):
+        if not isinstance(value, list) or not all(isinstance(v, str) for v in value):
+            self.fail(name, f"{name} must be a list of strings.",
+                      f"Send the {name} that /v1/fit wrote.")
+        return list(value)
+
+    def _number(self, name, value, nullable: bool):
+        if value is None and nullable:
+            return None
+        if isinstance(value, bool) or not isinstance(value, (int, float)):
+            self.fail(name, f"{name} must be a number, got {value!r}.",
+                      f"Send the {name} that /v1/fit wrote.")
+        value = float(value)
+        if not math.isfinite(value):
+            self.fail(name, f"{name} must be finite.", f"Send the {name} that /v1/fit wrote.")
+        return value
+
+    def _float(self, name, value):
+        return self._number(name, value, nullable=False)
+
+    def _float_nullable(self, name, value):
+        return self._number(name, value, nullable=True)
+
+    def _vector(self, name, value, nullable: bool = False):
+        if not isinstance(value, list):
+            self.fail(name, f"{name} must be a list of numbers.",
+                      f"Send the {name} that /v1/fit wrote.")
+        return [self._number(f"{name}[{i}]", v, nullable) for i, v in enumerate(value)]
+
+    def _matrix(self, name, value, nullable: bool = False):
+        if not isinstance(value, list):
+            self.fail(name, f"{name} must be a list of rows.",
+                      f"Send the {name} that /v1/fit wrote.")
+        return [self._vector(f"{name}[{i}]", row, nullable) for i, row in enumerate(value)]
+
+    def _matrix_nullable(self, name, value):
+        return self._matrix(name, value, nullable=True)
+
+    # --- whole-document checks
+    def _check_scalars(self, v: dict) -> None:
+        keep = "Send the fitted_model object exactly as /v1/fit returned it."
+        if v["family"] != "polynomial":
+            self.fail("family", f"Unknown family {v['family']!r}; only 'polynomial'.", keep)
+        if not 0 <= v["degree"] <= HARD_MAX_DEGREE:
+            self.fail("degree", f"degree must be 0..{HARD_MAX_DEGREE}.", keep)
+        p = v["degree"] + (1 if v["intercept"] else 0)
+        if p < 1:
+            self.fail("degree", "A model without intercept needs degree >= 1.", keep)
+        if len(v["terms"]) != p:
+            self.fail("terms", f"terms must list {p} terms for this degree and intercept.", keep)
+        for name in ("transform_x", "transform_y"):
+            if v[name] not in TRANSFORMS:
+                self.fail(name, f"{name} must be one of {', '.join(TRANSFORMS)}.", keep)
+        if not v["x_scale"] > 0:
+            self.fail("x_scale", "x_scale must be positive.", keep)
+        for name in ("basis_coefficients", "raw_coefficients"):
+            if len(v[name]) != p:
+                self.fail(name, f"{name} must have {p} entries.", keep)
+        for name in ("r_factor", "raw_covariance"):
+            if len(v[name]) != p or any(len(row) != p for row in v[name]):
+                self.fail(name, f"{name} must be a {p} x {p} matrix.", keep)
+        if v["df_residual"] < 0 or v["n"] < p or v["df_residual"] > v["n"] - p:
+            self.fail("df_residual", "df_residual must lie in 0 .. n - parameters.", keep)
+        if v["sigma"] is None:
+            v["sigma"] = math.nan
+            if v["df_residual"] > 0:
+                self.fail("sigma", "sigma is null although df_residual > 0.", keep)
+        elif v["sigma"] < 0:
+            self.fail("sigma", "sigma must be >= 0.", keep)
+        if not v["x_min"] <= v["x_max"]:
+            self.fail("x_min", "x_min must not exceed x_max.", keep)
+        if not 0 < v["level"] < 1:
+            self.fail("level", "level must lie strictly between 0 and 1.", keep)
+
+    def check_consistency(self, v, basis, raw, r_factor, covariance, p) -> None:
+        """Catch hand edits that break the document's internal arithmetic, naming the field."""
+        keep = "Send the fitted_model object exactly as /v1/fit returned it."
+        if np.any(np.tril(r_factor, -1) != 0.0):
+            self.fail("r_factor", "r_factor must be upper triangular.", keep)
+        if np.any(np.diag(r_factor) == 0.0):
+            self.fail("r_factor", "r_factor has a zero on its diagonal.", keep)
+        finite = np.isfinite(covariance)
+        if not np.array_equal(finite, finite.T) or not np.allclose(
+                covariance[finite], covariance.T[finite], rtol=1e-9, atol=0.0):
+            self.fail("raw_covariance", "raw_covariance must be symmetric.", keep)
+        expected = basis_to_raw(basis, v["x_shift"], v["x_scale"], v["intercept"])
+        if expected.shape != raw.shape:
+            self.fail("x_shift", "A model without intercept must have x_shift 0.", keep)
+        u = np.linspace(v["x_min"], v["x_max"], 7) if v["transform_x"] == "none" else (
+            v["x_shift"] + v["x_scale"] * np.linspace(-1.0, 1.0, 7))
+        powers = np.arange(0 if v["intercept"] else 1, (0 if v["intercept"] else 1) + p)
+        terms_raw = raw[None, :] * u[:, None] ** powers[None, :]
+        terms_exp = expected[None, :] * u[:, None] ** powers[None, :]
+        gap = np.abs(terms_raw.sum(axis=1) - terms_exp.sum(axis=1))
+        size = np.abs(terms_raw).sum(axis=1) + np.abs(terms_exp).sum(axis=1)
+        if np.any(gap > 1e-7 * size + 1e-300):
+            self.fail("basis_coefficients",
+                      "basis_coefficients and raw_coefficients describe different curves; "
+                      "one of them was edited.", keep, "document_inconsistent")
+
+    def check_checksum(self, v) -> None:
+        given = v["checksum"]
+        if not (given.startswith(CHECKSUM_PREFIX) and len(given) == len(CHECKSUM_PREFIX) + 64):
+            self.fail("checksum", "checksum must be 'sha256:' followed by 64 hex digits.",
+                      "Send the fitted_model object exactly as /v1/fit returned it.",
+                      "checksum_mismatch")
+        body = dict(v)
+        body["sigma"] = _float(body["sigma"])
+        if given != checksum(body):
+            self.fail("checksum",
+                      "The checksum does not match the document's content: a field was changed "
+                      "after the fit (hand edit, truncation or lossy number formatting).",
+                      "Send the fitted_model object unchanged, or refit to get a new one.",
+                      "checksum_mismatch")
