@@ -7,8 +7,13 @@ Public surface (import from here, not from submodules)::
 
 plus the option types in :mod:`service.core.spec`, the result types in
 :mod:`service.core.results` and the errors in :mod:`service.core.errors`.
+
+Weights are inverse variances (``1/sd²``). See :mod:`service.core.polynomial`
+for the fit, :mod:`service.core.selection` for the degree-choice rules and
+:mod:`service.core.bands` for the bands and the retransformation caveat.
 """
 
+from service.core.bands import predict  # noqa: F401
 from service.core.errors import (  # noqa: F401
     DataError,
     DesignError,
@@ -17,5 +22,20 @@ from service.core.errors import (  # noqa: F401
     SpecError,
     TransformError,
 )
-from service.core.results import FitReport, FittedPolynomial, Prediction  # noqa: F401
+from service.core.polynomial import fit_series  # noqa: F401
+from service.core.results import (  # noqa: F401
+    AnovaRow,
+    Candidate,
+    Coefficient,
+    Diagnostics,
+    FitReport,
+    FitStatistics,
+    FittedPolynomial,
+    LackOfFit,
+    Notice,
+    Prediction,
+    Selection,
+    TestResult,
+    TrustFlag,
+)
 from service.core.spec import FitOptions, GridSpec, ModelSpec  # noqa: F401

@@ -8,8 +8,8 @@ refer to positions in the caller's *original* arrays (before any dropping).
 
 from __future__ import annotations
 
+from collections.abc import Mapping
 from dataclasses import dataclass
-from typing import Mapping
 
 import numpy as np
 

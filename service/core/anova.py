@@ -1,0 +1,61 @@
+"""Sequential (Type I) sums of squares and the lack-of-fit test against pure error.
+
+Each power's sequential SS is the square of its effect in ``Q'y`` (the
+orthogonal decomposition of the weighted response in entry order), so the
+rows add up exactly to the regression SS. Without an intercept the first
+row (``x``) is uncentred, as in NIST StRD's no-intercept datasets.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+from scipy import special
+
+from service.core.results import AnovaRow, LackOfFit
+from service.core.selection import term
+
+NAN = float("nan")
+
+
+def sequential_table(effects: np.ndarray, degree: int, intercept: bool, rss: float,
+                     df_residual: int) -> tuple[AnovaRow, ...]:
+    """One row per power in entry order, then the residual row (nan f/p)."""
+    c = 1 if intercept else 0
+    ss = np.asarray(effects[c:degree + c], dtype=float) ** 2
+    with np.errstate(all="ignore"):
+        mse = rss / df_residual if df_residual > 0 else NAN
+        f = ss / mse if rss > 0 else np.full(ss.shape, NAN)
+        p = special.fdtrc(1, df_residual, f) if df_residual > 0 else np.full(ss.shape, NAN)
+    rows = [AnovaRow(term(k + 1), 1, float(ss[k]), float(ss[k]), float(f[k]), float(p[k]))
+            for k in range(degree)]
+    rows.append(AnovaRow("residual", df_residual, rss, mse, NAN, NAN))
+    return tuple(rows)
+
+
+def lack_of_fit(x: np.ndarray, zw: np.ndarray, sqrt_w: np.ndarray | None, rss: float,
+                p: int) -> LackOfFit | None:
+    """Lack-of-fit F test; None when no x value repeats.
+
+    Pure-error SS is the (weighted) scatter of y about the mean of its own x
+    level; lack-of-fit SS = residual SS - pure-error SS, on ``levels - p``
+    df. The F is undefined (nan) when ``levels <= p`` or pure error is zero.
+    """
+    levels, inverse = np.unique(x, return_inverse=True)
+    k, n = levels.size, x.size
+    if k == n:
+        return None
+    w = np.ones(n) if sqrt_w is None else sqrt_w * sqrt_w
+    z = zw if sqrt_w is None else zw / sqrt_w
+    sw = np.bincount(inverse, weights=w, minlength=k)
+    means = np.bincount(inverse, weights=w * z, minlength=k) / sw
+    dev = z - means[inverse]
+    ss_pure = float(np.sum(w * dev * dev))
+    df_pure, df_lack = n - k, k - p
+    ss_lack = max(rss - ss_pure, 0.0)
+    with np.errstate(all="ignore"):
+        if df_lack > 0 and ss_pure > 0:
+            f = (ss_lack / df_lack) / (ss_pure / df_pure)
+            pv = float(special.fdtrc(df_lack, df_pure, f))
+        else:
+            f = pv = NAN
+    return LackOfFit(df_lack, ss_lack, df_pure, ss_pure, f, pv, k)

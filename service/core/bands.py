@@ -1,0 +1,104 @@
+"""Predictions with bands at any x, from a :class:`FittedPolynomial` alone.
+
+``fit_series`` evaluates its grid with :func:`predict`, so a stored model
+reproduces the grid exactly.
+
+Bands, at confidence ``level`` with ``t = t_{df}(1 - (1 - level)/2)``:
+
+* mean: ``fit ± t se``, with ``se = sigma ||R^-T v(t)||``;
+* new observation(s): ``fit ± t sqrt(se² + sigma²/m)`` for the mean of ``m``
+  future observations of unit weight (variance sigma², i.e. weight 1 on the
+  caller's inverse-variance scale);
+* simultaneous (Working-Hotelling) band for the whole curve:
+  ``fit ± sqrt(p F_{p, df}(level)) se``.
+
+With a transformed response the fit and limits are computed on the fitting
+scale and mapped back through the inverse transform (limits swap for the
+decreasing ``reciprocal``). The back-transformed fit estimates the *median*
+of y rather than its mean when the errors are symmetric on the fitting
+scale (retransformation bias; for ``log`` the mean is larger by about
+``exp(sigma²/2)``). ``se_fit`` stays on the fitting scale.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+from scipy import special
+
+from service.core import design, transforms
+from service.core.errors import DataError, SpecError
+from service.core.results import FittedPolynomial, Prediction, frozen_array
+
+
+def _check_level(level: float) -> float:
+    level = float(level)
+    if not 0.0 < level < 1.0:
+        raise SpecError(f"level = {level!r} is not between 0 and 1.", field="level",
+                        fix="Use a confidence level such as 0.95.")
+    return level
+
+
+def predict(fitted: FittedPolynomial, x, *, level: float | None = None, m: int = 1) -> Prediction:
+    """Fitted values and bands at ``x`` (original x and y scales).
+
+    Parameters
+    ----------
+    fitted : FittedPolynomial
+        A fitted model (``FitReport.model``).
+    x : array_like
+        Where to predict, on the caller's original x scale; finite values.
+    level : float, optional
+        Confidence level; defaults to the level the model was fitted with.
+    m : int
+        Number of future observations whose mean the observation band covers.
+
+    Raises
+    ------
+    DataError, TransformError, SpecError
+        Non-finite x, x outside the x transform's domain, bad level or m.
+    """
+    level = _check_level(fitted.level if level is None else level)
+    if isinstance(m, bool) or int(m) != m or m < 1:
+        raise SpecError(f"m = {m!r} is not a positive whole number.", field="m",
+                        fix="Give the number of future observations to average (1 or more).")
+    xs = np.atleast_1d(np.asarray(x, dtype=float))
+    if xs.ndim != 1:
+        raise DataError("x must be one-dimensional.", field="x", fix="Send a flat list of numbers.")
+    bad = ~np.isfinite(xs)
+    if bad.any():
+        i = int(np.flatnonzero(bad)[0])
+        raise DataError(f"x[{i}] is not a finite number.", field=f"x[{i}]",
+                        fix="Predict only at finite x values.")
+    u = transforms.apply(fitted.transform_x, xs, field="x")
+    t = design.to_t(u, fitted.x_shift, fitted.x_scale)
+    v = design.basis(t, fitted.degree, fitted.intercept)
+    fit = v @ fitted.basis_coefficients
+    df = fitted.df_residual
+    sigma = fitted.sigma
+    with np.errstate(all="ignore"):
+        s = np.linalg.solve(fitted.r_factor.T, v.T)  # R^-T v(t), one column per x
+        se = sigma * np.sqrt(np.einsum("ij,ij->j", s, s))
+        if df > 0:
+            tq = float(special.stdtrit(df, 0.5 + level / 2))
+            wh = float(np.sqrt(v.shape[1] * special.fdtri(v.shape[1], df, level)))
+        else:
+            tq = wh = float("nan")
+        half_mean = tq * se
+        half_obs = tq * np.sqrt(se * se + sigma * sigma / m)
+        half_band = wh * se
+    name = fitted.transform_y
+    back = transforms.inverse
+    fit_y = back(name, fit)
+
+    def limits(half):
+        lo, hi = back(name, fit - half), back(name, fit + half)
+        return (lo, hi) if transforms.is_increasing(name) else (hi, lo)
+
+    mean_lo, mean_hi = limits(half_mean)
+    obs_lo, obs_hi = limits(half_obs)
+    band_lo, band_hi = limits(half_band)
+    extrap = (xs < fitted.x_min) | (xs > fitted.x_max)
+    return Prediction(frozen_array(xs), frozen_array(fit_y), frozen_array(se),
+                      frozen_array(mean_lo), frozen_array(mean_hi), frozen_array(obs_lo),
+                      frozen_array(obs_hi), frozen_array(band_lo), frozen_array(band_hi),
+                      frozen_array(extrap, dtype=bool), level)

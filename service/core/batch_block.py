@@ -1,0 +1,171 @@
+"""Fit, compare and select candidate degrees for one block of same-width series.
+
+Everything is vectorized over the rows of ``(G, L)`` arrays (see
+:mod:`service.core.batch_engine` for the numerics). Conventions and the
+selection rules are those of :mod:`service.core.summary` and
+:mod:`service.core.selection`, so each row gets the answer ``fit_series`` gives.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from service.core import batch_engine as eng
+
+EPS = np.finfo(float).eps
+EXACT_FIT_RTOL = 1e3 * EPS  # as service.core.decomposition: residual this small is rounding
+LEVERAGE_ONE = 1 - 1e-10    # as service.core.summary: leave-one-out residual undefined above
+
+
+@dataclass(frozen=True, slots=True)
+class BlockSpec:
+    """What to fit in a block: candidate degrees and how to choose among them."""
+
+    min_degree: int
+    max_degree: int
+    intercept: bool
+    select: str          # one of SELECT_METHODS, or "fixed"
+    alpha: float
+    need_press: bool
+
+    @property
+    def c(self) -> int:
+        return 1 if self.intercept else 0
+
+    def p(self, degree):
+        return degree + self.c
+
+
+def fit_block(u, z, w, valid, spec: BlockSpec) -> dict:
+    """Fit every candidate degree for each row and select one.
+
+    Parameters
+    ----------
+    u, z : ndarray (G, L)
+        x and y on the fitting scale (after transforms); 0 where padded.
+    w : ndarray (G, L) or None
+        Weights, 0 where padded; None: unweighted and unpadded.
+    valid : ndarray of bool (G, L)
+        True for real points.
+    spec : BlockSpec
+
+    Returns
+    -------
+    dict of ndarray
+        Candidate tables ``cand_<measure>`` (G, n_candidates); the chosen
+        ``degree``; raw-x ``coef`` and ``se`` (G, P) NaN beyond the model's
+        terms; chosen-model measures; the chosen model's weighted residuals
+        ``resid_w``, leverage ``leverage`` and the basis ``q`` for diagnostics.
+    """
+    G = u.shape[0]
+    n = valid.sum(axis=1).astype(float)
+    t, shift, scale = eng.scale_x(u, valid, spec.intercept)
+    s = None if w is None else np.sqrt(w)
+    big_p = spec.p(spec.max_degree)
+    q, coef = eng.orthonormal_basis(t, s, big_p, spec.intercept)
+    zw = z if s is None else s * z
+    sum_zw2 = eng._dot(zw, zw)
+    if spec.intercept:  # remove the weighted mean first: no cancellation on large offsets
+        sw = n if w is None else w.sum(axis=1)
+        zbar = (zw.sum(axis=1) if s is None else eng._dot(s, zw)) / sw
+        zc = zw - (zbar[:, None] if s is None else zbar[:, None] * s)
+        b, res = eng.effects(q[1:], zc)
+        b = np.concatenate([(zbar * np.sqrt(sw))[:, None], b], axis=1)
+    else:
+        b, res = eng.effects(q, zw)
+    rss_full = eng._dot(res, res)
+    b2 = b * b
+    tail = np.cumsum(b2[:, ::-1], axis=1)[:, ::-1]     # tail[:, j] = sum_{i >= j} b_i^2
+    sum_log_w = 0.0 if w is None else np.log(np.where(valid, w, 1.0)).sum(axis=1)[:, None]
+
+    degrees = np.arange(spec.min_degree, spec.max_degree + 1)
+    k = spec.p(degrees)
+    rss = rss_full[:, None] + np.concatenate([tail[:, k[k < big_p]],
+                                              np.zeros((G, int((k >= big_p).sum())))], axis=1)
+    rss = np.where(rss <= EXACT_FIT_RTOL ** 2 * sum_zw2[:, None], 0.0, rss)
+    head = np.cumsum(b2, axis=1)
+    ss_model = head[:, k - 1] - (head[:, [0]] if spec.intercept else 0.0)
+    exact = (rss == 0.0) & (ss_model > 0)
+    cand = eng.criteria(rss, ss_model, n[:, None], k[None, :].astype(float), spec.c, sum_log_w)
+    f, pf = eng.f_last(b[:, k - 1], rss, cand["df_residual"], exact)
+    if spec.intercept and degrees[0] == 0:
+        f[:, 0] = pf[:, 0] = np.nan
+    cand.update(f_last=f, p_last=pf, exact=exact,
+                press=_press(q, b, res, k, valid, exact) if spec.need_press
+                else np.full(rss.shape, np.nan))
+    pick = choose(cand, spec)
+    rows = np.arange(G)
+    chosen = degrees[pick]
+    p_row = spec.p(chosen)
+    out = {f"cand_{key}": val for key, val in cand.items()}
+    out.update({key: val[rows, pick] for key, val in cand.items()})
+    out.update(_coefficients(coef, b, p_row, out["sigma"], shift, scale, spec))
+    keep = np.arange(big_p)[None, :] >= p_row[:, None]  # effects the chosen model leaves out
+    resid = res + np.einsum("gk,kgn->gn", b * keep, q) if keep.any() else res
+    lev = np.einsum("kgn,kgn,gk->gn", q, q, (~keep).astype(float))
+    out.update(degree=chosen, n=n, x_shift=shift, x_scale=scale, resid_w=resid, leverage=lev,
+               q=q, t=t, sqrt_w=s, coef_t=coef, p=p_row)
+    return out
+
+
+def _press(q, b, res, k, valid, exact):
+    """PRESS of every candidate: sum of (e_i / (1 - h_i))^2; NaN when some h_i ~ 1."""
+    big_p = q.shape[0]
+    out = np.empty((res.shape[0], k.size))
+    e = res.copy()
+    lev = np.einsum("kgn,kgn->gn", q, q)
+    kk = big_p
+    for i in range(k.size - 1, -1, -1):   # walk down from the largest model
+        while kk > k[i]:
+            kk -= 1
+            e += b[:, kk, None] * q[kk]
+            lev -= q[kk] * q[kk]
+        with np.errstate(divide="ignore", invalid="ignore"):
+            loo = np.where(valid, e / (1 - lev), 0.0)
+            ok = np.where(valid, lev < LEVERAGE_ONE, True).all(axis=1)
+            out[:, i] = np.where(ok, eng._dot(loo, loo), np.nan)
+    return np.where(exact, 0.0, out)
+
+
+def choose(cand: dict, spec: BlockSpec) -> np.ndarray:
+    """Index of the chosen candidate per row, by the rules of :mod:`service.core.selection`.
+
+    A candidate that fits exactly ends the search (for ``sequential_f`` only
+    when the climb reaches it). ``sequential_f``: climb from the lowest degree
+    while the next power is significant at ``alpha``. Information criteria and
+    PRESS: smallest value; ``adj_r2``: largest (ties: the lower degree; all
+    undefined: the lowest degree).
+    """
+    G, m = cand["rss"].shape
+    if spec.select == "fixed":
+        return np.zeros(G, dtype=int)
+    exact = cand["exact"]
+    has_exact = exact.any(axis=1)
+    first_exact = np.argmax(exact, axis=1)
+    if spec.select == "sequential_f":
+        climb = np.cumprod(cand["p_last"][:, 1:] < spec.alpha, axis=1).sum(axis=1)
+        take_exact = has_exact & (first_exact <= climb + 1)
+        return np.where(take_exact, first_exact, climb)
+    if spec.select == "adj_r2":
+        vals = cand["adj_r_squared"]
+        pick = np.argmax(np.where(np.isnan(vals), -np.inf, vals), axis=1)
+    else:
+        vals = cand[spec.select]
+        pick = np.argmin(np.where(np.isnan(vals), np.inf, vals), axis=1)
+    pick = np.where(np.isnan(vals).all(axis=1), 0, pick)
+    return np.where(has_exact, first_exact, pick)
+
+
+def _coefficients(coef, b, p_row, sigma, shift, scale, spec: BlockSpec) -> dict:
+    """Raw-x coefficients and standard errors of the chosen model, NaN beyond its terms."""
+    big_p = coef.shape[1]
+    keep = np.arange(big_p)[None, :] < p_row[:, None]
+    cm = coef * keep[:, None, :]                     # columns of R^-1 the model uses
+    a_t = np.einsum("gmk,gk->gm", cm, b * keep)
+    tm = eng.raw_power_matrix(shift, scale, big_p, 1 - spec.c)
+    a_raw = np.einsum("gjm,gm->gj", tm, a_t)
+    half = np.einsum("gjm,gmk->gjk", tm, cm)         # T R^-1: cov_raw = sigma^2 half half'
+    se = np.sqrt(np.einsum("gjk,gjk->gj", half, half)) * sigma[:, None]
+    return {"coef": np.where(keep, a_raw, np.nan), "se": np.where(keep, se, np.nan)}

@@ -1,0 +1,179 @@
+"""The fit of one series: validation, QR, selection, tables, bands and diagnostics.
+
+Weights are **inverse variances**: ``w_i = 1 / var(y_i)`` up to one common
+factor (``sigma²`` estimates that factor). A point measured twice as
+precisely (half the standard deviation) gets four times the weight.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+from scipy import special
+
+from service.core import design, transforms
+from service.core.anova import sequential_table
+from service.core.bands import predict
+from service.core.decomposition import decompose
+from service.core.diagnostics import diagnose
+from service.core.errors import DesignError
+from service.core.flags import trust_flags
+from service.core.grid import grid_points
+from service.core.inputs import check_spec, clean_data
+from service.core.results import (
+    Coefficient,
+    FitReport,
+    FitStatistics,
+    FittedPolynomial,
+    Notice,
+    Selection,
+    frozen_array,
+)
+from service.core.selection import candidate_row, choose
+from service.core.spec import FitOptions, ModelSpec
+from service.core.summary import measures
+
+NAN = float("nan")
+RAW_COND_NOTICE = 1e10  # raw-power design condition number worth a notice (common practice)
+
+
+_DEFAULT_MODEL = ModelSpec()
+_DEFAULT_OPTIONS = FitOptions()
+
+
+def fit_series(x, y, weights=None, *, model: ModelSpec = _DEFAULT_MODEL,
+               options: FitOptions = _DEFAULT_OPTIONS) -> FitReport:
+    """Fit a polynomial to one series and analyse it.
+
+    Parameters
+    ----------
+    x, y : array_like
+        Paired values; null/NaN marks a missing value (see ``options.missing``).
+    weights : array_like, optional
+        Inverse variances (``1/sd²``), strictly positive; None for equal weights.
+    model : ModelSpec
+        Fixed ``degree``, or ``max_degree`` with a ``select`` method.
+    options : FitOptions
+        Level, missing-value policy, grid, sections to compute.
+
+    Returns
+    -------
+    FitReport
+        Frozen. ``diagnostics``/``grid`` are None when not in ``options.include``
+        (or when ``options.grid`` is None).
+
+    Raises
+    ------
+    DataError, TransformError, DesignError, SpecError
+        Each names the offending field and how to fix it.
+    """
+    dmin, dmax, selects = check_spec(model, options)
+    data = clean_data(x, y, weights, options.missing)
+    intercept = model.intercept
+    u = transforms.apply(model.transform_x, data.x, field="x", index=data.index)
+    z = transforms.apply(model.transform_y, data.y, field="y", index=data.index)
+    notices: list[Notice] = []
+    dmax = _supported_max(u, intercept, dmin, dmax, selects, notices)
+    dec = decompose(u, z, data.w, dmax, intercept)
+    n = u.size
+    sum_log_w = 0.0 if data.w is None else float(np.sum(np.log(data.w)))
+    h_all = np.cumsum(dec.q * dec.q, axis=1)
+    fit_all = np.cumsum(dec.q * dec.effects.astype(float), axis=1)
+    cands = [measures(dec, d, sum_log_w, h_all[:, dec.p(d) - 1], fit_all[:, dec.p(d) - 1])
+             if dec.p(d) > 0 else None for d in range(dmin, dmax + 1)]
+    if selects:
+        degree, reason = choose(model.select, cands, model.alpha)
+        method = model.select
+    else:
+        degree, reason, method = dmin, f"Degree {dmin} was fixed by the caller.", "fixed"
+    m = cands[degree - dmin]
+    p = m.p
+    selection = Selection(method, degree, reason, float(model.alpha),
+                          tuple(candidate_row(c) for c in cands))
+    rinv = dec.r_inverse(degree)
+    coef_b = rinv @ dec.effects[:p]
+    sigma2 = 0.0 if m.exact else (m.rss / m.df_residual if m.df_residual > 0 else NAN)
+    raw, cov = design.raw_coefficients(dec.shift, dec.scale, degree, intercept, coef_b,
+                                       (rinv @ rinv.T) * np.longdouble(sigma2))
+    sigma = 0.0 if m.exact else m.sigma
+    terms = design.term_names(degree, intercept)
+    r64 = np.asarray(dec.r[:p, :p], dtype=float)
+    cond = _condition(r64)
+    raw_cond = _raw_condition(r64, dec.shift, dec.scale, degree, intercept)
+    if raw_cond > RAW_COND_NOTICE:
+        notices.append(Notice("raw_coefficients_sensitive",
+                              f"The raw-power design has condition number {raw_cond:.3g}: the "
+                              "raw coefficients are very sensitive to rounding and to the data. "
+                              "Predict with the fitted model (it works on the scaled basis)."))
+    if model.transform_y != "none":
+        notices.append(Notice("retransformation_bias",
+                              f"y was fitted on the {model.transform_y} scale; predictions are "
+                              "back-transformed naively, which estimates the median rather than "
+                              "the mean of y (retransformation bias)."))
+    xmin, xmax = float(data.x.min()), float(data.x.max())
+    fitted = FittedPolynomial(
+        degree, intercept, model.transform_x, model.transform_y, terms, dec.shift, dec.scale,
+        frozen_array(np.asarray(coef_b, dtype=float)), frozen_array(r64), frozen_array(raw),
+        frozen_array(cov), float(sigma), m.df_residual, n, xmin, xmax, data.w is not None,
+        float(options.level))
+    coefficients = _coefficient_table(terms, raw, cov, m.df_residual, options.level)
+    anova = sequential_table(dec.effects, degree, intercept, m.rss, m.df_residual)
+    statistics = FitStatistics(
+        n, p, m.df_model, m.df_residual, m.rss, m.tss, intercept, m.r_squared, m.adj_r_squared,
+        float(sigma), m.f, m.f_p_value, m.log_likelihood, m.aic, m.aicc, m.bic, m.press,
+        m.predicted_r_squared, cond)
+    diagnostics = None
+    if "diagnostics" in options.include:
+        diagnostics = diagnose(data.index, data.x, dec.t, dec.q[:, :p], dec.effects[:p], dec.zw,
+                               dec.sqrt_w, m.rss, degree, m.exact)
+    grid = None
+    if "grid" in options.include and options.grid is not None:
+        gx = grid_points(options.grid, xmin, xmax, options.max_grid_points)
+        grid = predict(fitted, gx, level=options.level)
+    flags = trust_flags(n=n, p=p, exact=m.exact, condition=cond, diagnostics=diagnostics,
+                        grid=grid)
+    return FitReport(fitted, data.n_input, data.dropped, coefficients, anova, statistics,
+                     selection, diagnostics, grid, flags, tuple(notices))
+
+
+def _supported_max(u, intercept, dmin, dmax, selects, notices) -> int:
+    """Largest degree the distinct x values support; error or notice when it binds."""
+    distinct = np.unique(u).size
+    cap = distinct - (1 if intercept else 0)
+    if dmin > cap or (not selects and dmax > cap):
+        need = dmin + (1 if intercept else 0)
+        raise DesignError(
+            f"Degree {dmin} needs at least {need} distinct x values; the data have {distinct}.",
+            field="model.degree" if not selects else "model.min_degree",
+            fix=f"Use a degree of at most {max(cap, 0)}, or add points at new x values.")
+    if dmax > cap:
+        notices.append(Notice("max_degree_reduced",
+                              f"max_degree lowered from {dmax} to {cap}: the data have only "
+                              f"{distinct} distinct x values."))
+        return cap
+    return dmax
+
+
+def _coefficient_table(terms, raw, cov, df, level) -> tuple[Coefficient, ...]:
+    se = np.sqrt(np.maximum(np.diag(cov), 0.0))
+    with np.errstate(all="ignore"):
+        tq = float(special.stdtrit(df, 0.5 + level / 2)) if df > 0 else NAN
+        tval = np.where(se > 0, raw / se, NAN)
+        pval = 2 * special.stdtr(df, -np.abs(tval)) if df > 0 else np.full(raw.shape, NAN)
+        half = np.where(se > 0, tq * se, 0.0) if df > 0 else np.full(raw.shape, NAN)
+    return tuple(Coefficient(terms[i], float(raw[i]), float(se[i]), float(tval[i]),
+                             float(pval[i]), float(raw[i] - half[i]), float(raw[i] + half[i]))
+                 for i in range(raw.size))
+
+
+def _condition(r: np.ndarray) -> float:
+    s = np.linalg.svd(r, compute_uv=False)
+    return float(s[0] / s[-1]) if s[-1] > 0 else float("inf")
+
+
+def _raw_condition(r, shift, scale, degree, intercept) -> float:
+    """Condition number of the raw-power design with unit-norm columns."""
+    tm = np.asarray(design.conversion(shift, scale, degree, intercept), dtype=float)
+    with np.errstate(all="ignore"):
+        rr = r @ np.linalg.inv(tm)
+        rr = rr / np.linalg.norm(rr, axis=0)
+        return _condition(rr)

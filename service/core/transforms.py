@@ -1,0 +1,86 @@
+"""Transforms of x and y applied before fitting, their domains and inverses.
+
+Each transform is monotone on its domain, so a band computed on the fitting
+scale maps to a band on the original scale by applying the inverse to its
+limits (swapping them for the decreasing ``reciprocal``).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from service.core.errors import TransformError
+
+# name -> (forward, inverse, domain test, domain in words, increasing?)
+_FORWARD = {
+    "none": lambda v: v,
+    "log": np.log,
+    "log10": np.log10,
+    "sqrt": np.sqrt,
+    "reciprocal": lambda v: 1.0 / v,
+}
+_INVERSE = {
+    "none": lambda v: v,
+    "log": np.exp,
+    "log10": lambda v: np.power(10.0, v),
+    "sqrt": lambda v: np.square(np.maximum(v, 0.0)),  # a square root is never below 0
+    "reciprocal": lambda v: 1.0 / v,
+}
+_DOMAIN = {
+    "none": (None, "any finite number"),
+    "log": (lambda v: v > 0, "greater than 0"),
+    "log10": (lambda v: v > 0, "greater than 0"),
+    "sqrt": (lambda v: v >= 0, "0 or greater"),
+    "reciprocal": (lambda v: v != 0, "different from 0"),
+}
+
+
+def is_increasing(name: str) -> bool:
+    """True when the transform preserves order (all but ``reciprocal``)."""
+    return name != "reciprocal"
+
+
+def apply(name: str, values: np.ndarray, *, field: str,
+          index: np.ndarray | None = None) -> np.ndarray:
+    """Apply transform ``name`` to ``values`` after checking its domain.
+
+    Parameters
+    ----------
+    name : str
+        One of ``service.core.spec.TRANSFORMS``.
+    values : ndarray
+        Finite float values.
+    field : str
+        Request field the values came from (``"x"`` or ``"y"``), used in errors.
+    index : ndarray of int, optional
+        Original positions of ``values`` (after dropping), so an error names
+        the caller's index.
+
+    Raises
+    ------
+    TransformError
+        When a value lies outside the domain; names the first offending index.
+    """
+    if name == "none":
+        return values
+    test, words = _DOMAIN[name]
+    ok = test(values)
+    if not np.all(ok):
+        pos = int(np.flatnonzero(~ok)[0])
+        orig = int(index[pos]) if index is not None else pos
+        raise TransformError(
+            f"{field}[{orig}] = {values[pos]!r} is outside the domain of the {name} "
+            f"transform (values must be {words}).",
+            field=f"{field}[{orig}]",
+            fix=f"Remove or correct that value, or choose transform_{field} = \"none\" "
+                f"or another transform whose domain covers your data.")
+    with np.errstate(all="ignore"):
+        return _FORWARD[name](values)
+
+
+def inverse(name: str, values: np.ndarray) -> np.ndarray:
+    """Map values on the fitting scale back to the original scale (naive back-transform)."""
+    if name == "none":
+        return values
+    with np.errstate(all="ignore"):
+        return _INVERSE[name](values)
