@@ -1,1 +1,63 @@
-"""Python client for the Curvewise service."""
+"""Python client for the Curvewise service (standard library only).
+
+>>> from curvewise_client import Client
+>>> client = Client("http://127.0.0.1:8000")            # doctest: +SKIP
+>>> fit = client.fit(x, y, max_degree=4)                # doctest: +SKIP
+>>> fit.chosen_degree, [row.term for row in fit.anova]  # doctest: +SKIP
+
+Errors are described in :mod:`curvewise_client.errors`; results in
+:mod:`curvewise_client.results`; pandas helpers (``pip install
+curvewise-client[pandas]``) in :mod:`curvewise_client.frames`.
+"""
+
+__version__ = "0.1.0"
+
+from curvewise_client.client import Client  # noqa: E402
+from curvewise_client.errors import (  # noqa: E402
+    ApiError,
+    BadRequest,
+    ConnectError,
+    CurvewiseError,
+    Forbidden,
+    NotFound,
+    PayloadTooLarge,
+    Problem,
+    ProtocolError,
+    RequestTimeout,
+    ServerError,
+    ServiceUnavailable,
+    TooManyRequests,
+    TransportError,
+    Unauthorized,
+    UnprocessableInput,
+    UnsupportedMediaType,
+)
+from curvewise_client.results import (  # noqa: E402
+    AnovaRow,
+    BatchItem,
+    BatchResult,
+    Candidate,
+    Coefficient,
+    Estimate,
+    Estimates,
+    Figure,
+    FitResult,
+    Grid,
+    ModelInfo,
+    Notice,
+    PredictionRow,
+    Predictions,
+    Selection,
+    Statistics,
+)
+from curvewise_client.transport import HTTPTransport, WSGITransport  # noqa: E402
+
+__all__ = [
+    "AnovaRow", "ApiError", "BadRequest", "BatchItem", "BatchResult", "Candidate", "Client",
+    "Coefficient", "ConnectError", "CurvewiseError", "Estimate", "Estimates", "Figure",
+    "FitResult", "Forbidden", "Grid", "HTTPTransport", "ModelInfo", "NotFound", "Notice",
+    "PayloadTooLarge", "PredictionRow", "Predictions", "Problem", "ProtocolError",
+    "RequestTimeout", "Selection", "ServerError", "ServiceUnavailable", "Statistics",
+    "TooManyRequests", "TransportError", "Unauthorized", "UnprocessableInput",
+    "UnsupportedMediaType", "WSGITransport",
+]

@@ -1,0 +1,303 @@
+"""The client: one method per endpoint, typed results, errors from ``curvewise_client.errors``."""
+
+from __future__ import annotations
+
+import json
+import math
+import time
+from collections.abc import Callable, Iterable, Iterator, Mapping, Sequence
+from typing import Any
+
+from curvewise_client import __version__
+from curvewise_client.errors import (
+    ApiError,
+    ConnectError,
+    CurvewiseError,
+    Problem,
+    ProtocolError,
+    RequestTimeout,
+    ServiceUnavailable,
+    api_error_for,
+)
+from curvewise_client.results import (
+    BatchItem,
+    BatchResult,
+    Estimates,
+    Figure,
+    FitResult,
+    Predictions,
+    build,
+    freeze,
+    thaw,
+)
+from curvewise_client.transport import HTTPTransport, Response
+
+JSON = "application/json"
+NDJSON = "application/x-ndjson"
+IMAGE_TYPES = {"png": "image/png", "svg": "image/svg+xml"}
+
+
+class Client:
+    """Talk to one Curvewise service.
+
+    Parameters
+    ----------
+    base_url : str
+        For example ``"http://127.0.0.1:8000"``.
+    token : str, optional
+        Sent as ``Authorization: Bearer <token>`` when the service has auth on.
+    timeout : float
+        Seconds allowed for connecting and for each wait for data.
+    retries : int
+        Extra attempts after a failure that is safe to repeat (see
+        :mod:`curvewise_client.errors`): a 503, a failed connection, a GET timeout.
+    backoff : float
+        First pause between attempts in seconds; doubles each time up to ``backoff_cap``.
+    transport : object, optional
+        Defaults to :class:`~curvewise_client.transport.HTTPTransport`; pass
+        ``WSGITransport(app)`` to call an app in-process.
+    """
+
+    def __init__(self, base_url: str, token: str | None = None, *, timeout: float = 30.0,
+                 retries: int = 2, backoff: float = 0.25, backoff_cap: float = 4.0,
+                 transport: Any = None, sleep: Callable[[float], None] = time.sleep) -> None:
+        if retries < 0 or retries > 10:
+            raise ValueError("retries must be between 0 and 10")
+        self.base_url = base_url.rstrip("/")
+        self.token = token
+        self.timeout = timeout
+        self.retries = retries
+        self.backoff = backoff
+        self.backoff_cap = backoff_cap
+        self.transport = transport if transport is not None else HTTPTransport()
+        self._sleep = sleep
+
+    # -- endpoints ---------------------------------------------------------------------------
+
+    def fit(self, x: Sequence[float], y: Sequence[float], *, weights: Sequence[float] | None = None,
+            model: Mapping[str, Any] | None = None, degree: int | None = None,
+            max_degree: int | None = None, select: str | None = None,
+            grid: Mapping[str, Any] | None = None, level: float | None = None,
+            **options: Any) -> FitResult:
+        """Fit one series (``POST /v1/fit``). Extra keyword arguments become body members."""
+        body = fit_body(x, y, weights=weights, model=model, degree=degree,
+                        max_degree=max_degree, select=select, grid=grid, level=level,
+                        **options)
+        return build(FitResult, self._json("POST", "/v1/fit", body))
+
+    def plot(self, x: Sequence[float], y: Sequence[float], *,
+             panels: Sequence[str] | None = None, format: str = "png",
+             width: int | None = None, height: int | None = None, dpi: int | None = None,
+             **fit_options: Any) -> Figure:
+        """Render a figure of a fit (``POST /v1/plot``); ``fit_options`` as for :meth:`fit`."""
+        if format not in IMAGE_TYPES:
+            raise ValueError(f"format must be one of {sorted(IMAGE_TYPES)}")
+        plot = {"format": format, "panels": list(panels) if panels is not None else None,
+                "width": width, "height": height, "dpi": dpi}
+        body = fit_body(x, y, **fit_options)
+        body["plot"] = {k: v for k, v in plot.items() if v is not None}
+        response = self._request("POST", "/v1/plot", encode(body), accept=IMAGE_TYPES[format])
+        data = response.read()
+        if not response.content_type.startswith("image/"):
+            raise ProtocolError(f"/v1/plot answered {response.content_type!r}, not an image")
+        return Figure(content_type=response.content_type, data=data)
+
+    def batch(self, series: Iterable[Mapping[str, Any]], *,
+              model: Mapping[str, Any] | None = None, detail: str | None = None,
+              **options: Any) -> BatchResult:
+        """Fit many series in one JSON call (``POST /v1/batch``), results in order."""
+        body = {"series": [_series(s) for s in series], **_drop_none(
+            model=dict(model) if model else None, detail=detail, **options)}
+        return build(BatchResult, self._json("POST", "/v1/batch", body))
+
+    def batch_stream(self, series: Iterable[Mapping[str, Any]], *,
+                     model: Mapping[str, Any] | None = None, detail: str | None = None,
+                     **options: Any) -> Iterator[BatchItem]:
+        """Stream series as NDJSON and yield each result as it arrives (never retried).
+
+        ``series`` may be any iterator (a generator reading a huge file): it is
+        consumed lazily while results come back. Shared options (``model``,
+        ``detail``...) travel in the first line as ``{"options": {...}}``.
+        """
+        shared = _drop_none(model=dict(model) if model else None, detail=detail, **options)
+
+        def lines() -> Iterator[bytes]:
+            if shared:
+                yield encode({"options": shared}) + b"\n"
+            for item in series:
+                yield encode(_series(item)) + b"\n"
+
+        response = self._request("POST", "/v1/batch", lines(), content_type=NDJSON,
+                                 accept=NDJSON, retry=False)
+        if response.content_type != NDJSON:
+            response.close()
+            raise ProtocolError(f"/v1/batch answered {response.content_type!r}, not NDJSON")
+        return _stream_items(response)
+
+    def predict(self, fitted_model: Mapping[str, Any] | FitResult, x: Sequence[float], *,
+                level: float | None = None, **options: Any) -> Predictions:
+        """Predict at new x with a stored fitted-model document (``POST /v1/predict``)."""
+        body = {"fitted_model": _document(fitted_model), "x": _numbers(x),
+                **_drop_none(level=level, **options)}
+        return build(Predictions, self._json("POST", "/v1/predict", body))
+
+    def invert(self, fitted_model: Mapping[str, Any] | FitResult, y: Sequence[float], *,
+               replicates: int | None = None, level: float | None = None,
+               **options: Any) -> Estimates:
+        """Read x back from observed y (``POST /v1/invert``)."""
+        body = {"fitted_model": _document(fitted_model), "y": _numbers(y),
+                **_drop_none(replicates=replicates, level=level, **options)}
+        return build(Estimates, self._json("POST", "/v1/invert", body))
+
+    def families(self) -> Mapping[str, Any]:
+        """Model families, their options and the service limits (``GET /v1/families``)."""
+        return freeze(self._json("GET", "/v1/families"))
+
+    def health(self) -> Mapping[str, Any]:
+        """Liveness (``GET /healthz``)."""
+        return freeze(self._json("GET", "/healthz"))
+
+    # -- plumbing ----------------------------------------------------------------------------
+
+    def _json(self, method: str, path: str, payload: Any = None) -> Any:
+        body = None if payload is None else encode(payload)
+        response = self._request(method, path, body)
+        data = response.read()
+        if response.content_type not in (JSON, "application/problem+json"):
+            raise ProtocolError(f"{path} answered {response.content_type!r}, not JSON")
+        try:
+            return json.loads(data)
+        except ValueError as exc:
+            raise ProtocolError(f"{path}: the body is not valid JSON: {exc}") from exc
+
+    def _request(self, method: str, path: str, body: Any, *, accept: str = JSON,
+                 content_type: str = JSON, retry: bool = True) -> Response:
+        headers = {"Accept": accept, "User-Agent": f"curvewise-client/{__version__}"}
+        if body is not None:
+            headers["Content-Type"] = content_type
+        if self.token:
+            headers["Authorization"] = f"Bearer {self.token}"
+        url = self.base_url + path
+        attempts = self.retries + 1 if retry else 1
+        for attempt in range(1, attempts + 1):
+            last = attempt == attempts
+            try:
+                response = self.transport.send(method, url, headers, body, self.timeout)
+            except (ConnectError, RequestTimeout) as exc:
+                exc.attempts = attempt
+                safe = isinstance(exc, ConnectError) or method == "GET"
+                if last or not safe:
+                    raise
+                self._sleep(self._pause(attempt, None))
+                continue
+            if response.status < 400:
+                return response
+            error = _api_error(response)
+            error.attempts = attempt
+            if isinstance(error, ServiceUnavailable) and not last:
+                self._sleep(self._pause(attempt, error.headers.get("retry-after")))
+                continue
+            raise error
+        raise CurvewiseError("unreachable")  # pragma: no cover - the loop always returns/raises
+
+    def _pause(self, attempt: int, retry_after: str | None) -> float:
+        pause = min(self.backoff * 2 ** (attempt - 1), self.backoff_cap)
+        if retry_after and retry_after.strip().isdigit():
+            pause = min(max(pause, float(retry_after)), self.backoff_cap)
+        return pause
+
+
+def fit_body(x: Sequence[float], y: Sequence[float], *, weights: Sequence[float] | None = None,
+             model: Mapping[str, Any] | None = None, degree: int | None = None,
+             max_degree: int | None = None, select: str | None = None,
+             grid: Mapping[str, Any] | None = None, level: float | None = None,
+             **options: Any) -> dict[str, Any]:
+    """The ``/v1/fit`` request body as a dict (shortcuts merged into ``model``)."""
+    spec = dict(model or {})
+    spec.update(_drop_none(degree=degree, max_degree=max_degree, select=select))
+    body: dict[str, Any] = {"x": _numbers(x), "y": _numbers(y)}
+    if weights is not None:
+        body["weights"] = _numbers(weights)
+    body.update(_drop_none(model=spec or None, grid=dict(grid) if grid else None, level=level,
+                           **options))
+    return body
+
+
+def encode(payload: Any) -> bytes:
+    """Compact JSON; floats keep every digit; NaN becomes null; infinity is refused."""
+    try:
+        return json.dumps(payload, allow_nan=False, separators=(",", ":"),
+                          default=_default).encode()
+    except ValueError:
+        return json.dumps(_nan_to_none(payload), allow_nan=False, separators=(",", ":"),
+                          default=_default).encode()
+
+
+def _nan_to_none(value: Any, path: str = "") -> Any:
+    if isinstance(value, float) and not math.isfinite(value):
+        if math.isnan(value):
+            return None
+        raise ValueError(f"{path or 'value'} is infinite; JSON has no infinity — send a finite "
+                         "number or drop the point")
+    if isinstance(value, Mapping):
+        return {k: _nan_to_none(v, f"{path}.{k}" if path else str(k)) for k, v in value.items()}
+    if isinstance(value, (list, tuple)):
+        return [_nan_to_none(v, f"{path}[{i}]") for i, v in enumerate(value)]
+    return value
+
+
+def _default(obj: Any) -> Any:
+    if isinstance(obj, Mapping):
+        return dict(obj)
+    if hasattr(obj, "tolist"):  # numpy arrays/scalars, pandas Series, without importing them
+        return obj.tolist()
+    raise TypeError(f"cannot send a {type(obj).__name__} as JSON")
+
+
+def _numbers(values: Any) -> Any:
+    if hasattr(values, "tolist"):
+        return values.tolist()
+    return list(values)
+
+
+def _drop_none(**members: Any) -> dict[str, Any]:
+    return {k: v for k, v in members.items() if v is not None}
+
+
+def _series(item: Mapping[str, Any]) -> dict[str, Any]:
+    out = {k: v for k, v in dict(item).items() if v is not None}
+    for key in ("x", "y", "weights"):
+        if key in out:
+            out[key] = _numbers(out[key])
+    return out
+
+
+def _document(fitted_model: Mapping[str, Any] | FitResult) -> dict[str, Any]:
+    if isinstance(fitted_model, FitResult):
+        if fitted_model.fitted_model is None:
+            raise ValueError("this fit result carries no fitted_model (was it excluded?)")
+        fitted_model = fitted_model.fitted_model
+    return thaw(fitted_model)
+
+
+def _api_error(response: Response) -> ApiError:
+    raw = response.read()
+    try:
+        body = json.loads(raw) if raw else {}
+    except ValueError:
+        body = {}
+    if not isinstance(body, dict) or "title" not in body:
+        text = raw.decode("utf-8", "replace").strip()[:500]
+        body = {"title": f"HTTP {response.status}", "status": response.status,
+                "detail": text or "the service sent no problem details"}
+    return api_error_for(response.status, Problem.from_json(body, response.status),
+                         response.headers)
+
+
+def _stream_items(response: Response) -> Iterator[BatchItem]:
+    for line in response.iter_lines():
+        try:
+            data = json.loads(line)
+        except ValueError as exc:
+            raise ProtocolError(f"/v1/batch sent a line that is not JSON: {line[:200]!r}") from exc
+        yield build(BatchItem, data)

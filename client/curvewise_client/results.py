@@ -1,0 +1,311 @@
+"""Typed, frozen results mirroring the service's JSON answers.
+
+Every field has the wire name. JSON ``null`` (an undefined statistic) is
+``None``; JSON arrays become tuples and objects become read-only mappings, so
+a result cannot be changed after it is built. Top-level results also keep the
+whole decoded answer as ``raw`` (read-only), so members added to the service
+later are never lost. Builders are tolerant: a member the service did not send
+is ``None`` (or empty), never an exception.
+"""
+
+from __future__ import annotations
+
+from collections.abc import Callable, Mapping
+from dataclasses import MISSING, dataclass, field, fields
+from pathlib import Path
+from types import MappingProxyType
+from typing import Any
+
+EMPTY: Mapping[str, Any] = MappingProxyType({})
+
+
+def _empty() -> Mapping[str, Any]:
+    return EMPTY
+
+
+def freeze(value: Any) -> Any:
+    """Deep read-only copy of decoded JSON (dict -> mapping proxy, list -> tuple)."""
+    if isinstance(value, Mapping):
+        return MappingProxyType({k: freeze(v) for k, v in value.items()})
+    if isinstance(value, (list, tuple)):
+        return tuple(freeze(v) for v in value)
+    return value
+
+
+def thaw(value: Any) -> Any:
+    """Plain JSON-ready copy of a frozen value (mapping -> dict, tuple -> list)."""
+    if isinstance(value, Mapping):
+        return {k: thaw(v) for k, v in value.items()}
+    if isinstance(value, (list, tuple)):
+        return [thaw(v) for v in value]
+    return value
+
+
+@dataclass(frozen=True, slots=True)
+class ModelInfo:
+    """The fitted model: family, degree and term names in order."""
+
+    family: str | None = None
+    degree: int | None = None
+    intercept: bool | None = None
+    terms: tuple[str, ...] = ()
+    transform_x: str | None = None
+    transform_y: str | None = None
+
+
+@dataclass(frozen=True, slots=True)
+class Coefficient:
+    """One coefficient in the raw x scale, with its confidence limits."""
+
+    term: str
+    estimate: float | None = None
+    std_error: float | None = None
+    t: float | None = None
+    p_value: float | None = None
+    lower: float | None = None
+    upper: float | None = None
+
+
+@dataclass(frozen=True, slots=True)
+class AnovaRow:
+    """One row of the sequential (Type I) table; the residual row has no ``f``/``p_value``."""
+
+    term: str
+    df: int | None = None
+    sum_sq: float | None = None
+    mean_sq: float | None = None
+    f: float | None = None
+    p_value: float | None = None
+
+
+@dataclass(frozen=True, slots=True)
+class Statistics:
+    """Whole-fit statistics (``None`` where undefined or not sent)."""
+
+    r_squared: float | None = None
+    adj_r_squared: float | None = None
+    sigma: float | None = None
+    df_residual: int | None = None
+    aic: float | None = None
+    bic: float | None = None
+    aicc: float | None = None
+    press: float | None = None
+    predicted_r_squared: float | None = None
+    f: float | None = None
+    f_p_value: float | None = None
+    log_likelihood: float | None = None
+    rss: float | None = None
+    condition_number: float | None = None
+
+
+@dataclass(frozen=True, slots=True)
+class Candidate:
+    """One candidate degree in the selection trail, as sent (members vary by method)."""
+
+    degree: int
+    values: Mapping[str, Any] = field(default_factory=_empty)
+
+    def __getitem__(self, name: str) -> Any:
+        return self.values[name]
+
+    def get(self, name: str, default: Any = None) -> Any:
+        """A criterion or statistic of this candidate, or ``default``."""
+        return self.values.get(name, default)
+
+
+@dataclass(frozen=True, slots=True)
+class Selection:
+    """How the degree was chosen, with the candidate trail."""
+
+    method: str | None = None
+    chosen_degree: int | None = None
+    candidates: tuple[Candidate, ...] = ()
+    reason: str | None = None
+    alpha: float | None = None
+
+
+@dataclass(frozen=True, slots=True)
+class Grid:
+    """The fitted curve and its bands on the requested grid (aligned tuples)."""
+
+    x: tuple[float, ...] = ()
+    fit: tuple[float | None, ...] = ()
+    mean_lower: tuple[float | None, ...] = ()
+    mean_upper: tuple[float | None, ...] = ()
+    obs_lower: tuple[float | None, ...] = ()
+    obs_upper: tuple[float | None, ...] = ()
+    band_lower: tuple[float | None, ...] | None = None
+    band_upper: tuple[float | None, ...] | None = None
+
+
+@dataclass(frozen=True, slots=True)
+class Notice:
+    """A warning about the data or the numerics (``code`` is stable snake_case)."""
+
+    code: str
+    message: str = ""
+
+
+@dataclass(frozen=True, slots=True)
+class FitResult:
+    """The answer of ``POST /v1/fit``.
+
+    ``fitted_model`` is the portable document: store it as it is and hand it
+    to :meth:`Client.predict` / :meth:`Client.invert` later.
+    """
+
+    model: ModelInfo | None = None
+    n: int | None = None
+    coefficients: tuple[Coefficient, ...] = ()
+    anova: tuple[AnovaRow, ...] = ()
+    statistics: Statistics | None = None
+    selection: Selection | None = None
+    diagnostics: Mapping[str, Any] | None = None
+    grid: Grid | None = None
+    warnings: tuple[Notice, ...] = ()
+    flags: tuple[Mapping[str, Any], ...] = ()
+    fitted_model: Mapping[str, Any] | None = None
+    raw: Mapping[str, Any] = field(default_factory=_empty)
+
+    @property
+    def chosen_degree(self) -> int | None:
+        """The degree that was fitted (chosen or fixed)."""
+        if self.selection is not None and self.selection.chosen_degree is not None:
+            return self.selection.chosen_degree
+        return self.model.degree if self.model else None
+
+
+@dataclass(frozen=True, slots=True)
+class BatchItem:
+    """One series of a batch: ``status`` ``"ok"`` with ``fit``, or ``"error"`` with ``error``."""
+
+    id: Any = None
+    status: str | None = None
+    fit: Mapping[str, Any] | None = None
+    error: Mapping[str, Any] | None = None
+    raw: Mapping[str, Any] = field(default_factory=_empty)
+
+    @property
+    def ok(self) -> bool:
+        """True when this series was fitted."""
+        return self.status == "ok"
+
+
+@dataclass(frozen=True, slots=True)
+class BatchResult:
+    """The answer of ``POST /v1/batch`` (JSON form), results in request order."""
+
+    results: tuple[BatchItem, ...] = ()
+    summary: Mapping[str, Any] = field(default_factory=_empty)
+    raw: Mapping[str, Any] = field(default_factory=_empty)
+
+
+@dataclass(frozen=True, slots=True)
+class PredictionRow:
+    """Fitted value and bands at one new x."""
+
+    x: float | None = None
+    fit: float | None = None
+    mean_lower: float | None = None
+    mean_upper: float | None = None
+    obs_lower: float | None = None
+    obs_upper: float | None = None
+    extrapolated: bool | None = None
+
+
+@dataclass(frozen=True, slots=True)
+class Predictions:
+    """The answer of ``POST /v1/predict``."""
+
+    predictions: tuple[PredictionRow, ...] = ()
+    raw: Mapping[str, Any] = field(default_factory=_empty)
+
+
+@dataclass(frozen=True, slots=True)
+class Estimate:
+    """An x read back from one observed y (``status`` is ``"ok"`` or why not)."""
+
+    y: float | None = None
+    x: float | None = None
+    lower: float | None = None
+    upper: float | None = None
+    status: str | None = None
+    other_roots: tuple[float, ...] = ()
+
+
+@dataclass(frozen=True, slots=True)
+class Estimates:
+    """The answer of ``POST /v1/invert``."""
+
+    estimates: tuple[Estimate, ...] = ()
+    raw: Mapping[str, Any] = field(default_factory=_empty)
+
+
+@dataclass(frozen=True, slots=True)
+class Figure:
+    """The answer of ``POST /v1/plot``: image bytes and their media type."""
+
+    content_type: str
+    data: bytes
+
+    @property
+    def format(self) -> str:
+        """``"png"`` or ``"svg"``."""
+        return "svg" if "svg" in self.content_type else "png"
+
+    def save(self, path: str | Path) -> Path:
+        """Write the image to ``path`` and return it."""
+        target = Path(path)
+        target.write_bytes(self.data)
+        return target
+
+
+def _candidate(data: Mapping[str, Any]) -> Candidate:
+    return Candidate(degree=data.get("degree"), values=freeze(data))
+
+
+def _items(builder: Callable[[Any], Any]) -> Callable[[Any], tuple]:
+    return lambda values: tuple(builder(v) for v in values)
+
+
+def build(cls: type, data: Mapping[str, Any] | None) -> Any:
+    """Build ``cls`` from decoded JSON: known members by name, nested types converted."""
+    if data is None:
+        return None
+    if not isinstance(data, Mapping):
+        raise TypeError(f"{cls.__name__}: expected a JSON object, got {type(data).__name__}")
+    converters = _CONVERT.get(cls, {})
+    kwargs: dict[str, Any] = {}
+    for f in fields(cls):
+        if f.name == "raw":
+            kwargs["raw"] = freeze(data)
+            continue
+        if f.name not in data:
+            if f.default is MISSING and f.default_factory is MISSING:
+                kwargs[f.name] = None
+            continue
+        value = data[f.name]
+        convert = converters.get(f.name)
+        kwargs[f.name] = convert(value) if (convert and value is not None) else freeze(value)
+    return cls(**kwargs)
+
+
+def _of(cls: type) -> Callable[[Any], Any]:
+    return lambda value: build(cls, value)
+
+
+_CONVERT: dict[type, dict[str, Callable[[Any], Any]]] = {
+    FitResult: {
+        "model": _of(ModelInfo),
+        "coefficients": _items(_of(Coefficient)),
+        "anova": _items(_of(AnovaRow)),
+        "statistics": _of(Statistics),
+        "selection": _of(Selection),
+        "grid": _of(Grid),
+        "warnings": _items(_of(Notice)),
+    },
+    Selection: {"candidates": _items(_candidate)},
+    BatchResult: {"results": _items(_of(BatchItem))},
+    Predictions: {"predictions": _items(_of(PredictionRow))},
+    Estimates: {"estimates": _items(_of(Estimate))},
+}

@@ -1,0 +1,248 @@
+"""How bytes reach the service: over HTTP (standard library) or straight into a WSGI app.
+
+A transport has one method, ``send(method, url, headers, body, timeout)``,
+returning a :class:`Response`. ``body`` is ``None``, ``bytes``, or an iterable
+of ``bytes`` chunks (sent with chunked transfer encoding while the answer is
+read, so a long NDJSON stream never deadlocks on full socket buffers).
+Transports raise only :mod:`curvewise_client.errors` transport errors; HTTP
+error statuses are returned, not raised — the client decides what they mean.
+"""
+
+from __future__ import annotations
+
+import http.client
+import io
+import sys
+import threading
+from collections.abc import Callable, Iterable, Iterator
+from urllib.parse import unquote, urlsplit
+
+from curvewise_client.errors import ConnectError, ProtocolError, RequestTimeout
+
+Body = bytes | Iterable[bytes] | None
+
+
+class Response:
+    """Status, lower-cased headers, and a body read whole or line by line."""
+
+    def __init__(self, status: int, headers: dict[str, str], chunks: Iterator[bytes],
+                 close: Callable[[], None] = lambda: None,
+                 readline: Callable[[], bytes] | None = None) -> None:
+        self.status = status
+        self.headers = headers
+        self._chunks = chunks
+        self._close = close
+        self._readline = readline
+
+    @property
+    def content_type(self) -> str:
+        """The media type without parameters, lower-cased (``""`` when absent)."""
+        return self.headers.get("content-type", "").split(";")[0].strip().lower()
+
+    def read(self) -> bytes:
+        """The whole body; closes the response."""
+        try:
+            return b"".join(self._chunks)
+        finally:
+            self.close()
+
+    def iter_lines(self) -> Iterator[bytes]:
+        """Non-empty body lines without their line ends, as they arrive; closes at the end."""
+        try:
+            if self._readline is not None:
+                while line := self._readline():
+                    if line.strip():
+                        yield line.rstrip(b"\r\n")
+                return
+            pending = b""
+            for chunk in self._chunks:
+                pending += chunk
+                *lines, pending = pending.split(b"\n")
+                yield from (line.rstrip(b"\r") for line in lines if line.strip())
+            if pending.strip():
+                yield pending.rstrip(b"\r")
+        finally:
+            self.close()
+
+    def close(self) -> None:
+        """Release the connection (idempotent)."""
+        close, self._close = self._close, (lambda: None)
+        close()
+
+
+class HTTPTransport:
+    """HTTP/1.1 over :mod:`http.client`: one connection per call, no proxies, no extra packages.
+
+    ``timeout`` bounds connecting and each wait for data (seconds).
+    """
+
+    def send(self, method: str, url: str, headers: dict[str, str], body: Body,
+             timeout: float | None) -> Response:
+        parts = urlsplit(url)
+        if parts.scheme not in ("http", "https") or not parts.hostname:
+            raise ConnectError(f"not an http(s) URL: {url!r}")
+        conn_cls = http.client.HTTPSConnection if parts.scheme == "https" else (
+            http.client.HTTPConnection)
+        conn = conn_cls(parts.hostname, parts.port, timeout=timeout)
+        target = (parts.path or "/") + (f"?{parts.query}" if parts.query else "")
+        writer: threading.Thread | None = None
+        try:
+            if body is None or isinstance(body, (bytes, bytearray)):
+                conn.request(method, target, body=body, headers=headers)
+            else:
+                conn.putrequest(method, target, skip_accept_encoding=True)
+                for key, value in {**headers, "Transfer-Encoding": "chunked"}.items():
+                    conn.putheader(key, value)
+                conn.endheaders()
+                writer = _ChunkWriter(conn, body)
+                writer.start()
+            raw = conn.getresponse()
+        except TimeoutError as exc:
+            conn.close()
+            raise RequestTimeout(f"{method} {url}: no answer within {timeout} s") from exc
+        except (ConnectionError, OSError, http.client.HTTPException) as exc:
+            conn.close()
+            cause = writer.error if writer is not None and writer.error is not None else exc
+            raise ConnectError(f"{method} {url}: {type(cause).__name__}: {cause}") from cause
+        headers_out = {k.lower(): v for k, v in raw.getheaders()}
+
+        def close() -> None:
+            raw.close()
+            conn.close()
+            if writer is not None:
+                writer.join(timeout=5.0)
+
+        return Response(raw.status, headers_out, _guarded(_read_chunks(raw), url, timeout),
+                        close=close, readline=_guarded_readline(raw, url, timeout))
+
+
+class _ChunkWriter(threading.Thread):
+    """Sends a chunked body while the caller reads the answer (full duplex)."""
+
+    def __init__(self, conn: http.client.HTTPConnection, chunks: Iterable[bytes]) -> None:
+        super().__init__(name="curvewise-body-writer", daemon=True)
+        self.conn, self.chunks, self.error = conn, chunks, None
+
+    def run(self) -> None:
+        try:
+            for chunk in self.chunks:
+                if chunk:
+                    self.conn.send(b"%X\r\n%s\r\n" % (len(chunk), chunk))
+            self.conn.send(b"0\r\n\r\n")
+        except Exception as exc:  # noqa: BLE001 - reported through the reading side
+            self.error = exc
+
+
+def _read_chunks(raw: http.client.HTTPResponse, size: int = 65536) -> Iterator[bytes]:
+    while chunk := raw.read(size):
+        yield chunk
+
+
+def _guarded(chunks: Iterator[bytes], url: str, timeout: float | None) -> Iterator[bytes]:
+    try:
+        yield from chunks
+    except TimeoutError as exc:
+        raise RequestTimeout(f"{url}: body not complete within {timeout} s") from exc
+    except (http.client.HTTPException, ConnectionError) as exc:
+        raise ProtocolError(f"{url}: broken response body: {exc!r}") from exc
+
+
+def _guarded_readline(raw: http.client.HTTPResponse, url: str,
+                      timeout: float | None) -> Callable[[], bytes]:
+    def readline() -> bytes:
+        try:
+            return raw.readline()
+        except TimeoutError as exc:
+            raise RequestTimeout(f"{url}: next line not within {timeout} s") from exc
+        except (http.client.HTTPException, ConnectionError) as exc:
+            raise ProtocolError(f"{url}: broken response body: {exc!r}") from exc
+    return readline
+
+
+class WSGITransport:
+    """Calls a WSGI application in-process (tests, notebooks): no sockets, no server.
+
+    ``Client("http://test", transport=WSGITransport(app))``. An iterable body
+    is fed to the app lazily as a terminated input stream, and the app's
+    answer is consumed lazily too, so NDJSON streaming behaves as over HTTP.
+    ``timeout`` is ignored.
+    """
+
+    def __init__(self, app: Callable, *, script_name: str = "") -> None:
+        self.app = app
+        self.script_name = script_name
+
+    def send(self, method: str, url: str, headers: dict[str, str], body: Body,
+             timeout: float | None) -> Response:
+        parts = urlsplit(url)
+        streamed = body is not None and not isinstance(body, (bytes, bytearray))
+        stream = (io.BufferedReader(_IterReader(iter(body))) if streamed
+                  else io.BytesIO(body or b""))
+        environ = {
+            "REQUEST_METHOD": method,
+            "SCRIPT_NAME": self.script_name,
+            "PATH_INFO": unquote(parts.path or "/"),
+            "QUERY_STRING": parts.query,
+            "SERVER_NAME": parts.hostname or "localhost",
+            "SERVER_PORT": str(parts.port or (443 if parts.scheme == "https" else 80)),
+            "SERVER_PROTOCOL": "HTTP/1.1",
+            "REMOTE_ADDR": "127.0.0.1",
+            "wsgi.version": (1, 0),
+            "wsgi.url_scheme": parts.scheme or "http",
+            "wsgi.input": stream,
+            "wsgi.input_terminated": streamed,
+            "wsgi.errors": sys.stderr,
+            "wsgi.multithread": False,
+            "wsgi.multiprocess": False,
+            "wsgi.run_once": False,
+        }
+        if not streamed:
+            environ["CONTENT_LENGTH"] = str(len(body or b""))
+        for key, value in headers.items():
+            name = key.upper().replace("-", "_")
+            if name in ("CONTENT_TYPE", "CONTENT_LENGTH"):
+                environ[name] = value
+            else:
+                environ[f"HTTP_{name}"] = value
+        captured: dict = {}
+
+        def start_response(status, response_headers, exc_info=None):
+            captured["status"] = int(status.split(" ", 1)[0])
+            captured["headers"] = {k.lower(): v for k, v in response_headers}
+            return lambda data: captured.setdefault("written", []).append(data)
+
+        app_iter = self.app(environ, start_response)
+        iterator = iter(app_iter)
+        first = next(iterator, None)  # WSGI apps may call start_response lazily
+        if "status" not in captured:
+            raise ProtocolError(f"{method} {url}: the app never called start_response")
+        chunks = _prepend(captured.get("written", []), first, iterator)
+        return Response(captured["status"], captured["headers"], chunks,
+                        close=getattr(app_iter, "close", lambda: None))
+
+
+def _prepend(written: list, first, rest: Iterator[bytes]) -> Iterator[bytes]:
+    yield from written
+    if first is not None:
+        yield first
+    yield from rest
+
+
+class _IterReader(io.RawIOBase):
+    """A readable stream over an iterator of bytes chunks."""
+
+    def __init__(self, chunks: Iterator[bytes]) -> None:
+        self._chunks, self._pending = chunks, b""
+
+    def readable(self) -> bool:
+        return True
+
+    def readinto(self, buffer) -> int:
+        while not self._pending:
+            chunk = next(self._chunks, None)
+            if chunk is None:
+                return 0
+            self._pending = bytes(chunk)
+        size = min(len(buffer), len(self._pending))
+        buffer[:size], self._pending = self._pending[:size], self._pending[size:]
+        return size
