@@ -2,8 +2,9 @@
 
 Core errors (:class:`service.core.errors.FitError`) become 422 naming the field
 and the fix; HTTP errors (404, 405 with Allow, 413, 415, 400 ...) and
-validation errors from the schemas keep their status; anything else is a 500
-and a bug.
+validation errors from the schemas keep their status; limits and timeouts
+(:class:`ServiceLimitError`) carry their own; anything else is a 500 and a bug.
+``type`` is ``/problems/<code>`` (see :mod:`service.problems`).
 """
 
 from __future__ import annotations
@@ -14,26 +15,41 @@ from flask import Flask, Response, request
 from flask_smorest import Api
 from werkzeug.exceptions import HTTPException, InternalServerError
 
+from schemas.common import ProblemSchema
 from service.core.errors import FitError
 from service.jsonio import dumps_bytes
+from service.problems import kind_for, type_uri
 
 PROBLEM_MIME = "application/problem+json"
-TYPE_BASE = "https://curvewise.dev/problems/"
+VALIDATION_DETAIL = "The request body is not valid; see errors for each field and its fix."
 log = logging.getLogger("curvewise.errors")
 
 
-def problem(status: int, title: str, detail: str, *, errors: dict | None = None,
-            type_: str | None = None, headers: dict | None = None, **extra) -> Response:
-    """Build a problem-details response. ``errors`` maps field paths to lists of messages."""
-    body = {
-        "type": TYPE_BASE + (type_ or _slug(title)),
-        "title": title,
-        "status": status,
-        "detail": detail,
-        "instance": request.path if request else None,
-    }
+class ServiceLimitError(Exception):
+    """A request over one of the service's limits, or over its time budget."""
+
+    def __init__(self, status: int, code: str, message: str, *, field: str | None = None):
+        super().__init__(message)
+        self.status, self.code, self.message, self.field = status, code, message, field
+
+
+def problem_body(status: int, title: str | None, detail: str, *, errors: dict | None = None,
+                 type_: str | None = None, code: str | None = None) -> dict:
+    """A problem-details dict. ``code`` (or ``type_``) names a catalogue entry."""
+    kind = kind_for(code or type_, status)
+    body = {"type": type_uri(kind.code), "code": kind.code, "title": title or kind.title,
+            "status": status, "detail": detail}
     if errors:
         body["errors"] = errors
+    return body
+
+
+def problem(status: int, title: str | None, detail: str, *, errors: dict | None = None,
+            type_: str | None = None, headers: dict | None = None, code: str | None = None,
+            **extra) -> Response:
+    """Build a problem-details response. ``errors`` maps field paths to lists of messages."""
+    body = problem_body(status, title, detail, errors=errors, type_=type_, code=code)
+    body["instance"] = request.path if request else None
     body.update(extra)
     response = Response(dumps_bytes(body), status=status, mimetype=PROBLEM_MIME)
     for key, value in (headers or {}).items():
@@ -41,69 +57,102 @@ def problem(status: int, title: str, detail: str, *, errors: dict | None = None,
     return response
 
 
-def problem_body(status: int, title: str, detail: str, *, errors: dict | None = None,
-                 type_: str | None = None) -> dict:
-    """The same body as :func:`problem`, as a dict (for batch per-series errors)."""
-    body = {"type": TYPE_BASE + (type_ or _slug(title)), "title": title, "status": status,
-            "detail": detail}
-    if errors:
-        body["errors"] = errors
-    return body
-
-
 def fit_error_body(error: FitError) -> dict:
     """Problem body (422) for a typed core error, naming the field and the fix."""
     message = error.message + (f" Fix: {error.fix}" if error.fix else "")
-    return problem_body(422, "Unprocessable input", message,
-                        errors={error.field or "_body": [message]}, type_=error.code)
-
-
-def _slug(title: str) -> str:
-    return "-".join(title.lower().split())
+    return problem_body(422, None, message, errors={error.field or "_body": [message]},
+                        code=error.code)
 
 
 class CurvewiseApi(Api):
-    """flask-smorest Api whose HTTP errors are problem+json."""
+    """flask-smorest Api whose HTTP errors are problem+json, and documented as such."""
+
+    ERROR_SCHEMA = ProblemSchema
+    DEFAULT_ERROR_RESPONSE_NAME = "DEFAULT_ERROR"
+
+    def _register_responses(self):
+        """Document every error response as application/problem+json with ProblemSchema."""
+        import http
+
+        from flask_smorest.utils import prepare_response
+
+        for status in http.HTTPStatus:
+            response = {"description": status.phrase}
+            if status >= 400:
+                response["schema"] = self.ERROR_SCHEMA
+            prepare_response(response, self.spec, PROBLEM_MIME)
+            self.spec.components.response(status.name, response, lazy=True)
+        response = {"description": "Problem details (RFC 9457)", "schema": self.ERROR_SCHEMA}
+        prepare_response(response, self.spec, PROBLEM_MIME)
+        self.spec.components.response("DEFAULT_ERROR", response, lazy=True)
 
     def handle_http_exception(self, error: HTTPException):
         data = getattr(error, "data", None) or {}
         errors = data.get("errors") or data.get("messages")
-        if isinstance(errors, dict) and set(errors) <= {"json", "query", "headers", "files",
-                                                        "form"}:
-            errors = _flatten(errors)  # webargs nests by location; we report field paths
+        if isinstance(errors, dict):
+            errors = flatten_errors(errors)
         headers = dict(data.get("headers") or {})
-        if error.code == 405 and hasattr(error, "valid_methods") and error.valid_methods:
-            headers["Allow"] = ", ".join(sorted(error.valid_methods))
+        if error.code == 405:
+            allow = dict(error.get_headers()).get("Allow")
+            if allow:
+                headers["Allow"] = allow
         if isinstance(error, InternalServerError):
             original = getattr(error, "original_exception", None)
             if original is not None:
-                log.exception("unhandled error", exc_info=original)
-        detail = data.get("message") or error.description or error.name
+                log.error("unhandled error on %s %s", request.method, request.path,
+                          exc_info=original)
+            return problem(500, None, "An unexpected error occurred; this is a bug.",
+                           code="internal_error")
         status = error.code or 500
+        kind = kind_for(data.get("code"), status)
+        detail = data.get("message") or _detail(status, error)
         if status == 422 and errors:
-            detail = "The request body is not valid; see errors for each field and its fix."
-        return problem(status, error.name, detail, errors=errors, headers=headers)
+            detail = VALIDATION_DETAIL
+        if errors is None and status == 413:
+            errors = {"_body": [kind.fix]}
+        return problem(status, kind.title if kind.when else error.name, detail, errors=errors,
+                       headers=headers, code=kind.code)
 
 
-def _flatten(nested: dict, prefix: str = "") -> dict:
+def _detail(status: int, error: HTTPException) -> str:
+    if error.description and error.description != type(error).description:
+        return error.description  # a specific message given where the error was raised
+    kind = kind_for(None, status)
+    if kind.when:
+        return f"{kind.when} {kind.fix}"
+    return error.description or error.name
+
+
+def flatten_errors(nested: dict, prefix: str = "") -> dict:
+    """Turn marshmallow/webargs nested errors into ``{"model.degree": [...], "y[17]": [...]}``."""
     out: dict[str, list[str]] = {}
     for key, value in nested.items():
-        path = f"{prefix}.{key}" if prefix and not isinstance(key, int) else (
-            f"{prefix}[{key}]" if isinstance(key, int) else str(key))
-        if key in ("json", "query", "headers", "files", "form") and not prefix:
+        if not prefix and key in ("json", "query", "headers", "files", "form", "view_args"):
             path = ""
-        if isinstance(value, dict):
-            out.update(_flatten(value, path))
+        elif key == "_schema":
+            path = prefix
+        elif isinstance(key, int):
+            path = f"{prefix}[{key}]"
         else:
-            out[path or "_body"] = list(value) if isinstance(value, (list, tuple)) else [str(value)]
+            path = f"{prefix}.{key}" if prefix else str(key)
+        if isinstance(value, dict):
+            out.update(flatten_errors(value, path))
+        else:
+            messages = list(value) if isinstance(value, (list, tuple)) else [str(value)]
+            out.setdefault(path or "_body", []).extend(str(m) for m in messages)
     return out
 
 
 def register(app: Flask) -> None:
-    """Map core errors to 422 problem+json."""
+    """Map core errors and service limits to problem+json (HTTP errors: CurvewiseApi)."""
 
     @app.errorhandler(FitError)
     def _fit_error(error: FitError):
         body = fit_error_body(error)
         return problem(422, body["title"], body["detail"], errors=body["errors"],
-                       type_=error.code)
+                       code=error.code)
+
+    @app.errorhandler(ServiceLimitError)
+    def _limit_error(error: ServiceLimitError):
+        return problem(error.status, None, error.message,
+                       errors={error.field or "_body": [error.message]}, code=error.code)

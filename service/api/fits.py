@@ -1,5 +1,44 @@
 """Views: fit one series."""
 
+from __future__ import annotations
+
+from http import HTTPStatus
+
+from flask import current_app
 from flask_smorest import Blueprint
 
+from schemas.fit import FitRequestSchema, FitResponseSchema
+from service.core import fit_series
+from service.limits import check_series
+from service.reporting import fit_response
+from service.requests import fit_options, model_spec
+
 blp = Blueprint("fits", __name__, description="Fit one series.")
+
+ERRORS = {400: "Unparsable body (not strict JSON: e.g. NaN or Infinity tokens).",
+          413: "Body or number of points over the limit.",
+          415: "Body not sent as application/json.",
+          422: "Invalid or unfittable input; errors names each field and its fix."}
+
+
+def document_errors(view):
+    """Attach the problem+json error responses (components by status name) to a view."""
+    for status, description in ERRORS.items():
+        view = blp.alt_response(status, description=description,
+                                response=HTTPStatus(status).name)(view)
+    return view
+
+
+@blp.route("/v1/fit", methods=["POST"])
+@blp.arguments(FitRequestSchema, description="One series (x, y, optional weights), the model "
+               "and the options.")
+@blp.response(200, FitResponseSchema, description="The report. Sections not in include are "
+              "absent.")
+@document_errors
+def fit(body):
+    """Fit one series (fixed degree or selection) and report on it."""
+    settings = current_app.config["CURVEWISE"]
+    check_series(body, settings)
+    report = fit_series(body["x"], body["y"], body["weights"], model=model_spec(body["model"]),
+                        options=fit_options(body, settings))
+    return fit_response(report, body["include"])

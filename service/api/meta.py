@@ -1,5 +1,70 @@
-"""Views: families and documentation."""
+"""Views: families, the human-readable reference and the error pages."""
 
-from flask_smorest import Blueprint
+from __future__ import annotations
+
+from flask import Response, current_app
+from flask_smorest import Blueprint, abort
+
+from schemas.common import MISSING_POLICIES, SECTIONS, SELECT_METHODS, TRANSFORMS
+from schemas.families import FamiliesResponseSchema, describe_options
+from schemas.fit import ModelSchema
+from service.docs_page import render_catalogue, render_openapi, render_problem
+from service.problems import CATALOGUE
 
 blp = Blueprint("meta", __name__, description="Families and documentation.")
+
+_HTML = {"description": "An HTML page (no scripts, works offline).",
+         "content": {"text/html": {"schema": {"type": "string"}}}}
+
+
+@blp.route("/v1/families", methods=["GET"])
+@blp.response(200, FamiliesResponseSchema)
+def families():
+    """Model families, their options, and this server's limits."""
+    settings = current_app.config["CURVEWISE"]
+    return {
+        "families": [{
+            "name": "polynomial",
+            "description": "Polynomial in x (optionally transformed) by least squares, fixed "
+                           "degree or chosen from candidates; every lower power is kept.",
+            "options": describe_options(ModelSchema()),
+            "select_methods": list(SELECT_METHODS),
+            "transforms": list(TRANSFORMS),
+        }],
+        "missing_policies": list(MISSING_POLICIES),
+        "sections": list(SECTIONS),
+        "defaults": {"level": 0.95, "missing": "error", "grid": {"count": 200},
+                     "include": list(SECTIONS)},
+        "limits": {name: getattr(settings, name) for name in (
+            "max_body_bytes", "max_points", "max_degree", "max_grid_points", "max_series",
+            "max_total_points", "request_timeout")},
+    }
+
+
+@blp.route("/docs", methods=["GET"])
+@blp.doc(responses={"200": _HTML})
+def docs():
+    """The API reference as one HTML page, generated from the OpenAPI document."""
+    page = current_app.extensions.get("curvewise-docs-page")
+    if page is None:
+        page = render_openapi(current_app.extensions["curvewise-api"].spec.to_dict())
+        current_app.extensions["curvewise-docs-page"] = page
+    return Response(page, mimetype="text/html")
+
+
+@blp.route("/problems/", methods=["GET"])
+@blp.doc(responses={"200": _HTML})
+def problems():
+    """The error catalogue: every problem code, when it happens and what to do."""
+    kinds = sorted(CATALOGUE.values(), key=lambda k: (k.status, k.code))
+    return Response(render_catalogue(kinds), mimetype="text/html")
+
+
+@blp.route("/problems/<string:code>", methods=["GET"])
+@blp.doc(responses={"200": _HTML, "404": {"$ref": "#/components/responses/NOT_FOUND"}})
+def problem_page(code: str):
+    """What one problem code means and how to fix it (the target of a problem's type)."""
+    kind = CATALOGUE.get(code)
+    if kind is None:
+        abort(404, message=f"No problem code {code!r}. See /problems/ for the catalogue.")
+    return Response(render_problem(kind), mimetype="text/html")

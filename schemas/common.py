@@ -1,0 +1,84 @@
+"""Shared vocabulary and building blocks of the wire contract.
+
+The vocabularies repeat the core's (``service.core.spec``) on purpose: the
+contract must not import the numerics. ``tests/api/test_vocabulary.py`` keeps
+the two in step.
+"""
+
+from __future__ import annotations
+
+from marshmallow import RAISE, Schema, fields
+
+from schemas.fields import StrictFloat, StrictInteger, StrictString
+
+FAMILIES = ("polynomial",)
+SELECT_METHODS = ("sequential_f", "aic", "aicc", "bic", "press", "adj_r2")
+TRANSFORMS = ("none", "log", "log10", "sqrt", "reciprocal")
+MISSING_POLICIES = ("error", "drop")
+SECTIONS = ("coefficients", "anova", "statistics", "selection", "diagnostics", "grid",
+            "fitted_model")
+HARD_MAX_DEGREE = 12
+SEVERITIES = ("info", "caution", "serious")
+
+UNKNOWN_FIELD = "Unknown field. Remove it; /docs lists the fields this object accepts."
+
+
+class StrictSchema(Schema):
+    """Base for request objects: unknown fields are an error naming the field."""
+
+    class Meta:
+        unknown = RAISE
+
+    error_messages = {
+        "unknown": UNKNOWN_FIELD,
+        "type": "Must be a JSON object.",
+    }
+
+
+def number(description: str, **kwargs) -> StrictFloat:
+    """A response number that is ``null`` when undefined (never NaN or Infinity)."""
+    return StrictFloat(allow_none=True, metadata={"description": description}, **kwargs)
+
+
+def integer(description: str, **kwargs) -> StrictInteger:
+    """A documented response integer."""
+    return StrictInteger(metadata={"description": description}, **kwargs)
+
+
+def text(description: str, **kwargs) -> StrictString:
+    """A documented response string."""
+    return StrictString(metadata={"description": description}, **kwargs)
+
+
+class NoticeSchema(Schema):
+    """A numerical or data warning (stable snake_case code + message)."""
+
+    code = text("Stable machine-readable reason, snake_case.", required=True)
+    message = text("What happened, in plain words.", required=True)
+
+
+class TrustFlagSchema(Schema):
+    """A plain-language reason to be careful with this fit, with its evidence."""
+
+    code = text("Stable machine-readable reason, snake_case.", required=True)
+    severity = text("One of info, caution, serious.", required=True)
+    message = text("The concern and what to do, in plain words.", required=True)
+    evidence = fields.Dict(keys=fields.String(), metadata={
+        "description": "The numbers behind the flag (name -> value)."})
+
+
+class ProblemSchema(Schema):
+    """RFC 9457 problem details (media type application/problem+json)."""
+
+    type = text("Relative URI reference of a page that explains this problem: "
+                "/problems/<code>.", required=True)
+    code = text("Stable machine-readable name of the problem (see the error catalogue).",
+                required=True)
+    title = text("Short, human-readable summary of the problem type.", required=True)
+    status = integer("The HTTP status code.", required=True)
+    detail = text("What went wrong with this request and what to do about it.")
+    instance = text("The request path.", allow_none=True)
+    errors = fields.Dict(
+        keys=fields.String(), values=fields.List(fields.String()),
+        metadata={"description": "Field path (e.g. y[17], model.degree) -> messages, "
+                                 "each saying what to fix. _body is the body as a whole."})

@@ -1,0 +1,59 @@
+"""Request bodies: strict JSON with orjson, 415 for other media types, clear 400s.
+
+``create_app`` installs :data:`PARSER` on every blueprint, so every
+``@blp.arguments(Schema)`` body is decoded here. orjson accepts only strict
+JSON (RFC 8259): the tokens ``NaN``/``Infinity``, trailing commas, comments
+and invalid UTF-8 are refused with the position of the problem.
+"""
+
+from __future__ import annotations
+
+import orjson
+from flask_smorest import abort
+from webargs import core
+from webargs.flaskparser import FlaskParser
+
+_NON_JSON_TOKENS = (b"NaN", b"Infinity", b"-Infinity", b"nan", b"inf")
+
+
+class OrjsonParser(FlaskParser):
+    """webargs' Flask parser with orjson decoding and media-type checks."""
+
+    def _raw_load_json(self, req):
+        if not core.is_json(req.mimetype):
+            got = req.mimetype or "no Content-Type"
+            abort(415, message=f"The body must be JSON (got {got}). "
+                               "Send the header Content-Type: application/json.",
+                  errors={"_body": ["Send Content-Type: application/json."]},
+                  code="unsupported_media_type")
+        data = req.get_data(cache=True)  # werkzeug enforces MAX_CONTENT_LENGTH (413)
+        if not data.strip():
+            abort(400, message="The body is empty. Send a JSON object.",
+                  errors={"_body": ["Send a JSON object."]}, code="invalid_json")
+        return orjson.loads(data)
+
+    def _handle_invalid_json_error(self, error, req, *args, **kwargs):
+        message = f"The body is not valid JSON: {error}."
+        data = req.get_data(cache=True)
+        position = getattr(error, "pos", None)
+        near = data[position:position + 9] if isinstance(position, int) else b""
+        if near.startswith(_NON_JSON_TOKENS) or near.lstrip(b"-").startswith(_NON_JSON_TOKENS):
+            message += (" NaN and Infinity are not JSON numbers: send null for a missing value "
+                        "(with \"missing\": \"drop\"), or remove the point.")
+        elif isinstance(error, UnicodeDecodeError) or "UTF-8" in str(error):
+            message = "The body is not valid UTF-8 text. Encode the JSON as UTF-8."
+        abort(400, message=message, errors={"_body": [message]}, code="invalid_json")
+
+
+PARSER = OrjsonParser()
+
+
+def install() -> None:
+    """Make :data:`PARSER` the body parser of every flask-smorest Blueprint of this service.
+
+    flask-smorest binds the parser when ``@blp.arguments`` decorates a view, so this
+    runs before the view modules are imported (see ``service/api/__init__.py``).
+    """
+    from flask_smorest import Blueprint
+
+    Blueprint.ARGUMENTS_PARSER = PARSER
