@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from flask import Flask
 
-from service import __version__
+from service import __version__, guard, observability, security
 from service import errors as error_handling
 from service.api import BLUEPRINT_MODULES
 from service.config import Settings
@@ -30,4 +30,7 @@ def create_app(overrides: dict | None = None) -> Flask:
     for module in BLUEPRINT_MODULES:
         api.register_blueprint(module.blp)
     app.extensions["curvewise-api"] = api
+    observability.install(app)  # first: request id, timing and logs see every answer
+    security.install(app)       # then tokens, CORS and headers
+    guard.install(app)          # then the early 413 and the compute deadline
     return app

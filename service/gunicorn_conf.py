@@ -47,8 +47,41 @@ max_requests_jitter = 200      # ... but not all at once
 keepalive = 2
 limit_request_line = 8190
 limit_request_fields = 100
-accesslog = "-"
+accesslog = None               # the app writes one JSON line per request (service.observability)
 errorlog = "-"
 loglevel = os.environ.get("CURVEWISE_LOG_LEVEL", "info").lower()
+logconfig_dict = {  # gunicorn's own messages as JSON lines too (same shape as the app's)
+    "version": 1, "disable_existing_loggers": False,
+    "formatters": {"json": {"()": "service.observability.JsonFormatter"}},
+    "handlers": {"stderr": {"class": "logging.StreamHandler", "formatter": "json",
+                            "stream": "ext://sys.stderr"}},
+    "root": {"level": loglevel.upper(), "handlers": ["stderr"]},
+    "loggers": {"gunicorn.error": {"level": loglevel.upper(), "handlers": ["stderr"],
+                                   "propagate": False, "qualname": "gunicorn.error"},
+                "gunicorn.access": {"level": "WARNING", "handlers": [], "propagate": False}},
+}
 forwarded_allow_ips = "127.0.0.1"
 proc_name = "curvewise"
+
+
+# Prometheus multiprocess mode: every worker writes samples to PROMETHEUS_MULTIPROC_DIR and
+# /metrics merges them. The directory must exist (and be empty) before any worker starts.
+def on_starting(server):
+    """Prepare an empty metrics directory for the workers (service.observability)."""
+    from service import observability
+
+    observability.prepare_multiprocess_dir()
+
+
+def child_exit(server, worker):
+    """Drop a dead worker's live gauges; its counters keep counting in the totals."""
+    from service import observability
+
+    observability.mark_worker_dead(worker.pid)
+
+
+def on_exit(server):
+    """Remove the metrics directory if on_starting created it."""
+    from service import observability
+
+    observability.remove_multiprocess_dir()

@@ -1,0 +1,143 @@
+"""Per-request guards: a compute deadline, and early refusal of bodies over the size limit.
+
+**Compute deadline.** Under gunicorn's sync workers each request runs in the worker's main
+thread, so a POSIX interval timer (``signal.setitimer(ITIMER_REAL)``) is armed for
+``Settings.request_timeout`` seconds when the request starts and disarmed when its response
+has been produced (streamed bodies included). When it fires, :class:`ComputeTimeout` is raised
+inside whatever Python code is running, and the one error path turns it into a 503
+problem+json. If that first interruption is swallowed by a broad ``except Exception``
+somewhere, the timer fires again every :data:`REPEAT_SECONDS` with :class:`DeadlinePassed`, a
+``BaseException`` that such handlers do not catch, and the middleware answers the same 503
+itself. A single C call that
+never returns to Python (one huge LAPACK call) cannot be interrupted this way; gunicorn's
+``timeout`` (set a little above ``request_timeout`` in ``service.gunicorn_conf``) is the hard
+backstop that kills and replaces the worker.
+
+Where the timer cannot be used (a non-main thread, e.g. Flask's threaded development server,
+or a platform without ``SIGALRM``) the guard stands aside and only gunicorn's timeout applies.
+
+**Body size.** A declared ``Content-Length`` over ``Settings.max_body_bytes`` is refused with 413
+before a byte of the body is read (Werkzeug would do the same when the body is first read; this
+makes it independent of whether and when a view reads it). Chunked bodies are cut off by
+Werkzeug's ``MAX_CONTENT_LENGTH`` while they are read.
+"""
+
+from __future__ import annotations
+
+import signal
+import threading
+
+from flask import Flask, request
+from werkzeug.exceptions import RequestEntityTooLarge
+
+from service.errors import PROBLEM_MIME, ServiceLimitError, problem_body
+from service.jsonio import dumps_bytes
+
+REPEAT_SECONDS = 1.0
+
+
+class ComputeTimeout(ServiceLimitError):
+    """The request's compute ran past ``request_timeout``; answered as 503 problem+json."""
+
+    def __init__(self, limit: float) -> None:
+        super().__init__(
+            503, "timeout",
+            f"The request needed more than the {limit:g} s compute limit and was stopped. "
+            "Fix: send fewer series or points per request, a lower max_degree or a smaller "
+            "grid, or ask the operator to raise CURVEWISE_REQUEST_TIMEOUT.")
+        self.limit = limit
+
+
+class DeadlinePassed(BaseException):  # noqa: N818 - a signal, not an error to handle
+    """Raised when the timer fires again after a swallowed :class:`ComputeTimeout`."""
+
+
+def timer_usable() -> bool:
+    """Whether a SIGALRM interval timer can guard the current thread."""
+    return hasattr(signal, "setitimer") and threading.current_thread() is threading.main_thread()
+
+
+class DeadlineMiddleware:
+    """WSGI middleware arming the compute timer around one request, body iteration included."""
+
+    def __init__(self, wsgi_app, limit: float) -> None:
+        self.wsgi_app = wsgi_app
+        self.limit = limit
+
+    def __call__(self, environ, start_response):
+        if self.limit <= 0 or not timer_usable():
+            return self.wsgi_app(environ, start_response)
+        fired = []
+
+        def on_alarm(signum, frame):
+            fired.append(True)
+            if len(fired) == 1:
+                raise ComputeTimeout(self.limit)
+            raise DeadlinePassed
+
+        previous = signal.signal(signal.SIGALRM, on_alarm)
+        signal.setitimer(signal.ITIMER_REAL, self.limit, REPEAT_SECONDS)
+        try:
+            result = self.wsgi_app(environ, start_response)
+        except DeadlinePassed:
+            _disarm(previous)
+            return self._timeout_response(environ, start_response)
+        except BaseException:
+            _disarm(previous)
+            raise
+        return _GuardedBody(result, previous)
+
+    def _timeout_response(self, environ, start_response):
+        error = ComputeTimeout(self.limit)
+        body = problem_body(503, None, error.message, errors={"_body": [error.message]},
+                            code=error.code)
+        body["instance"] = environ.get("PATH_INFO")
+        payload = dumps_bytes(body)
+        start_response("503 SERVICE UNAVAILABLE", [("Content-Type", PROBLEM_MIME),
+                                                   ("Content-Length", str(len(payload))),
+                                                   ("Cache-Control", "no-store")])
+        return [payload]
+
+
+def _disarm(previous) -> None:
+    signal.setitimer(signal.ITIMER_REAL, 0)
+    signal.signal(signal.SIGALRM, previous if previous is not None else signal.SIG_DFL)
+
+
+class _GuardedBody:
+    """Response iterable that keeps the timer armed until the server has the whole body."""
+
+    def __init__(self, body, previous) -> None:
+        self._body = body
+        self._previous = previous
+        self._armed = True
+
+    def __iter__(self):
+        try:
+            yield from self._body
+        finally:
+            self.close()
+
+    def close(self) -> None:
+        if self._armed:
+            self._armed = False
+            _disarm(self._previous)
+        close = getattr(self._body, "close", None)
+        if close is not None:
+            self._body, body_close = (), close
+            body_close()
+
+
+def install(app: Flask) -> None:
+    """Add the compute deadline and the early 413 to ``app`` (from its Settings)."""
+    settings = app.config["CURVEWISE"]
+    app.wsgi_app = DeadlineMiddleware(app.wsgi_app, float(settings.request_timeout))
+    limit = int(settings.max_body_bytes)
+
+    @app.before_request
+    def _body_size():
+        declared = request.content_length
+        if declared is not None and declared > limit:
+            raise RequestEntityTooLarge(
+                f"The body declares {declared} bytes; the limit is {limit}. Fix: split the data "
+                "over several requests, or ask the operator to raise CURVEWISE_MAX_BODY_BYTES.")

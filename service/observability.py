@@ -1,0 +1,258 @@
+"""Metrics and logs: Prometheus /metrics (multi-worker safe), JSON logs with a request id.
+
+Metrics (``prometheus_client``; in multiprocess mode under gunicorn):
+
+- ``curvewise_http_requests_total{method, route, status}``
+- ``curvewise_http_request_duration_seconds{method, route}`` (histogram)
+- ``curvewise_http_requests_in_progress`` (gauge, summed over live workers)
+- ``curvewise_fit_failures_total{reason}`` -- ``reason`` is :attr:`FitError.code`
+- ``curvewise_batch_series`` (histogram of series per /v1/batch request)
+
+``route`` is the URL rule template (``/v1/fit``), never the raw path, so label cardinality stays
+bounded; unmatched paths are counted as ``<unmatched>``.
+
+Under several gunicorn workers every worker writes its samples to files in
+``PROMETHEUS_MULTIPROC_DIR`` and /metrics merges them. That variable must be set before
+``prometheus_client`` is first imported in the master, so this module imports it lazily:
+``service.gunicorn_conf`` calls :func:`prepare_multiprocess_dir` in ``on_starting`` and
+:func:`mark_worker_dead` in ``child_exit``.
+
+Logs: one JSON object per line on stderr. Each request gets an id: a well-formed incoming
+``X-Request-ID`` is kept, otherwise a fresh one is made; it is echoed in the response header
+and stamped on every log record written while the request runs. Bodies are never logged.
+"""
+
+from __future__ import annotations
+
+import logging
+import os
+import re
+import shutil
+import sys
+import tempfile
+import time
+import uuid
+from datetime import UTC, datetime
+from functools import cache
+
+import orjson
+from flask import Flask, Response, g, has_request_context, request
+from flask_smorest import Blueprint
+
+from service.core.errors import FitError
+
+REQUEST_ID_HEADER = "X-Request-ID"
+_REQUEST_ID_OK = re.compile(r"[A-Za-z0-9._:@/+=-]{1,128}")
+_METHODS = frozenset({"GET", "HEAD", "POST", "PUT", "PATCH", "DELETE", "OPTIONS"})
+MULTIPROC_ENV = "PROMETHEUS_MULTIPROC_DIR"
+_OWNED_DIR_ENV = "CURVEWISE_OWNS_METRICS_DIR"
+LATENCY_BUCKETS = (0.001, 0.0025, 0.005, 0.01, 0.025, 0.05, 0.1, 0.25, 0.5, 1.0, 2.5, 5.0,
+                   10.0, 30.0, 60.0, 120.0)
+BATCH_BUCKETS = (1, 2, 5, 10, 20, 50, 100, 200, 500, 1_000, 2_000, 5_000, 10_000, 20_000,
+                 50_000, 100_000)
+access_log = logging.getLogger("curvewise.access")
+
+
+class _Metrics:
+    """The metric objects, created once per process on first use."""
+
+    def __init__(self) -> None:
+        from prometheus_client import Counter, Gauge, Histogram
+
+        self.requests = Counter("curvewise_http_requests", "HTTP requests answered.",
+                                ("method", "route", "status"))
+        self.latency = Histogram("curvewise_http_request_duration_seconds",
+                                 "Time from request start to response (body streaming excluded).",
+                                 ("method", "route"), buckets=LATENCY_BUCKETS)
+        self.in_progress = Gauge("curvewise_http_requests_in_progress",
+                                 "Requests being handled now.", multiprocess_mode="livesum")
+        self.fit_failures = Counter("curvewise_fit_failures",
+                                    "Inputs the core could not fit, by reason code.", ("reason",))
+        self.batch_series = Histogram("curvewise_batch_series", "Series per batch request.",
+                                      buckets=BATCH_BUCKETS)
+
+
+@cache
+def metrics() -> _Metrics:
+    """This process's metric objects."""
+    return _Metrics()
+
+
+def record_fit_failure(code: str) -> None:
+    """Count one input the core refused (``FitError.code``), e.g. a failed series in a batch."""
+    metrics().fit_failures.labels(reason=code or "unfittable_input").inc()
+
+
+def record_batch(series: int) -> None:
+    """Count one batch request of ``series`` series."""
+    metrics().batch_series.observe(series)
+
+
+def render_metrics() -> tuple[bytes, str]:
+    """Prometheus text exposition of every worker's samples, and its content type."""
+    from prometheus_client import REGISTRY, CollectorRegistry, generate_latest
+    from prometheus_client.exposition import CONTENT_TYPE_PLAIN_0_0_4 as TEXT_0_0_4
+
+    metrics()  # make sure the families exist even before the first request
+    if os.environ.get(MULTIPROC_ENV):
+        from prometheus_client import multiprocess
+
+        registry = CollectorRegistry()
+        multiprocess.MultiProcessCollector(registry)
+        return generate_latest(registry), TEXT_0_0_4
+    return generate_latest(REGISTRY), TEXT_0_0_4
+
+
+# ---- gunicorn hooks (run in the master) -------------------------------------------------------
+
+def prepare_multiprocess_dir() -> str:
+    """Point ``PROMETHEUS_MULTIPROC_DIR`` at an empty directory before workers start.
+
+    An operator-chosen directory is emptied of stale ``*.db`` files (they would add old counts);
+    otherwise a private temporary directory is created and removed again by
+    :func:`remove_multiprocess_dir`.
+    """
+    path = os.environ.get(MULTIPROC_ENV)
+    if path:
+        os.makedirs(path, exist_ok=True)
+        for name in os.listdir(path):
+            if name.endswith(".db"):
+                os.unlink(os.path.join(path, name))
+    else:
+        path = tempfile.mkdtemp(prefix="curvewise-metrics-")
+        os.environ[MULTIPROC_ENV] = path
+        os.environ[_OWNED_DIR_ENV] = path
+    return path
+
+
+def mark_worker_dead(pid: int) -> None:
+    """Drop a dead worker's live gauges (its counters stay: totals never go down)."""
+    if os.environ.get(MULTIPROC_ENV):
+        from prometheus_client import multiprocess
+
+        multiprocess.mark_process_dead(pid)
+
+
+def remove_multiprocess_dir() -> None:
+    """Delete the temporary metrics directory if :func:`prepare_multiprocess_dir` made it."""
+    path = os.environ.get(_OWNED_DIR_ENV)
+    if path and path == os.environ.get(MULTIPROC_ENV):
+        shutil.rmtree(path, ignore_errors=True)
+
+
+# ---- logs ---------------------------------------------------------------------------------------
+
+class JsonFormatter(logging.Formatter):
+    """One JSON object per record: time, level, logger, message, request id, extra ``fields``."""
+
+    def format(self, record: logging.LogRecord) -> str:
+        entry = {
+            "time": datetime.fromtimestamp(record.created, UTC).isoformat(timespec="milliseconds"),
+            "level": record.levelname,
+            "logger": record.name,
+            "message": record.getMessage(),
+            "pid": record.process,
+        }
+        request_id = getattr(record, "request_id", None) or current_request_id()
+        if request_id:
+            entry["request_id"] = request_id
+        entry.update(getattr(record, "fields", None) or {})
+        if record.exc_info:
+            entry["exception"] = self.formatException(record.exc_info)
+        return orjson.dumps(entry, default=str).decode()
+
+
+def current_request_id() -> str | None:
+    """The id of the request being handled, if any."""
+    if has_request_context():
+        return g.get("request_id")
+    return None
+
+
+def configure_logging(level: str) -> None:
+    """JSON lines on stderr for the ``curvewise`` loggers (once per process)."""
+    logger = logging.getLogger("curvewise")
+    logger.setLevel(level.upper())
+    if not any(isinstance(h.formatter, JsonFormatter) for h in logger.handlers):
+        handler = logging.StreamHandler(sys.stderr)
+        handler.setFormatter(JsonFormatter())
+        logger.addHandler(handler)
+        logger.propagate = False
+
+
+# ---- Flask wiring -------------------------------------------------------------------------------
+
+def _incoming_request_id() -> str:
+    given = request.headers.get(REQUEST_ID_HEADER, "")
+    return given if _REQUEST_ID_OK.fullmatch(given) else uuid.uuid4().hex
+
+
+def _route() -> str:
+    rule = request.url_rule
+    return rule.rule if rule is not None else "<unmatched>"
+
+
+def _count_fit_failures(app: Flask) -> None:
+    """Wrap the app's FitError handler so each refused input is counted by reason."""
+    handlers = app.error_handler_spec.setdefault(None, {}).setdefault(None, {})
+    original = handlers.get(FitError)
+
+    def counted(error: FitError):
+        record_fit_failure(error.code)
+        if original is None:
+            raise error
+        return original(error)
+
+    handlers[FitError] = counted
+
+
+def install(app: Flask) -> None:
+    """Request ids, JSON request logs, request metrics and ``GET /metrics`` on ``app``."""
+    settings = app.config["CURVEWISE"]
+    configure_logging(settings.log_level)
+    _count_fit_failures(app)
+    m = metrics()
+
+    @app.before_request
+    def _start() -> None:
+        g.request_id = _incoming_request_id()
+        g.request_started = time.perf_counter()
+        m.in_progress.inc()
+
+    @app.after_request
+    def _finish(response: Response) -> Response:
+        started = g.pop("request_started", None)
+        response.headers[REQUEST_ID_HEADER] = g.get("request_id") or _incoming_request_id()
+        if started is None:  # a before_request hook ahead of ours answered
+            return response
+        m.in_progress.dec()
+        elapsed = time.perf_counter() - started
+        method = request.method if request.method in _METHODS else "OTHER"
+        route = _route()
+        m.requests.labels(method=method, route=route, status=str(response.status_code)).inc()
+        m.latency.labels(method=method, route=route).observe(elapsed)
+        access_log.info("request", extra={"fields": {
+            "method": method, "route": route, "path": request.path,
+            "status": response.status_code, "duration_ms": round(elapsed * 1000, 3),
+            "bytes_in": request.content_length, "bytes_out": response.content_length,
+            "remote_addr": request.remote_addr,
+        }})
+        return response
+
+    api = app.extensions.get("curvewise-api")
+    if api is not None:
+        api.register_blueprint(blp)
+    else:
+        app.add_url_rule("/metrics", view_func=prometheus_metrics)
+
+
+blp = Blueprint("metrics", __name__, description="Prometheus metrics.")
+
+
+@blp.route("/metrics", methods=["GET"])
+@blp.doc(responses={"200": {"description": "Prometheus text exposition format 0.0.4.",
+                            "content": {"text/plain": {"schema": {"type": "string"}}}}})
+def prometheus_metrics():
+    """Prometheus text format: request, latency, fit-failure and batch-size metrics."""
+    body, content_type = render_metrics()
+    return Response(body, content_type=content_type, headers={"Cache-Control": "no-store"})
