@@ -1,5 +1,75 @@
 """Views: predict and invert with a fitted-model document."""
 
+from __future__ import annotations
+
+from dataclasses import asdict
+
+from flask import current_app
 from flask_smorest import Blueprint
 
+from schemas.models import (
+    InvertRequestSchema,
+    InvertResponseSchema,
+    PredictRequestSchema,
+    PredictResponseSchema,
+)
+from service.core import predict
+from service.core.calibration import figures_of_merit, sensitivity
+from service.core.document import from_document
+from service.core.errors import SpecError
+from service.core.inverse import invert
+
 blp = Blueprint("models", __name__, description="Predict and invert with a fitted-model document.")
+
+_PREDICT_COLUMNS = ("x", "fit", "se_fit", "mean_lower", "mean_upper", "obs_lower", "obs_upper",
+                    "band_lower", "band_upper", "extrapolated")
+
+
+@blp.route("/v1/predict", methods=["POST"])
+@blp.arguments(PredictRequestSchema)
+@blp.response(200, PredictResponseSchema)
+def predict_view(body):
+    """Predict with intervals at new x from a stored fitted model."""
+    fitted = from_document(body["fitted_model"], field_prefix="fitted_model.")
+    _check_count("x", len(body["x"]))
+    result = predict(fitted, body["x"], level=body["level"], m=body["replicates"])
+    columns = {name: getattr(result, name) for name in _PREDICT_COLUMNS}
+    return {"predictions": columns, "level": result.level, "replicates": body["replicates"],
+            "extrapolated_count": int(result.extrapolated.sum())}
+
+
+@blp.route("/v1/invert", methods=["POST"])
+@blp.arguments(InvertRequestSchema)
+@blp.response(200, InvertResponseSchema)
+def invert_view(body):
+    """Read x back from observed y, with calibration intervals and figures of merit."""
+    fitted = from_document(body["fitted_model"], field_prefix="fitted_model.")
+    _check_count("y", len(body["y"]))
+    result = invert(fitted, body["y"], replicates=body["replicates"], level=body["level"])
+    slopes = _slopes(fitted, [e.x for e in result.estimates])
+    columns = {name: [getattr(e, name) for e in result.estimates]
+               for name in ("y", "replicates", "x", "lower", "upper", "status", "other_roots")}
+    columns["sensitivity"] = slopes
+    figures = figures_of_merit(fitted, alpha=body["detection_alpha"],
+                               beta=body["detection_beta"])
+    return {"estimates": columns, "level": result.level, "monotone": result.monotone,
+            "turning_points": list(result.turning_points), "x_min": result.x_min,
+            "x_max": result.x_max, "calibration": asdict(figures)}
+
+
+def _check_count(name: str, count: int) -> None:
+    limit = current_app.config["CURVEWISE"].max_grid_points
+    if count > limit:
+        raise SpecError(f"{name} has {count} values; the limit is {limit}.", field=name,
+                        fix="Split the values over several requests, or raise "
+                            "CURVEWISE_MAX_GRID_POINTS.", code="limit_exceeded")
+
+
+def _slopes(fitted, xs: list[float]) -> list[float]:
+    """dy/dx at each estimate; NaN where there is no estimate."""
+    found = [i for i, x in enumerate(xs) if x == x]
+    out = [float("nan")] * len(xs)
+    if found:
+        for i, value in zip(found, sensitivity(fitted, [xs[i] for i in found]), strict=True):
+            out[i] = float(value)
+    return out

@@ -26,6 +26,7 @@ from typing import Any
 
 import numpy as np
 
+from service.core import design
 from service.core.errors import DocumentError
 from service.core.results import FittedPolynomial, frozen_array
 from service.core.spec import HARD_MAX_DEGREE, TRANSFORMS
@@ -155,22 +156,6 @@ def canonical_bytes(body: Mapping[str, Any]) -> bytes:
     return text.encode("ascii")
 
 
-def basis_to_raw(basis: np.ndarray, x_shift: float, x_scale: float, intercept: bool) -> np.ndarray:
-    """Coefficients on powers of ``u`` from coefficients on powers of ``t = (u - shift)/scale``.
-
-    Returned on the same powers as the model's terms (0..d with intercept, 1..d
-    without; without intercept a non-zero shift would create a constant, which
-    is returned as the first element instead so that callers can detect it).
-    """
-    powers = np.arange(0 if intercept else 1, (0 if intercept else 1) + len(basis))
-    degree = int(powers[-1]) if len(powers) else 0
-    full = np.zeros(degree + 1)
-    for coefficient, k in zip(basis, powers, strict=True):
-        for j in range(k + 1):
-            full[j] += coefficient * math.comb(k, j) * (-x_shift) ** (k - j) / x_scale ** k
-    return full if intercept else full[1:] if full[0] == 0.0 else full
-
-
 # ----------------------------------------------------------------------------- helpers
 
 
@@ -194,9 +179,9 @@ class _Reader:
         self.doc = doc
         self.prefix = prefix
 
-    def fail(self, name: str | None, message: str, fix: str, code: str = "invalid_document"):
+    def fail(self, name: str | None, message: str, fix: str):
         field = (self.prefix + name) if name else (self.prefix.rstrip(".") or None)
-        raise DocumentError(message, field=field, fix=fix, code=code)
+        raise DocumentError(message, field=field, fix=fix)
 
     def read(self) -> dict:
         doc = self.doc
@@ -205,15 +190,13 @@ class _Reader:
                       "Send the fitted_model object exactly as /v1/fit returned it.")
         if "schema_version" not in doc:
             self.fail("schema_version", "The document has no schema_version.",
-                      "Send the fitted_model object exactly as /v1/fit returned it.",
-                      "missing_document_field")
+                      "Send the fitted_model object exactly as /v1/fit returned it.")
         version = doc["schema_version"]
         if isinstance(version, bool) or version not in SUPPORTED_VERSIONS:
             self.fail("schema_version",
                       f"Unsupported schema_version {version!r}; this service reads "
                       f"{', '.join(map(str, SUPPORTED_VERSIONS))}.",
-                      "Refit with this service to get a current document.",
-                      "unsupported_document_version")
+                      "Refit with this service to get a current document.")
         unknown = sorted(str(key) for key in doc if key not in FIELDS)
         if unknown:
             self.fail(unknown[0], f"Unknown field {unknown[0]!r} in a schema_version "
@@ -221,8 +204,7 @@ class _Reader:
         for name in FIELDS:
             if name not in doc:
                 self.fail(name, f"The document is missing the required field {name!r}.",
-                          "Send the fitted_model object unchanged, with every field.",
-                          "missing_document_field")
+                          "Send the fitted_model object unchanged, with every field.")
         values = {name: getattr(self, "_" + kind)(name, doc[name]) for name, kind in FIELDS.items()}
         self._check_scalars(values)
         return values
@@ -330,9 +312,10 @@ class _Reader:
         if not np.array_equal(finite, finite.T) or not np.allclose(
                 covariance[finite], covariance.T[finite], rtol=1e-9, atol=0.0):
             self.fail("raw_covariance", "raw_covariance must be symmetric.", keep)
-        expected = basis_to_raw(basis, v["x_shift"], v["x_scale"], v["intercept"])
-        if expected.shape != raw.shape:
+        if not v["intercept"] and v["x_shift"] != 0.0:
             self.fail("x_shift", "A model without intercept must have x_shift 0.", keep)
+        conversion = design.conversion(v["x_shift"], v["x_scale"], v["degree"], v["intercept"])
+        expected = (conversion @ basis.astype(conversion.dtype)).astype(float)
         u = np.linspace(v["x_min"], v["x_max"], 7) if v["transform_x"] == "none" else (
             v["x_shift"] + v["x_scale"] * np.linspace(-1.0, 1.0, 7))
         powers = np.arange(0 if v["intercept"] else 1, (0 if v["intercept"] else 1) + p)
@@ -341,21 +324,19 @@ class _Reader:
         gap = np.abs(terms_raw.sum(axis=1) - terms_exp.sum(axis=1))
         size = np.abs(terms_raw).sum(axis=1) + np.abs(terms_exp).sum(axis=1)
         if np.any(gap > 1e-7 * size + 1e-300):
-            self.fail("basis_coefficients",
-                      "basis_coefficients and raw_coefficients describe different curves; "
-                      "one of them was edited.", keep, "document_inconsistent")
+            self.fail("raw_coefficients",
+                      "raw_coefficients and basis_coefficients describe different curves; "
+                      "one of them was edited.", keep)
 
     def check_checksum(self, v) -> None:
         given = v["checksum"]
         if not (given.startswith(CHECKSUM_PREFIX) and len(given) == len(CHECKSUM_PREFIX) + 64):
             self.fail("checksum", "checksum must be 'sha256:' followed by 64 hex digits.",
-                      "Send the fitted_model object exactly as /v1/fit returned it.",
-                      "checksum_mismatch")
+                      "Send the fitted_model object exactly as /v1/fit returned it.")
         body = dict(v)
         body["sigma"] = _float(body["sigma"])
         if given != checksum(body):
             self.fail("checksum",
                       "The checksum does not match the document's content: a field was changed "
                       "after the fit (hand edit, truncation or lossy number formatting).",
-                      "Send the fitted_model object unchanged, or refit to get a new one.",
-                      "checksum_mismatch")
+                      "Send the fitted_model object unchanged, or refit to get a new one.")

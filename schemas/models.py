@@ -1,0 +1,240 @@
+"""The fitted-model document and POST /v1/predict, POST /v1/invert (wire contract).
+
+:class:`FittedModelSchema` documents schema_version 1 of the document and
+checks its types; the core (``from_document``) then checks shapes, internal
+consistency and the checksum. The format is specified in docs/fitted-model.md.
+"""
+
+from __future__ import annotations
+
+import math
+
+from marshmallow import Schema, ValidationError, fields, validate
+
+from schemas.common import TRANSFORMS, StrictSchema, integer, number, text
+from schemas.fields import (
+    NumberArray,
+    StrictBoolean,
+    StrictFloat,
+    StrictInteger,
+    StrictString,
+    one_of_message,
+)
+
+_LEVEL = validate.Range(0, 1, min_inclusive=False, max_inclusive=False,
+                        error="Must be strictly between 0 and 1, e.g. 0.95.")
+_RISK = validate.Range(0, 0.5, min_inclusive=False, max_inclusive=False,
+                       error="Must be strictly between 0 and 0.5, e.g. 0.05.")
+_KEEP = " Written by /v1/fit; send it back unchanged."
+
+
+def _doc_float(description: str, **kwargs) -> StrictFloat:
+    return StrictFloat(required=True, metadata={"description": description + _KEEP}, **kwargs)
+
+
+def _doc_list(description: str, *, nullable: bool = False) -> fields.List:
+    return fields.List(StrictFloat(allow_none=nullable), required=True,
+                       metadata={"description": description + _KEEP})
+
+
+def _doc_matrix(description: str, *, nullable: bool = False) -> fields.List:
+    return fields.List(fields.List(StrictFloat(allow_none=nullable)), required=True,
+                       metadata={"description": description + _KEEP})
+
+
+class FittedModelSchema(StrictSchema):
+    """Portable fitted-model document, schema_version 1 (see docs/fitted-model.md)."""
+
+    schema_version = StrictInteger(
+        required=True,
+        validate=validate.OneOf([1], error="Unsupported schema_version; this service reads 1. "
+                                           "Refit with this service to get a current document."),
+        metadata={"description": "Version of this document layout (1)."})
+    family = StrictString(required=True, validate=validate.OneOf(["polynomial"]),
+                          metadata={"description": "Model family." + _KEEP})
+    degree = StrictInteger(required=True, metadata={"description": "Polynomial degree." + _KEEP})
+    intercept = StrictBoolean(required=True,
+                              metadata={"description": "Constant term included." + _KEEP})
+    terms = fields.List(StrictString(), required=True, metadata={
+        "description": "Coefficient names in order (intercept, x, x^2, ...)." + _KEEP})
+    transform_x = StrictString(required=True, validate=validate.OneOf(
+        TRANSFORMS, error=one_of_message(TRANSFORMS)), metadata={
+        "description": "Transform applied to x before fitting (u = transform(x))." + _KEEP})
+    transform_y = StrictString(required=True, validate=validate.OneOf(
+        TRANSFORMS, error=one_of_message(TRANSFORMS)), metadata={
+        "description": "Transform applied to y before fitting." + _KEEP})
+    x_shift = _doc_float("Shift s of the computational variable t = (u - s) / c.")
+    x_scale = _doc_float("Scale c > 0 of t = (u - s) / c.")
+    basis_coefficients = _doc_list("Coefficients on powers of t (t^0..t^d; t^1..t^d "
+                                   "without intercept).")
+    r_factor = _doc_matrix("Upper-triangular R of the (weighted) design QR in the t basis, "
+                           "row by row; se of the mean at t is sigma * ||R^-T v(t)||.")
+    raw_coefficients = _doc_list("Coefficients on powers of u (the transformed x).")
+    raw_covariance = _doc_matrix("Covariance of raw_coefficients (null where undefined).",
+                                 nullable=True)
+    sigma = _doc_float("Residual standard deviation; null without residual df.",
+                       allow_none=True)
+    df_residual = StrictInteger(required=True,
+                                metadata={"description": "Residual degrees of freedom." + _KEEP})
+    n = StrictInteger(required=True, metadata={"description": "Points used in the fit." + _KEEP})
+    x_min = _doc_float("Smallest x of the data (original x scale): the calibrated range starts.")
+    x_max = _doc_float("Largest x of the data (original x scale): the calibrated range ends.")
+    weighted = StrictBoolean(required=True,
+                             metadata={"description": "Fitted with weights." + _KEEP})
+    level = _doc_float("Default confidence level for predictions and intervals.")
+    checksum = StrictString(required=True, metadata={
+        "description": "'sha256:' + hex SHA-256 of the canonical form of every other field "
+                       "(docs/fitted-model.md). A changed document is refused with 422."})
+
+
+class PredictRequestSchema(StrictSchema):
+    """Predict at new x with a stored fitted model."""
+
+    fitted_model = fields.Nested(FittedModelSchema, required=True, metadata={
+        "description": "The fitted_model document from a /v1/fit response, unchanged."})
+    x = NumberArray(required=True, metadata={
+        "description": "Where to predict, on the original x scale."})
+    level = StrictFloat(load_default=None, allow_none=True, validate=_LEVEL, metadata={
+        "description": "Confidence level of the bands; default: the document's level."})
+    replicates = StrictInteger(load_default=1, validate=validate.Range(
+        min=1, error="Must be 1 or more."), metadata={
+        "description": "m: the observation band covers the mean of m future readings."})
+
+
+class PredictionRowSchema(Schema):
+    """Prediction at one x."""
+
+    x = number("Where.")
+    fit = number("Fitted value (original y scale).")
+    se_fit = number("Standard error of the fitted mean (fitting scale).")
+    mean_lower = number("Lower limit for the mean response.")
+    mean_upper = number("Upper limit for the mean response.")
+    obs_lower = number("Lower limit for the mean of `replicates` new readings.")
+    obs_upper = number("Upper limit for the mean of `replicates` new readings.")
+    band_lower = number("Lower limit of the simultaneous (Working-Hotelling) band.")
+    band_upper = number("Upper limit of the simultaneous (Working-Hotelling) band.")
+    extrapolated = fields.Boolean(metadata={
+        "description": "x lies outside the fitted data range [x_min, x_max]."})
+
+
+class Rows(fields.List):
+    """A list of row objects built fast from equal-length columns (NaN -> null).
+
+    Dumps ``{"column": array, ...}`` as ``[{"column": value, ...}, ...]``; the
+    row schema documents the fields and fixes their order.
+    """
+
+    def __init__(self, row_schema: type[Schema], **kwargs):
+        super().__init__(fields.Nested(row_schema), **kwargs)
+        self.names = tuple(row_schema().fields)
+
+    def _serialize(self, value, attr, obj, **kwargs):
+        if value is None:
+            return None
+        columns = [_column(value[name]) for name in self.names]
+        return [dict(zip(self.names, row, strict=True)) for row in zip(*columns, strict=True)]
+
+
+def _column(values) -> list:
+    items = values.tolist() if hasattr(values, "tolist") else list(values)
+    return [None if isinstance(v, float) and not math.isfinite(v) else v for v in items]
+
+
+class PredictResponseSchema(Schema):
+    """Predictions at the requested x, in request order."""
+
+    predictions = Rows(PredictionRowSchema, required=True)
+    level = number("Confidence level used.")
+    replicates = integer("m used for the observation band.")
+    extrapolated_count = integer("How many x lie outside the fitted data range.")
+
+
+class ReplicatesField(fields.Field):
+    """An integer >= 1 for every reading, or one such integer per reading."""
+
+    def __init__(self, **kwargs):
+        super().__init__(metadata={
+            "description": "How many readings were averaged into each y (m): one integer for "
+                           "all, or a list with one per y.",
+            "oneOf": [{"type": "integer", "minimum": 1},
+                      {"type": "array", "items": {"type": "integer", "minimum": 1}}]},
+            **kwargs)
+
+    def _deserialize(self, value, attr, data, **kwargs):
+        if isinstance(value, list):
+            return [self._one(v, index) for index, v in enumerate(value)]
+        return self._one(value, None)
+
+    @staticmethod
+    def _one(value, index):
+        if isinstance(value, bool) or not isinstance(value, (int, float)) or (
+                isinstance(value, float) and not value.is_integer()) or value < 1:
+            message = "Must be a whole number >= 1 (readings averaged into this y)."
+            raise ValidationError({index: [message]} if index is not None else message)
+        return int(value)
+
+
+class InvertRequestSchema(StrictSchema):
+    """Read x back from observed y with a stored calibration curve."""
+
+    fitted_model = fields.Nested(FittedModelSchema, required=True, metadata={
+        "description": "The fitted_model document from a /v1/fit response, unchanged."})
+    y = NumberArray(required=True, metadata={
+        "description": "Observed readings (original y scale); each the mean of its replicates."})
+    replicates = ReplicatesField(load_default=1)
+    level = StrictFloat(load_default=None, allow_none=True, validate=_LEVEL, metadata={
+        "description": "Level of the calibration intervals; default: the document's level."})
+    detection_alpha = StrictFloat(load_default=0.05, validate=_RISK, metadata={
+        "description": "False-positive risk for the decision/detection limits."})
+    detection_beta = StrictFloat(load_default=0.05, validate=_RISK, metadata={
+        "description": "False-negative risk for the detection limit."})
+
+
+class EstimateSchema(Schema):
+    """One reading read back."""
+
+    y = number("The reading.")
+    replicates = integer("m: readings averaged into y.")
+    x = number("Estimated x; null unless exactly one root lies in the calibrated range.")
+    lower = number("Lower limit of the calibration interval (classical: inverted prediction "
+                   "band for the mean of m readings).")
+    upper = number("Upper limit of the calibration interval.")
+    status = text("ok, or why there is no single trustworthy in-range answer: not_monotone, "
+                  "no_real_root, outside_range, multiple_roots_in_range, "
+                  "interval_exceeds_range, interval_unbounded, interval_undefined.")
+    other_roots = fields.List(fields.Float(), metadata={
+        "description": "Other real x that give this y (not chosen), ascending."})
+    sensitivity = number("Slope dy/dx of the curve at x (null when x is null).")
+
+
+class CalibrationSchema(Schema):
+    """Figures of merit of a straight-line or quadratic calibration (formulas in docs)."""
+
+    available = fields.Boolean(metadata={"description": "False when not defined for this model."})
+    reason = text("Why the figures are not available (empty when available).")
+    sensitivity_at_blank = number("Slope dy/dx at x = 0.")
+    sigma = number("Residual standard deviation (y units).")
+    detection_limit_ich = number("3.3 sigma / slope, read through the curve (x units).")
+    quantification_limit_ich = number("10 sigma / slope, read through the curve (x units).")
+    alpha = number("False-positive risk used.")
+    beta = number("False-negative risk used.")
+    decision_level_y = number("y_C: upper one-sided prediction limit of a blank reading.")
+    decision_limit = number("x_C: x at which the curve reaches y_C.")
+    detection_limit = number("x_D: smallest x whose lower prediction limit reaches y_C.")
+    blank_extrapolated = fields.Boolean(metadata={
+        "description": "x = 0 lies outside the calibrated range: the limits extrapolate."})
+
+
+class InvertResponseSchema(Schema):
+    """x estimates in request order, with the model-wide facts used to judge them."""
+
+    estimates = Rows(EstimateSchema, required=True)
+    level = number("Level of the calibration intervals.")
+    monotone = fields.Boolean(metadata={
+        "description": "The curve is monotone over the calibrated range (a calibration "
+                       "curve must be)."})
+    turning_points = fields.List(fields.Float(), metadata={
+        "description": "x inside the calibrated range where the slope changes sign."})
+    x_min = number("Calibrated range: smallest x of the data.")
+    x_max = number("Calibrated range: largest x of the data.")
+    calibration = fields.Nested(CalibrationSchema)
