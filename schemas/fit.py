@@ -134,6 +134,10 @@ class GridSchema(StrictSchema):
                 "step": data.get("step"), "x": None}
 
 
+_MODEL_DEFAULT = ModelSchema()
+_GRID_DEFAULT = GridSchema()
+
+
 class FitRequestSchema(StrictSchema):
     """Fit one series: data, model, grid and options."""
 
@@ -146,10 +150,10 @@ class FitRequestSchema(StrictSchema):
     weights = NumberArray(allow_none=True, load_default=None, allow_null_items=True, metadata={
         "description": "Optional positive weights (inverse variances), same length as x; "
                        "null for an unweighted fit."})
-    model = fields.Nested(ModelSchema, load_default=lambda: ModelSchema().load({}), metadata={
+    model = fields.Nested(ModelSchema, load_default=lambda: _MODEL_DEFAULT.load({}), metadata={
         "description": "The model to fit. Default: degree chosen from 1..3 by sequential F."})
     grid = fields.Nested(GridSchema, allow_none=True,
-                         load_default=lambda: GridSchema().load({}), metadata={
+                         load_default=lambda: _GRID_DEFAULT.load({}), metadata={
                              "description": "Where to evaluate the curve and bands. Default: "
                                             "200 points over the data range; null: no grid."})
     level = StrictFloat(load_default=0.95, validate=_LEVEL, metadata={

@@ -30,7 +30,10 @@ class OrjsonParser(FlaskParser):
         if not data.strip():
             abort(400, message="The body is empty. Send a JSON object.",
                   errors={"_body": ["Send a JSON object."]}, code="invalid_json")
-        return orjson.loads(data)
+        try:
+            return orjson.loads(data)
+        except orjson.JSONDecodeError as error:  # handled here: webargs skips errors with doc ""
+            self._handle_invalid_json_error(error, req)
 
     def _handle_invalid_json_error(self, error, req, *args, **kwargs):
         message = f"The body is not valid JSON: {error}."

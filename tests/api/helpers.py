@@ -1,0 +1,32 @@
+"""Helpers for the /v1/fit contract tests (posting raw bytes, checking problems)."""
+
+from __future__ import annotations
+
+import orjson
+
+PROBLEM_KEYS = {"type", "code", "title", "status", "detail"}
+
+
+def post_json(client, path: str, body, **kwargs):
+    """POST ``body`` as strict JSON bytes (orjson) with the JSON content type."""
+    return client.post(path, data=orjson.dumps(body), content_type="application/json", **kwargs)
+
+
+def post_raw(client, path: str, data: bytes, content_type="application/json", **kwargs):
+    """POST raw bytes (for bodies that are not valid JSON)."""
+    return client.post(path, data=data, content_type=content_type, **kwargs)
+
+
+def assert_problem(response, status: int, code: str, field: str | None = None) -> dict:
+    """The answer is an RFC 9457 problem with this status and code; ``field`` is in errors."""
+    assert response.status_code == status, response.data[:500]
+    assert response.mimetype == "application/problem+json"
+    body = orjson.loads(response.data)
+    assert PROBLEM_KEYS <= set(body), body
+    assert body["status"] == status
+    assert body["code"] == code, body
+    assert body["type"] == f"/problems/{code}"
+    if field is not None:
+        assert field in body.get("errors", {}), body
+        assert all(isinstance(m, str) and m for m in body["errors"][field])
+    return body

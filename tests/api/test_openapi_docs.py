@@ -1,0 +1,105 @@
+"""The served contract documents itself: /openapi.json (OpenAPI 3.1), /docs (offline HTML),
+/problems/* pages, and the README's error catalogue matches the server's.
+"""
+
+from __future__ import annotations
+
+import re
+from pathlib import Path
+
+import pytest
+
+ROOT = Path(__file__).resolve().parents[2]
+MY_PATHS = ("/v1/fit", "/v1/families", "/healthz", "/readyz", "/docs", "/problems/{code}")
+
+
+@pytest.fixture(scope="module")
+def spec():
+    from service.app import create_app
+
+    return create_app({}).test_client().get("/openapi.json").get_json()
+
+
+def _refs(node, found: set[str]) -> None:
+    if isinstance(node, dict):
+        ref = node.get("$ref", "")
+        if ref.startswith("#/components/schemas/"):
+            found.add(ref.rsplit("/", 1)[-1])
+        for value in node.values():
+            _refs(value, found)
+    elif isinstance(node, list):
+        for value in node:
+            _refs(value, found)
+
+
+def _reachable(spec, paths) -> set[str]:
+    names: set[str] = set()
+    for path in paths:
+        _refs(spec["paths"][path], names)
+    for response in spec["components"]["responses"].values():
+        _refs(response, names)
+    while True:
+        more = set(names)
+        for name in names:
+            _refs(spec["components"]["schemas"][name], more)
+        if more == names:
+            return names
+        names = more
+
+
+def test_openapi_is_3_1_and_lists_the_paths(spec):
+    assert spec["openapi"].startswith("3.1")
+    for path in MY_PATHS:
+        assert path in spec["paths"], path
+
+
+def test_every_field_of_the_contract_has_a_description(spec):
+    schemas = spec["components"]["schemas"]
+    missing = [f"{name}.{field}" for name in sorted(_reachable(spec, MY_PATHS))
+               for field, prop in schemas[name].get("properties", {}).items()
+               if not prop.get("description") and "$ref" not in prop]
+    assert not missing, missing
+
+
+def test_fit_documents_request_response_and_problem_errors(spec):
+    operation = spec["paths"]["/v1/fit"]["post"]
+    assert operation["summary"]
+    assert operation["requestBody"]["content"]["application/json"]["schema"]["$ref"].endswith(
+        "/FitRequest")
+    for status in ("200", "400", "413", "415", "422"):
+        assert status in operation["responses"], status
+    problem = spec["components"]["responses"]["UNPROCESSABLE_ENTITY"]["content"]
+    assert "application/problem+json" in problem
+    x = spec["components"]["schemas"]["FitRequest"]["properties"]["x"]
+    assert x["type"] == "array" and "number" in x["items"]["type"]
+
+
+def test_docs_page_is_offline_and_covers_every_operation(client, spec):
+    page = client.get("/docs")
+    assert page.status_code == 200 and page.mimetype == "text/html"
+    html = page.get_data(as_text=True)
+    assert "<script" not in html.lower()
+    assert not re.search(r"""(src|href)\s*=\s*['"]?(https?:)?//""", html), "external resource"
+    for path, operations in spec["paths"].items():
+        for method in set(operations) & {"get", "post", "put", "patch", "delete"}:
+            assert f"{method.upper()}</span> <code>{path}</code>" in html, (method, path)
+    for field in spec["components"]["schemas"]["FitRequest"]["properties"]:
+        assert f"<code>{field}</code>" in html
+
+
+def test_readme_error_catalogue_matches_the_server():
+    from service.problems import CATALOGUE
+
+    readme = (ROOT / "README.md").read_text()
+    rows = set(re.findall(r"^\| (\d{3}) \| `([a-z_]+)` \|", readme, flags=re.M))
+    server = {(str(kind.status), code) for code, kind in CATALOGUE.items()}
+    assert server <= rows, server - rows
+    assert rows <= server, rows - server
+
+
+def test_readme_quickstart_is_exactly_two_commands():
+    readme = (ROOT / "README.md").read_text()
+    block = readme.split("## Quickstart", 1)[1].split("```sh", 1)[1].split("```", 1)[0]
+    commands = [line.split("#")[0].strip() for line in block.strip().splitlines()]
+    assert commands == ["make run", "make test"]
+    assert "regulat" in readme and "qualified" in readme  # the caution for regulated use
