@@ -61,7 +61,7 @@ def fit_block(u, z, w, valid, spec: BlockSpec) -> dict:
     """
     G = u.shape[0]
     n = valid.sum(axis=1).astype(float)
-    t, shift, scale = eng.scale_x(u, valid, spec.intercept)
+    t, shift, scale = eng.scale_x(u, None if w is None else valid, spec.intercept)
     s = None if w is None else np.sqrt(w)
     big_p = spec.p(spec.max_degree)
     q, coef = eng.orthonormal_basis(t, s, big_p, spec.intercept)
@@ -89,7 +89,8 @@ def fit_block(u, z, w, valid, spec: BlockSpec) -> dict:
     ss_model = head[:, k - 1] - (head[:, [0]] if spec.intercept else 0.0)
     exact = (rss == 0.0) & (ss_model > 0)
     cand = eng.criteria(rss, ss_model, n[:, None], k[None, :].astype(float), spec.c, sum_log_w)
-    f, pf = eng.f_last(b[:, k - 1], rss, cand["df_residual"], exact)
+    f, pf = eng.f_last(b[:, k - 1], rss, cand["df_residual"], exact,
+                       with_p=spec.select == "sequential_f")
     if spec.intercept and degrees[0] == 0:
         f[:, 0] = pf[:, 0] = np.nan
     cand.update(f_last=f, p_last=pf, exact=exact,
@@ -101,10 +102,11 @@ def fit_block(u, z, w, valid, spec: BlockSpec) -> dict:
     p_row = spec.p(chosen)
     out = {f"cand_{key}": val for key, val in cand.items()}
     out.update({key: val[rows, pick] for key, val in cand.items()})
+    out["sigma"] = np.where(out["exact"], 0.0, out["sigma"])  # as fit_series: exact -> 0
     out.update(_coefficients(coef, b, p_row, out["sigma"], shift, scale, spec))
     keep = np.arange(big_p)[None, :] >= p_row[:, None]  # effects the chosen model leaves out
     resid = res + np.einsum("gk,kgn->gn", b * keep, q) if keep.any() else res
-    lev = np.einsum("kgn,kgn,gk->gn", q, q, (~keep).astype(float))
+    lev = np.einsum("gk,kgn->gn", (~keep).astype(float), q * q)
     out.update(degree=chosen, n=n, x_shift=shift, x_scale=scale, resid_w=resid, leverage=lev,
                q=q, t=t, sqrt_w=s, coef_t=coef, p=p_row)
     return out
@@ -163,9 +165,8 @@ def _coefficients(coef, b, p_row, sigma, shift, scale, spec: BlockSpec) -> dict:
     big_p = coef.shape[1]
     keep = np.arange(big_p)[None, :] < p_row[:, None]
     cm = coef * keep[:, None, :]                     # columns of R^-1 the model uses
-    a_t = np.einsum("gmk,gk->gm", cm, b * keep)
     tm = eng.raw_power_matrix(shift, scale, big_p, 1 - spec.c)
-    a_raw = np.einsum("gjm,gm->gj", tm, a_t)
-    half = np.einsum("gjm,gmk->gjk", tm, cm)         # T R^-1: cov_raw = sigma^2 half half'
+    half = tm @ cm                                   # T R^-1: cov_raw = sigma^2 half half'
+    a_raw = (half @ (b * keep)[:, :, None])[:, :, 0]
     se = np.sqrt(np.einsum("gjk,gjk->gj", half, half)) * sigma[:, None]
     return {"coef": np.where(keep, a_raw, np.nan), "se": np.where(keep, se, np.nan)}

@@ -33,23 +33,30 @@ def _dot(a: np.ndarray, b: np.ndarray) -> np.ndarray:
     return np.einsum("gn,gn->g", a, b)
 
 
-def scale_x(u: np.ndarray, valid: np.ndarray, intercept: bool) -> tuple[np.ndarray, ...]:
+def scale_x(u: np.ndarray, valid: np.ndarray | None, intercept: bool) -> tuple[np.ndarray, ...]:
     """Per-row shift and scale mapping the valid x of each row onto [-1, 1].
 
-    Without intercept the shift is 0 and the scale is ``max |u|`` (a shift
-    would add a constant term). Returns ``(t, shift, scale)``.
+    Same float operations as :func:`service.core.design.scaling`: with an
+    intercept the range maps onto [-1, 1]; without one the shift is 0 and the
+    scale is ``max |u|`` (a shift would add a constant term). ``valid`` None
+    means every entry is real. Returns ``(t, shift, scale)``; ``t`` is 0 where padded.
     """
-    big = np.where(valid, u, -np.inf).max(axis=1)
-    small = np.where(valid, u, np.inf).min(axis=1)
-    if intercept:  # same float operations as service.core.design.scaling
+    if valid is None:
+        big, small = u.max(axis=1), u.min(axis=1)
+    else:
+        big = np.where(valid, u, -np.inf).max(axis=1)
+        small = np.where(valid, u, np.inf).min(axis=1)
+    if intercept:
         shift = 0.5 * small + 0.5 * big
         scale = 0.5 * big - 0.5 * small
     else:
         shift = np.zeros_like(big)
         scale = np.maximum(np.abs(big), np.abs(small))
     scale = np.where(scale > 0, scale, 1.0)
-    t = (u - shift[:, None]) / scale[:, None]
-    t = np.where(valid, t, 0.0)
+    t = u - shift[:, None]
+    t /= scale[:, None]
+    if valid is not None:
+        t *= valid
     return t, shift, scale
 
 
@@ -88,10 +95,10 @@ def orthonormal_basis(t: np.ndarray, s: np.ndarray | None, p: int, intercept: bo
     beta = None
     for k in range(p - 1):
         # Stieltjes: t q_k = beta_{k+1} q_{k+1} + alpha_k q_k + beta_k q_{k-1}
-        alpha = np.einsum("gn,gn,gn->g", t, q[k], q[k])
         v = q[k + 1]
-        np.subtract(t, alpha[:, None], out=v)
-        v *= q[k]
+        np.multiply(t, q[k], out=v)
+        alpha = _dot(v, q[k])
+        v -= alpha[:, None] * q[k]
         c = np.zeros((G, p))
         c[:, 1:] = coef[:, :-1, k]
         c -= alpha[:, None] * coef[:, :, k]
@@ -101,7 +108,7 @@ def orthonormal_basis(t: np.ndarray, s: np.ndarray | None, p: int, intercept: bo
         if full:  # one more classical Gram-Schmidt sweep against every earlier vector
             h = np.einsum("kgn,gn->gk", q[:k + 1], v)
             v -= np.einsum("gk,kgn->gn", h, q[:k + 1])
-            c -= np.einsum("gk,gmk->gm", h, coef[:, :, :k + 1])
+            c -= (coef[:, :, :k + 1] @ h[:, :, None])[:, :, 0]
         beta = np.sqrt(_dot(v, v))
         v /= beta[:, None]
         coef[:, :, k + 1] = c / beta[:, None]
@@ -118,17 +125,16 @@ def effects(q: np.ndarray, zw: np.ndarray):
 def raw_power_matrix(shift: np.ndarray, scale: np.ndarray, p: int, start: int) -> np.ndarray:
     """Matrix ``T (G, p, p)`` with ``a_raw = T @ a_t`` for powers ``start .. start+p-1``.
 
-    ``t = (u - shift) / scale`` so ``t**m = sum_j C(m, j) u**j (-shift)**(m-j) / scale**m``.
+    ``t = (u - shift) / scale`` so ``t**m = sum_j C(m, j) u**j (-shift)**(m-j) / scale**m``
+    (as :func:`service.core.design.conversion`, here in float64).
     """
-    G = shift.shape[0]
-    T = np.zeros((G, p, p))
-    for col in range(p):
-        m = col + start
-        for row in range(p):
-            j = row + start
-            if j <= m:
-                T[:, row, col] = special.comb(m, j) * (-shift) ** (m - j) / scale ** m
-    return T
+    m = np.arange(start, start + p)
+    binom = special.comb(m[None, :], m[:, None])            # C(m, j), zero for j > m
+    gap = np.maximum(m[None, :] - m[:, None], 0)
+    top = int(m[-1]) + 1
+    neg = np.cumprod(np.column_stack([np.ones_like(shift)] + [-shift] * (top - 1)), axis=1)
+    inv = np.cumprod(np.column_stack([np.ones_like(scale)] + [1.0 / scale] * (top - 1)), axis=1)
+    return binom[None] * neg[:, gap] * inv[:, None, m]
 
 
 def criteria(rss, ss_model, n, k, c, sum_log_w):
@@ -155,10 +161,15 @@ def criteria(rss, ss_model, n, k, c, sum_log_w):
             "adj_r_squared": adj, "aic": aic, "aicc": aicc, "bic": bic}
 
 
-def f_last(b_last, rss, df, exact):
-    """Sequential F of the last power (1 df) over the model's residual mean square, and p."""
+def f_last(b_last, rss, df, exact, with_p=True):
+    """Sequential F of the last power (1 df) over the model's residual mean square, and p.
+
+    The p-values are the costly part; ``with_p=False`` returns them as NaN.
+    """
     with np.errstate(divide="ignore", invalid="ignore"):
         ok = (df > 0) & ~exact
         f = np.where(ok, b_last ** 2 / (rss / df), np.nan)
+        if not with_p:
+            return f, np.full(f.shape, np.nan)
         pv = special.fdtrc(1, np.maximum(df, 1), f)
     return f, np.where(ok, pv, np.nan)

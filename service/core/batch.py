@@ -1,0 +1,318 @@
+"""Many independent series at once: grouping, chunking, and per-series isolation.
+
+Entry points::
+
+    fit_many(x, y, lengths, weights=None, *, model=ModelSpec(), models=None,
+             options=FitOptions(), detail="summary", workers=1) -> BatchResult
+    fit_batch(series, ...)  # series: iterable of (x, y) or (x, y, weights)
+
+Series arrive concatenated (``x``, ``y`` and optional ``weights`` flat, with
+``lengths``), which is how long-format tables and NDJSON streams hold them.
+Rows are grouped by model, sorted by length and cut into blocks of at most
+:data:`BLOCK_POINTS` points whose lengths differ by at most
+:data:`MAX_PAD_RATIO`; short rows are padded with weight 0, so working memory
+per block is bounded and independent of the number of series. Each block is
+fitted by the vectorized engine (:mod:`service.core.batch_block`,
+:mod:`service.core.batch_diagnostics`).
+
+A series the engine should not take — missing or non-finite values, weights
+<= 0, a transform domain error, too few distinct x for the candidates, or
+``detail="full"`` — goes through :func:`service.core.fit_series` itself, so
+it gets exactly the single-series answer or typed error. One bad series
+never fails the others.
+"""
+
+from __future__ import annotations
+
+from concurrent.futures import ThreadPoolExecutor
+from dataclasses import replace
+
+import numpy as np
+
+from service.core import batch_block, batch_diagnostics, batch_engine, transforms
+from service.core.batch_results import BatchResult, empty_columns, fill_from_report
+from service.core.errors import FitError
+from service.core.inputs import check_spec
+from service.core.polynomial import fit_series
+from service.core.spec import HARD_MAX_DEGREE, FitOptions, ModelSpec
+
+BLOCK_POINTS = 65_536   # points per block: fits in L2/L3 cache, bounds working memory
+MAX_PAD_RATIO = 1.15    # a block pads its rows to at most 15% above its shortest
+DETAILS = ("summary", "full")
+_SUMMARY_INCLUDE = frozenset({"coefficients", "statistics", "selection", "diagnostics"})
+
+
+_MODEL = ModelSpec()
+_OPTIONS = FitOptions()
+
+
+def fit_batch(series, *, model: ModelSpec = _MODEL, models=None,
+              options: FitOptions = _OPTIONS, detail: str = "summary",
+              workers: int = 1) -> BatchResult:
+    """Fit an iterable of ``(x, y)`` or ``(x, y, weights)`` tuples; see :func:`fit_many`.
+
+    A series whose parts are not flat numeric arrays of equal length gets its
+    typed error; the others are fitted.
+    """
+    xs, ys, ws, pre = [], [], [], {}
+    any_w = False
+    for i, item in enumerate(series):
+        x, y, w = (tuple(item) + (None,))[:3]
+        try:
+            xa = np.asarray(x, dtype=float).ravel()
+            ya = np.asarray(y, dtype=float).ravel()
+            wa = None if w is None else np.asarray(w, dtype=float).ravel()
+            if np.ndim(x) != 1 or np.ndim(y) != 1 or ya.size != xa.size or (
+                    wa is not None and (np.ndim(w) != 1 or wa.size != xa.size)):
+                raise ValueError
+        except (TypeError, ValueError):
+            pre[i] = (x, y, w)
+            xa = ya = np.empty(0)
+            wa = None
+        any_w |= wa is not None
+        xs.append(xa)
+        ys.append(ya)
+        ws.append(wa)
+    lengths = np.array([a.size for a in xs], dtype=np.int64)
+    weights = None
+    if any_w:
+        weights = np.concatenate([np.ones(a.size) if w is None else w
+                                  for a, w in zip(xs, ws, strict=True)]) if xs else np.empty(0)
+
+    def cat(parts):
+        return np.concatenate(parts) if parts else np.empty(0)
+
+    return fit_many(cat(xs), cat(ys), lengths, weights, model=model, models=models,
+                    options=options, detail=detail, workers=workers, _raw=pre)
+
+
+def fit_many(x, y, lengths, weights=None, *, model: ModelSpec = _MODEL, models=None,
+             options: FitOptions = _OPTIONS, detail: str = "summary",
+             workers: int = 1, _raw: dict | None = None) -> BatchResult:
+    """Fit ``len(lengths)`` series held back to back in flat arrays.
+
+    Parameters
+    ----------
+    x, y : array_like, 1-D
+        All series concatenated; series ``i`` has ``lengths[i]`` points.
+    lengths : array_like of int
+    weights : array_like or None
+        Inverse variances, concatenated like ``x``; None for equal weights.
+    model : ModelSpec
+        Shared model; ``models`` (a sequence of ModelSpec or None per series)
+        overrides it series by series.
+    options : FitOptions
+        ``level`` and ``missing`` apply; the summary has no grid.
+    detail : {"summary", "full"}
+        ``"full"`` fits every series with :func:`fit_series` (with ``options``
+        as given) and keeps each report in ``BatchResult.reports``.
+    workers : int
+        Threads fitting blocks in parallel (numpy releases the GIL).
+
+    Returns
+    -------
+    BatchResult
+        One row per series in input order.
+    """
+    x = np.ascontiguousarray(x, dtype=float)
+    y = np.ascontiguousarray(y, dtype=float)
+    lengths = np.asarray(lengths, dtype=np.int64)
+    w = None if weights is None else np.ascontiguousarray(weights, dtype=float)
+    if detail not in DETAILS:
+        raise ValueError(f"detail must be one of {DETAILS}, not {detail!r}")
+    G = lengths.size
+    offsets = np.zeros(G + 1, dtype=np.int64)
+    np.cumsum(lengths, out=offsets[1:])
+    if offsets[-1] != x.size or y.size != x.size or (w is not None and w.size != x.size):
+        raise ValueError("x, y (and weights) must hold sum(lengths) values each")
+    raw = _raw or {}
+    out = empty_columns(G, HARD_MAX_DEGREE + 1, HARD_MAX_DEGREE + 1)
+    out["errors"], out["reports"] = {}, {}
+    groups: dict[ModelSpec, list[int]] = {}
+    if models is None:
+        groups[model] = list(range(G))
+    else:
+        for i, m in enumerate(models):
+            groups.setdefault(model if m is None else m, []).append(i)
+    jobs, fallback = [], []
+    for spec_model, rows in groups.items():
+        rows = np.asarray(rows, dtype=np.int64)
+        try:
+            dmin, dmax, selects = check_spec(spec_model, options)
+        except FitError as exc:
+            for r in rows:
+                out["errors"][int(r)] = exc
+            continue
+        if detail == "full":
+            fallback.extend((int(r), spec_model) for r in rows)
+            continue
+        bspec = batch_block.BlockSpec(dmin, dmax, spec_model.intercept,
+                                      spec_model.select if selects else "fixed",
+                                      float(spec_model.alpha),
+                                      need_press=selects and spec_model.select == "press")
+        good, bad = _screen(x, y, w, offsets, rows, spec_model, raw)
+        fallback.extend((int(r), spec_model) for r in bad)
+        for block in _blocks(good, lengths):
+            jobs.append((block, spec_model, bspec))
+    def run(job):
+        with np.errstate(all="ignore"):  # undefined values become NaN data, not warnings
+            return _fit_block(x, y, w, offsets, lengths, *job)
+
+    if workers > 1 and len(jobs) > 1:
+        with ThreadPoolExecutor(workers) as pool:
+            results = list(pool.map(run, jobs))
+    else:
+        results = [run(job) for job in jobs]
+    for (_, spec_model, bspec), (res, rejected) in zip(jobs, results, strict=True):
+        _scatter(out, res, bspec)
+        fallback.extend((int(r), spec_model) for r in rejected)
+    single = options if detail == "full" else replace(options, grid=None,
+                                                      include=_SUMMARY_INCLUDE)
+    for row, spec_model in sorted(fallback):
+        _fit_one(out, row, spec_model, single, x, y, w, offsets, raw)
+    return BatchResult(**out)
+
+
+def _series(x, y, w, offsets, row, raw):
+    if row in raw:
+        return raw[row]
+    a, b = offsets[row], offsets[row + 1]
+    return x[a:b], y[a:b], None if w is None else w[a:b]
+
+
+def _fit_one(out, row, model, options, x, y, w, offsets, raw):
+    xs, ys, ws = _series(x, y, w, offsets, row, raw)
+    try:
+        report = fit_series(xs, ys, ws, model=model, options=options)
+    except FitError as exc:
+        out["errors"][row] = exc
+        return
+    out["reports"][row] = report
+    fill_from_report(out, row, report)
+
+
+def _screen(x, y, w, offsets, rows, model, raw):
+    """Split rows into those the engine takes and those for the single-series path."""
+    lengths = offsets[rows + 1] - offsets[rows]
+    bad = (lengths == 0) | np.isin(rows, np.fromiter(raw, dtype=np.int64, count=len(raw)))
+    with np.errstate(all="ignore"):
+        point_bad = ~(np.isfinite(x) & np.isfinite(y))
+        if w is not None:
+            point_bad |= ~(np.isfinite(w) & (w > 0))
+        for name, values in (("transform_x", x), ("transform_y", y)):
+            kind = getattr(model, name)
+            if kind != "none":
+                test = transforms._DOMAIN[kind][0]
+                point_bad |= ~test(values)
+    per_point = np.concatenate([[0], np.cumsum(point_bad)])
+    bad |= (per_point[offsets[rows + 1]] - per_point[offsets[rows]]) > 0
+    return rows[~bad], rows[bad]
+
+
+def _blocks(rows, lengths):
+    """Cut rows (sorted by length) into blocks of similar length and bounded size."""
+    if rows.size == 0:
+        return
+    order = rows[np.argsort(lengths[rows], kind="stable")]
+    lens = lengths[order]
+    start = 0
+    while start < order.size:
+        lo = lens[start]
+        cap = max(8, BLOCK_POINTS // max(int(lo), 1))
+        limit = np.searchsorted(lens, np.floor(lo * MAX_PAD_RATIO) + 1, side="left")
+        stop = int(min(order.size, start + cap, max(limit, start + 1)))
+        width = lens[stop - 1]
+        stop = int(min(stop, start + max(8, BLOCK_POINTS // max(int(width), 1))))
+        yield order[start:stop]
+        start = stop
+
+
+def _gather(values, offsets, rows, lens, width, fill=0.0):
+    idx = offsets[rows][:, None] + np.arange(width)[None, :]
+    if np.all(lens == width):
+        return values[idx]
+    inside = np.arange(width)[None, :] < lens[:, None]
+    return np.where(inside, values[np.where(inside, idx, 0)], fill)
+
+
+def _fit_block(x, y, w, offsets, lengths, rows, model, bspec):
+    """Fit one block; return (result dict, rows handed to the single-series path)."""
+    lens = lengths[rows]
+    width = int(lens.max())
+    padded = not np.all(lens == width)
+    valid = (np.arange(width)[None, :] < lens[:, None]) if padded else None
+    u = transforms._FORWARD[model.transform_x](_gather(x, offsets, rows, lens, width, 1.0))
+    z = transforms._FORWARD[model.transform_y](_gather(y, offsets, rows, lens, width, 1.0))
+    if padded:
+        u, z = u * valid, z * valid
+    srt = np.sort(u if valid is None else np.where(valid, u, np.inf), axis=1)
+    steps = np.diff(srt, axis=1) > 0
+    if valid is not None:
+        steps &= valid[:, 1:]
+    distinct = 1 + steps.sum(axis=1)
+    cap = distinct - bspec.c
+    take = cap >= bspec.max_degree
+    if not take.all():  # the core lowers max_degree (or refuses) for these: its path
+        rejected = rows[~take]
+        rows, lens, u, z = rows[take], lens[take], u[take], z[take]
+        distinct = distinct[take]
+        valid = None if valid is None else valid[take]
+        if rows.size == 0:
+            return None, rejected
+    else:
+        rejected = rows[:0]
+    if w is not None:
+        wb = _gather(w, offsets, rows, lens, width, 0.0)
+    else:
+        wb = None if valid is None else valid.astype(float)
+    fit = batch_block.fit_block(u, z, wb, valid if valid is not None else
+                                np.ones(u.shape, dtype=bool), bspec)
+    finite = np.isfinite(fit["coef"][:, 0]) & np.isfinite(fit["rss"])
+    if w is None and bspec.intercept:
+        bp_basis = fit["q"]
+    else:
+        bp_basis, _ = batch_engine.orthonormal_basis(
+            fit["t"], None if valid is None else valid.astype(float), bspec.max_degree + 1, True)
+    diag = batch_diagnostics.diagnose_block(fit, valid, u, z, wb if w is not None else None,
+                                            distinct < lens, bp_basis)
+    fit.pop("q")
+    fit.pop("resid_w")
+    fit.pop("leverage")
+    fit.pop("t")
+    fit.pop("sqrt_w")
+    fit.update(diag)
+    fit["rows"] = rows
+    if not finite.all():
+        fit["bad"] = ~finite
+        rejected = np.concatenate([rejected, rows[~finite]])
+    return fit, rejected
+
+
+def _scatter(out: dict, res: dict | None, bspec) -> None:
+    """Write a block's rows into the batch arrays (rows the engine rejected are skipped)."""
+    if res is None:
+        return
+    keep = ~res["bad"] if "bad" in res else slice(None)
+    rows = res["rows"][keep]
+    cols = out["columns"]
+    for name in cols:
+        if name in res:
+            cols[name][rows] = res[name][keep]
+    cols["min_degree"][rows] = bspec.min_degree
+    width = res["coef"].shape[1]
+    out["coefficients"][rows, :width] = res["coef"][keep]
+    out["std_errors"][rows, :width] = res["se"][keep]
+    ncand = res["cand_rss"].shape[1]
+    for m in out["candidates"]:
+        out["candidates"][m][rows, :ncand] = res["cand_" + m][keep]
+    out["intercept"][rows] = bspec.intercept
+    out["select"][rows] = bspec.select
+    out["ok"][rows] = True
+    for key, target in (("outlier_points", "outliers"), ("influential_points", "influential")):
+        r_idx, c_idx = res[key]
+        if r_idx.size:
+            store = out.setdefault(target, {})
+            bad = res.get("bad")
+            for r, c in zip(r_idx.tolist(), c_idx.tolist(), strict=True):
+                if bad is None or not bad[r]:
+                    store.setdefault(int(res["rows"][r]), []).append(c)

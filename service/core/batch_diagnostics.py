@@ -1,0 +1,137 @@
+"""Diagnostics and trust flags of the chosen fits of a block, vectorized across rows.
+
+Same definitions, thresholds and flag rules as :mod:`service.core.diagnostics`
+and :mod:`service.core.flags` (common-practice cut-offs: Bonferroni outlier
+limit, ``h > 2p/n``, Cook's distance above the median of ``F(p, n - p)``,
+tests at alpha 0.05, Durbin-Watson outside [1.5, 2.5]); the flags of a row
+are a bit mask over :data:`FLAG_CODES`, in the order ``fit_series`` lists
+them (``extrapolation`` only arises with a grid, on the single-series path).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+from scipy import special
+
+from service.core import batch_tests as tests
+from service.core import flags as single
+from service.core.anova import lack_of_fit
+from service.core.diagnostics import OUTLIER_ALPHA
+
+FLAG_CODES = ("exact_fit", "no_residual_df", "few_points_per_parameter",
+              "ill_conditioned_design", "lack_of_fit", "non_normal_residuals",
+              "non_constant_variance", "serial_correlation", "outliers",
+              "influential_points", "high_leverage", "extrapolation")
+BIT = {code: 1 << i for i, code in enumerate(FLAG_CODES)}
+
+
+def _per_unique(func, *keys):
+    """Evaluate a costly scalar function once per distinct combination of keys."""
+    stacked = np.stack([np.asarray(k, dtype=float) for k in keys], axis=1)
+    uniq, inverse = np.unique(stacked, axis=0, return_inverse=True)
+    with np.errstate(all="ignore"):
+        values = func(*uniq.T)
+    return np.asarray(values, dtype=float)[inverse.ravel()]
+
+
+def condition_numbers(coef_t: np.ndarray, p: np.ndarray) -> np.ndarray:
+    """2-norm condition number of each row's leading ``p x p`` R factor.
+
+    ``coef_t`` holds ``R^-1`` (upper triangular). The cheap bound
+    ``||R||_F ||R^-1||_F >= cond_2`` screens rows: rows whose bound exceeds
+    :data:`service.core.flags.COND_CAUTION` get the exact value from an SVD;
+    the others return the bound, which is then known to be below the threshold.
+    """
+    G, P, _ = coef_t.shape
+    keep = np.arange(P)[None, :] < p[:, None]
+    cm = coef_t * (keep[:, :, None] & keep[:, None, :])
+    r = np.zeros_like(cm)                       # invert the upper-triangular blocks
+    for i in range(P - 1, -1, -1):
+        d = np.where(keep[:, i], cm[:, i, i], 1.0)
+        r[:, i, i] = np.where(keep[:, i], 1.0 / d, 0.0)
+        if i + 1 < P:
+            acc = (cm[:, i, i + 1:, None] * r[:, i + 1:, i + 1:]).sum(axis=1)
+            r[:, i, i + 1:] = -acc / d[:, None]
+    bound = np.sqrt((r * r).sum(axis=(1, 2)) * (cm * cm).sum(axis=(1, 2)))
+    out = bound.copy()
+    check = np.flatnonzero(~(bound <= single.COND_CAUTION))
+    for g in check:
+        k = int(p[g])
+        s = np.linalg.svd(r[g, :k, :k], compute_uv=False)
+        out[g] = s[0] / s[-1] if s[-1] > 0 else np.inf
+    return out
+
+
+def diagnose_block(fit: dict, valid: np.ndarray | None, u: np.ndarray, z: np.ndarray,
+                   w: np.ndarray | None, repeats: np.ndarray, bp_basis: np.ndarray) -> dict:
+    """Residual tests, influence counts, lack of fit and the flag mask of each row.
+
+    Parameters
+    ----------
+    fit : dict
+        Output of :func:`service.core.batch_block.fit_block`.
+    valid : (G, L) bool or None (no padding).
+    u, z, w : the block's x, y (fitting scale) and weights (None: unweighted).
+    repeats : (G,) bool, rows whose x has repeated values (lack-of-fit test).
+    bp_basis : (P, G, L) unweighted orthonormal basis of powers of t.
+    """
+    e, h, n = fit["resid_w"], fit["leverage"], fit["n"]
+    p = fit["p"].astype(float)
+    degree = fit["degree"]
+    exact = fit["exact"]
+    rss = fit["rss"]
+    df = n - p
+    padded = valid is not None
+    with np.errstate(all="ignore"):
+        sigma = np.sqrt(rss / df)
+        one_h = 1 - h
+        std = e / (sigma[:, None] * np.sqrt(one_h))
+        s_i2 = (rss[:, None] - e * e / one_h) / (df[:, None] - 1)
+        stud = e / np.sqrt(s_i2 * one_h)
+        cook = std * std * h / (p[:, None] * one_h)
+    bonf = _per_unique(lambda d, k: special.stdtrit(d - 1, 1 - OUTLIER_ALPHA / (2 * k)), df, n)
+    bonf = np.where(df > 1, bonf, np.nan)
+    cook_cut = _per_unique(lambda k, d: special.fdtri(k, d, 0.5), p, np.maximum(df, 1))
+    cook_cut = np.where(df > 0, cook_cut, np.nan)
+    usable = ~exact & (df >= 1)
+    real = valid if padded else True
+    outlier = (np.abs(stud) > bonf[:, None]) & usable[:, None] & real
+    influential = (cook > cook_cut[:, None]) & usable[:, None] & real
+    high = (h > (2 * p / n)[:, None]) & (n > p)[:, None] & real
+
+    sw_w, sw_p = tests.shapiro_wilk(e, n, padded)
+    dw = tests.durbin_watson(e, n, padded)
+    bp_lm, bp_p = tests.breusch_pagan(e, n, bp_basis, degree, padded)
+    sw_w, sw_p, dw, bp_lm, bp_p = (np.where(usable, a, np.nan)
+                                   for a in (sw_w, sw_p, dw, bp_lm, bp_p))
+    lof_f = np.full(n.shape, np.nan)
+    lof_p = np.full(n.shape, np.nan)
+    for g in np.flatnonzero(repeats):
+        k = int(n[g])
+        sw_row = None if w is None else np.sqrt(w[g, :k])
+        zw_row = z[g, :k] if sw_row is None else z[g, :k] * sw_row
+        lof = lack_of_fit(u[g, :k], zw_row, sw_row, float(rss[g]), int(p[g]))
+        if lof is not None:
+            lof_f[g], lof_p[g] = lof.f, lof.p_value
+    cond = condition_numbers(fit["coef_t"], fit["p"])
+
+    mask = np.zeros(n.shape, dtype=np.int64)
+    mask |= np.where(exact, BIT["exact_fit"], 0)
+    mask |= np.where(n == p, BIT["no_residual_df"], 0)
+    mask |= np.where((n != p) & (n < single.POINTS_PER_PARAMETER * p),
+                     BIT["few_points_per_parameter"], 0)
+    mask |= np.where(cond > single.COND_CAUTION, BIT["ill_conditioned_design"], 0)
+    mask |= np.where(lof_p < single.TEST_ALPHA, BIT["lack_of_fit"], 0)
+    mask |= np.where(sw_p < single.TEST_ALPHA, BIT["non_normal_residuals"], 0)
+    mask |= np.where(bp_p < single.TEST_ALPHA, BIT["non_constant_variance"], 0)
+    mask |= np.where(~np.isnan(dw) & ~((dw >= single.DW_LOW) & (dw <= single.DW_HIGH)),
+                     BIT["serial_correlation"], 0)
+    n_out, n_inf, n_high = outlier.sum(axis=1), influential.sum(axis=1), high.sum(axis=1)
+    mask |= np.where(n_out > 0, BIT["outliers"], 0)
+    mask |= np.where(n_inf > 0, BIT["influential_points"], 0)
+    mask |= np.where(n_high > 0, BIT["high_leverage"], 0)
+    return {"flags": mask, "shapiro_wilk": sw_w, "shapiro_wilk_p": sw_p, "durbin_watson": dw,
+            "breusch_pagan": bp_lm, "breusch_pagan_p": bp_p, "lack_of_fit_f": lof_f,
+            "lack_of_fit_p": lof_p, "condition_number": cond, "n_outliers": n_out,
+            "n_influential": n_inf, "n_high_leverage": n_high,
+            "outlier_points": np.nonzero(outlier), "influential_points": np.nonzero(influential)}
