@@ -32,18 +32,35 @@ def sequential_table(effects: np.ndarray, degree: int, intercept: bool, rss: flo
     return tuple(rows)
 
 
+def distinct_count(x: np.ndarray) -> int:
+    """Number of distinct values (a fast path for already sorted x)."""
+    d = np.diff(x)
+    if np.all(d >= 0):
+        return 1 + int(np.count_nonzero(d))
+    return int(np.unique(x).size)
+
+
+def _levels(x: np.ndarray) -> tuple[int, np.ndarray]:
+    d = np.diff(x)
+    if np.all(d >= 0):
+        inverse = np.concatenate(([0], np.cumsum(d != 0)))
+        return int(inverse[-1]) + 1, inverse
+    levels, inverse = np.unique(x, return_inverse=True)
+    return levels.size, inverse
+
+
 def lack_of_fit(x: np.ndarray, zw: np.ndarray, sqrt_w: np.ndarray | None, rss: float,
-                p: int) -> LackOfFit | None:
-    """Lack-of-fit F test; None when no x value repeats.
+                p: int, distinct: int) -> LackOfFit | None:
+    """Lack-of-fit F test; None when no x value repeats (``distinct == n``).
 
     Pure-error SS is the (weighted) scatter of y about the mean of its own x
     level; lack-of-fit SS = residual SS - pure-error SS, on ``levels - p``
     df. The F is undefined (nan) when ``levels <= p`` or pure error is zero.
     """
-    levels, inverse = np.unique(x, return_inverse=True)
-    k, n = levels.size, x.size
-    if k == n:
+    n = x.size
+    if distinct == n:
         return None
+    k, inverse = _levels(x)
     w = np.ones(n) if sqrt_w is None else sqrt_w * sqrt_w
     z = zw if sqrt_w is None else zw / sqrt_w
     sw = np.bincount(inverse, weights=w, minlength=k)

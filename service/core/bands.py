@@ -76,8 +76,8 @@ def predict(fitted: FittedPolynomial, x, *, level: float | None = None, m: int =
     df = fitted.df_residual
     sigma = fitted.sigma
     with np.errstate(all="ignore"):
-        s = np.linalg.solve(fitted.r_factor.T, v.T)  # R^-T v(t), one column per x
-        se = sigma * np.sqrt(np.einsum("ij,ij->j", s, s))
+        s = v @ np.linalg.inv(fitted.r_factor)  # rows: (R^-T v(t))' for each x
+        se = sigma * np.sqrt(np.einsum("ij,ij->i", s, s))
         if df > 0:
             tq = float(special.stdtrit(df, 0.5 + level / 2))
             wh = float(np.sqrt(v.shape[1] * special.fdtri(v.shape[1], df, level)))

@@ -2,8 +2,9 @@
 
 Because the columns enter in order (``t^0, t^1, ...``), the fit of degree
 ``k`` uses the leading ``p_k`` columns: its R factor is the leading block of
-R, its effects the leading effects, and its residual sum of squares is the
-full model's plus the squares of the effects it leaves out.
+R (and its inverse the leading block of R^-1), its effects the leading
+effects, and its residual sum of squares the full model's plus the squares
+of the effects it leaves out.
 """
 
 from __future__ import annotations
@@ -29,12 +30,12 @@ class Decomposition:
     scale: float
     t: np.ndarray            # float64 scaled x of the used points
     sqrt_w: np.ndarray | None
-    z: np.ndarray            # response on the fitting scale (unweighted)
-    zw: np.ndarray           # sqrt(w) * z
-    r: np.ndarray            # (P, P) extended-precision (or float64 on long series) R
-    effects: np.ndarray      # (P,) Q'zw, same dtype as r
+    zw: np.ndarray           # sqrt(w) * response on the fitting scale
+    r: np.ndarray            # (P, P) R, extended precision (float64 on long series)
+    r_inv: np.ndarray        # (P, P) R^-1, same dtype
+    effects: np.ndarray      # (P,) Q'zw, same dtype
     rss_full: float          # residual SS of the largest model
-    q: np.ndarray            # (n, P) float64 thin Q
+    q: np.ndarray            # (P, n) float64 orthonormal rows (thin Q transposed)
     sum_zw2: float           # uncentred total SS (weighted)
 
     def p(self, degree: int) -> int:
@@ -42,31 +43,28 @@ class Decomposition:
         return degree + (1 if self.intercept else 0)
 
     def rss(self, degree: int) -> float:
-        """Residual SS of the candidate of this degree (exact residual -> 0.0)."""
-        p = self.p(degree)
-        rest = self.effects[p:]
-        value = float(self.rss_full + float(rest @ rest))
+        """Residual SS of the candidate of this degree (exact fit -> 0.0)."""
+        rest = self.effects[self.p(degree):]
+        value = self.rss_full + float(rest @ rest)
         return 0.0 if value <= (EXACT_FIT_RTOL ** 2) * self.sum_zw2 else value
 
-    def r_inverse(self, degree: int) -> np.ndarray:
-        """Inverse of the leading R block (extended precision)."""
-        p = self.p(degree)
-        return _tri_inverse(self.r[:p, :p])
-
-    def basis_coefficients(self, degree: int) -> np.ndarray:
-        """Coefficients on powers of ``t`` (extended precision)."""
-        p = self.p(degree)
-        return self.r_inverse(degree) @ self.effects[:p]
-
-
-def _tri_inverse(r: np.ndarray) -> np.ndarray:
-    """Inverse of an upper-triangular matrix by back substitution in its own dtype."""
-    p = r.shape[0]
-    inv = np.zeros_like(r)
-    eye = np.eye(p, dtype=r.dtype)
-    for i in range(p - 1, -1, -1):
-        inv[i] = (eye[i] - r[i, i + 1:] @ inv[i + 1:]) / r[i, i]
-    return inv
+    def cumulative(self, degrees) -> tuple[np.ndarray, np.ndarray]:
+        """Hat diagonals and weighted fitted values of the candidates (len(degrees) x n)."""
+        want = {self.p(d) - 1: i for i, d in enumerate(degrees)}
+        n = self.q.shape[1]
+        lev = np.empty((len(want), n))
+        fit = np.empty((len(want), n))
+        eff = self.effects.astype(float)
+        h = np.zeros(n)
+        f = np.zeros(n)
+        for j in range(max(want) + 1):
+            row = self.q[j]
+            h += row * row
+            f += eff[j] * row
+            if j in want:
+                lev[want[j]] = h
+                fit[want[j]] = f
+        return lev, fit
 
 
 def decompose(u: np.ndarray, z: np.ndarray, w: np.ndarray | None, max_degree: int,
@@ -77,31 +75,39 @@ def decompose(u: np.ndarray, z: np.ndarray, w: np.ndarray | None, max_degree: in
     ------
     DesignError
         When the columns are numerically dependent even though x has enough
-        distinct values (extremely clustered x relative to its range).
+        distinct values (x extremely clustered relative to its range).
     """
     shift, scale = design.scaling(u, intercept)
     n = u.size
-    dtype = qr.EXTENDED if n <= qr.EXTENDED_MAX_ROWS else float
-    t_ext = design.to_t(u, shift, scale, dtype)
-    cols = design.basis(t_ext, max_degree, intercept)
     sqrt_w = None if w is None else np.sqrt(w)
     zw = z if sqrt_w is None else z * sqrt_w
-    a = np.empty((n, cols.shape[1] + 1), dtype=dtype)
-    a[:, :-1] = cols if sqrt_w is None else cols * sqrt_w.astype(dtype)[:, None]
-    a[:, -1] = zw
-    p = cols.shape[1]
+    t64 = design.to_t(u, shift, scale)
+    p = max_degree + (1 if intercept else 0)
     try:
-        r, qta = qr.triangularize(a, p)
+        if n > qr.EXTENDED_MAX_ROWS:
+            v = design.basis_rows(t64, max_degree, intercept, sqrt_w)
+            got = qr.cholesky_qr2(v)
+            if got is not None:
+                r, q = got
+                effects = q @ zw
+                resid = zw - effects @ q
+                return Decomposition(intercept, max_degree, shift, scale, t64, sqrt_w, zw, r,
+                                     qr.triangular_inverse(r), effects, float(resid @ resid),
+                                     q, float(zw @ zw))
+        t_ext = design.to_t(u, shift, scale, qr.EXTENDED)
+        sw = None if sqrt_w is None else sqrt_w.astype(qr.EXTENDED)
+        a = np.empty((p + 1, n), dtype=qr.EXTENDED)
+        a[:p] = design.basis_rows(t_ext, max_degree, intercept, sw)
+        a[p] = zw
+        v64 = a[:p].astype(float)
+        r, effects, rss = qr.householder(a, p)
     except qr.RankDeficient as exc:
         raise DesignError(
             f"The design for degree {max_degree} is numerically rank deficient (column "
             f"{exc.column} depends on the earlier ones): the x values are too clustered for "
             "this many powers.", field="model.max_degree" if max_degree else "x",
             fix="Lower the degree, or spread the x values more evenly.") from None
-    effects = qta[:p, 0]
-    tail = qta[p:, 0]
-    rss_full = float(tail @ tail)
-    rinv = _tri_inverse(r)
-    q = (a[:, :p] @ rinv).astype(float)
-    return Decomposition(intercept, max_degree, shift, scale, t_ext.astype(float), sqrt_w, z,
-                         zw, r, effects, rss_full, q, float(zw @ zw))
+    r_inv = qr.triangular_inverse(r)
+    q = r_inv.astype(float).T @ v64
+    return Decomposition(intercept, max_degree, shift, scale, t64, sqrt_w, zw, r, r_inv,
+                         effects, rss, q, float(zw @ zw))

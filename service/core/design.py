@@ -46,32 +46,47 @@ def basis(t: np.ndarray, degree: int, intercept: bool) -> np.ndarray:
     return cols if intercept else cols[:, 1:]
 
 
+def basis_rows(t: np.ndarray, degree: int, intercept: bool,
+               sqrt_w: np.ndarray | None = None) -> np.ndarray:
+    """Design transposed (p x n): row k is the k-th column, times ``sqrt_w`` if given."""
+    first = 0 if intercept else 1
+    rows = np.empty((degree + 1 - first, t.size), dtype=t.dtype)
+    cur = np.ones_like(t) if sqrt_w is None else np.array(sqrt_w, dtype=t.dtype)
+    for k in range(degree + 1):
+        if k >= first:
+            rows[k - first] = cur
+        if k < degree:
+            cur = cur * t
+    return rows
+
+
 def to_t(u: np.ndarray, shift: float, scale: float, dtype=float) -> np.ndarray:
     """``(u - shift) / scale`` computed in ``dtype``."""
     u = np.asarray(u, dtype=dtype)
     return (u - dtype(shift)) / dtype(scale)
 
 
-def conversion(shift: float, scale: float, degree: int, intercept: bool) -> np.ndarray:
+def conversion(shift: float, scale: float, degree: int, intercept: bool,
+               inverse: bool = False) -> np.ndarray:
     """Matrix ``T`` (extended precision) with ``raw = T @ basis`` coefficients.
 
     ``t^k = ((u - s)/c)^k = sum_j C(k, j) (-s)^(k-j) c^-k u^j``, so
     ``T[j, k] = C(k, j) (-s)^(k-j) / c^k`` for ``j <= k``. Entries are formed
     in longdouble from the exact float64 ``s`` and ``c``; the conversion
     cancels heavily on narrow, off-centre x ranges, which is why the basis
-    coefficients must carry extra digits into it.
+    coefficients must carry extra digits into it. ``inverse=True`` gives
+    ``T^-1`` (``u^j = (s + c t)^j``): ``T^-1[k, j] = C(j, k) s^(j-k) c^k``.
     """
-    s, c = EXTENDED(shift), EXTENDED(scale)
     d = degree
-    t = np.zeros((d + 1, d + 1), dtype=EXTENDED)
-    inv_c = EXTENDED(1) / c
-    for k in range(d + 1):
-        ck = inv_c ** k
-        for j in range(k + 1):
-            t[j, k] = EXTENDED(comb(k, j)) * (-s) ** (k - j) * ck
-    if not intercept:
-        t = t[1:, 1:]
-    return t
+    k = np.arange(d + 1)
+    binom = np.array([[comb(int(i), int(j)) for i in k] for j in k], dtype=EXTENDED)  # C(col,row)
+    gap = (k[None, :] - k[:, None]).clip(0)
+    s, c = EXTENDED(shift), EXTENDED(scale)
+    if inverse:
+        t = binom * s ** gap * c ** k[:, None].astype(EXTENDED)
+    else:
+        t = binom * (-s) ** gap * (EXTENDED(1) / c) ** k[None, :].astype(EXTENDED)
+    return t if intercept else t[1:, 1:]
 
 
 def raw_coefficients(shift: float, scale: float, degree: int, intercept: bool,
@@ -79,6 +94,6 @@ def raw_coefficients(shift: float, scale: float, degree: int, intercept: bool,
                      ) -> tuple[np.ndarray, np.ndarray]:
     """Coefficients and covariance on powers of ``u`` (extended precision in, float64 out)."""
     tm = conversion(shift, scale, degree, intercept)
-    raw = tm @ np.asarray(coef_basis, dtype=EXTENDED)
-    cov = tm @ np.asarray(cov_basis, dtype=EXTENDED) @ tm.T
+    raw = tm @ coef_basis
+    cov = tm @ cov_basis @ tm.T
     return raw.astype(float), cov.astype(float)

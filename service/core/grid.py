@@ -59,7 +59,9 @@ def grid_points(spec: GridSpec, x_min: float, x_max: float, max_points: int) -> 
     _check_size(int(count), max_points, "grid.count")
     if count == 1:
         return np.array([start])
-    return np.linspace(start, stop, int(count))
+    xs = start + (stop - start) / (count - 1) * np.arange(count)
+    xs[-1] = stop
+    return xs
 
 
 def _check_size(size: int, max_points: int, field: str) -> None:

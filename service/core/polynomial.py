@@ -11,7 +11,7 @@ import numpy as np
 from scipy import special
 
 from service.core import design, transforms
-from service.core.anova import sequential_table
+from service.core.anova import distinct_count, sequential_table
 from service.core.bands import predict
 from service.core.decomposition import decompose
 from service.core.diagnostics import diagnose
@@ -30,7 +30,7 @@ from service.core.results import (
 )
 from service.core.selection import candidate_row, choose
 from service.core.spec import FitOptions, ModelSpec
-from service.core.summary import measures
+from service.core.summary import candidate_measures
 
 NAN = float("nan")
 RAW_COND_NOTICE = 1e10  # raw-power design condition number worth a notice (common practice)
@@ -72,14 +72,14 @@ def fit_series(x, y, weights=None, *, model: ModelSpec = _DEFAULT_MODEL,
     u = transforms.apply(model.transform_x, data.x, field="x", index=data.index)
     z = transforms.apply(model.transform_y, data.y, field="y", index=data.index)
     notices: list[Notice] = []
-    dmax = _supported_max(u, intercept, dmin, dmax, selects, notices)
+    distinct = distinct_count(data.x)
+    dmax = _supported_max(distinct, intercept, dmin, dmax, selects, notices)
     dec = decompose(u, z, data.w, dmax, intercept)
     n = u.size
     sum_log_w = 0.0 if data.w is None else float(np.sum(np.log(data.w)))
-    h_all = np.cumsum(dec.q * dec.q, axis=1)
-    fit_all = np.cumsum(dec.q * dec.effects.astype(float), axis=1)
-    cands = [measures(dec, d, sum_log_w, h_all[:, dec.p(d) - 1], fit_all[:, dec.p(d) - 1])
-             if dec.p(d) > 0 else None for d in range(dmin, dmax + 1)]
+    degrees = list(range(dmin, dmax + 1))
+    lev, fits = dec.cumulative(degrees)
+    cands = candidate_measures(dec, degrees, sum_log_w, lev, fits)
     if selects:
         degree, reason = choose(model.select, cands, model.alpha)
         method = model.select
@@ -89,7 +89,7 @@ def fit_series(x, y, weights=None, *, model: ModelSpec = _DEFAULT_MODEL,
     p = m.p
     selection = Selection(method, degree, reason, float(model.alpha),
                           tuple(candidate_row(c) for c in cands))
-    rinv = dec.r_inverse(degree)
+    rinv = dec.r_inv[:p, :p]
     coef_b = rinv @ dec.effects[:p]
     sigma2 = 0.0 if m.exact else (m.rss / m.df_residual if m.df_residual > 0 else NAN)
     raw, cov = design.raw_coefficients(dec.shift, dec.scale, degree, intercept, coef_b,
@@ -97,8 +97,7 @@ def fit_series(x, y, weights=None, *, model: ModelSpec = _DEFAULT_MODEL,
     sigma = 0.0 if m.exact else m.sigma
     terms = design.term_names(degree, intercept)
     r64 = np.asarray(dec.r[:p, :p], dtype=float)
-    cond = _condition(r64)
-    raw_cond = _raw_condition(r64, dec.shift, dec.scale, degree, intercept)
+    cond, raw_cond = _conditions(r64, dec.shift, dec.scale, degree, intercept)
     if raw_cond > RAW_COND_NOTICE:
         notices.append(Notice("raw_coefficients_sensitive",
                               f"The raw-power design has condition number {raw_cond:.3g}: the "
@@ -123,8 +122,9 @@ def fit_series(x, y, weights=None, *, model: ModelSpec = _DEFAULT_MODEL,
         m.predicted_r_squared, cond)
     diagnostics = None
     if "diagnostics" in options.include:
-        diagnostics = diagnose(data.index, data.x, dec.t, dec.q[:, :p], dec.effects[:p], dec.zw,
-                               dec.sqrt_w, m.rss, degree, m.exact)
+        k = degree - dmin
+        diagnostics = diagnose(data.index, data.x, dec, degree, lev[k], fits[k], m.rss,
+                               m.exact, distinct)
     grid = None
     if "grid" in options.include and options.grid is not None:
         gx = grid_points(options.grid, xmin, xmax, options.max_grid_points)
@@ -135,9 +135,8 @@ def fit_series(x, y, weights=None, *, model: ModelSpec = _DEFAULT_MODEL,
                      selection, diagnostics, grid, flags, tuple(notices))
 
 
-def _supported_max(u, intercept, dmin, dmax, selects, notices) -> int:
+def _supported_max(distinct, intercept, dmin, dmax, selects, notices) -> int:
     """Largest degree the distinct x values support; error or notice when it binds."""
-    distinct = np.unique(u).size
     cap = distinct - (1 if intercept else 0)
     if dmin > cap or (not selects and dmax > cap):
         need = dmin + (1 if intercept else 0)
@@ -155,25 +154,28 @@ def _supported_max(u, intercept, dmin, dmax, selects, notices) -> int:
 
 def _coefficient_table(terms, raw, cov, df, level) -> tuple[Coefficient, ...]:
     se = np.sqrt(np.maximum(np.diag(cov), 0.0))
+    pos = se > 0
     with np.errstate(all="ignore"):
         tq = float(special.stdtrit(df, 0.5 + level / 2)) if df > 0 else NAN
-        tval = np.where(se > 0, raw / se, NAN)
+        tval = np.where(pos, raw / se, NAN)
         pval = 2 * special.stdtr(df, -np.abs(tval)) if df > 0 else np.full(raw.shape, NAN)
-        half = np.where(se > 0, tq * se, 0.0) if df > 0 else np.full(raw.shape, NAN)
-    return tuple(Coefficient(terms[i], float(raw[i]), float(se[i]), float(tval[i]),
-                             float(pval[i]), float(raw[i] - half[i]), float(raw[i] + half[i]))
-                 for i in range(raw.size))
+        half = np.where(pos, tq * se, 0.0) if df > 0 else np.full(raw.shape, NAN)
+    cols = zip(terms, raw.tolist(), se.tolist(), tval.tolist(), pval.tolist(),
+               (raw - half).tolist(), (raw + half).tolist(), strict=True)
+    return tuple(Coefficient(*c) for c in cols)
 
 
-def _condition(r: np.ndarray) -> float:
-    s = np.linalg.svd(r, compute_uv=False)
-    return float(s[0] / s[-1]) if s[-1] > 0 else float("inf")
+def _conditions(r, shift, scale, degree, intercept) -> tuple[float, float]:
+    """Condition numbers of the scaled-basis design and of the raw-power design.
 
-
-def _raw_condition(r, shift, scale, degree, intercept) -> float:
-    """Condition number of the raw-power design with unit-norm columns."""
-    tm = np.asarray(design.conversion(shift, scale, degree, intercept), dtype=float)
+    The raw one is taken with unit-norm columns (the usual scaled condition
+    number): ``R T^-1`` is the R factor of the raw design.
+    """
+    tinv = np.asarray(design.conversion(shift, scale, degree, intercept, inverse=True),
+                      dtype=float)
     with np.errstate(all="ignore"):
-        rr = r @ np.linalg.inv(tm)
-        rr = rr / np.linalg.norm(rr, axis=0)
-        return _condition(rr)
+        rr = r @ tinv
+        rr = rr / np.sqrt(np.einsum("ij,ij->j", rr, rr))
+        sv = np.linalg.svd(np.stack([r, rr]), compute_uv=False)
+    c = sv[:, 0] / sv[:, -1]
+    return float(c[0]), float(c[1])

@@ -1,21 +1,29 @@
-"""Householder QR of a tall, narrow design augmented with the response.
+"""Orthogonal triangularisation of a short, wide design (one row per power).
 
-The design has at most 13 columns, so a column-by-column Householder
-triangularisation vectorized over the rows is cheap. It is carried out in
-numpy ``longdouble`` (80-bit extended precision on x86-64, eps ~1.1e-19)
-for series up to :data:`EXTENDED_MAX_ROWS` points: that keeps about three
-more digits than float64, which the conversion of coefficients back to raw
-powers of x needs (NIST StRD Filip and Wampler1 lose 5-7 digits there).
-Longer series use LAPACK's float64 Householder QR (scipy) for speed.
+The design is stored transposed, ``a[k]`` being the k-th column (power of
+t) over all points, with the response as the last row. It has at most 13
+columns, so two small kernels cover every case:
+
+* :func:`householder` — column-by-column Householder reflections vectorized
+  over the points, in the dtype of ``a``. The fit runs it in numpy
+  ``longdouble`` (80-bit extended on x86-64, eps ~1.1e-19) for series of up
+  to :data:`EXTENDED_MAX_ROWS` points: the conversion of coefficients back
+  to raw powers of x cancels heavily (NIST StRD Filip and Wampler1 lose 5-7
+  digits there), so the basis coefficients must carry extra digits.
+* :func:`cholesky_qr2` — float64 CholeskyQR2 (Fukaya et al., 2014) for
+  longer series: two Gram/Cholesky passes give an orthonormal Q to working
+  precision while the scaled basis is well conditioned (condition < 1e7),
+  which the [-1, 1] mapping ensures for any sensible x; worse designs fall
+  back to :func:`householder`.
 """
 
 from __future__ import annotations
 
 import numpy as np
-import scipy.linalg
 
 EXTENDED = np.longdouble
-EXTENDED_MAX_ROWS = 20_000  # above this, float64 LAPACK (speed); see module docstring
+EXTENDED_MAX_ROWS = 5_000  # above this, float64 CholeskyQR2 (speed); see module docstring
+CHOLQR_MAX_COND = 1e7
 
 
 class RankDeficient(ArithmeticError):
@@ -26,66 +34,89 @@ class RankDeficient(ArithmeticError):
         self.column = column
 
 
-def triangularize(a: np.ndarray, p: int, *, tol: float = 1e-13) -> tuple[np.ndarray, np.ndarray]:
-    """Reduce the first ``p`` columns of ``a`` (n x q, q > p) to upper-triangular form.
-
-    Parameters
-    ----------
-    a : ndarray (n, q)
-        Design columns followed by one or more response columns; overwritten
-        when its dtype is the working dtype.
-    p : int
-        Number of design columns.
-    tol : float
-        A column whose part orthogonal to the earlier columns is below
-        ``tol`` times its own norm counts as rank deficient.
+def householder(a: np.ndarray, p: int, tol: float = 1e-13) -> tuple[np.ndarray, np.ndarray,
+                                                                      float]:
+    """Triangularise the first ``p`` rows of ``a`` (q x n, q = p + 1) in place.
 
     Returns
     -------
     r : ndarray (p, p)
-        Upper-triangular factor (diagonal signs as they come).
-    qta : ndarray (n, q - p)
-        ``Q' a[:, p:]``: the first ``p`` rows are the effects, the rest
-        carry the residual sum of squares.
+        Upper-triangular factor, dtype of ``a`` (diagonal signs as they come).
+    effects : ndarray (p,)
+        ``Q'y`` for the last row ``y`` of ``a``.
+    rss : float
+        Squared norm of the part of ``y`` orthogonal to the design.
 
     Raises
     ------
     RankDeficient
-        With the index of the first dependent column.
+        When a column's part orthogonal to the earlier ones is below ``tol``
+        times its norm.
     """
-    n = a.shape[0]
-    if n > EXTENDED_MAX_ROWS:
-        return _lapack(a, p, tol)
-    a = np.array(a, dtype=EXTENDED)
-    norms = np.sqrt(np.einsum("ij,ij->j", a[:, :p], a[:, :p]))
-    for k in range(min(p, n)):
-        col = a[k:, k]
+    n = a.shape[1]
+    if p > n:
+        raise RankDeficient(n)
+    norms = np.sqrt(np.einsum("ij,ij->i", a[:p], a[:p]))
+    for k in range(p):
+        col = a[k, k:]
         normx = np.sqrt(col @ col)
         if not normx > tol * norms[k]:
             raise RankDeficient(k)
         v = col.copy()
         v[0] += normx if col[0] >= 0 else -normx
-        scale = 2 / (v @ v)
         block = a[k:, k:]
-        block -= np.outer(v, (v @ block) * scale)
-    if p > n:
-        raise RankDeficient(n)
-    return np.triu(a[:p, :p]), a[:, p:]
+        block -= ((block @ v) * (2 / (v @ v)))[:, None] * v
+    r = a[:p, :p].T.copy()
+    r[np.tril_indices(p, -1)] = 0
+    tail = a[p, p:]
+    return r, a[p, :p].copy(), float(tail @ tail)
 
 
-def _lapack(a: np.ndarray, p: int, tol: float) -> tuple[np.ndarray, np.ndarray]:
-    """float64 path for long series: LAPACK Householder QR, then Q'(responses)."""
-    a = np.asarray(a, dtype=float)
-    q, r = scipy.linalg.qr(a[:, :p], mode="economic", check_finite=False)
-    norms = np.sqrt(np.einsum("ij,ij->j", a[:, :p], a[:, :p]))
-    diag = np.abs(np.diag(r))
-    bad = np.flatnonzero(~(diag > tol * norms))
-    if bad.size:
-        raise RankDeficient(int(bad[0]))
-    rhs = a[:, p:]
-    effects = q.T @ rhs
-    rest = rhs - q @ effects
-    # Rows p.. of Q'rhs are not formed; a vector with the same norm carries the residual SS.
-    tail = np.zeros((a.shape[0] - p, rhs.shape[1]))
-    tail[0] = np.sqrt(np.einsum("ij,ij->j", rest, rest))
-    return r, np.vstack([effects, tail])
+def cholesky_qr2(v: np.ndarray, tol: float = 1e-13) -> tuple[np.ndarray, np.ndarray] | None:
+    """float64 CholeskyQR2 of the design rows ``v`` (p x n).
+
+    Returns ``(r, q)`` with ``q`` (p x n) orthonormal rows, or None when the
+    design is too ill-conditioned for it (the caller falls back to Householder).
+    """
+    r1 = _chol(v @ v.T, tol)
+    if r1 is None:
+        return None
+    d = np.abs(np.diag(r1))
+    if d.min() * CHOLQR_MAX_COND < d.max():
+        return None
+    q1 = _forward(r1, v)
+    r2 = _chol(q1 @ q1.T, tol)
+    if r2 is None:
+        return None
+    return r2 @ r1, _forward(r2, q1)
+
+
+def _chol(g: np.ndarray, tol: float) -> np.ndarray | None:
+    try:
+        r = np.linalg.cholesky(g).T
+    except np.linalg.LinAlgError:
+        return None
+    if not np.all(np.diag(r) > tol * np.sqrt(np.diag(g))):
+        return None
+    return r
+
+
+def _forward(r: np.ndarray, v: np.ndarray) -> np.ndarray:
+    """Solve ``r' q = v`` for q (rows), r upper triangular: q = r^-T v."""
+    q = np.empty_like(v)
+    for j in range(r.shape[0]):
+        acc = v[j].copy()
+        for k in range(j):
+            acc -= r[k, j] * q[k]
+        q[j] = acc / r[j, j]
+    return q
+
+
+def triangular_inverse(r: np.ndarray) -> np.ndarray:
+    """Inverse of an upper-triangular matrix by back substitution in its own dtype."""
+    p = r.shape[0]
+    inv = np.zeros_like(r)
+    eye = np.eye(p, dtype=r.dtype)
+    for i in range(p - 1, -1, -1):
+        inv[i] = (eye[i] - r[i, i + 1:] @ inv[i + 1:]) / r[i, i]
+    return inv

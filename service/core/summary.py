@@ -57,49 +57,52 @@ class Measures:
     exact: bool
 
 
-def measures(dec: Decomposition, degree: int, sum_log_w: float,
-             leverage: np.ndarray, fitted: np.ndarray) -> Measures:
-    """Compute the whole-fit numbers of the candidate of ``degree``.
+def candidate_measures(dec: Decomposition, degrees: list[int], sum_log_w: float,
+                       leverage: np.ndarray, fitted: np.ndarray) -> list[Measures]:
+    """Whole-fit numbers of every candidate degree.
 
-    ``leverage`` and ``fitted`` are that candidate's hat diagonal and
-    weighted fitted values (both length n).
+    ``leverage`` and ``fitted`` are the candidates' hat diagonals and weighted
+    fitted values (``len(degrees) x n``, see ``Decomposition.cumulative``).
     """
-    n, p = dec.t.size, dec.p(degree)
-    c = 1 if dec.intercept else 0
-    df_model, df_res = p - c, n - p
-    rss = dec.rss(degree)
-    eff = dec.effects[c:p]
-    ss_model = float(eff @ eff)
-    tss = ss_model + rss
-    exact = rss == 0.0 and ss_model > 0
+    n = dec.t.size
     with np.errstate(all="ignore"):
+        loo = (dec.zw - fitted) / (1 - leverage)
+        press = np.einsum("ij,ij->i", loo, loo)
+        press[np.any(leverage >= LEVERAGE_ONE, axis=1)] = NAN
+    c = 1 if dec.intercept else 0
+    effects = dec.effects.astype(float)
+    out = []
+    for i, degree in enumerate(degrees):
+        p = degree + c
+        df_model, df_res = p - c, n - p
+        rss = dec.rss(degree)
+        eff = effects[c:p]
+        ss_model = float(eff @ eff)
+        tss = ss_model + rss
+        exact = rss == 0.0 and ss_model > 0
         r2 = ss_model / tss if tss > 0 else NAN
-        adj = 1 - (1 - r2) * (n - c) / df_res if df_res > 0 else NAN
+        adj = 1 - (1 - r2) * (n - c) / df_res if df_res > 0 and tss > 0 else NAN
         mse = rss / df_res if df_res > 0 else NAN
         sigma = sqrt(mse) if df_res > 0 else NAN
-        if df_model > 0 and df_res > 0 and not exact:
-            f = (ss_model / df_model) / mse
-            fp = float(special.fdtrc(df_model, df_res, f))
-        else:
-            f = fp = NAN
-        if df_res > 0 and p > c and not exact:
-            last = float(dec.effects[p - 1]) ** 2
-            f_last = last / mse
-            p_last = float(special.fdtrc(1, df_res, f_last))
-        else:
-            f_last = p_last = NAN
+        fit_ok = df_res > 0 and not exact and rss > 0
+        f = (ss_model / df_model) / mse if fit_ok and df_model > 0 else NAN
+        f_last = float(effects[p - 1]) ** 2 / mse if fit_ok and p > c else NAN
         if rss > 0:
             llf = -0.5 * n * (log(2 * pi) + log(rss / n) + 1) + 0.5 * sum_log_w
-            aic = -2 * llf + 2 * p
-            bic = -2 * llf + p * log(n)
+            aic, bic = -2 * llf + 2 * p, -2 * llf + p * log(n)
             aicc = aic + 2 * p * (p + 1) / (n - p - 1) if n - p - 1 > 0 else NAN
         else:
             llf = aic = bic = aicc = NAN
-        if np.all(leverage < LEVERAGE_ONE):
-            loo = (dec.zw - fitted) / (1 - leverage)
-            press = 0.0 if exact else float(loo @ loo)
-            pred_r2 = 1 - press / tss if tss > 0 else NAN
-        else:
-            press = pred_r2 = NAN
-    return Measures(degree, n, p, df_model, df_res, rss, tss, ss_model, r2, adj, sigma, f, fp,
-                    llf, aic, aicc, bic, press, pred_r2, f_last, p_last, exact)
+        pr = 0.0 if exact else float(press[i])
+        pred_r2 = 1 - pr / tss if tss > 0 else NAN
+        out.append([degree, n, p, df_model, df_res, rss, tss, ss_model, r2, adj, sigma, f, NAN,
+                    llf, aic, aicc, bic, pr, pred_r2, f_last, NAN, exact])
+    # p-values for every candidate in two ufunc calls
+    df_m = np.array([row[3] for row in out], dtype=float)
+    df_r = np.array([row[4] for row in out], dtype=float)
+    with np.errstate(all="ignore"):
+        f_p = special.fdtrc(df_m, df_r, np.array([row[11] for row in out]))
+        last_p = special.fdtrc(1.0, df_r, np.array([row[19] for row in out]))
+    for row, fp, lp in zip(out, f_p, last_p, strict=True):
+        row[12], row[20] = float(fp), float(lp)
+    return [Measures(*row) for row in out]

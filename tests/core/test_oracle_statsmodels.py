@@ -71,3 +71,119 @@ def test_predict_matches_get_prediction(weighted):
     again = predict(rep.model, gx)
     assert np.array_equal(again.fit, g.fit) and np.array_equal(again.obs_upper, g.obs_upper)
     assert np.array_equal(g.extrapolated, (gx < x.min()) | (gx > x.max()))
+
+
+def test_sequential_anova_matches_anova_lm_typ1():
+    import pandas as pd
+    import statsmodels.formula.api as smf
+    from statsmodels.stats.anova import anova_lm
+
+    x, y, _ = _data(21)
+    rep = fit_series(x, y, model=ModelSpec(degree=3))
+    frame = pd.DataFrame({"x": x, "y": y})
+    # oracle: statsmodels anova_lm(typ=1) on the formula fit, terms in entry order
+    table = anova_lm(smf.ols("y ~ x + I(x**2) + I(x**3)", data=frame).fit(), typ=1)
+    rows = rep.anova
+    assert [r.term for r in rows] == ["x", "x^2", "x^3", "residual"]
+    np.testing.assert_allclose([r.sum_sq for r in rows], table["sum_sq"], rtol=RTOL)
+    np.testing.assert_allclose([r.df for r in rows], table["df"], rtol=0)
+    np.testing.assert_allclose([r.mean_sq for r in rows], table["mean_sq"], rtol=RTOL)
+    np.testing.assert_allclose([r.f for r in rows[:-1]], table["F"][:-1], rtol=RTOL)
+    np.testing.assert_allclose([r.p_value for r in rows[:-1]], table["PR(>F)"][:-1], rtol=1e-8)
+
+
+def test_influence_and_tests_match_statsmodels_and_scipy():
+    import scipy.stats
+    from statsmodels.stats.diagnostic import het_breuschpagan
+    from statsmodels.stats.outliers_influence import OLSInfluence
+    from statsmodels.stats.stattools import durbin_watson
+
+    x, y, _ = _data(8, n=80)
+    degree = 2
+    res = sm.OLS(y, _exog(x, degree)).fit()
+    infl = OLSInfluence(res)
+    d = fit_series(x, y, model=ModelSpec(degree=degree)).diagnostics
+    # oracle: statsmodels OLSInfluence
+    np.testing.assert_allclose(d.residuals, res.resid, rtol=RTOL, atol=1e-12)
+    np.testing.assert_allclose(d.leverage, infl.hat_matrix_diag, rtol=RTOL)
+    np.testing.assert_allclose(d.standardized, infl.resid_studentized_internal, rtol=RTOL)
+    np.testing.assert_allclose(d.studentized, infl.resid_studentized_external, rtol=RTOL)
+    np.testing.assert_allclose(d.cooks_distance, infl.cooks_distance[0], rtol=RTOL)
+    np.testing.assert_allclose(d.dffits, infl.dffits[0], rtol=RTOL)
+    tests = {t.name: t for t in d.tests}
+    # oracle: statsmodels het_breuschpagan (default robust=True: Koenker's LM), durbin_watson
+    lm, lm_p, _, _ = het_breuschpagan(res.resid, res.model.exog)
+    np.testing.assert_allclose(tests["breusch_pagan"].statistic, lm, rtol=RTOL)
+    np.testing.assert_allclose(tests["breusch_pagan"].p_value, lm_p, rtol=1e-8)
+    np.testing.assert_allclose(tests["durbin_watson"].statistic, durbin_watson(res.resid),
+                               rtol=RTOL)
+    # oracle: scipy.stats.shapiro (our direct call of the same routine must agree)
+    sw = scipy.stats.shapiro(res.resid)
+    np.testing.assert_allclose(tests["shapiro_wilk"].statistic, sw.statistic, rtol=RTOL)
+    np.testing.assert_allclose(tests["shapiro_wilk"].p_value, sw.pvalue, rtol=1e-8)
+
+
+@pytest.mark.parametrize("weighted", [False, True])
+def test_candidate_table_matches_statsmodels(weighted):
+    from statsmodels.stats.outliers_influence import OLSInfluence
+    from statsmodels.tools.eval_measures import aicc
+
+    x, y, w = _data(5, n=50, weighted=weighted)
+    rep = fit_series(x, y, w, model=ModelSpec(max_degree=4, min_degree=1, select="aic"))
+    sw = np.ones_like(x) if w is None else np.sqrt(w)
+    for cand in rep.selection.candidates:
+        exog = _exog(x, cand.degree)
+        res = sm.WLS(y, exog, weights=1.0 if w is None else w).fit()
+        # PRESS oracle: OLSInfluence.resid_press on the whitened (sqrt(w)-scaled) problem
+        press = OLSInfluence(sm.OLS(y * sw, exog * sw[:, None]).fit()).resid_press
+        np.testing.assert_allclose(
+            [cand.rss, cand.r_squared, cand.adj_r_squared, cand.aic, cand.bic, cand.press,
+             cand.aicc, cand.sigma],
+            [res.ssr, res.rsquared, res.rsquared_adj, res.aic, res.bic, np.sum(press ** 2),
+             aicc(res.llf, res.nobs, cand.degree + 1), np.sqrt(res.scale)], rtol=RTOL)
+        assert cand.df_residual == res.df_resid
+        if cand.degree > 1:  # F of the last power = squared t of its coefficient (oracle)
+            np.testing.assert_allclose(cand.f_last, res.tvalues[-1] ** 2, rtol=RTOL)
+            np.testing.assert_allclose(cand.p_last, res.pvalues[-1], rtol=1e-8)
+    best = min(rep.selection.candidates, key=lambda c: c.aic)
+    assert rep.selection.chosen_degree == best.degree
+
+
+def test_no_intercept_uses_uncentred_sums_like_statsmodels():
+    x, y, _ = _data(30)
+    rep = fit_series(x, y, model=ModelSpec(degree=2, intercept=False))
+    # oracle: statsmodels OLS without a constant reports the uncentred R²
+    res = sm.OLS(y, np.column_stack([x, x * x])).fit()
+    assert not rep.statistics.centred
+    np.testing.assert_allclose([c.estimate for c in rep.coefficients], res.params, rtol=RTOL)
+    np.testing.assert_allclose([c.std_error for c in rep.coefficients], res.bse, rtol=RTOL)
+    np.testing.assert_allclose([rep.statistics.r_squared, rep.statistics.adj_r_squared,
+                                rep.statistics.f], [res.rsquared, res.rsquared_adj, res.fvalue],
+                               rtol=RTOL)
+    assert [r.term for r in rep.anova] == ["x", "x^2", "residual"]
+    np.testing.assert_allclose(sum(r.sum_sq for r in rep.anova[:-1]), res.ess, rtol=RTOL)
+
+
+def test_log_y_transform_back_transforms_statsmodels_prediction():
+    rng = np.random.default_rng(44)
+    x = np.linspace(1, 10, 40)
+    y = np.exp(0.3 + 0.2 * x + rng.normal(0, 0.1, x.size))
+    gx = np.array([1.5, 5.0, 12.0])
+    rep = fit_series(x, y, model=ModelSpec(degree=1, transform_y="log"),
+                     options=FitOptions(grid=GridSpec(x=tuple(gx))))
+    # oracle: statsmodels OLS on log(y), prediction exponentiated (naive back-transform)
+    frame = sm.OLS(np.log(y), _exog(x, 1)).fit().get_prediction(_exog(gx, 1)).summary_frame(0.05)
+    np.testing.assert_allclose(rep.grid.fit, np.exp(frame["mean"]), rtol=RTOL)
+    np.testing.assert_allclose(rep.grid.obs_lower, np.exp(frame["obs_ci_lower"]), rtol=RTOL)
+    np.testing.assert_allclose(rep.grid.mean_upper, np.exp(frame["mean_ci_upper"]), rtol=RTOL)
+    assert "retransformation_bias" in {n.code for n in rep.warnings}
+    assert rep.grid.extrapolated.tolist() == [False, False, True]
+
+
+def test_reciprocal_x_transform_matches_statsmodels():
+    x, y, _ = _data(12)
+    x = x + 5.0  # keep x away from 0
+    rep = fit_series(x, y, model=ModelSpec(degree=2, transform_x="reciprocal"))
+    res = sm.OLS(y, _exog(1 / x, 2)).fit()  # oracle: statsmodels on 1/x
+    np.testing.assert_allclose([c.estimate for c in rep.coefficients], res.params, rtol=RTOL)
+    np.testing.assert_allclose(rep.statistics.rss, res.ssr, rtol=RTOL)
