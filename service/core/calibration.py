@@ -28,7 +28,6 @@ from dataclasses import dataclass
 import numpy as np
 from numpy.polynomial import polynomial as P
 from scipy import optimize, stats
-from scipy.linalg import solve_triangular
 
 from service.core import transforms
 from service.core.results import FittedPolynomial
@@ -113,7 +112,7 @@ def figures_of_merit(fitted: FittedPolynomial, *, alpha: float = 0.05, beta: flo
     def pred_sd(x):  # sd of one new reading at x (scalar or array)
         t = np.atleast_1d(np.asarray(x, dtype=float) - s) / c
         v = t[None, :] ** np.arange(len(coef))[:, None]
-        w = solve_triangular(np.asarray(fitted.r_factor, float), v, trans="T", lower=False)
+        w = np.linalg.solve(np.asarray(fitted.r_factor, float).T, v)  # R^-T v
         out = sigma * np.sqrt(1.0 + np.sum(w * w, axis=0))
         return out if np.ndim(x) else float(out[0])
 

@@ -26,8 +26,7 @@ from dataclasses import dataclass
 
 import numpy as np
 from numpy.polynomial import polynomial as P
-from scipy import optimize, stats
-from scipy.linalg import solve_triangular
+from scipy import optimize, special
 
 from service.core import transforms
 from service.core.errors import DataError, SpecError
@@ -150,8 +149,8 @@ class _Curve:
         # coefficients of f(t) on t^0..t^d
         self.coef = np.concatenate([np.zeros(k0), np.asarray(fitted.basis_coefficients)])
         r = np.asarray(fitted.r_factor, dtype=float)
-        r_inv = solve_triangular(r, np.eye(r.shape[0]), lower=False)
-        self.r = r
+        r_inv = np.linalg.inv(r)  # tiny (p <= 13); scipy's triangular solve is slower here
+        self.r_inv_t = r_inv.T
         gram_inv = r_inv @ r_inv.T                      # (R^T R)^-1 on the model's powers
         full = np.zeros((len(self.coef), len(self.coef)))
         full[k0:, k0:] = gram_inv
@@ -161,7 +160,7 @@ class _Curve:
             self.quad[i:i + len(self.coef)] += full[i]
         self.sigma = float(fitted.sigma)
         df = int(fitted.df_residual)
-        self.q = float(stats.t.ppf(0.5 + level / 2, df)) if df > 0 else math.nan
+        self.q = float(special.stdtrit(df, 0.5 + level / 2)) if df > 0 else math.nan
         u_ends = transforms.apply(fitted.transform_x, np.array([fitted.x_min, fitted.x_max]),
                                   field="fitted_model.x_min")
         t_ends = (u_ends - fitted.x_shift) / fitted.x_scale
@@ -239,9 +238,8 @@ class _Curve:
         return lower, upper, "ok"
 
     def band_gap(self, target: np.ndarray, k2: float, m: int, t: float) -> float:
-        """(f(t) - y)^2 - q^2 sigma^2 (1/m + ||R^-T v(t)||^2), evaluated directly."""
-        v = t ** np.arange(self.k0, len(self.coef))
-        w = solve_triangular(self.r, v, trans="T", lower=False)
+        """(f(t) - y)^2 - q^2 sigma^2 (1/m + ||R^-T v(t)||^2), the residual left unsquared."""
+        w = self.r_inv_t @ (t ** np.arange(self.k0, len(self.coef)))
         return P.polyval(t, target) ** 2 - k2 * (1.0 / m + float(w @ w))
 
 
