@@ -33,15 +33,21 @@ def build_parser() -> argparse.ArgumentParser:
 def main(argv: list[str] | None = None) -> int:
     """Entry point of the ``curvewise`` console script."""
     args = build_parser().parse_args(argv)
-    from service.config import Settings
-
-    settings = Settings.load()
-    host = args.host or settings.host
-    port = args.port if args.port is not None else settings.port
-    workers = args.workers or settings.workers or gunicorn_conf.default_workers()
+    host, port, workers = resolve(args)
     if args.dev:
         return _serve_dev(host, port)
     return _serve_gunicorn(host, port, workers)
+
+
+def resolve(args: argparse.Namespace, environ: dict | None = None) -> tuple[str, int, int]:
+    """Host, port and worker count: defaults, then CURVEWISE_* variables, then flags."""
+    from service.config import Settings
+
+    settings = Settings.load(environ=environ)
+    host = args.host or settings.host
+    port = args.port if args.port is not None else settings.port
+    workers = args.workers or settings.workers or gunicorn_conf.default_workers()
+    return host, port, workers
 
 
 def _serve_dev(host: str, port: int) -> int:

@@ -61,7 +61,8 @@ def problems():
 
 
 @blp.route("/problems/<string:code>", methods=["GET"])
-@blp.doc(responses={"200": _HTML, "404": {"$ref": "#/components/responses/NOT_FOUND"}})
+@blp.doc(responses={"200": _HTML})
+@blp.alt_response(404, response="NOT_FOUND", description="No such problem code.")
 def problem_page(code: str):
     """What one problem code means and how to fix it (the target of a problem's type)."""
     kind = CATALOGUE.get(code)
