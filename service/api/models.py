@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 from dataclasses import asdict
+from http import HTTPStatus
 
 from flask import current_app
 from flask_smorest import Blueprint
@@ -21,13 +22,29 @@ from service.core.inverse import invert
 
 blp = Blueprint("models", __name__, description="Predict and invert with a fitted-model document.")
 
+ERRORS = {400: "Unparsable body (not strict JSON: e.g. NaN or Infinity tokens).",
+          413: "Body over the size limit.",
+          415: "Body not sent as application/json.",
+          422: "Invalid request, or a fitted_model document that is malformed, of an unknown "
+               "schema_version, or fails its checksum; errors names each field and its fix."}
+
+
+def document_errors(view):
+    """Attach the problem+json error responses to a view's OpenAPI entry."""
+    for status, description in ERRORS.items():
+        view = blp.alt_response(status, description=description,
+                                response=HTTPStatus(status).name)(view)
+    return view
+
+
 _PREDICT_COLUMNS = ("x", "fit", "se_fit", "mean_lower", "mean_upper", "obs_lower", "obs_upper",
                     "band_lower", "band_upper", "extrapolated")
 
 
 @blp.route("/v1/predict", methods=["POST"])
-@blp.arguments(PredictRequestSchema)
-@blp.response(200, PredictResponseSchema)
+@blp.arguments(PredictRequestSchema, description="A fitted_model document and new x.")
+@blp.response(200, PredictResponseSchema, description="Fitted values and bands, in x order.")
+@document_errors
 def predict_view(body):
     """Predict with intervals at new x from a stored fitted model."""
     fitted = from_document(body["fitted_model"], field_prefix="fitted_model.")
@@ -39,8 +56,10 @@ def predict_view(body):
 
 
 @blp.route("/v1/invert", methods=["POST"])
-@blp.arguments(InvertRequestSchema)
-@blp.response(200, InvertResponseSchema)
+@blp.arguments(InvertRequestSchema, description="A fitted_model document and observed y.")
+@blp.response(200, InvertResponseSchema, description="x estimates with calibration intervals "
+              "and statuses, in y order; the calibration's figures of merit.")
+@document_errors
 def invert_view(body):
     """Read x back from observed y, with calibration intervals and figures of merit."""
     fitted = from_document(body["fitted_model"], field_prefix="fitted_model.")
