@@ -93,16 +93,19 @@ def _breusch_pagan(e: np.ndarray, dec: Decomposition, degree: int) -> TestResult
         rows = np.vander(dec.t, degree + 1, increasing=True)
         qa = np.linalg.qr(rows)[0].T
     proj = qa @ zc
-    with np.errstate(all="ignore"):
-        lm = n * float(proj @ proj) / float(zc @ zc)
-        pv = float(special.chdtrc(degree, lm))
+    ss = float(zc @ zc)
+    if not ss > 0:
+        return TestResult("breusch_pagan", NAN, NAN, (float(degree),),
+                          "not computed: squared residuals are constant")
+    lm = n * float(proj @ proj) / ss
+    pv = float(special.chdtrc(degree, lm))
     return TestResult("breusch_pagan", lm, pv, (float(degree),),
                       "Koenker's studentized LM test of constant variance against the powers of x")
 
 
 def _durbin_watson(e: np.ndarray) -> TestResult:
     d = np.diff(e)
-    with np.errstate(all="ignore"):
-        dw = float(d @ d) / float(e @ e)
+    ss = float(e @ e)
+    dw = float(d @ d) / ss if ss > 0 else NAN
     return TestResult("durbin_watson", dw, NAN, None,
                       "serial correlation in the given order: ~2 none, <2 positive, >2 negative")

@@ -79,7 +79,7 @@ def candidate_measures(dec: Decomposition, degrees: list[int], sum_log_w: float,
         eff = effects[c:p]
         ss_model = float(eff @ eff)
         tss = ss_model + rss
-        exact = rss == 0.0 and ss_model > 0
+        exact = rss == 0.0 and df_res > 0
         r2 = ss_model / tss if tss > 0 else NAN
         adj = 1 - (1 - r2) * (n - c) / df_res if df_res > 0 and tss > 0 else NAN
         mse = rss / df_res if df_res > 0 else NAN
