@@ -13,6 +13,10 @@ never returns to Python (one huge LAPACK call) cannot be interrupted this way; g
 ``timeout`` (set a little above ``request_timeout`` in ``service.gunicorn_conf``) is the hard
 backstop that kills and replaces the worker.
 
+An exception can land anywhere in Python code, so a gunicorn worker whose request was
+interrupted finishes answering and then retires (it sends itself SIGTERM, gunicorn's graceful
+stop); the master starts a fresh one. That keeps any half-updated state from serving again.
+
 Where the timer cannot be used (a non-main thread, e.g. Flask's threaded development server,
 or a platform without ``SIGALRM``) the guard stands aside and only gunicorn's timeout applies.
 
@@ -24,7 +28,9 @@ Werkzeug's ``MAX_CONTENT_LENGTH`` while they are read.
 
 from __future__ import annotations
 
+import os
 import signal
+import sys
 import threading
 
 from flask import Flask, request
@@ -77,17 +83,26 @@ class DeadlineMiddleware:
 
         previous = signal.signal(signal.SIGALRM, on_alarm)
         signal.setitimer(signal.ITIMER_REAL, self.limit, REPEAT_SECONDS)
+        retire = environ.get("SERVER_SOFTWARE", "").startswith("gunicorn")
+        started = []
+
+        def tracked_start(*args):
+            started.append(True)
+            return start_response(*args)
+
         try:
-            result = self.wsgi_app(environ, start_response)
+            result = self.wsgi_app(environ, tracked_start)
         except DeadlinePassed:
             _disarm(previous)
-            return self._timeout_response(environ, start_response)
+            result = self._timeout_response(environ, start_response, bool(started))
+            fired.append(True)
         except BaseException:
             _disarm(previous)
+            _retire_if(fired and retire)
             raise
-        return _GuardedBody(result, previous)
+        return _GuardedBody(result, previous, lambda: _retire_if(fired and retire))
 
-    def _timeout_response(self, environ, start_response):
+    def _timeout_response(self, environ, start_response, restart: bool):
         error = ComputeTimeout(self.limit)
         body = problem_body(503, None, error.message, errors={"_body": [error.message]},
                             code=error.code)
@@ -95,8 +110,15 @@ class DeadlineMiddleware:
         payload = dumps_bytes(body)
         start_response("503 SERVICE UNAVAILABLE", [("Content-Type", PROBLEM_MIME),
                                                    ("Content-Length", str(len(payload))),
-                                                   ("Cache-Control", "no-store")])
+                                                   ("Cache-Control", "no-store")],
+                       *([sys.exc_info()] if restart else []))  # PEP 3333: replace a start
         return [payload]
+
+
+def _retire_if(needed) -> None:
+    """Ask this gunicorn worker to stop after the current request (graceful SIGTERM)."""
+    if needed:
+        os.kill(os.getpid(), signal.SIGTERM)
 
 
 def _disarm(previous) -> None:
@@ -107,9 +129,10 @@ def _disarm(previous) -> None:
 class _GuardedBody:
     """Response iterable that keeps the timer armed until the server has the whole body."""
 
-    def __init__(self, body, previous) -> None:
+    def __init__(self, body, previous, after) -> None:
         self._body = body
         self._previous = previous
+        self._after = after
         self._armed = True
 
     def __iter__(self):
@@ -119,13 +142,16 @@ class _GuardedBody:
             self.close()
 
     def close(self) -> None:
-        if self._armed:
-            self._armed = False
-            _disarm(self._previous)
-        close = getattr(self._body, "close", None)
-        if close is not None:
-            self._body, body_close = (), close
-            body_close()
+        if not self._armed:
+            return
+        self._armed = False
+        _disarm(self._previous)
+        try:
+            close = getattr(self._body, "close", None)
+            if close is not None:
+                close()
+        finally:
+            self._after()
 
 
 def install(app: Flask) -> None:

@@ -42,7 +42,8 @@ worker_class = "sync"
 # The app enforces request_timeout itself (a 503 problem); the hard kill comes a little later.
 timeout = int(_env_float("CURVEWISE_REQUEST_TIMEOUT", 60.0)) + 30
 graceful_timeout = 30          # seconds a worker gets to finish in-flight requests on SIGTERM
-max_requests = 2000            # recycle workers now and then (bounds slow leaks) ...
+max_requests = int(os.environ.get("CURVEWISE_MAX_REQUESTS", "2000"))  # 0: never recycle
+# (recycling workers now and then bounds slow leaks) ...
 max_requests_jitter = 200      # ... but not all at once
 keepalive = 2
 limit_request_line = 8190
