@@ -40,6 +40,7 @@ STATUSES = {
     "multiple_roots_in_range": "Several x inside the calibrated range give this y.",
     "interval_exceeds_range": "The estimate is in range but the interval reaches outside it.",
     "interval_unbounded": "The band is too wide for the slope: the interval has no finite limit.",
+    "interval_disjoint": "The band also contains the reading at other x inside the range.",
     "interval_undefined": "No residual degrees of freedom: sigma and the interval are undefined.",
 }
 _REAL_TOL = 1e-7  # |imag| / (1 + |root|) below which a companion eigenvalue is real
@@ -116,6 +117,11 @@ def invert(fitted: FittedPolynomial, y, *, replicates=1, level: float | None = N
     m = _replicates(replicates, len(y))
     curve = _Curve(fitted, level)
     y_fit = transforms.apply(fitted.transform_y, y, field="y")
+    if not np.all(np.isfinite(y_fit)):
+        bad = int(np.flatnonzero(~np.isfinite(y_fit))[0])
+        raise DataError(f"y[{bad}] = {y[bad]!r} is not finite after the {fitted.transform_y} "
+                        "transform.", field=f"y[{bad}]",
+                        fix="Send readings inside the range the calibration was fitted on.")
     estimates = tuple(curve.read(float(y_orig), float(y_t), int(m_i))
                       for y_orig, y_t, m_i in zip(y, y_fit, m, strict=True))
     return Inversion(estimates=estimates, level=level, monotone=curve.monotone,
@@ -224,18 +230,28 @@ class _Curve:
         band = np.pad(band, (0, max(0, len(self.quad) - len(band))))
         band[:len(self.quad)] -= k2 * self.quad
         band[0] -= k2 / m
+        if not np.all(np.isfinite(band)):
+            return math.nan, math.nan, "interval_undefined"
         roots = [_refine(self, target, k2, m, r) for r in _real_roots(band)]
         below = [r for r in roots if r < t_hat]
         above = [r for r in roots if r > t_hat]
         lower = max(below) if below else -math.inf
         upper = min(above) if above else math.inf
-        lead = band[np.flatnonzero(band)[-1]] if np.any(band) else 0.0
-        if lead <= 0 or not (math.isfinite(lower) and math.isfinite(upper)):
+        if not (math.isfinite(lower) and math.isfinite(upper)):
             return (lower if math.isfinite(lower) else math.nan,
                     upper if math.isfinite(upper) else math.nan, "interval_unbounded")
         if not (self.in_range(lower) and self.in_range(upper)):
             return lower, upper, "interval_exceeds_range"
+        if self._other_pieces_in_range(target, k2, m, roots, lower, upper):
+            return lower, upper, "interval_disjoint"
         return lower, upper, "ok"
+
+    def _other_pieces_in_range(self, target, k2, m, roots, lower, upper) -> bool:
+        """Whether the band also contains the reading somewhere else in the calibrated range."""
+        if any(self.in_range(r) and not lower <= r <= upper for r in roots):
+            return True
+        ends = [t for t in (self.t_lo, self.t_hi) if not lower <= t <= upper]
+        return any(self.band_gap(target, k2, m, t) <= 0 for t in ends)
 
     def band_gap(self, target: np.ndarray, k2: float, m: int, t: float) -> float:
         """(f(t) - y)^2 - q^2 sigma^2 (1/m + ||R^-T v(t)||^2), the residual left unsquared."""

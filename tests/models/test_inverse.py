@@ -5,9 +5,19 @@ from __future__ import annotations
 import numpy as np
 import pytest
 import statsmodels.api as sm
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
 from scipy import stats
 
-from service.core import FitOptions, GridSpec, ModelSpec, SpecError, fit_series, predict
+from service.core import (
+    DataError,
+    FitOptions,
+    GridSpec,
+    ModelSpec,
+    SpecError,
+    fit_series,
+    predict,
+)
 from service.core.inverse import STATUSES, invert
 from tests.conftest import load_nist
 
@@ -230,3 +240,39 @@ def test_bad_arguments_raise_typed_errors():
         invert(constant, [1.0])
     assert info.value.field == "fitted_model.degree"
     assert set(STATUSES) >= {"ok", "not_monotone", "outside_range", "multiple_roots_in_range"}
+
+
+# --- robustness: any finite reading gets an answer or a typed error, never a crash -------------
+
+_MODELS = [(2, {}), (3, {}), (1, {"intercept": False}), (2, {"transform_x": "log"}),
+           (2, {"transform_y": "reciprocal"}), (1, {"transform_y": "log"})]
+
+
+@pytest.fixture(scope="module")
+def pontius_models():
+    ref = load_nist("pontius")
+    x, y = np.asarray(ref["data"]["x"]), np.asarray(ref["data"]["y"])
+    return [_fit(x, y, degree, **spec) for degree, spec in _MODELS]
+
+
+@settings(max_examples=150, deadline=None, database=None, derandomize=True,
+          suppress_health_check=list(HealthCheck))
+@given(which=st.integers(0, len(_MODELS) - 1),
+       reading=st.one_of(st.floats(-1e300, 1e300), st.floats(0.0, 3.0)),
+       m=st.integers(1, 10**6), level=st.floats(0.5, 0.999))
+def test_any_reading_gets_a_status_or_a_typed_error(pontius_models, which, reading, m, level):
+    model = pontius_models[which]
+    try:
+        result = invert(model, [reading], replicates=m, level=level)
+    except DataError as error:   # TransformError is a DataError: names the reading
+        assert error.field == "y[0]"
+        return
+    estimate = result.estimates[0]
+    assert estimate.status in STATUSES
+    if estimate.status in ("no_real_root", "outside_range", "multiple_roots_in_range"):
+        assert np.isnan(estimate.x)
+    else:
+        assert model.x_min * (1 - 1e-9) <= estimate.x <= model.x_max * (1 + 1e-9)
+    if estimate.status == "ok":
+        assert model.x_min <= estimate.lower * (1 + 1e-9) and estimate.lower <= estimate.x
+        assert estimate.x <= estimate.upper <= model.x_max * (1 + 1e-9)
