@@ -1,5 +1,74 @@
 """Views: figures."""
 
+from __future__ import annotations
+
+from http import HTTPStatus
+
+from flask import Response, current_app, request
 from flask_smorest import Blueprint
 
+from schemas.plots import PlotRequestSchema
+from service.core import fit_series
+from service.core.errors import SpecError
+from service.limits import check_series
+from service.plots import MAX_POINTS, MEDIA_TYPES, PlotOptions, render
+from service.requests import fit_options, model_spec
+
 blp = Blueprint("plots", __name__, description="Figures.")
+
+ERRORS = {400: "Unparsable body (not strict JSON: e.g. NaN or Infinity tokens).",
+          413: "Body or number of points over the limit.",
+          415: "Body not sent as application/json.",
+          422: "Invalid or unfittable input, or a figure size, dpi or panel list out of "
+               "range; errors names each field and its fix."}
+_BINARY = {"schema": {"type": "string", "format": "binary"}}
+_IMAGE_DOC = {"responses": {"200": {"description": "The figure (PNG or SVG); the same body "
+                                                   "always gives the same bytes.",
+                                    "content": {"image/png": _BINARY,
+                                                "image/svg+xml": _BINARY}}}}
+_NEEDED = frozenset({"selection", "grid", "diagnostics", "coefficients"})
+
+
+def document_errors(view):
+    """Attach the problem+json error responses to a view's OpenAPI entry."""
+    for status, description in ERRORS.items():
+        view = blp.alt_response(status, description=description,
+                                response=HTTPStatus(status).name)(view)
+    return view
+
+
+def chosen_format(asked: str | None) -> str:
+    """The body's ``plot.format``; else the Accept header's preference; else png."""
+    if asked:
+        return asked
+    best = request.accept_mimetypes.best_match(["image/png", "image/svg+xml"])
+    return "svg" if best == "image/svg+xml" else "png"
+
+
+@blp.route("/v1/plot", methods=["POST"])
+@blp.arguments(PlotRequestSchema(), description="A /v1/fit body plus the plot options.")
+@blp.doc(**_IMAGE_DOC)
+@document_errors
+def plot(body):
+    """Fit one series and draw it as PNG or SVG."""
+    settings = current_app.config["CURVEWISE"]
+    check_series(body, settings)
+    asked = body["plot"]
+    options = PlotOptions(panels=tuple(asked["panels"]), width=asked["width"],
+                          height=asked["height"], dpi=asked["dpi"],
+                          format=chosen_format(asked["format"]),
+                          simultaneous=asked["simultaneous"], title=asked["title"],
+                          x_label=asked["x_label"], y_label=asked["y_label"])
+    limit = MAX_POINTS[options.format]
+    if len(body["x"]) > limit:
+        raise SpecError(f"{len(body['x'])} points are too many to draw as {options.format} "
+                        f"(limit {limit}).", field="x", code="limit_exceeded",
+                        fix="Fit the full series with /v1/fit and plot a sample of it"
+                            + (", or ask for png." if options.format == "svg" else "."))
+    fit_body = {**body, "include": sorted(_NEEDED)}
+    report = fit_series(body["x"], body["y"], body["weights"], model=model_spec(body["model"]),
+                        options=fit_options(fit_body, settings))
+    image = render(report, body["x"], body["y"], body["weights"], options)
+    response = Response(image, mimetype=MEDIA_TYPES[options.format])
+    response.headers["Vary"] = "Accept"
+    return response

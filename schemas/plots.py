@@ -1,0 +1,98 @@
+"""POST /v1/plot: the /v1/fit body plus a ``plot`` object saying what to draw.
+
+The names and limits repeat those of ``service.plots`` (the contract must not
+import the service); ``tests/plots/test_plot_schema.py`` keeps them in step.
+"""
+
+from __future__ import annotations
+
+from marshmallow import ValidationError, fields, validate, validates_schema
+
+from schemas.common import StrictSchema
+from schemas.fields import StrictBoolean, StrictInteger, StrictString, one_of_message
+from schemas.fit import FitRequestSchema
+
+PANELS = ("fit", "residuals", "normal_quantiles", "scale_location", "leverage", "selection")
+FORMATS = ("png", "svg")
+MIN_PIXELS, MAX_PIXELS = 200, 4000
+MAX_AREA = 8_000_000
+MIN_DPI, MAX_DPI = 50, 300
+MAX_LABEL = 200
+
+
+def _pixels(name: str, default: int) -> StrictInteger:
+    return StrictInteger(
+        load_default=default,
+        validate=validate.Range(MIN_PIXELS, MAX_PIXELS,
+                                error=f"Must be {MIN_PIXELS} to {MAX_PIXELS} pixels."),
+        metadata={"description": f"Figure {name} in pixels (default {default}); an SVG states "
+                                 f"the same size in px. width x height at most {MAX_AREA}."})
+
+
+def _label(description: str) -> StrictString:
+    return StrictString(load_default=None, allow_none=True,
+                        validate=validate.Length(max=MAX_LABEL,
+                                                 error=f"At most {MAX_LABEL} characters."),
+                        metadata={"description": description})
+
+
+class PlotOptionsSchema(StrictSchema):
+    """What to draw, how large, and in which format."""
+
+    panels = fields.List(
+        StrictString(validate=validate.OneOf(PANELS, error=one_of_message(PANELS)),
+                     metadata={"enum": list(PANELS)}),
+        load_default=lambda: ["fit"],
+        validate=validate.Length(min=1, max=len(PANELS),
+                                 error=f"Give 1 to {len(PANELS)} panel names."),
+        error_messages={"invalid": "Must be an array of panel names."},
+        metadata={"description": "Panels, drawn row by row in this order (default [\"fit\"]): "
+                                 "fit (data, fitted curve, band for the mean and for a new "
+                                 "observation); residuals (against fitted values); "
+                                 "normal_quantiles (studentized residuals against normal "
+                                 "quantiles); scale_location (square root of |standardized "
+                                 "residual| against fitted values); leverage (standardized "
+                                 "residuals against leverage, Cook's distance 0.5 and 1 "
+                                 "contours); selection (AIC, AICc, BIC and the selection "
+                                 "method's own criterion by candidate degree)."})
+    width = _pixels("width", 800)
+    height = _pixels("height", 600)
+    dpi = StrictInteger(
+        load_default=100,
+        validate=validate.Range(MIN_DPI, MAX_DPI, error=f"Must be {MIN_DPI} to {MAX_DPI}."),
+        metadata={"description": "Pixels per inch: larger dpi means larger text and lines "
+                                 "at the same pixel size (default 100)."})
+    format = StrictString(
+        load_default=None, allow_none=True,
+        validate=validate.OneOf(FORMATS, error=one_of_message(FORMATS)),
+        metadata={"enum": list(FORMATS),
+                  "description": "png or svg. When absent, the Accept header decides "
+                                 "(image/png or image/svg+xml); otherwise png."})
+    simultaneous = StrictBoolean(load_default=False, metadata={
+        "description": "Also draw the simultaneous band for the whole curve on the fit panel."})
+    title = _label("A title over the whole figure.")
+    x_label = _label("Label of the x axis on the fit panel (default x).")
+    y_label = _label("Label of the y axis on the fit panel (default y).")
+
+    @validates_schema
+    def _consistent(self, data, **kwargs):
+        panels = data.get("panels") or []
+        repeated = sorted({p for p in panels if panels.count(p) > 1})
+        if repeated:
+            raise ValidationError(f"Each panel at most once; repeated: {', '.join(repeated)}.",
+                                  "panels")
+        width, height = data.get("width"), data.get("height")
+        if width is not None and height is not None and width * height > MAX_AREA:
+            raise ValidationError(f"width x height is {width * height} pixels; the limit is "
+                                  f"{MAX_AREA}. Make the figure smaller.", "width")
+
+
+def _default_plot() -> dict:
+    return PlotOptionsSchema().load({})
+
+
+class PlotRequestSchema(FitRequestSchema):
+    """A /v1/fit body plus ``plot``: fit one series and draw it."""
+
+    plot = fields.Nested(PlotOptionsSchema, load_default=_default_plot, metadata={
+        "description": "What to draw. Default: the fit panel, 800 x 600 px at 100 dpi."})

@@ -1,0 +1,69 @@
+"""Colours, line styles and byte-for-byte reproducible output.
+
+The palette is Okabe & Ito's (2008) colour-universal-design set of eight
+colours, distinguishable with the common forms of colour-vision deficiency;
+bands also differ by line style and fill, so a figure reads in grey scale too.
+"""
+
+from __future__ import annotations
+
+import io
+
+import matplotlib
+
+# Fixed salt for the ids in SVG output (clip paths, glyphs): the same figure gives the same
+# bytes in every process. Set once at import; nothing else in the service writes SVG.
+matplotlib.rcParams["svg.hashsalt"] = "curvewise"
+matplotlib.rcParams["svg.fonttype"] = "path"  # glyphs as paths: no dependence on client fonts
+
+OKABE_ITO = {
+    "black": "#000000",
+    "orange": "#E69F00",
+    "sky_blue": "#56B4E9",
+    "bluish_green": "#009E73",
+    "yellow": "#F0E442",
+    "blue": "#0072B2",
+    "vermillion": "#D55E00",
+    "reddish_purple": "#CC79A7",
+}
+
+DATA = {"color": OKABE_ITO["black"], "marker": "o", "markersize": 3.5, "linestyle": "none",
+        "alpha": 0.8}
+FLAGGED = {"color": OKABE_ITO["vermillion"], "marker": "D", "markersize": 5,
+           "linestyle": "none", "markerfacecolor": "none", "markeredgewidth": 1.2}
+CURVE = {"color": OKABE_ITO["blue"], "linewidth": 1.8}
+MEAN_BAND = {"color": OKABE_ITO["sky_blue"], "alpha": 0.45, "linewidth": 0}
+OBS_BAND = {"color": OKABE_ITO["blue"], "linestyle": "--", "linewidth": 1.0}
+SIM_BAND = {"color": OKABE_ITO["reddish_purple"], "linestyle": ":", "linewidth": 1.4}
+REFERENCE = {"color": "#777777", "linestyle": "-", "linewidth": 0.8}
+SMOOTH = {"color": OKABE_ITO["orange"], "linewidth": 1.4}
+CONTOUR = {"color": OKABE_ITO["vermillion"], "linestyle": "--", "linewidth": 0.9}
+CRITERIA = (("aic", "AIC", OKABE_ITO["blue"], "o"),
+            ("aicc", "AICc", OKABE_ITO["bluish_green"], "s"),
+            ("bic", "BIC", OKABE_ITO["orange"], "^"))
+CHOSEN = {"color": OKABE_ITO["vermillion"], "linestyle": ":", "linewidth": 1.2}
+
+FONT_SIZE = 8.5
+TITLE_SIZE = 9.5
+
+# Nothing that changes between runs may reach the file: no dates, a fixed creator string.
+_METADATA = {
+    "png": {"Software": "Curvewise"},
+    "svg": {"Date": None, "Creator": "Curvewise", "Format": None, "Type": None},
+}
+
+
+def style_axes(ax) -> None:
+    """Plain, light axes: small fonts, light grid, no top/right frame."""
+    ax.tick_params(labelsize=FONT_SIZE - 0.5, length=3)
+    ax.grid(True, color="#E5E5E5", linewidth=0.6)
+    ax.set_axisbelow(True)
+    for side in ("top", "right"):
+        ax.spines[side].set_visible(False)
+
+
+def to_bytes(figure, fmt: str, dpi: int) -> bytes:
+    """Render ``figure`` (already attached to an Agg canvas) to PNG or SVG bytes."""
+    buffer = io.BytesIO()
+    figure.savefig(buffer, format=fmt, dpi=dpi, metadata=_METADATA[fmt])
+    return buffer.getvalue()
