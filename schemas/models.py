@@ -201,7 +201,8 @@ class EstimateSchema(Schema):
     upper = number("Upper limit of the calibration interval.")
     status = text("ok, or why there is no single trustworthy in-range answer: not_monotone, "
                   "no_real_root, outside_range, multiple_roots_in_range, "
-                  "interval_exceeds_range, interval_unbounded, interval_undefined.")
+                  "interval_exceeds_range, interval_disjoint, interval_unbounded, "
+                  "interval_undefined (meanings in docs/fitted-model.md).")
     other_roots = fields.List(fields.Float(), metadata={
         "description": "Other real x that give this y (not chosen), ascending."})
     sensitivity = number("Slope dy/dx of the curve at x (null when x is null).")
