@@ -38,6 +38,7 @@ from curvewise_client.results import (  # noqa: E402
     BatchResult,
     Candidate,
     Coefficient,
+    Diagnostics,
     Estimate,
     Estimates,
     Figure,
@@ -49,15 +50,17 @@ from curvewise_client.results import (  # noqa: E402
     Predictions,
     Selection,
     Statistics,
+    TestResult,
+    TrustFlag,
 )
 from curvewise_client.transport import HTTPTransport, WSGITransport  # noqa: E402
 
 __all__ = [
     "AnovaRow", "ApiError", "BadRequest", "BatchItem", "BatchResult", "Candidate", "Client",
-    "Coefficient", "ConnectError", "CurvewiseError", "Estimate", "Estimates", "Figure",
-    "FitResult", "Forbidden", "Grid", "HTTPTransport", "ModelInfo", "NotFound", "Notice",
+    "Coefficient", "ConnectError", "CurvewiseError", "Diagnostics", "Estimate", "Estimates",
+    "Figure", "FitResult", "Forbidden", "Grid", "HTTPTransport", "ModelInfo", "NotFound", "Notice",
     "PayloadTooLarge", "PredictionRow", "Predictions", "Problem", "ProtocolError",
-    "RequestTimeout", "Selection", "ServerError", "ServiceUnavailable", "Statistics",
-    "TooManyRequests", "TransportError", "Unauthorized", "UnprocessableInput",
+    "RequestTimeout", "Selection", "ServerError", "ServiceUnavailable", "Statistics", "TestResult",
+    "TooManyRequests", "TransportError", "TrustFlag", "Unauthorized", "UnprocessableInput",
     "UnsupportedMediaType", "WSGITransport",
 ]

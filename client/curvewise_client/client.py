@@ -135,10 +135,15 @@ class Client:
         return _stream_items(response)
 
     def predict(self, fitted_model: Mapping[str, Any] | FitResult, x: Sequence[float], *,
-                level: float | None = None, **options: Any) -> Predictions:
-        """Predict at new x with a stored fitted-model document (``POST /v1/predict``)."""
+                level: float | None = None, replicates: int | None = None,
+                **options: Any) -> Predictions:
+        """Predict at new x with a stored fitted-model document (``POST /v1/predict``).
+
+        ``replicates`` = m widens the observation band to cover the mean of m
+        future observations (default 1).
+        """
         body = {"fitted_model": _document(fitted_model), "x": _numbers(x),
-                **_drop_none(level=level, **options)}
+                **_drop_none(level=level, replicates=replicates, **options)}
         return build(Predictions, self._json("POST", "/v1/predict", body))
 
     def invert(self, fitted_model: Mapping[str, Any] | FitResult, y: Sequence[float], *,

@@ -82,35 +82,43 @@ class AnovaRow:
 class Statistics:
     """Whole-fit statistics (``None`` where undefined or not sent)."""
 
+    n: int | None = None
+    n_parameters: int | None = None
+    df_model: int | None = None
+    df_residual: int | None = None
+    rss: float | None = None
+    tss: float | None = None
+    centred: bool | None = None
     r_squared: float | None = None
     adj_r_squared: float | None = None
     sigma: float | None = None
-    df_residual: int | None = None
-    aic: float | None = None
-    bic: float | None = None
-    aicc: float | None = None
-    press: float | None = None
-    predicted_r_squared: float | None = None
     f: float | None = None
     f_p_value: float | None = None
     log_likelihood: float | None = None
-    rss: float | None = None
+    aic: float | None = None
+    aicc: float | None = None
+    bic: float | None = None
+    press: float | None = None
+    predicted_r_squared: float | None = None
     condition_number: float | None = None
 
 
 @dataclass(frozen=True, slots=True)
 class Candidate:
-    """One candidate degree in the selection trail, as sent (members vary by method)."""
+    """One candidate degree in the selection trail, with every criterion."""
 
     degree: int
-    values: Mapping[str, Any] = field(default_factory=_empty)
-
-    def __getitem__(self, name: str) -> Any:
-        return self.values[name]
-
-    def get(self, name: str, default: Any = None) -> Any:
-        """A criterion or statistic of this candidate, or ``default``."""
-        return self.values.get(name, default)
+    df_residual: int | None = None
+    rss: float | None = None
+    sigma: float | None = None
+    r_squared: float | None = None
+    adj_r_squared: float | None = None
+    aic: float | None = None
+    aicc: float | None = None
+    bic: float | None = None
+    press: float | None = None
+    f_last: float | None = None
+    p_last: float | None = None
 
 
 @dataclass(frozen=True, slots=True)
@@ -134,8 +142,11 @@ class Grid:
     mean_upper: tuple[float | None, ...] = ()
     obs_lower: tuple[float | None, ...] = ()
     obs_upper: tuple[float | None, ...] = ()
-    band_lower: tuple[float | None, ...] | None = None
-    band_upper: tuple[float | None, ...] | None = None
+    se_fit: tuple[float | None, ...] = ()
+    band_lower: tuple[float | None, ...] = ()
+    band_upper: tuple[float | None, ...] = ()
+    extrapolated: tuple[bool, ...] = ()
+    level: float | None = None
 
 
 @dataclass(frozen=True, slots=True)
@@ -144,6 +155,46 @@ class Notice:
 
     code: str
     message: str = ""
+
+
+@dataclass(frozen=True, slots=True)
+class TrustFlag:
+    """A plain-language reason to be careful with this fit, with the numbers behind it."""
+
+    code: str
+    severity: str | None = None
+    message: str = ""
+    evidence: Mapping[str, Any] = field(default_factory=_empty)
+
+
+@dataclass(frozen=True, slots=True)
+class TestResult:
+    """A formal assumption test (e.g. ``shapiro_wilk``)."""
+
+    name: str
+    statistic: float | None = None
+    p_value: float | None = None
+    df: tuple[float, ...] | None = None
+    note: str = ""
+
+
+@dataclass(frozen=True, slots=True)
+class Diagnostics:
+    """Per-point residual forms and influence (aligned with ``index``), tests, flagged points."""
+
+    index: tuple[int, ...] = ()
+    residuals: tuple[float | None, ...] = ()
+    standardized: tuple[float | None, ...] = ()
+    studentized: tuple[float | None, ...] = ()
+    leverage: tuple[float | None, ...] = ()
+    cooks_distance: tuple[float | None, ...] = ()
+    dffits: tuple[float | None, ...] = ()
+    tests: tuple[TestResult, ...] = ()
+    lack_of_fit: Mapping[str, Any] | None = None
+    outliers: tuple[int, ...] = ()
+    high_leverage: tuple[int, ...] = ()
+    influential: tuple[int, ...] = ()
+    thresholds: Mapping[str, Any] = field(default_factory=_empty)
 
 
 @dataclass(frozen=True, slots=True)
@@ -156,14 +207,16 @@ class FitResult:
 
     model: ModelInfo | None = None
     n: int | None = None
+    n_input: int | None = None
+    dropped: tuple[int, ...] = ()
     coefficients: tuple[Coefficient, ...] = ()
     anova: tuple[AnovaRow, ...] = ()
     statistics: Statistics | None = None
     selection: Selection | None = None
-    diagnostics: Mapping[str, Any] | None = None
+    diagnostics: Diagnostics | None = None
     grid: Grid | None = None
     warnings: tuple[Notice, ...] = ()
-    flags: tuple[Mapping[str, Any], ...] = ()
+    flags: tuple[TrustFlag, ...] = ()
     fitted_model: Mapping[str, Any] | None = None
     raw: Mapping[str, Any] = field(default_factory=_empty)
 
@@ -211,6 +264,9 @@ class PredictionRow:
     obs_lower: float | None = None
     obs_upper: float | None = None
     extrapolated: bool | None = None
+    se_fit: float | None = None
+    band_lower: float | None = None
+    band_upper: float | None = None
 
 
 @dataclass(frozen=True, slots=True)
@@ -218,6 +274,9 @@ class Predictions:
     """The answer of ``POST /v1/predict``."""
 
     predictions: tuple[PredictionRow, ...] = ()
+    level: float | None = None
+    replicates: int | None = None
+    extrapolated_count: int | None = None
     raw: Mapping[str, Any] = field(default_factory=_empty)
 
 
@@ -231,6 +290,13 @@ class Estimate:
     upper: float | None = None
     status: str | None = None
     other_roots: tuple[float, ...] = ()
+    replicates: int | None = None
+    sensitivity: float | None = None
+
+    @property
+    def ok(self) -> bool:
+        """True when exactly one x in the calibrated range answers this y."""
+        return self.status == "ok"
 
 
 @dataclass(frozen=True, slots=True)
@@ -238,6 +304,12 @@ class Estimates:
     """The answer of ``POST /v1/invert``."""
 
     estimates: tuple[Estimate, ...] = ()
+    level: float | None = None
+    monotone: bool | None = None
+    turning_points: tuple[float, ...] = ()
+    x_min: float | None = None
+    x_max: float | None = None
+    calibration: Mapping[str, Any] | None = None
     raw: Mapping[str, Any] = field(default_factory=_empty)
 
 
@@ -260,8 +332,15 @@ class Figure:
         return target
 
 
-def _candidate(data: Mapping[str, Any]) -> Candidate:
-    return Candidate(degree=data.get("degree"), values=freeze(data))
+def _rows(builder: Callable[[Any], Any]) -> Callable[[Any], tuple]:
+    """Rows from a list of objects, or from an object of equal-length columns."""
+    def convert(values: Any) -> tuple:
+        if isinstance(values, Mapping):
+            names = list(values)
+            values = [dict(zip(names, row, strict=True))
+                      for row in zip(*(values[k] for k in names), strict=True)]
+        return tuple(builder(v) for v in values)
+    return convert
 
 
 def _items(builder: Callable[[Any], Any]) -> Callable[[Any], tuple]:
@@ -302,10 +381,13 @@ _CONVERT: dict[type, dict[str, Callable[[Any], Any]]] = {
         "statistics": _of(Statistics),
         "selection": _of(Selection),
         "grid": _of(Grid),
+        "diagnostics": _of(Diagnostics),
         "warnings": _items(_of(Notice)),
+        "flags": _items(_of(TrustFlag)),
     },
-    Selection: {"candidates": _items(_candidate)},
+    Selection: {"candidates": _items(_of(Candidate))},
+    Diagnostics: {"tests": _items(_of(TestResult))},
     BatchResult: {"results": _items(_of(BatchItem))},
-    Predictions: {"predictions": _items(_of(PredictionRow))},
-    Estimates: {"estimates": _items(_of(Estimate))},
+    Predictions: {"predictions": _rows(_of(PredictionRow))},
+    Estimates: {"estimates": _rows(_of(Estimate))},
 }

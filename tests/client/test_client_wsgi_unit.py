@@ -102,7 +102,7 @@ def test_fit_result_is_typed_frozen_and_keeps_unknown_members(fake):
     assert fit.anova[-1] == AnovaRow("residual", 10, 1.1, 0.11, None, None)
     assert fit.statistics.bic is None and fit.statistics.sigma == 0.33
     assert [c.degree for c in fit.selection.candidates] == [1, 2]
-    assert fit.selection.candidates[1]["aic"] == 1.0
+    assert fit.selection.candidates[1].aic == 1.0
     assert fit.grid.obs_upper == (1.5, 2.5)
     assert fit.warnings[0].code == "few_points"
     assert fit.raw["a_member_added_later"]["kept"] is True
