@@ -50,14 +50,19 @@ def _levels(x: np.ndarray) -> tuple[int, np.ndarray]:
 
 
 def lack_of_fit(x: np.ndarray, zw: np.ndarray, sqrt_w: np.ndarray | None, rss: float,
-                p: int, distinct: int) -> LackOfFit | None:
-    """Lack-of-fit F test; None when no x value repeats (``distinct == n``).
+                p: int, distinct: int | None = None) -> LackOfFit | None:
+    """Lack-of-fit F test; None when no x value repeats.
+
+    ``distinct`` (number of distinct x, computed when None) lets the caller
+    skip the grouping when every x is different.
 
     Pure-error SS is the (weighted) scatter of y about the mean of its own x
     level; lack-of-fit SS = residual SS - pure-error SS, on ``levels - p``
     df. The F is undefined (nan) when ``levels <= p`` or pure error is zero.
     """
     n = x.size
+    if distinct is None:
+        distinct = distinct_count(x)
     if distinct == n:
         return None
     k, inverse = _levels(x)

@@ -64,9 +64,8 @@ def predict(fitted: FittedPolynomial, x, *, level: float | None = None, m: int =
     xs = np.atleast_1d(np.asarray(x, dtype=float))
     if xs.ndim != 1:
         raise DataError("x must be one-dimensional.", field="x", fix="Send a flat list of numbers.")
-    bad = ~np.isfinite(xs)
-    if bad.any():
-        i = int(np.flatnonzero(bad)[0])
+    if not np.isfinite(xs).all():
+        i = int(np.flatnonzero(~np.isfinite(xs))[0])
         raise DataError(f"x[{i}] is not a finite number.", field=f"x[{i}]",
                         fix="Predict only at finite x values.")
     u = transforms.apply(fitted.transform_x, xs, field="x")
@@ -91,6 +90,8 @@ def predict(fitted: FittedPolynomial, x, *, level: float | None = None, m: int =
     fit_y = back(name, fit)
 
     def limits(half):
+        if name == "none":
+            return fit - half, fit + half
         lo, hi = back(name, fit - half), back(name, fit + half)
         return (lo, hi) if transforms.is_increasing(name) else (hi, lo)
 

@@ -9,6 +9,7 @@ without one ``x_shift`` is 0 (a shift would smuggle in a constant) and
 
 from __future__ import annotations
 
+from functools import lru_cache
 from math import comb
 
 import numpy as np
@@ -66,9 +67,10 @@ def to_t(u: np.ndarray, shift: float, scale: float, dtype=float) -> np.ndarray:
     return (u - dtype(shift)) / dtype(scale)
 
 
+@lru_cache(maxsize=64)
 def conversion(shift: float, scale: float, degree: int, intercept: bool,
                inverse: bool = False) -> np.ndarray:
-    """Matrix ``T`` (extended precision) with ``raw = T @ basis`` coefficients.
+    """Matrix ``T`` (extended precision, read-only) with ``raw = T @ basis`` coefficients.
 
     ``t^k = ((u - s)/c)^k = sum_j C(k, j) (-s)^(k-j) c^-k u^j``, so
     ``T[j, k] = C(k, j) (-s)^(k-j) / c^k`` for ``j <= k``. Entries are formed
@@ -77,16 +79,22 @@ def conversion(shift: float, scale: float, degree: int, intercept: bool,
     coefficients must carry extra digits into it. ``inverse=True`` gives
     ``T^-1`` (``u^j = (s + c t)^j``): ``T^-1[k, j] = C(j, k) s^(j-k) c^k``.
     """
-    d = degree
-    k = np.arange(d + 1)
-    binom = np.array([[comb(int(i), int(j)) for i in k] for j in k], dtype=EXTENDED)  # C(col,row)
-    gap = (k[None, :] - k[:, None]).clip(0)
     s, c = EXTENDED(shift), EXTENDED(scale)
-    if inverse:
-        t = binom * s ** gap * c ** k[:, None].astype(EXTENDED)
-    else:
-        t = binom * (-s) ** gap * (EXTENDED(1) / c) ** k[None, :].astype(EXTENDED)
-    return t if intercept else t[1:, 1:]
+    a, b = (s, c) if inverse else (-s, EXTENDED(1) / c)
+    d = degree
+    t = np.zeros((d + 1, d + 1), dtype=EXTENDED)
+    apow = [EXTENDED(1)]
+    bpow = [EXTENDED(1)]
+    for _ in range(d):
+        apow.append(apow[-1] * a)
+        bpow.append(bpow[-1] * b)
+    for k in range(d + 1):
+        for j in range(k + 1):
+            # forward: column k scaled by c^-k; inverse: row j scaled by c^j
+            t[j, k] = comb(k, j) * apow[k - j] * (bpow[j] if inverse else bpow[k])
+    t = t if intercept else t[1:, 1:]
+    t.setflags(write=False)
+    return t
 
 
 def raw_coefficients(shift: float, scale: float, degree: int, intercept: bool,

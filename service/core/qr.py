@@ -19,6 +19,8 @@ columns, so two small kernels cover every case:
 
 from __future__ import annotations
 
+from functools import lru_cache
+
 import numpy as np
 
 EXTENDED = np.longdouble
@@ -59,17 +61,28 @@ def householder(a: np.ndarray, p: int, tol: float = 1e-13) -> tuple[np.ndarray, 
     norms = np.sqrt(np.einsum("ij,ij->i", a[:p], a[:p]))
     for k in range(p):
         col = a[k, k:]
+        x0 = col[0]
         normx = np.sqrt(col @ col)
         if not normx > tol * norms[k]:
             raise RankDeficient(k)
+        alpha = normx if x0 >= 0 else -normx
         v = col.copy()
-        v[0] += normx if col[0] >= 0 else -normx
+        v[0] = x0 + alpha
         block = a[k:, k:]
-        block -= ((block @ v) * (2 / (v @ v)))[:, None] * v
-    r = a[:p, :p].T.copy()
-    r[np.tril_indices(p, -1)] = 0
+        w = block @ v
+        w *= 1 / (alpha * v[0])  # 2 / (v'v), since v'v = 2 alpha (x0 + alpha)
+        block -= np.multiply.outer(w, v)
+    r = a[:p, :p].T * _upper(p)
     tail = a[p, p:]
     return r, a[p, :p].copy(), float(tail @ tail)
+
+
+@lru_cache(maxsize=16)
+def _upper(p: int) -> np.ndarray:
+    """0/1 mask of the upper triangle (read-only)."""
+    mask = np.triu(np.ones((p, p)))
+    mask.setflags(write=False)
+    return mask
 
 
 def cholesky_qr2(v: np.ndarray, tol: float = 1e-13) -> tuple[np.ndarray, np.ndarray] | None:

@@ -18,12 +18,12 @@ Conventions (documented for callers):
 from __future__ import annotations
 
 from dataclasses import dataclass
-from math import log, pi, sqrt
+from math import log, pi
 
 import numpy as np
 from scipy import special
 
-from service.core.decomposition import Decomposition
+from service.core.decomposition import EXACT_FIT_RTOL, Decomposition
 
 NAN = float("nan")
 LEVERAGE_ONE = 1 - 1e-10  # h_i above this: the leave-one-out residual is undefined
@@ -59,50 +59,49 @@ class Measures:
 
 def candidate_measures(dec: Decomposition, degrees: list[int], sum_log_w: float,
                        leverage: np.ndarray, fitted: np.ndarray) -> list[Measures]:
-    """Whole-fit numbers of every candidate degree.
+    """Whole-fit numbers of every candidate degree, vectorized over the candidates.
 
     ``leverage`` and ``fitted`` are the candidates' hat diagonals and weighted
     fitted values (``len(degrees) x n``, see ``Decomposition.cumulative``).
+    Sums of squares of effects are sums of positive terms, so float64 keeps
+    them to full precision.
     """
     n = dec.t.size
+    c = 1 if dec.intercept else 0
+    e2 = dec.effects.astype(float) ** 2
+    deg = np.asarray(degrees)
+    p = deg + c
+    # running sums without cancellation: model SS from the first power on, residual SS from
+    # the tail of effects each candidate leaves out
+    ss_model = np.concatenate(([0.0], np.cumsum(e2[c:])))[p - c]
+    tails = np.concatenate((np.cumsum(e2[::-1])[::-1], [0.0]))
+    rss = dec.rss_full + tails[p]
+    rss[rss <= (EXACT_FIT_RTOL ** 2) * dec.sum_zw2] = 0.0
+    tss = ss_model + rss
+    df_model, df_res = p - c, n - p
+    exact = (rss == 0.0) & (df_res > 0)
     with np.errstate(all="ignore"):
         loo = (dec.zw - fitted) / (1 - leverage)
         press = np.einsum("ij,ij->i", loo, loo)
         press[np.any(leverage >= LEVERAGE_ONE, axis=1)] = NAN
-    c = 1 if dec.intercept else 0
-    effects = dec.effects.astype(float)
-    out = []
-    for i, degree in enumerate(degrees):
-        p = degree + c
-        df_model, df_res = p - c, n - p
-        rss = dec.rss(degree)
-        eff = effects[c:p]
-        ss_model = float(eff @ eff)
-        tss = ss_model + rss
-        exact = rss == 0.0 and df_res > 0
-        r2 = ss_model / tss if tss > 0 else NAN
-        adj = 1 - (1 - r2) * (n - c) / df_res if df_res > 0 and tss > 0 else NAN
-        mse = rss / df_res if df_res > 0 else NAN
-        sigma = sqrt(mse) if df_res > 0 else NAN
-        fit_ok = df_res > 0 and not exact and rss > 0
-        f = (ss_model / df_model) / mse if fit_ok and df_model > 0 else NAN
-        f_last = float(effects[p - 1]) ** 2 / mse if fit_ok and p > c else NAN
-        if rss > 0:
-            llf = -0.5 * n * (log(2 * pi) + log(rss / n) + 1) + 0.5 * sum_log_w
-            aic, bic = -2 * llf + 2 * p, -2 * llf + p * log(n)
-            aicc = aic + 2 * p * (p + 1) / (n - p - 1) if n - p - 1 > 0 else NAN
-        else:
-            llf = aic = bic = aicc = NAN
-        pr = 0.0 if exact else float(press[i])
-        pred_r2 = 1 - pr / tss if tss > 0 else NAN
-        out.append([degree, n, p, df_model, df_res, rss, tss, ss_model, r2, adj, sigma, f, NAN,
-                    llf, aic, aicc, bic, pr, pred_r2, f_last, NAN, exact])
-    # p-values for every candidate in two ufunc calls
-    df_m = np.array([row[3] for row in out], dtype=float)
-    df_r = np.array([row[4] for row in out], dtype=float)
-    with np.errstate(all="ignore"):
-        f_p = special.fdtrc(df_m, df_r, np.array([row[11] for row in out]))
-        last_p = special.fdtrc(1.0, df_r, np.array([row[19] for row in out]))
-    for row, fp, lp in zip(out, f_p, last_p, strict=True):
-        row[12], row[20] = float(fp), float(lp)
-    return [Measures(*row) for row in out]
+        press[exact] = 0.0
+        good_t = tss > 0
+        r2 = np.where(good_t, ss_model / tss, NAN)
+        adj = np.where((df_res > 0) & good_t, 1 - (1 - r2) * (n - c) / df_res, NAN)
+        mse = np.where(df_res > 0, rss / df_res, NAN)
+        sigma = np.sqrt(mse)
+        fit_ok = (df_res > 0) & ~exact & (rss > 0)
+        f = np.where(fit_ok & (df_model > 0), (ss_model / df_model) / mse, NAN)
+        f_last = np.where(fit_ok & (p > c), e2[p - 1] / mse, NAN)
+        f_p = special.fdtrc(df_model, df_res, f)
+        last_p = special.fdtrc(1, df_res, f_last)
+        pos = rss > 0
+        llf = np.where(pos, -0.5 * n * (log(2 * pi) + np.log(rss / n) + 1) + 0.5 * sum_log_w,
+                       NAN)
+        aic = -2 * llf + 2 * p
+        bic = -2 * llf + p * log(n)
+        aicc = np.where(n - p - 1 > 0, aic + 2 * p * (p + 1) / (n - p - 1), NAN)
+        pred_r2 = np.where(good_t, 1 - press / tss, NAN)
+    cols = (deg, np.full(deg.size, n), p, df_model, df_res, rss, tss, ss_model, r2, adj, sigma,
+            f, f_p, llf, aic, aicc, bic, press, pred_r2, f_last, last_p, exact)
+    return [Measures(*row) for row in zip(*(col.tolist() for col in cols), strict=True)]
