@@ -9,10 +9,10 @@ Entry points::
 Series arrive concatenated (``x``, ``y`` and optional ``weights`` flat, with
 ``lengths``), which is how long-format tables and NDJSON streams hold them.
 Rows are grouped by model, sorted by length and cut into blocks of at most
-:data:`BLOCK_POINTS` points whose lengths differ by at most
-:data:`MAX_PAD_RATIO`; short rows are padded with weight 0, so working memory
-per block is bounded and independent of the number of series. Each block is
-fitted by the vectorized engine (:mod:`service.core.batch_block`,
+:data:`~service.core.batch_layout.BLOCK_POINTS` points whose lengths differ by
+at most :data:`~service.core.batch_layout.MAX_PAD_RATIO`; short rows are padded
+with weight 0, so working memory per block is bounded and independent of the
+number of series. Each block is fitted by the vectorized engine (:mod:`service.core.batch_block`,
 :mod:`service.core.batch_diagnostics`).
 
 A series the engine should not take — missing or non-finite values, weights
@@ -30,14 +30,13 @@ from dataclasses import replace
 import numpy as np
 
 from service.core import batch_block, batch_diagnostics, batch_engine, transforms
+from service.core import batch_layout as layout
 from service.core.batch_results import BatchResult, empty_columns, fill_from_report
 from service.core.errors import FitError
 from service.core.inputs import check_spec
 from service.core.polynomial import fit_series
-from service.core.spec import HARD_MAX_DEGREE, FitOptions, ModelSpec
+from service.core.spec import FitOptions, ModelSpec
 
-BLOCK_POINTS = 65_536   # points per block: fits in L2/L3 cache, bounds working memory
-MAX_PAD_RATIO = 1.15    # a block pads its rows to at most 15% above its shortest
 DETAILS = ("summary", "full")
 _SUMMARY_INCLUDE = frozenset({"coefficients", "statistics", "selection", "diagnostics"})
 
@@ -126,14 +125,14 @@ def fit_many(x, y, lengths, weights=None, *, model: ModelSpec = _MODEL, models=N
     if offsets[-1] != x.size or y.size != x.size or (w is not None and w.size != x.size):
         raise ValueError("x, y (and weights) must hold sum(lengths) values each")
     raw = _raw or {}
-    out = empty_columns(G, HARD_MAX_DEGREE + 1, HARD_MAX_DEGREE + 1)
-    out["errors"], out["reports"] = {}, {}
     groups: dict[ModelSpec, list[int]] = {}
     if models is None:
         groups[model] = list(range(G))
     else:
         for i, m in enumerate(models):
             groups.setdefault(model if m is None else m, []).append(i)
+    out = empty_columns(G, *_widths(groups, options))
+    out["errors"], out["reports"] = {}, {}
     jobs, fallback = [], []
     for spec_model, rows in groups.items():
         rows = np.asarray(rows, dtype=np.int64)
@@ -150,9 +149,9 @@ def fit_many(x, y, lengths, weights=None, *, model: ModelSpec = _MODEL, models=N
                                       spec_model.select if selects else "fixed",
                                       float(spec_model.alpha),
                                       need_press=selects and spec_model.select == "press")
-        good, bad = _screen(x, y, w, offsets, rows, spec_model, raw)
+        good, bad = layout.screen(x, y, w, offsets, rows, spec_model, raw)
         fallback.extend((int(r), spec_model) for r in bad)
-        for block in _blocks(good, lengths):
+        for block in layout.blocks(good, lengths):
             jobs.append((block, spec_model, bspec))
     def run(job):
         with np.errstate(all="ignore"):  # undefined values become NaN data, not warnings
@@ -164,13 +163,25 @@ def fit_many(x, y, lengths, weights=None, *, model: ModelSpec = _MODEL, models=N
     else:
         results = [run(job) for job in jobs]
     for (_, spec_model, bspec), (res, rejected) in zip(jobs, results, strict=True):
-        _scatter(out, res, bspec)
+        layout.scatter(out, res, bspec)
         fallback.extend((int(r), spec_model) for r in rejected)
     single = options if detail == "full" else replace(options, grid=None,
                                                       include=_SUMMARY_INCLUDE)
     for row, spec_model in sorted(fallback):
         _fit_one(out, row, spec_model, single, x, y, w, offsets, raw)
     return BatchResult(**out)
+
+
+def _widths(groups, options) -> tuple[int, int]:
+    """Coefficient and candidate columns needed by the models in use."""
+    p = c = 1
+    for m in groups:
+        try:
+            dmin, dmax, _ = check_spec(m, options)
+        except FitError:
+            continue
+        p, c = max(p, dmax + 1), max(c, dmax - dmin + 1)
+    return p, c
 
 
 def _series(x, y, w, offsets, row, raw):
@@ -191,65 +202,17 @@ def _fit_one(out, row, model, options, x, y, w, offsets, raw):
     fill_from_report(out, row, report)
 
 
-def _screen(x, y, w, offsets, rows, model, raw):
-    """Split rows into those the engine takes and those for the single-series path."""
-    lengths = offsets[rows + 1] - offsets[rows]
-    bad = (lengths == 0) | np.isin(rows, np.fromiter(raw, dtype=np.int64, count=len(raw)))
-    with np.errstate(all="ignore"):
-        point_bad = ~(np.isfinite(x) & np.isfinite(y))
-        if w is not None:
-            point_bad |= ~(np.isfinite(w) & (w > 0))
-        for name, values in (("transform_x", x), ("transform_y", y)):
-            kind = getattr(model, name)
-            if kind != "none":
-                test = transforms._DOMAIN[kind][0]
-                point_bad |= ~test(values)
-    per_point = np.concatenate([[0], np.cumsum(point_bad)])
-    bad |= (per_point[offsets[rows + 1]] - per_point[offsets[rows]]) > 0
-    return rows[~bad], rows[bad]
-
-
-def _blocks(rows, lengths):
-    """Cut rows (sorted by length) into blocks of similar length and bounded size."""
-    if rows.size == 0:
-        return
-    order = rows[np.argsort(lengths[rows], kind="stable")]
-    lens = lengths[order]
-    start = 0
-    while start < order.size:
-        lo = lens[start]
-        cap = max(8, BLOCK_POINTS // max(int(lo), 1))
-        limit = np.searchsorted(lens, np.floor(lo * MAX_PAD_RATIO) + 1, side="left")
-        stop = int(min(order.size, start + cap, max(limit, start + 1)))
-        width = lens[stop - 1]
-        stop = int(min(stop, start + max(8, BLOCK_POINTS // max(int(width), 1))))
-        yield order[start:stop]
-        start = stop
-
-
-def _gather(values, offsets, rows, lens, width, fill=0.0):
-    idx = offsets[rows][:, None] + np.arange(width)[None, :]
-    if np.all(lens == width):
-        return values[idx]
-    inside = np.arange(width)[None, :] < lens[:, None]
-    return np.where(inside, values[np.where(inside, idx, 0)], fill)
-
-
 def _fit_block(x, y, w, offsets, lengths, rows, model, bspec):
     """Fit one block; return (result dict, rows handed to the single-series path)."""
     lens = lengths[rows]
     width = int(lens.max())
     padded = not np.all(lens == width)
     valid = (np.arange(width)[None, :] < lens[:, None]) if padded else None
-    u = transforms._FORWARD[model.transform_x](_gather(x, offsets, rows, lens, width, 1.0))
-    z = transforms._FORWARD[model.transform_y](_gather(y, offsets, rows, lens, width, 1.0))
+    u = transforms._FORWARD[model.transform_x](layout.gather(x, offsets, rows, lens, width, 1.0))
+    z = transforms._FORWARD[model.transform_y](layout.gather(y, offsets, rows, lens, width, 1.0))
     if padded:
         u, z = u * valid, z * valid
-    srt = np.sort(u if valid is None else np.where(valid, u, np.inf), axis=1)
-    steps = np.diff(srt, axis=1) > 0
-    if valid is not None:
-        steps &= valid[:, 1:]
-    distinct = 1 + steps.sum(axis=1)
+    distinct = layout.distinct(u, valid, lens)
     cap = distinct - bspec.c
     take = cap >= bspec.max_degree
     if not take.all():  # the core lowers max_degree (or refuses) for these: its path
@@ -262,7 +225,7 @@ def _fit_block(x, y, w, offsets, lengths, rows, model, bspec):
     else:
         rejected = rows[:0]
     if w is not None:
-        wb = _gather(w, offsets, rows, lens, width, 0.0)
+        wb = layout.gather(w, offsets, rows, lens, width, 0.0)
     else:
         wb = None if valid is None else valid.astype(float)
     fit = batch_block.fit_block(u, z, wb, valid if valid is not None else
@@ -288,31 +251,25 @@ def _fit_block(x, y, w, offsets, lengths, rows, model, bspec):
     return fit, rejected
 
 
-def _scatter(out: dict, res: dict | None, bspec) -> None:
-    """Write a block's rows into the batch arrays (rows the engine rejected are skipped)."""
-    if res is None:
-        return
-    keep = ~res["bad"] if "bad" in res else slice(None)
-    rows = res["rows"][keep]
-    cols = out["columns"]
-    for name in cols:
-        if name in res:
-            cols[name][rows] = res[name][keep]
-    cols["min_degree"][rows] = bspec.min_degree
-    width = res["coef"].shape[1]
-    out["coefficients"][rows, :width] = res["coef"][keep]
-    out["std_errors"][rows, :width] = res["se"][keep]
-    ncand = res["cand_rss"].shape[1]
-    for m in out["candidates"]:
-        out["candidates"][m][rows, :ncand] = res["cand_" + m][keep]
-    out["intercept"][rows] = bspec.intercept
-    out["select"][rows] = bspec.select
-    out["ok"][rows] = True
-    for key, target in (("outlier_points", "outliers"), ("influential_points", "influential")):
-        r_idx, c_idx = res[key]
-        if r_idx.size:
-            store = out.setdefault(target, {})
-            bad = res.get("bad")
-            for r, c in zip(r_idx.tolist(), c_idx.tolist(), strict=True):
-                if bad is None or not bad[r]:
-                    store.setdefault(int(res["rows"][r]), []).append(c)
+def fit_chunks(series, *, chunk_series: int = 4096, model: ModelSpec = _MODEL,
+               options: FitOptions = _OPTIONS, detail: str = "summary", workers: int = 1):
+    """Fit an iterable of series chunk by chunk, for streams of any length.
+
+    ``series`` yields ``(x, y)``, ``(x, y, weights)`` or ``(x, y, weights, model)``
+    (model None: the shared ``model``). Yields ``(first_index, BatchResult)``
+    per chunk of at most ``chunk_series`` series, so memory is bounded by the
+    chunk, not by the stream.
+    """
+    buf, models, start = [], [], 0
+    for item in series:
+        item = tuple(item)
+        buf.append(item[:3])
+        models.append(item[3] if len(item) > 3 else None)
+        if len(buf) >= chunk_series:
+            yield start, fit_batch(buf, model=model, models=models, options=options,
+                                   detail=detail, workers=workers)
+            start += len(buf)
+            buf, models = [], []
+    if buf:
+        yield start, fit_batch(buf, model=model, models=models, options=options,
+                               detail=detail, workers=workers)

@@ -83,14 +83,15 @@ def orthonormal_basis(t: np.ndarray, s: np.ndarray | None, p: int, intercept: bo
     """
     G, L = t.shape
     q = np.empty((p, G, L))
-    coef = np.zeros((G, p, p))
+    ck = np.zeros((p, G, p))                 # ck[k] = power coefficients of P_k (contiguous)
+    tmp = np.empty((G, L))
     if intercept:
         v = np.ones((G, L)) if s is None else s
     else:
         v = t if s is None else s * t
     norm = np.sqrt(_dot(v, v))
-    np.divide(v, norm[:, None], out=q[0])
-    coef[:, 0, 0] = 1.0 / norm
+    np.multiply(v, (1.0 / norm)[:, None], out=q[0])
+    ck[0, :, 0] = 1.0 / norm
     full = p - (0 if intercept else 1) >= FULL_REORTH_DEGREE
     beta = None
     for k in range(p - 1):
@@ -98,21 +99,22 @@ def orthonormal_basis(t: np.ndarray, s: np.ndarray | None, p: int, intercept: bo
         v = q[k + 1]
         np.multiply(t, q[k], out=v)
         alpha = _dot(v, q[k])
-        v -= alpha[:, None] * q[k]
-        c = np.zeros((G, p))
-        c[:, 1:] = coef[:, :-1, k]
-        c -= alpha[:, None] * coef[:, :, k]
+        v -= np.multiply(q[k], alpha[:, None], out=tmp)
+        c = ck[k + 1]
+        c[:, 1:] = ck[k, :, :-1]
+        c -= alpha[:, None] * ck[k]
         if k > 0:
-            v -= beta[:, None] * q[k - 1]
-            c -= beta[:, None] * coef[:, :, k - 1]
+            v -= np.multiply(q[k - 1], beta[:, None], out=tmp)
+            c -= beta[:, None] * ck[k - 1]
         if full:  # one more classical Gram-Schmidt sweep against every earlier vector
             h = np.einsum("kgn,gn->gk", q[:k + 1], v)
             v -= np.einsum("gk,kgn->gn", h, q[:k + 1])
-            c -= (coef[:, :, :k + 1] @ h[:, :, None])[:, :, 0]
+            c -= np.einsum("gk,kgm->gm", h, ck[:k + 1])
         beta = np.sqrt(_dot(v, v))
-        v /= beta[:, None]
-        coef[:, :, k + 1] = c / beta[:, None]
-    return q, coef
+        inv = (1.0 / beta)[:, None]
+        v *= inv
+        c *= inv
+    return q, np.ascontiguousarray(ck.transpose(1, 2, 0))
 
 
 def effects(q: np.ndarray, zw: np.ndarray):

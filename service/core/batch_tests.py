@@ -28,6 +28,7 @@ _C4 = (1.3822, -0.77857, 0.062767, -0.0020322)
 _C5 = (-1.5861, -0.31082, -0.083751, 0.0038915)
 _C6 = (-0.4803, -0.082676, 0.0030302)
 _G = (-2.273, 0.459)
+SHAPIRO_MAX_N = 5000  # upper limit of Royston's approximation (as service.core.normality)
 
 
 def _poly(coefs, x):
@@ -102,7 +103,7 @@ def _shapiro_p(w: np.ndarray, n: np.ndarray) -> np.ndarray:
 
 
 def shapiro_wilk(e: np.ndarray, n: np.ndarray, padded: bool) -> tuple[np.ndarray, np.ndarray]:
-    """Shapiro-Wilk ``(W, p)`` per row; NaN for rows with fewer than 3 points."""
+    """Shapiro-Wilk ``(W, p)`` per row; NaN outside 3..5000 points or for constant residuals."""
     G, L = e.shape
     ni = n.astype(int)
     srt = np.sort(np.where(_mask(ni, L), e, np.inf) if padded else e, axis=1)
@@ -128,7 +129,8 @@ def shapiro_wilk(e: np.ndarray, n: np.ndarray, padded: bool) -> tuple[np.ndarray
     ss = np.einsum("gn,gn->g", dev, dev)
     with np.errstate(all="ignore"):
         w = np.minimum(num * num / ss, 1.0)
-    return np.where(n >= 3, w, np.nan), _shapiro_p(w, n)
+    ok = (n >= 3) & (n <= SHAPIRO_MAX_N)
+    return np.where(ok, w, np.nan), np.where(ok, _shapiro_p(w, n), np.nan)
 
 
 def durbin_watson(e: np.ndarray, n: np.ndarray, padded: bool) -> np.ndarray:

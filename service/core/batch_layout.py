@@ -1,0 +1,114 @@
+"""How a batch is laid out for the engine: screening, blocks of similar length, padding.
+
+Internal to :mod:`service.core.batch`. Series are held back to back in flat
+arrays with ``offsets``; a block is a set of rows gathered into ``(G, L)``
+arrays, padded with weight-0 points where a row is shorter than ``L``.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from service.core import transforms
+
+BLOCK_POINTS = 65_536   # points per block: fits in cache, bounds working memory
+MAX_PAD_RATIO = 1.15    # a block pads its rows to at most 15% above its shortest
+
+
+def screen(x, y, w, offsets, rows, model, raw):
+    """Split rows into those the engine takes and those for the single-series path."""
+    lengths = offsets[rows + 1] - offsets[rows]
+    bad = (lengths == 0) | np.isin(rows, np.fromiter(raw, dtype=np.int64, count=len(raw)))
+    with np.errstate(all="ignore"):
+        point_bad = ~(np.isfinite(x) & np.isfinite(y))
+        if w is not None:
+            point_bad |= ~(np.isfinite(w) & (w > 0))
+        for name, values in (("transform_x", x), ("transform_y", y)):
+            kind = getattr(model, name)
+            if kind != "none":
+                test = transforms._DOMAIN[kind][0]
+                point_bad |= ~test(values)
+    hits = np.flatnonzero(point_bad)                 # usually empty: cheap to locate
+    if hits.size:
+        bad_series = np.unique(np.searchsorted(offsets, hits, side="right") - 1)
+        bad |= np.isin(rows, bad_series)
+    return rows[~bad], rows[bad]
+
+
+def blocks(rows, lengths):
+    """Cut rows (sorted by length) into blocks of similar length and bounded size."""
+    if rows.size == 0:
+        return
+    order = rows[np.argsort(lengths[rows], kind="stable")]
+    lens = lengths[order]
+    start = 0
+    while start < order.size:
+        lo = lens[start]
+        cap = max(8, BLOCK_POINTS // max(int(lo), 1))
+        limit = np.searchsorted(lens, np.floor(lo * MAX_PAD_RATIO) + 1, side="left")
+        stop = int(min(order.size, start + cap, max(limit, start + 1)))
+        width = lens[stop - 1]
+        stop = int(min(stop, start + max(8, BLOCK_POINTS // max(int(width), 1))))
+        yield order[start:stop]
+        start = stop
+
+
+def gather(values, offsets, rows, lens, width, fill=0.0):
+    if np.all(lens == width) and rows[-1] - rows[0] == rows.size - 1 and np.all(
+            np.diff(rows) == 1):                      # consecutive equal-length rows: a view
+        a = offsets[rows[0]]
+        return values[a:a + rows.size * width].reshape(rows.size, width)
+    idx = offsets[rows][:, None] + np.arange(width)[None, :]
+    if np.all(lens == width):
+        return values[idx]
+    inside = np.arange(width)[None, :] < lens[:, None]
+    return np.where(inside, values[np.where(inside, idx, 0)], fill)
+
+
+def distinct(u, valid, lens):
+    """Number of distinct x per row (rows already strictly increasing skip the sort)."""
+    steps = np.diff(u, axis=1) > 0
+    if valid is not None:
+        steps &= valid[:, 1:]
+    distinct = 1 + steps.sum(axis=1)
+    unsorted = np.flatnonzero(distinct < lens)
+    if unsorted.size:
+        sub = u[unsorted] if valid is None else np.where(valid[unsorted], u[unsorted], np.inf)
+        steps = np.diff(np.sort(sub, axis=1), axis=1) > 0
+        if valid is not None:
+            steps &= valid[unsorted, 1:]
+        distinct[unsorted] = 1 + steps.sum(axis=1)
+    return distinct
+
+
+def scatter(out: dict, res: dict | None, bspec) -> None:
+    """Write a block's rows into the batch arrays (rows the engine rejected are skipped)."""
+    if res is None:
+        return
+    keep = ~res["bad"] if "bad" in res else slice(None)
+    rows = res["rows"][keep]
+    if rows.size and rows[-1] - rows[0] == rows.size - 1 and np.all(np.diff(rows) == 1):
+        rows = slice(int(rows[0]), int(rows[-1]) + 1)  # consecutive: cheap slice assignment
+    cols = out["columns"]
+    for name in cols:
+        if name in res:
+            cols[name][rows] = res[name][keep]
+    cols["min_degree"][rows] = bspec.min_degree
+    width = res["coef"].shape[1]
+    out["coefficients"][rows, :width] = res["coef"][keep]
+    out["std_errors"][rows, :width] = res["se"][keep]
+    ncand = res["cand_rss"].shape[1]
+    for m in out["candidates"]:
+        out["candidates"][m][rows, :ncand] = res["cand_" + m][keep]
+    out["intercept"][rows] = bspec.intercept
+    out["select"][rows] = bspec.select
+    out["ok"][rows] = True
+    for key, target in (("outlier_points", "outliers"), ("influential_points", "influential")):
+        r_idx, c_idx = res[key]
+        if r_idx.size:
+            store = out.setdefault(target, {})
+            bad = res.get("bad")
+            for r, c in zip(r_idx.tolist(), c_idx.tolist(), strict=True):
+                if bad is None or not bad[r]:
+                    key_row = int(res["rows"][r])
+                    store[key_row] = store.get(key_row, ()) + (c,)
