@@ -27,7 +27,7 @@ APP = create_app({"max_points": 5000, "max_grid_points": 2000})
 SCHEMA = schemathesis.openapi.from_wsgi("/openapi.json", APP)
 CHECKS = [not_a_server_error, status_code_conformance, content_type_conformance,
           response_schema_conformance]
-SLOW = ("/v1/plot", "/v1/batch")  # fuzzed with fewer examples (figures, many series)
+SLOW = ["/v1/plot", "/v1/batch"]  # fuzzed with fewer examples (figures, many series)
 
 pytestmark = pytest.mark.slow
 
