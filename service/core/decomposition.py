@@ -68,7 +68,7 @@ class Decomposition:
 
 
 def decompose(u: np.ndarray, z: np.ndarray, w: np.ndarray | None, max_degree: int,
-              intercept: bool) -> Decomposition:
+              intercept: bool, field: str = "model.max_degree") -> Decomposition:
     """Scale x, build the weighted design up to ``max_degree``, and factor it.
 
     Raises
@@ -105,8 +105,8 @@ def decompose(u: np.ndarray, z: np.ndarray, w: np.ndarray | None, max_degree: in
         raise DesignError(
             f"The design for degree {max_degree} is numerically rank deficient (column "
             f"{exc.column} depends on the earlier ones): the x values are too clustered for "
-            "this many powers.", field="model.max_degree" if max_degree else "x",
-            fix="Lower the degree, or spread the x values more evenly.") from None
+            "this many powers.", field=field,
+            fix=f"Use a degree below {exc.column}, or spread the x values more evenly.") from None
     r_inv = qr.triangular_inverse(r)
     q = r_inv.astype(float).T @ v64
     return Decomposition(intercept, max_degree, shift, scale, t64, sqrt_w, zw, r, r_inv,

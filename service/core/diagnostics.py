@@ -10,7 +10,10 @@ Thresholds (common practice, also returned in ``Diagnostics.thresholds``):
 * high leverage: ``h > 2p/n`` (Hoaglin & Welsch);
 * influential: Cook's distance above the median of ``F(p, n - p)``
   (Cook & Weisberg); ``|DFFITS| > 2 sqrt(p/n)`` (Belsley, Kuh & Welsch) is
-  reported as a threshold for reference.
+  reported as a threshold for reference;
+* the cut-offs the trust flags use (test alpha, Durbin-Watson range,
+  points per coefficient, condition number) are added from
+  :data:`service.core.flags.THRESHOLDS`.
 """
 
 from __future__ import annotations
@@ -18,6 +21,7 @@ from __future__ import annotations
 import numpy as np
 from scipy import special
 
+from service.core import flags
 from service.core.anova import lack_of_fit
 from service.core.decomposition import Decomposition
 from service.core.normality import shapiro_wilk
@@ -64,7 +68,8 @@ def diagnose(index: np.ndarray, x: np.ndarray, dec: Decomposition, degree: int,
     high = tuple(index[h > lev_cut].tolist()) if n > p else ()
     infl = tuple(index[cook > cook_cut].tolist())
     thresholds = {"outlier_alpha": OUTLIER_ALPHA, "outlier_t": bonf, "leverage": lev_cut,
-                  "cooks_distance": cook_cut, "dffits": float(2 * np.sqrt(p / n))}
+                  "cooks_distance": cook_cut, "dffits": float(2 * np.sqrt(p / n)),
+                  **flags.THRESHOLDS}
     return Diagnostics(frozen_array(index, dtype=int), frozen_array(raw), frozen_array(std),
                        frozen_array(stud), frozen_array(h), frozen_array(cook),
                        frozen_array(dffits), tests, lof, outliers, high, infl, thresholds)

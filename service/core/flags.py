@@ -15,6 +15,9 @@ POINTS_PER_PARAMETER = 5   # fewer points per coefficient than this: caution (co
 COND_CAUTION = 1e6         # basis condition number: ~6 of 16 digits at risk (common practice)
 COND_SERIOUS = 1e10
 DW_LOW, DW_HIGH = 1.5, 2.5  # Durbin-Watson rule of thumb (common practice)
+THRESHOLDS = {"test_alpha": TEST_ALPHA, "points_per_parameter": float(POINTS_PER_PARAMETER),
+              "condition_number": COND_CAUTION, "condition_number_serious": COND_SERIOUS,
+              "durbin_watson_low": DW_LOW, "durbin_watson_high": DW_HIGH}
 
 
 def trust_flags(*, n: int, p: int, exact: bool, condition: float,

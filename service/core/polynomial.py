@@ -74,7 +74,8 @@ def fit_series(x, y, weights=None, *, model: ModelSpec = _DEFAULT_MODEL,
     notices: list[Notice] = []
     distinct = distinct_count(data.x)
     dmax = _supported_max(distinct, intercept, dmin, dmax, selects, notices)
-    dec = decompose(u, z, data.w, dmax, intercept)
+    dec = decompose(u, z, data.w, dmax, intercept,
+                    "model.max_degree" if selects else "model.degree")
     n = u.size
     sum_log_w = 0.0 if data.w is None else float(np.sum(np.log(data.w)))
     degrees = list(range(dmin, dmax + 1))

@@ -199,6 +199,14 @@ class FittedPolynomial:
     ``r_factor`` is the upper-triangular R of the (weighted) design QR on
     that basis, so ``se_mean(t) = sigma * ||R^-T v(t)||``.
     ``raw_coefficients``/``raw_covariance`` are on powers of ``u``.
+
+    Details fixed by the core: with an intercept ``x_shift``/``x_scale`` map
+    the range of ``u`` onto [-1, 1]; without one ``x_shift`` is 0 and
+    ``x_scale = max |u|``. ``v(t)`` holds the powers in entry order
+    (``t^0..t^d``, or ``t^1..t^d`` without intercept). ``x_min``/``x_max``
+    are on the caller's original x scale (extrapolation checks). ``sigma``
+    is 0.0 for an exact fit and NaN when ``df_residual`` is 0. Weights are
+    inverse variances; new observations in bands are taken at unit weight.
     """
 
     degree: int

@@ -176,3 +176,19 @@ def test_degenerate_inputs_raise_no_runtime_warning():
                        model=ModelSpec(max_degree=4))
     assert exact.selection.chosen_degree == 2 and "exactly" in exact.selection.reason
     assert np.all(np.isnan(exact.diagnostics.studentized))
+
+
+def test_numerically_rank_deficient_design_is_a_design_error():
+    # 12 points within 1e-7 of each other plus one far away: distinct, but numerically only
+    # two support points for the powers (rank deficiency is a fact of the trade).
+    x = np.concatenate([np.linspace(0.0, 1e-7, 12), [1.0]])
+    err = _raises(DesignError, "model.degree", x, np.sin(x), model=ModelSpec(degree=6))
+    assert "rank deficient" in err.message
+
+
+def test_ill_conditioned_design_is_flagged():
+    # clustered x: condition number of the scaled basis far above 1e6 (common practice cut-off)
+    x = np.concatenate([np.linspace(0.0, 1e-2, 30), [2.0]])
+    rep = fit_series(x, np.cos(x), model=ModelSpec(degree=4))
+    assert rep.statistics.condition_number > 1e6
+    assert "ill_conditioned_design" in {f.code for f in rep.flags}

@@ -187,3 +187,24 @@ def test_reciprocal_x_transform_matches_statsmodels():
     res = sm.OLS(y, _exog(1 / x, 2)).fit()  # oracle: statsmodels on 1/x
     np.testing.assert_allclose([c.estimate for c in rep.coefficients], res.params, rtol=RTOL)
     np.testing.assert_allclose(rep.statistics.rss, res.ssr, rtol=RTOL)
+
+
+@pytest.mark.parametrize("weighted", [False, True])
+def test_long_series_float64_path_matches_statsmodels(weighted):
+    # n above qr.EXTENDED_MAX_ROWS: the float64 CholeskyQR2 path
+    from service.core import qr
+
+    rng = np.random.default_rng(61)
+    n = qr.EXTENDED_MAX_ROWS + 1000
+    x = rng.uniform(-2, 30, n)
+    y = 3 + 0.1 * x - 0.02 * x**2 + rng.normal(size=n)
+    w = rng.uniform(0.2, 5, n) if weighted else None
+    exog = _exog(x, 3)
+    res = (sm.WLS(y, exog, weights=w) if weighted else sm.OLS(y, exog)).fit()  # oracle
+    rep = fit_series(x, y, w, model=ModelSpec(degree=3), options=FitOptions(grid=None))
+    np.testing.assert_allclose([c.estimate for c in rep.coefficients], res.params, rtol=1e-9)
+    np.testing.assert_allclose([c.std_error for c in rep.coefficients], res.bse, rtol=1e-9)
+    np.testing.assert_allclose(rep.statistics.rss, res.ssr, rtol=1e-9)
+    sw = np.ones(n) if w is None else np.sqrt(w)  # leverage oracle on the whitened problem
+    hat = sm.OLS(y * sw, exog * sw[:, None]).fit().get_influence().hat_matrix_diag
+    np.testing.assert_allclose(rep.diagnostics.leverage, hat, rtol=1e-9)
