@@ -276,3 +276,32 @@ def test_any_reading_gets_a_status_or_a_typed_error(pontius_models, which, readi
     if estimate.status == "ok":
         assert model.x_min <= estimate.lower * (1 + 1e-9) and estimate.lower <= estimate.x
         assert estimate.x <= estimate.upper <= model.x_max * (1 + 1e-9)
+
+
+def test_bracketing_fallback_gives_the_same_fieller_interval(monkeypatch):
+    # Force the fallback path (as if Newton failed): it must reproduce the closed form too.
+    from service.core import inverse
+
+    monkeypatch.setattr(inverse._Curve, "_newton",
+                        lambda self, t, y0, m, sign: np.full_like(t, np.nan))
+    x, y, model = _nist("norris", 1)
+    estimate = invert(model, [400.0], replicates=2).estimates[0]
+    x0, lo, hi = _fieller(x, y, 400.0, 2, 0.95)
+    assert estimate.status == "ok"
+    np.testing.assert_allclose([estimate.x, estimate.lower, estimate.upper], [x0, lo, hi],
+                               rtol=1e-10)
+
+
+def test_precise_calibration_keeps_its_interval_digits():
+    # Seeded line with tiny noise (sd 1e-9 on y ~ 1): the interval is ~1e-8 wide in x and must
+    # still match the closed form with statsmodels estimates (whose own precision here is
+    # about 1e-7 relative).
+    rng = np.random.default_rng(19)
+    x = np.linspace(0.0, 1.0, 12)
+    y = 0.5 + 0.3 * x + rng.normal(0, 1e-9, x.size)
+    model = _fit(x, y, 1)
+    estimate = invert(model, [0.65]).estimates[0]
+    x0, lo, hi = _fieller(x, y, 0.65, 1, 0.95)
+    assert estimate.status == "ok"
+    np.testing.assert_allclose(estimate.upper - estimate.lower, hi - lo, rtol=1e-6)
+    np.testing.assert_allclose(estimate.x, x0, rtol=1e-12)
