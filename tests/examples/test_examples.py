@@ -1,0 +1,120 @@
+"""Every client example runs against live gunicorn on loopback and prints the right numbers.
+
+The examples fit the invented greenhouse scenario (client_examples/data/greenhouse.json,
+from scripts/demo_data.py). The invented data are never the reference: every printed
+number is checked against statsmodels OLS fits of the same data (sequential sums of
+squares as differences of residual sums of squares of nested fits — the textbook
+definition of the Type I table; F tests by ``compare_f_test``; the new-observation
+interval by ``get_prediction``). The examples print 6 significant digits (p-values 4).
+"""
+
+from __future__ import annotations
+
+import json
+import os
+import re
+import shutil
+import subprocess
+import sys
+from pathlib import Path
+
+import numpy as np
+import pytest
+import statsmodels.api as sm
+
+ROOT = Path(__file__).resolve().parents[2]
+EXAMPLES = ROOT / "client_examples"
+DATA = EXAMPLES / "data" / "greenhouse.json"
+NEW_EC = 3.5
+
+COMMANDS = {
+    "curl": ["bash", str(EXAMPLES / "curl.sh")],
+    "python": [sys.executable, str(EXAMPLES / "python" / "example.py")],
+    "javascript": ["node", str(EXAMPLES / "javascript" / "example.mjs")],
+    "java": ["java", str(EXAMPLES / "java" / "Example.java")],
+}
+TOOLS = {"curl": ("curl", "jq"), "python": (), "javascript": ("node",), "java": ("java",)}
+NUMBER = r"[-+]?\d+(?:\.\d*)?(?:[eE][-+]?\d+)?"
+
+
+@pytest.fixture(scope="module")
+def oracle():
+    body = json.loads(DATA.read_text())
+    x, y = np.array(body["x"]), np.array(body["y"])
+    fits = [sm.OLS(y, np.vander(x, d + 1, increasing=True)).fit() for d in range(5)]
+    sequential = {"x": fits[0].ssr - fits[1].ssr, "x^2": fits[1].ssr - fits[2].ssr}
+    p_add = {d: fits[d].compare_f_test(fits[d - 1])[1] for d in range(1, 5)}
+    full = fits[2]
+    frame = full.get_prediction(np.vander([NEW_EC], 3, increasing=True)).summary_frame(alpha=0.05)
+    return {"n": x.size, "sequential": sequential, "residual": (full.df_resid, full.ssr),
+            "f": {t: ss / full.mse_resid for t, ss in sequential.items()},
+            "p": {"x": None, "x^2": p_add[2]}, "p_add": p_add,
+            "prediction": (frame["mean"][0], frame["obs_ci_lower"][0], frame["obs_ci_upper"][0])}
+
+
+def parse(output: str) -> dict:
+    """The common output of the four examples."""
+    lines = output.strip().splitlines()
+    head = re.fullmatch(r"Greenhouse nutrient trial \(invented demo data\): (\d+) benches",
+                        lines[0])
+    chosen = re.fullmatch(r"chosen degree: (\d+) \((\w+)\)", lines[1])
+    assert head and chosen and lines[2] == "sequential (Type I) table:", output
+    assert lines[3].split() == ["term", "df", "sum_sq", "mean_sq", "F", "p_value"], output
+    table = {}
+    for line in lines[4:-1]:
+        term, df, *numbers = line.split()
+        table[term] = (int(df), *map(float, numbers))
+    pred = re.fullmatch(rf"prediction at x = ({NUMBER}): fit ({NUMBER}), 95% new-observation "
+                        rf"band ({NUMBER}) to ({NUMBER})", lines[-1])
+    assert pred, lines[-1]
+    return {"n": int(head[1]), "degree": int(chosen[1]), "method": chosen[2], "table": table,
+            "prediction": tuple(float(v) for v in pred.groups())}
+
+
+def test_demo_data_file_is_what_the_seeded_generator_makes():
+    made = subprocess.run([sys.executable, str(ROOT / "scripts" / "demo_data.py"), "greenhouse"],
+                          capture_output=True, text=True, check=True, timeout=60).stdout
+    assert json.loads(made) == json.loads(DATA.read_text())
+
+
+@pytest.mark.live
+@pytest.mark.parametrize("language", sorted(COMMANDS))
+def test_example_prints_the_degree_the_table_and_a_prediction(language, live_url, oracle):
+    missing = [tool for tool in TOOLS[language] if shutil.which(tool) is None]
+    assert not missing, f"{language} example needs {missing} on PATH (CI installs them)"
+    env = {**os.environ, "BASE_URL": live_url}
+    env.pop("API_TOKEN", None)
+    run = subprocess.run(COMMANDS[language], capture_output=True, text=True, env=env, cwd=ROOT,
+                         timeout=120)
+    assert run.returncode == 0, run.stderr[-3000:]
+    out = parse(run.stdout)
+    assert out["n"] == oracle["n"] == 24
+    # sequential F at alpha 0.05: x^2 is needed, neither x^3 nor x^4 adds significantly
+    assert oracle["p_add"][2] < 0.05 < min(oracle["p_add"][3], oracle["p_add"][4])
+    assert (out["degree"], out["method"]) == (2, "sequential_f")
+    assert list(out["table"]) == ["x", "x^2", "residual"]
+    for term in ("x", "x^2"):
+        df, ss, ms, f, p = out["table"][term]
+        assert df == 1
+        assert ss == pytest.approx(oracle["sequential"][term], rel=1e-5)
+        assert ms == pytest.approx(oracle["sequential"][term], rel=1e-5)
+        assert f == pytest.approx(oracle["f"][term], rel=1e-5)
+    assert out["table"]["x^2"][4] == pytest.approx(oracle["p"]["x^2"], rel=1e-3)
+    df, ss, ms = out["table"]["residual"]
+    assert (df, ss) == (oracle["residual"][0], pytest.approx(oracle["residual"][1], rel=1e-5))
+    x_new, fit, lower, upper = out["prediction"]
+    assert x_new == NEW_EC
+    assert (fit, lower, upper) == pytest.approx(oracle["prediction"], rel=1e-5)
+
+
+@pytest.mark.live
+def test_examples_report_service_errors_and_fail(live_url, tmp_path):
+    """A wrong BASE_URL path gives a problem+json 404: each example must exit non-zero."""
+    env = {**os.environ, "BASE_URL": live_url + "/no-such-prefix"}
+    for language, command in sorted(COMMANDS.items()):
+        if language == "java":
+            continue  # same error path as the others; skipped to keep the JVM start-up cost once
+        run = subprocess.run(command, capture_output=True, text=True, env=env, cwd=ROOT,
+                             timeout=120)
+        assert run.returncode != 0, (language, run.stdout)
+        assert "404" in run.stderr, (language, run.stderr)
