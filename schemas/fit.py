@@ -104,7 +104,8 @@ class GridSchema(StrictSchema):
     step = StrictFloat(validate=validate.Range(min=0, min_inclusive=False,
                                                error="Must be greater than 0."),
                        metadata={"description": "Spacing from start to stop (inclusive)."})
-    x = NumberArray(metadata={"description": "Explicit grid points."})
+    x = NumberArray(metadata={"description": "Explicit grid points."}, error_messages={
+        "item_null": "Grid points must be numbers. Remove the null."})
 
     @validates_schema
     def _one_form(self, data, **kwargs):

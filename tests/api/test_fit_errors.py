@@ -116,6 +116,7 @@ def test_points_over_limit_is_413():
     ({"grid": {"step": 0.1}}, "grid.step", "start and stop"),
     ({"grid": {"x": [1.0, 2.0], "count": 5}}, "grid.x", "alone"),
     ({"grid": {"x": [1.0, "a"]}}, "grid.x[1]", "string"),
+    ({"grid": {"x": [1.0, None]}}, "grid.x[1]", "Remove the null"),
     ({"grid": {"resolution": 5}}, "grid.resolution", "Unknown field"),
 ])
 def test_invalid_fields_are_422_naming_the_field(client, changes, field, words):

@@ -103,3 +103,28 @@ def test_readme_quickstart_is_exactly_two_commands():
     commands = [line.split("#")[0].strip() for line in block.strip().splitlines()]
     assert commands == ["make run", "make test"]
     assert "regulat" in readme and "qualified" in readme  # the caution for regulated use
+
+
+def test_full_fit_answers_validate_against_the_served_schema(client, spec):
+    # The response is built directly (not dumped by marshmallow), so check it against the
+    # published contract with an independent JSON Schema validator (Draft 2020-12, as
+    # OpenAPI 3.1 uses), for a fixed-degree, a selected, a weighted and a dropped fit.
+    import jsonschema_rs  # the validator schemathesis itself uses
+    import orjson
+
+    from tests.api.helpers import post_json
+
+    validator = jsonschema_rs.Draft202012Validator(
+        {"$ref": "#/components/schemas/FitResponse", "components": spec["components"]})
+    strict = spec["components"]["schemas"]["FitResponse"]
+    x = [0.5 * i for i in range(1, 21)]
+    y = [1.0 + 0.3 * v - 0.02 * v * v + (0.1 if i % 3 else -0.1) for i, v in enumerate(x)]
+    bodies = [{"x": x, "y": y, "model": {"degree": 2}},
+              {"x": x, "y": y, "model": {"max_degree": 4, "select": "bic"}, "grid": None},
+              {"x": x, "y": y, "weights": [1.0 + (i % 4) for i in range(20)]},
+              {"x": [None] + x[1:], "y": y, "missing": "drop", "include": ["coefficients"]}]
+    for body in bodies:
+        answer = orjson.loads(post_json(client, "/v1/fit", body).data)
+        errors = [str(e)[:300] for e in validator.iter_errors(answer)]
+        assert not errors, errors[:5]
+        assert set(answer) <= set(strict["properties"])
