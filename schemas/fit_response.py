@@ -116,7 +116,7 @@ class TestResultSchema(Schema):
     name = text("shapiro_wilk, breusch_pagan, durbin_watson, ...", required=True)
     statistic = number("Test statistic.")
     p_value = number("p-value (null where the test has none).")
-    df = fields.List(fields.Float(allow_nan=True), allow_none=True, metadata={
+    df = fields.List(fields.Float(allow_nan=True, allow_none=True), allow_none=True, metadata={
         "description": "Degrees of freedom, when the test has them."})
     note = text("How to read the result.")
 
@@ -150,7 +150,8 @@ class DiagnosticsSchema(Schema):
     outliers = _indices("Original positions of points with large studentized residuals.")
     high_leverage = _indices("Original positions of high-leverage points.")
     influential = _indices("Original positions of influential points (Cook's distance).")
-    thresholds = fields.Dict(keys=fields.String(), values=fields.Float(allow_nan=True),
+    thresholds = fields.Dict(keys=fields.String(),
+                             values=fields.Float(allow_nan=True, allow_none=True),
                              metadata={"description": "Cut-offs used for the lists above."})
 
 
