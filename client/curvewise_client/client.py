@@ -112,7 +112,7 @@ class Client:
 
     def batch_stream(self, series: Iterable[Mapping[str, Any]], *,
                      model: Mapping[str, Any] | None = None, detail: str | None = None,
-                     **options: Any) -> Iterator[BatchItem]:
+                     **options: Any) -> BatchStream:
         """Stream series as NDJSON and yield each result as it arrives (never retried).
 
         ``series`` may be any iterator (a generator reading a huge file): it is
@@ -299,10 +299,44 @@ def _api_error(response: Response) -> ApiError:
                          response.headers)
 
 
-def _stream_items(response: Response) -> Iterator[BatchItem]:
-    for line in response.iter_lines():
-        try:
-            data = json.loads(line)
-        except ValueError as exc:
-            raise ProtocolError(f"/v1/batch sent a line that is not JSON: {line[:200]!r}") from exc
-        yield build(BatchItem, data)
+class BatchStream:
+    """The results of a streamed batch, one :class:`BatchItem` per series as it arrives.
+
+    Iterate it once. ``summary`` (the counts) is set when the final summary
+    line has been read; ``close()`` (or a ``with`` block) drops the connection early.
+    """
+
+    def __init__(self, response: Response) -> None:
+        self._response = response
+        self._lines = response.iter_lines()
+        self.summary: Mapping[str, Any] | None = None
+
+    def __iter__(self) -> BatchStream:
+        return self
+
+    def __next__(self) -> BatchItem:
+        for line in self._lines:
+            try:
+                data = json.loads(line)
+            except ValueError as exc:
+                raise ProtocolError(f"/v1/batch sent a line that is not JSON: {line[:200]!r}"
+                                    ) from exc
+            if isinstance(data, dict) and "summary" in data and "status" not in data:
+                self.summary = freeze(data["summary"])
+                continue
+            return build(BatchItem, data)
+        raise StopIteration
+
+    def close(self) -> None:
+        """Stop reading and release the connection."""
+        self._response.close()
+
+    def __enter__(self) -> BatchStream:
+        return self
+
+    def __exit__(self, *exc_info: Any) -> None:
+        self.close()
+
+
+def _stream_items(response: Response) -> BatchStream:
+    return BatchStream(response)

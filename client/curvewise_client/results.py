@@ -16,6 +16,8 @@ from pathlib import Path
 from types import MappingProxyType
 from typing import Any
 
+from curvewise_client.errors import Problem
+
 EMPTY: Mapping[str, Any] = MappingProxyType({})
 
 
@@ -236,12 +238,24 @@ class BatchItem:
     status: str | None = None
     fit: Mapping[str, Any] | None = None
     error: Mapping[str, Any] | None = None
+    line: int | None = None
     raw: Mapping[str, Any] = field(default_factory=_empty)
 
     @property
     def ok(self) -> bool:
         """True when this series was fitted."""
         return self.status == "ok"
+
+    @property
+    def problem(self) -> Problem | None:
+        """This series' error as :class:`~curvewise_client.errors.Problem` (None when ok)."""
+        if self.error is None:
+            return None
+        return Problem.from_json(self.error, int(self.error.get("status") or 422))
+
+    def fit_result(self) -> FitResult | None:
+        """The fit as a typed :class:`FitResult` (complete with ``detail="full"``)."""
+        return None if self.fit is None else build(FitResult, self.fit)
 
 
 @dataclass(frozen=True, slots=True)

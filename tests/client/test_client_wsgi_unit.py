@@ -186,6 +186,8 @@ def _ndjson_app(log: list):
             for _ in range(1000):  # bounded
                 line = stream.readline()
                 if not line:
+                    served = sum(1 for event in log if event[0] == "served")
+                    yield json.dumps({"summary": {"ok": served}}).encode() + b"\n"
                     return
                 data = json.loads(line)
                 log.append(("served", data.get("id")))
@@ -206,10 +208,12 @@ def test_batch_stream_is_lazy_in_process():
 
     client = Client("http://t", transport=WSGITransport(_ndjson_app(log)))
     items = []
-    for item in client.batch_stream(series()):
+    stream = client.batch_stream(series())
+    for item in stream:
         log.append(("received", item.id))
         items.append(item)
     assert [it.fit["n"] for it in items] == [3, 4, 5, 6] and all(it.ok for it in items)
+    assert stream.summary == {"ok": 4}  # the summary line is not an item
     # each result is received before the next series is even produced
     assert log[:6] == [("produced", "s0"), ("served", "s0"), ("received", "s0"),
                        ("produced", "s1"), ("served", "s1"), ("received", "s1")]

@@ -1,0 +1,105 @@
+"""Batch (JSON and streamed NDJSON) and the pandas helpers, against the real service.
+
+Oracle: statsmodels OLS parameters for each series (seeded random data). The faulty
+series (a single distinct x) must come back as that series' own error.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+import pytest
+import statsmodels.api as sm
+from curvewise_client import BatchResult, Client, WSGITransport, frames
+
+
+@pytest.fixture(scope="module")
+def inprocess_client():
+    from service.app import create_app
+
+    return Client("http://curvewise.test", transport=WSGITransport(create_app({})))
+
+
+@pytest.fixture(params=["inprocess", pytest.param("live", marks=pytest.mark.live)])
+def api(request):
+    if request.param == "inprocess":
+        return request.getfixturevalue("inprocess_client")
+    return Client(request.getfixturevalue("live_url"), timeout=30)
+
+
+def _series(count: int, seed: int = 4):
+    rng = np.random.default_rng(seed)
+    out = []
+    for i in range(count):
+        x = np.sort(rng.uniform(0, 10, 12 + i % 5))
+        y = 1.0 + 0.4 * i + 0.8 * x + rng.normal(0, 0.3, x.size)
+        out.append({"id": f"s{i:03d}", "x": x, "y": y})
+    return out
+
+
+def _ols(item):
+    return sm.OLS(np.asarray(item["y"]), sm.add_constant(np.asarray(item["x"]))).fit().params
+
+
+def test_json_batch_keeps_order_and_isolates_the_bad_series(api):
+    series = _series(4)
+    series.insert(2, {"id": "flat", "x": [2.0, 2.0, 2.0], "y": [1.0, 2.0, 3.0]})
+    result = api.batch(series, model={"degree": 1})
+    assert isinstance(result, BatchResult)
+    assert [r.id for r in result.results] == [s["id"] for s in series]
+    assert [r.ok for r in result.results] == [True, True, False, True, True]
+    bad = result.results[2]
+    assert bad.problem.status == 422 and "model.degree" in bad.problem.errors
+    assert result.summary["ok"] == 4 and result.summary["error"] == 1
+    for item, sent in zip(result.results, series, strict=True):
+        if item.ok:
+            np.testing.assert_allclose(item.fit["estimate"], _ols(sent), rtol=1e-9)
+
+
+def test_ndjson_stream_of_a_generator(api):
+    sent = _series(60, seed=9)
+
+    def lines():
+        yield from sent
+
+    with api.batch_stream(lines(), model={"degree": 1}) as stream:
+        items = list(stream)
+    assert [it.id for it in items] == [s["id"] for s in sent] and all(it.ok for it in items)
+    assert stream.summary["ok"] == 60
+    for item, series in list(zip(items, sent, strict=True))[::15]:
+        np.testing.assert_allclose(item.fit["estimate"], _ols(series), rtol=1e-9)
+
+
+def test_fit_long_frame_in_one_call(api):
+    series = _series(5, seed=1)
+    long = pd.DataFrame([{"probe": s["id"], "ref": xi, "reading": yi}
+                         for s in series for xi, yi in zip(s["x"], s["y"], strict=True)])
+    for stream in (False, True):
+        out = frames.fit_long_frame(api, long, id="probe", x="ref", y="reading",
+                                    model={"degree": 1}, stream=stream)
+        assert list(out["id"]) == [s["id"] for s in series]
+        assert (out["status"] == "ok").all()
+        np.testing.assert_allclose(np.vstack(out["estimate"]), np.vstack([_ols(s) for s in series]),
+                                   rtol=1e-9)
+
+
+def test_result_frames_of_one_fit(api):
+    (item,) = _series(1, seed=3)
+    x, y = item["x"], item["y"] + 0.05 * item["x"] ** 2
+    fit = api.fit(x, y, degree=2, grid={"count": 25})
+    design = np.vander(x, 3, increasing=True)
+    model = sm.OLS(y, design).fit()
+    coef = frames.coefficients_frame(fit)
+    assert list(coef.index) == ["intercept", "x", "x^2"]
+    np.testing.assert_allclose(coef["estimate"], model.params, rtol=1e-9)
+    np.testing.assert_allclose(coef["std_error"], model.bse, rtol=1e-8)
+    anova = frames.anova_frame(fit)
+    assert list(anova.index) == ["x", "x^2", "residual"]
+    assert anova.loc["residual", "sum_sq"] == pytest.approx(model.ssr, rel=1e-9)
+    grid = frames.grid_frame(fit)
+    assert len(grid) == 25 and {"x", "fit", "obs_lower", "obs_upper"} <= set(grid.columns)
+    trail = frames.candidates_frame(fit)
+    assert list(trail.index) == [2]
+    pred = frames.predictions_frame(api.predict(fit, [1.0, 2.0]))
+    expected = model.get_prediction(np.vander([1.0, 2.0], 3, increasing=True)).predicted_mean
+    np.testing.assert_allclose(pred["fit"], expected, rtol=1e-9)
