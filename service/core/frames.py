@@ -93,4 +93,7 @@ def result_frame(result: BatchResult, ids, model: ModelSpec = _MODEL) -> pd.Data
     out["error_field"] = [errors[i].field if i in errors else None for i in range(G)]
     out["error"] = [(errors[i].message + (f" Fix: {errors[i].fix}" if errors[i].fix else ""))
                     if i in errors else None for i in range(G)]
-    return pd.DataFrame(out)
+    frame = pd.DataFrame(out)
+    for name in (id_name, "status", "flags", "error_code", "error_field", "error"):
+        frame[name] = pd.Series(list(out[name]), dtype=object, index=frame.index)
+    return frame

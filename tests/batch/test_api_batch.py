@@ -1,0 +1,158 @@
+"""POST /v1/batch through the Flask test client: equals /v1/fit, isolates bad series, streams.
+
+The reference for each fitted series is the service's own /v1/fit answer for
+the same data and model (issue requirement); /v1/fit itself is checked
+against NIST StRD and statsmodels in tests/api.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import orjson
+import pytest
+
+from service.app import create_app
+from tests.batch.conftest import ragged_series, rel
+
+MODEL = {"max_degree": 4, "select": "aic"}
+
+
+def _series(count=30, seed=4):
+    return [{"id": f"probe-{i:03d}", "x": x.tolist(), "y": y.tolist()}
+            for i, (x, y, _) in enumerate(ragged_series(seed, count))]
+
+
+def _post(client, body):
+    return client.post("/v1/batch", data=orjson.dumps(body), content_type="application/json")
+
+
+def _ndjson(client, lines):
+    data = b"\n".join(line if isinstance(line, bytes) else orjson.dumps(line) for line in lines)
+    response = client.post("/v1/batch", data=data, content_type="application/x-ndjson")
+    assert response.status_code == 200 and response.mimetype == "application/x-ndjson"
+    return [orjson.loads(line) for line in response.data.splitlines()]
+
+
+def test_batch_results_equal_single_fit_results(client):
+    series = _series()
+    answer = _post(client, {"series": series, "model": MODEL})
+    assert answer.status_code == 200
+    body = answer.get_json()
+    assert [r["id"] for r in body["results"]] == [s["id"] for s in series]
+    assert body["summary"]["ok"] == len(series) and body["summary"]["error"] == 0
+    for s, result in zip(series, body["results"], strict=True):
+        one = _post_fit(client, s)
+        fit = result["fit"]
+        assert fit["degree"] == one["model"]["degree"]
+        assert fit["terms"] == one["model"]["terms"]
+        assert rel(fit["estimate"], [c["estimate"] for c in one["coefficients"]]) < 1e-9
+        assert rel(fit["std_error"], [c["std_error"] for c in one["coefficients"]]) < 1e-9
+        for name in ("sigma", "r_squared", "adj_r_squared"):
+            assert rel(fit[name], one["statistics"][name]) < 1e-9
+        assert fit["flags"] == [f["code"] for f in one["flags"]]
+        aic = [c["aic"] for c in one["selection"]["candidates"]]
+        assert rel(fit["selection"]["values"], aic) < 1e-9
+
+
+def _post_fit(client, s):
+    answer = client.post("/v1/fit", data=orjson.dumps(
+        {"x": s["x"], "y": s["y"], "model": MODEL, "grid": None}),
+        content_type="application/json")
+    assert answer.status_code == 200, answer.get_json()
+    return answer.get_json()
+
+
+def test_full_detail_is_the_fit_report(client):
+    series = _series(3)
+    body = _post(client, {"series": series, "model": MODEL, "detail": "full"}).get_json()
+    for s, result in zip(series, body["results"], strict=True):
+        one = _post_fit(client, s)
+        fit = result["fit"]
+        assert fit["coefficients"] == one["coefficients"]
+        assert fit["selection"] == one["selection"]
+        assert fit["fitted_model"] == one["fitted_model"]
+
+
+def test_bad_series_get_error_results_and_the_others_are_fitted(client):
+    series = _series(8)
+    series[1]["y"] = series[1]["y"][:-1]                 # mismatched lengths (core, 422)
+    series[2]["x"][4] = "abc"                            # not a number (schema, 422)
+    series[3] = {"id": "probe-003", "x": [1.0], "y": [2.0]}   # too short
+    series[4]["model"] = {"degree": 99}                  # over this server's max degree
+    series[5]["colour"] = "red"                          # unknown field
+    body = _post(client, {"series": series, "model": MODEL}).get_json()
+    status = [r["status"] for r in body["results"]]
+    assert status == ["ok", "error", "error", "error", "error", "error", "ok", "ok"]
+    errors = {i: body["results"][i]["error"] for i in range(1, 6)}
+    assert errors[1]["status"] == 422 and "y" in errors[1]["errors"]
+    assert "x[4]" in errors[2]["errors"]
+    assert errors[3]["code"] == "insufficient_design"
+    assert errors[4]["code"] == "limit_exceeded" and "model.degree" in errors[4]["errors"]
+    assert "colour" in errors[5]["errors"]
+    assert body["summary"]["ok"] == 3 and body["summary"]["error"] == 5
+
+
+def test_ndjson_survives_a_broken_line_and_keeps_order(client):
+    series = _series(6)
+    lines = [{"options": {"model": MODEL}}] + series[:3] + [b'{"id": "oops", "x": [1, 2'] \
+        + series[3:]
+    out = _ndjson(client, lines)
+    assert out[-1]["summary"] == {"ok": 6, "error": 1, "flagged": out[-1]["summary"]["flagged"]}
+    results = out[:-1]
+    assert [r["line"] for r in results] == [2, 3, 4, 5, 6, 7, 8]
+    assert results[3]["status"] == "error" and results[3]["error"]["status"] == 400
+    assert [r["id"] for r in results if r["status"] == "ok"] == [s["id"] for s in series]
+    json_body = _post(client, {"series": series, "model": MODEL}).get_json()
+    ok = [r for r in results if r["status"] == "ok"]
+    assert [r["fit"] for r in ok] == [r["fit"] for r in json_body["results"]]
+
+
+def test_ndjson_without_options_line_uses_the_defaults(client):
+    out = _ndjson(client, _series(2))
+    assert [r["status"] for r in out[:-1]] == ["ok", "ok"]
+    assert out[0]["fit"]["selection"]["method"] == "sequential_f"
+
+
+@pytest.mark.parametrize("overrides, body_series, code", [
+    ({"max_series": 3}, 4, "batch_too_large"),
+    ({"max_total_points": 100}, 4, "batch_too_large"),
+])
+def test_batch_limits_are_413(overrides, body_series, code):
+    client = create_app(overrides).test_client()
+    answer = _post(client, {"series": _series(body_series)})
+    assert answer.status_code == 413 and answer.mimetype == "application/problem+json"
+    assert answer.get_json()["code"] == code
+    out = _ndjson(client, _series(body_series))
+    assert out[-2]["error"]["status"] == 413
+    assert "truncated_at_line" in out[-1]["summary"]
+
+
+def test_points_per_series_limit_fails_only_that_series():
+    client = create_app({"max_points": 40}).test_client()
+    series = _series(10)
+    body = _post(client, {"series": series}).get_json()
+    for s, r in zip(series, body["results"], strict=True):
+        if len(s["x"]) > 40:
+            assert r["status"] == "error" and r["error"]["code"] == "too_many_points"
+        else:
+            assert r["status"] == "ok"
+
+
+def test_bad_envelope_is_422_and_wrong_media_type_is_415(client):
+    answer = _post(client, {"series": _series(2), "detail": "everything"})
+    assert answer.status_code == 422 and "detail" in answer.get_json()["errors"]
+    answer = _post(client, {"series": _series(2), "model": {"degree": 99}})
+    assert answer.status_code == 422 and answer.get_json()["code"] == "limit_exceeded"
+    answer = client.post("/v1/batch", data="x", content_type="text/plain")
+    assert answer.status_code == 415
+    answer = _post(client, {"model": MODEL})
+    assert answer.status_code == 422 and "series" in answer.get_json()["errors"]
+
+
+def test_undefined_numbers_are_null_not_nan(client):
+    body = _post(client, {"series": [{"id": 1, "x": [0.0, 1.0], "y": [1.0, 3.0]}],
+                          "model": {"degree": 1}})
+    assert b"NaN" not in body.data
+    fit = body.get_json()["results"][0]["fit"]
+    assert fit["df_residual"] == 0 and fit["tests"]["durbin_watson"] is None
+    assert np.allclose(fit["estimate"], [1.0, 2.0])

@@ -1,0 +1,73 @@
+"""Long-format pandas entry and Dask on a 2-worker LocalCluster equal the in-process batch.
+
+The in-process reference is :func:`service.core.batch.fit_batch` (checked against
+fit_series and statsmodels in the other batch tests). The Dask test is bounded:
+a small cluster on 127.0.0.1, a timeout, and a few hundred series.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+import pytest
+
+from service.core import ModelSpec
+from service.core.batch import fit_batch
+from service.core.frames import fit_frame
+from tests.batch.conftest import ragged_series
+
+MODEL = ModelSpec(max_degree=3, select="bic")
+
+
+def _long_frame(count=200, seed=12):
+    parts = []
+    for i, (x, y, _) in enumerate(ragged_series(seed, count)):
+        parts.append(pd.DataFrame({"id": f"lot-{i:04d}", "x": x, "y": y}))
+    frame = pd.concat(parts, ignore_index=True)
+    frame.loc[frame.index[frame["id"] == "lot-0005"][2], "y"] = np.nan   # one faulty series
+    return frame
+
+
+def test_pandas_entry_equals_in_process_batch():
+    frame = _long_frame()
+    got = fit_frame(frame, model=MODEL)
+    groups = [(g["x"].to_numpy(), g["y"].to_numpy()) for _, g in frame.groupby("id", sort=False)]
+    ref = fit_batch(groups, model=MODEL)
+    assert list(got["id"]) == list(frame["id"].unique())
+    assert list(got["status"] == "ok") == list(ref.ok)
+    assert got.loc[5, "status"] == "error" and got.loc[5, "error_code"] == "invalid_data"
+    assert got.loc[5, "error_field"] == "y[2]"
+    ok = ref.ok
+    np.testing.assert_array_equal(got["coef_x"].to_numpy()[ok], ref.coefficients[ok, 1])
+    np.testing.assert_array_equal(got["se_intercept"].to_numpy()[ok], ref.std_errors[ok, 0])
+    np.testing.assert_array_equal(got["sigma"].to_numpy()[ok], ref.columns["sigma"][ok])
+    assert [tuple(f) for f in got["flags"][ok]] == [ref.flag_codes(i) for i in np.flatnonzero(ok)]
+
+
+def test_pandas_entry_with_weights_and_text_values():
+    frame = _long_frame(20)
+    frame["w"] = 1.0 + (np.arange(len(frame)) % 3)
+    frame["y"] = frame["y"].astype(object)
+    frame.loc[0, "y"] = "n/a"               # not a number: a missing value of lot-0000
+    got = fit_frame(frame, weight="w", model=MODEL)
+    assert got.loc[0, "status"] == "error" and got.loc[0, "error_field"] == "y[0]"
+    assert list(np.flatnonzero(got["status"] != "ok")) == [0, 5]   # lot-0005 has a NaN
+
+
+@pytest.mark.timeout(60)
+def test_dask_on_a_local_cluster_equals_in_process():
+    dd = pytest.importorskip("dask.dataframe")
+    distributed = pytest.importorskip("distributed")
+    frame = _long_frame(300, seed=13)
+    ref = fit_frame(frame, model=MODEL)
+    from service.core.dask_support import fit_dask
+
+    with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True,
+                                  host="127.0.0.1", dashboard_address=None) as cluster, \
+            distributed.Client(cluster) as dask_client:
+        ddf = dd.from_pandas(frame, npartitions=6)
+        got = fit_dask(ddf, model=MODEL).compute()
+        assert len(dask_client.scheduler_info()["workers"]) == 2
+    got = got.sort_values("id").reset_index(drop=True)
+    ref = ref.sort_values("id").reset_index(drop=True)
+    pd.testing.assert_frame_equal(got, ref, check_dtype=False)
