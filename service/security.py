@@ -3,10 +3,11 @@
 - **Bearer tokens** (``CURVEWISE_AUTH_TOKENS``, comma-separated; empty = auth off). Several
   tokens may be valid at once so they can be rotated without downtime. Every path needs a token
   except ``CURVEWISE_AUTH_EXEMPT`` (default: health, readiness, metrics, the OpenAPI document and
-  /docs; an entry also covers the paths below it) and CORS preflights. The presented token is
-  compared with *every* configured token by :func:`hmac.compare_digest` over SHA-256 digests, so
-  neither the position of a match nor the tokens' lengths show in the timing. A missing or wrong
-  token is a 401 problem+json with ``WWW-Authenticate: Bearer`` (RFC 6750).
+  /docs; an entry also covers the paths below it), the error-catalogue pages under /problems/
+  (a 401's own ``type`` must be readable without a token) and CORS preflights. The presented
+  token is compared with *every* configured token by :func:`hmac.compare_digest` over SHA-256
+  digests, so neither the position of a match nor the tokens' lengths show in the timing. A
+  missing or wrong token is a 401 problem+json with ``WWW-Authenticate: Bearer`` (RFC 6750).
 - **CORS** (``CURVEWISE_CORS_ORIGINS``, comma-separated exact origins such as
   ``https://dash.example.org``, or ``*``; empty = off): allowed origins get
   ``Access-Control-Allow-Origin`` and preflights are answered here; other origins get no CORS
@@ -34,6 +35,7 @@ CORS_HEADERS = "Authorization, Content-Type, Accept, X-Request-ID"
 CORS_EXPOSE = "X-Request-ID, Retry-After, WWW-Authenticate"
 CORS_MAX_AGE = "600"
 API_CSP = "default-src 'none'; frame-ancestors 'none'"
+ALWAYS_PUBLIC = ("/problems",)  # the error catalogue that problem ``type`` URIs point to
 
 register_kind(ProblemKind(
     "unauthorized", 401, "Unauthorized",
@@ -100,11 +102,33 @@ def _is_preflight() -> bool:
             and "Access-Control-Request-Method" in request.headers)
 
 
+def document_auth(spec, exempt: tuple[str, ...]) -> None:
+    """Describe bearer auth in the OpenAPI document: scheme, per-operation security, 401s."""
+    spec.components.security_scheme("bearerAuth", {
+        "type": "http", "scheme": "bearer",
+        "description": "One of the tokens in CURVEWISE_AUTH_TOKENS."})
+    unauthorized = spec.components.get_ref("response", "UNAUTHORIZED")
+    for path, operations in getattr(spec, "_paths", {}).items():
+        for method, operation in operations.items():
+            if method not in ("get", "post", "put", "patch", "delete") or not isinstance(
+                    operation, dict):
+                continue
+            route = path.split("{", 1)[0].rstrip("/") or "/"
+            if is_exempt(route, exempt):
+                operation["security"] = []
+            else:
+                operation["security"] = [{"bearerAuth": []}]
+                operation.setdefault("responses", {}).setdefault("401", unauthorized)
+
+
 def install(app: Flask) -> None:
     """Add token checks, CORS and protective headers to ``app`` (from its Settings)."""
     settings = app.config["CURVEWISE"]
     tokens = TokenCheck(settings.auth_tokens)
-    exempt = tuple(settings.auth_exempt)
+    exempt = tuple(settings.auth_exempt) + ALWAYS_PUBLIC
+    api = app.extensions.get("curvewise-api")
+    if tokens.enabled and api is not None:
+        document_auth(api.spec, exempt)
     origins = frozenset(o.rstrip("/") for o in settings.cors_origins if o)
     any_origin = "*" in origins
     short = [t for t in settings.auth_tokens if t and len(t) < MIN_TOKEN_LENGTH]

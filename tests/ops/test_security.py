@@ -130,3 +130,19 @@ def test_cors_allow_list():
                                             "Origin": "https://evil.example.com"})
     assert refused.status_code == 403 and refused.mimetype == "application/problem+json"
     assert "Access-Control-Allow-Origin" not in refused.headers
+
+
+def test_openapi_documents_bearer_auth_only_when_on(client):
+    assert "securitySchemes" not in client.get("/openapi.json").get_json().get("components", {})
+    spec = create_app({"auth_tokens": TOKENS}).test_client().get("/openapi.json").get_json()
+    assert spec["components"]["securitySchemes"]["bearerAuth"] == {
+        "type": "http", "scheme": "bearer",
+        "description": "One of the tokens in CURVEWISE_AUTH_TOKENS."}
+    fit = spec["paths"]["/v1/fit"]["post"]
+    assert fit["security"] == [{"bearerAuth": []}] and "401" in fit["responses"]
+    assert spec["paths"]["/healthz"]["get"]["security"] == []
+
+
+def test_problem_pages_stay_public(secured):
+    response = secured.get("/problems/unauthorized")
+    assert response.status_code == 200
