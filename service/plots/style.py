@@ -43,6 +43,7 @@ CRITERIA = (("aic", "AIC", OKABE_ITO["blue"], "o"),
             ("bic", "BIC", OKABE_ITO["orange"], "^"))
 CHOSEN = {"color": OKABE_ITO["vermillion"], "linestyle": ":", "linewidth": 1.2}
 
+PNG_COMPRESS_LEVEL = 3  # zlib level: ~25% faster than the default 6 for ~10% larger files
 FONT_SIZE = 8.5
 TITLE_SIZE = 9.5
 
@@ -65,5 +66,6 @@ def style_axes(ax) -> None:
 def to_bytes(figure, fmt: str, dpi: int) -> bytes:
     """Render ``figure`` (already attached to an Agg canvas) to PNG or SVG bytes."""
     buffer = io.BytesIO()
-    figure.savefig(buffer, format=fmt, dpi=dpi, metadata=_METADATA[fmt])
+    extra = {"pil_kwargs": {"compress_level": PNG_COMPRESS_LEVEL}} if fmt == "png" else {}
+    figure.savefig(buffer, format=fmt, dpi=dpi, metadata=_METADATA[fmt], **extra)
     return buffer.getvalue()
