@@ -16,6 +16,7 @@ from curvewise_client.client import Client  # noqa: E402
 from curvewise_client.errors import (  # noqa: E402
     ApiError,
     BadRequest,
+    ComputeTimeout,
     ConnectError,
     CurvewiseError,
     Forbidden,
@@ -57,10 +58,10 @@ from curvewise_client.transport import HTTPTransport, WSGITransport  # noqa: E40
 
 __all__ = [
     "AnovaRow", "ApiError", "BadRequest", "BatchItem", "BatchResult", "Candidate", "Client",
-    "Coefficient", "ConnectError", "CurvewiseError", "Diagnostics", "Estimate", "Estimates",
-    "Figure", "FitResult", "Forbidden", "Grid", "HTTPTransport", "ModelInfo", "NotFound", "Notice",
-    "PayloadTooLarge", "PredictionRow", "Predictions", "Problem", "ProtocolError",
-    "RequestTimeout", "Selection", "ServerError", "ServiceUnavailable", "Statistics", "TestResult",
-    "TooManyRequests", "TransportError", "TrustFlag", "Unauthorized", "UnprocessableInput",
-    "UnsupportedMediaType", "WSGITransport",
+    "Coefficient", "ComputeTimeout", "ConnectError", "CurvewiseError", "Diagnostics", "Estimate",
+    "Estimates", "Figure", "FitResult", "Forbidden", "Grid", "HTTPTransport", "ModelInfo",
+    "NotFound", "Notice", "PayloadTooLarge", "PredictionRow", "Predictions", "Problem",
+    "ProtocolError", "RequestTimeout", "Selection", "ServerError", "ServiceUnavailable",
+    "Statistics", "TestResult", "TooManyRequests", "TransportError", "TrustFlag", "Unauthorized",
+    "UnprocessableInput", "UnsupportedMediaType", "WSGITransport",
 ]

@@ -11,6 +11,7 @@ from typing import Any
 from curvewise_client import __version__
 from curvewise_client.errors import (
     ApiError,
+    ComputeTimeout,
     ConnectError,
     CurvewiseError,
     Problem,
@@ -199,7 +200,8 @@ class Client:
                 return response
             error = _api_error(response)
             error.attempts = attempt
-            if isinstance(error, ServiceUnavailable) and not last:
+            if isinstance(error, ServiceUnavailable) and not isinstance(
+                    error, ComputeTimeout) and not last:
                 self._sleep(self._pause(attempt, error.headers.get("retry-after")))
                 continue
             raise error

@@ -33,10 +33,14 @@ Hierarchy::
         ├── TooManyRequests           429
         └── ServerError               5xx  (a 500 is a bug in the service: please report it)
             └── ServiceUnavailable    503  overloaded or starting; retried by the client
+                └── ComputeTimeout    503  this request needs more than the service's compute
+                                           limit (problem code "timeout"); never retried:
+                                           send less per request instead
 
 Retries: the client retries a call (``retries`` times, exponential backoff,
 ``Retry-After`` honoured up to the backoff cap) only when repeating it cannot
-do harm: on :class:`ServiceUnavailable` and :class:`ConnectError` for every
+do harm and may help: on :class:`ServiceUnavailable` (but not
+:class:`ComputeTimeout`) and :class:`ConnectError` for every
 endpoint (they are all pure computations — nothing is stored server side),
 and on :class:`RequestTimeout` only for GET requests. A streamed NDJSON batch
 is never retried, because its input iterator has already been consumed.
@@ -168,6 +172,10 @@ class ServiceUnavailable(ServerError):
     """503: the service is overloaded or not ready; retried automatically."""
 
 
+class ComputeTimeout(ServiceUnavailable):
+    """503 with problem code ``timeout``: the request is too heavy for the compute limit."""
+
+
 _BY_STATUS: dict[int, type[ApiError]] = {
     400: BadRequest,
     401: Unauthorized,
@@ -184,5 +192,7 @@ _BY_STATUS: dict[int, type[ApiError]] = {
 def api_error_for(status: int, problem: Problem,
                   headers: Mapping[str, str] | None = None) -> ApiError:
     """The most specific :class:`ApiError` subclass for ``status``."""
+    if status == 503 and problem.extra.get("code") == "timeout":
+        return ComputeTimeout(problem, headers=headers)
     cls = _BY_STATUS.get(status) or (ServerError if status >= 500 else ApiError)
     return cls(problem, headers=headers)

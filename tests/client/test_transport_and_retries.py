@@ -15,6 +15,7 @@ import time
 import pytest
 from curvewise_client import (
     Client,
+    ComputeTimeout,
     ConnectError,
     CurvewiseError,
     NotFound,
@@ -164,3 +165,14 @@ def _stream(client: Client, series):
     response = client._request("POST", "/echo-lines", lines, content_type=NDJSON,
                                accept=NDJSON, retry=False)
     return _stream_items(response)
+
+
+def test_a_compute_timeout_503_is_not_retried(stub):
+    body = json.dumps({"type": "/problems/timeout", "code": "timeout", "status": 503,
+                       "title": "Computation timed out", "detail": "send less"}).encode()
+    stub.script(Reply(503, body, PROBLEM_HEADERS), Reply(200, FIT_OK))
+    client, pauses = _client(stub.url, retries=3)
+    with pytest.raises(ComputeTimeout) as info:
+        client.fit([1, 2, 3], [1, 2, 3])
+    assert isinstance(info.value, ServiceUnavailable)
+    assert len(stub.seen) == 1 and pauses == [] and info.value.problem.detail == "send less"
