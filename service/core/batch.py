@@ -16,10 +16,10 @@ number of series. Each block is fitted by the vectorized engine (:mod:`service.c
 :mod:`service.core.batch_diagnostics`).
 
 A series the engine should not take — missing or non-finite values, weights
-<= 0, a transform domain error, too few distinct x for the candidates, or
-``detail="full"`` — goes through :func:`service.core.fit_series` itself, so
-it gets exactly the single-series answer or typed error. One bad series
-never fails the others.
+<= 0, a transform domain error, too few distinct x for the candidates, an
+ill-conditioned design (condition number over 1e6), or ``detail="full"`` —
+goes through :func:`service.core.fit_series` itself, so it gets exactly the
+single-series answer or typed error. One bad series never fails the others.
 """
 
 from __future__ import annotations
@@ -33,6 +33,7 @@ from service.core import batch_block, batch_diagnostics, batch_engine, transform
 from service.core import batch_layout as layout
 from service.core.batch_results import BatchResult, empty_columns, fill_from_report
 from service.core.errors import FitError
+from service.core.flags import COND_CAUTION
 from service.core.inputs import check_spec
 from service.core.polynomial import fit_series
 from service.core.spec import FitOptions, ModelSpec
@@ -212,7 +213,7 @@ def _fit_block(x, y, w, offsets, lengths, rows, model, bspec):
     z = transforms._FORWARD[model.transform_y](layout.gather(y, offsets, rows, lens, width, 1.0))
     if padded:
         u, z = u * valid, z * valid
-    distinct = layout.distinct(u, valid, lens)
+    distinct, increasing = layout.distinct(u, valid, lens)
     cap = distinct - bspec.c
     take = cap >= bspec.max_degree
     if not take.all():  # the core lowers max_degree (or refuses) for these: its path
@@ -229,7 +230,8 @@ def _fit_block(x, y, w, offsets, lengths, rows, model, bspec):
     else:
         wb = None if valid is None else valid.astype(float)
     fit = batch_block.fit_block(u, z, wb, valid if valid is not None else
-                                np.ones(u.shape, dtype=bool), bspec)
+                                np.ones(u.shape, dtype=bool), bspec,
+                                increasing=increasing)
     finite = np.isfinite(fit["coef"][:, 0]) & np.isfinite(fit["rss"])
     if w is None and bspec.intercept:
         bp_basis = fit["q"]
@@ -245,9 +247,12 @@ def _fit_block(x, y, w, offsets, lengths, rows, model, bspec):
     fit.pop("sqrt_w")
     fit.update(diag)
     fit["rows"] = rows
-    if not finite.all():
-        fit["bad"] = ~finite
-        rejected = np.concatenate([rejected, rows[~finite]])
+    # Ill-conditioned designs go to the single-series path: its extended-precision QR
+    # keeps the digits that float64 loses there (and it flags them the same way).
+    good = finite & (diag["condition_number"] <= COND_CAUTION)
+    if not good.all():
+        fit["bad"] = ~good
+        rejected = np.concatenate([rejected, rows[~good]])
     return fit, rejected
 
 

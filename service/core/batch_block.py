@@ -11,6 +11,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
+from scipy import special
 
 from service.core import batch_engine as eng
 
@@ -38,7 +39,7 @@ class BlockSpec:
         return degree + self.c
 
 
-def fit_block(u, z, w, valid, spec: BlockSpec) -> dict:
+def fit_block(u, z, w, valid, spec: BlockSpec, increasing: bool = False) -> dict:
     """Fit every candidate degree for each row and select one.
 
     Parameters
@@ -50,6 +51,8 @@ def fit_block(u, z, w, valid, spec: BlockSpec) -> dict:
     valid : ndarray of bool (G, L)
         True for real points.
     spec : BlockSpec
+    increasing : bool
+        Every row's x is strictly increasing (the range is then read off the ends).
 
     Returns
     -------
@@ -61,7 +64,8 @@ def fit_block(u, z, w, valid, spec: BlockSpec) -> dict:
     """
     G = u.shape[0]
     n = valid.sum(axis=1).astype(float)
-    t, shift, scale = eng.scale_x(u, None if w is None else valid, spec.intercept)
+    t, shift, scale = eng.scale_x(u, None if w is None else valid, spec.intercept,
+                                  n if increasing else None)
     s = None if w is None else np.sqrt(w)
     big_p = spec.p(spec.max_degree)
     q, coef = eng.orthonormal_basis(t, s, big_p, spec.intercept)
@@ -89,10 +93,11 @@ def fit_block(u, z, w, valid, spec: BlockSpec) -> dict:
     ss_model = head[:, k - 1] - (head[:, [0]] if spec.intercept else 0.0)
     exact = (rss == 0.0) & (ss_model > 0)
     cand = eng.criteria(rss, ss_model, n[:, None], k[None, :].astype(float), spec.c, sum_log_w)
-    f, pf = eng.f_last(b[:, k - 1], rss, cand["df_residual"], exact,
-                       with_p=spec.select == "sequential_f")
+    f, pf = eng.f_last(b[:, k - 1], rss, cand["df_residual"], exact, with_p=False)
     if spec.intercept and degrees[0] == 0:
-        f[:, 0] = pf[:, 0] = np.nan
+        f[:, 0] = np.nan
+    if spec.select == "sequential_f":
+        pf = _climb_p_values(f, cand["df_residual"], spec.alpha)
     cand.update(f_last=f, p_last=pf, exact=exact,
                 press=_press(q, b, res, k, valid, exact) if spec.need_press
                 else np.full(rss.shape, np.nan))
@@ -106,7 +111,10 @@ def fit_block(u, z, w, valid, spec: BlockSpec) -> dict:
     out.update(_coefficients(coef, b, p_row, out["sigma"], shift, scale, spec))
     keep = np.arange(big_p)[None, :] >= p_row[:, None]  # effects the chosen model leaves out
     resid = res + np.einsum("gk,kgn->gn", b * keep, q) if keep.any() else res
-    lev = np.einsum("gk,kgn->gn", (~keep).astype(float), q * q)
+    low, high = int(p_row.min()), int(p_row.max())
+    lev = np.einsum("kgn,kgn->gn", q[:low], q[:low])
+    for j in range(low, high):
+        lev += (p_row > j)[:, None] * (q[j] * q[j])
     out.update(degree=chosen, n=n, x_shift=shift, x_scale=scale, resid_w=resid, leverage=lev,
                q=q, t=t, sqrt_w=s, coef_t=coef, p=p_row)
     return out
@@ -129,6 +137,28 @@ def _press(q, b, res, k, valid, exact):
             ok = np.where(valid, lev < LEVERAGE_ONE, True).all(axis=1)
             out[:, i] = np.where(ok, eng._dot(loo, loo), np.nan)
     return np.where(exact, 0.0, out)
+
+
+def _climb_p_values(f, df, alpha):
+    """p-values of the last power for the candidates the sequential F climb examines.
+
+    Significance is decided against the critical value ``F(1, df; 1 - alpha)``
+    (one per distinct df; exact p-values settle values within 1e-9 of it);
+    p-values, the costly part, are then computed only where the climb looked:
+    up to and including the first non-significant candidate. Others are NaN.
+    """
+    uniq, inverse = np.unique(df, return_inverse=True)
+    crit = special.fdtri(1, np.maximum(uniq, 1), 1 - alpha)[inverse].reshape(df.shape)
+    with np.errstate(invalid="ignore"):
+        sig = f > crit
+        near = np.abs(f - crit) <= 1e-9 * crit
+    if near.any():
+        sig[near] = special.fdtrc(1, df[near], f[near]) < alpha
+    climb = np.cumprod(sig[:, 1:], axis=1).sum(axis=1)
+    look = (np.arange(f.shape[1])[None, :] <= climb[:, None] + 1) & np.isfinite(f)
+    p = np.full(f.shape, np.nan)
+    p[look] = special.fdtrc(1, df[look], f[look])
+    return p
 
 
 def choose(cand: dict, spec: BlockSpec) -> np.ndarray:

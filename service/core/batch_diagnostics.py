@@ -37,30 +37,24 @@ def _per_unique(func, *keys):
     return np.asarray(values, dtype=float)[inverse.ravel()]
 
 
-def condition_numbers(coef_t: np.ndarray, p: np.ndarray) -> np.ndarray:
-    """2-norm condition number of each row's leading ``p x p`` R factor.
+def condition_numbers(coef_t: np.ndarray, p: np.ndarray, sum_w: np.ndarray) -> np.ndarray:
+    """2-norm condition number of each row's leading ``p x p`` R factor, where it matters.
 
-    ``coef_t`` holds ``R^-1`` (upper triangular). The cheap bound
-    ``||R||_F ||R^-1||_F >= cond_2`` screens rows: rows whose bound exceeds
-    :data:`service.core.flags.COND_CAUTION` get the exact value from an SVD;
-    the others return the bound, which is then known to be below the threshold.
+    ``coef_t`` holds ``R^-1`` (upper triangular) of the weighted design on
+    powers of ``t`` in [-1, 1], so ``||R||_F^2 = sum_k sum_i w_i t_i^(2k) <= p sum(w)``
+    and ``cond_2 <= ||R||_F ||R^-1||_F <= sqrt(p sum w) ||R^-1||_F``. Rows whose
+    bound exceeds :data:`service.core.flags.COND_CAUTION` get the exact value
+    from an SVD; the others return the bound, then known to be below the threshold.
     """
     G, P, _ = coef_t.shape
     keep = np.arange(P)[None, :] < p[:, None]
     cm = coef_t * (keep[:, :, None] & keep[:, None, :])
-    r = np.zeros_like(cm)                       # invert the upper-triangular blocks
-    for i in range(P - 1, -1, -1):
-        d = np.where(keep[:, i], cm[:, i, i], 1.0)
-        r[:, i, i] = np.where(keep[:, i], 1.0 / d, 0.0)
-        if i + 1 < P:
-            acc = (cm[:, i, i + 1:, None] * r[:, i + 1:, i + 1:]).sum(axis=1)
-            r[:, i, i + 1:] = -acc / d[:, None]
-    bound = np.sqrt((r * r).sum(axis=(1, 2)) * (cm * cm).sum(axis=(1, 2)))
+    bound = np.sqrt(p * sum_w * np.einsum("gij,gij->g", cm, cm))
     out = bound.copy()
-    check = np.flatnonzero(~(bound <= single.COND_CAUTION))
-    for g in check:
+    for g in np.flatnonzero(~(bound <= single.COND_CAUTION)):
         k = int(p[g])
-        s = np.linalg.svd(r[g, :k, :k], compute_uv=False)
+        with np.errstate(all="ignore"):
+            s = np.linalg.svd(np.linalg.inv(coef_t[g, :k, :k]), compute_uv=False)
         out[g] = s[0] / s[-1] if s[-1] > 0 else np.inf
     return out
 
@@ -122,7 +116,8 @@ def diagnose_block(fit: dict, valid: np.ndarray | None, u: np.ndarray, z: np.nda
         lof = lack_of_fit(u[g, :k], zw_row, sw_row, float(rss[g]), int(p[g]))
         if lof is not None:
             lof_f[g], lof_p[g] = lof.f, lof.p_value
-    cond = condition_numbers(fit["coef_t"], fit["p"])
+    sum_w = n if w is None else (w if valid is None else w * valid).sum(axis=1)
+    cond = condition_numbers(fit["coef_t"], fit["p"], sum_w)
 
     mask = np.zeros(n.shape, dtype=np.int64)
     mask |= np.where(exact, BIT["exact_fit"], 0)
@@ -135,7 +130,7 @@ def diagnose_block(fit: dict, valid: np.ndarray | None, u: np.ndarray, z: np.nda
     mask |= np.where(bp_p < single.TEST_ALPHA, BIT["non_constant_variance"], 0)
     mask |= np.where(~np.isnan(dw) & ~((dw >= single.DW_LOW) & (dw <= single.DW_HIGH)),
                      BIT["serial_correlation"], 0)
-    n_out, n_inf, n_high = outlier.sum(axis=1), influential.sum(axis=1), high.sum(axis=1)
+    n_out, n_inf, n_high = (np.count_nonzero(m, axis=1) for m in (outlier, influential, high))
     mask |= np.where(n_out > 0, BIT["outliers"], 0)
     mask |= np.where(n_inf > 0, BIT["influential_points"], 0)
     mask |= np.where(n_high > 0, BIT["high_leverage"], 0)

@@ -33,15 +33,20 @@ def _dot(a: np.ndarray, b: np.ndarray) -> np.ndarray:
     return np.einsum("gn,gn->g", a, b)
 
 
-def scale_x(u: np.ndarray, valid: np.ndarray | None, intercept: bool) -> tuple[np.ndarray, ...]:
+def scale_x(u: np.ndarray, valid: np.ndarray | None, intercept: bool,
+            n: np.ndarray | None = None) -> tuple[np.ndarray, ...]:
     """Per-row shift and scale mapping the valid x of each row onto [-1, 1].
 
     Same float operations as :func:`service.core.design.scaling`: with an
     intercept the range maps onto [-1, 1]; without one the shift is 0 and the
     scale is ``max |u|`` (a shift would add a constant term). ``valid`` None
-    means every entry is real. Returns ``(t, shift, scale)``; ``t`` is 0 where padded.
+    means every entry is real. ``n`` (points per row) says the rows are in
+    increasing order, so the range is read off the ends. Returns
+    ``(t, shift, scale)``; ``t`` is 0 where padded.
     """
-    if valid is None:
+    if n is not None:
+        small, big = u[:, 0], u[np.arange(u.shape[0]), n.astype(np.int64) - 1]
+    elif valid is None:
         big, small = u.max(axis=1), u.min(axis=1)
     else:
         big = np.where(valid, u, -np.inf).max(axis=1)

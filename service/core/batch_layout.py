@@ -66,7 +66,7 @@ def gather(values, offsets, rows, lens, width, fill=0.0):
 
 
 def distinct(u, valid, lens):
-    """Number of distinct x per row (rows already strictly increasing skip the sort)."""
+    """Distinct x per row, and whether every row is strictly increasing (no sort needed)."""
     steps = np.diff(u, axis=1) > 0
     if valid is not None:
         steps &= valid[:, 1:]
@@ -78,7 +78,7 @@ def distinct(u, valid, lens):
         if valid is not None:
             steps &= valid[unsorted, 1:]
         distinct[unsorted] = 1 + steps.sum(axis=1)
-    return distinct
+    return distinct, unsorted.size == 0
 
 
 def scatter(out: dict, res: dict | None, bspec) -> None:

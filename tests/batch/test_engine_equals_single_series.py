@@ -42,7 +42,11 @@ def _compare(result, series, model, *, press: bool, p_last: bool):
         measures += ["press"] * press + ["p_last", "f_last"] * p_last
         for j, cand in enumerate(sel.candidates):
             for m in measures:
-                worst = max(worst, rel(result.candidates[m][g, j], getattr(cand, m)))
+                got = result.candidates[m][g, j]
+                if m == "p_last" and np.isnan(got) and j > cols["degree"][g] - sel.candidates[
+                        0].degree + 1:
+                    continue  # beyond the first non-significant power: not examined
+                worst = max(worst, rel(got, getattr(cand, m)))
         tests = {t.name: t for t in ref.diagnostics.tests}
         worst = max(worst, rel(cols["shapiro_wilk_p"][g], tests["shapiro_wilk"].p_value),
                     rel(cols["breusch_pagan_p"][g], tests["breusch_pagan"].p_value),
@@ -113,3 +117,16 @@ def test_replicated_x_gets_the_lack_of_fit_test_of_fit_series():
         lof = ref.diagnostics.lack_of_fit
         assert rel(result.columns["lack_of_fit_p"][g], lof.p_value) < TOL
         assert result.flag_codes(g) == tuple(f.code for f in ref.flags)
+
+
+def test_ill_conditioned_designs_get_the_single_series_answer_and_flag():
+    rng = np.random.default_rng(0)
+    series = []
+    for spread in (1e-1, 1e-2, 1e-3, 3e-4):   # 40 points crowded near 0, one at 1
+        x = np.r_[rng.uniform(0.0, spread, 40), 1.0]
+        series.append((x, 1.0 + x + rng.normal(0.0, 0.01, x.size), None))
+    model = ModelSpec(degree=4)
+    result = fit_batch([(x, y) for x, y, _ in series], model=model)
+    assert _compare(result, series, model, press=False, p_last=False) < TOL
+    flagged = [g for g in range(4) if "ill_conditioned_design" in result.flag_codes(g)]
+    assert flagged == [1, 2, 3]

@@ -1,0 +1,227 @@
+"""Batch fitting at pipeline scale: ratios measured side by side in one run.
+
+Workload (issue 4): n = 50 points per series, degree selected over 1..4 by
+sequential F (the default method) with the compact summary (coefficients and
+standard errors, sigma, R², criterion values, residual tests and trust flags).
+x is sorted within each series, as in time- or dose-ordered pipeline data.
+
+Printed:
+  * engine rate at G = 100,000 (1 and 2 threads), series/s;
+  * statsmodels loop doing the same selection (OLS per candidate, sequential F
+    from the last coefficient's t test) — timed on a subset and extrapolated
+    per series, as said in its line; likewise a numpy.polyfit loop;
+  * ragged lengths 20..80 vs regular 50 at G = 100,000;
+  * per-series time at G = 100,000 vs G = 10,000;
+  * peak traced memory (tracemalloc) of the streaming path at G = 10,000 and
+    100,000, and of the in-memory path per series;
+  * /v1/batch with 10,000 series through gunicorn on 127.0.0.1 vs the
+    in-process engine rate (JSON decoding, validation and encoding included).
+
+CPU time is printed beside wall time: the machine may be shared, and CPU time
+is the steadier of the two. Usage: python benchmarks/bench_batch.py [--quick]
+"""
+
+from __future__ import annotations
+
+import os
+import socket
+import subprocess
+import sys
+import time
+import tracemalloc
+from pathlib import Path
+
+import numpy as np
+from scipy import special
+
+ROOT = Path(__file__).resolve().parent.parent
+sys.path.insert(0, str(ROOT))
+
+from service.core import ModelSpec  # noqa: E402
+from service.core.batch import fit_chunks, fit_many  # noqa: E402
+
+MODEL = ModelSpec(max_degree=4, select="sequential_f")
+ALPHA = MODEL.alpha
+QUICK = "--quick" in sys.argv
+
+
+def data(G: int, n: int | None = 50, seed: int = 1, lo: int = 20, hi: int = 80):
+    """Seeded flat arrays: quadratic trend plus noise, x sorted within each series."""
+    rng = np.random.default_rng(seed)
+    lengths = np.full(G, n) if n else rng.integers(lo, hi + 1, G)
+    starts = np.repeat(np.arange(G) * 10.0, lengths)  # distinct offset per series
+    x = rng.uniform(0.0, 10.0, int(lengths.sum()))
+    order = np.lexsort((x, np.repeat(np.arange(G), lengths)))
+    x = x[order]
+    y = 1.0 + 2.0 * x - 0.1 * x * x + rng.normal(0.0, 1.0, x.size) + 0 * starts
+    return x, y, lengths
+
+
+def timed(func, repeat=1):
+    best_wall, best_cpu, out = np.inf, np.inf, None
+    for _ in range(repeat):
+        w0, c0 = time.perf_counter(), time.process_time()
+        out = func()
+        best_wall = min(best_wall, time.perf_counter() - w0)
+        best_cpu = min(best_cpu, time.process_time() - c0)
+    return best_wall, best_cpu, out
+
+
+def engine_rate(G, n=50, workers=1, repeat=2):
+    x, y, lengths = data(G, n)
+    wall, cpu, res = timed(lambda: fit_many(x, y, lengths, model=MODEL, workers=workers), repeat)
+    assert res.n_ok == G
+    return G / wall, G / cpu
+
+
+def statsmodels_loop(count: int) -> float:
+    import statsmodels.api as sm
+
+    x, y, lengths = data(count)
+    xs, ys = x.reshape(count, -1), y.reshape(count, -1)
+    t0 = time.perf_counter()
+    for g in range(count):
+        chosen = 1
+        for d in range(1, 5):
+            res = sm.OLS(ys[g], np.vander(xs[g], d + 1, increasing=True)).fit()
+            if d > 1:
+                if not res.pvalues[-1] < ALPHA:  # sequential F (1 df) = t test of the last
+                    break
+                chosen = d
+        _ = chosen, res.bse, res.rsquared
+    return count / (time.perf_counter() - t0)
+
+
+def polyfit_loop(count: int) -> float:
+    x, y, lengths = data(count)
+    xs, ys = x.reshape(count, -1), y.reshape(count, -1)
+    n = xs.shape[1]
+    t0 = time.perf_counter()
+    for g in range(count):
+        rss = {}
+        chosen = 1
+        for d in range(1, 5):
+            coef, resid, *_ = np.polyfit(xs[g], ys[g], d, full=True)
+            rss[d] = float(resid[0])
+            if d > 1:
+                f = (rss[d - 1] - rss[d]) / (rss[d] / (n - d - 1))
+                if not special.fdtrc(1, n - d - 1, f) < ALPHA:
+                    break
+                chosen = d
+        _ = chosen, coef
+    return count / (time.perf_counter() - t0)
+
+
+def streaming_peak(G: int) -> int:
+    rng = np.random.default_rng(3)
+
+    def series():
+        for _ in range(G):
+            x = np.sort(rng.uniform(0.0, 10.0, 50))
+            yield x, 1.0 + x + rng.normal(0.0, 1.0, 50)
+
+    tracemalloc.start()
+    count = 0
+    for _, res in fit_chunks(series(), chunk_series=4096, model=MODEL):
+        count += len(res)
+    peak = tracemalloc.get_traced_memory()[1]
+    tracemalloc.stop()
+    assert count == G
+    return peak
+
+
+def in_memory_peak_per_series(G: int) -> float:
+    x, y, lengths = data(G)
+    tracemalloc.start()
+    fit_many(x, y, lengths, model=MODEL)
+    peak = tracemalloc.get_traced_memory()[1]
+    tracemalloc.stop()
+    return peak / G
+
+
+def _free_port() -> int:
+    with socket.socket() as s:
+        s.bind(("127.0.0.1", 0))
+        return s.getsockname()[1]
+
+
+def http_rate(G: int) -> tuple[float, float]:
+    import httpx
+    import orjson
+
+    x, y, lengths = data(G, seed=5)
+    xs, ys = x.reshape(G, -1), y.reshape(G, -1)
+    body = orjson.dumps({"series": [{"id": i, "x": xs[i].tolist(), "y": ys[i].tolist()}
+                                    for i in range(G)],
+                         "model": {"max_degree": 4, "select": "sequential_f"}})
+    port = _free_port()
+    env = dict(os.environ, CURVEWISE_LOG_LEVEL="warning")
+    server = subprocess.Popen([str(ROOT / ".venv/bin/curvewise"), "serve", "--host",
+                               "127.0.0.1", "--port", str(port), "--workers", "1"],
+                              env=env, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
+    try:
+        url = f"http://127.0.0.1:{port}"
+        deadline = time.time() + 30
+        while time.time() < deadline:
+            try:
+                if httpx.get(url + "/healthz", timeout=1).status_code == 200:
+                    break
+            except httpx.HTTPError:
+                time.sleep(0.2)
+        with httpx.Client(timeout=120) as client:
+            best = np.inf
+            for _ in range(3):
+                t0 = time.perf_counter()
+                answer = client.post(url + "/v1/batch", content=body,
+                                     headers={"Content-Type": "application/json"})
+                best = min(best, time.perf_counter() - t0)
+                assert answer.status_code == 200, answer.text[:300]
+                assert orjson.loads(answer.content)["summary"]["ok"] == G
+        return G / best, len(body) / 1e6
+    finally:
+        server.terminate()
+        server.wait(timeout=30)
+
+
+def main() -> None:
+    big = 20_000 if QUICK else 100_000
+    print(f"batch benchmark: n = 50, select 1..4 by sequential_f, summary detail, "
+          f"{os.cpu_count()} CPUs")
+    r1, c1 = engine_rate(big, workers=1)
+    r2, c2 = engine_rate(big, workers=2)
+    rate = max(r1, r2)
+    print(f"engine G={big}: {r1:,.0f} series/s (1 thread; {c1:,.0f}/CPU-s), "
+          f"{r2:,.0f} series/s (2 threads)   target >= 500,000: {rate / 5e5:.2f}x of target")
+    sm_rate = statsmodels_loop(150 if QUICK else 400)
+    print(f"statsmodels loop (timed on {150 if QUICK else 400} series, extrapolated per "
+          f"series): {sm_rate:,.0f} series/s -> engine/statsmodels = {rate / sm_rate:,.0f}x "
+          "(target >= 200x)")
+    pf_rate = polyfit_loop(1000 if QUICK else 4000)
+    print(f"numpy.polyfit loop (timed on {1000 if QUICK else 4000} series, extrapolated): "
+          f"{pf_rate:,.0f} series/s -> engine/polyfit = {rate / pf_rate:,.1f}x (target >= 40x)")
+    x, y, lengths = data(big, None)
+    wall, cpu, _ = timed(lambda: fit_many(x, y, lengths, model=MODEL, workers=1), 2)
+    ragged = big / wall
+    print(f"ragged 20..80 (mean 50): {ragged:,.0f} series/s vs regular {r1:,.0f} "
+          f"(1 thread) -> regular/ragged time ratio = {r1 / ragged:.2f} (target <= 1.3; "
+          f"CPU-time ratio {c1 / (big / cpu):.2f})")
+    small, _ = engine_rate(big // 10, workers=1, repeat=3)
+    print(f"per-series time G={big} vs G={big // 10}: {(1 / r1) / (1 / small):.2f} "
+          "(target <= 1.0, i.e. no slower per series)")
+    p_small, p_big = streaming_peak(big // 10), streaming_peak(big)
+    print(f"streaming (fit_chunks, 4096 per chunk) peak traced memory: G={big // 10}: "
+          f"{p_small / 1e6:.1f} MB, G={big}: {p_big / 1e6:.1f} MB -> ratio "
+          f"{p_big / p_small:.2f} (flat: ~1)")
+    m_small, m_big = in_memory_peak_per_series(big // 10), in_memory_peak_per_series(big)
+    print(f"in-memory fit_many peak per series: {m_small:,.0f} B at G={big // 10}, "
+          f"{m_big:,.0f} B at G={big} (the columnar result itself is O(G))")
+    g_http = 2_000 if QUICK else 10_000
+    engine_small, _ = engine_rate(g_http, workers=1, repeat=3)
+    h_rate, mb = http_rate(g_http)
+    print(f"HTTP /v1/batch, {g_http} series ({mb:.1f} MB JSON), 1 gunicorn worker on "
+          f"127.0.0.1: {h_rate:,.0f} series/s vs in-process {engine_small:,.0f} -> "
+          f"{h_rate / engine_small:.2f}x (target >= 0.5x)")
+
+
+if __name__ == "__main__":
+    main()
