@@ -125,3 +125,7 @@ def test_families_lists_the_polynomial_family_and_limits(api):
     families = api.families()
     assert [f["name"] for f in families["families"]] == ["polynomial"]
     assert families["limits"]["max_degree"] >= 2
+
+
+def test_health_answers(api):
+    assert api.health()["status"] == "ok"
