@@ -99,7 +99,19 @@ def orthonormal_basis(t: np.ndarray, s: np.ndarray | None, p: int, intercept: bo
     ck[0, :, 0] = 1.0 / norm
     full = p - (0 if intercept else 1) >= FULL_REORTH_DEGREE
     beta = None
-    for k in range(p - 1):
+    first = 0
+    if intercept and s is None and p > 1:
+        # q_0 is constant 1/sqrt(L): q_1 is the centred t, normalized (3 passes, not 7)
+        alpha = t.mean(axis=1)
+        v = q[1]
+        np.subtract(t, alpha[:, None], out=v)
+        norm = np.sqrt(_dot(v, v))
+        v *= (1.0 / norm)[:, None]
+        ck[1, :, 1] = 1.0 / norm
+        ck[1, :, 0] = -alpha / norm
+        beta = norm / np.sqrt(L)   # = q_1' t q_0, the recurrence's next beta
+        first = 1
+    for k in range(first, p - 1):
         # Stieltjes: t q_k = beta_{k+1} q_{k+1} + alpha_k q_k + beta_k q_{k-1}
         v = q[k + 1]
         np.multiply(t, q[k], out=v)

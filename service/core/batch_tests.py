@@ -122,11 +122,8 @@ def shapiro_wilk(e: np.ndarray, n: np.ndarray, padded: bool) -> tuple[np.ndarray
                 table[i, :k] = shapiro_weights(int(k))
         coef = table[np.searchsorted(lengths, ni)]
         num = np.einsum("gn,gn->g", srt, coef)
-    mean = e.sum(axis=1) / n
-    dev = e - mean[:, None]
-    if padded:
-        dev *= _mask(ni, L)
-    ss = np.einsum("gn,gn->g", dev, dev)
+    mean = e.sum(axis=1) / n            # padded entries are 0
+    ss = np.einsum("gn,gn->g", e, e) - n * mean * mean   # sum of squared deviations
     with np.errstate(all="ignore"):
         w = np.minimum(num * num / ss, 1.0)
     ok = (n >= 3) & (n <= SHAPIRO_MAX_N)
@@ -134,12 +131,16 @@ def shapiro_wilk(e: np.ndarray, n: np.ndarray, padded: bool) -> tuple[np.ndarray
 
 
 def durbin_watson(e: np.ndarray, n: np.ndarray, padded: bool) -> np.ndarray:
-    """Durbin-Watson statistic per row, in the given order."""
-    d = np.diff(e, axis=1)
-    if padded:
-        d *= _mask(n.astype(int) - 1, e.shape[1] - 1)
+    """Durbin-Watson statistic per row, in the given order (padded entries are 0).
+
+    ``sum (e_i - e_{i-1})^2 = 2 sum e_i^2 - e_first^2 - e_last^2 - 2 sum e_i e_{i-1}``:
+    no difference array is formed.
+    """
+    ss = np.einsum("gn,gn->g", e, e)
+    lag = np.einsum("gn,gn->g", e[:, 1:], e[:, :-1])
+    last = e[np.arange(e.shape[0]), n.astype(np.int64) - 1] if padded else e[:, -1]
     with np.errstate(all="ignore"):
-        return np.einsum("gn,gn->g", d, d) / np.einsum("gn,gn->g", e, e)
+        return (2 * ss - e[:, 0] ** 2 - last ** 2 - 2 * lag) / ss
 
 
 def breusch_pagan(e: np.ndarray, n: np.ndarray, q: np.ndarray, degree: np.ndarray,
