@@ -79,7 +79,7 @@ def statsmodels_loop(count: int) -> float:
 
     x, y, lengths = data(count)
     xs, ys = x.reshape(count, -1), y.reshape(count, -1)
-    t0 = time.perf_counter()
+    t0, c0 = time.perf_counter(), time.process_time()
     for g in range(count):
         chosen = 1
         for d in range(1, 5):
@@ -89,14 +89,14 @@ def statsmodels_loop(count: int) -> float:
                     break
                 chosen = d
         _ = chosen, res.bse, res.rsquared
-    return count / (time.perf_counter() - t0)
+    return count / (time.perf_counter() - t0), count / (time.process_time() - c0)
 
 
 def polyfit_loop(count: int) -> float:
     x, y, lengths = data(count)
     xs, ys = x.reshape(count, -1), y.reshape(count, -1)
     n = xs.shape[1]
-    t0 = time.perf_counter()
+    t0, c0 = time.perf_counter(), time.process_time()
     for g in range(count):
         rss = {}
         chosen = 1
@@ -109,7 +109,7 @@ def polyfit_loop(count: int) -> float:
                     break
                 chosen = d
         _ = chosen, coef
-    return count / (time.perf_counter() - t0)
+    return count / (time.perf_counter() - t0), count / (time.process_time() - c0)
 
 
 def streaming_peak(G: int) -> int:
@@ -192,22 +192,24 @@ def main() -> None:
     rate = max(r1, r2)
     print(f"engine G={big}: {r1:,.0f} series/s (1 thread; {c1:,.0f}/CPU-s), "
           f"{r2:,.0f} series/s (2 threads)   target >= 500,000: {rate / 5e5:.2f}x of target")
-    sm_rate = statsmodels_loop(150 if QUICK else 400)
-    print(f"statsmodels loop (timed on {150 if QUICK else 400} series, extrapolated per "
-          f"series): {sm_rate:,.0f} series/s -> engine/statsmodels = {rate / sm_rate:,.0f}x "
-          "(target >= 200x)")
-    pf_rate = polyfit_loop(1000 if QUICK else 4000)
-    print(f"numpy.polyfit loop (timed on {1000 if QUICK else 4000} series, extrapolated): "
-          f"{pf_rate:,.0f} series/s -> engine/polyfit = {rate / pf_rate:,.1f}x (target >= 40x)")
+    n_sm, n_pf = (150, 1000) if QUICK else (400, 4000)
+    sm_rate, sm_cpu = statsmodels_loop(n_sm)
+    print(f"statsmodels loop (timed on {n_sm} series, extrapolated per series): "
+          f"{sm_rate:,.0f} series/s ({sm_cpu:,.0f}/CPU-s) -> engine/statsmodels = "
+          f"{rate / sm_rate:,.0f}x wall, {c1 / sm_cpu:,.0f}x CPU, 1 thread (target >= 200x)")
+    pf_rate, pf_cpu = polyfit_loop(n_pf)
+    print(f"numpy.polyfit loop (timed on {n_pf} series, extrapolated): {pf_rate:,.0f} "
+          f"series/s ({pf_cpu:,.0f}/CPU-s) -> engine/polyfit = {rate / pf_rate:,.1f}x wall, "
+          f"{c1 / pf_cpu:,.1f}x CPU, 1 thread (target >= 40x)")
     x, y, lengths = data(big, None)
     wall, cpu, _ = timed(lambda: fit_many(x, y, lengths, model=MODEL, workers=1), 2)
-    ragged = big / wall
-    print(f"ragged 20..80 (mean 50): {ragged:,.0f} series/s vs regular {r1:,.0f} "
-          f"(1 thread) -> regular/ragged time ratio = {r1 / ragged:.2f} (target <= 1.3; "
-          f"CPU-time ratio {c1 / (big / cpu):.2f})")
-    small, _ = engine_rate(big // 10, workers=1, repeat=3)
-    print(f"per-series time G={big} vs G={big // 10}: {(1 / r1) / (1 / small):.2f} "
-          "(target <= 1.0, i.e. no slower per series)")
+    ragged, ragged_cpu = big / wall, big / cpu
+    print(f"ragged 20..80 (mean 50): {ragged:,.0f} series/s vs regular {r1:,.0f} (1 thread) "
+          f"-> ragged/regular time = {r1 / ragged:.2f} wall, {c1 / ragged_cpu:.2f} CPU "
+          "(target <= 1.3)")
+    small, small_cpu = engine_rate(big // 10, workers=1, repeat=3)
+    print(f"per-series time G={big} vs G={big // 10}: {small / r1:.2f} wall, "
+          f"{small_cpu / c1:.2f} CPU (target <= 1.0, i.e. no slower per series)")
     p_small, p_big = streaming_peak(big // 10), streaming_peak(big)
     print(f"streaming (fit_chunks, 4096 per chunk) peak traced memory: G={big // 10}: "
           f"{p_small / 1e6:.1f} MB, G={big}: {p_big / 1e6:.1f} MB -> ratio "

@@ -157,7 +157,9 @@ def batch():
     """Fit many independent series; a bad series gets an error result, the rest are fitted."""
     settings = current_app.config["CURVEWISE"]
     if request.mimetype == NDJSON:
-        return Response(stream_with_context(_stream(settings)), mimetype=NDJSON)
+        # X-Accel-Buffering: a buffering proxy (nginx) passes the lines on as they come
+        return Response(stream_with_context(_stream(settings)), mimetype=NDJSON,
+                        headers={"X-Accel-Buffering": "no"})
     envelope = PARSER.parse(BatchRequestSchema(), request, location="json")
     series = envelope["series"]
     if len(series) > settings.max_series:

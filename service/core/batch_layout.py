@@ -36,7 +36,12 @@ def screen(x, y, w, offsets, rows, model, raw):
 
 
 def blocks(rows, lengths):
-    """Cut rows (sorted by length) into blocks of similar length and bounded size."""
+    """Cut rows (sorted by length) into blocks of similar length and bounded size.
+
+    A block holds at most :data:`BLOCK_POINTS` points and pads rows by at most
+    :data:`MAX_PAD_RATIO`; a run of one length long enough to fill a quarter of
+    a block is kept apart, so it needs no padding at all.
+    """
     if rows.size == 0:
         return
     order = rows[np.argsort(lengths[rows], kind="stable")]
@@ -47,6 +52,9 @@ def blocks(rows, lengths):
         cap = max(8, BLOCK_POINTS // max(int(lo), 1))
         limit = np.searchsorted(lens, np.floor(lo * MAX_PAD_RATIO) + 1, side="left")
         stop = int(min(order.size, start + cap, max(limit, start + 1)))
+        run_end = int(np.searchsorted(lens, lo, side="right"))
+        if stop > run_end >= start + cap // 4:
+            stop = run_end   # a long run of one length makes an unpadded block on its own
         width = lens[stop - 1]
         stop = int(min(stop, start + max(8, BLOCK_POINTS // max(int(width), 1))))
         yield order[start:stop]
