@@ -89,12 +89,19 @@ class Client:
     def plot(self, x: Sequence[float], y: Sequence[float], *,
              panels: Sequence[str] | None = None, format: str = "png",
              width: int | None = None, height: int | None = None, dpi: int | None = None,
+             simultaneous: bool | None = None, title: str | None = None,
+             x_label: str | None = None, y_label: str | None = None,
              **fit_options: Any) -> Figure:
-        """Render a figure of a fit (``POST /v1/plot``); ``fit_options`` as for :meth:`fit`."""
+        """Render a figure of a fit (``POST /v1/plot``); ``fit_options`` as for :meth:`fit`.
+
+        Panels: ``fit``, ``residuals``, ``normal_quantiles``, ``scale_location``,
+        ``leverage``, ``selection`` (default ``["fit"]``); sizes in pixels.
+        """
         if format not in IMAGE_TYPES:
             raise ValueError(f"format must be one of {sorted(IMAGE_TYPES)}")
         plot = {"format": format, "panels": list(panels) if panels is not None else None,
-                "width": width, "height": height, "dpi": dpi}
+                "width": width, "height": height, "dpi": dpi, "simultaneous": simultaneous,
+                "title": title, "x_label": x_label, "y_label": y_label}
         body = fit_body(x, y, **fit_options)
         body["plot"] = {k: v for k, v in plot.items() if v is not None}
         response = self._request("POST", "/v1/plot", encode(body), accept=IMAGE_TYPES[format])

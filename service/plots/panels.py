@@ -131,8 +131,9 @@ def draw_selection(ax, data: PlotData, options: PlotOptions) -> None:
     if second is not None:
         more_h, more_l = second.get_legend_handles_labels()
         handles, labels = handles + more_h, labels + more_l
-    ax.legend(handles, labels, loc="best", fontsize=style.FONT_SIZE - 1, framealpha=0.85,
-              edgecolor="#CCCCCC")
+    on_top = second if second is not None else ax  # a twin axis is drawn over the first one
+    on_top.legend(handles, labels, loc="best", fontsize=style.FONT_SIZE - 1, framealpha=0.85,
+                  edgecolor="#CCCCCC")
     ax.set_xticks(degrees)
     method = "fixed by the caller" if selection.method == "fixed" else (
         f"chosen by {selection.method.replace('_', ' ')}")
