@@ -103,8 +103,13 @@ def load_series(obj, position: int):
             if name != "weights":
                 errors[name] = ["Missing required field. Add it; see /docs for its meaning."]
             continue
+        value = obj[name]
         try:
-            arrays[name] = field.deserialize(obj[name], name, obj)
+            if value is None:
+                if name != "weights":
+                    raise ValidationError(["May not be null. Send an array of numbers."])
+                continue
+            arrays[name] = field._deserialize(value, name, obj)  # the bulk check, no wrapper
         except ValidationError as exc:
             errors.update(_prefixed(name, exc.messages))
     model = None
@@ -142,43 +147,55 @@ def summary_rows(result, rows, terms_of) -> list[dict]:
     if rows.size == 0:
         return []
     c = result.columns
-    col = {name: c[name][rows].tolist() for name in (
-        "n", "degree", "min_degree", "df_residual", "sigma", "r_squared", "adj_r_squared",
-        "shapiro_wilk_p", "breusch_pagan_p", "durbin_watson", "lack_of_fit_p")}
-    coef = result.coefficients[rows].tolist()
-    se = result.std_errors[rows].tolist()
-    intercept = result.intercept[rows].tolist()
-    select = result.select[rows].tolist()
-    cand = {m: result.candidates[m][rows].tolist() for m in ("p_last", "f_last", "aic", "aicc",
-                                                             "bic", "press", "adj_r_squared")}
-    out = []
-    for i, row in enumerate(rows.tolist()):
-        degree, icpt, method = col["degree"][i], intercept[i], select[i]
-        k = degree + (1 if icpt else 0)
-        top = col["min_degree"][i]
-        ncand = len(cand["aic"][i])
+    degree = c["degree"][rows]
+    top = c["min_degree"][rows]
+    select = result.select[rows]
+    measure_rows = {}
+    for method in set(select.tolist()):
         measure = _CRITERION.get(method)
-        selection = {"method": method}
-        if measure is not None:
-            values = cand[measure][i]
-            last = next((j for j in range(ncand - 1, -1, -1) if values[j] == values[j]), -1)
-            degrees = list(range(top, top + max(last + 1, degree - top + 1)))
-            selection["degrees"] = degrees
-            selection["criterion"] = measure
-            selection["values"] = values[:len(degrees)]
-            if method == "sequential_f":
-                selection["f"] = cand["f_last"][i][:len(degrees)]
-        body = {"n": col["n"][i], "degree": degree, "terms": list(terms_of(degree, icpt)),
-                "estimate": coef[i][:k], "std_error": se[i][:k], "sigma": col["sigma"][i],
-                "r_squared": col["r_squared"][i], "adj_r_squared": col["adj_r_squared"][i],
-                "df_residual": col["df_residual"][i], "selection": selection,
-                "tests": {"shapiro_wilk_p": col["shapiro_wilk_p"][i],
-                          "breusch_pagan_p": col["breusch_pagan_p"][i],
-                          "durbin_watson": col["durbin_watson"][i],
-                          "lack_of_fit_p": col["lack_of_fit_p"][i]},
-                "flags": list(result.flag_codes(row))}
-        if row in result.outliers:
-            body["outliers"] = list(result.outliers[row])
+        if measure is None:
+            continue
+        where = np.flatnonzero(select == method)
+        vals = result.candidates[measure][rows[where]]
+        have = ~np.isnan(vals)
+        last = vals.shape[1] - 1 - np.argmax(have[:, ::-1], axis=1)
+        last = np.where(have.any(axis=1), last, -1)
+        count = np.maximum(last + 1, degree[where] - top[where] + 1)
+        f = result.candidates["f_last"][rows[where]].tolist() if method == "sequential_f" \
+            else None
+        for j, (i, v, m) in enumerate(zip(where.tolist(), vals.tolist(), count.tolist(),
+                                          strict=True)):
+            t0 = int(top[i])
+            sel = {"method": method, "degrees": list(range(t0, t0 + m)), "criterion": measure,
+                   "values": v[:m]}
+            if f is not None:
+                sel["f"] = f[j][:m]
+            measure_rows[i] = sel
+    k = degree + result.intercept[rows]
+    terms_cache: dict = {}
+    out = []
+    columns = zip(rows.tolist(), c["n"][rows].tolist(), degree.tolist(), k.tolist(),
+                  result.intercept[rows].tolist(), select.tolist(),
+                  result.coefficients[rows].tolist(), result.std_errors[rows].tolist(),
+                  c["sigma"][rows].tolist(), c["r_squared"][rows].tolist(),
+                  c["adj_r_squared"][rows].tolist(), c["df_residual"][rows].tolist(),
+                  c["shapiro_wilk_p"][rows].tolist(), c["breusch_pagan_p"][rows].tolist(),
+                  c["durbin_watson"][rows].tolist(), c["lack_of_fit_p"][rows].tolist(),
+                  c["flags"][rows].tolist(), strict=True)
+    codes_of, outliers = result.codes_of, result.outliers
+    for i, (row, n, deg, kk, icpt, method, est, se, sigma, r2, adj, df, sw, bp, dw, lof,
+            mask) in enumerate(columns):
+        terms = terms_cache.get((deg, icpt))
+        if terms is None:
+            terms = terms_cache[(deg, icpt)] = list(terms_of(deg, icpt))
+        body = {"n": n, "degree": deg, "terms": terms, "estimate": est[:kk],
+                "std_error": se[:kk], "sigma": sigma, "r_squared": r2, "adj_r_squared": adj,
+                "df_residual": df, "selection": measure_rows.get(i) or {"method": method},
+                "tests": {"shapiro_wilk_p": sw, "breusch_pagan_p": bp, "durbin_watson": dw,
+                          "lack_of_fit_p": lof},
+                "flags": list(codes_of(mask))}
+        if row in outliers:
+            body["outliers"] = list(outliers[row])
         out.append(body)
     return out
 

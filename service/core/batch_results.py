@@ -9,6 +9,7 @@ from __future__ import annotations
 
 from collections.abc import Mapping
 from dataclasses import dataclass, field
+from functools import lru_cache
 
 import numpy as np
 
@@ -22,6 +23,12 @@ SCALARS = ("n", "degree", "min_degree", "df_residual", "rss", "sigma", "r_square
            "lack_of_fit_p", "n_outliers", "n_influential", "n_high_leverage", "flags")
 CANDIDATE_MEASURES = ("df_residual", "rss", "sigma", "r_squared", "adj_r_squared", "aic", "aicc",
                       "bic", "press", "f_last", "p_last")
+
+
+@lru_cache(maxsize=4096)
+def codes_of(mask: int) -> tuple[str, ...]:
+    """Flag codes of a bit mask over :data:`FLAG_CODES`, in that order."""
+    return tuple(code for i, code in enumerate(FLAG_CODES) if mask >> i & 1)
 
 
 @dataclass(frozen=True)
@@ -66,10 +73,12 @@ class BatchResult:
     def n_ok(self) -> int:
         return int(self.ok.sum())
 
+    codes_of = staticmethod(codes_of)
+
     def flag_codes(self, row: int) -> tuple[str, ...]:
         """Flag codes of one row, in the order ``fit_series`` lists them."""
-        mask = int(self.columns["flags"][row])
-        return tuple(code for i, code in enumerate(FLAG_CODES) if mask >> i & 1)
+        return codes_of(int(self.columns["flags"][row]))
+
 
 
 def empty_columns(G: int, P: int, C: int) -> dict:
