@@ -256,3 +256,25 @@ def test_integers_are_accepted_as_numbers(client):
                        "level": 0.95, "include": ["coefficients"]})
     assert out["coefficients"][1]["estimate"] == pytest.approx(np.polyfit(
         [1, 2, 3, 4, 5], [2, 4, 6, 8, 10.5], 1)[0], rel=1e-12)
+
+
+def test_min_degree_bounds_the_candidates(client, seeded):
+    x, y, _ = seeded
+    out = fit(client, {"x": x.tolist(), "y": y.tolist(),
+                       "model": {"min_degree": 2, "max_degree": 3, "select": "aic"},
+                       "include": ["selection"]})
+    assert [c["degree"] for c in out["selection"]["candidates"]] == [2, 3]
+    assert out["model"]["degree"] in (2, 3)
+
+
+def test_transform_y_fits_the_transformed_response(client, seeded):
+    # Oracle: numpy polyfit of log(y) on x; the coefficients are on the transformed scale.
+    x, y, _ = seeded
+    positive = y - y.min() + 1.0
+    out = fit(client, {"x": x.tolist(), "y": positive.tolist(),
+                       "model": {"degree": 1, "transform_y": "log"},
+                       "include": ["coefficients"]})
+    slope, intercept = np.polyfit(x, np.log(positive), 1)
+    assert out["model"]["transform_y"] == "log"
+    assert out["coefficients"][0]["estimate"] == pytest.approx(intercept, rel=1e-9)
+    assert out["coefficients"][1]["estimate"] == pytest.approx(slope, rel=1e-9)
