@@ -27,6 +27,7 @@ from scipy import special
 
 from service.core import design, transforms
 from service.core.errors import DataError, SpecError
+from service.core.qr import triangular_inverse
 from service.core.results import FittedPolynomial, Prediction, frozen_array
 
 
@@ -75,7 +76,7 @@ def predict(fitted: FittedPolynomial, x, *, level: float | None = None, m: int =
     df = fitted.df_residual
     sigma = fitted.sigma
     with np.errstate(all="ignore"):
-        s = v @ np.linalg.inv(fitted.r_factor)  # rows: (R^-T v(t))' for each x
+        s = v @ triangular_inverse(fitted.r_factor)  # rows: (R^-T v(t))' for each x
         se = sigma * np.sqrt(np.einsum("ij,ij->i", s, s))
         if df > 0:
             tq = float(special.stdtrit(df, 0.5 + level / 2))

@@ -67,6 +67,11 @@ class Decomposition:
         return lev, fit
 
 
+def _sumsq(v: np.ndarray) -> float:
+    """Sum of squares without BLAS (einsum: no thread start-up on long vectors)."""
+    return float(np.einsum("i,i->", v, v))
+
+
 def decompose(u: np.ndarray, z: np.ndarray, w: np.ndarray | None, max_degree: int,
               intercept: bool, field: str = "model.max_degree") -> Decomposition:
     """Scale x, build the weighted design up to ``max_degree``, and factor it.
@@ -89,11 +94,13 @@ def decompose(u: np.ndarray, z: np.ndarray, w: np.ndarray | None, max_degree: in
             got = qr.cholesky_qr2(v)
             if got is not None:
                 r, q = got
-                effects = q @ zw
-                resid = zw - effects @ q
+                effects = np.einsum("ij,j->i", q, zw)
+                resid = zw.copy()
+                for e_j, row in zip(effects.tolist(), q, strict=True):
+                    resid -= e_j * row
                 return Decomposition(intercept, max_degree, shift, scale, t64, sqrt_w, zw, r,
-                                     qr.triangular_inverse(r), effects, float(resid @ resid),
-                                     q, float(zw @ zw))
+                                     qr.triangular_inverse(r), effects, _sumsq(resid),
+                                     q, _sumsq(zw))
         t_ext = design.to_t(u, shift, scale, qr.EXTENDED)
         sw = None if sqrt_w is None else sqrt_w.astype(qr.EXTENDED)
         a = np.empty((p + 1, n), dtype=qr.EXTENDED)
@@ -108,6 +115,6 @@ def decompose(u: np.ndarray, z: np.ndarray, w: np.ndarray | None, max_degree: in
             "this many powers.", field=field,
             fix=f"Use a degree below {exc.column}, or spread the x values more evenly.") from None
     r_inv = qr.triangular_inverse(r)
-    q = r_inv.astype(float).T @ v64
+    q = qr.rows_times_upper(r_inv.astype(float), v64)
     return Decomposition(intercept, max_degree, shift, scale, t64, sqrt_w, zw, r, r_inv,
-                         effects, rss, q, float(zw @ zw))
+                         effects, rss, q, _sumsq(zw))

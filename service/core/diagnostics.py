@@ -97,8 +97,8 @@ def _breusch_pagan(e: np.ndarray, dec: Decomposition, degree: int) -> TestResult
     else:
         rows = np.vander(dec.t, degree + 1, increasing=True)
         qa = np.linalg.qr(rows)[0].T
-    proj = qa @ zc
-    ss = float(zc @ zc)
+    proj = np.einsum("ij,j->i", qa, zc)
+    ss = float(np.einsum("i,i->", zc, zc))
     if not ss > 0:
         return TestResult("breusch_pagan", NAN, NAN, (float(degree),),
                           "not computed: squared residuals are constant")
@@ -110,7 +110,7 @@ def _breusch_pagan(e: np.ndarray, dec: Decomposition, degree: int) -> TestResult
 
 def _durbin_watson(e: np.ndarray) -> TestResult:
     d = np.diff(e)
-    ss = float(e @ e)
-    dw = float(d @ d) / ss if ss > 0 else NAN
+    ss = float(np.einsum("i,i->", e, e))
+    dw = float(np.einsum("i,i->", d, d)) / ss if ss > 0 else NAN
     return TestResult("durbin_watson", dw, NAN, None,
                       "serial correlation in the given order: ~2 none, <2 positive, >2 negative")

@@ -26,6 +26,7 @@ import numpy as np
 EXTENDED = np.longdouble
 EXTENDED_MAX_ROWS = 5_000  # above this, float64 CholeskyQR2 (speed); see module docstring
 CHOLQR_MAX_COND = 1e7
+ONE_PASS_COND = 1e2  # eps * cond^2 ~ 2e-12
 
 
 class RankDeficient(ArithmeticError):
@@ -90,18 +91,38 @@ def cholesky_qr2(v: np.ndarray, tol: float = 1e-13) -> tuple[np.ndarray, np.ndar
 
     Returns ``(r, q)`` with ``q`` (p x n) orthonormal rows, or None when the
     design is too ill-conditioned for it (the caller falls back to Householder).
+    The second pass is skipped when the first R is so well conditioned
+    (condition < :data:`ONE_PASS_COND`) that ``Q'Q`` is already the identity
+    to ~1e-12.
     """
-    r1 = _chol(v @ v.T, tol)
+    r1 = _chol(gram(v), tol)
     if r1 is None:
         return None
     d = np.abs(np.diag(r1))
     if d.min() * CHOLQR_MAX_COND < d.max():
         return None
     q1 = _forward(r1, v)
-    r2 = _chol(q1 @ q1.T, tol)
+    if np.linalg.cond(r1) < ONE_PASS_COND:
+        return r1, q1
+    r2 = _chol(gram(q1), tol)
     if r2 is None:
         return None
     return r2 @ r1, _forward(r2, q1)
+
+
+def gram(v: np.ndarray) -> np.ndarray:
+    """``v v'`` of a short, wide matrix from row dot products.
+
+    Long-vector work in this module avoids BLAS: OpenBLAS handles the long
+    inner dimension poorly and its threads stall badly on a busy machine,
+    while einsum runs single-threaded SIMD loops.
+    """
+    p = v.shape[0]
+    g = np.empty((p, p))
+    for i in range(p):
+        for j in range(i + 1):
+            g[i, j] = g[j, i] = np.einsum("i,i->", v[i], v[j])
+    return g
 
 
 def _chol(g: np.ndarray, tol: float) -> np.ndarray | None:
@@ -123,6 +144,19 @@ def _forward(r: np.ndarray, v: np.ndarray) -> np.ndarray:
             acc -= r[k, j] * q[k]
         q[j] = acc / r[j, j]
     return q
+
+
+def rows_times_upper(u: np.ndarray, v: np.ndarray) -> np.ndarray:
+    """``u' v`` for upper-triangular ``u`` (p x p) and rows ``v`` (p x n); BLAS only when short."""
+    if v.shape[1] <= 1024:
+        return u.T @ v
+    out = np.empty_like(v)
+    for j in range(u.shape[0]):
+        acc = u[0, j] * v[0]
+        for k in range(1, j + 1):
+            acc += u[k, j] * v[k]
+        out[j] = acc
+    return out
 
 
 def triangular_inverse(r: np.ndarray) -> np.ndarray:

@@ -26,6 +26,7 @@ from scipy import special
 from service.core.decomposition import EXACT_FIT_RTOL, Decomposition
 
 NAN = float("nan")
+LOG_2PI = log(2 * pi)
 LEVERAGE_ONE = 1 - 1e-10  # h_i above this: the leave-one-out residual is undefined
 
 
@@ -59,49 +60,65 @@ class Measures:
 
 def candidate_measures(dec: Decomposition, degrees: list[int], sum_log_w: float,
                        leverage: np.ndarray, fitted: np.ndarray) -> list[Measures]:
-    """Whole-fit numbers of every candidate degree, vectorized over the candidates.
+    """Whole-fit numbers of every candidate degree.
 
     ``leverage`` and ``fitted`` are the candidates' hat diagonals and weighted
     fitted values (``len(degrees) x n``, see ``Decomposition.cumulative``).
     Sums of squares of effects are sums of positive terms, so float64 keeps
-    them to full precision.
+    them to full precision; the per-candidate arithmetic runs on Python
+    floats (at most 13 candidates, cheaper than numpy calls).
     """
     n = dec.t.size
     c = 1 if dec.intercept else 0
-    e2 = dec.effects.astype(float) ** 2
-    deg = np.asarray(degrees)
-    p = deg + c
-    # running sums without cancellation: model SS from the first power on, residual SS from
-    # the tail of effects each candidate leaves out
-    ss_model = np.concatenate(([0.0], np.cumsum(e2[c:])))[p - c]
-    tails = np.concatenate((np.cumsum(e2[::-1])[::-1], [0.0]))
-    rss = dec.rss_full + tails[p]
-    rss[rss <= (EXACT_FIT_RTOL ** 2) * dec.sum_zw2] = 0.0
-    tss = ss_model + rss
-    df_model, df_res = p - c, n - p
-    exact = (rss == 0.0) & (df_res > 0)
     with np.errstate(all="ignore"):
         loo = (dec.zw - fitted) / (1 - leverage)
-        press = np.einsum("ij,ij->i", loo, loo)
-        press[np.any(leverage >= LEVERAGE_ONE, axis=1)] = NAN
-        press[exact] = 0.0
-        good_t = tss > 0
-        r2 = np.where(good_t, ss_model / tss, NAN)
-        adj = np.where((df_res > 0) & good_t, 1 - (1 - r2) * (n - c) / df_res, NAN)
-        mse = np.where(df_res > 0, rss / df_res, NAN)
-        sigma = np.sqrt(mse)
-        fit_ok = (df_res > 0) & ~exact & (rss > 0)
-        f = np.where(fit_ok & (df_model > 0), (ss_model / df_model) / mse, NAN)
-        f_last = np.where(fit_ok & (p > c), e2[p - 1] / mse, NAN)
-        f_p = special.fdtrc(df_model, df_res, f)
-        last_p = special.fdtrc(1, df_res, f_last)
-        pos = rss > 0
-        llf = np.where(pos, -0.5 * n * (log(2 * pi) + np.log(rss / n) + 1) + 0.5 * sum_log_w,
-                       NAN)
-        aic = -2 * llf + 2 * p
-        bic = -2 * llf + p * log(n)
-        aicc = np.where(n - p - 1 > 0, aic + 2 * p * (p + 1) / (n - p - 1), NAN)
-        pred_r2 = np.where(good_t, 1 - press / tss, NAN)
-    cols = (deg, np.full(deg.size, n), p, df_model, df_res, rss, tss, ss_model, r2, adj, sigma,
-            f, f_p, llf, aic, aicc, bic, press, pred_r2, f_last, last_p, exact)
-    return [Measures(*row) for row in zip(*(col.tolist() for col in cols), strict=True)]
+        press_all = np.einsum("ij,ij->i", loo, loo)
+        press_all[(leverage >= LEVERAGE_ONE).any(axis=1)] = NAN
+    press_all = press_all.tolist()
+    e2 = (dec.effects.astype(float) ** 2).tolist()
+    big = len(e2)
+    tails = [0.0] * (big + 1)  # tails[p] = sum of e2[p:], summed from the small end
+    for j in range(big - 1, -1, -1):
+        tails[j] = tails[j + 1] + e2[j]
+    exact_cut = (EXACT_FIT_RTOL ** 2) * dec.sum_zw2
+    log_n, half_logw = log(n), 0.5 * sum_log_w
+    rows = []
+    ss_model = 0.0
+    first = True
+    for i, degree in enumerate(degrees):
+        p = degree + c
+        if first:
+            ss_model = sum(e2[c:p])
+            first = False
+        else:
+            ss_model += e2[p - 1]
+        df_model, df_res = p - c, n - p
+        rss = dec.rss_full + tails[p]
+        if rss <= exact_cut:
+            rss = 0.0
+        tss = ss_model + rss
+        exact = rss == 0.0 and df_res > 0
+        r2 = ss_model / tss if tss > 0 else NAN
+        adj = 1 - (1 - r2) * (n - c) / df_res if df_res > 0 and tss > 0 else NAN
+        mse = rss / df_res if df_res > 0 else NAN
+        sigma = mse ** 0.5 if df_res > 0 else NAN
+        fit_ok = df_res > 0 and rss > 0
+        f = (ss_model / df_model) / mse if fit_ok and df_model > 0 else NAN
+        f_last = e2[p - 1] / mse if fit_ok and p > c else NAN
+        if rss > 0:
+            llf = -0.5 * n * (LOG_2PI + log(rss / n) + 1) + half_logw
+            aic, bic = -2 * llf + 2 * p, -2 * llf + p * log_n
+            aicc = aic + 2 * p * (p + 1) / (n - p - 1) if n - p - 1 > 0 else NAN
+        else:
+            llf = aic = bic = aicc = NAN
+        press = 0.0 if exact else press_all[i]
+        pred_r2 = 1 - press / tss if tss > 0 else NAN
+        rows.append([degree, n, p, df_model, df_res, rss, tss, ss_model, r2, adj, sigma, f,
+                     NAN, llf, aic, aicc, bic, press, pred_r2, f_last, NAN, exact])
+    df_m = [r[3] for r in rows]
+    df_r = [r[4] for r in rows]
+    f_p = special.fdtrc(df_m, df_r, [r[11] for r in rows]).tolist()
+    last_p = special.fdtrc(1, df_r, [r[19] for r in rows]).tolist()
+    for row, fp, lp in zip(rows, f_p, last_p, strict=True):
+        row[12], row[20] = fp, lp
+    return [Measures(*row) for row in rows]
