@@ -48,7 +48,7 @@ def live_url():
 
 @SCHEMA.parametrize()
 @seed(7071)
-@settings(max_examples=25, deadline=None, database=None, derandomize=True,
+@settings(max_examples=20, deadline=None, database=None, derandomize=True,
           suppress_health_check=list(HealthCheck))
 def test_every_other_operation_over_the_wire(case, live_url):
     case.call_and_validate(base_url=live_url, headers=HEADERS, checks=CHECKS, timeout=30)

@@ -213,12 +213,12 @@ def test_kill_9_one_worker_under_load(metrics_dir):
         killed = {}
 
         def fault(elapsed):
-            if elapsed >= 3.0 and not killed:
+            if elapsed >= 2.0 and not killed:
                 victim = s.workers()[0]
                 killed["pid"], killed["at"] = victim, elapsed
                 os.kill(victim, signal.SIGKILL)
 
-        result = run_load(s, traffic, seconds=9.0, connections=8, on_tick=fault)
+        result = run_load(s, traffic, seconds=6.0, connections=8, on_tick=fault)
         assert killed, "the fault was never injected"
         replacement = s.wait_workers(2, exclude=(killed["pid"],))
         assert killed["pid"] not in replacement

@@ -23,7 +23,7 @@ def test_sixty_seconds_of_mixed_traffic():
         traffic = mixed_requests(srv.url)
         for name in ("fit", "families", "healthz"):
             assert name in traffic
-        warm = run_load(srv, traffic, seconds=4.0, connections=8)  # lazy imports, caches
+        warm = run_load(srv, traffic, seconds=3.0, connections=8)  # lazy imports, caches
         assert warm.count(lambda s: s >= 500) == 0 and not warm.failures, warm.statuses
         assert set(warm.by_name) == set(traffic)
         for name, statuses in warm.by_name.items():

@@ -141,18 +141,23 @@ def answered_within(url: str, count: int, timeout: float) -> list:
     return outcomes
 
 
-def test_bare_sync_workers_are_stalled_by_two_slow_clients():
+@pytest.fixture(scope="module")
+def srv():
+    with server(workers=2) as s:
+        yield s
+
+
+def test_bare_sync_workers_are_stalled_by_two_slow_clients(srv):
     """Why the proxy is recommended: each trickling connection holds one sync worker."""
-    with server(workers=2) as srv:
-        with Trickle(srv.port, count=2, seconds=4.0):
-            stalled = answered_within(srv.url, 1, timeout=2.0)
-        assert stalled == ["TimeoutError"], stalled
-        assert answered_within(srv.url, 3, timeout=10.0) == [200, 200, 200]  # free again
+    with Trickle(srv.port, count=2, seconds=4.0):
+        stalled = answered_within(srv.url, 1, timeout=2.0)
+    assert stalled == ["TimeoutError"], stalled
+    assert answered_within(srv.url, 3, timeout=10.0) == [200, 200, 200]  # free again
 
 
 @pytest.mark.parametrize("slow_part", ["headers", "body"])
-def test_buffering_proxy_keeps_serving_while_many_clients_trickle(tmp_path, slow_part):
-    with server(workers=2) as srv, nginx_in_front(srv.port, tmp_path) as proxy_port:
+def test_buffering_proxy_keeps_serving_while_many_clients_trickle(srv, tmp_path, slow_part):
+    with nginx_in_front(srv.port, tmp_path) as proxy_port:
         proxied = f"http://127.0.0.1:{proxy_port}"
         with Trickle(proxy_port, count=20, seconds=4.0, body=slow_part == "body") as trickle:
             outcomes = answered_within(proxied, 30, timeout=3.0)
