@@ -200,7 +200,7 @@ class EstimateSchema(Schema):
                    "band for the mean of m readings).")
     upper = number("Upper limit of the calibration interval.")
     status = text("ok, or why there is no single trustworthy in-range answer: not_monotone, "
-                  "no_real_root, outside_range, multiple_roots_in_range, "
+                  "no_real_root, roots_unresolved, outside_range, multiple_roots_in_range, "
                   "interval_exceeds_range, interval_disjoint, interval_unbounded, "
                   "interval_undefined (meanings in docs/fitted-model.md).")
     other_roots = fields.List(fields.Float(), metadata={

@@ -70,11 +70,11 @@ def sensitivity(fitted: FittedPolynomial, x) -> np.ndarray:
     """
     x = np.atleast_1d(np.asarray(x, dtype=float))
     u = transforms.apply(fitted.transform_x, x, field="x")
-    t = (u - fitted.x_shift) / fitted.x_scale
     coef = _coef(fitted)
-    f_t = P.polyval(t, coef)
-    dfdu = P.polyval(t, P.polyder(coef)) / fitted.x_scale
     with np.errstate(all="ignore"):
+        t = (u - fitted.x_shift) / fitted.x_scale
+        f_t = P.polyval(t, coef)
+        dfdu = P.polyval(t, P.polyder(coef)) / fitted.x_scale
         return dfdu * _derivative(fitted.transform_x, x) / _derivative(
             fitted.transform_y, transforms.inverse(fitted.transform_y, f_t))
 
@@ -93,6 +93,11 @@ def figures_of_merit(fitted: FittedPolynomial, *, alpha: float = 0.05, beta: flo
     -------
     CalibrationFigures
     """
+    with np.errstate(all="ignore"):  # extreme documents give NaN, never warnings
+        return _figures(fitted, alpha, beta)
+
+
+def _figures(fitted: FittedPolynomial, alpha: float, beta: float) -> CalibrationFigures:
     nan = math.nan
     reason = _unavailable(fitted)
     sigma = float(fitted.sigma)
@@ -109,10 +114,12 @@ def figures_of_merit(fitted: FittedPolynomial, *, alpha: float = 0.05, beta: flo
     def signal(x):  # signal above the blank, in the direction the curve rises
         return sign * (P.polyval((x - s) / c, coef) - f0)
 
+    r_inv_t = np.linalg.inv(np.asarray(fitted.r_factor, float)).T  # from_document checked it
+
     def pred_sd(x):  # sd of one new reading at x (scalar or array)
         t = np.atleast_1d(np.asarray(x, dtype=float) - s) / c
         v = t[None, :] ** np.arange(len(coef))[:, None]
-        w = np.linalg.solve(np.asarray(fitted.r_factor, float).T, v)  # R^-T v
+        w = r_inv_t @ v  # R^-T v
         out = sigma * np.sqrt(1.0 + np.sum(w * w, axis=0))
         return out if np.ndim(x) else float(out[0])
 
@@ -156,7 +163,7 @@ def _coef(fitted: FittedPolynomial) -> np.ndarray:
 def _first_root(func, x_far: float) -> float:
     """Smallest x > 0 with func(x) = 0 (func(0) < 0), scanning out to x_far; NaN if none."""
     start = float(func(0.0))
-    if not start < 0:
+    if not (start < 0 and math.isfinite(x_far)):
         return 0.0 if start == 0 else math.nan
     grid = np.linspace(0.0, x_far, 2001)
     values = np.asarray(func(grid), dtype=float)
@@ -164,6 +171,8 @@ def _first_root(func, x_far: float) -> float:
     if hit.size == 0:
         return math.nan
     k = int(hit[0])
+    if not (np.isfinite(values[k]) and np.isfinite(values[k - 1]) and values[k - 1] < 0):
+        return math.nan
     return float(optimize.brentq(lambda x: float(func(x)), grid[k - 1], grid[k], xtol=1e-14 * x_far,
                                  rtol=4 * np.finfo(float).eps, maxiter=200))
 

@@ -26,8 +26,8 @@ from typing import Any
 
 import numpy as np
 
-from service.core import design
-from service.core.errors import DocumentError
+from service.core import design, transforms
+from service.core.errors import DataError, DocumentError
 from service.core.results import FittedPolynomial, frozen_array
 from service.core.spec import HARD_MAX_DEGREE, TRANSFORMS
 
@@ -314,19 +314,44 @@ class _Reader:
             self.fail("raw_covariance", "raw_covariance must be symmetric.", keep)
         if not v["intercept"] and v["x_shift"] != 0.0:
             self.fail("x_shift", "A model without intercept must have x_shift 0.", keep)
-        conversion = design.conversion(v["x_shift"], v["x_scale"], v["degree"], v["intercept"])
-        expected = (conversion @ basis.astype(conversion.dtype)).astype(float)
-        u = np.linspace(v["x_min"], v["x_max"], 7) if v["transform_x"] == "none" else (
-            v["x_shift"] + v["x_scale"] * np.linspace(-1.0, 1.0, 7))
-        powers = np.arange(0 if v["intercept"] else 1, (0 if v["intercept"] else 1) + p)
-        terms_raw = raw[None, :] * u[:, None] ** powers[None, :]
-        terms_exp = expected[None, :] * u[:, None] ** powers[None, :]
-        gap = np.abs(terms_raw.sum(axis=1) - terms_exp.sum(axis=1))
-        size = np.abs(terms_raw).sum(axis=1) + np.abs(terms_exp).sum(axis=1)
+        with np.errstate(all="ignore"):
+            self._check_scaling(v, keep)
+            try:
+                invertible = np.all(np.isfinite(np.linalg.inv(r_factor)))
+            except np.linalg.LinAlgError:
+                invertible = False
+            if not invertible:
+                self.fail("r_factor", "r_factor is singular in double precision.", keep)
+            conversion = design.conversion(v["x_shift"], v["x_scale"], v["degree"],
+                                           v["intercept"])
+            expected = (conversion @ basis.astype(conversion.dtype)).astype(float)
+            u = v["x_shift"] + v["x_scale"] * np.linspace(-1.0, 1.0, 7)  # the calibrated range
+            powers = np.arange(0 if v["intercept"] else 1, (0 if v["intercept"] else 1) + p)
+            terms_raw = raw[None, :] * u[:, None] ** powers[None, :]
+            terms_exp = expected[None, :] * u[:, None] ** powers[None, :]
+            gap = np.abs(terms_raw.sum(axis=1) - terms_exp.sum(axis=1))
+            size = np.abs(terms_raw).sum(axis=1) + np.abs(terms_exp).sum(axis=1)
+            evaluable = np.all(np.isfinite(size)) and np.all(np.isfinite(basis * basis))
+        if not evaluable:
+            self.fail("raw_coefficients", "The coefficients are too large to evaluate in "
+                      "double precision over the calibrated range.", keep)
         if np.any(gap > 1e-7 * size + 1e-300):
             self.fail("raw_coefficients",
                       "raw_coefficients and basis_coefficients describe different curves; "
                       "one of them was edited.", keep)
+
+    def _check_scaling(self, v, keep: str) -> None:
+        """/v1/fit maps the calibrated range into t in [-1, 1]; anything else was edited."""
+        ends = np.array([v["x_min"], v["x_max"]])
+        try:
+            u = transforms.apply(v["transform_x"], ends, field="x_min")
+        except DataError:
+            self.fail("x_min", f"x_min/x_max lie outside the domain of the {v['transform_x']} "
+                      "transform.", keep)
+        t = (u - v["x_shift"]) / v["x_scale"]
+        if not (np.all(np.isfinite(t)) and np.all(np.abs(t) <= 1.0 + 1e-6)):
+            self.fail("x_scale", "x_shift and x_scale do not map [x_min, x_max] into "
+                      "[-1, 1] as /v1/fit writes them.", keep)
 
     def check_checksum(self, v) -> None:
         given = v["checksum"]

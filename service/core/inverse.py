@@ -39,12 +39,13 @@ STATUSES = {
     "ok": "A single root inside the calibrated range with a bounded interval inside it.",
     "not_monotone": "The curve turns inside the calibrated range, so one y can mean several x.",
     "no_real_root": "The fitted curve never reaches this y.",
+    "roots_unresolved": "The roots cannot be computed in double precision for this y.",
     "outside_range": "The curve reaches this y only outside the calibrated x range.",
     "multiple_roots_in_range": "Several x inside the calibrated range give this y.",
     "interval_exceeds_range": "The estimate is in range but the interval reaches outside it.",
     "interval_unbounded": "The band is too wide for the slope: the interval has no finite limit.",
     "interval_disjoint": "The band also contains the reading at other x inside the range.",
-    "interval_undefined": "No residual degrees of freedom: sigma and the interval are undefined.",
+    "interval_undefined": "No residual df (sigma undefined), or unresolvable in double precision.",
 }
 _REAL_TOL = 1e-7  # |imag| / (1 + |root|) below which a companion eigenvalue is real
 
@@ -118,6 +119,11 @@ def invert(fitted: FittedPolynomial, y, *, replicates=1, level: float | None = N
         raise DataError(f"y[{bad}] is not a finite number.", field=f"y[{bad}]",
                         fix="Send finite readings only.")
     m = _replicates(replicates, len(y))
+    with np.errstate(all="ignore"):  # extreme values become statuses, never warnings
+        return _invert(fitted, y, m, level)
+
+
+def _invert(fitted: FittedPolynomial, y: np.ndarray, m: np.ndarray, level: float) -> Inversion:
     curve = _Curve(fitted, level)
     y_fit = transforms.apply(fitted.transform_y, y, field="y")
     if not np.all(np.isfinite(y_fit)):
@@ -165,7 +171,7 @@ class _Curve:
         self.dw = P.polyder(self.w)
         df = int(fitted.df_residual)
         q = float(special.stdtrit(df, 0.5 + level / 2)) if df > 0 else math.nan
-        self.qs = q * float(fitted.sigma)      # band half-width per unit sqrt(1/m + w)
+        self.qs = np.float64(q) * np.float64(fitted.sigma)  # half-width per sqrt(1/m + w)
         u_ends = transforms.apply(fitted.transform_x, np.array([fitted.x_min, fitted.x_max]),
                                   field="fitted_model.x_min")
         t_ends = (u_ends - fitted.x_shift) / fitted.x_scale
@@ -196,8 +202,11 @@ class _Curve:
         chosen = np.full(len(y), np.nan)
         picks = []
         for i, row in enumerate(roots):
-            inside = [r for r in row if self.in_range(r)]
-            if not row:
+            inside = [r for r in row if self.in_range(r)] if row is not None else []
+            if row is None:
+                status, row = "roots_unresolved", []
+                roots[i] = row
+            elif not row:
                 status = "no_real_root"
             elif not inside:
                 status = "outside_range"
@@ -236,10 +245,12 @@ class _Curve:
         rise[rise == 0] = 1.0
         half = self.qs * np.sqrt(1.0 / m + P.polyval(t_hat, self.w))
         step = half / np.maximum(np.abs(P.polyval(t_hat, self.slope)), 1e-300)
+        resolved = self.gap(t_hat, y0, m) <= 0   # false only for numerically extreme models
         ends = []
         for side in (-1.0, 1.0):
             t = self._newton(t_hat + side * np.minimum(step, self.far), y0, m, side * rise)
-            ok = self._verified(t, t_hat, y0, m, side)
+            ok = self._verified(t, t_hat, y0, m, side) | ~resolved
+            t[~resolved] = math.nan
             for j in np.flatnonzero(~ok):
                 t[j] = self._search(float(t_hat[j]), float(y0[j]), float(m[j]), side,
                                     float(step[j]))
@@ -248,7 +259,9 @@ class _Curve:
         statuses = []
         for j in range(count):
             lo, hi = ends[0][j], ends[1][j]
-            if not (math.isfinite(lo) and math.isfinite(hi)):
+            if not resolved[j]:
+                statuses.append("interval_undefined")
+            elif not (math.isfinite(lo) and math.isfinite(hi)):
                 statuses.append("interval_unbounded")
             elif not (self.in_range(lo) and self.in_range(hi)):
                 statuses.append("interval_exceeds_range")
@@ -280,14 +293,23 @@ class _Curve:
         """Fallback: expand geometrically from the estimate to a sign change, then bracket."""
         step = step if math.isfinite(step) and step > 0 else 1e-3
         previous = t_hat
+        if not self.gap(t_hat, y0, m) <= 0:  # the estimate itself is not resolved
+            return math.nan
         for k in range(200):
             t = t_hat + side * step * 2.0 ** (k / 4)
             if abs(t - t_hat) > self.far:
                 return math.nan
-            if self.gap(t, y0, m) > 0:
+            value = self.gap(t, y0, m)
+            if not np.isfinite(value):
+                return math.nan
+            if value > 0:
                 a, b = sorted((previous, t))
-                return float(optimize.brentq(lambda s: self.gap(s, y0, m), a, b, xtol=1e-15,
-                                             rtol=4 * np.finfo(float).eps, maxiter=200))
+                try:
+                    return float(optimize.brentq(lambda s: self.gap(s, y0, m), a, b,
+                                                 xtol=1e-15, rtol=4 * np.finfo(float).eps,
+                                                 maxiter=200))
+                except (ValueError, RuntimeError):  # no clean sign change in double precision
+                    return math.nan
             previous = t
         return math.nan
 
@@ -304,8 +326,11 @@ class _Curve:
         return found
 
 
-def _batch_roots(coef: np.ndarray, y_t: np.ndarray) -> list[list[float]]:
-    """Real roots of f(t) - y for every y (companion matrices, eigenvalues in one call)."""
+def _batch_roots(coef: np.ndarray, y_t: np.ndarray) -> list[list[float] | None]:
+    """Real roots of f(t) - y for every y (companion matrices, eigenvalues in one call).
+
+    None for a y whose companion matrix overflows (far beyond the curve's scale).
+    """
     coef = np.trim_zeros(np.asarray(coef, dtype=float), "b")
     d = len(coef) - 1
     if d < 1:
@@ -316,7 +341,10 @@ def _batch_roots(coef: np.ndarray, y_t: np.ndarray) -> list[list[float]]:
     companion = np.zeros((len(y_t), d, d))
     companion[:, 1:, :-1] = np.eye(d - 1)
     companion[:, :, -1] = -monic
-    values = np.linalg.eigvals(companion) if len(y_t) else np.zeros((0, d))
+    usable = np.all(np.isfinite(companion), axis=(1, 2))
+    values = np.full((len(y_t), d), np.nan, dtype=complex)
+    if usable.any():
+        values[usable] = np.linalg.eigvals(companion[usable])
     real = np.abs(values.imag) <= _REAL_TOL * (1.0 + np.abs(values.real))
     t = values.real.copy()
     slope = P.polyder(coef)
@@ -325,13 +353,14 @@ def _batch_roots(coef: np.ndarray, y_t: np.ndarray) -> list[list[float]]:
             d_t = P.polyval(t, slope)
             step = np.where(d_t != 0, (P.polyval(t, coef) - y_t[:, None]) / d_t, 0.0)
             t = np.where(np.isfinite(step), t - step, t)
-    return [sorted(float(v) for v in t[i][real[i]]) for i in range(len(y_t))]
+    return [sorted(float(v) for v in t[i][real[i] & np.isfinite(t[i])]) if usable[i] else None
+            for i in range(len(y_t))]
 
 
 def _real_roots(coef: np.ndarray) -> list[float]:
     """Real roots of a polynomial given on t^0..t^d (trailing zeros trimmed)."""
     coef = np.trim_zeros(np.asarray(coef, dtype=float), "b")
-    if len(coef) < 2:
+    if len(coef) < 2 or not np.all(np.isfinite(coef)):
         return []
     roots = P.polyroots(coef)
     keep = np.abs(roots.imag) <= _REAL_TOL * (1.0 + np.abs(roots.real))
