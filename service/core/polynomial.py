@@ -7,6 +7,8 @@ precisely (half the standard deviation) gets four times the weight.
 
 from __future__ import annotations
 
+import math
+
 import numpy as np
 from scipy import special
 
@@ -19,6 +21,7 @@ from service.core.errors import DesignError
 from service.core.flags import trust_flags
 from service.core.grid import grid_points
 from service.core.inputs import check_spec, clean_data
+from service.core.normality import MAX_N as SHAPIRO_MAX_N
 from service.core.results import (
     Coefficient,
     FitReport,
@@ -104,6 +107,14 @@ def fit_series(x, y, weights=None, *, model: ModelSpec = _DEFAULT_MODEL,
                               f"The raw-power design has condition number {raw_cond:.3g}: the "
                               "raw coefficients are very sensitive to rounding and to the data. "
                               "Predict with the fitted model (it works on the scaled basis)."))
+    if m.df_residual > 0 and math.isnan(m.press) and "selection" in options.include:
+        notices.append(Notice("press_undefined",
+                              "At least one point has leverage 1 (the curve must pass through "
+                              "it), so PRESS and predicted R² are undefined (null)."))
+    if n > SHAPIRO_MAX_N and "diagnostics" in options.include:
+        notices.append(Notice("normality_test_skipped",
+                              f"Shapiro-Wilk was not computed: it is defined for at most "
+                              f"{SHAPIRO_MAX_N} points (this series has {n})."))
     if model.transform_y != "none":
         notices.append(Notice("retransformation_bias",
                               f"y was fitted on the {model.transform_y} scale; predictions are "

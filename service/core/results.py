@@ -128,7 +128,9 @@ class Prediction:
     ``mean_*``: confidence band for the mean; ``obs_*``: band for ``m`` new
     observations' mean (m = 1: one new observation); ``band_*``: simultaneous
     (Working-Hotelling) band for the whole curve. ``extrapolated`` marks x
-    outside the fitted data range.
+    outside the fitted data range. With a transformed y, ``fit`` and the
+    limits are back-transformed to the original y scale while ``se_fit``
+    stays on the fitting (transformed) scale.
     """
 
     x: FloatArray

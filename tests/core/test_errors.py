@@ -192,3 +192,14 @@ def test_ill_conditioned_design_is_flagged():
     rep = fit_series(x, np.cos(x), model=ModelSpec(degree=4))
     assert rep.statistics.condition_number > 1e6
     assert "ill_conditioned_design" in {f.code for f in rep.flags}
+
+
+def test_leverage_one_makes_press_undefined_with_notice():
+    # the lone point at x = 5 is the only support of the x^2 column beyond two levels:
+    # its leverage is 1 (fact of the trade), so its leave-one-out residual is undefined
+    x = [0.0, 0.0, 0.0, 1.0, 1.0, 1.0, 5.0]
+    y = [0.1, -0.1, 0.0, 1.1, 0.9, 1.0, 20.0]
+    rep = fit_series(x, y, model=ModelSpec(degree=2))
+    assert math.isnan(rep.statistics.press) and math.isnan(rep.statistics.predicted_r_squared)
+    assert "press_undefined" in {n.code for n in rep.warnings}
+    assert rep.diagnostics.leverage[-1] == pytest.approx(1.0)
