@@ -51,6 +51,27 @@ def test_predict_reproduces_the_fit_grid(api, pontius_fit):
     assert [row["extrapolated"] for row in rows] == grid["extrapolated"]
 
 
+@pytest.mark.parametrize("name, model", [
+    ("norris", {"degree": 1}),
+    ("noint1", {"degree": 1, "intercept": False}),
+    ("filip", {"degree": 10}),
+    ("pontius", {"degree": 2, "transform_x": "log", "transform_y": "sqrt"}),
+    ("pontius", {"max_degree": 4, "select": "bic", "transform_y": "reciprocal"}),
+])
+def test_fit_then_predict_is_exact_across_models(api, name, model):
+    # Issue 5 round trip over /v1/fit -> /v1/predict for lines, no-intercept, degree 10
+    # (NIST Filip, ill-conditioned), transforms and a selected degree.
+    ref = load_nist(name)
+    fit = _post(api, "/v1/fit", {"x": ref["data"]["x"], "y": ref["data"]["y"], "model": model,
+                                 "grid": {"count": 41}}).get_json()
+    grid = fit["grid"]
+    rows = _post(api, "/v1/predict", {"fitted_model": fit["fitted_model"],
+                                      "x": grid["x"]}).get_json()["predictions"]
+    for column in ("fit", "obs_lower", "obs_upper", "mean_lower", "mean_upper"):
+        np.testing.assert_allclose([r[column] for r in rows], grid[column], rtol=1e-12, atol=0,
+                                   err_msg=column)
+
+
 def test_predict_replicate_band_matches_statsmodels(api, pontius_fit):
     # Oracle: statsmodels OLS on x/max(x) (exact reparameterization); the band for the mean of
     # m new readings has variance se_mean^2 + sigma^2/m (common practice).

@@ -306,3 +306,22 @@ def test_precise_calibration_keeps_its_interval_digits():
     assert estimate.status == "ok"
     np.testing.assert_allclose(estimate.upper - estimate.lower, hi - lo, rtol=1e-6)
     np.testing.assert_allclose(estimate.x, x0, rtol=1e-12)
+
+
+def test_weighted_calibration_interval_matches_statsmodels_wls_bands():
+    # Oracle: statsmodels WLS; a new reading has unit weight (variance sigma^2), as documented.
+    # Data: NIST StRD Pontius with seeded inverse-variance weights.
+    ref = load_nist("pontius")
+    x, y = np.asarray(ref["data"]["x"]), np.asarray(ref["data"]["y"])
+    w = np.random.default_rng(23).uniform(0.5, 2.0, x.size)
+    model = fit_series(x, y, w, model=ModelSpec(degree=2), options=LEAN).model
+    y0 = 1.239722
+    estimate = invert(model, [y0]).estimates[0]
+    assert estimate.status == "ok"
+    unit = x.max()
+    design = np.vander(x / unit, 3, increasing=True)
+    wls = sm.WLS(y, design, weights=w).fit()
+    at = np.vander(np.array([estimate.lower, estimate.upper]) / unit, 3, increasing=True)
+    frame = wls.get_prediction(at, weights=1.0).summary_frame(alpha=0.05)
+    np.testing.assert_allclose(frame["obs_ci_upper"].iloc[0], y0, rtol=1e-9)
+    np.testing.assert_allclose(frame["obs_ci_lower"].iloc[1], y0, rtol=1e-9)
