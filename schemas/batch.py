@@ -46,7 +46,7 @@ class SeriesSchema(StrictSchema):
 class BatchRequestSchema(StrictSchema):
     """Many independent series and the options they share."""
 
-    series = fields.List(fields.Raw(), required=True, metadata={
+    series = fields.List(fields.Raw(allow_none=True), required=True, metadata={
         "description": "The series (see Series). Each is checked on its own: a bad series "
                        "gets an error result, the others are fitted.",
         "items": {"$ref": "#/components/schemas/Series"}})

@@ -195,7 +195,8 @@ def _series(x, y, w, offsets, row, raw):
 def _fit_one(out, row, model, options, x, y, w, offsets, raw):
     xs, ys, ws = _series(x, y, w, offsets, row, raw)
     try:
-        report = fit_series(xs, ys, ws, model=model, options=options)
+        with np.errstate(all="ignore"):  # extreme inputs: undefined values are NaN data
+            report = fit_series(xs, ys, ws, model=model, options=options)
     except FitError as exc:
         out["errors"][row] = exc
         return

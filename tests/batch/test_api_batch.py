@@ -156,3 +156,23 @@ def test_undefined_numbers_are_null_not_nan(client):
     fit = body.get_json()["results"][0]["fit"]
     assert fit["df_residual"] == 0 and fit["tests"]["durbin_watson"] is None
     assert np.allclose(fit["estimate"], [1.0, 2.0])
+
+
+@pytest.mark.filterwarnings("error::RuntimeWarning")
+@pytest.mark.parametrize("series", [
+    [None], [{"x": [], "y": []}], [{"x": [1e308, -1e308, 0.0], "y": [1, 2, 3]}],
+    [{"x": [1, 2, 3, 4], "y": [1e300, -1e300, 1e300, 2]}],
+    [{"x": [1, 2, 3, 4, 5], "y": [1, 2, 3, 4, 5], "weights": [1e-300, 1, 1, 1, 1e300]}],
+    [{"x": [0, 0, 0, 1], "y": [1, 2, 3, 4]}], [{"x": [1, 2, 3], "y": [1, 2, 3], "id": 1.5}],
+    [{"x": [1, 2, 3], "y": [1, 2, 3], "model": "abc"}], [{"x": [1, 2], "y": [5, 5]}],
+    [{"x": [1, 2, 3, 4, 5, 6], "y": [5, 5, 5, 5, 5, 5]}],
+])
+def test_hostile_series_get_a_result_never_a_500_or_a_warning(client, series):
+    answer = _post(client, {"series": series, "model": {"max_degree": 3, "select": "press"}})
+    assert answer.status_code == 200
+    results = answer.get_json()["results"]
+    assert len(results) == len(series)
+    for r in results:
+        assert r["status"] in ("ok", "error")
+        if r["status"] == "error":
+            assert r["error"]["status"] in (400, 413, 422) and r["error"]["detail"]
