@@ -7,8 +7,6 @@ documented, and the body conforms to the documented schema. Seeded and bounded.
 
 from __future__ import annotations
 
-import logging
-
 import pytest
 import schemathesis
 from hypothesis import HealthCheck, seed, settings
@@ -20,8 +18,6 @@ from schemathesis.checks import (
 )
 
 from service.app import create_app
-
-logging.getLogger("curvewise.access").setLevel(logging.WARNING)  # keep fuzz output readable
 
 APP = create_app({"max_points": 5000, "max_grid_points": 2000})
 SCHEMA = schemathesis.openapi.from_wsgi("/openapi.json", APP)
