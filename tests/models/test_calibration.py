@@ -22,18 +22,22 @@ def _model(x, y, degree, **spec):
                       options=FitOptions(grid=GridSpec(count=5))).model
 
 
-def test_straight_line_ich_limits_are_3_3_and_10_sigma_over_slope():
+@pytest.mark.parametrize("direction", [1.0, -1.0])
+def test_straight_line_ich_limits_are_3_3_and_10_sigma_over_slope(direction):
     # Source: ICH Q2(R1), "Detection limit / Quantitation limit based on the standard
     # deviation of the response and the slope": DL = 3.3 sigma / S, QL = 10 sigma / S
-    # (from memory). Oracle for sigma and S: statsmodels OLS on NIST StRD Norris.
+    # (from memory). Oracle for sigma and S: statsmodels OLS on NIST StRD Norris (and on
+    # its mirror image, a decreasing calibration: the limits use |S|).
     _, x, y = _data("norris")
+    y = direction * y
     ols = sm.OLS(y, sm.add_constant(x)).fit()
     s, slope = np.sqrt(ols.scale), ols.params[1]
     figures = figures_of_merit(_model(x, y, 1))
     assert figures.available
     np.testing.assert_allclose(figures.sensitivity_at_blank, slope, rtol=1e-10)
-    np.testing.assert_allclose(figures.detection_limit_ich, 3.3 * s / slope, rtol=1e-9)
-    np.testing.assert_allclose(figures.quantification_limit_ich, 10 * s / slope, rtol=1e-9)
+    np.testing.assert_allclose(figures.detection_limit_ich, 3.3 * s / abs(slope), rtol=1e-9)
+    np.testing.assert_allclose(figures.quantification_limit_ich, 10 * s / abs(slope),
+                               rtol=1e-9)
     assert figures.blank_extrapolated == (x.min() > 0)
 
 
