@@ -7,6 +7,11 @@ Metrics (``prometheus_client``; in multiprocess mode under gunicorn):
 - ``curvewise_http_requests_in_progress`` (gauge, summed over live workers)
 - ``curvewise_fit_failures_total{reason}`` -- ``reason`` is :attr:`FitError.code`
 - ``curvewise_batch_series`` (histogram of series per /v1/batch request)
+- ``curvewise_batch_results_total{status}`` -- series answered ``ok`` / ``error`` in batches
+
+Batch figures are read from the ``summary`` object that closes every /v1/batch answer (the wire
+contract: last member of the JSON body, last line of an NDJSON stream), so the batch views need
+no metrics code; a streamed answer is counted when its last line has gone out.
 
 ``route`` is the URL rule template (``/v1/fit``), never the raw path, so label cardinality stays
 bounded; unmatched paths are counted as ``<unmatched>``.
@@ -70,6 +75,8 @@ class _Metrics:
                                     "Inputs the core could not fit, by reason code.", ("reason",))
         self.batch_series = Histogram("curvewise_batch_series", "Series per batch request.",
                                       buckets=BATCH_BUCKETS)
+        self.batch_results = Counter("curvewise_batch_results",
+                                     "Series answered in batch requests, by status.", ("status",))
 
 
 @cache
@@ -83,9 +90,56 @@ def record_fit_failure(code: str) -> None:
     metrics().fit_failures.labels(reason=code or "unfittable_input").inc()
 
 
-def record_batch(series: int) -> None:
-    """Count one batch request of ``series`` series."""
-    metrics().batch_series.observe(series)
+def record_batch(series: int, ok: int | None = None, error: int | None = None) -> None:
+    """Count one batch request of ``series`` series (``ok`` + ``error`` of them, if known)."""
+    m = metrics()
+    m.batch_series.observe(series)
+    if ok is not None:
+        m.batch_results.labels(status="ok").inc(ok)
+    if error is not None:
+        m.batch_results.labels(status="error").inc(error)
+
+
+BATCH_ROUTE = "/v1/batch"
+_SUMMARY_KEY = b'"summary"'
+
+
+def batch_summary(tail: bytes) -> dict | None:
+    """The ``summary`` object at the end of a batch answer (JSON or NDJSON), or None."""
+    at = tail.rfind(_SUMMARY_KEY)
+    if at < 0:
+        return None
+    start = tail.find(b"{", at)
+    end = tail.find(b"}", start)
+    try:
+        summary = orjson.loads(tail[start:end + 1])
+    except orjson.JSONDecodeError:
+        return None
+    if not isinstance(summary, dict) or not all(
+            isinstance(summary.get(k), int) for k in ("ok", "error")):
+        return None
+    return summary
+
+
+def _record_summary(tail: bytes) -> None:
+    summary = batch_summary(tail)
+    if summary is not None:
+        record_batch(summary["ok"] + summary["error"], summary["ok"], summary["error"])
+
+
+def _watch_stream(chunks):
+    """Pass a streamed batch answer through, then count its closing summary line."""
+    tail = b""
+    try:
+        for chunk in chunks:
+            yield chunk
+            data = chunk.encode() if isinstance(chunk, str) else chunk
+            tail = (tail + data)[-1024:]
+    finally:
+        close = getattr(chunks, "close", None)
+        if close is not None:
+            close()
+    _record_summary(tail)
 
 
 def render_metrics() -> tuple[bytes, str]:
@@ -231,6 +285,11 @@ def install(app: Flask) -> None:
         route = _route()
         m.requests.labels(method=method, route=route, status=str(response.status_code)).inc()
         m.latency.labels(method=method, route=route).observe(elapsed)
+        if route == BATCH_ROUTE and response.status_code == 200:
+            if response.is_streamed:
+                response.response = _watch_stream(response.response)
+            else:
+                _record_summary(response.get_data()[-1024:])
         access_log.info("request", extra={"fields": {
             "method": method, "route": route, "path": request.path,
             "status": response.status_code, "duration_ms": round(elapsed * 1000, 3),

@@ -88,15 +88,48 @@ def test_fit_failures_counted_by_reason_code(app_with_probe):
     assert value(samples(client), name, reason="insufficient_design") == before + 1
 
 
-def test_batch_sizes_histogram(client):
-    name = "curvewise_batch_series"
-    before = samples(client)
-    observability.record_batch(3)
-    observability.record_batch(700)
-    after = samples(client)
-    assert value(after, name + "_count") - value(before, name + "_count") == 2
-    assert value(after, name + "_sum") - value(before, name + "_sum") == 703
-    assert value(after, name + "_bucket", le="5.0") - value(before, name + "_bucket", le="5.0") == 1
+BATCH = {"series": [{"id": "a", "x": [1, 2, 3, 4], "y": [1.0, 2.1, 2.9, 4.2]},
+                    {"id": "b", "x": [1, 1], "y": [1.0, 2.0]},
+                    {"id": "c", "x": [0, 1, 2], "y": [0.0, 1.0, 2.1]}],
+         "model": {"degree": 1}}
+
+
+def _batch_counts(client):
+    snap = samples(client)
+    return (value(snap, "curvewise_batch_series_count"), value(snap, "curvewise_batch_series_sum"),
+            value(snap, "curvewise_batch_results_total", status="ok"),
+            value(snap, "curvewise_batch_results_total", status="error"))
+
+
+def test_batch_sizes_and_results_from_json_answers(client):
+    before = _batch_counts(client)
+    response = client.post("/v1/batch", json=BATCH)
+    assert response.status_code == 200
+    summary = response.get_json()["summary"]
+    after = _batch_counts(client)
+    assert [a - b for a, b in zip(after, before, strict=True)] == [
+        1, 3, summary["ok"], summary["error"]]
+    assert summary["ok"] + summary["error"] == 3
+
+
+def test_batch_sizes_from_ndjson_streams(client):
+    lines = [json.dumps({"options": {"model": BATCH["model"]}})]
+    lines += [json.dumps(series) for series in BATCH["series"]]
+    before = _batch_counts(client)
+    response = client.post("/v1/batch", data="\n".join(lines) + "\n",
+                           content_type="application/x-ndjson")
+    assert response.status_code == 200 and response.is_streamed
+    last = json.loads(response.get_data().splitlines()[-1])
+    after = _batch_counts(client)
+    assert [a - b for a, b in zip(after, before, strict=True)] == [
+        1, 3, last["summary"]["ok"], last["summary"]["error"]]
+
+
+def test_batch_summary_reader_ignores_other_bodies():
+    assert observability.batch_summary(b'{"results": []}') is None
+    assert observability.batch_summary(b'..."summary": {"ok": "x", "error": 1}}') is None
+    assert observability.batch_summary(b'{"summary":{"ok":2,"error":0,"flagged":1}}') == {
+        "ok": 2, "error": 0, "flagged": 1}
 
 
 def test_logs_are_json_lines_with_request_id_and_never_bodies(app):
