@@ -81,20 +81,26 @@ def conversion(shift: float, scale: float, degree: int, intercept: bool,
     """
     s, c = EXTENDED(shift), EXTENDED(scale)
     a, b = (s, c) if inverse else (-s, EXTENDED(1) / c)
-    d = degree
-    t = np.zeros((d + 1, d + 1), dtype=EXTENDED)
-    apow = [EXTENDED(1)]
-    bpow = [EXTENDED(1)]
-    for _ in range(d):
-        apow.append(apow[-1] * a)
-        bpow.append(bpow[-1] * b)
-    for k in range(d + 1):
-        for j in range(k + 1):
-            # forward: column k scaled by c^-k; inverse: row j scaled by c^j
-            t[j, k] = comb(k, j) * apow[k - j] * (bpow[j] if inverse else bpow[k])
+    binom, gap, upper = _pattern(degree)
+    apow = np.cumprod(np.concatenate(([EXTENDED(1)], np.full(degree, a, dtype=EXTENDED))))
+    bpow = np.cumprod(np.concatenate(([EXTENDED(1)], np.full(degree, b, dtype=EXTENDED))))
+    # forward: column k scaled by c^-k; inverse: row j scaled by c^j
+    scale_by = bpow[:, None] if inverse else bpow[None, :]
+    t = binom * np.where(upper, apow[gap], 0) * scale_by
     t = t if intercept else t[1:, 1:]
     t.setflags(write=False)
     return t
+
+
+@lru_cache(maxsize=16)
+def _pattern(degree: int) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """Binomials ``C(k, j)``, exponent gaps ``k - j`` and the upper-triangle mask."""
+    k = np.arange(degree + 1)
+    gap = k[None, :] - k[:, None]
+    upper = gap >= 0
+    binom = np.array([[comb(int(kk), int(j)) if kk >= j else 0 for kk in k] for j in k],
+                     dtype=EXTENDED)
+    return binom, np.where(upper, gap, 0), upper
 
 
 def raw_coefficients(shift: float, scale: float, degree: int, intercept: bool,

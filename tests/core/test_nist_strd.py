@@ -90,4 +90,4 @@ def test_sequential_ss_against_derived_values(name):
     rows = report.anova[:-1]
     assert [r.term for r in rows] == [d["term"] for d in derived]
     for row, d in zip(rows, derived, strict=True):
-        assert significant_digits(row.sum_sq, d["sum_sq"]) >= 9.0, (row, d)
+        assert significant_digits(row.sum_sq, d["sum_sq"]) >= MIN_DIGITS, (row, d)
