@@ -109,9 +109,9 @@ def fit_block(u, z, w, valid, spec: BlockSpec, increasing: bool = False) -> dict
     out.update({key: val[rows, pick] for key, val in cand.items()})
     out["sigma"] = np.where(out["exact"], 0.0, out["sigma"])  # as fit_series: exact -> 0
     out.update(_coefficients(coef, b, p_row, out["sigma"], shift, scale, spec))
-    keep = np.arange(big_p)[None, :] >= p_row[:, None]  # effects the chosen model leaves out
-    resid = res + np.einsum("gk,kgn->gn", b * keep, q) if keep.any() else res
     low, high = int(p_row.min()), int(p_row.max())
+    keep = np.arange(low, big_p)[None, :] >= p_row[:, None]  # effects the model leaves out
+    resid = res + np.einsum("gk,kgn->gn", b[:, low:] * keep, q[low:]) if keep.any() else res
     lev = np.einsum("kgn,kgn->gn", q[:low], q[:low])
     for j in range(low, high):
         lev += (p_row > j)[:, None] * (q[j] * q[j])

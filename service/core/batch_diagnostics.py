@@ -90,8 +90,8 @@ def diagnose_block(fit: dict, valid: np.ndarray | None, u: np.ndarray, z: np.nda
         out_cut = np.where(usable & (df > 1), b2 * rss / (df - 1 + b2), np.inf)
         inf_cut = np.where(usable, cook_cut * p * rss / df, np.inf)
         one_h = 1 - h
-        r = e * e
-        r /= one_h
+        e2 = e * e
+        r = e2 / one_h
         outlier = r > out_cut[:, None]
         r *= h
         r /= one_h
@@ -104,7 +104,7 @@ def diagnose_block(fit: dict, valid: np.ndarray | None, u: np.ndarray, z: np.nda
 
     sw_w, sw_p = tests.shapiro_wilk(e, n, padded)
     dw = tests.durbin_watson(e, n, padded)
-    bp_lm, bp_p = tests.breusch_pagan(e, n, bp_basis, degree, padded)
+    bp_lm, bp_p = tests.breusch_pagan(e2, n, bp_basis, degree, padded)
     sw_w, sw_p, dw, bp_lm, bp_p = (np.where(usable, a, np.nan)
                                    for a in (sw_w, sw_p, dw, bp_lm, bp_p))
     lof_f = np.full(n.shape, np.nan)

@@ -143,27 +143,33 @@ def durbin_watson(e: np.ndarray, n: np.ndarray, padded: bool) -> np.ndarray:
         return (2 * ss - e[:, 0] ** 2 - last ** 2 - 2 * lag) / ss
 
 
-def breusch_pagan(e: np.ndarray, n: np.ndarray, q: np.ndarray, degree: np.ndarray,
+def breusch_pagan(e2: np.ndarray, n: np.ndarray, q: np.ndarray, degree: np.ndarray,
                   padded: bool) -> tuple[np.ndarray, np.ndarray]:
-    """Koenker's LM and its chi-squared p-value per row.
+    """Koenker's LM and its chi-squared p-value per row, from the squared residuals ``e2``.
 
     ``q`` (P, G, L) is an *unweighted* orthonormal basis of the powers of
-    ``t`` on each row's real points (constant first). Rows with degree < 1 or
+    ``t`` on each row's real points (constant first, 0 where padded). The
+    vectors after the first are orthogonal to the constant, so projecting
+    ``e2`` equals projecting its centred version. Rows with degree < 1 or
     ``n <= degree + 1`` get NaN.
     """
-    ni = n.astype(int)
-    z = e * e
-    zc = z - (z.sum(axis=1) / n)[:, None]
-    if padded:
-        zc *= _mask(ni, e.shape[1])
     top = int(degree.max()) if degree.size else 0
-    proj = np.zeros(e.shape[0])
-    for k in range(1, min(top, q.shape[0] - 1) + 1):
-        h = np.einsum("gn,gn->g", q[k], zc)
-        proj += np.where(k <= degree, h * h, 0.0)
+    top = min(top, q.shape[0] - 1)
+    proj = np.zeros(e2.shape[0])
+    if top >= 1:
+        h = np.einsum("kgn,gn->gk", q[1:top + 1], e2)
+        proj = (h * h * (np.arange(1, top + 1)[None, :] <= degree[:, None])).sum(axis=1)
+    total = e2.sum(axis=1)
+    ss = np.einsum("gn,gn->g", e2, e2) - total * total / n
+    close = np.flatnonzero(~(ss > 1e-8 * np.einsum("gn,gn->g", e2, e2)))
+    if close.size:   # nearly constant squared residuals: centre exactly
+        zc = e2[close] - (total[close] / n[close])[:, None]
+        if padded:
+            zc *= _mask(n[close].astype(int), e2.shape[1])
+        ss[close] = np.einsum("gn,gn->g", zc, zc)
     with np.errstate(all="ignore"):
-        lm = n * proj / np.einsum("gn,gn->g", zc, zc)
-        ok = (degree >= 1) & (n > degree + 1)
+        lm = n * proj / ss
+        ok = (degree >= 1) & (n > degree + 1) & (ss > 0)
         p = special.chdtrc(np.maximum(degree, 1), lm)
     return np.where(ok, lm, np.nan), np.where(ok, p, np.nan)
 
