@@ -8,9 +8,12 @@ import numpy as np
 import orjson
 import pytest
 import statsmodels.api as sm
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
 from scipy import stats
 
 from service.app import create_app
+from service.core.inverse import STATUSES
 from tests.conftest import load_nist
 
 PROBLEM = "application/problem+json"
@@ -173,3 +176,23 @@ def test_openapi_documents_both_endpoints_and_the_document(api):
     assert {"schema_version", "checksum", "r_factor", "basis_coefficients"} <= set(
         fitted["properties"])
     assert "checksum" in fitted["required"]
+
+
+@settings(max_examples=60, deadline=None, database=None, derandomize=True,
+          suppress_health_check=list(HealthCheck))
+@given(readings=st.lists(st.floats(-1e300, 1e300), min_size=1, max_size=6),
+       replicates=st.one_of(st.integers(-1, 10**9), st.lists(st.integers(0, 5), max_size=6)),
+       level=st.one_of(st.none(), st.floats(0.0, 1.0)),
+       risk=st.floats(0.001, 0.6))
+def test_invert_answers_200_or_422_for_any_readings(api, pontius_fit, readings, replicates,
+                                                    level, risk):
+    # Robustness over the wire with a genuine document: never a 5xx, strict JSON out.
+    response = _post(api, "/v1/invert", {"fitted_model": pontius_fit["fitted_model"],
+                                         "y": readings, "replicates": replicates,
+                                         "level": level, "detection_alpha": risk})
+    assert response.status_code in (200, 422), response.get_data(as_text=True)
+    body = orjson.loads(response.get_data())
+    if response.status_code == 200:
+        assert {e["status"] for e in body["estimates"]} <= set(STATUSES)
+    else:
+        assert response.mimetype == PROBLEM and body["errors"]
