@@ -24,6 +24,7 @@ from curvewise_client.results import (
     BatchItem,
     BatchResult,
     Estimates,
+    Families,
     Figure,
     FitResult,
     Predictions,
@@ -162,9 +163,9 @@ class Client:
                 **_drop_none(replicates=replicates, level=level, **options)}
         return build(Estimates, self._json("POST", "/v1/invert", body))
 
-    def families(self) -> Mapping[str, Any]:
+    def families(self) -> Families:
         """Model families, their options and the service limits (``GET /v1/families``)."""
-        return freeze(self._json("GET", "/v1/families"))
+        return build(Families, self._json("GET", "/v1/families"))
 
     def health(self) -> Mapping[str, Any]:
         """Liveness (``GET /healthz``)."""

@@ -346,6 +346,57 @@ class Figure:
         return target
 
 
+@dataclass(frozen=True, slots=True)
+class FamilyOption:
+    """One model option of a family: name, JSON type, default, allowed values."""
+
+    name: str
+    type: str | None = None
+    default: Any = None
+    choices: tuple[Any, ...] | None = None
+    description: str = ""
+
+
+@dataclass(frozen=True, slots=True)
+class Family:
+    """A model family the service fits, with its options."""
+
+    name: str
+    description: str = ""
+    options: tuple[FamilyOption, ...] = ()
+    select_methods: tuple[str, ...] = ()
+    transforms: tuple[str, ...] = ()
+
+
+@dataclass(frozen=True, slots=True)
+class Limits:
+    """This server's limits (``None`` when not sent)."""
+
+    max_body_bytes: int | None = None
+    max_points: int | None = None
+    max_degree: int | None = None
+    max_grid_points: int | None = None
+    max_series: int | None = None
+    max_total_points: int | None = None
+    request_timeout: float | None = None
+
+
+@dataclass(frozen=True, slots=True)
+class Families:
+    """The answer of ``GET /v1/families``: families, vocabularies, defaults and limits."""
+
+    families: tuple[Family, ...] = ()
+    missing_policies: tuple[str, ...] = ()
+    sections: tuple[str, ...] = ()
+    defaults: Mapping[str, Any] = field(default_factory=_empty)
+    limits: Limits | None = None
+    raw: Mapping[str, Any] = field(default_factory=_empty)
+
+    def __getitem__(self, name: str) -> Any:
+        """The decoded member ``name`` as sent (``families["limits"]["max_degree"]``)."""
+        return self.raw[name]
+
+
 def _rows(builder: Callable[[Any], Any]) -> Callable[[Any], tuple]:
     """Rows from a list of objects, or from an object of equal-length columns."""
     def convert(values: Any) -> tuple:
@@ -404,4 +455,6 @@ _CONVERT: dict[type, dict[str, Callable[[Any], Any]]] = {
     BatchResult: {"results": _items(_of(BatchItem))},
     Predictions: {"predictions": _rows(_of(PredictionRow))},
     Estimates: {"estimates": _rows(_of(Estimate))},
+    Families: {"families": _items(_of(Family)), "limits": _of(Limits)},
+    Family: {"options": _items(_of(FamilyOption))},
 }

@@ -123,8 +123,12 @@ def test_plot_through_the_client_decodes_at_the_asked_size(api, pontius):
 
 def test_families_lists_the_polynomial_family_and_limits(api):
     families = api.families()
-    assert [f["name"] for f in families["families"]] == ["polynomial"]
-    assert families["limits"]["max_degree"] >= 2
+    assert [f.name for f in families.families] == ["polynomial"]
+    (polynomial,) = families.families
+    assert "sequential_f" in polynomial.select_methods
+    select = [o for o in polynomial.options if o.name == "select"][0]
+    assert "bic" in select.choices
+    assert families.limits.max_degree >= 2 and families["limits"]["max_degree"] >= 2
 
 
 def test_health_answers(api):
