@@ -68,8 +68,7 @@ class Decomposition:
 
 
 def _sumsq(v: np.ndarray) -> float:
-    """Sum of squares without BLAS (einsum: no thread start-up on long vectors)."""
-    return float(np.einsum("i,i->", v, v))
+    return qr.dot(v, v)
 
 
 def decompose(u: np.ndarray, z: np.ndarray, w: np.ndarray | None, max_degree: int,

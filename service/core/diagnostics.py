@@ -25,6 +25,7 @@ from service.core import flags
 from service.core.anova import lack_of_fit
 from service.core.decomposition import Decomposition
 from service.core.normality import shapiro_wilk
+from service.core.qr import dot
 from service.core.results import Diagnostics, TestResult, frozen_array
 
 NAN = float("nan")
@@ -98,11 +99,11 @@ def _breusch_pagan(e: np.ndarray, dec: Decomposition, degree: int) -> TestResult
         rows = np.vander(dec.t, degree + 1, increasing=True)
         qa = np.linalg.qr(rows)[0].T
     proj = np.einsum("ij,j->i", qa, zc)
-    ss = float(np.einsum("i,i->", zc, zc))
+    ss = dot(zc, zc)
     if not ss > 0:
         return TestResult("breusch_pagan", NAN, NAN, (float(degree),),
                           "not computed: squared residuals are constant")
-    lm = n * float(proj @ proj) / ss
+    lm = n * dot(proj, proj) / ss
     pv = float(special.chdtrc(degree, lm))
     return TestResult("breusch_pagan", lm, pv, (float(degree),),
                       "Koenker's studentized LM test of constant variance against the powers of x")
@@ -110,7 +111,7 @@ def _breusch_pagan(e: np.ndarray, dec: Decomposition, degree: int) -> TestResult
 
 def _durbin_watson(e: np.ndarray) -> TestResult:
     d = np.diff(e)
-    ss = float(np.einsum("i,i->", e, e))
-    dw = float(np.einsum("i,i->", d, d)) / ss if ss > 0 else NAN
+    ss = dot(e, e)
+    dw = dot(d, d) / ss if ss > 0 else NAN
     return TestResult("durbin_watson", dw, NAN, None,
                       "serial correlation in the given order: ~2 none, <2 positive, >2 negative")

@@ -146,6 +146,14 @@ def _forward(r: np.ndarray, v: np.ndarray) -> np.ndarray:
     return q
 
 
+SHORT = 4096  # vectors up to this length use BLAS (lower call overhead); longer ones einsum
+
+
+def dot(a: np.ndarray, b: np.ndarray) -> float:
+    """Dot product of two 1-D float arrays: BLAS when short, einsum (no threads) when long."""
+    return float(a @ b) if a.size <= SHORT else float(np.einsum("i,i->", a, b))
+
+
 def rows_times_upper(u: np.ndarray, v: np.ndarray) -> np.ndarray:
     """``u' v`` for upper-triangular ``u`` (p x p) and rows ``v`` (p x n); BLAS only when short."""
     if v.shape[1] <= 1024:
