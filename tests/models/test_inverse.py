@@ -325,3 +325,17 @@ def test_weighted_calibration_interval_matches_statsmodels_wls_bands():
     frame = wls.get_prediction(at, weights=1.0).summary_frame(alpha=0.05)
     np.testing.assert_allclose(frame["obs_ci_upper"].iloc[0], y0, rtol=1e-9)
     np.testing.assert_allclose(frame["obs_ci_lower"].iloc[1], y0, rtol=1e-9)
+
+
+def test_exact_fit_without_residual_df_gives_x_but_no_interval():
+    # Three points, quadratic: no residual df, sigma undefined (null in the document). The
+    # estimate is still the root of the interpolating parabola (oracle: numpy.polyfit/roots).
+    from service.core.document import from_document, to_document
+
+    x, y = np.array([1.0, 2.0, 4.0]), np.array([1.0, 3.0, 6.0])  # vertex at 7.5
+    doc = to_document(_fit(x, y, 2))
+    assert doc["sigma"] is None and doc["df_residual"] == 0
+    estimate = invert(from_document(doc), [2.5]).estimates[0]
+    roots = np.roots(np.polyfit(x, y, 2) - [0, 0, 2.5]).real
+    np.testing.assert_allclose(estimate.x, roots[(roots >= 1) & (roots <= 4)][0], rtol=1e-12)
+    assert estimate.status == "interval_undefined" and np.isnan(estimate.lower)
