@@ -295,7 +295,7 @@ class _Curve:
         previous = t_hat
         if not self.gap(t_hat, y0, m) <= 0:  # the estimate itself is not resolved
             return math.nan
-        for k in range(200):
+        for k in range(int(4 * math.log2(max(self.far / step, 2.0))) + 2):  # out to `far`
             t = t_hat + side * step * 2.0 ** (k / 4)
             if abs(t - t_hat) > self.far:
                 return math.nan
