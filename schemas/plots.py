@@ -92,7 +92,7 @@ def _default_plot() -> dict:
 
 
 class PlotRequestSchema(FitRequestSchema):
-    """A /v1/fit body plus ``plot``: fit one series and draw it."""
+    """A /v1/fit body plus ``plot``: fit one series and draw it (``include`` is ignored)."""
 
     plot = fields.Nested(PlotOptionsSchema, load_default=_default_plot, metadata={
         "description": "What to draw. Default: the fit panel, 800 x 600 px at 100 dpi."})
