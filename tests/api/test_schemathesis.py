@@ -30,7 +30,7 @@ pytestmark = pytest.mark.slow
 
 @SCHEMA.exclude(path=SLOW).parametrize()
 @seed(20261201)
-@settings(max_examples=40, deadline=None, database=None, derandomize=True,
+@settings(max_examples=100, deadline=None, database=None, derandomize=True,
           suppress_health_check=list(HealthCheck))
 def test_operations_conform(case):
     case.call_and_validate(checks=CHECKS)
