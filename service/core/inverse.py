@@ -295,8 +295,10 @@ class _Curve:
         previous = t_hat
         if not self.gap(t_hat, y0, m) <= 0:  # the estimate itself is not resolved
             return math.nan
-        for k in range(int(4 * math.log2(max(self.far / step, 2.0))) + 2):  # out to `far`
-            t = t_hat + side * step * 2.0 ** (k / 4)
+        ratio = self.far / step
+        steps = int(4 * math.log2(ratio)) + 2 if 2.0 < ratio < math.inf else 4400
+        for k in range(min(steps, 4400)):  # geometric, out to the horizon `far`
+            t = t_hat + side * math.exp(math.log(step) + 0.25 * k * math.log(2.0))
             if abs(t - t_hat) > self.far:
                 return math.nan
             value = self.gap(t, y0, m)
