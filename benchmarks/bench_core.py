@@ -12,7 +12,8 @@ with mean, new-observation and simultaneous bands.
 * n = 100,000: ``fit_series`` vs ``np.polyfit`` called for the four degrees
   (coefficients only; target: >= 5x faster).
 
-Run: ``.venv/bin/python benchmarks/bench_core.py`` (seeded data, best of repeats).
+Run: ``.venv/bin/python benchmarks/bench_core.py`` (seeded data; best of interleaved rounds,
+so a busy machine slows every contender alike).
 """
 
 from __future__ import annotations
@@ -103,11 +104,23 @@ def polyfit4(x, y):
     return [np.polyfit(x, y, d) for d in range(1, 5)]
 
 
-def best_time(func, *args, budget=1.0, repeat=5) -> float:
-    """Best per-call time (s), each repeat running about budget/repeat seconds."""
-    once = timeit.timeit(lambda: func(*args), number=1)
-    number = max(1, int(budget / repeat / max(once, 1e-7)))
-    return min(timeit.repeat(lambda: func(*args), number=number, repeat=repeat)) / number
+def best_times(funcs, *args, rounds: int = 7, burst: float = 0.15) -> list[float]:
+    """Best per-call time (s) of each function, measured in interleaved rounds.
+
+    Each round times every function for about ``burst`` seconds, one after the
+    other, so a load spike on a shared machine hits all of them alike; the best
+    round of each is kept.
+    """
+    numbers = []
+    for func in funcs:
+        once = timeit.timeit(lambda f=func: f(*args), number=1)
+        numbers.append(max(1, int(burst / max(once, 1e-7))))
+    best = [float("inf")] * len(funcs)
+    for _ in range(rounds):
+        for i, (func, number) in enumerate(zip(funcs, numbers, strict=True)):
+            t = timeit.timeit(lambda f=func: f(*args), number=number) / number
+            best[i] = min(best[i], t)
+    return best
 
 
 def main() -> int:
@@ -116,15 +129,12 @@ def main() -> int:
     chosen = curvewise(x, y).selection.chosen_degree
     fits = [sm.OLS(y, np.vander(x, d + 1, increasing=True)).fit() for d in range(1, 5)]
     print(f"chosen degree (n = 100): fit_series {chosen}, statsmodels {_choose(fits) + 1}")
-    t_cw = best_time(curvewise, x, y)
-    t_sf = best_time(statsmodels_formula, x, y, budget=3.0)
-    t_sa = best_time(statsmodels_array, x, y, budget=2.0)
+    t_cw, t_sf, t_sa = best_times([curvewise, statsmodels_formula, statsmodels_array], x, y)
     print(f"n = 100       fit_series {t_cw * 1e6:9.1f} us | statsmodels formula "
           f"{t_sf * 1e3:7.2f} ms ({t_sf / t_cw:6.1f}x, target 300x) | statsmodels array "
           f"{t_sa * 1e3:7.2f} ms ({t_sa / t_cw:6.1f}x, target 40x)")
     x, y = data(100_000)
-    t_cw = best_time(curvewise, x, y, budget=3.0)
-    t_pf = best_time(polyfit4, x, y, budget=3.0)
+    t_cw, t_pf = best_times([curvewise, polyfit4], x, y, burst=0.3)
     print(f"n = 100,000   fit_series {t_cw * 1e3:9.2f} ms | np.polyfit x4 {t_pf * 1e3:7.2f} ms "
           f"({t_pf / t_cw:6.2f}x, target 5x)")
     return 0
