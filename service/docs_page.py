@@ -91,7 +91,7 @@ def render_openapi(spec: dict) -> str:
                 parts.append(f"<p>Request body: {_content_schema(body.get('content'))}</p>")
             rows = "".join(
                 f"<tr><td>{escape(str(code))}</td><td>{escape(_resolve_response(spec, r))}"
-                f"</td></tr>" for code, r in op.get("responses", {}).items())
+                f"</td></tr>" for code, r in sorted(op.get("responses", {}).items()))
             parts.append(f"<table><tr><th>status</th><th>meaning</th></tr>{rows}</table>")
     parts.append("<h2>Schemas</h2>")
     for name, schema in spec.get("components", {}).get("schemas", {}).items():

@@ -7,8 +7,10 @@ from http import HTTPStatus
 from flask import current_app
 from flask_smorest import Blueprint
 
+from schemas.common import ProblemSchema
 from schemas.fit import FitRequestSchema, FitResponseSchema
 from service.core import fit_series
+from service.errors import PROBLEM_MIME
 from service.limits import check_series
 from service.reporting import fit_response
 from service.requests import fit_options, model_spec
@@ -22,10 +24,10 @@ ERRORS = {400: "Unparsable body (not strict JSON: e.g. NaN or Infinity tokens)."
 
 
 def document_errors(view):
-    """Attach the problem+json error responses (components by status name) to a view."""
+    """Attach the problem+json error responses, each with what it means here, to a view."""
     for status, description in ERRORS.items():
-        view = blp.alt_response(status, description=description,
-                                response=HTTPStatus(status).name)(view)
+        view = blp.alt_response(status, schema=ProblemSchema, content_type=PROBLEM_MIME,
+                                description=f"{HTTPStatus(status).phrase}: {description}")(view)
     return view
 
 
