@@ -62,7 +62,7 @@ def predict(fitted: FittedPolynomial, x, *, level: float | None = None, m: int =
     if isinstance(m, bool) or int(m) != m or m < 1:
         raise SpecError(f"m = {m!r} is not a positive whole number.", field="m",
                         fix="Give the number of future observations to average (1 or more).")
-    xs = np.atleast_1d(np.asarray(x, dtype=float))
+    xs = np.array(x, dtype=float, ndmin=1)  # a copy: the result freezes it
     if xs.ndim != 1:
         raise DataError("x must be one-dimensional.", field="x", fix="Send a flat list of numbers.")
     if not np.isfinite(xs).all():

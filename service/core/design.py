@@ -22,10 +22,11 @@ def powers(degree: int, intercept: bool) -> np.ndarray:
     return np.arange(0 if intercept else 1, degree + 1)
 
 
+@lru_cache(maxsize=64)
 def term_names(degree: int, intercept: bool) -> tuple[str, ...]:
     """``("intercept", "x", "x^2", ...)``: names of the coefficients in entry order."""
     return tuple("intercept" if k == 0 else "x" if k == 1 else f"x^{k}"
-                 for k in powers(degree, intercept))
+                 for k in range(0 if intercept else 1, degree + 1))
 
 
 def scaling(u: np.ndarray, intercept: bool) -> tuple[float, float]:

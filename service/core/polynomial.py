@@ -183,11 +183,10 @@ def _conditions(r, shift, scale, degree, intercept) -> tuple[float, float]:
     The raw one is taken with unit-norm columns (the usual scaled condition
     number): ``R T^-1`` is the R factor of the raw design.
     """
-    tinv = np.asarray(design.conversion(shift, scale, degree, intercept, inverse=True),
-                      dtype=float)
+    tm = design.conversion(shift, scale, degree, intercept).astype(float)
     with np.errstate(all="ignore"):
-        rr = r @ tinv
-        rr = rr / np.sqrt(np.einsum("ij,ij->j", rr, rr))
+        rr = np.linalg.solve(tm.T, r.T).T  # R T^-1
+        rr /= np.sqrt((rr * rr).sum(axis=0))
         sv = np.linalg.svd(np.stack([r, rr]), compute_uv=False)
     c = sv[:, 0] / sv[:, -1]
     return float(c[0]), float(c[1])
