@@ -12,6 +12,7 @@ from __future__ import annotations
 
 import http.client
 import io
+import socket
 import sys
 import threading
 from collections.abc import Callable, Iterable, Iterator
@@ -27,12 +28,14 @@ class Response:
 
     def __init__(self, status: int, headers: dict[str, str], chunks: Iterator[bytes],
                  close: Callable[[], None] = lambda: None,
-                 readline: Callable[[], bytes] | None = None) -> None:
+                 readline: Callable[[], bytes] | None = None,
+                 check: Callable[[], None] = lambda: None) -> None:
         self.status = status
         self.headers = headers
         self._chunks = chunks
         self._close = close
         self._readline = readline
+        self._check = check  # raises the caller's own body-iterator error, if there was one
 
     @property
     def content_type(self) -> str:
@@ -42,7 +45,9 @@ class Response:
     def read(self) -> bytes:
         """The whole body; closes the response."""
         try:
-            return b"".join(self._chunks)
+            data = b"".join(self._chunks)
+            self._check()
+            return data
         finally:
             self.close()
 
@@ -53,6 +58,7 @@ class Response:
                 while line := self._readline():
                     if line.strip():
                         yield line.rstrip(b"\r\n")
+                self._check()
                 return
             pending = b""
             for chunk in self._chunks:
@@ -61,6 +67,7 @@ class Response:
                 yield from (line.rstrip(b"\r") for line in lines if line.strip())
             if pending.strip():
                 yield pending.rstrip(b"\r")
+            self._check()
         finally:
             self.close()
 
@@ -99,9 +106,11 @@ class HTTPTransport:
             raw = conn.getresponse()
         except TimeoutError as exc:
             conn.close()
+            _raise_source_error(writer)
             raise RequestTimeout(f"{method} {url}: no answer within {timeout} s") from exc
         except (ConnectionError, OSError, http.client.HTTPException) as exc:
             conn.close()
+            _raise_source_error(writer)
             cause = writer.error if writer is not None and writer.error is not None else exc
             raise ConnectError(f"{method} {url}: {type(cause).__name__}: {cause}") from cause
         headers_out = {k.lower(): v for k, v in raw.getheaders()}
@@ -112,8 +121,20 @@ class HTTPTransport:
             if writer is not None:
                 writer.join(timeout=5.0)
 
-        return Response(raw.status, headers_out, _guarded(_read_chunks(raw), url, timeout),
-                        close=close, readline=_guarded_readline(raw, url, timeout))
+        def check() -> None:
+            _raise_source_error(writer)
+
+        return Response(raw.status, headers_out, _guarded(_read_chunks(raw), url, timeout, writer),
+                        close=close, readline=_guarded_readline(raw, url, timeout, writer),
+                        check=check)
+
+
+def _raise_source_error(writer: _ChunkWriter | None) -> None:
+    """Re-raise, in the caller's thread, an exception from the caller's own body iterator."""
+    if writer is not None:
+        writer.join(timeout=1.0)
+        if writer.source_error is not None:
+            raise writer.source_error
 
 
 class _ChunkWriter(threading.Thread):
@@ -121,16 +142,39 @@ class _ChunkWriter(threading.Thread):
 
     def __init__(self, conn: http.client.HTTPConnection, chunks: Iterable[bytes]) -> None:
         super().__init__(name="curvewise-body-writer", daemon=True)
-        self.conn, self.chunks, self.error = conn, chunks, None
+        self.conn, self.chunks = conn, chunks
+        self.error: BaseException | None = None          # the socket failed
+        self.source_error: BaseException | None = None   # the caller's iterator failed
 
     def run(self) -> None:
-        try:
-            for chunk in self.chunks:
+        iterator = iter(self.chunks)
+        while True:
+            try:
+                chunk = next(iterator)
+            except StopIteration:
+                break
+            except BaseException as exc:  # noqa: BLE001 - re-raised in the caller's thread
+                self.source_error = exc
+                self._abort()  # the body is incomplete: never let it pass as a whole one
+                return
+            try:
                 if chunk:
                     self.conn.send(b"%X\r\n%s\r\n" % (len(chunk), chunk))
+            except OSError as exc:  # reported through the reading side
+                self.error = exc
+                return
+        try:
             self.conn.send(b"0\r\n\r\n")
-        except Exception as exc:  # noqa: BLE001 - reported through the reading side
+        except OSError as exc:
             self.error = exc
+
+    def _abort(self) -> None:
+        sock = self.conn.sock
+        if sock is not None:
+            try:
+                sock.shutdown(socket.SHUT_RDWR)
+            except OSError:
+                pass
 
 
 def _read_chunks(raw: http.client.HTTPResponse, size: int = 65536) -> Iterator[bytes]:
@@ -138,23 +182,28 @@ def _read_chunks(raw: http.client.HTTPResponse, size: int = 65536) -> Iterator[b
         yield chunk
 
 
-def _guarded(chunks: Iterator[bytes], url: str, timeout: float | None) -> Iterator[bytes]:
+def _guarded(chunks: Iterator[bytes], url: str, timeout: float | None,
+             writer: _ChunkWriter | None) -> Iterator[bytes]:
     try:
         yield from chunks
     except TimeoutError as exc:
+        _raise_source_error(writer)
         raise RequestTimeout(f"{url}: body not complete within {timeout} s") from exc
-    except (http.client.HTTPException, ConnectionError) as exc:
+    except (http.client.HTTPException, OSError) as exc:
+        _raise_source_error(writer)
         raise ProtocolError(f"{url}: broken response body: {exc!r}") from exc
 
 
-def _guarded_readline(raw: http.client.HTTPResponse, url: str,
-                      timeout: float | None) -> Callable[[], bytes]:
+def _guarded_readline(raw: http.client.HTTPResponse, url: str, timeout: float | None,
+                      writer: _ChunkWriter | None) -> Callable[[], bytes]:
     def readline() -> bytes:
         try:
             return raw.readline()
         except TimeoutError as exc:
+            _raise_source_error(writer)
             raise RequestTimeout(f"{url}: next line not within {timeout} s") from exc
-        except (http.client.HTTPException, ConnectionError) as exc:
+        except (http.client.HTTPException, OSError) as exc:
+            _raise_source_error(writer)
             raise ProtocolError(f"{url}: broken response body: {exc!r}") from exc
     return readline
 

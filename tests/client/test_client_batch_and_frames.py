@@ -103,3 +103,17 @@ def test_result_frames_of_one_fit(api):
     pred = frames.predictions_frame(api.predict(fit, [1.0, 2.0]))
     expected = model.get_prediction(np.vander([1.0, 2.0], 3, increasing=True)).predicted_mean
     np.testing.assert_allclose(pred["fit"], expected, rtol=1e-9)
+
+
+class _Boom(Exception):
+    pass
+
+
+def test_an_error_in_the_callers_iterator_surfaces_as_itself(api):
+    def series():
+        yield from _series(3)
+        raise _Boom("the caller's own reader failed")
+
+    with pytest.raises(_Boom):
+        with api.batch_stream(series(), model={"degree": 1}) as stream:
+            list(stream)

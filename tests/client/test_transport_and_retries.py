@@ -176,3 +176,23 @@ def test_a_compute_timeout_503_is_not_retried(stub):
         client.fit([1, 2, 3], [1, 2, 3])
     assert isinstance(info.value, ServiceUnavailable)
     assert len(stub.seen) == 1 and pauses == [] and info.value.problem.detail == "send less"
+
+
+class _Boom(Exception):
+    pass
+
+
+def test_an_error_in_the_callers_series_iterator_reaches_the_caller(stub):
+    def series():
+        yield {"id": "s0", "x": [1, 2, 3], "y": [1, 2, 3]}
+        yield {"id": "s1", "x": [1, 2, 3], "y": [1, 2, 4]}
+        raise _Boom("bad row 3 in the caller's own file")
+
+    client = Client(stub.url, timeout=5)
+    started = time.monotonic()
+    got = []
+    with pytest.raises(_Boom, match="bad row 3"):
+        for item in _stream(client, series()):
+            got.append(item.id)
+    assert time.monotonic() - started < 4  # raised at once, not after the read timeout
+    assert got in ([], ["s0"], ["s0", "s1"])  # never a result past the failure
