@@ -43,7 +43,9 @@ do harm and may help: on :class:`ServiceUnavailable` (but not
 :class:`ComputeTimeout`) and :class:`ConnectError` for every
 endpoint (they are all pure computations — nothing is stored server side),
 and on :class:`RequestTimeout` only for GET requests. A streamed NDJSON batch
-is never retried, because its input iterator has already been consumed.
+is never retried, because its input iterator has already been consumed; an
+exception raised by that iterator itself is not wrapped: it reaches the caller
+unchanged, and the half-sent body is aborted so it can never pass as complete.
 After the last attempt the last error is raised; ``error.attempts`` says how
 many attempts were made.
 """
