@@ -101,3 +101,11 @@ def test_grid_step_and_stored_model_agree_exactly():
                  "band_lower", "band_upper"):
         assert np.array_equal(getattr(again, name), getattr(rep.grid, name)), name
     assert "extrapolation" in {f.code for f in rep.flags}
+
+
+def test_predict_leaves_the_callers_array_writable():
+    x, y = _data(2)
+    gx = np.linspace(0, 4, 5)
+    predict(fit_series(x, y, model=ModelSpec(degree=1)).model, gx)
+    gx[0] = 1.0  # results are frozen copies; the caller's array is untouched
+    assert gx.flags.writeable
