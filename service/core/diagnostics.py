@@ -92,7 +92,7 @@ def _breusch_pagan(e: np.ndarray, dec: Decomposition, degree: int) -> TestResult
         return TestResult("breusch_pagan", NAN, NAN, None,
                           "needs at least one power of x and more points than coefficients")
     z = e * e
-    zc = z - z.mean()
+    zc = z - z.sum() / n
     if dec.sqrt_w is None and dec.intercept:
         qa = dec.q[:degree + 1]  # already an orthonormal basis of (1, t, ..., t^d)
     else:
