@@ -22,6 +22,7 @@ from service.core.flags import trust_flags
 from service.core.grid import grid_points
 from service.core.inputs import check_spec, clean_data
 from service.core.normality import MAX_N as SHAPIRO_MAX_N
+from service.core.qr import EXTENDED_IS_WIDER, EXTENDED_MAX_ROWS
 from service.core.results import (
     Coefficient,
     FitReport,
@@ -115,6 +116,11 @@ def fit_series(x, y, weights=None, *, model: ModelSpec = _DEFAULT_MODEL,
         notices.append(Notice("normality_test_skipped",
                               f"Shapiro-Wilk was not computed: it is defined for at most "
                               f"{SHAPIRO_MAX_N} points (this series has {n})."))
+    if not EXTENDED_IS_WIDER or n > EXTENDED_MAX_ROWS:
+        notices.append(Notice("float64_only",
+                              "This fit ran in float64 only (long series, or no extended "
+                              "precision on this platform): raw-power coefficients of high "
+                              "degree may carry a few digits fewer."))
     if model.transform_y != "none":
         notices.append(Notice("retransformation_bias",
                               f"y was fitted on the {model.transform_y} scale; predictions are "

@@ -24,6 +24,8 @@ from functools import lru_cache
 import numpy as np
 
 EXTENDED = np.longdouble
+# False where longdouble is plain float64 (e.g. some ARM and Windows builds): ~3 digits fewer
+EXTENDED_IS_WIDER = bool(np.finfo(EXTENDED).eps < np.finfo(float).eps)
 EXTENDED_MAX_ROWS = 5_000  # above this, float64 CholeskyQR2 (speed); see module docstring
 CHOLQR_MAX_COND = 1e7
 ONE_PASS_COND = 1e2  # eps * cond^2 ~ 2e-12
