@@ -203,7 +203,7 @@ def _json_batch(settings):
 def _stream(settings):
     """Read series line by line, fit them chunk by chunk, write one result per line."""
     job, pending, n_series, n_points, line_no = None, [], 0, 0, 0
-    for raw in request.stream:
+    for raw in _lines(request.stream):
         line_no += 1
         if not raw.strip():
             continue
@@ -251,6 +251,29 @@ def _stream(settings):
     job = job or _Job(OptionsLineSchema().load({}), settings)
     yield from _flush(job, pending)
     yield _line({"summary": job.counts})
+
+
+def _lines(stream, size: int = 1 << 16):
+    """Lines of a byte stream, read in blocks (iterating the raw WSGI stream reads a byte
+    at a time). Memory: one block plus the longest line; long lines are joined once."""
+    pieces: list[bytes] = []
+    while True:
+        block = stream.read(size)
+        if not block:
+            break
+        start = 0
+        while True:
+            end = block.find(b"\n", start)
+            if end < 0:
+                pieces.append(block[start:])
+                break
+            pieces.append(block[start:end])
+            yield b"".join(pieces)
+            pieces = []
+            start = end + 1
+    tail = b"".join(pieces)
+    if tail:
+        yield tail
 
 
 def _flush(job: _Job, pending):
