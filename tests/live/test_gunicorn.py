@@ -58,3 +58,17 @@ def test_oversize_body_is_refused_before_it_is_sent(live_url):
     status_line = answer.split(b"\r\n", 1)[0]
     assert b" 413 " in status_line, answer[:300]
     assert b"application/problem+json" in answer
+
+
+def test_truncated_body_is_a_400_problem(live_url):
+    # The client declares 100 bytes, sends 9 and stops sending: a clear 400, not a hang or 500.
+    host, port = live_url.removeprefix("http://").split(":")
+    with socket.create_connection((host, int(port)), timeout=10.0) as sock:
+        sock.sendall(b"POST /v1/fit HTTP/1.1\r\nHost: x\r\nContent-Type: application/json\r\n"
+                     b"Content-Length: 100\r\n\r\n{\"x\": [1,")
+        sock.shutdown(socket.SHUT_WR)
+        answer = b""
+        while chunk := sock.recv(65536):
+            answer += chunk
+    assert answer.startswith(b"HTTP/1.1 400"), answer[:300]
+    assert b"application/problem+json" in answer and b"declared" in answer
