@@ -178,6 +178,25 @@ def best_of(fn, repeats: int) -> float:
     return min(times)
 
 
+def field_speed(n: int = 200_000) -> None:
+    """The bulk numeric-array field against marshmallow's List(Float), same values."""
+    from marshmallow import Schema, fields
+
+    from schemas.fields import NumberArray
+
+    class Bulk(Schema):
+        v = NumberArray()
+
+    class PerValue(Schema):
+        v = fields.List(fields.Float())
+
+    values = {"v": np.random.default_rng(20261203).normal(size=n).tolist()}
+    bulk = best_of(lambda: Bulk().load(values), 3) / n * 1e9
+    per_value = best_of(lambda: PerValue().load(values), 1) / n * 1e9
+    print(f"array validation per value: NumberArray {bulk:.0f} ns, List(Float) {per_value:.0f} "
+          f"ns; {per_value / bulk:.0f}x")
+
+
 def main(argv=None) -> int:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--seconds", type=float, default=3.0, help="length of one round")
@@ -195,6 +214,7 @@ def main(argv=None) -> int:
             run_load(port, args)
         if args.only != "load":
             run_big(port, args)
+            field_speed()
     finally:
         stop_server(server)
     return 0
