@@ -3,12 +3,12 @@
 from __future__ import annotations
 
 import json
-import math
 import time
 from collections.abc import Callable, Iterable, Iterator, Mapping, Sequence
 from typing import Any
 
 from curvewise_client import __version__
+from curvewise_client.bodies import document, drop_none, encode, fit_body, numbers, series_body
 from curvewise_client.errors import (
     ApiError,
     ComputeTimeout,
@@ -21,7 +21,6 @@ from curvewise_client.errors import (
     api_error_for,
 )
 from curvewise_client.results import (
-    BatchItem,
     BatchResult,
     Estimates,
     Families,
@@ -30,8 +29,8 @@ from curvewise_client.results import (
     Predictions,
     build,
     freeze,
-    thaw,
 )
+from curvewise_client.streaming import BatchStream
 from curvewise_client.transport import HTTPTransport, Response
 
 JSON = "application/json"
@@ -115,7 +114,7 @@ class Client:
               model: Mapping[str, Any] | None = None, detail: str | None = None,
               **options: Any) -> BatchResult:
         """Fit many series in one JSON call (``POST /v1/batch``), results in order."""
-        body = {"series": [_series(s) for s in series], **_drop_none(
+        body = {"series": [series_body(s) for s in series], **drop_none(
             model=dict(model) if model else None, detail=detail, **options)}
         return build(BatchResult, self._json("POST", "/v1/batch", body))
 
@@ -128,20 +127,20 @@ class Client:
         consumed lazily while results come back. Shared options (``model``,
         ``detail``...) travel in the first line as ``{"options": {...}}``.
         """
-        shared = _drop_none(model=dict(model) if model else None, detail=detail, **options)
+        shared = drop_none(model=dict(model) if model else None, detail=detail, **options)
 
         def lines() -> Iterator[bytes]:
             if shared:
                 yield encode({"options": shared}) + b"\n"
             for item in series:
-                yield encode(_series(item)) + b"\n"
+                yield encode(series_body(item)) + b"\n"
 
         response = self._request("POST", "/v1/batch", lines(), content_type=NDJSON,
                                  accept=NDJSON, retry=False)
         if response.content_type != NDJSON:
             response.close()
             raise ProtocolError(f"/v1/batch answered {response.content_type!r}, not NDJSON")
-        return _stream_items(response)
+        return BatchStream(response)
 
     def predict(self, fitted_model: Mapping[str, Any] | FitResult, x: Sequence[float], *,
                 level: float | None = None, replicates: int | None = None,
@@ -151,16 +150,16 @@ class Client:
         ``replicates`` = m widens the observation band to cover the mean of m
         future observations (default 1).
         """
-        body = {"fitted_model": _document(fitted_model), "x": _numbers(x),
-                **_drop_none(level=level, replicates=replicates, **options)}
+        body = {"fitted_model": document(fitted_model), "x": numbers(x),
+                **drop_none(level=level, replicates=replicates, **options)}
         return build(Predictions, self._json("POST", "/v1/predict", body))
 
     def invert(self, fitted_model: Mapping[str, Any] | FitResult, y: Sequence[float], *,
                replicates: int | None = None, level: float | None = None,
                **options: Any) -> Estimates:
         """Read x back from observed y (``POST /v1/invert``)."""
-        body = {"fitted_model": _document(fitted_model), "y": _numbers(y),
-                **_drop_none(replicates=replicates, level=level, **options)}
+        body = {"fitted_model": document(fitted_model), "y": numbers(y),
+                **drop_none(replicates=replicates, level=level, **options)}
         return build(Estimates, self._json("POST", "/v1/invert", body))
 
     def families(self) -> Families:
@@ -222,78 +221,6 @@ class Client:
         return pause
 
 
-def fit_body(x: Sequence[float], y: Sequence[float], *, weights: Sequence[float] | None = None,
-             model: Mapping[str, Any] | None = None, degree: int | None = None,
-             max_degree: int | None = None, select: str | None = None,
-             grid: Mapping[str, Any] | None = None, level: float | None = None,
-             **options: Any) -> dict[str, Any]:
-    """The ``/v1/fit`` request body as a dict (shortcuts merged into ``model``)."""
-    spec = dict(model or {})
-    spec.update(_drop_none(degree=degree, max_degree=max_degree, select=select))
-    body: dict[str, Any] = {"x": _numbers(x), "y": _numbers(y)}
-    if weights is not None:
-        body["weights"] = _numbers(weights)
-    body.update(_drop_none(model=spec or None, grid=dict(grid) if grid else None, level=level,
-                           **options))
-    return body
-
-
-def encode(payload: Any) -> bytes:
-    """Compact JSON; floats keep every digit; NaN becomes null; infinity is refused."""
-    try:
-        return json.dumps(payload, allow_nan=False, separators=(",", ":"),
-                          default=_default).encode()
-    except ValueError:
-        return json.dumps(_nan_to_none(payload), allow_nan=False, separators=(",", ":"),
-                          default=_default).encode()
-
-
-def _nan_to_none(value: Any, path: str = "") -> Any:
-    if isinstance(value, float) and not math.isfinite(value):
-        if math.isnan(value):
-            return None
-        raise ValueError(f"{path or 'value'} is infinite; JSON has no infinity — send a finite "
-                         "number or drop the point")
-    if isinstance(value, Mapping):
-        return {k: _nan_to_none(v, f"{path}.{k}" if path else str(k)) for k, v in value.items()}
-    if isinstance(value, (list, tuple)):
-        return [_nan_to_none(v, f"{path}[{i}]") for i, v in enumerate(value)]
-    return value
-
-
-def _default(obj: Any) -> Any:
-    if isinstance(obj, Mapping):
-        return dict(obj)
-    if hasattr(obj, "tolist"):  # numpy arrays/scalars, pandas Series, without importing them
-        return obj.tolist()
-    raise TypeError(f"cannot send a {type(obj).__name__} as JSON")
-
-
-def _numbers(values: Any) -> Any:
-    if hasattr(values, "tolist"):
-        return values.tolist()
-    return list(values)
-
-
-def _drop_none(**members: Any) -> dict[str, Any]:
-    return {k: v for k, v in members.items() if v is not None}
-
-
-def _series(item: Mapping[str, Any]) -> dict[str, Any]:
-    out = {k: v for k, v in dict(item).items() if v is not None}
-    for key in ("x", "y", "weights"):
-        if key in out:
-            out[key] = _numbers(out[key])
-    return out
-
-
-def _document(fitted_model: Mapping[str, Any] | FitResult) -> dict[str, Any]:
-    if isinstance(fitted_model, FitResult):
-        if fitted_model.fitted_model is None:
-            raise ValueError("this fit result carries no fitted_model (was it excluded?)")
-        fitted_model = fitted_model.fitted_model
-    return thaw(fitted_model)
-
 
 def _api_error(response: Response) -> ApiError:
     raw = response.read()
@@ -307,46 +234,3 @@ def _api_error(response: Response) -> ApiError:
                 "detail": text or "the service sent no problem details"}
     return api_error_for(response.status, Problem.from_json(body, response.status),
                          response.headers)
-
-
-class BatchStream:
-    """The results of a streamed batch, one :class:`BatchItem` per series as it arrives.
-
-    Iterate it once. ``summary`` (the counts) is set when the final summary
-    line has been read; ``close()`` (or a ``with`` block) drops the connection early.
-    """
-
-    def __init__(self, response: Response) -> None:
-        self._response = response
-        self._lines = response.iter_lines()
-        self.summary: Mapping[str, Any] | None = None
-
-    def __iter__(self) -> BatchStream:
-        return self
-
-    def __next__(self) -> BatchItem:
-        for line in self._lines:
-            try:
-                data = json.loads(line)
-            except ValueError as exc:
-                raise ProtocolError(f"/v1/batch sent a line that is not JSON: {line[:200]!r}"
-                                    ) from exc
-            if isinstance(data, dict) and "summary" in data and "status" not in data:
-                self.summary = freeze(data["summary"])
-                continue
-            return build(BatchItem, data)
-        raise StopIteration
-
-    def close(self) -> None:
-        """Stop reading and release the connection."""
-        self._response.close()
-
-    def __enter__(self) -> BatchStream:
-        return self
-
-    def __exit__(self, *exc_info: Any) -> None:
-        self.close()
-
-
-def _stream_items(response: Response) -> BatchStream:
-    return BatchStream(response)

@@ -26,7 +26,7 @@ from curvewise_client import (
     UnsupportedMediaType,
     WSGITransport,
 )
-from curvewise_client.client import encode
+from curvewise_client.bodies import encode
 
 # The response example of the wire contract (shared/design/contract.md), trimmed.
 FIT_RESPONSE = {

@@ -159,12 +159,14 @@ def test_ndjson_streaming_is_full_duplex(stub):
 
 def _stream(client: Client, series):
     """``Client.batch_stream`` against the stub's echo route (same transport code path)."""
-    from curvewise_client.client import NDJSON, _stream_items, encode
+    from curvewise_client.bodies import encode
+    from curvewise_client.client import NDJSON
+    from curvewise_client.streaming import BatchStream
 
     lines = (encode(s) + b"\n" for s in series)
     response = client._request("POST", "/echo-lines", lines, content_type=NDJSON,
                                accept=NDJSON, retry=False)
-    return _stream_items(response)
+    return BatchStream(response)
 
 
 def test_a_compute_timeout_503_is_not_retried(stub):

@@ -1,0 +1,39 @@
+"""Typed, frozen results mirroring the service's JSON answers.
+
+Every field has the wire name. JSON ``null`` (an undefined statistic) is
+``None``; JSON arrays become tuples and objects become read-only mappings, so
+a result cannot be changed after it is built. Top-level results also keep the
+whole decoded answer as ``raw`` (read-only), so members added to the service
+later are never lost. Builders are tolerant: a member the service did not send
+is ``None`` (or empty), never an exception.
+"""
+
+from curvewise_client.results.base import EMPTY, build, freeze, thaw  # noqa: F401
+from curvewise_client.results.batch import BatchItem, BatchResult  # noqa: F401
+from curvewise_client.results.fit import (  # noqa: F401
+    AnovaRow,
+    Candidate,
+    Coefficient,
+    Diagnostics,
+    FitResult,
+    Grid,
+    ModelInfo,
+    Notice,
+    Selection,
+    Statistics,
+    TestResult,
+    TrustFlag,
+)
+from curvewise_client.results.models import (  # noqa: F401
+    Estimate,
+    Estimates,
+    PredictionRow,
+    Predictions,
+)
+from curvewise_client.results.service import (  # noqa: F401
+    Families,
+    Family,
+    FamilyOption,
+    Figure,
+    Limits,
+)

@@ -1,0 +1,85 @@
+"""Building frozen results from decoded JSON: freeze/thaw and the tolerant builder."""
+
+from __future__ import annotations
+
+from collections.abc import Callable, Mapping
+from dataclasses import MISSING, fields
+from types import MappingProxyType
+from typing import Any
+
+EMPTY: Mapping[str, Any] = MappingProxyType({})
+
+
+def empty_mapping() -> Mapping[str, Any]:
+    """The shared empty read-only mapping (a dataclass default factory)."""
+    return EMPTY
+
+
+def freeze(value: Any) -> Any:
+    """Deep read-only copy of decoded JSON (dict -> mapping proxy, list -> tuple)."""
+    if isinstance(value, Mapping):
+        return MappingProxyType({k: freeze(v) for k, v in value.items()})
+    if isinstance(value, (list, tuple)):
+        return tuple(freeze(v) for v in value)
+    return value
+
+
+def thaw(value: Any) -> Any:
+    """Plain JSON-ready copy of a frozen value (mapping -> dict, tuple -> list)."""
+    if isinstance(value, Mapping):
+        return {k: thaw(v) for k, v in value.items()}
+    if isinstance(value, (list, tuple)):
+        return [thaw(v) for v in value]
+    return value
+
+
+def rows(builder: Callable[[Any], Any]) -> Callable[[Any], tuple]:
+    """Rows from a list of objects, or from an object of equal-length columns."""
+    def convert(values: Any) -> tuple:
+        if isinstance(values, Mapping):
+            names = list(values)
+            values = [dict(zip(names, row, strict=True))
+                      for row in zip(*(values[k] for k in names), strict=True)]
+        return tuple(builder(v) for v in values)
+    return convert
+
+
+def items(builder: Callable[[Any], Any]) -> Callable[[Any], tuple]:
+    """A converter building a tuple with ``builder`` applied to each element."""
+    return lambda values: tuple(builder(v) for v in values)
+
+
+def build(cls: type, data: Mapping[str, Any] | None) -> Any:
+    """Build ``cls`` from decoded JSON: known members by name, nested types converted."""
+    if data is None:
+        return None
+    if not isinstance(data, Mapping):
+        raise TypeError(f"{cls.__name__}: expected a JSON object, got {type(data).__name__}")
+    converters = CONVERT.get(cls, {})
+    kwargs: dict[str, Any] = {}
+    for f in fields(cls):
+        if f.name == "raw":
+            kwargs["raw"] = freeze(data)
+            continue
+        if f.name not in data:
+            if f.default is MISSING and f.default_factory is MISSING:
+                kwargs[f.name] = None
+            continue
+        value = data[f.name]
+        convert = converters.get(f.name)
+        kwargs[f.name] = convert(value) if (convert and value is not None) else freeze(value)
+    return cls(**kwargs)
+
+
+
+def of(cls: type) -> Callable[[Any], Any]:
+    """A converter building ``cls`` from one JSON object."""
+    return lambda value: build(cls, value)
+
+
+CONVERT: dict[type, dict[str, Callable[[Any], Any]]] = {}
+
+
+def register(cls: type, **converters: Callable[[Any], Any]) -> None:
+    """Declare how the nested members of ``cls`` are built (member name -> converter)."""
+    CONVERT[cls] = converters

@@ -1,0 +1,205 @@
+"""Results of ``POST /v1/fit``: the report's sections as frozen dataclasses."""
+
+from __future__ import annotations
+
+from collections.abc import Mapping
+from dataclasses import dataclass, field
+from typing import Any
+
+from curvewise_client.results.base import empty_mapping, items, of, register
+
+
+@dataclass(frozen=True, slots=True)
+class ModelInfo:
+    """The fitted model: family, degree and term names in order."""
+
+    family: str | None = None
+    degree: int | None = None
+    intercept: bool | None = None
+    terms: tuple[str, ...] = ()
+    transform_x: str | None = None
+    transform_y: str | None = None
+
+
+@dataclass(frozen=True, slots=True)
+class Coefficient:
+    """One coefficient in the raw x scale, with its confidence limits."""
+
+    term: str
+    estimate: float | None = None
+    std_error: float | None = None
+    t: float | None = None
+    p_value: float | None = None
+    lower: float | None = None
+    upper: float | None = None
+
+
+@dataclass(frozen=True, slots=True)
+class AnovaRow:
+    """One row of the sequential (Type I) table; the residual row has no ``f``/``p_value``."""
+
+    term: str
+    df: int | None = None
+    sum_sq: float | None = None
+    mean_sq: float | None = None
+    f: float | None = None
+    p_value: float | None = None
+
+
+@dataclass(frozen=True, slots=True)
+class Statistics:
+    """Whole-fit statistics (``None`` where undefined or not sent)."""
+
+    n: int | None = None
+    n_parameters: int | None = None
+    df_model: int | None = None
+    df_residual: int | None = None
+    rss: float | None = None
+    tss: float | None = None
+    centred: bool | None = None
+    r_squared: float | None = None
+    adj_r_squared: float | None = None
+    sigma: float | None = None
+    f: float | None = None
+    f_p_value: float | None = None
+    log_likelihood: float | None = None
+    aic: float | None = None
+    aicc: float | None = None
+    bic: float | None = None
+    press: float | None = None
+    predicted_r_squared: float | None = None
+    condition_number: float | None = None
+
+
+@dataclass(frozen=True, slots=True)
+class Candidate:
+    """One candidate degree in the selection trail, with every criterion."""
+
+    degree: int
+    df_residual: int | None = None
+    rss: float | None = None
+    sigma: float | None = None
+    r_squared: float | None = None
+    adj_r_squared: float | None = None
+    aic: float | None = None
+    aicc: float | None = None
+    bic: float | None = None
+    press: float | None = None
+    f_last: float | None = None
+    p_last: float | None = None
+
+
+@dataclass(frozen=True, slots=True)
+class Selection:
+    """How the degree was chosen, with the candidate trail."""
+
+    method: str | None = None
+    chosen_degree: int | None = None
+    candidates: tuple[Candidate, ...] = ()
+    reason: str | None = None
+    alpha: float | None = None
+
+
+@dataclass(frozen=True, slots=True)
+class Grid:
+    """The fitted curve and its bands on the requested grid (aligned tuples)."""
+
+    x: tuple[float, ...] = ()
+    fit: tuple[float | None, ...] = ()
+    mean_lower: tuple[float | None, ...] = ()
+    mean_upper: tuple[float | None, ...] = ()
+    obs_lower: tuple[float | None, ...] = ()
+    obs_upper: tuple[float | None, ...] = ()
+    se_fit: tuple[float | None, ...] = ()
+    band_lower: tuple[float | None, ...] = ()
+    band_upper: tuple[float | None, ...] = ()
+    extrapolated: tuple[bool, ...] = ()
+    level: float | None = None
+
+
+@dataclass(frozen=True, slots=True)
+class Notice:
+    """A warning about the data or the numerics (``code`` is stable snake_case)."""
+
+    code: str
+    message: str = ""
+
+
+@dataclass(frozen=True, slots=True)
+class TrustFlag:
+    """A plain-language reason to be careful with this fit, with the numbers behind it."""
+
+    code: str
+    severity: str | None = None
+    message: str = ""
+    evidence: Mapping[str, Any] = field(default_factory=empty_mapping)
+
+
+@dataclass(frozen=True, slots=True)
+class TestResult:
+    """A formal assumption test (e.g. ``shapiro_wilk``)."""
+
+    name: str
+    statistic: float | None = None
+    p_value: float | None = None
+    df: tuple[float, ...] | None = None
+    note: str = ""
+
+
+@dataclass(frozen=True, slots=True)
+class Diagnostics:
+    """Per-point residual forms and influence (aligned with ``index``), tests, flagged points."""
+
+    index: tuple[int, ...] = ()
+    residuals: tuple[float | None, ...] = ()
+    standardized: tuple[float | None, ...] = ()
+    studentized: tuple[float | None, ...] = ()
+    leverage: tuple[float | None, ...] = ()
+    cooks_distance: tuple[float | None, ...] = ()
+    dffits: tuple[float | None, ...] = ()
+    tests: tuple[TestResult, ...] = ()
+    lack_of_fit: Mapping[str, Any] | None = None
+    outliers: tuple[int, ...] = ()
+    high_leverage: tuple[int, ...] = ()
+    influential: tuple[int, ...] = ()
+    thresholds: Mapping[str, Any] = field(default_factory=empty_mapping)
+
+
+@dataclass(frozen=True, slots=True)
+class FitResult:
+    """The answer of ``POST /v1/fit``.
+
+    ``fitted_model`` is the portable document: store it as it is and hand it
+    to :meth:`Client.predict` / :meth:`Client.invert` later.
+    """
+
+    model: ModelInfo | None = None
+    n: int | None = None
+    n_input: int | None = None
+    dropped: tuple[int, ...] = ()
+    coefficients: tuple[Coefficient, ...] = ()
+    anova: tuple[AnovaRow, ...] = ()
+    statistics: Statistics | None = None
+    selection: Selection | None = None
+    diagnostics: Diagnostics | None = None
+    grid: Grid | None = None
+    warnings: tuple[Notice, ...] = ()
+    flags: tuple[TrustFlag, ...] = ()
+    fitted_model: Mapping[str, Any] | None = None
+    raw: Mapping[str, Any] = field(default_factory=empty_mapping)
+
+    @property
+    def chosen_degree(self) -> int | None:
+        """The degree that was fitted (chosen or fixed)."""
+        if self.selection is not None and self.selection.chosen_degree is not None:
+            return self.selection.chosen_degree
+        return self.model.degree if self.model else None
+
+
+
+register(FitResult, model=of(ModelInfo), coefficients=items(of(Coefficient)),
+         anova=items(of(AnovaRow)), statistics=of(Statistics), selection=of(Selection),
+         grid=of(Grid), diagnostics=of(Diagnostics), warnings=items(of(Notice)),
+         flags=items(of(TrustFlag)))
+register(Selection, candidates=items(of(Candidate)))
+register(Diagnostics, tests=items(of(TestResult)))
