@@ -230,9 +230,7 @@ def _fit_block(x, y, w, offsets, lengths, rows, model, bspec):
         wb = layout.gather(w, offsets, rows, lens, width, 0.0)
     else:
         wb = None if valid is None else valid.astype(float)
-    fit = batch_block.fit_block(u, z, wb, valid if valid is not None else
-                                np.ones(u.shape, dtype=bool), bspec,
-                                increasing=increasing)
+    fit = batch_block.fit_block(u, z, wb, valid, bspec, increasing=increasing)
     finite = np.isfinite(fit["coef"][:, 0]) & np.isfinite(fit["rss"])
     if w is None and bspec.intercept:
         bp_basis = fit["q"]

@@ -48,8 +48,8 @@ def fit_block(u, z, w, valid, spec: BlockSpec, increasing: bool = False) -> dict
         x and y on the fitting scale (after transforms); 0 where padded.
     w : ndarray (G, L) or None
         Weights, 0 where padded; None: unweighted and unpadded.
-    valid : ndarray of bool (G, L)
-        True for real points.
+    valid : ndarray of bool (G, L) or None
+        True for real points; None when no row is padded.
     spec : BlockSpec
     increasing : bool
         Every row's x is strictly increasing (the range is then read off the ends).
@@ -63,7 +63,8 @@ def fit_block(u, z, w, valid, spec: BlockSpec, increasing: bool = False) -> dict
         ``resid_w``, leverage ``leverage`` and the basis ``q`` for diagnostics.
     """
     G = u.shape[0]
-    n = valid.sum(axis=1).astype(float)
+    n = valid.sum(axis=1).astype(float) if valid is not None else np.full(u.shape[0],
+                                                                           float(u.shape[1]))
     t, shift, scale = eng.scale_x(u, None if w is None else valid, spec.intercept,
                                   n if increasing else None)
     s = None if w is None else np.sqrt(w)
@@ -82,7 +83,8 @@ def fit_block(u, z, w, valid, spec: BlockSpec, increasing: bool = False) -> dict
     rss_full = eng._dot(res, res)
     b2 = b * b
     tail = np.cumsum(b2[:, ::-1], axis=1)[:, ::-1]     # tail[:, j] = sum_{i >= j} b_i^2
-    sum_log_w = 0.0 if w is None else np.log(np.where(valid, w, 1.0)).sum(axis=1)[:, None]
+    real = True if valid is None else valid
+    sum_log_w = 0.0 if w is None else np.log(np.where(real, w, 1.0)).sum(axis=1)[:, None]
 
     degrees = np.arange(spec.min_degree, spec.max_degree + 1)
     k = spec.p(degrees)
@@ -99,7 +101,7 @@ def fit_block(u, z, w, valid, spec: BlockSpec, increasing: bool = False) -> dict
     if spec.select == "sequential_f":
         pf = _climb_p_values(f, cand["df_residual"], spec.alpha)
     cand.update(f_last=f, p_last=pf, exact=exact,
-                press=_press(q, b, res, k, valid, exact) if spec.need_press
+                press=_press(q, b, res, k, real, exact) if spec.need_press
                 else np.full(rss.shape, np.nan))
     pick = choose(cand, spec)
     rows = np.arange(G)
@@ -112,7 +114,11 @@ def fit_block(u, z, w, valid, spec: BlockSpec, increasing: bool = False) -> dict
     low, high = int(p_row.min()), int(p_row.max())
     keep = np.arange(low, big_p)[None, :] >= p_row[:, None]  # effects the model leaves out
     resid = res + np.einsum("gk,kgn->gn", b[:, low:] * keep, q[low:]) if keep.any() else res
-    lev = np.einsum("kgn,kgn->gn", q[:low], q[:low])
+    if s is None and spec.intercept:  # q_0 = 1/sqrt(n) everywhere: its square is 1/n
+        lev = np.einsum("kgn,kgn->gn", q[1:low], q[1:low]) if low > 1 else np.zeros(t.shape)
+        lev += (1.0 / n)[:, None]
+    else:
+        lev = np.einsum("kgn,kgn->gn", q[:low], q[:low])
     for j in range(low, high):
         lev += (p_row > j)[:, None] * (q[j] * q[j])
     out.update(degree=chosen, n=n, x_shift=shift, x_scale=scale, resid_w=resid, leverage=lev,

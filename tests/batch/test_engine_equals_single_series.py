@@ -130,3 +130,12 @@ def test_ill_conditioned_designs_get_the_single_series_answer_and_flag():
     assert _compare(result, series, model, press=False, p_last=False) < TOL
     flagged = [g for g in range(4) if "ill_conditioned_design" in result.flag_codes(g)]
     assert flagged == [1, 2, 3]
+
+
+@pytest.mark.parametrize("select", ["press", "aic"])
+def test_equal_length_weighted_blocks_equal_fit_series(select):
+    series = ragged_series(13, 40, lo=30, hi=30, weighted=True)   # one unpadded block
+    model = ModelSpec(max_degree=3, select=select)
+    result = fit_batch(series, model=model)
+    assert not result.reports
+    assert _compare(result, series, model, press=select == "press", p_last=False) < TOL
