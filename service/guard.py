@@ -17,6 +17,9 @@ An exception can land anywhere in Python code, so a gunicorn worker whose reques
 interrupted finishes answering and then retires (it sends itself SIGTERM, gunicorn's graceful
 stop); the master starts a fresh one. That keeps any half-updated state from serving again.
 
+A SIGALRM timer that was already running (a test runner's timeout, say) is put back when the
+request ends, less the time the request took.
+
 Where the timer cannot be used (a non-main thread, e.g. Flask's threaded development server,
 or a platform without ``SIGALRM``) the guard stands aside and only gunicorn's timeout applies.
 
@@ -32,6 +35,7 @@ import os
 import signal
 import sys
 import threading
+import time
 
 from flask import Flask, request
 from werkzeug.exceptions import RequestEntityTooLarge
@@ -81,8 +85,8 @@ class DeadlineMiddleware:
                 raise ComputeTimeout(self.limit)
             raise DeadlinePassed
 
-        previous = signal.signal(signal.SIGALRM, on_alarm)
-        signal.setitimer(signal.ITIMER_REAL, self.limit, REPEAT_SECONDS)
+        previous = _Previous(signal.signal(signal.SIGALRM, on_alarm),
+                             signal.setitimer(signal.ITIMER_REAL, self.limit, REPEAT_SECONDS))
         retire = environ.get("SERVER_SOFTWARE", "").startswith("gunicorn")
         started = []
 
@@ -121,9 +125,22 @@ def _retire_if(needed) -> None:
         os.kill(os.getpid(), signal.SIGTERM)
 
 
-def _disarm(previous) -> None:
+class _Previous:
+    """The SIGALRM handler and timer that were in place before the request (e.g. a test
+    runner's own timeout), restored afterwards with the time that has passed taken off."""
+
+    def __init__(self, handler, timer: tuple[float, float]) -> None:
+        self.handler = handler if handler is not None else signal.SIG_DFL
+        self.delay, self.interval = timer
+        self.armed_at = time.monotonic()
+
+
+def _disarm(previous: _Previous) -> None:
     signal.setitimer(signal.ITIMER_REAL, 0)
-    signal.signal(signal.SIGALRM, previous if previous is not None else signal.SIG_DFL)
+    signal.signal(signal.SIGALRM, previous.handler)
+    if previous.delay > 0:  # an earlier timer keeps running; overdue ones fire at once
+        left = previous.delay - (time.monotonic() - previous.armed_at)
+        signal.setitimer(signal.ITIMER_REAL, max(left, 0.001), previous.interval)
 
 
 class _GuardedBody:

@@ -295,6 +295,7 @@ def install(app: Flask) -> None:
             "status": response.status_code, "duration_ms": round(elapsed * 1000, 3),
             "bytes_in": request.content_length, "bytes_out": response.content_length,
             "remote_addr": request.remote_addr,
+            "forwarded_for": request.headers.get("X-Forwarded-For"),  # set by the proxy
         }})
         return response
 

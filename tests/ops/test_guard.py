@@ -15,6 +15,15 @@ from service.app import create_app
 LIMIT = 0.3
 
 
+def assert_outer_timer_kept(before: tuple[float, float]) -> None:
+    """Our timer is gone; whatever ran before (pytest-timeout's, or none) runs on."""
+    left, interval = signal.getitimer(signal.ITIMER_REAL)
+    if before[0] == 0:
+        assert (left, interval) == (0.0, 0.0)
+    else:
+        assert 0 < left <= before[0] and interval == before[1]
+
+
 @pytest.fixture
 def guarded():
     app = create_app({"request_timeout": LIMIT, "max_body_bytes": 1000})
@@ -55,6 +64,7 @@ def guarded():
 
 def test_runaway_request_stopped_with_503_problem(guarded):
     client = guarded.test_client()
+    before = signal.getitimer(signal.ITIMER_REAL)
     started = time.monotonic()
     response = client.get("/test-only/spin")
     elapsed = time.monotonic() - started
@@ -63,7 +73,7 @@ def test_runaway_request_stopped_with_503_problem(guarded):
     body = response.get_json()
     assert body["code"] == "timeout" and "CURVEWISE_REQUEST_TIMEOUT" in body["detail"]
     assert elapsed < LIMIT + 2, elapsed  # well before the view's own 10 s
-    assert signal.getitimer(signal.ITIMER_REAL) == (0.0, 0.0)  # disarmed afterwards
+    assert_outer_timer_kept(before)
 
 
 def test_swallowed_timeout_fires_again(guarded):
@@ -75,18 +85,20 @@ def test_swallowed_timeout_fires_again(guarded):
 
 def test_streamed_body_is_guarded_too(guarded):
     client = guarded.test_client()
+    before = signal.getitimer(signal.ITIMER_REAL)
     with pytest.raises(guard.ComputeTimeout):
         # headers are out already; the server can only cut the stream (gunicorn closes it)
         b"".join(client.get("/test-only/stream", buffered=True).response)
-    assert signal.getitimer(signal.ITIMER_REAL) == (0.0, 0.0)
+    assert_outer_timer_kept(before)
 
 
 def test_quick_requests_untouched_and_timer_restored(guarded):
     client = guarded.test_client()
     before = signal.getsignal(signal.SIGALRM)
+    timer = signal.getitimer(signal.ITIMER_REAL)
     for _ in range(5):
         assert client.get("/test-only/quick").status_code == 200
-    assert signal.getitimer(signal.ITIMER_REAL) == (0.0, 0.0)
+    assert_outer_timer_kept(timer)
     assert signal.getsignal(signal.SIGALRM) is before
 
 
@@ -119,3 +131,23 @@ def test_declared_oversize_body_refused_before_reading(guarded):
     assert response.mimetype == "application/problem+json"
     body = response.get_json()
     assert body["code"] == "body_too_large" and "5000" in body["detail"]
+
+
+def test_an_outer_timer_survives_requests(guarded):
+    """A timer armed before the request (pytest-timeout does this) keeps running after it."""
+    fired = []
+    previous = signal.signal(signal.SIGALRM, lambda *a: fired.append(True))
+    try:
+        signal.setitimer(signal.ITIMER_REAL, 5.0)
+        assert guarded.test_client().get("/test-only/quick").status_code == 200
+        left, _ = signal.getitimer(signal.ITIMER_REAL)
+        assert 3.0 < left <= 5.0
+        signal.setitimer(signal.ITIMER_REAL, 0.2)
+        assert guarded.test_client().get("/test-only/quick").status_code == 200
+        deadline = time.monotonic() + 5
+        while not fired and time.monotonic() < deadline:
+            time.sleep(0.01)
+        assert fired == [True]  # the outer handler, not the guard's, got the signal
+    finally:
+        signal.setitimer(signal.ITIMER_REAL, 0)
+        signal.signal(signal.SIGALRM, previous)
