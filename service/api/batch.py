@@ -6,6 +6,7 @@ import gc
 from contextlib import contextmanager
 from http import HTTPStatus
 
+import numpy as np
 import orjson
 from flask import Response, current_app, request, stream_with_context
 from flask_smorest import Blueprint
@@ -76,7 +77,7 @@ class _Job:
         batch = fit_batch([items[i][1] for i in fit_idx], model=self.model,
                           models=[items[i][1][3] for i in fit_idx], options=self.options,
                           detail=self.detail)
-        ok_rows = [j for j in range(len(fit_idx)) if batch.ok[j]]
+        ok_rows = np.flatnonzero(batch.ok).tolist()
         bodies = dict(zip(ok_rows, self._fits(batch, ok_rows), strict=True))
         out = []
         pos = {i: j for j, i in enumerate(fit_idx)}
