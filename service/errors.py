@@ -106,7 +106,7 @@ class CurvewiseApi(Api):
         status = error.code or 500
         kind = kind_for(data.get("code"), status)
         detail = data.get("message") or _detail(status, error)
-        if status == 422 and errors:
+        if status == 422 and errors and not data.get("message"):
             detail = VALIDATION_DETAIL
         if errors is None and status == 413:
             errors = {"_body": [kind.fix]}
