@@ -107,6 +107,33 @@ def clean_data(x, y, weights, missing: str) -> CleanData:
     return CleanData(xa, ya, wa, index, n, dropped)
 
 
+MAGNITUDE_LIMIT = 1e150  # |values| beyond this (or all nonzero and below 1/this) overflow SS
+
+
+def check_magnitude(values: np.ndarray, field: str, index: np.ndarray, what: str) -> None:
+    """Refuse values whose squares would overflow or underflow float64 sums of squares.
+
+    Raises
+    ------
+    DataError
+        Naming the first offending value, with a fix (change units).
+    """
+    mags = np.abs(values)
+    big = mags > MAGNITUDE_LIMIT
+    if big.any():
+        i = int(np.flatnonzero(big)[0])
+        where = f" {what}" if what else ""
+        raise DataError(f"{field}[{int(index[i])}] = {values[i]:g} is too large in magnitude"
+                        f"{where} (limit {MAGNITUDE_LIMIT:g}).", field=f"{field}[{int(index[i])}]",
+                        fix=f"Rescale {field} (change its units) so its values are moderate.")
+    top = float(mags.max()) if mags.size else 0.0
+    if 0.0 < top < 1.0 / MAGNITUDE_LIMIT:
+        where = f" {what}" if what else ""
+        raise DataError(f"Every {field} value is below {1.0 / MAGNITUDE_LIMIT:g} in magnitude"
+                        f"{where}; sums of squares would underflow.", field=field,
+                        fix=f"Rescale {field} (change its units) so its values are moderate.")
+
+
 def _spec_error(message: str, field: str, fix: str) -> SpecError:
     return SpecError(message, field=field, fix=fix)
 

@@ -20,7 +20,7 @@ from service.core.diagnostics import diagnose
 from service.core.errors import DesignError
 from service.core.flags import trust_flags
 from service.core.grid import grid_points
-from service.core.inputs import check_spec, clean_data
+from service.core.inputs import check_magnitude, check_spec, clean_data
 from service.core.normality import MAX_N as SHAPIRO_MAX_N
 from service.core.qr import EXTENDED_IS_WIDER, EXTENDED_MAX_ROWS
 from service.core.results import (
@@ -69,12 +69,26 @@ def fit_series(x, y, weights=None, *, model: ModelSpec = _DEFAULT_MODEL,
     ------
     DataError, TransformError, DesignError, SpecError
         Each names the offending field and how to fix it.
+
+    Notes
+    -----
+    Floating-point exceptions never escape as warnings: undefined numbers
+    are NaN and numerical trouble is reported as a ``Notice`` or flag.
     """
+    with np.errstate(all="ignore"):
+        return _fit(x, y, weights, model, options)
+
+
+def _fit(x, y, weights, model: ModelSpec, options: FitOptions) -> FitReport:
     dmin, dmax, selects = check_spec(model, options)
     data = clean_data(x, y, weights, options.missing)
     intercept = model.intercept
     u = transforms.apply(model.transform_x, data.x, field="x", index=data.index)
     z = transforms.apply(model.transform_y, data.y, field="y", index=data.index)
+    check_magnitude(u, "x", data.index, _after(model.transform_x))
+    check_magnitude(z, "y", data.index, _after(model.transform_y))
+    if data.w is not None:
+        check_magnitude(data.w, "weights", data.index, "")
     notices: list[Notice] = []
     distinct = distinct_count(data.x)
     dmax = _supported_max(distinct, intercept, dmin, dmax, selects, notices)
@@ -103,6 +117,13 @@ def fit_series(x, y, weights=None, *, model: ModelSpec = _DEFAULT_MODEL,
     terms = design.term_names(degree, intercept)
     r64 = np.asarray(dec.r[:p, :p], dtype=float)
     cond, raw_cond = _conditions(r64, dec.shift, dec.scale, degree, intercept)
+    if not np.isfinite(raw).all() or np.isinf(cov).any():
+        notices.append(Notice("raw_coefficients_overflow",
+                              "Some raw-power coefficients or their covariances do not fit in "
+                              "double precision (x range tiny or huge for this degree); they are "
+                              "reported as null. Predictions use the scaled basis and are fine."))
+        raw = np.where(np.isfinite(raw), raw, NAN)
+        cov = np.where(np.isinf(cov), NAN, cov)
     if raw_cond > RAW_COND_NOTICE:
         notices.append(Notice("raw_coefficients_sensitive",
                               f"The raw-power design has condition number {raw_cond:.3g}: the "
@@ -151,6 +172,10 @@ def fit_series(x, y, weights=None, *, model: ModelSpec = _DEFAULT_MODEL,
                         grid=grid)
     return FitReport(fitted, data.n_input, data.dropped, coefficients, anova, statistics,
                      selection, diagnostics, grid, flags, tuple(notices))
+
+
+def _after(transform: str) -> str:
+    return "" if transform == "none" else f"after the {transform} transform"
 
 
 def _supported_max(distinct, intercept, dmin, dmax, selects, notices) -> int:

@@ -203,3 +203,24 @@ def test_leverage_one_makes_press_undefined_with_notice():
     assert math.isnan(rep.statistics.press) and math.isnan(rep.statistics.predicted_r_squared)
     assert "press_undefined" in {n.code for n in rep.warnings}
     assert rep.diagnostics.leverage[-1] == pytest.approx(1.0)
+
+
+@pytest.mark.parametrize("x_scale,y_scale,field", [
+    (1e200, 1.0, "x[1]"), (1.0, 1e200, "y[0]"), (1.0, 1e-200, "y"), (1e-200, 1.0, "x"),
+])
+def test_extreme_magnitudes_are_refused_with_a_units_fix(x_scale, y_scale, field):
+    x = np.linspace(0, 1, 12)
+    err = _raises(DataError, field, x * x_scale, (1 + x) * y_scale, model=ModelSpec(degree=1))
+    assert "Rescale" in err.fix
+
+
+def test_large_but_representable_magnitudes_fit_without_warnings():
+    x = np.linspace(0, 1, 30)
+    y = (1 + x + np.random.default_rng(2).normal(0, 0.1, 30)) * 1e120
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        rep = fit_series(x * 1e-120, y, model=ModelSpec(degree=1))
+    assert rep.statistics.sigma > 0
+    # the slope's variance (~1e480) does not fit in a double: reported as NaN with a notice
+    assert "raw_coefficients_overflow" in {n.code for n in rep.warnings}
+    assert math.isnan(rep.coefficients[1].std_error)
