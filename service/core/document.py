@@ -149,8 +149,11 @@ def checksum(body: Mapping[str, Any]) -> str:
 
 
 def canonical_bytes(body: Mapping[str, Any]) -> bytes:
-    """Canonical JSON of every field but ``checksum``: sorted keys, no spaces, float repr."""
-    payload = {key: value for key, value in body.items() if key != "checksum"}
+    """Canonical JSON of every field but ``checksum``: sorted keys, no spaces, float repr.
+
+    Negative zero is written as ``0.0`` (many JSON tools drop the sign of zero).
+    """
+    payload = {key: _unsigned_zero(value) for key, value in body.items() if key != "checksum"}
     text = json.dumps(payload, sort_keys=True, separators=(",", ":"), ensure_ascii=True,
                       allow_nan=False)
     return text.encode("ascii")
@@ -160,8 +163,16 @@ def canonical_bytes(body: Mapping[str, Any]) -> bytes:
 
 
 def _float(value) -> float | None:
-    value = float(value)
+    value = float(value) + 0.0  # + 0.0 turns -0.0 into 0.0
     return value if math.isfinite(value) else None
+
+
+def _unsigned_zero(value):
+    if isinstance(value, float):
+        return value + 0.0
+    if isinstance(value, list):
+        return [_unsigned_zero(item) for item in value]
+    return value
 
 
 def _vector(values) -> list:

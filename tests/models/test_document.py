@@ -80,6 +80,16 @@ def test_checksum_survives_a_transport_that_writes_whole_floats_as_integers(pont
     assert from_document(doc).x_min == pontius_doc["x_min"]
 
 
+def test_checksum_survives_a_tool_that_drops_the_sign_of_zero(pontius_doc):
+    # jq 1.6 and JavaScript write -0.0 as 0; the canonical form writes every zero as 0.0.
+    doc = _transport(pontius_doc)
+    doc["r_factor"][1][0] = -0.0
+    doc["checksum"] = checksum(doc)
+    as_tool_writes = _transport(doc)
+    as_tool_writes["r_factor"][1][0] = 0
+    assert from_document(as_tool_writes).r_factor[1, 0] == 0.0
+
+
 def test_canonical_form_is_sorted_compact_ascii_json_with_repr_floats(pontius_doc):
     # The documented canonical form, re-derived here with the standard library.
     payload = {k: v for k, v in pontius_doc.items() if k != "checksum"}
