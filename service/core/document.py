@@ -222,7 +222,8 @@ class _Reader:
 
     # --- typed readers
     def _int(self, name, value):
-        if isinstance(value, bool) or not isinstance(value, (int, float)) or value != int(value):
+        if isinstance(value, bool) or not isinstance(value, (int, float)) or not (
+                isinstance(value, int) or (math.isfinite(value) and value.is_integer())):
             self.fail(name, f"{name} must be an integer, got {value!r}.",
                       f"Send the {name} that /v1/fit wrote.")
         return int(value)
