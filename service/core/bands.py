@@ -58,6 +58,11 @@ def predict(fitted: FittedPolynomial, x, *, level: float | None = None, m: int =
     DataError, TransformError, SpecError
         Non-finite x, x outside the x transform's domain, bad level or m.
     """
+    with np.errstate(all="ignore"):  # overflow far outside the data becomes NaN, not a warning
+        return _predict(fitted, x, level, m)
+
+
+def _predict(fitted: FittedPolynomial, x, level: float | None, m: int) -> Prediction:
     level = _check_level(fitted.level if level is None else level)
     if isinstance(m, bool) or int(m) != m or m < 1:
         raise SpecError(f"m = {m!r} is not a positive whole number.", field="m",
@@ -75,17 +80,16 @@ def predict(fitted: FittedPolynomial, x, *, level: float | None = None, m: int =
     fit = v @ fitted.basis_coefficients
     df = fitted.df_residual
     sigma = fitted.sigma
-    with np.errstate(all="ignore"):
-        s = v @ triangular_inverse(fitted.r_factor)  # rows: (R^-T v(t))' for each x
-        se = sigma * np.sqrt(np.einsum("ij,ij->i", s, s))
-        if df > 0:
-            tq = float(special.stdtrit(df, 0.5 + level / 2))
-            wh = float(np.sqrt(v.shape[1] * special.fdtri(v.shape[1], df, level)))
-        else:
-            tq = wh = float("nan")
-        half_mean = tq * se
-        half_obs = tq * np.sqrt(se * se + sigma * sigma / m)
-        half_band = wh * se
+    s = v @ triangular_inverse(fitted.r_factor)  # rows: (R^-T v(t))' for each x
+    se = sigma * np.sqrt(np.einsum("ij,ij->i", s, s))
+    if df > 0:
+        tq = float(special.stdtrit(df, 0.5 + level / 2))
+        wh = float(np.sqrt(v.shape[1] * special.fdtri(v.shape[1], df, level)))
+    else:
+        tq = wh = float("nan")
+    half_mean = tq * se
+    half_obs = tq * np.sqrt(se * se + sigma * sigma / m)
+    half_band = wh * se
     name = fitted.transform_y
     back = transforms.inverse
     fit_y = back(name, fit)
@@ -100,7 +104,8 @@ def predict(fitted: FittedPolynomial, x, *, level: float | None = None, m: int =
     obs_lo, obs_hi = limits(half_obs)
     band_lo, band_hi = limits(half_band)
     extrap = (xs < fitted.x_min) | (xs > fitted.x_max)
-    return Prediction(frozen_array(xs), frozen_array(fit_y), frozen_array(se),
-                      frozen_array(mean_lo), frozen_array(mean_hi), frozen_array(obs_lo),
-                      frozen_array(obs_hi), frozen_array(band_lo), frozen_array(band_hi),
+    values = [fit_y, se, mean_lo, mean_hi, obs_lo, obs_hi, band_lo, band_hi]
+    if any(np.isinf(a).any() for a in values):  # overflow far outside the data: undefined
+        values = [np.where(np.isinf(a), np.nan, a) for a in values]
+    return Prediction(frozen_array(xs), *(frozen_array(a) for a in values),
                       frozen_array(extrap, dtype=bool), level)

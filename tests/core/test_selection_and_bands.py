@@ -109,3 +109,11 @@ def test_predict_leaves_the_callers_array_writable():
     predict(fit_series(x, y, model=ModelSpec(degree=1)).model, gx)
     gx[0] = 1.0  # results are frozen copies; the caller's array is untouched
     assert gx.flags.writeable
+
+
+def test_prediction_overflow_far_outside_the_data_is_nan_not_inf():
+    x, y = _data(4)
+    fitted = fit_series(x, y, model=ModelSpec(degree=3)).model
+    pr = predict(fitted, [1.0, 1e120])
+    assert np.isfinite(pr.fit[0]) and np.isnan(pr.fit[1]) and np.isnan(pr.obs_upper[1])
+    assert pr.extrapolated.tolist() == [False, True]
