@@ -80,5 +80,8 @@ class ProblemSchema(Schema):
     instance = text("The request path.", allow_none=True)
     errors = fields.Dict(
         keys=fields.String(), values=fields.List(fields.String()),
+        required=True,
         metadata={"description": "Field path (e.g. y[17], model.degree) -> messages, "
-                                 "each saying what to fix. _body is the body as a whole."})
+                                 "each saying what to fix. _body is the body as a whole, "
+                                 "_path the URL path, _method the HTTP method; empty when "
+                                 "no input is at fault."})

@@ -35,13 +35,13 @@ class ServiceLimitError(Exception):
 
 def problem_body(status: int, title: str | None, detail: str, *, errors: dict | None = None,
                  type_: str | None = None, code: str | None = None) -> dict:
-    """A problem-details dict. ``code`` (or ``type_``) names a catalogue entry."""
+    """A problem-details dict. ``code`` (or ``type_``) names a catalogue entry.
+
+    ``errors`` is always present (the contract's shape), empty when no field is at fault.
+    """
     kind = kind_for(code or type_, status)
-    body = {"type": type_uri(kind.code), "code": kind.code, "title": title or kind.title,
-            "status": status, "detail": detail}
-    if errors:
-        body["errors"] = errors
-    return body
+    return {"type": type_uri(kind.code), "code": kind.code, "title": title or kind.title,
+            "status": status, "detail": detail, "errors": errors or {}}
 
 
 def problem(status: int, title: str | None, detail: str, *, errors: dict | None = None,
@@ -96,6 +96,10 @@ class CurvewiseApi(Api):
             allow = dict(error.get_headers()).get("Allow")
             if allow:
                 headers["Allow"] = allow
+                errors = errors or {"_method": [f"Use one of: {allow}."]}
+        if error.code == 404 and not errors:
+            errors = {"_path": [f"No resource at {request.path}. See /openapi.json for the "
+                                "paths."]}
         if isinstance(error, InternalServerError):
             original = getattr(error, "original_exception", None)
             if original is not None:

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import orjson
 
-PROBLEM_KEYS = {"type", "code", "title", "status", "detail"}
+PROBLEM_KEYS = {"type", "code", "title", "status", "detail", "errors"}
 
 
 def post_json(client, path: str, body, **kwargs):

@@ -48,13 +48,14 @@ def test_missing_content_type_is_415(client):
 
 
 def test_unknown_path_is_404(client):
-    assert_problem(client.get("/v1/fits"), 404, "not_found")
+    assert_problem(client.get("/v1/fits"), 404, "not_found", "_path")
 
 
 def test_wrong_method_is_405_with_allow(client):
     response = client.get("/v1/fit")
-    assert_problem(response, 405, "method_not_allowed")
+    problem = assert_problem(response, 405, "method_not_allowed", "_method")
     assert "POST" in response.headers["Allow"]
+    assert "POST" in problem["errors"]["_method"][0]
 
 
 def test_body_over_limit_is_413_before_it_is_read():
