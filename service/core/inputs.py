@@ -107,7 +107,12 @@ def clean_data(x, y, weights, missing: str) -> CleanData:
     return CleanData(xa, ya, wa, index, n, dropped)
 
 
-MAGNITUDE_LIMIT = 1e150  # |values| beyond this (or all nonzero and below 1/this) overflow SS
+TINY_LIMIT = 1e-150  # every |value| below this: squares underflow (sums of squares vanish)
+
+
+def magnitude_limit(n: int) -> float:
+    """Largest |value| whose squares still sum over ``n`` points within float64 (margin 64)."""
+    return float(np.sqrt(np.finfo(float).max / (64.0 * max(n, 1))))
 
 
 def check_magnitude(values: np.ndarray, field: str, index: np.ndarray, what: str) -> None:
@@ -119,17 +124,19 @@ def check_magnitude(values: np.ndarray, field: str, index: np.ndarray, what: str
         Naming the first offending value, with a fix (change units).
     """
     mags = np.abs(values)
-    big = mags > MAGNITUDE_LIMIT
+    limit = magnitude_limit(values.size)
+    big = mags > limit
     if big.any():
         i = int(np.flatnonzero(big)[0])
         where = f" {what}" if what else ""
         raise DataError(f"{field}[{int(index[i])}] = {values[i]:g} is too large in magnitude"
-                        f"{where} (limit {MAGNITUDE_LIMIT:g}).", field=f"{field}[{int(index[i])}]",
+                        f"{where} (limit {limit:.3g} for {values.size} points).",
+                        field=f"{field}[{int(index[i])}]",
                         fix=f"Rescale {field} (change its units) so its values are moderate.")
     top = float(mags.max()) if mags.size else 0.0
-    if 0.0 < top < 1.0 / MAGNITUDE_LIMIT:
+    if 0.0 < top < TINY_LIMIT:
         where = f" {what}" if what else ""
-        raise DataError(f"Every {field} value is below {1.0 / MAGNITUDE_LIMIT:g} in magnitude"
+        raise DataError(f"Every {field} value is below {TINY_LIMIT:g} in magnitude"
                         f"{where}; sums of squares would underflow.", field=field,
                         fix=f"Rescale {field} (change its units) so its values are moderate.")
 
