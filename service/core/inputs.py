@@ -123,8 +123,13 @@ def check_magnitude(values: np.ndarray, field: str, index: np.ndarray, what: str
     DataError
         Naming the first offending value, with a fix (change units).
     """
-    mags = np.abs(values)
+    if values.size == 0:
+        return
+    top = max(float(values.max()), -float(values.min()))
     limit = magnitude_limit(values.size)
+    if limit >= top >= TINY_LIMIT:
+        return
+    mags = np.abs(values)
     big = mags > limit
     if big.any():
         i = int(np.flatnonzero(big)[0])
@@ -133,7 +138,6 @@ def check_magnitude(values: np.ndarray, field: str, index: np.ndarray, what: str
                         f"{where} (limit {limit:.3g} for {values.size} points).",
                         field=f"{field}[{int(index[i])}]",
                         fix=f"Rescale {field} (change its units) so its values are moderate.")
-    top = float(mags.max()) if mags.size else 0.0
     if 0.0 < top < TINY_LIMIT:
         where = f" {what}" if what else ""
         raise DataError(f"Every {field} value is below {TINY_LIMIT:g} in magnitude"
