@@ -9,6 +9,7 @@ quantile panel are Blom's ``(i - 3/8) / (n + 1/4)`` (common practice).
 from __future__ import annotations
 
 import numpy as np
+from matplotlib import ticker
 from scipy import special
 
 from service.plots import style
@@ -154,6 +155,11 @@ def _method_axis(ax, selection, degrees):
                 markersize=4, linewidth=1.0, linestyle="--", label=label)
     if log and np.any(np.isfinite(values) & (values > 0)):
         second.set_yscale("log")
+        # p-values span many decades: a few labelled decades, no minor ticks and plain
+        # labels (1e-08): the default minor ticks and mathtext labels triple the render time
+        second.yaxis.set_major_locator(ticker.LogLocator(numticks=6))
+        second.yaxis.set_minor_locator(ticker.NullLocator())
+        second.yaxis.set_major_formatter(ticker.FuncFormatter(lambda v, _: f"{v:g}"))
         second.axhline(selection.alpha, label=f"alpha {selection.alpha:g}",
                        **{**style.REFERENCE, "linestyle": "--"})
     second.set_ylabel(label, fontsize=style.FONT_SIZE)
