@@ -42,9 +42,11 @@ worker_class = "sync"
 # The app enforces request_timeout itself (a 503 problem); the hard kill comes a little later.
 timeout = int(_env_float("CURVEWISE_REQUEST_TIMEOUT", 60.0)) + 30
 graceful_timeout = 30          # seconds a worker gets to finish in-flight requests on SIGTERM
-max_requests = int(os.environ.get("CURVEWISE_MAX_REQUESTS", "2000"))  # 0: never recycle
-# (recycling workers now and then bounds slow leaks) ...
-max_requests_jitter = 200      # ... but not all at once
+# Recycling workers now and then bounds slow leaks, but a worker takes 1-3 s to boot (numpy,
+# scipy, statsmodels, Flask), so not often: at a few hundred requests a second, 50,000 is a
+# restart every few minutes, not every few seconds. 0: never recycle.
+max_requests = int(os.environ.get("CURVEWISE_MAX_REQUESTS", "50000"))
+max_requests_jitter = max_requests // 10  # ... and not all workers at once
 keepalive = 2
 limit_request_line = 8190
 limit_request_fields = 100
