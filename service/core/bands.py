@@ -31,6 +31,14 @@ from service.core.qr import triangular_inverse
 from service.core.results import FittedPolynomial, Prediction, frozen_array
 
 
+def _inverse(r: np.ndarray) -> np.ndarray:
+    """R^-1 (LAPACK); back substitution when R is exactly singular (a forged document)."""
+    try:
+        return np.linalg.inv(r)
+    except np.linalg.LinAlgError:
+        return triangular_inverse(r)
+
+
 def _check_level(level: float) -> float:
     level = float(level)
     if not 0.0 < level < 1.0:
@@ -80,7 +88,7 @@ def _predict(fitted: FittedPolynomial, x, level: float | None, m: int) -> Predic
     fit = v @ fitted.basis_coefficients
     df = fitted.df_residual
     sigma = fitted.sigma
-    s = v @ triangular_inverse(fitted.r_factor)  # rows: (R^-T v(t))' for each x
+    s = v @ _inverse(fitted.r_factor)  # rows: (R^-T v(t))' for each x
     se = sigma * np.sqrt(np.einsum("ij,ij->i", s, s))
     if df > 0:
         tq = float(special.stdtrit(df, 0.5 + level / 2))

@@ -17,8 +17,8 @@ Conventions (documented for callers):
 
 from __future__ import annotations
 
-from dataclasses import dataclass
 from math import log, pi
+from typing import NamedTuple
 
 import numpy as np
 from scipy import special
@@ -30,8 +30,7 @@ LOG_2PI = log(2 * pi)
 LEVERAGE_ONE = 1 - 1e-10  # h_i above this: the leave-one-out residual is undefined
 
 
-@dataclass(frozen=True, slots=True)
-class Measures:
+class Measures(NamedTuple):
     """Internal: every whole-fit number of one candidate."""
 
     degree: int
