@@ -6,6 +6,7 @@ curve, noise level and fixed seed, so anyone can regenerate it::
     python scripts/demo_data.py greenhouse          # a /v1/fit request body
     python scripts/demo_data.py nitrate             # a /v1/fit request body
     python scripts/demo_data.py soil --probes 20    # a /v1/batch request body
+    python scripts/demo_data.py greenhouse --degree 2 --include coefficients,statistics
 
 The output is strict JSON on stdout.
 """
@@ -87,11 +88,18 @@ def main(argv: list[str] | None = None) -> int:
     parser.add_argument("scenario", choices=("greenhouse", "nitrate", "soil"))
     parser.add_argument("--probes", type=int, default=20, help="soil: number of probes")
     parser.add_argument("--seed", type=int, default=SEED)
+    parser.add_argument("--degree", type=int, help="fix the degree instead of selecting it")
+    parser.add_argument("--include", help="comma-separated response sections, e.g. "
+                                          "coefficients,statistics")
     args = parser.parse_args(argv)
     if args.scenario == "soil":
         body = soil(args.probes, args.seed)
     else:
         body = {"greenhouse": greenhouse, "nitrate": nitrate}[args.scenario](args.seed)
+    if args.degree is not None:
+        body["model"] = {"family": "polynomial", "degree": args.degree}
+    if args.include:
+        body["include"] = [name.strip() for name in args.include.split(",") if name.strip()]
     json.dump(body, sys.stdout, allow_nan=False)
     sys.stdout.write("\n")
     return 0

@@ -44,5 +44,5 @@ def fit(body):
     report = fit_series(body["x"], body["y"], body["weights"], model=model_spec(body["model"]),
                         options=fit_options(body, settings))
     # Built directly (schemas/fit_response.py documents it): a marshmallow dump of the
-    # same dict would cost about a quarter of the whole request on small fits.
+    # same dict cost about a tenth of a whole small request (0.2 of ~2 ms, measured).
     return current_app.json.response(fit_response(report, body["include"]))

@@ -252,10 +252,15 @@ def test_undefined_statistics_are_null_never_nan(client):
 
 
 def test_integers_are_accepted_as_numbers(client):
-    out = fit(client, {"x": [1, 2, 3, 4, 5], "y": [2, 4, 6, 8, 10.5], "model": {"degree": 1},
-                       "level": 0.95, "include": ["coefficients"]})
-    assert out["coefficients"][1]["estimate"] == pytest.approx(np.polyfit(
-        [1, 2, 3, 4, 5], [2, 4, 6, 8, 10.5], 1)[0], rel=1e-12)
+    # Oracle: numpy polyfit on the same (seeded random) integers.
+    rng = np.random.default_rng(7)
+    x = np.arange(1, 21)
+    y = 3 * x + rng.integers(-5, 6, x.size)
+    out = fit(client, {"x": x.tolist(), "y": y.tolist(), "model": {"degree": 1},
+                       "include": ["coefficients"]})
+    slope, intercept = np.polyfit(x, y, 1)
+    assert out["coefficients"][1]["estimate"] == pytest.approx(slope, rel=1e-12)
+    assert out["coefficients"][0]["estimate"] == pytest.approx(intercept, rel=1e-12)
 
 
 def test_min_degree_bounds_the_candidates(client, seeded):
