@@ -106,9 +106,25 @@ def _pattern(degree: int) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
 
 def raw_coefficients(shift: float, scale: float, degree: int, intercept: bool,
                      coef_basis: np.ndarray, cov_basis: np.ndarray
-                     ) -> tuple[np.ndarray, np.ndarray]:
-    """Coefficients and covariance on powers of ``u`` (extended precision in, float64 out)."""
+                     ) -> tuple[np.ndarray, np.ndarray, bool]:
+    """Coefficients and covariance on powers of ``u`` (extended precision in, float64 out).
+
+    Returns ``(raw, cov, lost)``: entries whose magnitude does not fit a
+    normal float64 (over- or underflow when (range of u)**degree leaves the
+    double range) are NaN, and ``lost`` says whether that happened.
+    """
     tm = conversion(shift, scale, degree, intercept)
-    raw = tm @ coef_basis
-    cov = tm @ cov_basis @ tm.T
-    return raw.astype(float), cov.astype(float)
+    raw, lost_raw = _to_double(tm @ coef_basis)
+    cov, lost_cov = _to_double(tm @ cov_basis @ tm.T)
+    return raw, cov, lost_raw or lost_cov
+
+
+def _to_double(values: np.ndarray) -> tuple[np.ndarray, bool]:
+    info = np.finfo(float)
+    mag = np.abs(values)
+    bad = (mag > info.max) | ((mag < info.tiny) & (mag != 0))
+    out = values.astype(float)
+    if bad.any():
+        out[bad] = np.nan
+        return out, True
+    return out, False

@@ -111,19 +111,17 @@ def _fit(x, y, weights, model: ModelSpec, options: FitOptions) -> FitReport:
     rinv = dec.r_inv[:p, :p]
     coef_b = rinv @ dec.effects[:p]
     sigma2 = 0.0 if m.exact else (m.rss / m.df_residual if m.df_residual > 0 else NAN)
-    raw, cov = design.raw_coefficients(dec.shift, dec.scale, degree, intercept, coef_b,
+    raw, cov, lost = design.raw_coefficients(dec.shift, dec.scale, degree, intercept, coef_b,
                                        (rinv @ rinv.T) * np.longdouble(sigma2))
     sigma = 0.0 if m.exact else m.sigma
     terms = design.term_names(degree, intercept)
     r64 = np.asarray(dec.r[:p, :p], dtype=float)
     cond, raw_cond = _conditions(r64, dec.shift, dec.scale, degree, intercept)
-    if not np.isfinite(raw).all() or np.isinf(cov).any():
+    if lost:
         notices.append(Notice("raw_coefficients_overflow",
                               "Some raw-power coefficients or their covariances do not fit in "
                               "double precision (x range tiny or huge for this degree); they are "
                               "reported as null. Predictions use the scaled basis and are fine."))
-        raw = np.where(np.isfinite(raw), raw, NAN)
-        cov = np.where(np.isinf(cov), NAN, cov)
     if raw_cond > RAW_COND_NOTICE:
         notices.append(Notice("raw_coefficients_sensitive",
                               f"The raw-power design has condition number {raw_cond:.3g}: the "
@@ -214,10 +212,18 @@ def _conditions(r, shift, scale, degree, intercept) -> tuple[float, float]:
     The raw one is taken with unit-norm columns (the usual scaled condition
     number): ``R T^-1`` is the R factor of the raw design.
     """
+    sv = np.linalg.svd(r, compute_uv=False)
+    basis = float(sv[0] / sv[-1]) if sv[-1] > 0 else math.inf
     tm = design.conversion(shift, scale, degree, intercept).astype(float)
+    if not np.isfinite(tm).all() or not np.all(np.diag(tm) != 0):
+        return basis, math.inf  # (x range)**degree leaves the double range
     with np.errstate(all="ignore"):
-        rr = np.linalg.solve(tm.T, r.T).T  # R T^-1
+        try:
+            rr = np.linalg.solve(tm.T, r.T).T  # R T^-1
+        except np.linalg.LinAlgError:
+            return basis, math.inf
         rr /= np.sqrt((rr * rr).sum(axis=0))
-        sv = np.linalg.svd(np.stack([r, rr]), compute_uv=False)
-    c = sv[:, 0] / sv[:, -1]
-    return float(c[0]), float(c[1])
+        if not np.isfinite(rr).all():
+            return basis, math.inf
+        sr = np.linalg.svd(rr, compute_uv=False)
+    return basis, float(sr[0] / sr[-1]) if sr[-1] > 0 else math.inf

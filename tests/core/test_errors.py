@@ -224,3 +224,21 @@ def test_large_but_representable_magnitudes_fit_without_warnings():
     # the slope's variance (~1e480) does not fit in a double: reported as NaN with a notice
     assert "raw_coefficients_overflow" in {n.code for n in rep.warnings}
     assert math.isnan(rep.coefficients[1].std_error)
+
+
+@pytest.mark.parametrize("exponent,degree", [(26, 12), (40, 10), (103, 3), (-20, 12), (-40, 6)])
+def test_x_whose_powers_leave_the_double_range_is_fitted_with_a_notice(exponent, degree):
+    # (spread of x)**degree outside the double range: the scaled basis still fits; the raw-power
+    # coefficients that do not fit a double become NaN with a notice (no crash, no warning)
+    x = np.linspace(-1.0, 1.0, 30) * 10.0 ** exponent
+    y = np.sin(np.linspace(0.0, 3.0, 30))
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        rep = fit_series(x, y, model=ModelSpec(degree=degree))
+        grid = predict(rep.model, x[:5])
+    assert np.all(np.isfinite(grid.fit))
+    codes = {n.code for n in rep.warnings}
+    assert "raw_coefficients_sensitive" in codes
+    lost = bool(np.isnan(rep.model.raw_coefficients).any()
+                or np.isnan(rep.model.raw_covariance).any())
+    assert ("raw_coefficients_overflow" in codes) == lost
