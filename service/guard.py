@@ -8,10 +8,9 @@ inside whatever Python code is running, and the one error path turns it into a 5
 problem+json. If that first interruption is swallowed by a broad ``except Exception``
 somewhere, the timer fires again every :data:`REPEAT_SECONDS` with :class:`DeadlinePassed`, a
 ``BaseException`` that such handlers do not catch, and the middleware answers the same 503
-itself. A single C call that
-never returns to Python (one huge LAPACK call) cannot be interrupted this way; gunicorn's
-``timeout`` (set a little above ``request_timeout`` in ``service.gunicorn_conf``) is the hard
-backstop that kills and replaces the worker.
+itself. A single C call that never returns to Python (one huge LAPACK call) cannot be
+interrupted this way; gunicorn's ``timeout`` (set a little above ``request_timeout`` in
+``service.gunicorn_conf``) is the hard backstop that kills and replaces the worker.
 
 An exception can land anywhere in Python code, so a gunicorn worker whose request was
 interrupted finishes answering and then retires (it sends itself SIGTERM, gunicorn's graceful
@@ -104,7 +103,10 @@ class DeadlineMiddleware:
             _disarm(previous)
             _retire_if(fired and retire)
             raise
-        return _GuardedBody(result, previous, lambda: _retire_if(fired and retire))
+        body = _GuardedBody(result, previous, lambda: _retire_if(fired and retire))
+        if fired:  # the answer is the 503 already: nothing left to interrupt
+            body.disarm()
+        return body
 
     def _timeout_response(self, environ, start_response, restart: bool):
         error = ComputeTimeout(self.limit)
@@ -151,6 +153,7 @@ class _GuardedBody:
         self._previous = previous
         self._after = after
         self._armed = True
+        self._closed = False
 
     def __iter__(self):
         try:
@@ -158,11 +161,16 @@ class _GuardedBody:
         finally:
             self.close()
 
+    def disarm(self) -> None:
+        if self._armed:
+            self._armed = False
+            _disarm(self._previous)
+
     def close(self) -> None:
-        if not self._armed:
+        if self._closed:
             return
-        self._armed = False
-        _disarm(self._previous)
+        self._closed = True
+        self.disarm()
         try:
             close = getattr(self._body, "close", None)
             if close is not None:
