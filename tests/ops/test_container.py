@@ -126,16 +126,23 @@ def test_cmd_and_healthcheck_run_outside_a_container():
             assert server.poll() is None, server.stderr.read().decode()[-3000:]
             assert time.monotonic() < deadline, "HEALTHCHECK never passed"
             time.sleep(0.3)
-        with urllib.request.urlopen(f"http://127.0.0.1:{port}/healthz", timeout=5) as response:
+        probe_request = urllib.request.Request(f"http://127.0.0.1:{port}/healthz",
+                                               headers={"X-Request-ID": "container-cmd-1"})
+        with urllib.request.urlopen(probe_request, timeout=5) as response:
             assert response.status == 200
             assert json.loads(response.read()) == {"status": "ok"}
     finally:
         os.killpg(server.pid, 15)
         try:
-            server.wait(timeout=20)
+            _, stderr = server.communicate(timeout=20)
         except subprocess.TimeoutExpired:
             os.killpg(server.pid, 9)
-            server.wait(timeout=5)
+            _, stderr = server.communicate(timeout=5)
     assert server.returncode == 0, "SIGTERM should stop gunicorn cleanly"
+    # every log line, gunicorn's own included, is one JSON object; requests carry their id
+    lines = [json.loads(line) for line in stderr.decode().splitlines() if line.strip()]
+    assert any(line["logger"].startswith("gunicorn") for line in lines)
+    access = [line for line in lines if line.get("request_id") == "container-cmd-1"]
+    assert len(access) == 1 and access[0]["route"] == "/healthz" and access[0]["status"] == 200
     # with the server gone the same probe fails, so the check above could fail
     assert subprocess.run(probe, env=env, capture_output=True, timeout=10).returncode != 0
