@@ -69,7 +69,8 @@ class FittedModelSchema(StrictSchema):
                                    "without intercept).")
     r_factor = _doc_matrix("Upper-triangular R of the (weighted) design QR in the t basis, "
                            "row by row; se of the mean at t is sigma * ||R^-T v(t)||.")
-    raw_coefficients = _doc_list("Coefficients on powers of u (the transformed x).")
+    raw_coefficients = _doc_list("Coefficients on powers of u (the transformed x); null "
+                                 "where outside the double range.", nullable=True)
     raw_covariance = _doc_matrix("Covariance of raw_coefficients (null where undefined).",
                                  nullable=True)
     sigma = _doc_float("Residual standard deviation; null without residual df.",

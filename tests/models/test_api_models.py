@@ -75,6 +75,21 @@ def test_fit_then_predict_is_exact_across_models(api, name, model):
                                    err_msg=column)
 
 
+def test_document_with_null_raw_coefficients_is_accepted_over_the_wire(api):
+    # Seeded degree-10 data on x in [0, 1e40]: raw powers leave the double range (null).
+    rng = np.random.default_rng(1)
+    x = np.linspace(0.0, 1e40, 30)
+    y = 1 + 2 * (x / 1e40) + 3 * (x / 1e40) ** 4 + rng.normal(0, 0.01, x.size)
+    fit = _post(api, "/v1/fit", {"x": x.tolist(), "y": y.tolist(), "model": {"degree": 10},
+                                 "grid": {"count": 9}}).get_json()
+    assert None in fit["fitted_model"]["raw_coefficients"]
+    response = _post(api, "/v1/predict", {"fitted_model": fit["fitted_model"],
+                                          "x": fit["grid"]["x"]})
+    assert response.status_code == 200, response.get_json()
+    np.testing.assert_allclose([r["fit"] for r in response.get_json()["predictions"]],
+                               fit["grid"]["fit"], rtol=1e-12, atol=0)
+
+
 def test_predict_replicate_band_matches_statsmodels(api, pontius_fit):
     # Oracle: statsmodels OLS on x/max(x) (exact reparameterization); the band for the mean of
     # m new readings has variance se_mean^2 + sigma^2/m (common practice).

@@ -71,6 +71,21 @@ def test_fit_document_predict_reproduces_the_fit_grid(name):
         np.testing.assert_allclose(got[finite], want[finite], rtol=1e-12, atol=0)
 
 
+def test_document_with_raw_coefficients_beyond_double_range_still_works():
+    # Seeded degree-10 data on x in [0, 1e40]: raw powers leave the double range and the core
+    # reports them as null; the scaled basis still predicts, so the document must round-trip
+    # and reproduce the fit's grid (exactness check against the in-memory fit).
+    rng = np.random.default_rng(1)
+    x = np.linspace(0.0, 1e40, 30)
+    y = 1 + 2 * (x / 1e40) + 3 * (x / 1e40) ** 4 + rng.normal(0, 0.01, x.size)
+    report = fit_series(x, y, model=ModelSpec(degree=10),
+                        options=FitOptions(grid=GridSpec(count=9)))
+    doc = _transport(to_document(report.model))
+    assert None in doc["raw_coefficients"]
+    again = predict(from_document(doc), report.grid.x)
+    np.testing.assert_allclose(again.fit, report.grid.fit, rtol=1e-12, atol=0)
+
+
 def test_checksum_survives_a_transport_that_writes_whole_floats_as_integers(pontius_doc):
     # A JavaScript client writes 150000.0 as 150000; the canonical form normalizes types first.
     doc = _transport(pontius_doc)
