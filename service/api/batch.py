@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import gc
+import tempfile
 from contextlib import contextmanager
 from http import HTTPStatus
 
@@ -33,6 +34,7 @@ from service.requests import grid_spec, model_spec
 blp = Blueprint("batch", __name__, description="Fit many series.")
 NDJSON = "application/x-ndjson"
 STREAM_CHUNK = 2048  # series fitted together while streaming (bounds memory)
+SPOOL_RAM_BYTES = 8 << 20  # NDJSON request bodies beyond this wait on disk, not in memory
 FULL_INCLUDE = ("coefficients", "anova", "statistics", "selection", "diagnostics",
                 "fitted_model")
 register_kind(ProblemKind(
@@ -201,10 +203,34 @@ def _json_batch(settings):
     return current_app.json.response({"results": results, "summary": job.counts})
 
 
+def _spooled_body(size: int = 1 << 16):
+    """The whole request body, copied to a spooled temporary file (RAM up to 8 MiB, then disk).
+
+    Most HTTP clients send the whole body before they read any of the response;
+    answering while the body still arrives would fill both socket buffers and
+    deadlock. Reading it first (bounded memory) and then streaming the results
+    works with every client.
+    """
+    spool = tempfile.SpooledTemporaryFile(max_size=SPOOL_RAM_BYTES)
+    while True:
+        block = request.stream.read(size)
+        if not block:
+            break
+        spool.write(block)
+    spool.seek(0)
+    return spool
+
+
 def _stream(settings):
+    """Spool the body, then fit its series chunk by chunk, one result per line."""
+    with _spooled_body() as body:
+        yield from _stream_lines(settings, body)
+
+
+def _stream_lines(settings, body):
     """Read series line by line, fit them chunk by chunk, write one result per line."""
     job, pending, n_series, n_points, line_no = None, [], 0, 0, 0
-    for raw in _lines(request.stream):
+    for raw in _lines(body):
         line_no += 1
         if not raw.strip():
             continue
