@@ -215,9 +215,11 @@ class SummarySchema(Schema):
     adj_r_squared = fields.Float(allow_none=True)
     df_residual = fields.Integer()
     selection = fields.Dict(metadata={
-        "description": "method; for selection also degrees (candidates examined), criterion "
-                       "(p_last for sequential_f: p-value of each candidate's last power), "
-                       "values, and f (sequential F) for sequential_f."})
+        "description": "method; when the degree was selected also degrees (the candidates), "
+                       "criterion (p_last for sequential_f: p-value of each candidate's last "
+                       "power; else aic, aicc, bic, press or adj_r_squared), values (null where "
+                       "undefined, and for sequential_f beyond the first non-significant "
+                       "power, which the climb never examines), and f (sequential F)."})
     tests = fields.Dict(metadata={"description": "shapiro_wilk_p, breusch_pagan_p, "
                                                  "durbin_watson, lack_of_fit_p (null if not "
                                                  "computed)."})
