@@ -37,7 +37,6 @@ import sys
 import tempfile
 import time
 import uuid
-from datetime import UTC, datetime
 from functools import cache
 
 import orjson
@@ -77,6 +76,18 @@ class _Metrics:
                                       buckets=BATCH_BUCKETS)
         self.batch_results = Counter("curvewise_batch_results",
                                      "Series answered in batch requests, by status.", ("status",))
+        self._children: dict = {}
+
+
+    def request_children(self, method: str, route: str, status: int):
+        """(request counter, latency histogram) children for these labels, cached."""
+        key = (method, route, status)
+        children = self._children.get(key)
+        if children is None:
+            children = (self.requests.labels(method=method, route=route, status=str(status)),
+                        self.latency.labels(method=method, route=route))
+            self._children[key] = children
+        return children
 
 
 @cache
@@ -201,7 +212,8 @@ class JsonFormatter(logging.Formatter):
 
     def format(self, record: logging.LogRecord) -> str:
         entry = {
-            "time": datetime.fromtimestamp(record.created, UTC).isoformat(timespec="milliseconds"),
+            "time": time.strftime("%Y-%m-%dT%H:%M:%S", time.gmtime(record.created))
+            + f".{int(record.msecs):03d}Z",
             "level": record.levelname,
             "logger": record.name,
             "message": record.getMessage(),
@@ -241,11 +253,6 @@ def _incoming_request_id() -> str:
     return given if _REQUEST_ID_OK.fullmatch(given) else uuid.uuid4().hex
 
 
-def _route() -> str:
-    rule = request.url_rule
-    return rule.rule if rule is not None else "<unmatched>"
-
-
 def _count_fit_failures(app: Flask) -> None:
     """Wrap the app's FitError handler so each refused input is counted by reason."""
     handlers = app.error_handler_spec.setdefault(None, {}).setdefault(None, {})
@@ -281,22 +288,31 @@ def install(app: Flask) -> None:
             return response
         m.in_progress.dec()
         elapsed = time.perf_counter() - started
-        method = request.method if request.method in _METHODS else "OTHER"
-        route = _route()
-        m.requests.labels(method=method, route=route, status=str(response.status_code)).inc()
-        m.latency.labels(method=method, route=route).observe(elapsed)
-        if route == BATCH_ROUTE and response.status_code == 200:
+        req = request._get_current_object()
+        method = req.method if req.method in _METHODS else "OTHER"
+        rule = req.url_rule
+        route = rule.rule if rule is not None else "<unmatched>"
+        status = response.status_code
+        counter, latency = m.request_children(method, route, status)
+        counter.inc()
+        latency.observe(elapsed)
+        if route == BATCH_ROUTE and status == 200:
             if response.is_streamed:
                 response.response = _watch_stream(response.response)
             else:
                 _record_summary(response.get_data()[-1024:])
-        access_log.info("request", extra={"fields": {
-            "method": method, "route": route, "path": request.path,
-            "status": response.status_code, "duration_ms": round(elapsed * 1000, 3),
-            "bytes_in": request.content_length, "bytes_out": response.content_length,
-            "remote_addr": request.remote_addr,
-            "forwarded_for": request.headers.get("X-Forwarded-For"),  # set by the proxy
-        }})
+        if access_log.isEnabledFor(logging.INFO):
+            # built directly: Logger.info would walk the stack for a caller nobody reads
+            record = logging.LogRecord(access_log.name, logging.INFO, __file__, 0, "request",
+                                       None, None)
+            record.request_id = g.get("request_id")
+            record.fields = {
+                "method": method, "route": route, "path": req.path, "status": status,
+                "duration_ms": round(elapsed * 1000, 3), "bytes_in": req.content_length,
+                "bytes_out": response.content_length, "remote_addr": req.remote_addr,
+                "forwarded_for": req.headers.get("X-Forwarded-For"),  # set by the proxy
+            }
+            access_log.handle(record)
         return response
 
     api = app.extensions.get("curvewise-api")
