@@ -61,7 +61,8 @@ def read_body(req) -> bytes:
         return cached
     length = req.content_length
     limit = req.max_content_length
-    if length is None or (limit is not None and length > limit):
+    already_read = "_cached_data" in vars(req)  # someone called get_data() before us
+    if length is None or already_read or (limit is not None and length > limit):
         data = req.get_data(cache=True)  # werkzeug: chunked bodies and the 413 path
     else:
         data = req.environ["wsgi.input"].read(length)
