@@ -15,12 +15,24 @@ def empty_mapping() -> Mapping[str, Any]:
     return EMPTY
 
 
+_CONTAINERS = (dict, list, tuple, MappingProxyType)
+
+
 def freeze(value: Any) -> Any:
-    """Deep read-only copy of decoded JSON (dict -> mapping proxy, list -> tuple)."""
+    """Deep read-only copy of decoded JSON (dict -> mapping proxy, list -> tuple).
+
+    Already-frozen mappings are returned as they are; arrays of plain values
+    (the common case: numbers) become tuples without visiting each element twice.
+    """
+    if isinstance(value, MappingProxyType):
+        return value
     if isinstance(value, Mapping):
-        return MappingProxyType({k: freeze(v) for k, v in value.items()})
+        return MappingProxyType({k: freeze(v) if isinstance(v, _CONTAINERS) else v
+                                 for k, v in value.items()})
     if isinstance(value, (list, tuple)):
-        return tuple(freeze(v) for v in value)
+        if any(isinstance(v, _CONTAINERS) for v in value):
+            return tuple(freeze(v) for v in value)
+        return tuple(value)
     return value
 
 
@@ -50,16 +62,20 @@ def items(builder: Callable[[Any], Any]) -> Callable[[Any], tuple]:
 
 
 def build(cls: type, data: Mapping[str, Any] | None) -> Any:
-    """Build ``cls`` from decoded JSON: known members by name, nested types converted."""
+    """Build ``cls`` from decoded JSON: known members by name, nested types converted.
+
+    The JSON is deep-frozen once, at the top; nested results share its frozen parts.
+    """
     if data is None:
         return None
     if not isinstance(data, Mapping):
         raise TypeError(f"{cls.__name__}: expected a JSON object, got {type(data).__name__}")
+    data = freeze(data)
     converters = CONVERT.get(cls, {})
     kwargs: dict[str, Any] = {}
     for f in fields(cls):
         if f.name == "raw":
-            kwargs["raw"] = freeze(data)
+            kwargs["raw"] = data
             continue
         if f.name not in data:
             if f.default is MISSING and f.default_factory is MISSING:
@@ -67,10 +83,8 @@ def build(cls: type, data: Mapping[str, Any] | None) -> Any:
             continue
         value = data[f.name]
         convert = converters.get(f.name)
-        kwargs[f.name] = convert(value) if (convert and value is not None) else freeze(value)
+        kwargs[f.name] = convert(value) if (convert and value is not None) else value
     return cls(**kwargs)
-
-
 
 def of(cls: type) -> Callable[[Any], Any]:
     """A converter building ``cls`` from one JSON object."""
