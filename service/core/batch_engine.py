@@ -7,14 +7,16 @@ one block can hold series of different lengths.
 Numerics. Each series' x is mapped onto [-1, 1] (``t = (u - shift) / scale``);
 then the weighted discrete orthonormal polynomials ``q_0 .. q_d`` of that
 series are built by the Stieltjes three-term recurrence, vectorized across
-rows, with each new vector explicitly re-orthogonalized against the two
-previous ones and, for degree >= 5, against all earlier ones (classical
-Gram-Schmidt applied twice). The ``q_k`` are the columns of the thin-QR ``Q``
+rows, and each new vector is re-orthogonalized against every earlier one
+(a second classical Gram-Schmidt sweep: "twice is enough"). The sweep is not
+optional: on designs with an outlying x the bare recurrence loses
+orthogonality and digits (1e-5 relative at degree 4 with condition number
+~700; with the sweep 1e-12). The ``q_k`` are the columns of the thin-QR ``Q``
 factor of the scaled design ``sqrt(w) * t**k``; their polynomial
-coefficients give ``R^-1``. The effects ``q_k' sqrt(w) y`` are taken from the
-running residual (modified Gram-Schmidt), so the residual sum of squares of
-every nested degree is a sum of squares of residuals, never a difference of
-large numbers. Normal equations on raw powers are never formed.
+coefficients give ``R^-1``. The residual sum of squares of every nested degree
+is the largest model's (a sum of squared residuals) plus the squares of the
+effects it leaves out, never a difference of large numbers. Normal equations
+on raw powers are never formed.
 
 References: Golub & Van Loan, *Matrix Computations*, 4th ed., sec. 5.2
 (Gram-Schmidt, re-orthogonalization); Forsythe (1957), *J. SIAM* 5, 74-88
@@ -25,8 +27,6 @@ from __future__ import annotations
 
 import numpy as np
 from scipy import special
-
-FULL_REORTH_DEGREE = 5  # from this degree on, re-orthogonalize against every earlier vector
 
 
 def _dot(a: np.ndarray, b: np.ndarray) -> np.ndarray:
@@ -97,7 +97,6 @@ def orthonormal_basis(t: np.ndarray, s: np.ndarray | None, p: int, intercept: bo
     norm = np.sqrt(_dot(v, v))
     np.multiply(v, (1.0 / norm)[:, None], out=q[0])
     ck[0, :, 0] = 1.0 / norm
-    full = p - (0 if intercept else 1) >= FULL_REORTH_DEGREE
     beta = None
     first = 0
     if intercept and s is None and p > 1:
@@ -123,10 +122,10 @@ def orthonormal_basis(t: np.ndarray, s: np.ndarray | None, p: int, intercept: bo
         if k > 0:
             v -= np.multiply(q[k - 1], beta[:, None], out=tmp)
             c -= beta[:, None] * ck[k - 1]
-        if full:  # one more classical Gram-Schmidt sweep against every earlier vector
-            h = np.einsum("kgn,gn->gk", q[:k + 1], v)
-            v -= np.einsum("gk,kgn->gn", h, q[:k + 1])
-            c -= np.einsum("gk,kgm->gm", h, ck[:k + 1])
+        # second classical Gram-Schmidt sweep against every earlier vector
+        h = np.einsum("kgn,gn->gk", q[:k + 1], v)
+        v -= np.einsum("gk,kgn->gn", h, q[:k + 1])
+        c -= np.einsum("gk,kgm->gm", h, ck[:k + 1])
         beta = np.sqrt(_dot(v, v))
         inv = (1.0 / beta)[:, None]
         v *= inv
