@@ -55,7 +55,7 @@ errorlog = "-"
 loglevel = os.environ.get("CURVEWISE_LOG_LEVEL", "info").lower()
 logconfig_dict = {  # gunicorn's own messages as JSON lines too (same shape as the app's)
     "version": 1, "disable_existing_loggers": False,
-    "formatters": {"json": {"()": "service.observability.JsonFormatter"}},
+    "formatters": {"json": {"()": "service.logs.JsonFormatter"}},
     "handlers": {"stderr": {"class": "logging.StreamHandler", "formatter": "json",
                             "stream": "ext://sys.stderr"}},
     "root": {"level": loglevel.upper(), "handlers": ["stderr"]},

@@ -22,31 +22,26 @@ Under several gunicorn workers every worker writes its samples to files in
 ``service.gunicorn_conf`` calls :func:`prepare_multiprocess_dir` in ``on_starting`` and
 :func:`mark_worker_dead` in ``child_exit``.
 
-Logs: one JSON object per line on stderr. Each request gets an id: a well-formed incoming
-``X-Request-ID`` is kept, otherwise a fresh one is made; it is echoed in the response header
-and stamped on every log record written while the request runs. Bodies are never logged.
+Logs (:mod:`service.logs`): each request gets an id, echoed in ``X-Request-ID`` and stamped on
+every record written while it runs, and one JSON access line. Bodies are never logged.
 """
 
 from __future__ import annotations
 
 import logging
 import os
-import re
 import shutil
-import sys
 import tempfile
 import time
-import uuid
 from functools import cache
 
 import orjson
-from flask import Flask, Response, g, has_request_context, request
+from flask import Flask, Response, g, request
 from flask_smorest import Blueprint
 
 from service.core.errors import FitError
+from service.logs import REQUEST_ID_HEADER, configure_logging, incoming_request_id
 
-REQUEST_ID_HEADER = "X-Request-ID"
-_REQUEST_ID_OK = re.compile(r"[A-Za-z0-9._:@/+=-]{1,128}")
 _METHODS = frozenset({"GET", "HEAD", "POST", "PUT", "PATCH", "DELETE", "OPTIONS"})
 MULTIPROC_ENV = "PROMETHEUS_MULTIPROC_DIR"
 _OWNED_DIR_ENV = "CURVEWISE_OWNS_METRICS_DIR"
@@ -205,53 +200,7 @@ def remove_multiprocess_dir() -> None:
         shutil.rmtree(path, ignore_errors=True)
 
 
-# ---- logs ---------------------------------------------------------------------------------------
-
-class JsonFormatter(logging.Formatter):
-    """One JSON object per record: time, level, logger, message, request id, extra ``fields``."""
-
-    def format(self, record: logging.LogRecord) -> str:
-        entry = {
-            "time": time.strftime("%Y-%m-%dT%H:%M:%S", time.gmtime(record.created))
-            + f".{int(record.msecs):03d}Z",
-            "level": record.levelname,
-            "logger": record.name,
-            "message": record.getMessage(),
-            "pid": record.process,
-        }
-        request_id = getattr(record, "request_id", None) or current_request_id()
-        if request_id:
-            entry["request_id"] = request_id
-        entry.update(getattr(record, "fields", None) or {})
-        if record.exc_info:
-            entry["exception"] = self.formatException(record.exc_info)
-        return orjson.dumps(entry, default=str).decode()
-
-
-def current_request_id() -> str | None:
-    """The id of the request being handled, if any."""
-    if has_request_context():
-        return g.get("request_id")
-    return None
-
-
-def configure_logging(level: str) -> None:
-    """JSON lines on stderr for the ``curvewise`` loggers (once per process)."""
-    logger = logging.getLogger("curvewise")
-    logger.setLevel(level.upper())
-    if not any(isinstance(h.formatter, JsonFormatter) for h in logger.handlers):
-        handler = logging.StreamHandler(sys.stderr)
-        handler.setFormatter(JsonFormatter())
-        logger.addHandler(handler)
-        logger.propagate = False
-
-
 # ---- Flask wiring -------------------------------------------------------------------------------
-
-def _incoming_request_id() -> str:
-    given = request.headers.get(REQUEST_ID_HEADER, "")
-    return given if _REQUEST_ID_OK.fullmatch(given) else uuid.uuid4().hex
-
 
 def _count_fit_failures(app: Flask) -> None:
     """Wrap the app's FitError handler so each refused input is counted by reason."""
@@ -276,14 +225,14 @@ def install(app: Flask) -> None:
 
     @app.before_request
     def _start() -> None:
-        g.request_id = _incoming_request_id()
+        g.request_id = incoming_request_id()
         g.request_started = time.perf_counter()
         m.in_progress.inc()
 
     @app.after_request
     def _finish(response: Response) -> Response:
         started = g.pop("request_started", None)
-        response.headers[REQUEST_ID_HEADER] = g.get("request_id") or _incoming_request_id()
+        response.headers[REQUEST_ID_HEADER] = g.get("request_id") or incoming_request_id()
         if started is None:  # a before_request hook ahead of ours answered
             return response
         m.in_progress.dec()

@@ -14,7 +14,7 @@ import re
 import pytest
 from prometheus_client.parser import text_string_to_metric_families
 
-from service import observability
+from service import logs, observability
 from service.app import create_app
 from service.core.errors import DesignError
 
@@ -135,7 +135,7 @@ def test_batch_summary_reader_ignores_other_bodies():
 def test_logs_are_json_lines_with_request_id_and_never_bodies(app):
     stream = io.StringIO()
     handler = logging.StreamHandler(stream)
-    handler.setFormatter(observability.JsonFormatter())
+    handler.setFormatter(logs.JsonFormatter())
     logger = logging.getLogger("curvewise")
     logger.addHandler(handler)
     try:
@@ -165,7 +165,7 @@ def test_json_formatter_keeps_exceptions_and_survives_odd_values():
     except RuntimeError:
         import sys
         record.exc_info = sys.exc_info()
-    line = observability.JsonFormatter().format(record)
+    line = logs.JsonFormatter().format(record)
     parsed = json.loads(line)
     assert "\n" not in line
     assert parsed["message"] == 'boom \n"' and "RuntimeError: inner" in parsed["exception"]
