@@ -51,22 +51,38 @@ class Decomposition:
         return 0.0 if value <= (EXACT_FIT_RTOL ** 2) * self.sum_zw2 else value
 
     def cumulative(self, degrees) -> tuple[np.ndarray, np.ndarray]:
-        """Hat diagonals and weighted fitted values of the candidates (len(degrees) x n)."""
+        """Hat diagonals and weighted residuals of the candidates (len(degrees) x n).
+
+        Running sums go straight into the output rows (a long series
+        page-faults on every fresh array); the additions are the same, in the
+        same order, as ``h += q_j * q_j`` and ``f += e_j q_j``, and each
+        residual row is ``zw - f``.
+        """
         want = {self.p(d) - 1: i for i, d in enumerate(degrees)}
         n = self.q.shape[1]
         lev = np.empty((len(want), n))
-        fit = np.empty((len(want), n))
-        eff = self.effects.astype(float)
-        h = np.zeros(n)
-        f = np.zeros(n)
+        res = np.empty((len(want), n))
+        eff = self.effects.astype(float).tolist()
+        tmp, f, spare = np.empty(n), np.empty(n), np.empty(n)
+        h_prev = None
         for j in range(max(want) + 1):
             row = self.q[j]
-            h += row * row
-            f += eff[j] * row
-            if j in want:
-                lev[want[j]] = h
-                fit[want[j]] = f
-        return lev, fit
+            i = want.get(j)
+            h_out = lev[i] if i is not None else spare
+            np.multiply(row, row, out=tmp)
+            if h_prev is None:
+                h_out[...] = tmp
+            else:
+                np.add(h_prev, tmp, out=h_out)
+            h_prev = h_out
+            if j == 0:
+                np.multiply(row, eff[0], out=f)
+            else:
+                np.multiply(row, eff[j], out=tmp)
+                f += tmp
+            if i is not None:
+                np.subtract(self.zw, f, out=res[i])
+        return lev, res
 
 
 def _sumsq(v: np.ndarray) -> float:
@@ -97,8 +113,10 @@ def decompose(u: np.ndarray, z: np.ndarray, w: np.ndarray | None, max_degree: in
                 r, q = got
                 effects = np.einsum("ij,j->i", q, zw)
                 resid = zw.copy()
+                tmp = np.empty_like(resid)
                 for e_j, row in zip(effects.tolist(), q, strict=True):
-                    resid -= e_j * row
+                    np.multiply(row, e_j, out=tmp)
+                    resid -= tmp
                 return Decomposition(intercept, max_degree, shift, scale, t64, sqrt_w, zw, r,
                                      qr.triangular_inverse(r), effects, _sumsq(resid),
                                      q, _sumsq(zw))

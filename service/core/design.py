@@ -53,12 +53,22 @@ def basis_rows(t: np.ndarray, degree: int, intercept: bool,
     """Design transposed (p x n): row k is the k-th column, times ``sqrt_w`` if given."""
     first = 0 if intercept else 1
     rows = np.empty((degree + 1 - first, t.size), dtype=t.dtype)
-    cur = np.ones_like(t) if sqrt_w is None else np.array(sqrt_w, dtype=t.dtype)
-    for k in range(degree + 1):
-        if k >= first:
-            rows[k - first] = cur
-        if k < degree:
-            cur = cur * t
+    # each power is written straight into its row (no temporaries: long series page-fault
+    # on every fresh array); the products are the same as cur = cur * t
+    if first == 0:
+        prev = rows[0]
+        if sqrt_w is None:
+            prev.fill(1)
+        else:
+            prev[...] = sqrt_w
+    elif degree >= 1:
+        prev = rows[0]
+        if sqrt_w is None:
+            prev[...] = t
+        else:
+            np.multiply(np.asarray(sqrt_w, dtype=t.dtype), t, out=prev)
+    for k in range(1, degree + 1 - first):
+        np.multiply(rows[k - 1], t, out=rows[k])
     return rows
 
 

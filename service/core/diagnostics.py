@@ -33,7 +33,7 @@ OUTLIER_ALPHA = 0.05
 
 
 def diagnose(index: np.ndarray, x: np.ndarray, dec: Decomposition, degree: int,
-             h: np.ndarray, fitted_w: np.ndarray, rss: float, exact: bool,
+             h: np.ndarray, e: np.ndarray, one_h: np.ndarray, rss: float, exact: bool,
              distinct: int) -> Diagnostics:
     """Compute the diagnostics of the chosen fit.
 
@@ -42,28 +42,45 @@ def diagnose(index: np.ndarray, x: np.ndarray, dec: Decomposition, degree: int,
     index : original positions of the used points.
     x : original x of the used points (lack-of-fit levels).
     dec : the decomposition the fit came from.
-    h, fitted_w : hat diagonal and weighted fitted values of the chosen degree.
+    h, e, one_h : hat diagonal, weighted residuals and ``1 - h`` of the chosen degree.
     rss : residual SS (0.0 for an exact fit).
     distinct : number of distinct x values.
     """
     n, p = x.size, dec.p(degree)
     df = n - p
-    e = dec.zw - fitted_w
     raw = e if dec.sqrt_w is None else e / dec.sqrt_w
+    ee = e * e
     with np.errstate(all="ignore"):
         sigma = np.sqrt(rss / df) if df > 0 else NAN
-        one_h = 1 - h
-        std = e / (sigma * np.sqrt(one_h))
-        s_i2 = (rss - e * e / one_h) / (df - 1) if df > 1 else np.full(n, NAN)
-        stud = e / np.sqrt(s_i2 * one_h)
-        cook = std * std * h / (p * one_h)
-        dffits = stud * np.sqrt(h / one_h)
+        # in place where possible (a long series page-faults on every fresh array); the
+        # operations are those of std = e / (sigma sqrt(1-h)),
+        # s_i2 = (rss - e²/(1-h)) / (df-1), stud = e / sqrt(s_i2 (1-h)),
+        # cook = std² h / (p (1-h)), dffits = stud sqrt(h / (1-h))
+        std = np.sqrt(one_h)
+        std *= sigma
+        np.divide(e, std, out=std)
+        if df > 1:
+            s_i2 = np.divide(ee, one_h)
+            np.subtract(rss, s_i2, out=s_i2)
+            s_i2 /= df - 1
+        else:
+            s_i2 = np.full(n, NAN)
+        stud = s_i2
+        stud *= one_h
+        np.sqrt(stud, out=stud)
+        np.divide(e, stud, out=stud)
+        cook = np.multiply(std, std)
+        cook *= h
+        cook /= np.multiply(p, one_h)
+        dffits = np.divide(h, one_h)
+        np.sqrt(dffits, out=dffits)
+        np.multiply(stud, dffits, out=dffits)
         bonf = float(special.stdtrit(df - 1, 1 - OUTLIER_ALPHA / (2 * n))) if df > 1 else NAN
         cook_cut = float(special.fdtri(p, df, 0.5)) if df > 0 else NAN
     lev_cut = 2 * p / n
     if exact or df < 1:
         std = stud = cook = dffits = np.full(n, NAN)
-    tests = _tests(e, dec, degree, exact, df)
+    tests = _tests(e, ee, dec, degree, exact, df)
     lof = lack_of_fit(x, dec.zw, dec.sqrt_w, rss, p, distinct)
     outliers = tuple(index[np.abs(stud) > bonf].tolist())
     high = tuple(index[h > lev_cut].tolist()) if n > p else ()
@@ -76,23 +93,25 @@ def diagnose(index: np.ndarray, x: np.ndarray, dec: Decomposition, degree: int,
                        frozen_array(dffits), tests, lof, outliers, high, infl, thresholds)
 
 
-def _tests(e: np.ndarray, dec: Decomposition, degree: int, exact: bool, df: int
-           ) -> tuple[TestResult, ...]:
+def _tests(e: np.ndarray, ee: np.ndarray, dec: Decomposition, degree: int, exact: bool,
+           df: int) -> tuple[TestResult, ...]:
     if exact or df < 1:
         why = "exact fit: residuals are rounding noise" if exact else "no residual df"
         return tuple(TestResult(name, NAN, NAN, None, f"not computed ({why})")
                      for name in ("shapiro_wilk", "breusch_pagan", "durbin_watson"))
-    return (shapiro_wilk(e), _breusch_pagan(e, dec, degree), _durbin_watson(e))
+    return (shapiro_wilk(e), _breusch_pagan(ee, dec, degree), _durbin_watson(e))
 
 
-def _breusch_pagan(e: np.ndarray, dec: Decomposition, degree: int) -> TestResult:
-    """Koenker's studentized form: LM = n R² of e² on (1, t, ..., t^d), chi² on d df."""
-    n = e.size
+def _breusch_pagan(ee: np.ndarray, dec: Decomposition, degree: int) -> TestResult:
+    """Koenker's studentized form: LM = n R² of e² on (1, t, ..., t^d), chi² on d df.
+
+    ``ee`` holds the squared residuals.
+    """
+    n = ee.size
     if degree < 1 or n <= degree + 1:
         return TestResult("breusch_pagan", NAN, NAN, None,
                           "needs at least one power of x and more points than coefficients")
-    z = e * e
-    zc = z - z.sum() / n
+    zc = ee - ee.sum() / n
     if dec.sqrt_w is None and dec.intercept:
         qa = dec.q[:degree + 1]  # already an orthonormal basis of (1, t, ..., t^d)
     else:

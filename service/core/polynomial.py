@@ -97,8 +97,9 @@ def _fit(x, y, weights, model: ModelSpec, options: FitOptions) -> FitReport:
     n = u.size
     sum_log_w = 0.0 if data.w is None else float(np.sum(np.log(data.w)))
     degrees = list(range(dmin, dmax + 1))
-    lev, fits = dec.cumulative(degrees)
-    cands = candidate_measures(dec, degrees, sum_log_w, lev, fits)
+    lev, resid = dec.cumulative(degrees)
+    one_h = np.subtract(1, lev)
+    cands = candidate_measures(dec, degrees, sum_log_w, lev, resid, one_h)
     if selects:
         degree, reason = choose(model.select, cands, model.alpha)
         method = model.select
@@ -160,8 +161,8 @@ def _fit(x, y, weights, model: ModelSpec, options: FitOptions) -> FitReport:
     diagnostics = None
     if "diagnostics" in options.include:
         k = degree - dmin
-        diagnostics = diagnose(data.index, data.x, dec, degree, lev[k], fits[k], m.rss,
-                               m.exact, distinct)
+        diagnostics = diagnose(data.index, data.x, dec, degree, lev[k], resid[k], one_h[k],
+                               m.rss, m.exact, distinct)
     grid = None
     if "grid" in options.include and options.grid is not None:
         gx = grid_points(options.grid, xmin, xmax, options.max_grid_points)

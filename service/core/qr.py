@@ -93,6 +93,7 @@ def cholesky_qr2(v: np.ndarray, tol: float = 1e-13) -> tuple[np.ndarray, np.ndar
 
     Returns ``(r, q)`` with ``q`` (p x n) orthonormal rows, or None when the
     design is too ill-conditioned for it (the caller falls back to Householder).
+    ``v`` is overwritten (it becomes the first pass's Q).
     The second pass is skipped when the first R is so well conditioned
     (condition < :data:`ONE_PASS_COND`) that ``Q'Q`` is already the identity
     to ~1e-12.
@@ -103,13 +104,13 @@ def cholesky_qr2(v: np.ndarray, tol: float = 1e-13) -> tuple[np.ndarray, np.ndar
     d = np.abs(np.diag(r1))
     if d.min() * CHOLQR_MAX_COND < d.max():
         return None
-    q1 = _forward(r1, v)
+    q1 = _forward(r1, v, out=v)
     if np.linalg.cond(r1) < ONE_PASS_COND:
         return r1, q1
     r2 = _chol(gram(q1), tol)
     if r2 is None:
         return None
-    return r2 @ r1, _forward(r2, q1)
+    return r2 @ r1, _forward(r2, q1, out=q1)
 
 
 def gram(v: np.ndarray) -> np.ndarray:
@@ -137,14 +138,22 @@ def _chol(g: np.ndarray, tol: float) -> np.ndarray | None:
     return r
 
 
-def _forward(r: np.ndarray, v: np.ndarray) -> np.ndarray:
-    """Solve ``r' q = v`` for q (rows), r upper triangular: q = r^-T v."""
-    q = np.empty_like(v)
+def _forward(r: np.ndarray, v: np.ndarray, out: np.ndarray | None = None) -> np.ndarray:
+    """Solve ``r' q = v`` for q (rows), r upper triangular: q = r^-T v.
+
+    ``out`` may be ``v`` itself (row j of q needs only row j of v and earlier
+    rows of q); a long series page-faults on every fresh array.
+    """
+    q = np.empty_like(v) if out is None else out
+    tmp = np.empty_like(v[0]) if r.shape[0] > 1 else None
     for j in range(r.shape[0]):
-        acc = v[j].copy()
+        acc = q[j]
+        if out is not v:
+            acc[...] = v[j]
         for k in range(j):
-            acc -= r[k, j] * q[k]
-        q[j] = acc / r[j, j]
+            np.multiply(q[k], r[k, j], out=tmp)
+            acc -= tmp
+        acc /= r[j, j]
     return q
 
 

@@ -27,6 +27,7 @@ from service.core.decomposition import EXACT_FIT_RTOL, Decomposition
 
 NAN = float("nan")
 LOG_2PI = log(2 * pi)
+LONG = 8192  # series longer than this are worked row by row
 LEVERAGE_ONE = 1 - 1e-10  # h_i above this: the leave-one-out residual is undefined
 
 
@@ -58,11 +59,13 @@ class Measures(NamedTuple):
 
 
 def candidate_measures(dec: Decomposition, degrees: list[int], sum_log_w: float,
-                       leverage: np.ndarray, fitted: np.ndarray) -> list[Measures]:
+                       leverage: np.ndarray, resid: np.ndarray,
+                       one_minus_h: np.ndarray) -> list[Measures]:
     """Whole-fit numbers of every candidate degree.
 
-    ``leverage`` and ``fitted`` are the candidates' hat diagonals and weighted
-    fitted values (``len(degrees) x n``, see ``Decomposition.cumulative``).
+    ``leverage``, ``resid`` and ``one_minus_h`` are the candidates' hat
+    diagonals, weighted residuals and ``1 - h`` (``len(degrees) x n``, see
+    ``Decomposition.cumulative``).
     Sums of squares of effects are sums of positive terms, so float64 keeps
     them to full precision; the per-candidate arithmetic runs on Python
     floats (at most 13 candidates, cheaper than numpy calls).
@@ -70,9 +73,16 @@ def candidate_measures(dec: Decomposition, degrees: list[int], sum_log_w: float,
     n = dec.t.size
     c = 1 if dec.intercept else 0
     with np.errstate(all="ignore"):
-        loo = (dec.zw - fitted) / (1 - leverage)
-        press_all = np.einsum("ij,ij->i", loo, loo)
-        press_all[(leverage >= LEVERAGE_ONE).any(axis=1)] = NAN
+        if resid.shape[1] > LONG:  # one row at a time (a long series page-faults on fresh arrays)
+            loo = np.empty(resid.shape[1])
+            press_all = np.empty(resid.shape[0])
+            for i, (r_i, oh_i) in enumerate(zip(resid, one_minus_h, strict=True)):
+                np.divide(r_i, oh_i, out=loo)
+                press_all[i] = np.einsum("i,i->", loo, loo)
+        else:
+            loo = np.divide(resid, one_minus_h)
+            press_all = np.einsum("ij,ij->i", loo, loo)
+        press_all[np.fmax.reduce(leverage, axis=1) >= LEVERAGE_ONE] = NAN
     press_all = press_all.tolist()
     e2 = (dec.effects.astype(float) ** 2).tolist()
     big = len(e2)
