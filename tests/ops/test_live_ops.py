@@ -225,6 +225,8 @@ def test_kill_9_one_worker_under_load(metrics_dir):
         # a sync worker has at most one request in flight; allow for one more accepted
         # connection racing the kill
         assert len(result.failures) <= 2, result.failures
+        # ... and they were sent before the kill: nothing sent afterwards failed
+        assert all(sent <= killed["at"] + 0.05 for sent, _, _ in result.failures), result.failures
         assert result.count(lambda st: st >= 500) == 0, result.statuses
         after_kill = [t for t, _, _ in result.latencies if t > killed["at"] + 0.5]
         assert len(after_kill) > 20, "the service stopped answering after the kill"
