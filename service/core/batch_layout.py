@@ -10,6 +10,7 @@ from __future__ import annotations
 import numpy as np
 
 from service.core import transforms
+from service.core.inputs import TINY_LIMIT
 
 BLOCK_POINTS = 65_536   # points per block: fits in cache, bounds working memory
 MAX_PAD_RATIO = 1.15    # a block pads its rows to at most 15% above its shortest
@@ -32,7 +33,34 @@ def screen(x, y, w, offsets, rows, model, raw):
     if hits.size:
         bad_series = np.unique(np.searchsorted(offsets, hits, side="right") - 1)
         bad |= np.isin(rows, bad_series)
+    bad |= _magnitude_bad(x, y, w, offsets, rows, model)
     return rows[~bad], rows[bad]
+
+
+def _magnitude_bad(x, y, w, offsets, rows, model):
+    """Rows with values whose squares would overflow or underflow float64 sums.
+
+    Same limits as :func:`service.core.inputs.check_magnitude` (those rows go to
+    the single-series path, which refuses them with its DataError).
+    """
+    sizes = np.diff(offsets)
+    filled = np.flatnonzero(sizes > 0)
+    n = np.maximum(sizes[rows], 1)
+    limit = np.sqrt(np.finfo(float).max / (64.0 * n))
+    bad = np.zeros(rows.size, dtype=bool)
+    if filled.size == 0:
+        return bad
+    arrays = [x if model.transform_x == "none" else transforms._FORWARD[model.transform_x](x),
+              y if model.transform_y == "none" else transforms._FORWARD[model.transform_y](y)]
+    if w is not None:
+        arrays.append(w)
+    with np.errstate(all="ignore"):
+        for values in arrays:
+            top = np.zeros(sizes.size)
+            top[filled] = np.maximum.reduceat(np.abs(values), offsets[filled])
+            t = top[rows]
+            bad |= (t > limit) | ((t > 0) & (t < TINY_LIMIT))
+    return bad
 
 
 def blocks(rows, lengths):

@@ -112,3 +112,23 @@ def test_an_invalid_shared_model_fails_every_series_with_the_same_typed_error():
                        model=ModelSpec(max_degree=3, select="no_such_method"))
     assert set(result.errors) == {0, 1, 2}
     assert all(isinstance(e, SpecError) for e in result.errors.values())
+
+
+def test_values_too_large_or_too_small_for_float64_sums_are_refused_like_fit_series():
+    from service.core import FitOptions, fit_series
+
+    rng = np.random.default_rng(1)
+    x = np.linspace(0.0, 1.0, 50)
+    series = [(x, m * (1.0 + x + rng.normal(0.0, 0.1, 50))) for m in
+              (1e100, 1e152, 1e153, 1e160, 1e-160, 1e-140)]
+    series.append((np.linspace(0.0, 1e160, 50), rng.normal(size=50)))
+    model = ModelSpec(degree=1)
+    result = fit_batch(series, model=model)
+    for g, (xs, ys) in enumerate(series):
+        try:
+            fit_series(xs, ys, model=model, options=FitOptions(grid=None))
+        except DataError as exc:
+            assert result.errors[g].field == exc.field, g
+        else:
+            assert result.ok[g], g
+    assert set(result.errors) == {2, 3, 4, 6}
