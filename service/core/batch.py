@@ -248,11 +248,25 @@ def _fit_block(x, y, w, offsets, lengths, rows, model, bspec):
     fit["rows"] = rows
     # Ill-conditioned designs go to the single-series path: its extended-precision QR
     # keeps the digits that float64 loses there (and it flags them the same way).
-    good = finite & (diag["condition_number"] <= COND_CAUTION)
+    good = finite & (diag["condition_number"] <= COND_CAUTION) & _moderate(fit)
     if not good.all():
         fit["bad"] = ~good
         rejected = np.concatenate([rejected, rows[~good]])
     return fit, rejected
+
+
+def _moderate(fit: dict) -> np.ndarray:
+    """Rows whose raw coefficients and standard errors square safely in float64.
+
+    Outside about 1e-150..1e150 the single-series path (extended precision, and
+    NaN with a notice where a value does not fit a normal double) is the reference.
+    """
+    with np.errstate(all="ignore"):
+        values = np.concatenate([fit["coef"], fit["se"]], axis=1)
+        mags = np.abs(values)
+        odd = (mags > 1e150) | ((mags < 1e-150) & (mags > 0))
+        zero_se = (fit["se"] == 0) & (fit["sigma"] > 0)[:, None]
+    return ~(np.where(np.isnan(values), False, odd).any(axis=1) | zero_se.any(axis=1))
 
 
 def fit_chunks(series, *, chunk_series: int = 4096, model: ModelSpec = _MODEL,

@@ -156,3 +156,16 @@ def test_an_outlying_x_costs_no_digits(model):
     assert len(result.reports) < len(series)   # most rows stay on the vectorized path
     assert _compare(result, series, model, press=False,
                     p_last=model.selects and model.select == "sequential_f") < TOL
+
+
+def test_extreme_x_scales_match_fit_series_including_undefined_values():
+    # x up to 1e50: raw x^4 coefficients near 1e-200 and their variances below the double
+    # range, which fit_series reports as NaN with a notice; the batch must agree.
+    rng = np.random.default_rng(0)
+    series = []
+    for top in (1e10, 1e30, 1e50):
+        x = np.linspace(0.0, top, 50)
+        series.append((x, 1.0 + x / top + rng.normal(0.0, 0.1, 50), None))
+    model = ModelSpec(degree=4)
+    result = fit_batch([(x, y) for x, y, _ in series], model=model)
+    assert _compare(result, series, model, press=False, p_last=False) < TOL
