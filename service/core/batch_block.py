@@ -93,7 +93,7 @@ def fit_block(u, z, w, valid, spec: BlockSpec, increasing: bool = False) -> dict
     rss = np.where(rss <= EXACT_FIT_RTOL ** 2 * sum_zw2[:, None], 0.0, rss)
     head = np.cumsum(b2, axis=1)
     ss_model = head[:, k - 1] - (head[:, [0]] if spec.intercept else 0.0)
-    exact = (rss == 0.0) & (ss_model > 0)
+    exact = (rss == 0.0) & (n[:, None] - k[None, :] > 0)   # as summary.measures
     cand = eng.criteria(rss, ss_model, n[:, None], k[None, :].astype(float), spec.c, sum_log_w)
     f, pf = eng.f_last(b[:, k - 1], rss, cand["df_residual"], exact, with_p=False)
     if spec.intercept and degrees[0] == 0:

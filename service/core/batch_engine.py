@@ -168,7 +168,7 @@ def criteria(rss, ss_model, n, k, c, sum_log_w):
     tss = ss_model + rss
     with np.errstate(divide="ignore", invalid="ignore"):
         r2 = np.where(tss > 0, ss_model / tss, np.nan)
-        adj = np.where(df > 0, 1 - (1 - r2) * (n - c) / df, np.nan)
+        adj = np.where((df > 0) & (tss > 0), 1 - (1 - r2) * (n - c) / df, np.nan)
         sigma = np.where(df > 0, np.sqrt(rss / df), np.nan)
         m2llf = np.where(rss > 0, n * (np.log(2 * np.pi) + np.log(rss / n) + 1) - sum_log_w,
                          np.nan)
@@ -185,7 +185,7 @@ def f_last(b_last, rss, df, exact, with_p=True):
     The p-values are the costly part; ``with_p=False`` returns them as NaN.
     """
     with np.errstate(divide="ignore", invalid="ignore"):
-        ok = (df > 0) & ~exact
+        ok = (df > 0) & (rss > 0) & ~exact
         f = np.where(ok, b_last ** 2 / (rss / df), np.nan)
         if not with_p:
             return f, np.full(f.shape, np.nan)

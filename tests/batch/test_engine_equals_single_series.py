@@ -169,3 +169,31 @@ def test_extreme_x_scales_match_fit_series_including_undefined_values():
     model = ModelSpec(degree=4)
     result = fit_batch([(x, y) for x, y, _ in series], model=model)
     assert _compare(result, series, model, press=False, p_last=False) < TOL
+
+
+@pytest.mark.parametrize("model", [ModelSpec(max_degree=4), ModelSpec(max_degree=4, select="aic"),
+                                   ModelSpec(degree=2), ModelSpec(max_degree=3, select="press"),
+                                   ModelSpec(max_degree=3, select="bic", min_degree=0)])
+def test_exact_fits_constant_y_and_interpolation_equal_fit_series(model):
+    # Exact fits leave rounding noise where the true value is 0 (a coefficient of 1e-21 in
+    # one path, 0.0 in the other), so values are compared on the scale of y.
+    x = np.arange(10.0)
+    series = [(x, 1 + 2 * x), (x, 1 + 2 * x + 0.5 * x * x), (x, np.full(10, 3.0)),
+              (np.arange(5.0), np.arange(5.0) ** 3), (np.arange(4.0), np.array([1.0, 5, 2, 4]))]
+    result = fit_batch(series, model=model)
+    for g, (xs, ys) in enumerate(series):
+        ref = fit_series(xs, ys, model=model, options=SUMMARY)
+        assert result.columns["degree"][g] == ref.selection.chosen_degree, g
+        assert result.flag_codes(g) == tuple(f.code for f in ref.flags), g
+        k = len(ref.coefficients)
+        design = np.vander(xs, k, increasing=True)
+        scale = np.abs(ys).max()
+        ours = design @ result.coefficients[g, :k]
+        theirs = design @ np.array([c.estimate for c in ref.coefficients])
+        assert np.abs(ours - theirs).max() <= 1e-9 * scale, g
+        for name in ("sigma", "rss"):
+            a, b = result.columns[name][g], getattr(ref.statistics, name)
+            assert (np.isnan(a) and np.isnan(b)) or abs(a - b) <= 1e-9 * max(abs(b), scale), g
+        for name in ("r_squared", "adj_r_squared"):
+            a, b = result.columns[name][g], getattr(ref.statistics, name)
+            assert (np.isnan(a) and np.isnan(b)) or abs(a - b) <= 1e-9, (g, name, a, b)
