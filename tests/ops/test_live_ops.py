@@ -86,12 +86,24 @@ def concurrently(count: int, threads: int, call) -> Counter:
 
 
 def test_metrics_merge_every_workers_counts(srv, metrics_dir):
+    """One worker is held by a half-sent request while the other serves 40; /metrics (from
+    either worker) counts every one of them, and both workers wrote samples."""
     name = "curvewise_http_requests_total"
     before = counter_total(srv.url, name, route="/healthz", status="200")
-    results = concurrently(80, 8, lambda: request(srv.url, "GET", "/healthz")[0])
-    assert results == Counter({200: 80})
-    after = counter_total(srv.url, name, route="/healthz", status="200")
-    assert after - before == 80  # exact: every worker's samples are merged, none lost
+    fits_before = counter_total(srv.url, name, route="/v1/fit")
+    body = json.dumps({"x": [1, 2, 3, 4], "y": [1.0, 2.1, 2.9, 4.2], "model": {"degree": 1}})
+    head = (f"POST /v1/fit HTTP/1.1\r\nHost: 127.0.0.1\r\nContent-Type: application/json\r\n"
+            f"Authorization: Bearer {TOKENS[0]}\r\nContent-Length: {len(body)}\r\n\r\n")
+    with socket.create_connection(("127.0.0.1", srv.port), timeout=20) as held:
+        held.sendall(head.encode() + body[:5].encode())  # a worker now waits for the rest
+        time.sleep(0.3)
+        results = concurrently(40, 4, lambda: request(srv.url, "GET", "/healthz")[0])
+        held.sendall(body[5:].encode())
+        answer = held.recv(65536)
+    assert results == Counter({200: 40})
+    assert answer.startswith(b"HTTP/1.1 200"), answer[:200]
+    assert counter_total(srv.url, name, route="/healthz", status="200") - before == 40
+    assert counter_total(srv.url, name, route="/v1/fit") - fits_before == 1
     writers = {p.stem.rsplit("_", 1)[-1] for p in Path(metrics_dir).glob("counter_*.db")}
     assert {str(pid) for pid in srv.workers()} <= writers, (writers, srv.workers())
 
