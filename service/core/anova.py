@@ -22,10 +22,9 @@ def sequential_table(effects: np.ndarray, degree: int, intercept: bool, rss: flo
     """One row per power in entry order, then the residual row (nan f/p)."""
     c = 1 if intercept else 0
     ss = np.asarray(effects[c:degree + c], dtype=float) ** 2
-    with np.errstate(all="ignore"):
-        mse = rss / df_residual if df_residual > 0 else NAN
-        f = ss / mse if rss > 0 else np.full(ss.shape, NAN)
-        p = special.fdtrc(1, df_residual, f) if df_residual > 0 else np.full(ss.shape, NAN)
+    mse = rss / df_residual if df_residual > 0 else NAN
+    f = ss / mse if rss > 0 else np.full(ss.shape, NAN)
+    p = special.fdtrc(1, df_residual, f) if df_residual > 0 else np.full(ss.shape, NAN)
     rows = [AnovaRow(term(k + 1), 1, float(ss[k]), float(ss[k]), float(f[k]), float(p[k]))
             for k in range(degree)]
     rows.append(AnovaRow("residual", df_residual, rss, mse, NAN, NAN))

@@ -25,18 +25,19 @@ from __future__ import annotations
 import numpy as np
 from scipy import special
 
-from service.core import design, transforms
+from service.core import design, qr, transforms
 from service.core.errors import DataError, SpecError
 from service.core.qr import triangular_inverse
 from service.core.results import FittedPolynomial, Prediction, frozen_array
 
 
 def _inverse(r: np.ndarray) -> np.ndarray:
-    """R^-1 (LAPACK); back substitution when R is exactly singular (a forged document)."""
-    try:
-        return np.linalg.inv(r)
-    except np.linalg.LinAlgError:
-        return triangular_inverse(r)
+    """R^-1 (LAPACK); back substitution when R is exactly singular (a forged document).
+
+    Call inside ``np.errstate(all="ignore")``.
+    """
+    inv = qr.inverse(r)
+    return inv if inv is not None else triangular_inverse(r)
 
 
 def _check_level(level: float) -> float:
@@ -70,6 +71,12 @@ def predict(fitted: FittedPolynomial, x, *, level: float | None = None, m: int =
         return _predict(fitted, x, level, m)
 
 
+def predict_unguarded(fitted: FittedPolynomial, x, *, level: float | None = None,
+                      m: int = 1) -> Prediction:
+    """:func:`predict` for callers already inside ``np.errstate(all="ignore")`` (the fit)."""
+    return _predict(fitted, x, level, m)
+
+
 def _predict(fitted: FittedPolynomial, x, level: float | None, m: int) -> Prediction:
     level = _check_level(fitted.level if level is None else level)
     if isinstance(m, bool) or int(m) != m or m < 1:
@@ -84,7 +91,7 @@ def _predict(fitted: FittedPolynomial, x, level: float | None, m: int) -> Predic
                         fix="Predict only at finite x values.")
     u = transforms.apply(fitted.transform_x, xs, field="x")
     t = design.to_t(u, fitted.x_shift, fitted.x_scale)
-    v = design.basis(t, fitted.degree, fitted.intercept)
+    v = design.basis_columns(t, fitted.degree, fitted.intercept)
     fit = v @ fitted.basis_coefficients
     df = fitted.df_residual
     sigma = fitted.sigma
@@ -113,7 +120,7 @@ def _predict(fitted: FittedPolynomial, x, level: float | None, m: int) -> Predic
     band_lo, band_hi = limits(half_band)
     extrap = (xs < fitted.x_min) | (xs > fitted.x_max)
     values = [fit_y, se, mean_lo, mean_hi, obs_lo, obs_hi, band_lo, band_hi]
-    if any(np.isinf(a).any() for a in values):  # overflow far outside the data: undefined
+    if np.isinf(np.concatenate(values)).any():  # overflow far outside the data: undefined
         values = [np.where(np.isinf(a), np.nan, a) for a in values]
     return Prediction(frozen_array(xs), *(frozen_array(a) for a in values),
                       frozen_array(extrap, dtype=bool), level)

@@ -50,33 +50,33 @@ def diagnose(index: np.ndarray, x: np.ndarray, dec: Decomposition, degree: int,
     df = n - p
     raw = e if dec.sqrt_w is None else e / dec.sqrt_w
     ee = e * e
-    with np.errstate(all="ignore"):
-        sigma = np.sqrt(rss / df) if df > 0 else NAN
-        # in place where possible (a long series page-faults on every fresh array); the
-        # operations are those of std = e / (sigma sqrt(1-h)),
-        # s_i2 = (rss - e²/(1-h)) / (df-1), stud = e / sqrt(s_i2 (1-h)),
-        # cook = std² h / (p (1-h)), dffits = stud sqrt(h / (1-h))
-        std = np.sqrt(one_h)
-        std *= sigma
-        np.divide(e, std, out=std)
-        if df > 1:
-            s_i2 = np.divide(ee, one_h)
-            np.subtract(rss, s_i2, out=s_i2)
-            s_i2 /= df - 1
-        else:
-            s_i2 = np.full(n, NAN)
-        stud = s_i2
-        stud *= one_h
-        np.sqrt(stud, out=stud)
-        np.divide(e, stud, out=stud)
-        cook = np.multiply(std, std)
-        cook *= h
-        cook /= np.multiply(p, one_h)
-        dffits = np.divide(h, one_h)
-        np.sqrt(dffits, out=dffits)
-        np.multiply(stud, dffits, out=dffits)
-        bonf = float(special.stdtrit(df - 1, 1 - OUTLIER_ALPHA / (2 * n))) if df > 1 else NAN
-        cook_cut = float(special.fdtri(p, df, 0.5)) if df > 0 else NAN
+    # runs inside fit_series' errstate (floating-point exceptions ignored)
+    sigma = np.sqrt(rss / df) if df > 0 else NAN
+    # in place where possible (a long series page-faults on every fresh array); the
+    # operations are those of std = e / (sigma sqrt(1-h)),
+    # s_i2 = (rss - e²/(1-h)) / (df-1), stud = e / sqrt(s_i2 (1-h)),
+    # cook = std² h / (p (1-h)), dffits = stud sqrt(h / (1-h))
+    std = np.sqrt(one_h)
+    std *= sigma
+    np.divide(e, std, out=std)
+    if df > 1:
+        s_i2 = np.divide(ee, one_h)
+        np.subtract(rss, s_i2, out=s_i2)
+        s_i2 /= df - 1
+    else:
+        s_i2 = np.full(n, NAN)
+    stud = s_i2
+    stud *= one_h
+    np.sqrt(stud, out=stud)
+    np.divide(e, stud, out=stud)
+    cook = np.multiply(std, std)
+    cook *= h
+    cook /= np.multiply(p, one_h)
+    dffits = np.divide(h, one_h)
+    np.sqrt(dffits, out=dffits)
+    np.multiply(stud, dffits, out=dffits)
+    bonf = float(special.stdtrit(df - 1, 1 - OUTLIER_ALPHA / (2 * n))) if df > 1 else NAN
+    cook_cut = float(special.fdtri(p, df, 0.5)) if df > 0 else NAN
     lev_cut = 2 * p / n
     if exact or df < 1:
         std = stud = cook = dffits = np.full(n, NAN)

@@ -12,9 +12,9 @@ import math
 import numpy as np
 from scipy import special
 
-from service.core import design, transforms
+from service.core import design, qr, transforms
 from service.core.anova import distinct_count, sequential_table
-from service.core.bands import predict
+from service.core.bands import predict_unguarded
 from service.core.decomposition import decompose
 from service.core.diagnostics import diagnose
 from service.core.errors import DesignError
@@ -22,7 +22,6 @@ from service.core.flags import trust_flags
 from service.core.grid import grid_points
 from service.core.inputs import check_magnitude, check_spec, clean_data
 from service.core.normality import MAX_N as SHAPIRO_MAX_N
-from service.core.qr import EXTENDED_IS_WIDER, EXTENDED_MAX_ROWS
 from service.core.results import (
     Coefficient,
     FitReport,
@@ -136,7 +135,7 @@ def _fit(x, y, weights, model: ModelSpec, options: FitOptions) -> FitReport:
         notices.append(Notice("normality_test_skipped",
                               f"Shapiro-Wilk was not computed: it is defined for at most "
                               f"{SHAPIRO_MAX_N} points (this series has {n})."))
-    if not EXTENDED_IS_WIDER or n > EXTENDED_MAX_ROWS:
+    if not qr.EXTENDED_IS_WIDER or n > qr.EXTENDED_MAX_ROWS:
         notices.append(Notice("float64_only",
                               "This fit ran in float64 only (long series, or no extended "
                               "precision on this platform): raw-power coefficients of high "
@@ -166,7 +165,7 @@ def _fit(x, y, weights, model: ModelSpec, options: FitOptions) -> FitReport:
     grid = None
     if "grid" in options.include and options.grid is not None:
         gx = grid_points(options.grid, xmin, xmax, options.max_grid_points)
-        grid = predict(fitted, gx, level=options.level)
+        grid = predict_unguarded(fitted, gx, level=options.level)
     flags = trust_flags(n=n, p=p, exact=m.exact, condition=cond, diagnostics=diagnostics,
                         grid=grid)
     return FitReport(fitted, data.n_input, data.dropped, coefficients, anova, statistics,
@@ -195,13 +194,13 @@ def _supported_max(distinct, intercept, dmin, dmax, selects, notices) -> int:
 
 
 def _coefficient_table(terms, raw, cov, df, level) -> tuple[Coefficient, ...]:
+    # runs inside fit_series' errstate (floating-point exceptions ignored)
     se = np.sqrt(np.maximum(np.diag(cov), 0.0))
     pos = se > 0
-    with np.errstate(all="ignore"):
-        tq = float(special.stdtrit(df, 0.5 + level / 2)) if df > 0 else NAN
-        tval = np.where(pos, raw / se, NAN)
-        pval = 2 * special.stdtr(df, -np.abs(tval)) if df > 0 else np.full(raw.shape, NAN)
-        half = np.where(pos, tq * se, 0.0) if df > 0 else np.full(raw.shape, NAN)
+    tq = float(special.stdtrit(df, 0.5 + level / 2)) if df > 0 else NAN
+    tval = np.where(pos, raw / se, NAN)
+    pval = 2 * special.stdtr(df, -np.abs(tval)) if df > 0 else np.full(raw.shape, NAN)
+    half = np.where(pos, tq * se, 0.0) if df > 0 else np.full(raw.shape, NAN)
     cols = zip(terms, raw.tolist(), se.tolist(), tval.tolist(), pval.tolist(),
                (raw - half).tolist(), (raw + half).tolist(), strict=True)
     return tuple(Coefficient(*c) for c in cols)
@@ -213,18 +212,18 @@ def _conditions(r, shift, scale, degree, intercept) -> tuple[float, float]:
     The raw one is taken with unit-norm columns (the usual scaled condition
     number): ``R T^-1`` is the R factor of the raw design.
     """
-    sv = np.linalg.svd(r, compute_uv=False)
+    # runs inside fit_series' errstate (floating-point exceptions ignored)
+    sv = qr.singular_values(r)
     basis = float(sv[0] / sv[-1]) if sv[-1] > 0 else math.inf
-    tm = design.conversion(shift, scale, degree, intercept).astype(float)
-    if not np.isfinite(tm).all() or not np.all(np.diag(tm) != 0):
+    tm = design.conversion_float(shift, scale, degree, intercept)
+    if tm is None:
         return basis, math.inf  # (x range)**degree leaves the double range
-    with np.errstate(all="ignore"):
-        try:
-            rr = np.linalg.solve(tm.T, r.T).T  # R T^-1
-        except np.linalg.LinAlgError:
-            return basis, math.inf
-        rr /= np.sqrt((rr * rr).sum(axis=0))
-        if not np.isfinite(rr).all():
-            return basis, math.inf
-        sr = np.linalg.svd(rr, compute_uv=False)
+    rr = qr.solve(tm.T, r.T)  # (R T^-1)'; NaN when singular
+    if rr is None:
+        return basis, math.inf
+    rr = rr.T
+    rr /= np.sqrt((rr * rr).sum(axis=0))
+    if not np.isfinite(rr).all():
+        return basis, math.inf
+    sr = qr.singular_values(rr)
     return basis, float(sr[0] / sr[-1]) if sr[-1] > 0 else math.inf

@@ -23,6 +23,11 @@ from functools import lru_cache
 
 import numpy as np
 
+try:  # numpy's own LAPACK kernels without the np.linalg wrapper (~3 us a call less)
+    from numpy.linalg import _umath_linalg as _kernels
+except ImportError:  # pragma: no cover - other numpy layout
+    _kernels = None
+
 EXTENDED = np.longdouble
 # False where longdouble is plain float64 (e.g. some ARM and Windows builds): ~3 digits fewer
 EXTENDED_IS_WIDER = bool(np.finfo(EXTENDED).eps < np.finfo(float).eps)
@@ -186,3 +191,44 @@ def triangular_inverse(r: np.ndarray) -> np.ndarray:
     for i in range(p - 1, -1, -1):
         inv[i] = (eye[i] - r[i, i + 1:] @ inv[i + 1:]) / r[i, i]
     return inv
+
+
+def singular_values(a: np.ndarray) -> np.ndarray:
+    """Singular values of a small float64 matrix, largest first (``np.linalg.svd``'s kernel).
+
+    Call inside ``np.errstate(all="ignore")``: no convergence gives NaN, not an exception.
+    """
+    if _kernels is not None:
+        return _kernels.svd(a, signature="d->d")
+    try:
+        return np.linalg.svd(a, compute_uv=False)
+    except np.linalg.LinAlgError:
+        return np.full(min(a.shape), np.nan)
+
+
+def solve(a: np.ndarray, b: np.ndarray) -> np.ndarray | None:
+    """``a^-1 b`` for small float64 matrices (``np.linalg.solve``'s kernel); None if singular.
+
+    Call inside ``np.errstate(all="ignore")``.
+    """
+    if _kernels is not None:
+        out = _kernels.solve(a, b, signature="dd->d")
+        return out if not np.isnan(out).all() else None
+    try:
+        return np.linalg.solve(a, b)
+    except np.linalg.LinAlgError:
+        return None
+
+
+def inverse(a: np.ndarray) -> np.ndarray | None:
+    """Inverse of a small float64 matrix (``np.linalg.inv``'s kernel); None if singular.
+
+    Call inside ``np.errstate(all="ignore")``.
+    """
+    if _kernels is not None:
+        out = _kernels.inv(a, signature="d->d")
+        return out if np.isfinite(out).all() else None
+    try:
+        return np.linalg.inv(a)
+    except np.linalg.LinAlgError:
+        return None

@@ -72,17 +72,17 @@ def candidate_measures(dec: Decomposition, degrees: list[int], sum_log_w: float,
     """
     n = dec.t.size
     c = 1 if dec.intercept else 0
-    with np.errstate(all="ignore"):
-        if resid.shape[1] > LONG:  # one row at a time (a long series page-faults on fresh arrays)
-            loo = np.empty(resid.shape[1])
-            press_all = np.empty(resid.shape[0])
-            for i, (r_i, oh_i) in enumerate(zip(resid, one_minus_h, strict=True)):
-                np.divide(r_i, oh_i, out=loo)
-                press_all[i] = np.einsum("i,i->", loo, loo)
-        else:
-            loo = np.divide(resid, one_minus_h)
-            press_all = np.einsum("ij,ij->i", loo, loo)
-        press_all[np.fmax.reduce(leverage, axis=1) >= LEVERAGE_ONE] = NAN
+    # runs inside fit_series' errstate (floating-point exceptions ignored)
+    if resid.shape[1] > LONG:  # one row at a time (a long series page-faults on fresh arrays)
+        loo = np.empty(resid.shape[1])
+        press_all = np.empty(resid.shape[0])
+        for i, (r_i, oh_i) in enumerate(zip(resid, one_minus_h, strict=True)):
+            np.divide(r_i, oh_i, out=loo)
+            press_all[i] = np.einsum("i,i->", loo, loo)
+    else:
+        loo = np.divide(resid, one_minus_h)
+        press_all = np.einsum("ij,ij->i", loo, loo)
+    press_all[np.fmax.reduce(leverage, axis=1) >= LEVERAGE_ONE] = NAN
     press_all = press_all.tolist()
     e2 = (dec.effects.astype(float) ** 2).tolist()
     big = len(e2)
@@ -124,10 +124,12 @@ def candidate_measures(dec: Decomposition, degrees: list[int], sum_log_w: float,
         pred_r2 = 1 - press / tss if tss > 0 else NAN
         rows.append([degree, n, p, df_model, df_res, rss, tss, ss_model, r2, adj, sigma, f,
                      NAN, llf, aic, aicc, bic, press, pred_r2, f_last, NAN, exact])
-    df_m = [r[3] for r in rows]
+    k = len(rows)
     df_r = [r[4] for r in rows]
-    f_p = special.fdtrc(df_m, df_r, [r[11] for r in rows]).tolist()
-    last_p = special.fdtrc(1, df_r, [r[19] for r in rows]).tolist()
+    # one call for both: overall F on (df_model, df_res), last power's F on (1, df_res)
+    both = special.fdtrc([r[3] for r in rows] + [1] * k, df_r + df_r,
+                         [r[11] for r in rows] + [r[19] for r in rows]).tolist()
+    f_p, last_p = both[:k], both[k:]
     for row, fp, lp in zip(rows, f_p, last_p, strict=True):
         row[12], row[20] = fp, lp
     return [Measures(*row) for row in rows]
