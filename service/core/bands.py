@@ -23,12 +23,12 @@ scale (retransformation bias; for ``log`` the mean is larger by about
 from __future__ import annotations
 
 import numpy as np
-from scipy import special
 
 from service.core import design, qr, transforms
 from service.core.errors import DataError, SpecError
 from service.core.qr import triangular_inverse
 from service.core.results import FittedPolynomial, Prediction, frozen_array
+from service.core.summary import f_quantile, t_quantile
 
 
 def _inverse(r: np.ndarray) -> np.ndarray:
@@ -98,8 +98,8 @@ def _predict(fitted: FittedPolynomial, x, level: float | None, m: int) -> Predic
     s = v @ _inverse(fitted.r_factor)  # rows: (R^-T v(t))' for each x
     se = sigma * np.sqrt(np.einsum("ij,ij->i", s, s))
     if df > 0:
-        tq = float(special.stdtrit(df, 0.5 + level / 2))
-        wh = float(np.sqrt(v.shape[1] * special.fdtri(v.shape[1], df, level)))
+        tq = t_quantile(df, 0.5 + level / 2)
+        wh = float(np.sqrt(v.shape[1] * f_quantile(v.shape[1], df, level)))
     else:
         tq = wh = float("nan")
     half_mean = tq * se

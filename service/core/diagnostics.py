@@ -27,6 +27,7 @@ from service.core.decomposition import Decomposition
 from service.core.normality import shapiro_wilk
 from service.core.qr import dot
 from service.core.results import Diagnostics, TestResult, frozen_array
+from service.core.summary import f_quantile, t_quantile
 
 NAN = float("nan")
 OUTLIER_ALPHA = 0.05
@@ -75,8 +76,8 @@ def diagnose(index: np.ndarray, x: np.ndarray, dec: Decomposition, degree: int,
     dffits = np.divide(h, one_h)
     np.sqrt(dffits, out=dffits)
     np.multiply(stud, dffits, out=dffits)
-    bonf = float(special.stdtrit(df - 1, 1 - OUTLIER_ALPHA / (2 * n))) if df > 1 else NAN
-    cook_cut = float(special.fdtri(p, df, 0.5)) if df > 0 else NAN
+    bonf = t_quantile(df - 1, 1 - OUTLIER_ALPHA / (2 * n)) if df > 1 else NAN
+    cook_cut = f_quantile(p, df, 0.5) if df > 0 else NAN
     lev_cut = 2 * p / n
     if exact or df < 1:
         std = stud = cook = dffits = np.full(n, NAN)

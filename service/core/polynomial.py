@@ -33,7 +33,7 @@ from service.core.results import (
 )
 from service.core.selection import candidate_row, choose
 from service.core.spec import FitOptions, ModelSpec
-from service.core.summary import candidate_measures
+from service.core.summary import candidate_measures, t_quantile
 
 NAN = float("nan")
 RAW_COND_NOTICE = 1e10  # raw-power design condition number worth a notice (common practice)
@@ -197,7 +197,7 @@ def _coefficient_table(terms, raw, cov, df, level) -> tuple[Coefficient, ...]:
     # runs inside fit_series' errstate (floating-point exceptions ignored)
     se = np.sqrt(np.maximum(np.diag(cov), 0.0))
     pos = se > 0
-    tq = float(special.stdtrit(df, 0.5 + level / 2)) if df > 0 else NAN
+    tq = t_quantile(df, 0.5 + level / 2) if df > 0 else NAN
     tval = np.where(pos, raw / se, NAN)
     pval = 2 * special.stdtr(df, -np.abs(tval)) if df > 0 else np.full(raw.shape, NAN)
     half = np.where(pos, tq * se, 0.0) if df > 0 else np.full(raw.shape, NAN)

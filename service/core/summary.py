@@ -17,6 +17,7 @@ Conventions (documented for callers):
 
 from __future__ import annotations
 
+from functools import lru_cache
 from math import log, pi
 from typing import NamedTuple
 
@@ -29,6 +30,19 @@ NAN = float("nan")
 LOG_2PI = log(2 * pi)
 LONG = 8192  # series longer than this are worked row by row
 LEVERAGE_ONE = 1 - 1e-10  # h_i above this: the leave-one-out residual is undefined
+
+
+@lru_cache(maxsize=4096)
+def t_quantile(df: int, q: float) -> float:
+    """Student t quantile ``t_df(q)`` (``scipy.special.stdtrit``), cached: fits of equal
+    size and level reuse their critical values."""
+    return float(special.stdtrit(df, q))
+
+
+@lru_cache(maxsize=4096)
+def f_quantile(dfn: int, dfd: int, q: float) -> float:
+    """F quantile ``F_{dfn, dfd}(q)`` (``scipy.special.fdtri``), cached like :func:`t_quantile`."""
+    return float(special.fdtri(dfn, dfd, q))
 
 
 class Measures(NamedTuple):
