@@ -102,25 +102,26 @@ def _predict(fitted: FittedPolynomial, x, level: float | None, m: int) -> Predic
         wh = float(np.sqrt(v.shape[1] * f_quantile(v.shape[1], df, level)))
     else:
         tq = wh = float("nan")
-    half_mean = tq * se
-    half_obs = tq * np.sqrt(se * se + sigma * sigma / m)
-    half_band = wh * se
+    half = np.empty((3, se.size))  # mean, new observation(s), simultaneous band
+    np.multiply(se, tq, out=half[0])
+    np.multiply(se, se, out=half[1])
+    half[1] += sigma * sigma / m
+    np.sqrt(half[1], out=half[1])
+    half[1] *= tq
+    np.multiply(se, wh, out=half[2])
     name = fitted.transform_y
     back = transforms.inverse
     fit_y = back(name, fit)
-
-    def limits(half):
-        if name == "none":
-            return fit - half, fit + half
-        lo, hi = back(name, fit - half), back(name, fit + half)
-        return (lo, hi) if transforms.is_increasing(name) else (hi, lo)
-
-    mean_lo, mean_hi = limits(half_mean)
-    obs_lo, obs_hi = limits(half_obs)
-    band_lo, band_hi = limits(half_band)
+    lo, hi = fit - half, fit + half  # rows: mean, obs, band
+    if name != "none":
+        lo, hi = back(name, lo), back(name, hi)
+        if not transforms.is_increasing(name):
+            lo, hi = hi, lo
     extrap = (xs < fitted.x_min) | (xs > fitted.x_max)
-    values = [fit_y, se, mean_lo, mean_hi, obs_lo, obs_hi, band_lo, band_hi]
-    if np.isinf(np.concatenate(values)).any():  # overflow far outside the data: undefined
-        values = [np.where(np.isinf(a), np.nan, a) for a in values]
+    values = [fit_y, se, lo[0], hi[0], lo[1], hi[1], lo[2], hi[2]]
+    if not (np.isfinite(fit_y).all() and np.isfinite(se).all() and np.isfinite(lo).all()
+            and np.isfinite(hi).all()):
+        if any(np.isinf(a).any() for a in values):  # overflow far outside the data: undefined
+            values = [np.where(np.isinf(a), np.nan, a) for a in values]
     return Prediction(frozen_array(xs), *(frozen_array(a) for a in values),
                       frozen_array(extrap, dtype=bool), level)

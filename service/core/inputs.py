@@ -6,6 +6,7 @@ caller's original index) and saying what to do about it.
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 
 import numpy as np
@@ -71,6 +72,13 @@ def clean_data(x, y, weights, missing: str) -> CleanData:
         raise DataError("No data points were given.", field="x",
                         fix="Send at least as many points as the model has coefficients.")
     arrays = [("x", xa), ("y", ya)] + ([("weights", wa)] if wa is not None else [])
+    total = float(np.add.reduce(xa)) + float(np.add.reduce(ya))
+    if wa is not None:
+        total += float(np.add.reduce(wa))
+    if math.isfinite(total):  # no inf and no NaN anywhere (either would make the sum non-finite)
+        if wa is not None and not np.all(wa > 0):
+            _bad_weight(wa, np.arange(n), weights)
+        return CleanData(xa, ya, wa, np.arange(n), n, ())
     for name, arr in arrays:
         bad = np.isinf(arr)
         if bad.any():
@@ -96,15 +104,17 @@ def clean_data(x, y, weights, missing: str) -> CleanData:
         if xa.size == 0:
             raise DataError("Every pair has a missing value; nothing is left to fit.", field="x",
                             fix="Send complete (x, y) pairs.")
-    if wa is not None:
-        bad = wa <= 0
-        if bad.any():
-            i = int(index[np.flatnonzero(bad)[0]])
-            raise DataError(f"weights[{i}] = {weights[i]!r} is not positive.",
-                            field=f"weights[{i}]",
-                            fix="Weights are inverse variances (1/sd^2) and must be > 0; drop the "
-                                "point instead of giving it weight 0.")
+    if wa is not None and not np.all(wa > 0):
+        _bad_weight(wa, index, weights)
     return CleanData(xa, ya, wa, index, n, dropped)
+
+
+def _bad_weight(wa: np.ndarray, index: np.ndarray, weights) -> None:
+    i = int(index[np.flatnonzero(wa <= 0)[0]])
+    raise DataError(f"weights[{i}] = {weights[i]!r} is not positive.",
+                    field=f"weights[{i}]",
+                    fix="Weights are inverse variances (1/sd^2) and must be > 0; drop the "
+                        "point instead of giving it weight 0.")
 
 
 TINY_LIMIT = 1e-150  # every |value| below this: squares underflow (sums of squares vanish)
