@@ -166,6 +166,7 @@ def fit_many(x, y, lengths, weights=None, *, model: ModelSpec = _MODEL, models=N
     for (_, spec_model, bspec), (res, rejected) in zip(jobs, results, strict=True):
         layout.scatter(out, res, bspec)
         fallback.extend((int(r), spec_model) for r in rejected)
+    layout.finish(out)
     single = options if detail == "full" else replace(options, grid=None,
                                                       include=_SUMMARY_INCLUDE)
     for row, spec_model in sorted(fallback):
@@ -210,8 +211,9 @@ def _fit_block(x, y, w, offsets, lengths, rows, model, bspec):
     width = int(lens.max())
     padded = not np.all(lens == width)
     valid = (np.arange(width)[None, :] < lens[:, None]) if padded else None
-    u = transforms._FORWARD[model.transform_x](layout.gather(x, offsets, rows, lens, width, 1.0))
-    z = transforms._FORWARD[model.transform_y](layout.gather(y, offsets, rows, lens, width, 1.0))
+    index = layout.gather_index(offsets, rows, lens, width)
+    u = transforms._FORWARD[model.transform_x](layout.take(x, index, rows, width, 1.0))
+    z = transforms._FORWARD[model.transform_y](layout.take(y, index, rows, width, 1.0))
     if padded:
         u, z = u * valid, z * valid
     distinct, increasing = layout.distinct(u, valid, lens)
@@ -227,7 +229,7 @@ def _fit_block(x, y, w, offsets, lengths, rows, model, bspec):
     else:
         rejected = rows[:0]
     if w is not None:
-        wb = layout.gather(w, offsets, rows, lens, width, 0.0)
+        wb = layout.take(w, index, rows, width, 0.0)
     else:
         wb = None if valid is None else valid.astype(float)
     fit = batch_block.fit_block(u, z, wb, valid, bspec, increasing=increasing)

@@ -89,6 +89,27 @@ def blocks(rows, lengths):
         start = stop
 
 
+def gather_index(offsets, rows, lens, width):
+    """What :func:`gather` needs for one block: a slice start, or point indices and a mask."""
+    if np.all(lens == width) and rows[-1] - rows[0] == rows.size - 1 and np.all(
+            np.diff(rows) == 1):                      # consecutive equal-length rows: a view
+        return int(offsets[rows[0]]), None
+    idx = offsets[rows][:, None] + np.arange(width)[None, :]
+    if np.all(lens == width):
+        return idx, None
+    inside = np.arange(width)[None, :] < lens[:, None]
+    return np.where(inside, idx, 0), inside
+
+
+def take(values, index, rows, width, fill=0.0):
+    """Gather one flat array into a block, using :func:`gather_index`'s answer."""
+    idx, inside = index
+    if isinstance(idx, int):
+        return values[idx:idx + rows.size * width].reshape(rows.size, width)
+    out = values[idx]
+    return out if inside is None else np.where(inside, out, fill)
+
+
 def gather(values, offsets, rows, lens, width, fill=0.0):
     if np.all(lens == width) and rows[-1] - rows[0] == rows.size - 1 and np.all(
             np.diff(rows) == 1):                      # consecutive equal-length rows: a view
@@ -118,27 +139,56 @@ def distinct(u, valid, lens):
 
 
 def scatter(out: dict, res: dict | None, bspec) -> None:
-    """Write a block's rows into the batch arrays (rows the engine rejected are skipped)."""
+    """Write a block's rows into the batch arrays (rows the engine rejected are skipped).
+
+    Consecutive rows are written at once (slices). Scattered rows (ragged input: a
+    block holds one length, spread over the input) are queued and written column by
+    column in :func:`finish`, which keeps each write inside one column in cache.
+    """
     if res is None:
         return
     keep = ~res["bad"] if "bad" in res else slice(None)
     rows = res["rows"][keep]
     if rows.size and rows[-1] - rows[0] == rows.size - 1 and np.all(np.diff(rows) == 1):
-        rows = slice(int(rows[0]), int(rows[-1]) + 1)  # consecutive: cheap slice assignment
+        _write(out, slice(int(rows[0]), int(rows[-1]) + 1), [(res, keep)], bspec)
+    elif rows.size:
+        out.setdefault("_queued", {}).setdefault(
+            (id(bspec), res["coef"].shape[1], res["cand_rss"].shape[1]), (bspec, []))[1].append(
+            (rows, res, keep))
+    _points(out, res)
+
+
+def finish(out: dict) -> None:
+    """Write the queued scattered rows, one column at a time."""
+    for bspec, entries in out.pop("_queued", {}).values():
+        rows = np.concatenate([r for r, _, _ in entries])
+        _write(out, rows, [(res, keep) for _, res, keep in entries], bspec)
+
+
+def _write(out: dict, rows, parts, bspec) -> None:
+    def cat(name):
+        chunks = [res[name][keep] for res, keep in parts]
+        return chunks[0] if len(chunks) == 1 else np.concatenate(chunks)
+
     cols = out["columns"]
+    first = parts[0][0]
     for name in cols:
-        if name in res:
-            cols[name][rows] = res[name][keep]
+        if name in first:
+            cols[name][rows] = cat(name)
     cols["min_degree"][rows] = bspec.min_degree
-    width = res["coef"].shape[1]
-    out["coefficients"][rows, :width] = res["coef"][keep]
-    out["std_errors"][rows, :width] = res["se"][keep]
-    ncand = res["cand_rss"].shape[1]
+    width = first["coef"].shape[1]
+    out["coefficients"][rows, :width] = cat("coef")
+    out["std_errors"][rows, :width] = cat("se")
+    ncand = first["cand_rss"].shape[1]
     for m in out["candidates"]:
-        out["candidates"][m][rows, :ncand] = res["cand_" + m][keep]
+        out["candidates"][m][rows, :ncand] = cat("cand_" + m)
     out["intercept"][rows] = bspec.intercept
     out["select"][rows] = bspec.select
     out["ok"][rows] = True
+
+
+def _points(out: dict, res: dict) -> None:
+    """Record outlying and influential point indices per series."""
     for key, target in (("outlier_points", "outliers"), ("influential_points", "influential")):
         r_idx, c_idx = res[key]
         if r_idx.size:
