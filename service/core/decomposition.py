@@ -63,7 +63,8 @@ class Decomposition:
         lev = np.empty((len(want), n))
         res = np.empty((len(want), n))
         eff = self.effects.astype(float).tolist()
-        tmp, f, spare = np.empty(n), np.empty(n), np.empty(n)
+        tmp, f = np.empty(n), np.empty(n)
+        spare = np.empty(n) if len(want) < max(want) + 1 else None
         h_prev = None
         for j in range(max(want) + 1):
             row = self.q[j]

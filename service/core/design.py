@@ -88,7 +88,9 @@ def basis_rows(t: np.ndarray, degree: int, intercept: bool,
 def to_t(u: np.ndarray, shift: float, scale: float, dtype=float) -> np.ndarray:
     """``(u - shift) / scale`` computed in ``dtype``."""
     u = np.asarray(u, dtype=dtype)
-    return (u - dtype(shift)) / dtype(scale)
+    t = u - dtype(shift)
+    t /= dtype(scale)
+    return t
 
 
 @lru_cache(maxsize=64)

@@ -72,8 +72,9 @@ def diagnose(index: np.ndarray, x: np.ndarray, dec: Decomposition, degree: int,
     np.divide(e, stud, out=stud)
     cook = np.multiply(std, std)
     cook *= h
-    cook /= np.multiply(p, one_h)
-    dffits = np.divide(h, one_h)
+    dffits = np.multiply(p, one_h)  # scratch: p (1 - h)
+    cook /= dffits
+    np.divide(h, one_h, out=dffits)
     np.sqrt(dffits, out=dffits)
     np.multiply(stud, dffits, out=dffits)
     bonf = t_quantile(df - 1, 1 - OUTLIER_ALPHA / (2 * n)) if df > 1 else NAN
@@ -83,7 +84,7 @@ def diagnose(index: np.ndarray, x: np.ndarray, dec: Decomposition, degree: int,
         std = stud = cook = dffits = np.full(n, NAN)
     tests = _tests(e, ee, dec, degree, exact, df)
     lof = lack_of_fit(x, dec.zw, dec.sqrt_w, rss, p, distinct)
-    outliers = tuple(index[np.abs(stud) > bonf].tolist())
+    outliers = tuple(index[(stud > bonf) | (stud < -bonf)].tolist())  # |stud| > bonf
     high = tuple(index[h > lev_cut].tolist()) if n > p else ()
     infl = tuple(index[cook > cook_cut].tolist())
     thresholds = {"outlier_alpha": OUTLIER_ALPHA, "outlier_t": bonf, "leverage": lev_cut,

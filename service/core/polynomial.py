@@ -33,7 +33,7 @@ from service.core.results import (
 )
 from service.core.selection import candidate_row, choose
 from service.core.spec import FitOptions, ModelSpec
-from service.core.summary import candidate_measures, t_quantile
+from service.core.summary import LONG, candidate_measures, t_quantile
 
 NAN = float("nan")
 RAW_COND_NOTICE = 1e10  # raw-power design condition number worth a notice (common practice)
@@ -97,7 +97,8 @@ def _fit(x, y, weights, model: ModelSpec, options: FitOptions) -> FitReport:
     sum_log_w = 0.0 if data.w is None else float(np.sum(np.log(data.w)))
     degrees = list(range(dmin, dmax + 1))
     lev, resid = dec.cumulative(degrees)
-    one_h = np.subtract(1, lev)
+    # 1 - h of every candidate; a long series computes it row by row where needed
+    one_h = np.subtract(1, lev) if n <= LONG else None
     cands = candidate_measures(dec, degrees, sum_log_w, lev, resid, one_h)
     if selects:
         degree, reason = choose(model.select, cands, model.alpha)
@@ -160,7 +161,8 @@ def _fit(x, y, weights, model: ModelSpec, options: FitOptions) -> FitReport:
     diagnostics = None
     if "diagnostics" in options.include:
         k = degree - dmin
-        diagnostics = diagnose(data.index, data.x, dec, degree, lev[k], resid[k], one_h[k],
+        oh = one_h[k] if one_h is not None else np.subtract(1, lev[k])
+        diagnostics = diagnose(data.index, data.x, dec, degree, lev[k], resid[k], oh,
                                m.rss, m.exact, distinct)
     grid = None
     if "grid" in options.include and options.grid is not None:

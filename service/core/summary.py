@@ -74,12 +74,12 @@ class Measures(NamedTuple):
 
 def candidate_measures(dec: Decomposition, degrees: list[int], sum_log_w: float,
                        leverage: np.ndarray, resid: np.ndarray,
-                       one_minus_h: np.ndarray) -> list[Measures]:
+                       one_minus_h: np.ndarray | None) -> list[Measures]:
     """Whole-fit numbers of every candidate degree.
 
     ``leverage``, ``resid`` and ``one_minus_h`` are the candidates' hat
     diagonals, weighted residuals and ``1 - h`` (``len(degrees) x n``, see
-    ``Decomposition.cumulative``).
+    ``Decomposition.cumulative``); ``one_minus_h`` may be None (computed row by row).
     Sums of squares of effects are sums of positive terms, so float64 keeps
     them to full precision; the per-candidate arithmetic runs on Python
     floats (at most 13 candidates, cheaper than numpy calls).
@@ -87,11 +87,13 @@ def candidate_measures(dec: Decomposition, degrees: list[int], sum_log_w: float,
     n = dec.t.size
     c = 1 if dec.intercept else 0
     # runs inside fit_series' errstate (floating-point exceptions ignored)
-    if resid.shape[1] > LONG:  # one row at a time (a long series page-faults on fresh arrays)
+    if one_minus_h is None or resid.shape[1] > LONG:
+        # one row at a time (a long series page-faults on every fresh array)
         loo = np.empty(resid.shape[1])
         press_all = np.empty(resid.shape[0])
-        for i, (r_i, oh_i) in enumerate(zip(resid, one_minus_h, strict=True)):
-            np.divide(r_i, oh_i, out=loo)
+        for i, (r_i, h_i) in enumerate(zip(resid, leverage, strict=True)):
+            np.subtract(1, h_i, out=loo)
+            np.divide(r_i, loo, out=loo)
             press_all[i] = np.einsum("i,i->", loo, loo)
     else:
         loo = np.divide(resid, one_minus_h)
