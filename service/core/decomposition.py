@@ -20,6 +20,7 @@ EPS = np.finfo(float).eps
 # A residual norm below this fraction of ||y|| is rounding of y itself (a few ulps per point):
 # the fit is exact. NIST StRD Wampler2 (decimal data, exact quintic) sits at 0.12 eps.
 EXACT_FIT_RTOL = 8 * EPS
+SHORT_ROWS = 2048  # up to this many points, candidate sums are formed in whole blocks
 
 
 @dataclass(frozen=True, slots=True)
@@ -60,6 +61,13 @@ class Decomposition:
         """
         want = {self.p(d) - 1: i for i, d in enumerate(degrees)}
         n = self.q.shape[1]
+        top = max(want) + 1
+        if n <= SHORT_ROWS:  # a few numpy calls over the whole block (accumulate is sequential)
+            rows = sorted(want)  # ascending degrees: row i of the output is degrees[i]
+            q = self.q[:top]
+            lev = np.add.accumulate(q * q, axis=0)[rows]
+            f = np.add.accumulate(q * self.effects[:top, None].astype(float), axis=0)[rows]
+            return lev, np.subtract(self.zw, f, out=f)
         lev = np.empty((len(want), n))
         res = np.empty((len(want), n))
         eff = self.effects.astype(float).tolist()
@@ -124,7 +132,7 @@ def decompose(u: np.ndarray, z: np.ndarray, w: np.ndarray | None, max_degree: in
         t_ext = design.to_t(u, shift, scale, qr.EXTENDED)
         sw = None if sqrt_w is None else sqrt_w.astype(qr.EXTENDED)
         a = np.empty((p + 1, n), dtype=qr.EXTENDED)
-        a[:p] = design.basis_rows(t_ext, max_degree, intercept, sw)
+        design.basis_rows(t_ext, max_degree, intercept, sw, out=a[:p])
         a[p] = zw
         v64 = a[:p].astype(float)
         r, effects, rss = qr.householder(a, p)

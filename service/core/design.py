@@ -62,10 +62,13 @@ def basis_columns(t: np.ndarray, degree: int, intercept: bool) -> np.ndarray:
 
 
 def basis_rows(t: np.ndarray, degree: int, intercept: bool,
-               sqrt_w: np.ndarray | None = None) -> np.ndarray:
-    """Design transposed (p x n): row k is the k-th column, times ``sqrt_w`` if given."""
+               sqrt_w: np.ndarray | None = None, out: np.ndarray | None = None) -> np.ndarray:
+    """Design transposed (p x n): row k is the k-th column, times ``sqrt_w`` if given.
+
+    ``out`` (p x n, dtype of ``t``) receives the rows when given.
+    """
     first = 0 if intercept else 1
-    rows = np.empty((degree + 1 - first, t.size), dtype=t.dtype)
+    rows = np.empty((degree + 1 - first, t.size), dtype=t.dtype) if out is None else out
     # each power is written straight into its row (no temporaries: long series page-fault
     # on every fresh array); the products are the same as cur = cur * t
     if first == 0:
