@@ -99,8 +99,11 @@ def _sumsq(v: np.ndarray) -> float:
 
 
 def decompose(u: np.ndarray, z: np.ndarray, w: np.ndarray | None, max_degree: int,
-              intercept: bool, field: str = "model.max_degree") -> Decomposition:
+              intercept: bool, field: str = "model.max_degree",
+              bounds: tuple[float, float] | None = None) -> Decomposition:
     """Scale x, build the weighted design up to ``max_degree``, and factor it.
+
+    ``bounds`` is ``(u.min(), u.max())`` when the caller already has it.
 
     Raises
     ------
@@ -108,7 +111,7 @@ def decompose(u: np.ndarray, z: np.ndarray, w: np.ndarray | None, max_degree: in
         When the columns are numerically dependent even though x has enough
         distinct values (x extremely clustered relative to its range).
     """
-    shift, scale = design.scaling(u, intercept)
+    shift, scale = design.scaling(u, intercept, bounds)
     n = u.size
     sqrt_w = None if w is None else np.sqrt(w)
     zw = z if sqrt_w is None else z * sqrt_w

@@ -29,9 +29,13 @@ def term_names(degree: int, intercept: bool) -> tuple[str, ...]:
                  for k in range(0 if intercept else 1, degree + 1))
 
 
-def scaling(u: np.ndarray, intercept: bool) -> tuple[float, float]:
-    """Return ``(x_shift, x_scale)`` (float64) for the transformed x values ``u``."""
-    lo, hi = float(u.min()), float(u.max())
+def scaling(u: np.ndarray, intercept: bool,
+            bounds: tuple[float, float] | None = None) -> tuple[float, float]:
+    """Return ``(x_shift, x_scale)`` (float64) for the transformed x values ``u``.
+
+    ``bounds`` is ``(u.min(), u.max())`` when the caller already has it.
+    """
+    lo, hi = (float(u.min()), float(u.max())) if bounds is None else bounds
     if intercept:
         shift = 0.5 * lo + 0.5 * hi
         scale = 0.5 * hi - 0.5 * lo

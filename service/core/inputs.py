@@ -125,8 +125,11 @@ def magnitude_limit(n: int) -> float:
     return float(np.sqrt(np.finfo(float).max / (64.0 * max(n, 1))))
 
 
-def check_magnitude(values: np.ndarray, field: str, index: np.ndarray, what: str) -> None:
+def check_magnitude(values: np.ndarray, field: str, index: np.ndarray, what: str
+                    ) -> tuple[float, float] | None:
     """Refuse values whose squares would overflow or underflow float64 sums of squares.
+
+    Returns ``(min, max)`` of the values (None when empty), for callers that need them.
 
     Raises
     ------
@@ -134,11 +137,12 @@ def check_magnitude(values: np.ndarray, field: str, index: np.ndarray, what: str
         Naming the first offending value, with a fix (change units).
     """
     if values.size == 0:
-        return
-    top = max(float(values.max()), -float(values.min()))
+        return None
+    lo, hi = float(values.min()), float(values.max())
+    top = max(hi, -lo)
     limit = magnitude_limit(values.size)
     if limit >= top >= TINY_LIMIT:
-        return
+        return lo, hi
     mags = np.abs(values)
     big = mags > limit
     if big.any():
@@ -153,6 +157,7 @@ def check_magnitude(values: np.ndarray, field: str, index: np.ndarray, what: str
         raise DataError(f"Every {field} value is below {TINY_LIMIT:g} in magnitude"
                         f"{where}; sums of squares would underflow.", field=field,
                         fix=f"Rescale {field} (change its units) so its values are moderate.")
+    return lo, hi
 
 
 def _spec_error(message: str, field: str, fix: str) -> SpecError:

@@ -11,6 +11,7 @@ otherwise the public function is used. Royston's approximation is valid for
 from __future__ import annotations
 
 import warnings
+from functools import lru_cache
 
 import numpy as np
 from scipy import stats
@@ -27,6 +28,17 @@ MAX_N = 5000  # upper limit of Royston's approximation
 NOTE = "normality of the weighted residuals (Royston's algorithm)"
 
 
+@lru_cache(maxsize=256)
+def _coefficients(n: int) -> np.ndarray:
+    """Royston's weights for ``n`` points, computed once per n (the routine's init step).
+
+    Passed back with ``init=1`` the routine only reads them.
+    """
+    a = np.zeros(n // 2)
+    _swilk(np.arange(n, dtype=float), a, 0)
+    return a
+
+
 def shapiro_wilk(e: np.ndarray) -> TestResult:
     """Shapiro-Wilk W and p-value of ``e``; nan with a note outside 3..5000 points."""
     n = e.size
@@ -38,7 +50,7 @@ def shapiro_wilk(e: np.ndarray) -> TestResult:
         return TestResult("shapiro_wilk", NAN, NAN, None, "not computed: residuals are constant")
     if _swilk is not None:
         y -= e[n // 2]  # as scipy does (gh-15777)
-        w, pw, fault = _swilk(y, np.zeros(n // 2), 0)
+        w, pw, fault = _swilk(y, _coefficients(n), 1)
         if fault in (0, 2):
             return TestResult("shapiro_wilk", float(w), float(pw), None, NOTE)
     with warnings.catch_warnings(), np.errstate(all="ignore"):

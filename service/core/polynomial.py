@@ -84,7 +84,7 @@ def _fit(x, y, weights, model: ModelSpec, options: FitOptions) -> FitReport:
     intercept = model.intercept
     u = transforms.apply(model.transform_x, data.x, field="x", index=data.index)
     z = transforms.apply(model.transform_y, data.y, field="y", index=data.index)
-    check_magnitude(u, "x", data.index, _after(model.transform_x))
+    u_bounds = check_magnitude(u, "x", data.index, _after(model.transform_x))
     check_magnitude(z, "y", data.index, _after(model.transform_y))
     if data.w is not None:
         check_magnitude(data.w, "weights", data.index, "")
@@ -92,7 +92,7 @@ def _fit(x, y, weights, model: ModelSpec, options: FitOptions) -> FitReport:
     distinct = distinct_count(data.x)
     dmax = _supported_max(distinct, intercept, dmin, dmax, selects, notices)
     dec = decompose(u, z, data.w, dmax, intercept,
-                    "model.max_degree" if selects else "model.degree")
+                    "model.max_degree" if selects else "model.degree", u_bounds)
     n = u.size
     sum_log_w = 0.0 if data.w is None else float(np.sum(np.log(data.w)))
     degrees = list(range(dmin, dmax + 1))
@@ -146,7 +146,10 @@ def _fit(x, y, weights, model: ModelSpec, options: FitOptions) -> FitReport:
                               f"y was fitted on the {model.transform_y} scale; predictions are "
                               "back-transformed naively, which estimates the median rather than "
                               "the mean of y (retransformation bias)."))
-    xmin, xmax = float(data.x.min()), float(data.x.max())
+    if model.transform_x == "none":
+        xmin, xmax = u_bounds
+    else:
+        xmin, xmax = float(data.x.min()), float(data.x.max())
     fitted = FittedPolynomial(
         degree, intercept, model.transform_x, model.transform_y, terms, dec.shift, dec.scale,
         frozen_array(np.asarray(coef_b, dtype=float)), frozen_array(r64), frozen_array(raw),
