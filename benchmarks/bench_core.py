@@ -18,6 +18,7 @@ so a busy machine slows every contender alike).
 
 from __future__ import annotations
 
+import os
 import sys
 import timeit
 import warnings
@@ -125,6 +126,7 @@ def best_times(funcs, *args, rounds: int = 7, burst: float = 0.15) -> list[float
 
 def main() -> int:
     warnings.simplefilter("ignore")
+    print("load average (1, 5, 15 min): " + ", ".join(f"{v:.2f}" for v in os.getloadavg()))
     x, y = data(100)
     chosen = curvewise(x, y).selection.chosen_degree
     fits = [sm.OLS(y, np.vander(x, d + 1, increasing=True)).fit() for d in range(1, 5)]
@@ -137,6 +139,7 @@ def main() -> int:
     t_cw, t_pf = best_times([curvewise, polyfit4], x, y, burst=0.3)
     print(f"n = 100,000   fit_series {t_cw * 1e3:9.2f} ms | np.polyfit x4 {t_pf * 1e3:7.2f} ms "
           f"({t_pf / t_cw:6.2f}x, target 5x)")
+    print("load average (1, 5, 15 min): " + ", ".join(f"{v:.2f}" for v in os.getloadavg()))
     return 0
 
 

@@ -119,8 +119,8 @@ def _predict(fitted: FittedPolynomial, x, level: float | None, m: int) -> Predic
             lo, hi = hi, lo
     extrap = (xs < fitted.x_min) | (xs > fitted.x_max)
     values = [fit_y, se, lo[0], hi[0], lo[1], hi[1], lo[2], hi[2]]
-    if not (np.isfinite(fit_y).all() and np.isfinite(se).all() and np.isfinite(lo).all()
-            and np.isfinite(hi).all()):
+    # finite limits imply a finite fit and se (an infinite or NaN one spreads to the limits)
+    if not (np.isfinite(lo).all() and np.isfinite(hi).all()):
         if any(np.isinf(a).any() for a in values):  # overflow far outside the data: undefined
             values = [np.where(np.isinf(a), np.nan, a) for a in values]
     return Prediction(frozen_array(xs), *(frozen_array(a) for a in values),

@@ -220,17 +220,17 @@ def _conditions(r, shift, scale, degree, intercept) -> tuple[float, float]:
     number): ``R T^-1`` is the R factor of the raw design.
     """
     # runs inside fit_series' errstate (floating-point exceptions ignored)
-    sv = qr.singular_values(r)
-    basis = float(sv[0] / sv[-1]) if sv[-1] > 0 else math.inf
     tm = design.conversion_float(shift, scale, degree, intercept)
-    if tm is None:
-        return basis, math.inf  # (x range)**degree leaves the double range
-    rr = qr.solve(tm.T, r.T)  # (R T^-1)'; NaN when singular
-    if rr is None:
-        return basis, math.inf
-    rr = rr.T
-    rr /= np.sqrt((rr * rr).sum(axis=0))
-    if not np.isfinite(rr).all():
-        return basis, math.inf
-    sr = qr.singular_values(rr)
+    rr = None if tm is None else qr.solve(tm.T, r.T)  # (R T^-1)'; None when singular
+    if rr is not None:
+        rr = rr.T
+        rr /= np.sqrt((rr * rr).sum(axis=0))
+        if not np.isfinite(rr).all():
+            rr = None
+    if rr is None:  # (x range)**degree leaves the double range, or R T^-1 is singular
+        sv = qr.singular_values(r)
+        return float(sv[0] / sv[-1]) if sv[-1] > 0 else math.inf, math.inf
+    both = qr.singular_values(np.stack((r, rr)))  # one call; each matrix on its own
+    sv, sr = both[0], both[1]
+    basis = float(sv[0] / sv[-1]) if sv[-1] > 0 else math.inf
     return basis, float(sr[0] / sr[-1]) if sr[-1] > 0 else math.inf

@@ -194,7 +194,8 @@ def triangular_inverse(r: np.ndarray) -> np.ndarray:
 
 
 def singular_values(a: np.ndarray) -> np.ndarray:
-    """Singular values of a small float64 matrix, largest first (``np.linalg.svd``'s kernel).
+    """Singular values of a small float64 matrix (or a stack), largest first (``np.linalg.svd``'s
+    kernel).
 
     Call inside ``np.errstate(all="ignore")``: no convergence gives NaN, not an exception.
     """
@@ -203,7 +204,7 @@ def singular_values(a: np.ndarray) -> np.ndarray:
     try:
         return np.linalg.svd(a, compute_uv=False)
     except np.linalg.LinAlgError:
-        return np.full(min(a.shape), np.nan)
+        return np.full(a.shape[:-2] + (min(a.shape[-2:]),), np.nan)
 
 
 def solve(a: np.ndarray, b: np.ndarray) -> np.ndarray | None:
