@@ -120,9 +120,12 @@ def _bad_weight(wa: np.ndarray, index: np.ndarray, weights) -> None:
 TINY_LIMIT = 1e-150  # every |value| below this: squares underflow (sums of squares vanish)
 
 
+_DOUBLE_MAX = float(np.finfo(float).max)
+
+
 def magnitude_limit(n: int) -> float:
     """Largest |value| whose squares still sum over ``n`` points within float64 (margin 64)."""
-    return float(np.sqrt(np.finfo(float).max / (64.0 * max(n, 1))))
+    return math.sqrt(_DOUBLE_MAX / (64.0 * max(n, 1)))  # IEEE sqrt, as np.sqrt
 
 
 def check_magnitude(values: np.ndarray, field: str, index: np.ndarray, what: str
