@@ -14,10 +14,8 @@ import numpy as np
 from scipy import special
 
 from service.core import batch_engine as eng
-
-EPS = np.finfo(float).eps
-EXACT_FIT_RTOL = 1e3 * EPS  # as service.core.decomposition: residual this small is rounding
-LEVERAGE_ONE = 1 - 1e-10    # as service.core.summary: leave-one-out residual undefined above
+from service.core.decomposition import EXACT_FIT_RTOL  # the one exact-fit cut-off
+from service.core.summary import LEVERAGE_ONE  # leave-one-out residual undefined above
 
 
 @dataclass(frozen=True, slots=True)
