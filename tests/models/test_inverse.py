@@ -281,9 +281,9 @@ def test_any_reading_gets_a_status_or_a_typed_error(pontius_models, which, readi
 
 def test_bracketing_fallback_gives_the_same_fieller_interval(monkeypatch):
     # Force the fallback path (as if Newton failed): it must reproduce the closed form too.
-    from service.core import inverse
+    from service.core import inverse_band
 
-    monkeypatch.setattr(inverse._Curve, "_newton",
+    monkeypatch.setattr(inverse_band.CalibrationCurve, "_newton",
                         lambda self, t, y0, m, sign: np.full_like(t, np.nan))
     x, y, model = _nist("norris", 1)
     estimate = invert(model, [400.0], replicates=2).estimates[0]
