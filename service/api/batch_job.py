@@ -1,0 +1,126 @@
+"""One batch request's shared options, checked against the limits, and its results in order.
+
+Used by the JSON and the NDJSON forms of ``/v1/batch`` (:mod:`service.api.batch`,
+:mod:`service.api.batch_stream`).
+"""
+
+from __future__ import annotations
+
+import gc
+from contextlib import contextmanager
+
+import numpy as np
+from marshmallow import ValidationError
+
+from schemas.batch import load_series, summary_rows
+from service.core.batch import fit_batch
+from service.core.design import term_names
+from service.core.spec import FitOptions
+from service.errors import ServiceLimitError, fit_error_body, flatten_errors, problem_body
+from service.reporting import fit_response
+from service.requests import grid_spec, model_spec
+
+FULL_INCLUDE = ("coefficients", "anova", "statistics", "selection", "diagnostics",
+                "fitted_model")
+
+
+class BatchJob:
+    """Shared options of one batch request, checked against this server's limits."""
+
+    def __init__(self, envelope: dict, settings):
+        self.settings = settings
+        self.detail = envelope["detail"]
+        self.model = model_spec(envelope["model"])
+        check_degree(envelope["model"], settings, "model")
+        include = envelope.get("include") or FULL_INCLUDE
+        self.include = tuple(include)
+        grid = envelope.get("grid")
+        self.options = FitOptions(
+            level=envelope["level"], missing=envelope["missing"],
+            grid=grid_spec(grid) if grid is not None else None,
+            include=frozenset(include) | ({"grid"} if grid is not None else set()),
+            max_grid_points=settings.max_grid_points)
+        self.counts = {"ok": 0, "error": 0, "flagged": 0}
+
+    def results(self, items):
+        """``items``: (id, series tuple or error body). Returns result dicts in order."""
+        fit_idx = [i for i, (_, s) in enumerate(items) if isinstance(s, tuple)]
+        batch = fit_batch([items[i][1] for i in fit_idx], model=self.model,
+                          models=[items[i][1][3] for i in fit_idx], options=self.options,
+                          detail=self.detail)
+        ok_rows = np.flatnonzero(batch.ok).tolist()
+        bodies = dict(zip(ok_rows, self._fits(batch, ok_rows), strict=True))
+        out = []
+        pos = {i: j for j, i in enumerate(fit_idx)}
+        for i, (ident, series) in enumerate(items):
+            j = pos.get(i)
+            if j is None:
+                out.append({"id": ident, "status": "error", "error": series})
+            elif j in bodies:
+                fit = bodies[j]
+                self.counts["flagged"] += bool(fit.get("flags"))
+                out.append({"id": ident, "status": "ok", "fit": fit})
+            else:
+                out.append({"id": ident, "status": "error",
+                            "error": fit_error_body(batch.errors[j])})
+        self.counts["ok"] += len(bodies)
+        self.counts["error"] += len(items) - len(bodies)
+        return out
+
+    def _fits(self, batch, rows):
+        if self.detail == "full":
+            return [fit_response(batch.reports[j], self.include) for j in rows]
+        return summary_rows(batch, rows, term_names)
+
+    def series(self, obj, position: int):
+        """(id, (x, y, w, ModelSpec|None)) or (id, problem body) for one series object."""
+        ident = obj.get("id", position) if isinstance(obj, dict) else position
+        try:
+            ident, x, y, w, model = load_series(obj, position)
+        except ValidationError as exc:
+            return ident, problem_body(422, None, "This series is not valid; see errors for "
+                                       "each field and its fix.",
+                                       errors=flatten_errors(exc.messages),
+                                       code="validation_error")
+        if x.size > self.settings.max_points:
+            return ident, problem_body(413, None, f"The series has {x.size} points; the limit "
+                                       f"is {self.settings.max_points}. Split the series.",
+                                       errors={"x": ["Too many points."]},
+                                       code="too_many_points")
+        if model is not None:
+            try:
+                check_degree(model, self.settings, "model")
+            except ServiceLimitError as exc:
+                return ident, problem_body(exc.status, None, exc.message,
+                                           errors={exc.field: [exc.message]}, code=exc.code)
+            model = model_spec(model)
+        return ident, (x, y, w, model)
+
+
+@contextmanager
+def gc_paused():
+    """Pause the cyclic garbage collector while many small result objects are built.
+
+    A batch builds hundreds of thousands of lists and dicts, none of them in
+    reference cycles; each automatic collection would walk all of them (and the
+    decoded request) again. Reference counting still frees them; collection
+    resumes afterwards.
+    """
+    was_enabled = gc.isenabled()
+    gc.disable()
+    try:
+        yield
+    finally:
+        if was_enabled:
+            gc.enable()
+
+
+def check_degree(model: dict, settings, prefix: str) -> None:
+    """Refuse a degree or max_degree over this server's limit (422, field ``prefix.name``)."""
+    for name in ("degree", "max_degree"):
+        value = model.get(name)
+        if value is not None and value > settings.max_degree:
+            raise ServiceLimitError(422, "limit_exceeded",
+                                    f"Degree {value} is over this server's limit of "
+                                    f"{settings.max_degree}. Ask for a lower degree.",
+                                    field=f"{prefix}.{name}")
