@@ -21,14 +21,7 @@ def check_series(body: dict, settings: Settings, prefix: str = "") -> None:
                                 f"The series has {n} points; the limit is {settings.max_points}. "
                                 "Split the series, or raise CURVEWISE_MAX_POINTS.",
                                 field=prefix + "x")
-    model = body["model"]
-    for name in ("degree", "max_degree"):
-        value = model.get(name)
-        if value is not None and value > settings.max_degree:
-            raise ServiceLimitError(422, "limit_exceeded",
-                                    f"Degree {value} is over this server's limit of "
-                                    f"{settings.max_degree}. Ask for a lower degree.",
-                                    field=f"{prefix}model.{name}")
+    check_degree(body["model"], settings, prefix + "model.")
     grid = body.get("grid")
     if grid is not None:
         points = grid_points(grid)
@@ -37,6 +30,17 @@ def check_series(body: dict, settings: Settings, prefix: str = "") -> None:
                                     f"The grid would have {points} points; the limit is "
                                     f"{settings.max_grid_points}. Use a larger step or fewer "
                                     "points.", field=prefix + "grid")
+
+
+def check_degree(model: dict, settings: Settings, prefix: str = "") -> None:
+    """Refuse a model whose degree or max_degree is over the limit (422, field prefix + name)."""
+    for name in ("degree", "max_degree"):
+        value = model.get(name)
+        if value is not None and value > settings.max_degree:
+            raise ServiceLimitError(422, "limit_exceeded",
+                                    f"Degree {value} is over this server's limit of "
+                                    f"{settings.max_degree}. Ask for a lower degree.",
+                                    field=f"{prefix}{name}")
 
 
 def grid_points(grid: dict) -> int | None:

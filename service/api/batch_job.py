@@ -17,6 +17,7 @@ from service.core.batch import fit_batch
 from service.core.design import term_names
 from service.core.spec import FitOptions
 from service.errors import ServiceLimitError, fit_error_body, flatten_errors, problem_body
+from service.limits import check_degree
 from service.reporting import fit_response
 from service.requests import grid_spec, model_spec
 
@@ -31,7 +32,7 @@ class BatchJob:
         self.settings = settings
         self.detail = envelope["detail"]
         self.model = model_spec(envelope["model"])
-        check_degree(envelope["model"], settings, "model")
+        check_degree(envelope["model"], settings, "model.")
         include = envelope.get("include") or FULL_INCLUDE
         self.include = tuple(include)
         grid = envelope.get("grid")
@@ -89,7 +90,7 @@ class BatchJob:
                                        code="too_many_points")
         if model is not None:
             try:
-                check_degree(model, self.settings, "model")
+                check_degree(model, self.settings, "model.")
             except ServiceLimitError as exc:
                 return ident, problem_body(exc.status, None, exc.message,
                                            errors={exc.field: [exc.message]}, code=exc.code)
@@ -113,14 +114,3 @@ def gc_paused():
     finally:
         if was_enabled:
             gc.enable()
-
-
-def check_degree(model: dict, settings, prefix: str) -> None:
-    """Refuse a degree or max_degree over this server's limit (422, field ``prefix.name``)."""
-    for name in ("degree", "max_degree"):
-        value = model.get(name)
-        if value is not None and value > settings.max_degree:
-            raise ServiceLimitError(422, "limit_exceeded",
-                                    f"Degree {value} is over this server's limit of "
-                                    f"{settings.max_degree}. Ask for a lower degree.",
-                                    field=f"{prefix}.{name}")
