@@ -15,30 +15,16 @@ import numpy as np
 import pytest
 import statsmodels.api as sm
 from curvewise_client import (
-    Client,
     Estimates,
     FitResult,
     Predictions,
     UnprocessableInput,
-    WSGITransport,
 )
 from PIL import Image
 
 from tests.conftest import load_nist
 
-
-@pytest.fixture(scope="module")
-def inprocess_client():
-    from service.app import create_app
-
-    return Client("http://curvewise.test", transport=WSGITransport(create_app({})))
-
-
-@pytest.fixture(params=["inprocess", pytest.param("live", marks=pytest.mark.live)])
-def api(request):
-    if request.param == "inprocess":
-        return request.getfixturevalue("inprocess_client")
-    return Client(request.getfixturevalue("live_url"), timeout=30, retries=1)
+LIVE_CLIENT_RETRIES = 1  # for the live `api` client (tests/client/conftest.py)
 
 
 @pytest.fixture(scope="module")

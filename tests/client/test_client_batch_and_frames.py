@@ -10,21 +10,7 @@ import numpy as np
 import pandas as pd
 import pytest
 import statsmodels.api as sm
-from curvewise_client import BatchResult, Client, WSGITransport, frames
-
-
-@pytest.fixture(scope="module")
-def inprocess_client():
-    from service.app import create_app
-
-    return Client("http://curvewise.test", transport=WSGITransport(create_app({})))
-
-
-@pytest.fixture(params=["inprocess", pytest.param("live", marks=pytest.mark.live)])
-def api(request):
-    if request.param == "inprocess":
-        return request.getfixturevalue("inprocess_client")
-    return Client(request.getfixturevalue("live_url"), timeout=30)
+from curvewise_client import BatchResult, frames
 
 
 def _series(count: int, seed: int = 4):
