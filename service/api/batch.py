@@ -2,14 +2,13 @@
 
 from __future__ import annotations
 
-from http import HTTPStatus
-
 from flask import Response, current_app, request, stream_with_context
 from flask_smorest import Blueprint
 
 from schemas.batch import BatchRequestSchema, BatchResponseSchema, SeriesSchema
 from service.api.batch_job import BatchJob, gc_paused
 from service.api.batch_stream import stream
+from service.api.error_docs import error_responses
 from service.api.parsing import PARSER
 from service.errors import ServiceLimitError
 from service.problems import ProblemKind, register_kind
@@ -44,11 +43,7 @@ ERRORS = {400: "Unparsable JSON body.",
           422: "Invalid shared options (a bad series only gets an error result)."}
 
 
-def _document_errors(view):
-    for status, description in ERRORS.items():
-        view = blp.alt_response(status, description=description,
-                                response=HTTPStatus(status).name)(view)
-    return view
+_document_errors = error_responses(blp, ERRORS)
 
 
 @blp.route("/v1/batch", methods=["POST"])

@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 from dataclasses import asdict
-from http import HTTPStatus
 
 from flask import current_app
 from flask_smorest import Blueprint
@@ -14,6 +13,7 @@ from schemas.models import (
     PredictRequestSchema,
     PredictResponseSchema,
 )
+from service.api.error_docs import error_responses
 from service.core import predict
 from service.core.calibration import figures_of_merit, sensitivity
 from service.core.document import from_document
@@ -29,12 +29,7 @@ ERRORS = {400: "Unparsable body (not strict JSON: e.g. NaN or Infinity tokens)."
                "schema_version, or fails its checksum; errors names each field and its fix."}
 
 
-def document_errors(view):
-    """Attach the problem+json error responses to a view's OpenAPI entry."""
-    for status, description in ERRORS.items():
-        view = blp.alt_response(status, description=description,
-                                response=HTTPStatus(status).name)(view)
-    return view
+document_errors = error_responses(blp, ERRORS)
 
 
 _PREDICT_COLUMNS = ("x", "fit", "se_fit", "mean_lower", "mean_upper", "obs_lower", "obs_upper",

@@ -2,12 +2,11 @@
 
 from __future__ import annotations
 
-from http import HTTPStatus
-
 from flask import Response, current_app, request
 from flask_smorest import Blueprint
 
 from schemas.plots import PlotRequestSchema
+from service.api.error_docs import error_responses
 from service.core import fit_series
 from service.core.errors import SpecError
 from service.limits import check_series
@@ -29,12 +28,7 @@ _IMAGE_DOC = {"responses": {"200": {"description": "The figure (PNG or SVG); the
 _NEEDED = frozenset({"selection", "grid", "diagnostics", "coefficients"})
 
 
-def document_errors(view):
-    """Attach the problem+json error responses to a view's OpenAPI entry."""
-    for status, description in ERRORS.items():
-        view = blp.alt_response(status, description=description,
-                                response=HTTPStatus(status).name)(view)
-    return view
+document_errors = error_responses(blp, ERRORS)
 
 
 def chosen_format(asked: str | None) -> str:
