@@ -14,7 +14,7 @@ from service.jsonio import OrjsonProvider
 def create_app(overrides: dict | None = None) -> Flask:
     """Build the WSGI app. ``overrides`` are Settings fields (e.g. ``{"max_degree": 6}``)."""
     settings = Settings.load(overrides)
-    app = Flask("curvewise")
+    app = error_handling.CurvewiseFlask("curvewise")
     app.json = OrjsonProvider(app)
     app.config.update(
         CURVEWISE=settings,

@@ -64,6 +64,13 @@ def fit_error_body(error: FitError) -> dict:
                         code=error.code)
 
 
+class CurvewiseFlask(Flask):
+    """Flask app whose unhandled exceptions are logged once, by the 500 handler below."""
+
+    def log_exception(self, exc_info) -> None:
+        """Skip Flask's own ERROR line: ``CurvewiseApi`` logs the 500 with its traceback."""
+
+
 class CurvewiseApi(Api):
     """flask-smorest Api whose HTTP errors are problem+json, and documented as such."""
 
