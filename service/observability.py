@@ -5,13 +5,15 @@ Metrics (``prometheus_client``; in multiprocess mode under gunicorn):
 - ``curvewise_http_requests_total{method, route, status}``
 - ``curvewise_http_request_duration_seconds{method, route}`` (histogram)
 - ``curvewise_http_requests_in_progress`` (gauge, summed over live workers)
-- ``curvewise_fit_failures_total{reason}`` -- ``reason`` is :attr:`FitError.code`
+- ``curvewise_fit_failures_total{reason}`` -- ``reason`` is :attr:`FitError.code` (or the
+  problem code of a refused batch series, counted by the batch job)
 - ``curvewise_batch_series`` (histogram of series per /v1/batch request)
 - ``curvewise_batch_results_total{status}`` -- series answered ``ok`` / ``error`` in batches
 
-Batch figures are read from the ``summary`` object that closes every /v1/batch answer (the wire
-contract: last member of the JSON body, last line of an NDJSON stream), so the batch views need
-no metrics code; a streamed answer is counted when its last line has gone out.
+Batch sizes and ok/error counts are read from the ``summary`` object that closes every
+/v1/batch answer (the wire contract: last member of the JSON body, last line of an NDJSON
+stream), so the batch views need no code for them; a streamed answer is counted when its last
+line has gone out.
 
 ``route`` is the URL rule template (``/v1/fit``), never the raw path, so label cardinality stays
 bounded; unmatched paths are counted as ``<unmatched>``.
@@ -91,9 +93,9 @@ def metrics() -> _Metrics:
     return _Metrics()
 
 
-def record_fit_failure(code: str) -> None:
-    """Count one input the core refused (``FitError.code``), e.g. a failed series in a batch."""
-    metrics().fit_failures.labels(reason=code or "unfittable_input").inc()
+def record_fit_failure(code: str, count: int = 1) -> None:
+    """Count ``count`` inputs refused for reason ``code`` (e.g. failed series in a batch)."""
+    metrics().fit_failures.labels(reason=code or "unfittable_input").inc(count)
 
 
 def record_batch(series: int, ok: int | None = None, error: int | None = None) -> None:

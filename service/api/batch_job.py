@@ -7,6 +7,7 @@ Used by the JSON and the NDJSON forms of ``/v1/batch`` (:mod:`service.api.batch`
 from __future__ import annotations
 
 import gc
+from collections import Counter
 from contextlib import contextmanager
 
 import numpy as np
@@ -18,6 +19,7 @@ from service.core.design import term_names
 from service.core.spec import FitOptions
 from service.errors import ServiceLimitError, fit_error_body, flatten_errors, problem_body
 from service.limits import check_degree
+from service.observability import record_fit_failure
 from service.reporting import fit_response
 from service.requests import grid_spec, model_spec
 
@@ -66,6 +68,9 @@ class BatchJob:
                             "error": fit_error_body(batch.errors[j])})
         self.counts["ok"] += len(bodies)
         self.counts["error"] += len(items) - len(bodies)
+        reasons = Counter(r["error"].get("code") for r in out if r["status"] == "error")
+        for code, count in reasons.items():
+            record_fit_failure(code, count)
         return out
 
     def _fits(self, batch, rows):

@@ -201,3 +201,20 @@ def test_metrics_route_exists_once_per_app():
     first, second = create_app({}).test_client(), create_app({}).test_client()
     assert first.get("/metrics").status_code == 200
     assert second.get("/metrics").status_code == 200
+
+
+def test_failed_series_in_a_batch_are_counted_by_reason_code(client):
+    # Series "b" has one distinct x for a straight line: the core's DesignError
+    # (code insufficient_design); "d" is not a number array: a validation_error.
+    body = {**BATCH, "series": BATCH["series"] + [{"id": "d", "x": [1, 2], "y": ["a", 2]}]}
+    name = "curvewise_fit_failures_total"
+    before = {code: value(samples(client), name, reason=code)
+              for code in ("insufficient_design", "validation_error")}
+    response = client.post("/v1/batch", json=body)
+    assert response.status_code == 200
+    codes = {r["id"]: r["error"]["code"] for r in response.get_json()["results"]
+             if r["status"] == "error"}
+    assert codes == {"b": "insufficient_design", "d": "validation_error"}
+    after = samples(client)
+    for code in before:
+        assert value(after, name, reason=code) == before[code] + 1
