@@ -18,7 +18,8 @@ install: $(STAMP)
 run: $(STAMP)  ## serve on 127.0.0.1:8000 with built-in defaults
 	$(BIN)/curvewise serve --host 127.0.0.1 --port 8000
 
-test: $(STAMP)  ## the whole suite
+test: $(STAMP)  ## lint, then the whole suite
+	$(BIN)/ruff check service schemas client tests benchmarks
 	$(BIN)/python -m pytest
 
 bench: $(STAMP)  ## ratio benchmarks, printed side by side

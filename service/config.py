@@ -50,4 +50,5 @@ def _parse(name: str, raw: str, default):
             return tuple(item.strip() for item in raw.split(",") if item.strip())
         return raw
     except ValueError as exc:
-        raise SystemExit(f"CURVEWISE_{name.upper()}={raw!r} is not a valid {type(default).__name__}") from exc
+        kind = type(default).__name__
+        raise SystemExit(f"CURVEWISE_{name.upper()}={raw!r} is not a valid {kind}") from exc

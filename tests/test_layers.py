@@ -30,7 +30,9 @@ def test_core_imports_no_web_or_schema_code():
     imported = _imports(ROOT / "service" / "core")
     assert not _top(imported) & {"flask", "flask_smorest", "marshmallow", "webargs", "schemas",
                                  "werkzeug", "apispec"}
-    assert not {n for n in imported if n.startswith("service.") and not n.startswith("service.core")}
+    outside_core = {n for n in imported
+                    if n.startswith("service.") and not n.startswith("service.core")}
+    assert not outside_core
 
 
 def test_schemas_import_nothing_from_service_or_numerics_internals():
@@ -46,7 +48,8 @@ def test_client_imports_nothing_from_the_server():
 
 def test_core_loads_without_flask_or_marshmallow_in_a_fresh_interpreter():
     code = ("import sys, service.core; "
-            "bad = [m for m in ('flask', 'marshmallow', 'werkzeug', 'schemas') if m in sys.modules]; "
+            "bad = [m for m in ('flask', 'marshmallow', 'werkzeug', 'schemas') "
+            "if m in sys.modules]; "
             "print(bad); sys.exit(1 if bad else 0)")
     result = subprocess.run([sys.executable, "-c", code], cwd=ROOT, capture_output=True, text=True)
     assert result.returncode == 0, result.stdout + result.stderr

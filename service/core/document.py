@@ -9,9 +9,9 @@ back, checks every field and the checksum, and raises
 The checksum (:mod:`service.core.document_canonical`) is ``"sha256:" + hex``
 over the *canonical form*: every field except ``checksum``, each value first
 normalized to its declared type (so an integer-valued float that a JSON library
-wrote as ``0`` still reads as ``0.0``), then serialized as JSON with sorted keys, no whitespace, ASCII only,
-floats in Python ``repr`` (shortest digits that round-trip exactly), undefined
-numbers as ``null``. Any faithful JSON transport therefore keeps the checksum
+wrote as ``0`` still reads as ``0.0``), then serialized as JSON with sorted keys, no
+whitespace, ASCII only, floats in Python ``repr`` (shortest digits that round-trip
+exactly), undefined numbers as ``null``. Any faithful JSON transport therefore keeps the checksum
 valid, and any edited value breaks it. The format is specified in
 ``docs/fitted-model.md``.
 """
