@@ -5,6 +5,12 @@ Because the columns enter in order (``t^0, t^1, ...``), the fit of degree
 R (and its inverse the leading block of R^-1), its effects the leading
 effects, and its residual sum of squares the full model's plus the squares
 of the effects it leaves out.
+
+Precision: the factorization runs in float64 (compiled Householder up to
+:data:`service.core.qr.EXTENDED_MAX_ROWS` points, CholeskyQR2 from two Gram
+passes above) unless ``extended=True`` asks for the numpy ``longdouble``
+Householder of :mod:`service.core.qr` — which the fit does whenever the
+float64 answer could lose digits (see ``polynomial.py``).
 """
 
 from __future__ import annotations
@@ -13,19 +19,22 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from service.core import design, qr
+from service.core import design, kernels_points, kernels_qr, qr
 from service.core.errors import DesignError
 
 EPS = np.finfo(float).eps
 # A residual norm below this fraction of ||y|| is rounding of y itself (a few ulps per point):
 # the fit is exact. NIST StRD Wampler2 (decimal data, exact quintic) sits at 0.12 eps.
 EXACT_FIT_RTOL = 8 * EPS
-SHORT_ROWS = 2048  # up to this many points, candidate sums are formed in whole blocks
+LEVERAGE_ONE = 1 - 1e-10  # h_i above this: the leave-one-out residual is undefined
+RANK_TOL = 1e-13
+_NONE = np.empty(0)
+_NO_RINV = np.empty((0, 0))
 
 
 @dataclass(frozen=True, slots=True)
 class Decomposition:
-    """The weighted QR of the design up to ``max_degree`` (internal)."""
+    """The weighted QR of the design up to ``max_degree`` and the candidates' sums (internal)."""
 
     intercept: bool
     max_degree: int
@@ -34,76 +43,40 @@ class Decomposition:
     t: np.ndarray            # float64 scaled x of the used points
     sqrt_w: np.ndarray | None
     zw: np.ndarray           # sqrt(w) * response on the fitting scale
-    r: np.ndarray            # (P, P) R, extended precision (float64 on long series)
+    r: np.ndarray            # (P, P) R: longdouble when ``extended``, else float64
     r_inv: np.ndarray        # (P, P) R^-1, same dtype
-    effects: np.ndarray      # (P,) Q'zw, same dtype
+    r_inv64: np.ndarray      # (P, P) R^-1 rounded to float64 (the per-point loops)
+    effects: np.ndarray      # (P,) Q'zw, same dtype as r
+    effects64: np.ndarray    # (P,) float64
     rss_full: float          # residual SS of the largest model
-    q: np.ndarray            # (P, n) float64 orthonormal rows (thin Q transposed)
     sum_zw2: float           # uncentred total SS (weighted)
+    press: tuple[float, ...]  # PRESS of each candidate (NaN at leverage one)
+    extended: bool
 
     def p(self, degree: int) -> int:
         """Number of coefficients of the candidate of this degree."""
         return degree + (1 if self.intercept else 0)
 
-    def rss(self, degree: int) -> float:
-        """Residual SS of the candidate of this degree (exact fit -> 0.0)."""
-        rest = self.effects[self.p(degree):]
-        value = self.rss_full + float(rest @ rest)
-        return 0.0 if value <= (EXACT_FIT_RTOL ** 2) * self.sum_zw2 else value
+    @property
+    def first(self) -> int:
+        """Exponent of the first column (0 with an intercept)."""
+        return 0 if self.intercept else 1
 
-    def cumulative(self, degrees) -> tuple[np.ndarray, np.ndarray]:
-        """Hat diagonals and weighted residuals of the candidates (len(degrees) x n).
-
-        Running sums go straight into the output rows (a long series
-        page-faults on every fresh array); the additions are the same, in the
-        same order, as ``h += q_j * q_j`` and ``f += e_j q_j``, and each
-        residual row is ``zw - f``.
-        """
-        want = {self.p(d) - 1: i for i, d in enumerate(degrees)}
-        n = self.q.shape[1]
-        top = max(want) + 1
-        if n <= SHORT_ROWS:  # a few numpy calls over the whole block (accumulate is sequential)
-            rows = sorted(want)  # ascending degrees: row i of the output is degrees[i]
-            q = self.q[:top]
-            lev = np.add.accumulate(q * q, axis=0)[rows]
-            f = np.add.accumulate(q * self.effects[:top, None].astype(float), axis=0)[rows]
-            return lev, np.subtract(self.zw, f, out=f)
-        lev = np.empty((len(want), n))
-        res = np.empty((len(want), n))
-        eff = self.effects.astype(float).tolist()
-        tmp, f = np.empty(n), np.empty(n)
-        spare = np.empty(n) if len(want) < max(want) + 1 else None
-        h_prev = None
-        for j in range(max(want) + 1):
-            row = self.q[j]
-            i = want.get(j)
-            h_out = lev[i] if i is not None else spare
-            np.multiply(row, row, out=tmp)
-            if h_prev is None:
-                h_out[...] = tmp
-            else:
-                np.add(h_prev, tmp, out=h_out)
-            h_prev = h_out
-            if j == 0:
-                np.multiply(row, eff[0], out=f)
-            else:
-                np.multiply(row, eff[j], out=tmp)
-                f += tmp
-            if i is not None:
-                np.subtract(self.zw, f, out=res[i])
-        return lev, res
+    @property
+    def weights(self) -> np.ndarray:
+        """``sqrt_w`` for the compiled loops (empty when unweighted)."""
+        return _NONE if self.sqrt_w is None else self.sqrt_w
 
 
-def _sumsq(v: np.ndarray) -> float:
-    return qr.dot(v, v)
-
-
-def decompose(u: np.ndarray, z: np.ndarray, w: np.ndarray | None, max_degree: int,
+def decompose(u: np.ndarray, z: np.ndarray, w: np.ndarray | None, degrees: list[int],
               intercept: bool, field: str = "model.max_degree",
-              bounds: tuple[float, float] | None = None) -> Decomposition:
-    """Scale x, build the weighted design up to ``max_degree``, and factor it.
+              bounds: tuple[float, float] | None = None,
+              extended: bool = False) -> Decomposition:
+    """Scale x, factor the weighted design up to ``max(degrees)``, and sum the candidates.
 
-    ``bounds`` is ``(u.min(), u.max())`` when the caller already has it.
+    ``bounds`` is ``(u.min(), u.max())`` when the caller already has it;
+    ``extended`` asks for the longdouble factorization (series of at most
+    ``qr.EXTENDED_MAX_ROWS`` points).
 
     Raises
     ------
@@ -111,34 +84,31 @@ def decompose(u: np.ndarray, z: np.ndarray, w: np.ndarray | None, max_degree: in
         When the columns are numerically dependent even though x has enough
         distinct values (x extremely clustered relative to its range).
     """
+    max_degree = degrees[-1]
     shift, scale = design.scaling(u, intercept, bounds)
     n = u.size
     sqrt_w = None if w is None else np.sqrt(w)
     zw = z if sqrt_w is None else z * sqrt_w
     t64 = design.to_t(u, shift, scale)
     p = max_degree + (1 if intercept else 0)
+    first = 0 if intercept else 1
+    sw = _NONE if sqrt_w is None else sqrt_w
+    rss = np.nan
     try:
         if n > qr.EXTENDED_MAX_ROWS:
-            v = design.basis_rows(t64, max_degree, intercept, sqrt_w)
-            got = qr.cholesky_qr2(v)
-            if got is not None:
-                r, q = got
-                effects = np.einsum("ij,j->i", q, zw)
-                resid = zw.copy()
-                tmp = np.empty_like(resid)
-                for e_j, row in zip(effects.tolist(), q, strict=True):
-                    np.multiply(row, e_j, out=tmp)
-                    resid -= tmp
-                return Decomposition(intercept, max_degree, shift, scale, t64, sqrt_w, zw, r,
-                                     qr.triangular_inverse(r), effects, _sumsq(resid),
-                                     q, _sumsq(zw))
-        t_ext = design.to_t(u, shift, scale, qr.EXTENDED)
-        sw = None if sqrt_w is None else sqrt_w.astype(qr.EXTENDED)
-        a = np.empty((p + 1, n), dtype=qr.EXTENDED)
-        design.basis_rows(t_ext, max_degree, intercept, sw, out=a[:p])
-        a[p] = zw
-        v64 = a[:p].astype(float)
-        r, effects, rss = qr.householder(a, p)
+            got = _cholesky_qr2(t64, sw, zw, first, p)
+            if got is None:  # too ill-conditioned for Gram passes: float64 Householder
+                got = _householder64(t64, sw, zw, first, p)
+            r, effects, rss = got
+        elif extended and qr.EXTENDED_IS_WIDER:
+            t_ext = design.to_t(u, shift, scale, qr.EXTENDED)
+            sw_ext = None if sqrt_w is None else sqrt_w.astype(qr.EXTENDED)
+            a = np.empty((p + 1, n), dtype=qr.EXTENDED)
+            design.basis_rows(t_ext, max_degree, intercept, sw_ext, out=a[:p])
+            a[p] = zw
+            r, effects, rss = qr.householder(a, p, RANK_TOL)
+        else:
+            r, effects, rss = _householder64(t64, sw, zw, first, p)
     except qr.RankDeficient as exc:
         raise DesignError(
             f"The design for degree {max_degree} is numerically rank deficient (column "
@@ -146,6 +116,45 @@ def decompose(u: np.ndarray, z: np.ndarray, w: np.ndarray | None, max_degree: in
             "this many powers.", field=field,
             fix=f"Use a degree below {exc.column}, or spread the x values more evenly.") from None
     r_inv = qr.triangular_inverse(r)
-    q = qr.rows_times_upper(r_inv.astype(float), v64)
+    r_inv64 = np.ascontiguousarray(r_inv, dtype=float)
+    effects64 = np.ascontiguousarray(effects, dtype=float)
+    ps = np.array([d + (1 if intercept else 0) for d in degrees], dtype=np.int64)
+    press, _, rss_pass = kernels_points.candidate_sums(t64, sw, zw, first, r_inv64, effects64,
+                                                       ps, LEVERAGE_ONE)
+    if np.isnan(rss):  # Gram passes: the residuals are formed in the candidate pass
+        rss = rss_pass
+    sum_zw2 = qr.dot(zw, zw)
     return Decomposition(intercept, max_degree, shift, scale, t64, sqrt_w, zw, r, r_inv,
-                         effects, rss, q, _sumsq(zw))
+                         r_inv64, effects, effects64, float(rss), sum_zw2,
+                         tuple(press.tolist()), r.dtype != np.float64)
+
+
+def _householder64(t, sw, zw, first, p):
+    r, effects, rss, column = kernels_qr.householder(t, sw, zw, first, p, RANK_TOL)
+    if column >= 0:
+        raise qr.RankDeficient(column)
+    return r, effects, rss
+
+
+def _cholesky_qr2(t, sw, zw, first, p):
+    """float64 CholeskyQR2 from Gram passes; ``(r, effects, nan)`` or None when the design
+    is too ill-conditioned for it (condition above ``qr.CHOLQR_MAX_COND``).
+
+    The second pass is skipped when the first R is so well conditioned
+    (condition below ``qr.ONE_PASS_COND``) that ``Q'Q`` is the identity to ~1e-12.
+    """
+    g = kernels_qr.gram(t, sw, zw, first, p, _NO_RINV)
+    r1 = qr.cholesky_factor(g[:p, :p], RANK_TOL)
+    if r1 is None:
+        return None
+    d = np.abs(np.diag(r1))
+    if d.min() * qr.CHOLQR_MAX_COND < d.max():
+        return None
+    if np.linalg.cond(r1) < qr.ONE_PASS_COND:
+        return r1, qr.solve(r1.T, g[p, :p, None])[:, 0], np.nan
+    r1_inv = np.ascontiguousarray(qr.triangular_inverse(r1))
+    g2 = kernels_qr.gram(t, sw, zw, first, p, r1_inv)
+    r2 = qr.cholesky_factor(g2[:p, :p], RANK_TOL)
+    if r2 is None:
+        return None
+    return r2 @ r1, qr.solve(r2.T, g2[p, :p, None])[:, 0], np.nan

@@ -18,14 +18,16 @@ Thresholds (common practice, also returned in ``Diagnostics.thresholds``):
 
 from __future__ import annotations
 
+import math
+
 import numpy as np
 from scipy import special
 
-from service.core import flags
+from service.core import flags, kernels_points
 from service.core.anova import lack_of_fit
 from service.core.decomposition import Decomposition
 from service.core.normality import shapiro_wilk
-from service.core.qr import dot
+from service.core.qr import triangular_inverse
 from service.core.results import Diagnostics, TestResult, frozen_array
 from service.core.summary import f_quantile, t_quantile
 
@@ -33,9 +35,8 @@ NAN = float("nan")
 OUTLIER_ALPHA = 0.05
 
 
-def diagnose(index: np.ndarray, x: np.ndarray, dec: Decomposition, degree: int,
-             h: np.ndarray, e: np.ndarray, one_h: np.ndarray, rss: float, exact: bool,
-             distinct: int) -> Diagnostics:
+def diagnose(index: np.ndarray, x: np.ndarray, dec: Decomposition, degree: int, rss: float,
+             exact: bool, distinct: int) -> Diagnostics:
     """Compute the diagnostics of the chosen fit.
 
     Parameters
@@ -43,96 +44,78 @@ def diagnose(index: np.ndarray, x: np.ndarray, dec: Decomposition, degree: int,
     index : original positions of the used points.
     x : original x of the used points (lack-of-fit levels).
     dec : the decomposition the fit came from.
-    h, e, one_h : hat diagonal, weighted residuals and ``1 - h`` of the chosen degree.
+    degree : the chosen degree.
     rss : residual SS (0.0 for an exact fit).
     distinct : number of distinct x values.
+
+    Notes
+    -----
+    The per-point forms (see :func:`service.core.kernels_points.point_measures`)
+    are, with ``e`` the weighted residuals and ``h`` the leverages:
+    ``std = e / (sigma sqrt(1-h))``, ``s_(i)² = (rss - e²/(1-h)) / (df-1)``,
+    ``stud = e / sqrt(s_(i)² (1-h))``, ``cook = std² h / (p (1-h))`` and
+    ``dffits = stud sqrt(h / (1-h))``.
     """
     n, p = x.size, dec.p(degree)
     df = n - p
-    raw = e if dec.sqrt_w is None else e / dec.sqrt_w
-    ee = e * e
     # runs inside fit_series' errstate (floating-point exceptions ignored)
-    sigma = np.sqrt(rss / df) if df > 0 else NAN
-    # in place where possible (a long series page-faults on every fresh array); the
-    # operations are those of std = e / (sigma sqrt(1-h)),
-    # s_i2 = (rss - e²/(1-h)) / (df-1), stud = e / sqrt(s_i2 (1-h)),
-    # cook = std² h / (p (1-h)), dffits = stud sqrt(h / (1-h))
-    std = np.sqrt(one_h)
-    std *= sigma
-    np.divide(e, std, out=std)
-    if df > 1:
-        s_i2 = np.divide(ee, one_h)
-        np.subtract(rss, s_i2, out=s_i2)
-        s_i2 /= df - 1
-    else:
-        s_i2 = np.full(n, NAN)
-    stud = s_i2
-    stud *= one_h
-    np.sqrt(stud, out=stud)
-    np.divide(e, stud, out=stud)
-    cook = np.multiply(std, std)
-    cook *= h
-    dffits = np.multiply(p, one_h)  # scratch: p (1 - h)
-    cook /= dffits
-    np.divide(h, one_h, out=dffits)
-    np.sqrt(dffits, out=dffits)
-    np.multiply(stud, dffits, out=dffits)
+    out = np.empty((6, n))
+    ss, ss_diff = kernels_points.point_measures(dec.t, dec.weights, dec.zw, dec.first,
+                                                dec.r_inv64[:p, :p], dec.effects64, p, rss, df,
+                                                out)
+    e, h, std, stud, cook, dffits = out
+    raw = e if dec.sqrt_w is None else e / dec.sqrt_w
     bonf = t_quantile(df - 1, 1 - OUTLIER_ALPHA / (2 * n)) if df > 1 else NAN
     cook_cut = f_quantile(p, df, 0.5) if df > 0 else NAN
     lev_cut = 2 * p / n
     if exact or df < 1:
-        std = stud = cook = dffits = np.full(n, NAN)
-    tests = _tests(e, ee, dec, degree, exact, df)
+        out[2:] = NAN
+    tests = _tests(e, ss, ss_diff, dec, degree, exact, df)
     lof = lack_of_fit(x, dec.zw, dec.sqrt_w, rss, p, distinct)
     outliers = tuple(index[(stud > bonf) | (stud < -bonf)].tolist())  # |stud| > bonf
     high = tuple(index[h > lev_cut].tolist()) if n > p else ()
     infl = tuple(index[cook > cook_cut].tolist())
     thresholds = {"outlier_alpha": OUTLIER_ALPHA, "outlier_t": bonf, "leverage": lev_cut,
-                  "cooks_distance": cook_cut, "dffits": float(2 * np.sqrt(p / n)),
+                  "cooks_distance": cook_cut, "dffits": 2 * math.sqrt(p / n),
                   **flags.THRESHOLDS}
     return Diagnostics(frozen_array(index, dtype=int), frozen_array(raw), frozen_array(std),
                        frozen_array(stud), frozen_array(h), frozen_array(cook),
                        frozen_array(dffits), tests, lof, outliers, high, infl, thresholds)
 
 
-def _tests(e: np.ndarray, ee: np.ndarray, dec: Decomposition, degree: int, exact: bool,
-           df: int) -> tuple[TestResult, ...]:
+def _tests(e: np.ndarray, ss: float, ss_diff: float, dec: Decomposition, degree: int,
+           exact: bool, df: int) -> tuple[TestResult, ...]:
     if exact or df < 1:
         why = "exact fit: residuals are rounding noise" if exact else "no residual df"
         return tuple(TestResult(name, NAN, NAN, None, f"not computed ({why})")
                      for name in ("shapiro_wilk", "breusch_pagan", "durbin_watson"))
-    return (shapiro_wilk(e), _breusch_pagan(ee, dec, degree), _durbin_watson(e))
+    dw = ss_diff / ss if ss > 0 else NAN
+    return (shapiro_wilk(e), _breusch_pagan(e, dec, degree),
+            TestResult("durbin_watson", dw, NAN, None,
+                       "serial correlation in the given order: ~2 none, <2 positive, >2 negative"))
 
 
-def _breusch_pagan(ee: np.ndarray, dec: Decomposition, degree: int) -> TestResult:
+def _breusch_pagan(e: np.ndarray, dec: Decomposition, degree: int) -> TestResult:
     """Koenker's studentized form: LM = n R² of e² on (1, t, ..., t^d), chi² on d df.
 
-    ``ee`` holds the squared residuals.
+    The R² is ``||Q'zc||² / ||zc||²`` for the centred squared residuals ``zc``
+    and an orthonormal basis ``Q`` of the unweighted powers of ``t``: the fit's
+    own when it is unweighted with an intercept, else one from a fresh QR.
     """
-    n = ee.size
+    n = e.size
     if degree < 1 or n <= degree + 1:
         return TestResult("breusch_pagan", NAN, NAN, None,
                           "needs at least one power of x and more points than coefficients")
-    zc = ee - ee.sum() / n
     if dec.sqrt_w is None and dec.intercept:
-        qa = dec.q[:degree + 1]  # already an orthonormal basis of (1, t, ..., t^d)
+        rinv = dec.r_inv64[:degree + 1, :degree + 1]
     else:
-        rows = np.vander(dec.t, degree + 1, increasing=True)
-        qa = np.linalg.qr(rows)[0].T
-    proj = np.einsum("ij,j->i", qa, zc)
-    ss = dot(zc, zc)
+        r = np.linalg.qr(np.vander(dec.t, degree + 1, increasing=True), mode="r")
+        rinv = np.ascontiguousarray(triangular_inverse(r))
+    proj, ss = kernels_points.projection_sums(dec.t, e, rinv, degree + 1)
     if not ss > 0:
         return TestResult("breusch_pagan", NAN, NAN, (float(degree),),
                           "not computed: squared residuals are constant")
-    lm = n * dot(proj, proj) / ss
+    lm = n * float(proj @ proj) / ss
     pv = float(special.chdtrc(degree, lm))
     return TestResult("breusch_pagan", lm, pv, (float(degree),),
                       "Koenker's studentized LM test of constant variance against the powers of x")
-
-
-def _durbin_watson(e: np.ndarray) -> TestResult:
-    d = np.diff(e)
-    ss = dot(e, e)
-    dw = dot(d, d) / ss if ss > 0 else NAN
-    return TestResult("durbin_watson", dw, NAN, None,
-                      "serial correlation in the given order: ~2 none, <2 positive, >2 negative")

@@ -33,10 +33,12 @@ from service.core.results import (
 )
 from service.core.selection import candidate_row, choose
 from service.core.spec import FitOptions, ModelSpec
-from service.core.summary import LONG, candidate_measures, t_quantile
+from service.core.summary import candidate_measures, t_quantile
 
 NAN = float("nan")
 RAW_COND_NOTICE = 1e10  # raw-power design condition number worth a notice (common practice)
+EPS = float(np.finfo(float).eps)
+FLOAT64_TOL = 1e-12  # estimated relative error above which the fit repeats in longdouble
 
 
 _DEFAULT_MODEL = ModelSpec()
@@ -91,26 +93,25 @@ def _fit(x, y, weights, model: ModelSpec, options: FitOptions) -> FitReport:
     notices: list[Notice] = []
     distinct = distinct_count(data.x)
     dmax = _supported_max(distinct, intercept, dmin, dmax, selects, notices)
-    dec = decompose(u, z, data.w, dmax, intercept,
-                    "model.max_degree" if selects else "model.degree", u_bounds)
     n = u.size
     sum_log_w = 0.0 if data.w is None else float(np.sum(np.log(data.w)))
     degrees = list(range(dmin, dmax + 1))
-    lev, resid = dec.cumulative(degrees)
-    # 1 - h of every candidate; a long series computes it row by row where needed
-    one_h = np.subtract(1, lev) if n <= LONG else None
-    cands = candidate_measures(dec, degrees, sum_log_w, lev, resid, one_h)
-    if selects:
-        degree, reason = choose(model.select, cands, model.alpha)
-        method = model.select
-    else:
-        degree, reason, method = dmin, f"Degree {dmin} was fixed by the caller.", "fixed"
+    field = "model.max_degree" if selects else "model.degree"
+    dec, cands, degree, reason, method = _select(u, z, data.w, degrees, model, selects,
+                                                 sum_log_w, field, u_bounds, False)
     m = cands[degree - dmin]
+    rinv = dec.r_inv[:m.p, :m.p]
+    coef_b = rinv @ dec.effects[:m.p]
+    if (n <= qr.EXTENDED_MAX_ROWS and qr.EXTENDED_IS_WIDER
+            and not _float64_enough(dec, m, coef_b, rinv, degree)):
+        dec, cands, degree, reason, method = _select(u, z, data.w, degrees, model, selects,
+                                                     sum_log_w, field, u_bounds, True)
+        m = cands[degree - dmin]
+        rinv = dec.r_inv[:m.p, :m.p]
+        coef_b = rinv @ dec.effects[:m.p]
     p = m.p
     selection = Selection(method, degree, reason, float(model.alpha),
                           tuple(candidate_row(c) for c in cands))
-    rinv = dec.r_inv[:p, :p]
-    coef_b = rinv @ dec.effects[:p]
     sigma2 = 0.0 if m.exact else (m.rss / m.df_residual if m.df_residual > 0 else NAN)
     raw, cov, lost = design.raw_coefficients(dec.shift, dec.scale, degree, intercept, coef_b,
                                        (rinv @ rinv.T) * np.longdouble(sigma2))
@@ -163,10 +164,7 @@ def _fit(x, y, weights, model: ModelSpec, options: FitOptions) -> FitReport:
         m.predicted_r_squared, cond)
     diagnostics = None
     if "diagnostics" in options.include:
-        k = degree - dmin
-        oh = one_h[k] if one_h is not None else np.subtract(1, lev[k])
-        diagnostics = diagnose(data.index, data.x, dec, degree, lev[k], resid[k], oh,
-                               m.rss, m.exact, distinct)
+        diagnostics = diagnose(data.index, data.x, dec, degree, m.rss, m.exact, distinct)
     grid = None
     if "grid" in options.include and options.grid is not None:
         gx = grid_points(options.grid, xmin, xmax, options.max_grid_points)
@@ -175,6 +173,41 @@ def _fit(x, y, weights, model: ModelSpec, options: FitOptions) -> FitReport:
                         grid=grid)
     return FitReport(fitted, data.n_input, data.dropped, coefficients, anova, statistics,
                      selection, diagnostics, grid, flags, tuple(notices))
+
+
+def _select(u, z, w, degrees, model: ModelSpec, selects: bool, sum_log_w: float, field: str,
+            bounds, extended: bool):
+    """Factor the design, measure every candidate and choose the degree."""
+    dec = decompose(u, z, w, degrees, model.intercept, field, bounds, extended)
+    cands = candidate_measures(dec, degrees, sum_log_w)
+    if selects:
+        degree, reason = choose(model.select, cands, model.alpha)
+        return dec, cands, degree, reason, model.select
+    dmin = degrees[0]
+    return dec, cands, dmin, f"Degree {dmin} was fixed by the caller.", "fixed"
+
+
+def _float64_enough(dec, m, coef_b, rinv, degree) -> bool:
+    """True when a float64 factorization keeps the reported numbers to :data:`FLOAT64_TOL`.
+
+    Estimated relative errors (each a few float64 ulps times an amplification):
+    the residual SS loses ``||zw|| / ||e||`` (R² near 1), the basis coefficients
+    the condition number of R (bounded by ``||R||_F ||R^-1||_F``), and the raw
+    coefficients and their variances what the conversion to raw powers
+    amplifies (``design.conversion_gain``). An exact fit, a fit without
+    residual df and an already extended factorization answer False / True.
+    """
+    if dec.extended:
+        return True
+    if m.exact or m.df_residual <= 0 or not m.rss > 0:
+        return False
+    if EPS * math.sqrt(dec.sum_zw2 / m.rss) > FLOAT64_TOL:
+        return False
+    r = dec.r[:m.p, :m.p]
+    cond = math.sqrt(float(np.einsum("ij,ij->", r, r)) * float(np.einsum("ij,ij->", rinv, rinv)))
+    gain = design.conversion_gain(dec.shift, dec.scale, degree, dec.intercept, coef_b,
+                                  rinv @ rinv.T)
+    return EPS * cond * gain <= FLOAT64_TOL
 
 
 def _after(transform: str) -> str:

@@ -10,11 +10,16 @@ columns, so two small kernels cover every case:
   to :data:`EXTENDED_MAX_ROWS` points: the conversion of coefficients back
   to raw powers of x cancels heavily (NIST StRD Filip and Wampler1 lose 5-7
   digits there), so the basis coefficients must carry extra digits.
-* :func:`cholesky_qr2` — float64 CholeskyQR2 (Fukaya et al., 2014) for
-  longer series: two Gram/Cholesky passes give an orthonormal Q to working
-  precision while the scaled basis is well conditioned (condition < 1e7),
-  which the [-1, 1] mapping ensures for any sensible x; worse designs fall
-  back to :func:`householder`.
+* :func:`cholesky_factor` — the Cholesky step of float64 CholeskyQR2
+  (Fukaya et al., 2014) for longer series: two Gram/Cholesky passes
+  (``kernels_qr.gram``) give an orthonormal Q to working precision while the
+  scaled basis is well conditioned (condition < 1e7), which the [-1, 1]
+  mapping ensures for any sensible x; worse designs fall back to a float64
+  Householder QR.
+
+Short series are factored in float64 first (``kernels_qr.householder``);
+the fit repeats the factorization with :func:`householder` in longdouble
+when the float64 answer could lose digits.
 """
 
 from __future__ import annotations
@@ -31,7 +36,7 @@ except ImportError:  # pragma: no cover - other numpy layout
 EXTENDED = np.longdouble
 # False where longdouble is plain float64 (e.g. some ARM and Windows builds): ~3 digits fewer
 EXTENDED_IS_WIDER = bool(np.finfo(EXTENDED).eps < np.finfo(float).eps)
-EXTENDED_MAX_ROWS = 5_000  # above this, float64 CholeskyQR2 (speed); see module docstring
+EXTENDED_MAX_ROWS = 5_000  # above this, float64 CholeskyQR2 only (speed); see module docstring
 CHOLQR_MAX_COND = 1e7
 ONE_PASS_COND = 1e2  # eps * cond^2 ~ 2e-12
 
@@ -93,47 +98,9 @@ def _upper(p: int) -> np.ndarray:
     return mask
 
 
-def cholesky_qr2(v: np.ndarray, tol: float = 1e-13) -> tuple[np.ndarray, np.ndarray] | None:
-    """float64 CholeskyQR2 of the design rows ``v`` (p x n).
-
-    Returns ``(r, q)`` with ``q`` (p x n) orthonormal rows, or None when the
-    design is too ill-conditioned for it (the caller falls back to Householder).
-    ``v`` is overwritten (it becomes the first pass's Q).
-    The second pass is skipped when the first R is so well conditioned
-    (condition < :data:`ONE_PASS_COND`) that ``Q'Q`` is already the identity
-    to ~1e-12.
-    """
-    r1 = _chol(gram(v), tol)
-    if r1 is None:
-        return None
-    d = np.abs(np.diag(r1))
-    if d.min() * CHOLQR_MAX_COND < d.max():
-        return None
-    q1 = _forward(r1, v, out=v)
-    if np.linalg.cond(r1) < ONE_PASS_COND:
-        return r1, q1
-    r2 = _chol(gram(q1), tol)
-    if r2 is None:
-        return None
-    return r2 @ r1, _forward(r2, q1, out=q1)
-
-
-def gram(v: np.ndarray) -> np.ndarray:
-    """``v v'`` of a short, wide matrix from row dot products.
-
-    Long-vector work in this module avoids BLAS: OpenBLAS handles the long
-    inner dimension poorly and its threads stall badly on a busy machine,
-    while einsum runs single-threaded SIMD loops.
-    """
-    p = v.shape[0]
-    g = np.empty((p, p))
-    for i in range(p):
-        for j in range(i + 1):
-            g[i, j] = g[j, i] = np.einsum("i,i->", v[i], v[j])
-    return g
-
-
-def _chol(g: np.ndarray, tol: float) -> np.ndarray | None:
+def cholesky_factor(g: np.ndarray, tol: float) -> np.ndarray | None:
+    """Upper-triangular ``r`` with ``r'r = g`` (a small Gram matrix), or None when ``g`` is
+    not numerically positive definite (a diagonal of ``r`` below ``tol sqrt(g_jj)``)."""
     try:
         r = np.linalg.cholesky(g).T
     except np.linalg.LinAlgError:
@@ -143,44 +110,12 @@ def _chol(g: np.ndarray, tol: float) -> np.ndarray | None:
     return r
 
 
-def _forward(r: np.ndarray, v: np.ndarray, out: np.ndarray | None = None) -> np.ndarray:
-    """Solve ``r' q = v`` for q (rows), r upper triangular: q = r^-T v.
-
-    ``out`` may be ``v`` itself (row j of q needs only row j of v and earlier
-    rows of q); a long series page-faults on every fresh array.
-    """
-    q = np.empty_like(v) if out is None else out
-    tmp = np.empty_like(v[0]) if r.shape[0] > 1 else None
-    for j in range(r.shape[0]):
-        acc = q[j]
-        if out is not v:
-            acc[...] = v[j]
-        for k in range(j):
-            np.multiply(q[k], r[k, j], out=tmp)
-            acc -= tmp
-        acc /= r[j, j]
-    return q
-
-
 SHORT = 4096  # vectors up to this length use BLAS (lower call overhead); longer ones einsum
 
 
 def dot(a: np.ndarray, b: np.ndarray) -> float:
     """Dot product of two 1-D float arrays: BLAS when short, einsum (no threads) when long."""
     return float(a @ b) if a.size <= SHORT else float(np.einsum("i,i->", a, b))
-
-
-def rows_times_upper(u: np.ndarray, v: np.ndarray) -> np.ndarray:
-    """``u' v`` for upper-triangular ``u`` (p x p) and rows ``v`` (p x n); BLAS only when short."""
-    if v.shape[1] <= 1024:
-        return u.T @ v
-    out = np.empty_like(v)
-    for j in range(u.shape[0]):
-        acc = u[0, j] * v[0]
-        for k in range(1, j + 1):
-            acc += u[k, j] * v[k]
-        out[j] = acc
-    return out
 
 
 def triangular_inverse(r: np.ndarray) -> np.ndarray:

@@ -21,15 +21,16 @@ from functools import lru_cache
 from math import log, pi
 from typing import NamedTuple
 
-import numpy as np
 from scipy import special
 
-from service.core.decomposition import EXACT_FIT_RTOL, Decomposition
+from service.core.decomposition import (  # noqa: F401  (LEVERAGE_ONE: re-exported)
+    EXACT_FIT_RTOL,
+    LEVERAGE_ONE,
+    Decomposition,
+)
 
 NAN = float("nan")
 LOG_2PI = log(2 * pi)
-LONG = 8192  # series longer than this are worked row by row
-LEVERAGE_ONE = 1 - 1e-10  # h_i above this: the leave-one-out residual is undefined
 
 
 @lru_cache(maxsize=4096)
@@ -72,35 +73,19 @@ class Measures(NamedTuple):
     exact: bool
 
 
-def candidate_measures(dec: Decomposition, degrees: list[int], sum_log_w: float,
-                       leverage: np.ndarray, resid: np.ndarray,
-                       one_minus_h: np.ndarray | None) -> list[Measures]:
-    """Whole-fit numbers of every candidate degree.
+def candidate_measures(dec: Decomposition, degrees: list[int], sum_log_w: float
+                       ) -> list[Measures]:
+    """Whole-fit numbers of every candidate degree (``degrees`` ascending, as decomposed).
 
-    ``leverage``, ``resid`` and ``one_minus_h`` are the candidates' hat
-    diagonals, weighted residuals and ``1 - h`` (``len(degrees) x n``, see
-    ``Decomposition.cumulative``); ``one_minus_h`` may be None (computed row by row).
+    PRESS comes from the decomposition's candidate pass (``dec.press``).
     Sums of squares of effects are sums of positive terms, so float64 keeps
     them to full precision; the per-candidate arithmetic runs on Python
     floats (at most 13 candidates, cheaper than numpy calls).
     """
     n = dec.t.size
     c = 1 if dec.intercept else 0
-    # runs inside fit_series' errstate (floating-point exceptions ignored)
-    if one_minus_h is None or resid.shape[1] > LONG:
-        # one row at a time (a long series page-faults on every fresh array)
-        loo = np.empty(resid.shape[1])
-        press_all = np.empty(resid.shape[0])
-        for i, (r_i, h_i) in enumerate(zip(resid, leverage, strict=True)):
-            np.subtract(1, h_i, out=loo)
-            np.divide(r_i, loo, out=loo)
-            press_all[i] = np.einsum("i,i->", loo, loo)
-    else:
-        loo = np.divide(resid, one_minus_h)
-        press_all = np.einsum("ij,ij->i", loo, loo)
-    press_all[np.fmax.reduce(leverage, axis=1) >= LEVERAGE_ONE] = NAN
-    press_all = press_all.tolist()
-    e2 = (dec.effects.astype(float) ** 2).tolist()
+    press_all = dec.press
+    e2 = (dec.effects64 ** 2).tolist()
     big = len(e2)
     tails = [0.0] * (big + 1)  # tails[p] = sum of e2[p:], summed from the small end
     for j in range(big - 1, -1, -1):

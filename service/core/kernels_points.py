@@ -1,0 +1,202 @@
+"""Compiled per-point loops of one fit: candidate sums, residual forms and influence, test sums.
+
+Every loop regenerates the design row of a point from ``t`` (and ``sqrt_w``)
+instead of reading a stored design, and works in chunks of :data:`CHUNK`
+points so the inner loops run over contiguous scratch rows (SIMD) and no
+array of the series' length is created except the outputs. The orthonormal
+basis value of point i is ``q_i = R^-T v(t_i)``, formed as
+``q_j = sum_{k<=j} Rinv[k, j] v_k`` with ``Rinv`` the (float64) inverse of
+the R factor; leverage and fitted values are running sums over ``j`` in
+entry order (``h = q_0² + q_1² + ...``, ``f = e_0 q_0 + e_1 q_1 + ...``).
+
+Sums over points use reassociated (vectorized) additions: they agree with
+a sequential sum to rounding (a few ulps of the sum of the magnitudes).
+"""
+
+from __future__ import annotations
+
+import numba
+import numpy as np
+
+CHUNK = 256
+_SUM = {"reassoc", "nsz"}  # vectorized sums only; no assumption about NaN or infinity
+# error_model="numpy": x / 0 gives inf or NaN as in numpy (the callers ignore FP exceptions)
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy", fastmath=_SUM)
+def design_rows(t, sw, s0, m, first, p, v):
+    """Rows ``v[k, :m]`` of points ``s0 .. s0+m``: ``sw * t^(k + first)`` (``sw`` empty: 1)."""
+    for i in range(m):
+        base = 1.0 if sw.size == 0 else sw[s0 + i]
+        v[0, i] = base * t[s0 + i] if first else base
+    for k in range(1, p):
+        for i in range(m):
+            v[k, i] = v[k - 1, i] * t[s0 + i]
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy", fastmath=_SUM)
+def _basis_row(rinv, v, j, m, qj):
+    """``qj[:m] = sum_{k<=j} rinv[k, j] v[k, :m]`` (row j of ``R^-T v``)."""
+    c = rinv[0, j]
+    for i in range(m):
+        qj[i] = c * v[0, i]
+    for k in range(1, j + 1):
+        c = rinv[k, j]
+        for i in range(m):
+            qj[i] += c * v[k, i]
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy", fastmath=_SUM)
+def candidate_sums(t, sw, zw, first, rinv, effects, ps, leverage_one):
+    """PRESS and the largest leverage of each candidate, and the largest model's RSS.
+
+    Parameters
+    ----------
+    t, sw, zw : ndarray
+        Scaled x, square-root weights (empty when unweighted), weighted response.
+    first : int
+        Exponent of the first column (0 with an intercept, else 1).
+    rinv, effects : ndarray
+        ``R^-1`` (P x P, float64) and ``Q'zw`` (P,) of the largest model.
+    ps : ndarray of int64
+        Numbers of coefficients of the candidates, ascending.
+    leverage_one : float
+        PRESS is NaN for a candidate with a leverage at or above this.
+
+    Returns
+    -------
+    press, max_leverage : ndarray (len(ps),)
+    rss : float
+        Sum of squared residuals of the P-coefficient model.
+    """
+    n, big = t.size, rinv.shape[0]
+    v = np.empty((big, CHUNK))
+    q = np.empty(CHUNK)
+    h = np.empty(CHUNK)
+    f = np.empty(CHUNK)
+    press = np.zeros(ps.size)
+    hmax = np.zeros(ps.size)
+    rss = 0.0
+    for s0 in range(0, n, CHUNK):
+        m = min(CHUNK, n - s0)
+        design_rows(t, sw, s0, m, first, big, v)
+        h[:m] = 0.0
+        f[:m] = 0.0
+        c = 0
+        for j in range(big):
+            _basis_row(rinv, v, j, m, q)
+            ej = effects[j]
+            for i in range(m):
+                h[i] += q[i] * q[i]
+                f[i] += ej * q[i]
+            if c < ps.size and ps[c] == j + 1:
+                acc, top = 0.0, hmax[c]
+                for i in range(m):
+                    loo = (zw[s0 + i] - f[i]) / (1 - h[i])
+                    acc += loo * loo
+                    top = max(top, h[i])
+                press[c] += acc
+                hmax[c] = top
+                c += 1
+        acc = 0.0
+        for i in range(m):
+            e = zw[s0 + i] - f[i]
+            acc += e * e
+        rss += acc
+    for c in range(ps.size):
+        if hmax[c] >= leverage_one:
+            press[c] = np.nan
+    return press, hmax, rss
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy", fastmath=_SUM)
+def point_measures(t, sw, zw, first, rinv, effects, p, rss, df, out):
+    """Residual forms and influence of the ``p``-coefficient fit, written into ``out``.
+
+    ``out`` (6 x n) receives, by row: weighted residual ``e``, leverage ``h``,
+    internally studentized ``e / (sigma sqrt(1-h))``, externally studentized
+    ``e / sqrt(s_(i)² (1-h))`` with ``s_(i)² = (rss - e²/(1-h)) / (df-1)``,
+    Cook's distance ``std² h / (p (1-h))`` and DFFITS ``stud sqrt(h/(1-h))``.
+    ``df`` below 2 leaves the externally studentized row (and DFFITS) NaN.
+
+    Returns
+    -------
+    ss, ss_diff : float
+        ``sum e²`` and ``sum (e_i - e_(i-1))²`` (Durbin-Watson).
+    """
+    n = t.size
+    v = np.empty((p, CHUNK))
+    q = np.empty(CHUNK)
+    sigma = np.sqrt(rss / df) if df > 0 else np.nan
+    ss, ss_diff, prev = 0.0, 0.0, 0.0
+    e_row, h_row = out[0], out[1]
+    for s0 in range(0, n, CHUNK):
+        m = min(CHUNK, n - s0)
+        design_rows(t, sw, s0, m, first, p, v)
+        h_row[s0:s0 + m] = 0.0
+        e_row[s0:s0 + m] = 0.0
+        for j in range(p):
+            _basis_row(rinv, v, j, m, q)
+            ej = effects[j]
+            for i in range(m):
+                h_row[s0 + i] += q[i] * q[i]
+                e_row[s0 + i] += ej * q[i]
+        acc = 0.0
+        for i in range(m):
+            e = zw[s0 + i] - e_row[s0 + i]
+            e_row[s0 + i] = e
+            acc += e * e
+        ss += acc
+        for i in range(s0, s0 + m):
+            e, hi = e_row[i], h_row[i]
+            one_h = 1 - hi
+            std = e / (np.sqrt(one_h) * sigma)
+            if df > 1:
+                s_i2 = (rss - e * e / one_h) / (df - 1)
+                stud = e / np.sqrt(s_i2 * one_h)
+            else:
+                stud = np.nan
+            out[2, i] = std
+            out[3, i] = stud
+            out[4, i] = std * std * hi / (p * one_h)
+            out[5, i] = stud * np.sqrt(hi / one_h)
+            if i > 0:
+                ss_diff += (e - prev) * (e - prev)
+            prev = e
+    return ss, ss_diff
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy", fastmath=_SUM)
+def projection_sums(t, e, rinv, p):
+    """Projection of the centred squared residuals on an orthonormal basis of (1, t, .., t^d).
+
+    ``rinv`` is ``R^-1`` (p x p) of the unweighted powers ``t^0..t^(p-1)``.
+    Returns ``(proj, ss)``: ``proj_j = sum_i q_j(t_i) zc_i`` and ``ss = sum zc²``
+    with ``zc = e² - mean(e²)``.
+    """
+    n = t.size
+    total = 0.0
+    for i in range(n):
+        total += e[i] * e[i]
+    mean = total / n
+    v = np.empty((p, CHUNK))
+    q = np.empty(CHUNK)
+    zc = np.empty(CHUNK)
+    proj = np.zeros(p)
+    none = np.empty(0)
+    ss = 0.0
+    for s0 in range(0, n, CHUNK):
+        m = min(CHUNK, n - s0)
+        design_rows(t, none, s0, m, 0, p, v)
+        acc = 0.0
+        for i in range(m):
+            zc[i] = e[s0 + i] * e[s0 + i] - mean
+            acc += zc[i] * zc[i]
+        ss += acc
+        for j in range(p):
+            _basis_row(rinv, v, j, m, q)
+            acc = 0.0
+            for i in range(m):
+                acc += q[i] * zc[i]
+            proj[j] += acc
+    return proj, ss

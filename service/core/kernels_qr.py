@@ -1,0 +1,90 @@
+"""Compiled float64 factorizations of one series' design (rows regenerated from ``t``).
+
+* :func:`gram` — the Gram matrix of ``[V, zw]`` (``V`` the weighted design)
+  in one pass, or of ``[V R1^-1, zw]`` for CholeskyQR2's second pass; the
+  design is never stored.
+* :func:`householder` — Householder QR of the transposed design ``[V, zw]'``
+  column by column, as ``service.core.qr.householder`` does in extended
+  precision (the same reflections, in float64).
+"""
+
+from __future__ import annotations
+
+import numba
+import numpy as np
+
+from service.core.kernels_points import CHUNK, _basis_row, design_rows
+
+_SUM = {"reassoc", "nsz"}
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy", fastmath=_SUM)
+def gram(t, sw, zw, first, p, rinv):
+    """``A'A`` ((p+1) x (p+1)) for ``A = [V, zw]``, or ``A = [V rinv, zw]`` when
+    ``rinv`` (p x p, upper triangular) is not empty."""
+    n = t.size
+    a = np.empty((p + 1, CHUNK))
+    v = np.empty((p, CHUNK))
+    g = np.zeros((p + 1, p + 1))
+    for s0 in range(0, n, CHUNK):
+        m = min(CHUNK, n - s0)
+        if rinv.size == 0:
+            design_rows(t, sw, s0, m, first, p, a)
+        else:
+            design_rows(t, sw, s0, m, first, p, v)
+            for j in range(p):
+                _basis_row(rinv, v, j, m, a[j])
+        a[p, :m] = zw[s0:s0 + m]
+        for r in range(p + 1):
+            for c in range(r + 1):
+                acc = 0.0
+                for i in range(m):
+                    acc += a[r, i] * a[c, i]
+                g[r, c] += acc
+    for r in range(p + 1):
+        for c in range(r):
+            g[c, r] = g[r, c]
+    return g
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def householder(t, sw, zw, first, p, tol):
+    """float64 Householder QR of the design of ``p`` columns and the response.
+
+    Returns ``(r, effects, rss, column)``: ``r`` (p x p) upper triangular
+    (diagonal signs as they come), ``effects = Q'zw``, the residual sum of
+    squares, and ``column = -1`` — or the first column whose part orthogonal
+    to the earlier ones is below ``tol`` times its norm (then the rest is
+    undefined).
+    """
+    n = t.size
+    a = np.empty((p + 1, n))
+    design_rows(t, sw, 0, n, first, p, a)
+    a[p] = zw
+    r = np.zeros((p, p))
+    effects = np.zeros(p)
+    if p > n:
+        return r, effects, np.nan, n
+    norms = np.empty(p)
+    for k in range(p):
+        norms[k] = np.sqrt(np.dot(a[k], a[k]))
+    v = np.empty(n)
+    for k in range(p):
+        x0 = a[k, k]
+        normx = np.sqrt(np.dot(a[k, k:], a[k, k:]))
+        if not normx > tol * norms[k]:
+            return r, effects, np.nan, k
+        alpha = normx if x0 >= 0 else -normx
+        v[k:] = a[k, k:]
+        v[k] = x0 + alpha
+        scale = 1 / (alpha * v[k])  # 2 / (v'v), since v'v = 2 alpha (x0 + alpha)
+        for row in range(k, p + 1):
+            w = np.dot(a[row, k:], v[k:]) * scale
+            for i in range(k, n):
+                a[row, i] -= w * v[i]
+    for k in range(p):
+        for j in range(k, p):
+            r[k, j] = a[j, k]
+        effects[k] = a[p, k]
+    tail = a[p, p:]
+    return r, effects, np.dot(tail, tail), -1
