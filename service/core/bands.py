@@ -12,6 +12,9 @@ Bands, at confidence ``level`` with ``t = t_{df}(1 - (1 - level)/2)``:
 * simultaneous (Working-Hotelling) band for the whole curve:
   ``fit ± sqrt(p F_{p, df}(level)) se``.
 
+The points are evaluated in one compiled loop (``kernels_bands.curve_bands``)
+with ``R^-1`` from back substitution (inf/NaN for a singular R of a forged document).
+
 With a transformed response the fit and limits are computed on the fitting
 scale and mapped back through the inverse transform (limits swap for the
 decreasing ``reciprocal``). The back-transformed fit estimates the *median*
@@ -24,20 +27,11 @@ from __future__ import annotations
 
 import numpy as np
 
-from service.core import design, qr, transforms
+from service.core import design, kernels_bands, transforms
 from service.core.errors import DataError, SpecError
-from service.core.qr import triangular_inverse
+from service.core.kernels_qr import upper_inverse
 from service.core.results import FittedPolynomial, Prediction, frozen_array
 from service.core.summary import f_quantile, t_quantile
-
-
-def _inverse(r: np.ndarray) -> np.ndarray:
-    """R^-1 (LAPACK); back substitution when R is exactly singular (a forged document).
-
-    Call inside ``np.errstate(all="ignore")``.
-    """
-    inv = qr.inverse(r)
-    return inv if inv is not None else triangular_inverse(r)
 
 
 def _check_level(level: float) -> float:
@@ -91,28 +85,21 @@ def _predict(fitted: FittedPolynomial, x, level: float | None, m: int) -> Predic
                         fix="Predict only at finite x values.")
     u = transforms.apply(fitted.transform_x, xs, field="x")
     t = design.to_t(u, fitted.x_shift, fitted.x_scale)
-    v = design.basis_columns(t, fitted.degree, fitted.intercept)
-    fit = v @ fitted.basis_coefficients
     df = fitted.df_residual
-    sigma = fitted.sigma
-    s = v @ _inverse(fitted.r_factor)  # rows: (R^-T v(t))' for each x
-    se = sigma * np.sqrt(np.einsum("ij,ij->i", s, s))
+    p = fitted.basis_coefficients.size
     if df > 0:
         tq = t_quantile(df, 0.5 + level / 2)
-        wh = float(np.sqrt(v.shape[1] * f_quantile(v.shape[1], df, level)))
+        wh = float(np.sqrt(p * f_quantile(p, df, level)))
     else:
         tq = wh = float("nan")
-    half = np.empty((3, se.size))  # mean, new observation(s), simultaneous band
-    np.multiply(se, tq, out=half[0])
-    np.multiply(se, se, out=half[1])
-    half[1] += sigma * sigma / m
-    np.sqrt(half[1], out=half[1])
-    half[1] *= tq
-    np.multiply(se, wh, out=half[2])
+    rows = kernels_bands.curve_bands(t, 0 if fitted.intercept else 1,
+                                     np.ascontiguousarray(fitted.basis_coefficients),
+                                     upper_inverse(fitted.r_factor), fitted.sigma, tq, wh, m)
+    fit, se = rows[0], rows[1]
+    lo, hi = rows[2::2], rows[3::2]  # rows: mean, obs, band
     name = fitted.transform_y
     back = transforms.inverse
     fit_y = back(name, fit)
-    lo, hi = fit - half, fit + half  # rows: mean, obs, band
     if name != "none":
         lo, hi = back(name, lo), back(name, hi)
         if not transforms.is_increasing(name):

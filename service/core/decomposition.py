@@ -94,12 +94,14 @@ def decompose(u: np.ndarray, z: np.ndarray, w: np.ndarray | None, degrees: list[
     first = 0 if intercept else 1
     sw = _NONE if sqrt_w is None else sqrt_w
     rss = np.nan
+    r_inv = None
     try:
         if n > qr.EXTENDED_MAX_ROWS:
             got = _cholesky_qr2(t64, sw, zw, first, p)
             if got is None:  # too ill-conditioned for Gram passes: float64 Householder
-                got = _householder64(t64, sw, zw, first, p)
-            r, effects, rss = got
+                r, effects, rss, r_inv = _householder64(t64, sw, zw, first, p)
+            else:
+                r, effects, rss = got
         elif extended and qr.EXTENDED_IS_WIDER:
             t_ext = design.to_t(u, shift, scale, qr.EXTENDED)
             sw_ext = None if sqrt_w is None else sqrt_w.astype(qr.EXTENDED)
@@ -108,14 +110,15 @@ def decompose(u: np.ndarray, z: np.ndarray, w: np.ndarray | None, degrees: list[
             a[p] = zw
             r, effects, rss = qr.householder(a, p, RANK_TOL)
         else:
-            r, effects, rss = _householder64(t64, sw, zw, first, p)
+            r, effects, rss, r_inv = _householder64(t64, sw, zw, first, p)
     except qr.RankDeficient as exc:
         raise DesignError(
             f"The design for degree {max_degree} is numerically rank deficient (column "
             f"{exc.column} depends on the earlier ones): the x values are too clustered for "
             "this many powers.", field=field,
             fix=f"Use a degree below {exc.column}, or spread the x values more evenly.") from None
-    r_inv = qr.triangular_inverse(r)
+    if r_inv is None:
+        r_inv = qr.triangular_inverse(r)
     r_inv64 = np.ascontiguousarray(r_inv, dtype=float)
     effects64 = np.ascontiguousarray(effects, dtype=float)
     ps = np.array([d + (1 if intercept else 0) for d in degrees], dtype=np.int64)
@@ -130,10 +133,10 @@ def decompose(u: np.ndarray, z: np.ndarray, w: np.ndarray | None, degrees: list[
 
 
 def _householder64(t, sw, zw, first, p):
-    r, effects, rss, column = kernels_qr.householder(t, sw, zw, first, p, RANK_TOL)
+    r, r_inv, effects, rss, column = kernels_qr.householder(t, sw, zw, first, p, RANK_TOL)
     if column >= 0:
         raise qr.RankDeficient(column)
-    return r, effects, rss
+    return r, effects, rss, r_inv
 
 
 def _cholesky_qr2(t, sw, zw, first, p):

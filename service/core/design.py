@@ -148,29 +148,6 @@ def conversion_float(shift: float, scale: float, degree: int, intercept: bool
     return tm
 
 
-def conversion_gain(shift: float, scale: float, degree: int, intercept: bool,
-                    coef_basis: np.ndarray, cov_basis: np.ndarray) -> float:
-    """How much the conversion to raw powers amplifies relative errors of the basis numbers.
-
-    The largest of ``(|T| |b|)_j / |(T b)_j|`` over the coefficients and
-    ``(|T| |C| |T|')_jj / (T C T')_jj`` over their variances (``b`` =
-    ``coef_basis``, ``C`` = ``cov_basis`` up to a factor): 1 when nothing
-    cancels, large when raw values are small differences of large terms;
-    inf when a raw value is zero or the conversion leaves the double range.
-    Call inside ``np.errstate(all="ignore")``.
-    """
-    tm = conversion_float(shift, scale, degree, intercept)
-    if tm is None:
-        return float("inf")
-    b = np.asarray(coef_basis, dtype=float)
-    c = np.asarray(cov_basis, dtype=float)
-    at = np.abs(tm)
-    gain_b = (at @ np.abs(b)) / np.abs(tm @ b)
-    gain_c = np.einsum("ij,jk,ik->i", at, np.abs(c), at) / np.einsum("ij,jk,ik->i", tm, c, tm)
-    worst = max(float(gain_b.max()), float(gain_c.max()))
-    return worst if worst == worst else float("inf")  # NaN (0/0) counts as unbounded
-
-
 def raw_coefficients(shift: float, scale: float, degree: int, intercept: bool,
                      coef_basis: np.ndarray, cov_basis: np.ndarray
                      ) -> tuple[np.ndarray, np.ndarray, bool]:

@@ -5,7 +5,9 @@
   design is never stored.
 * :func:`householder` — Householder QR of the transposed design ``[V, zw]'``
   column by column, as ``service.core.qr.householder`` does in extended
-  precision (the same reflections, in float64).
+  precision (the same reflections, in float64), with ``R^-1``.
+* :func:`float64_loss` — the estimated relative error a float64 factorization
+  leaves in the basis and raw-power coefficients (the fit's precision check).
 """
 
 from __future__ import annotations
@@ -51,11 +53,11 @@ def gram(t, sw, zw, first, p, rinv):
 def householder(t, sw, zw, first, p, tol):
     """float64 Householder QR of the design of ``p`` columns and the response.
 
-    Returns ``(r, effects, rss, column)``: ``r`` (p x p) upper triangular
-    (diagonal signs as they come), ``effects = Q'zw``, the residual sum of
-    squares, and ``column = -1`` — or the first column whose part orthogonal
-    to the earlier ones is below ``tol`` times its norm (then the rest is
-    undefined).
+    Returns ``(r, r_inv, effects, rss, column)``: ``r`` (p x p) upper
+    triangular (diagonal signs as they come), its inverse, ``effects = Q'zw``,
+    the residual sum of squares, and ``column = -1`` — or the first column
+    whose part orthogonal to the earlier ones is below ``tol`` times its norm
+    (then the rest is undefined).
     """
     n = t.size
     a = np.empty((p + 1, n))
@@ -64,7 +66,7 @@ def householder(t, sw, zw, first, p, tol):
     r = np.zeros((p, p))
     effects = np.zeros(p)
     if p > n:
-        return r, effects, np.nan, n
+        return r, r, effects, np.nan, n
     norms = np.empty(p)
     for k in range(p):
         norms[k] = np.sqrt(np.dot(a[k], a[k]))
@@ -73,7 +75,7 @@ def householder(t, sw, zw, first, p, tol):
         x0 = a[k, k]
         normx = np.sqrt(np.dot(a[k, k:], a[k, k:]))
         if not normx > tol * norms[k]:
-            return r, effects, np.nan, k
+            return r, r, effects, np.nan, k
         alpha = normx if x0 >= 0 else -normx
         v[k:] = a[k, k:]
         v[k] = x0 + alpha
@@ -87,4 +89,56 @@ def householder(t, sw, zw, first, p, tol):
             r[k, j] = a[j, k]
         effects[k] = a[p, k]
     tail = a[p, p:]
-    return r, effects, np.dot(tail, tail), -1
+    return r, upper_inverse(r), effects, np.dot(tail, tail), -1
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def upper_inverse(r):
+    """Inverse of an upper-triangular matrix by back substitution, row by row
+    (the operations of ``service.core.qr.triangular_inverse``)."""
+    p = r.shape[0]
+    inv = np.zeros_like(r)
+    for i in range(p - 1, -1, -1):
+        for j in range(i, p):
+            acc = 1.0 if i == j else 0.0
+            for k in range(i + 1, j + 1):
+                acc -= r[i, k] * inv[k, j]
+            inv[i, j] = acc / r[i, i]
+    return inv
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def float64_loss(r, r_inv, coef, tm):
+    """Estimated relative error of float64 basis and raw coefficients (and variances).
+
+    ``EPS * cond * gain`` with ``cond = ||R||_F ||R^-1||_F`` (a bound on the
+    condition number of R) and ``gain`` the largest of ``(|T| |b|)_j / |(T b)_j|``
+    and ``(|T| |C| |T|')_jj / (T C T')_jj``, ``C = R^-1 R^-T``: how much the
+    conversion ``raw = T b`` amplifies relative errors of ``b`` and ``C``
+    (1 when nothing cancels; inf when a raw value or variance is zero, NaN
+    counts as inf).
+    """
+    p = r.shape[0]
+    fr = 0.0
+    fi = 0.0
+    for i in range(p):
+        for j in range(p):
+            fr += r[i, j] * r[i, j]
+            fi += r_inv[i, j] * r_inv[i, j]
+    c = r_inv @ r_inv.T
+    gain = 1.0
+    for j in range(p):
+        num = 0.0
+        den = 0.0
+        num_c = 0.0
+        den_c = 0.0
+        for k in range(p):
+            num += abs(tm[j, k] * coef[k])
+            den += tm[j, k] * coef[k]
+            for m in range(p):
+                num_c += abs(tm[j, k] * c[k, m] * tm[j, m])
+                den_c += tm[j, k] * c[k, m] * tm[j, m]
+        g = max(num / abs(den), num_c / abs(den_c))
+        if not g <= gain:  # NaN or larger
+            gain = g if g == g else np.inf
+    return np.finfo(np.float64).eps * np.sqrt(fr * fi) * gain

@@ -12,7 +12,7 @@ import math
 import numpy as np
 from scipy import special
 
-from service.core import design, qr, transforms
+from service.core import design, kernels_qr, qr, transforms
 from service.core.anova import distinct_count, sequential_table
 from service.core.bands import predict_unguarded
 from service.core.decomposition import decompose
@@ -190,12 +190,11 @@ def _select(u, z, w, degrees, model: ModelSpec, selects: bool, sum_log_w: float,
 def _float64_enough(dec, m, coef_b, rinv, degree) -> bool:
     """True when a float64 factorization keeps the reported numbers to :data:`FLOAT64_TOL`.
 
-    Estimated relative errors (each a few float64 ulps times an amplification):
-    the residual SS loses ``||zw|| / ||e||`` (R² near 1), the basis coefficients
-    the condition number of R (bounded by ``||R||_F ||R^-1||_F``), and the raw
-    coefficients and their variances what the conversion to raw powers
-    amplifies (``design.conversion_gain``). An exact fit, a fit without
-    residual df and an already extended factorization answer False / True.
+    Estimated relative errors (float64 ulps times an amplification): the
+    residual SS loses ``||zw|| / ||e||`` (R² near 1); the coefficients the
+    condition number of R times what the conversion to raw powers cancels
+    (``kernels_qr.float64_loss``). An exact fit or a fit without residual
+    df answers False; an extended factorization True.
     """
     if dec.extended:
         return True
@@ -203,11 +202,11 @@ def _float64_enough(dec, m, coef_b, rinv, degree) -> bool:
         return False
     if EPS * math.sqrt(dec.sum_zw2 / m.rss) > FLOAT64_TOL:
         return False
-    r = dec.r[:m.p, :m.p]
-    cond = math.sqrt(float(np.einsum("ij,ij->", r, r)) * float(np.einsum("ij,ij->", rinv, rinv)))
-    gain = design.conversion_gain(dec.shift, dec.scale, degree, dec.intercept, coef_b,
-                                  rinv @ rinv.T)
-    return EPS * cond * gain <= FLOAT64_TOL
+    tm = design.conversion_float(dec.shift, dec.scale, degree, dec.intercept)
+    if tm is None:
+        return False
+    r = np.ascontiguousarray(dec.r[:m.p, :m.p])
+    return kernels_qr.float64_loss(r, np.ascontiguousarray(rinv), coef_b, tm) <= FLOAT64_TOL
 
 
 def _after(transform: str) -> str:
