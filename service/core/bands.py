@@ -27,7 +27,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from service.core import design, kernels_bands, transforms
+from service.core import kernels_bands, transforms
 from service.core.errors import DataError, SpecError
 from service.core.kernels_qr import upper_inverse
 from service.core.results import FittedPolynomial, Prediction, frozen_array
@@ -84,7 +84,6 @@ def _predict(fitted: FittedPolynomial, x, level: float | None, m: int) -> Predic
         raise DataError(f"x[{i}] is not a finite number.", field=f"x[{i}]",
                         fix="Predict only at finite x values.")
     u = transforms.apply(fitted.transform_x, xs, field="x")
-    t = design.to_t(u, fitted.x_shift, fitted.x_scale)
     df = fitted.df_residual
     p = fitted.basis_coefficients.size
     if df > 0:
@@ -92,22 +91,22 @@ def _predict(fitted: FittedPolynomial, x, level: float | None, m: int) -> Predic
         wh = float(np.sqrt(p * f_quantile(p, df, level)))
     else:
         tq = wh = float("nan")
-    rows = kernels_bands.curve_bands(t, 0 if fitted.intercept else 1,
-                                     np.ascontiguousarray(fitted.basis_coefficients),
-                                     upper_inverse(fitted.r_factor), fitted.sigma, tq, wh, m)
+    rows, extrap, finite = kernels_bands.curve_bands(
+        xs, u, fitted.x_shift, fitted.x_scale, 0 if fitted.intercept else 1,
+        fitted.basis_coefficients, upper_inverse(fitted.r_factor), fitted.sigma, tq, wh, m,
+        fitted.x_min, fitted.x_max)
     fit, se = rows[0], rows[1]
     lo, hi = rows[2::2], rows[3::2]  # rows: mean, obs, band
     name = fitted.transform_y
-    back = transforms.inverse
-    fit_y = back(name, fit)
     if name != "none":
-        lo, hi = back(name, lo), back(name, hi)
+        fit = transforms.inverse(name, fit)
+        lo, hi = transforms.inverse(name, lo), transforms.inverse(name, hi)
         if not transforms.is_increasing(name):
             lo, hi = hi, lo
-    extrap = (xs < fitted.x_min) | (xs > fitted.x_max)
-    values = [fit_y, se, lo[0], hi[0], lo[1], hi[1], lo[2], hi[2]]
+        finite = bool(np.isfinite(lo).all() and np.isfinite(hi).all())
+    values = [fit, se, lo[0], hi[0], lo[1], hi[1], lo[2], hi[2]]
     # finite limits imply a finite fit and se (an infinite or NaN one spreads to the limits)
-    if not (np.isfinite(lo).all() and np.isfinite(hi).all()):
+    if not finite:
         if any(np.isinf(a).any() for a in values):  # overflow far outside the data: undefined
             values = [np.where(np.isinf(a), np.nan, a) for a in values]
     return Prediction(frozen_array(xs), *(frozen_array(a) for a in values),

@@ -33,6 +33,7 @@ from service.core.summary import f_quantile, t_quantile
 
 NAN = float("nan")
 OUTLIER_ALPHA = 0.05
+_NO_BASIS = np.empty((0, 0))
 
 
 def diagnose(index: np.ndarray, x: np.ndarray, dec: Decomposition, degree: int, rss: float,
@@ -60,9 +61,11 @@ def diagnose(index: np.ndarray, x: np.ndarray, dec: Decomposition, degree: int, 
     df = n - p
     # runs inside fit_series' errstate (floating-point exceptions ignored)
     out = np.empty((6, n))
-    ss, ss_diff = kernels_points.point_measures(dec.t, dec.weights, dec.zw, dec.first,
-                                                dec.r_inv64[:p, :p], dec.effects64, p, rss, df,
-                                                out)
+    tested = not exact and df >= 1
+    bp_rinv = _bp_basis(dec, degree) if tested and 1 <= degree < n - 1 else _NO_BASIS
+    ss, ss_diff, proj, ss_zc = kernels_points.point_measures(
+        dec.t, dec.weights, dec.zw, dec.first, dec.r_inv64[:p, :p], dec.effects64, p, rss, df,
+        bp_rinv, out)
     e, h, std, stud, cook, dffits = out
     raw = e if dec.sqrt_w is None else e / dec.sqrt_w
     bonf = t_quantile(df - 1, 1 - OUTLIER_ALPHA / (2 * n)) if df > 1 else NAN
@@ -70,7 +73,7 @@ def diagnose(index: np.ndarray, x: np.ndarray, dec: Decomposition, degree: int, 
     lev_cut = 2 * p / n
     if exact or df < 1:
         out[2:] = NAN
-    tests = _tests(e, ss, ss_diff, dec, degree, exact, df)
+    tests = _tests(e, ss, ss_diff, proj, ss_zc, degree, exact, df)
     lof = lack_of_fit(x, dec.zw, dec.sqrt_w, rss, p, distinct)
     outliers = tuple(index[(stud > bonf) | (stud < -bonf)].tolist())  # |stud| > bonf
     high = tuple(index[h > lev_cut].tolist()) if n > p else ()
@@ -83,35 +86,37 @@ def diagnose(index: np.ndarray, x: np.ndarray, dec: Decomposition, degree: int, 
                        frozen_array(dffits), tests, lof, outliers, high, infl, thresholds)
 
 
-def _tests(e: np.ndarray, ss: float, ss_diff: float, dec: Decomposition, degree: int,
-           exact: bool, df: int) -> tuple[TestResult, ...]:
+def _tests(e: np.ndarray, ss: float, ss_diff: float, proj: np.ndarray, ss_zc: float,
+           degree: int, exact: bool, df: int) -> tuple[TestResult, ...]:
     if exact or df < 1:
         why = "exact fit: residuals are rounding noise" if exact else "no residual df"
         return tuple(TestResult(name, NAN, NAN, None, f"not computed ({why})")
                      for name in ("shapiro_wilk", "breusch_pagan", "durbin_watson"))
     dw = ss_diff / ss if ss > 0 else NAN
-    return (shapiro_wilk(e), _breusch_pagan(e, dec, degree),
+    return (shapiro_wilk(e), _breusch_pagan(e.size, degree, proj, ss_zc),
             TestResult("durbin_watson", dw, NAN, None,
                        "serial correlation in the given order: ~2 none, <2 positive, >2 negative"))
 
 
-def _breusch_pagan(e: np.ndarray, dec: Decomposition, degree: int) -> TestResult:
+def _bp_basis(dec: Decomposition, degree: int) -> np.ndarray:
+    """``R^-1`` of the unweighted powers ``1, t, ..., t^degree``: the fit's own when it is
+    unweighted with an intercept, else from a fresh QR."""
+    if dec.sqrt_w is None and dec.intercept:
+        return dec.r_inv64[:degree + 1, :degree + 1]
+    r = np.linalg.qr(np.vander(dec.t, degree + 1, increasing=True), mode="r")
+    return np.ascontiguousarray(triangular_inverse(r))
+
+
+def _breusch_pagan(n: int, degree: int, proj: np.ndarray, ss: float) -> TestResult:
     """Koenker's studentized form: LM = n R² of e² on (1, t, ..., t^d), chi² on d df.
 
     The R² is ``||Q'zc||² / ||zc||²`` for the centred squared residuals ``zc``
-    and an orthonormal basis ``Q`` of the unweighted powers of ``t``: the fit's
-    own when it is unweighted with an intercept, else one from a fresh QR.
+    and an orthonormal basis ``Q`` of the unweighted powers of ``t``
+    (``proj = Q'zc`` and ``ss = ||zc||²`` come from the per-point pass).
     """
-    n = e.size
     if degree < 1 or n <= degree + 1:
         return TestResult("breusch_pagan", NAN, NAN, None,
                           "needs at least one power of x and more points than coefficients")
-    if dec.sqrt_w is None and dec.intercept:
-        rinv = dec.r_inv64[:degree + 1, :degree + 1]
-    else:
-        r = np.linalg.qr(np.vander(dec.t, degree + 1, increasing=True), mode="r")
-        rinv = np.ascontiguousarray(triangular_inverse(r))
-    proj, ss = kernels_points.projection_sums(dec.t, e, rinv, degree + 1)
     if not ss > 0:
         return TestResult("breusch_pagan", NAN, NAN, (float(degree),),
                           "not computed: squared residuals are constant")

@@ -13,13 +13,15 @@ import numpy as np
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
-def curve_bands(t, first, coef, r_inv, sigma, tq, wh, m):
-    """Rows: fit, se, mean lower/upper, observation lower/upper, band lower/upper (8 x k).
+def curve_bands(x, u, shift, scale, first, coef, r_inv, sigma, tq, wh, m, lo, hi):
+    """Fit, se and the band limits at ``u``, which points extrapolate, and whether all is finite.
 
     Parameters
     ----------
-    t : ndarray
-        Scaled x of the points.
+    x, u : ndarray
+        x of the points, and after the x transform; ``t = (u - shift) / scale``.
+    shift, scale : float
+        The fit's x scaling.
     first : int
         Exponent of the first column (0 with an intercept, else 1).
     coef, r_inv : ndarray
@@ -28,13 +30,27 @@ def curve_bands(t, first, coef, r_inv, sigma, tq, wh, m):
         Residual SD, t critical value and Working-Hotelling factor.
     m : int
         Number of future observations averaged by the observation band.
+    lo, hi : float
+        The fitted data range of ``x``; points outside it extrapolate.
+
+    Returns
+    -------
+    rows : ndarray (8, k)
+        fit, se, mean lower/upper, observation lower/upper, band lower/upper.
+    outside : ndarray of bool (k,)
+        ``x < lo`` or ``x > hi``.
+    finite : bool
+        True when every limit is finite.
     """
-    k, p = t.size, coef.size
+    k, p = u.size, coef.size
     out = np.empty((8, k))
+    outside = np.empty(k, dtype=np.bool_)
     v = np.empty(p)
     extra = sigma * sigma / m
+    finite = True
     for i in range(k):
-        ti = t[i]
+        outside[i] = x[i] < lo or x[i] > hi
+        ti = (u[i] - shift) / scale
         v[0] = ti if first else 1.0
         for j in range(1, p):
             v[j] = v[j - 1] * ti
@@ -53,4 +69,5 @@ def curve_bands(t, first, coef, r_inv, sigma, tq, wh, m):
         for b in range(3):
             out[2 + 2 * b, i] = fit - half[b]
             out[3 + 2 * b, i] = fit + half[b]
-    return out
+            finite = finite and np.isfinite(out[2 + 2 * b, i]) and np.isfinite(out[3 + 2 * b, i])
+    return out, outside, finite

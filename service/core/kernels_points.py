@@ -110,7 +110,7 @@ def candidate_sums(t, sw, zw, first, rinv, effects, ps, leverage_one):
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy", fastmath=_SUM)
-def point_measures(t, sw, zw, first, rinv, effects, p, rss, df, out):
+def point_measures(t, sw, zw, first, rinv, effects, p, rss, df, bp_rinv, out):
     """Residual forms and influence of the ``p``-coefficient fit, written into ``out``.
 
     ``out`` (6 x n) receives, by row: weighted residual ``e``, leverage ``h``,
@@ -119,10 +119,18 @@ def point_measures(t, sw, zw, first, rinv, effects, p, rss, df, out):
     Cook's distance ``std² h / (p (1-h))`` and DFFITS ``stud sqrt(h/(1-h))``.
     ``df`` below 2 leaves the externally studentized row (and DFFITS) NaN.
 
+    ``bp_rinv`` is ``R^-1`` (d x d) of the unweighted powers ``t^0..t^(d-1)``
+    (Breusch-Pagan), or empty to skip that projection.
+
     Returns
     -------
     ss, ss_diff : float
         ``sum e²`` and ``sum (e_i - e_(i-1))²`` (Durbin-Watson).
+    proj : ndarray (d,)
+        ``sum_i q_j(t_i) zc_i`` for the centred squared residuals
+        ``zc = e² - mean(e²)`` and the orthonormal basis ``q = R^-T v(t)`` of ``bp_rinv``.
+    ss_zc : float
+        ``sum zc²``.
     """
     n = t.size
     v = np.empty((p, CHUNK))
@@ -163,37 +171,31 @@ def point_measures(t, sw, zw, first, rinv, effects, p, rss, df, out):
             if i > 0:
                 ss_diff += (e - prev) * (e - prev)
             prev = e
-    return ss, ss_diff
+    proj, ss_zc = _projection(t, e_row, bp_rinv, ss / n)
+    return ss, ss_diff, proj, ss_zc
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy", fastmath=_SUM)
-def projection_sums(t, e, rinv, p):
-    """Projection of the centred squared residuals on an orthonormal basis of (1, t, .., t^d).
-
-    ``rinv`` is ``R^-1`` (p x p) of the unweighted powers ``t^0..t^(p-1)``.
-    Returns ``(proj, ss)``: ``proj_j = sum_i q_j(t_i) zc_i`` and ``ss = sum zc²``
-    with ``zc = e² - mean(e²)``.
-    """
-    n = t.size
-    total = 0.0
-    for i in range(n):
-        total += e[i] * e[i]
-    mean = total / n
-    v = np.empty((p, CHUNK))
+def _projection(t, e, rinv, mean):
+    """``(Q'zc, ||zc||²)`` for ``zc = e² - mean`` and ``Q = V R^-1`` of the unweighted powers."""
+    n, d = t.size, rinv.shape[0]
+    proj = np.zeros(d)
+    if d == 0:
+        return proj, np.nan
+    v = np.empty((d, CHUNK))
     q = np.empty(CHUNK)
     zc = np.empty(CHUNK)
-    proj = np.zeros(p)
     none = np.empty(0)
     ss = 0.0
     for s0 in range(0, n, CHUNK):
         m = min(CHUNK, n - s0)
-        design_rows(t, none, s0, m, 0, p, v)
+        design_rows(t, none, s0, m, 0, d, v)
         acc = 0.0
         for i in range(m):
             zc[i] = e[s0 + i] * e[s0 + i] - mean
             acc += zc[i] * zc[i]
         ss += acc
-        for j in range(p):
+        for j in range(d):
             _basis_row(rinv, v, j, m, q)
             acc = 0.0
             for i in range(m):

@@ -142,3 +142,27 @@ def float64_loss(r, r_inv, coef, tm):
         if not g <= gain:  # NaN or larger
             gain = g if g == g else np.inf
     return np.finfo(np.float64).eps * np.sqrt(fr * fi) * gain
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def conditions(r, tm):
+    """2-norm condition numbers of the scaled-basis R and of the raw-power design.
+
+    The raw one is taken with unit-norm columns (the usual scaled condition
+    number): ``R T^-1`` is the R factor of the raw design. It is inf when
+    ``T`` is empty (conversion out of the double range) or ``R T^-1`` is not
+    finite. A zero smallest singular value gives inf.
+    """
+    sv = np.linalg.svd(r)[1]
+    basis = sv[0] / sv[-1] if sv[-1] > 0 else np.inf
+    if tm.size == 0:
+        return basis, np.inf
+    rr = np.linalg.solve(tm.T, r.T).T  # (R T^-1)
+    p = rr.shape[1]
+    for j in range(p):
+        norm = np.sqrt(np.sum(rr[:, j] * rr[:, j]))
+        rr[:, j] /= norm
+    if not np.all(np.isfinite(rr)):
+        return basis, np.inf
+    sr = np.linalg.svd(rr)[1]
+    return basis, sr[0] / sr[-1] if sr[-1] > 0 else np.inf

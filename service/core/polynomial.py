@@ -41,6 +41,7 @@ EPS = float(np.finfo(float).eps)
 FLOAT64_TOL = 1e-12  # estimated relative error above which the fit repeats in longdouble
 
 
+_NO_T = np.empty((0, 0))
 _DEFAULT_MODEL = ModelSpec()
 _DEFAULT_OPTIONS = FitOptions()
 
@@ -246,23 +247,11 @@ def _coefficient_table(terms, raw, cov, df, level) -> tuple[Coefficient, ...]:
 
 
 def _conditions(r, shift, scale, degree, intercept) -> tuple[float, float]:
-    """Condition numbers of the scaled-basis design and of the raw-power design.
-
-    The raw one is taken with unit-norm columns (the usual scaled condition
-    number): ``R T^-1`` is the R factor of the raw design.
-    """
-    # runs inside fit_series' errstate (floating-point exceptions ignored)
+    """Condition numbers of the scaled-basis design and of the raw-power design
+    (``kernels_qr.conditions``); NaN when the SVD does not converge."""
     tm = design.conversion_float(shift, scale, degree, intercept)
-    rr = None if tm is None else qr.solve(tm.T, r.T)  # (R T^-1)'; None when singular
-    if rr is not None:
-        rr = rr.T
-        rr /= np.sqrt((rr * rr).sum(axis=0))
-        if not np.isfinite(rr).all():
-            rr = None
-    if rr is None:  # (x range)**degree leaves the double range, or R T^-1 is singular
-        sv = qr.singular_values(r)
-        return float(sv[0] / sv[-1]) if sv[-1] > 0 else math.inf, math.inf
-    both = qr.singular_values(np.stack((r, rr)))  # one call; each matrix on its own
-    sv, sr = both[0], both[1]
-    basis = float(sv[0] / sv[-1]) if sv[-1] > 0 else math.inf
-    return basis, float(sr[0] / sr[-1]) if sr[-1] > 0 else math.inf
+    try:
+        basis, raw = kernels_qr.conditions(r, _NO_T if tm is None else tm)
+    except np.linalg.LinAlgError:  # pragma: no cover - SVD of a finite small matrix
+        return NAN, NAN
+    return float(basis), float(raw)
