@@ -153,14 +153,14 @@ def raw_coefficients(shift: float, scale: float, degree: int, intercept: bool,
                      ) -> tuple[np.ndarray, np.ndarray, bool]:
     """Coefficients and covariance on powers of ``u`` (extended precision in, float64 out).
 
+    ``raw = T b`` and ``cov = T C T'``, formed together as ``T [b, C T']``.
     Returns ``(raw, cov, lost)``: entries whose magnitude does not fit a
     normal float64 (over- or underflow when (range of u)**degree leaves the
     double range) are NaN, and ``lost`` says whether that happened.
     """
     tm = conversion(shift, scale, degree, intercept)
-    raw, lost_raw = _to_double(tm @ coef_basis)
-    cov, lost_cov = _to_double(tm @ cov_basis @ tm.T)
-    return raw, cov, lost_raw or lost_cov
+    both, lost = _to_double(tm @ np.concatenate((coef_basis[:, None], cov_basis @ tm.T), axis=1))
+    return both[:, 0].copy(), both[:, 1:].copy(), lost
 
 
 _DOUBLE_MAX = float(np.finfo(float).max)

@@ -12,6 +12,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from service.core.errors import DataError, SpecError
+from service.core.kernels_inputs import pair_summary
 from service.core.spec import (
     HARD_MAX_DEGREE,
     MISSING_POLICIES,
@@ -27,7 +28,11 @@ DEFAULT_MAX_DEGREE = 3  # candidates when neither degree nor max_degree is given
 
 @dataclass(frozen=True, slots=True)
 class CleanData:
-    """Finite, validated arrays of the points used, with their original positions."""
+    """Finite, validated arrays of the points used, with their original positions.
+
+    ``x_bounds``/``y_bounds`` (min, max) and ``distinct`` (number of distinct
+    x) are filled when nothing was dropped and x is sorted ascending, else None.
+    """
 
     x: np.ndarray
     y: np.ndarray
@@ -35,6 +40,9 @@ class CleanData:
     index: np.ndarray
     n_input: int
     dropped: tuple[int, ...]
+    x_bounds: tuple[float, float] | None = None
+    y_bounds: tuple[float, float] | None = None
+    distinct: int | None = None
 
 
 def _as_vector(values, name: str) -> np.ndarray:
@@ -72,13 +80,12 @@ def clean_data(x, y, weights, missing: str) -> CleanData:
         raise DataError("No data points were given.", field="x",
                         fix="Send at least as many points as the model has coefficients.")
     arrays = [("x", xa), ("y", ya)] + ([("weights", wa)] if wa is not None else [])
-    total = float(np.add.reduce(xa)) + float(np.add.reduce(ya))
-    if wa is not None:
-        total += float(np.add.reduce(wa))
-    if math.isfinite(total):  # no inf and no NaN anywhere (either would make the sum non-finite)
+    finite, x_lo, x_hi, y_lo, y_hi, distinct = pair_summary(xa, ya)
+    if finite and (wa is None or math.isfinite(float(np.add.reduce(wa)))):
         if wa is not None and not np.all(wa > 0):
             _bad_weight(wa, np.arange(n), weights)
-        return CleanData(xa, ya, wa, np.arange(n), n, ())
+        return CleanData(xa, ya, wa, np.arange(n), n, (), (float(x_lo), float(x_hi)),
+                         (float(y_lo), float(y_hi)), distinct if distinct > 0 else None)
     for name, arr in arrays:
         bad = np.isinf(arr)
         if bad.any():
@@ -128,11 +135,12 @@ def magnitude_limit(n: int) -> float:
     return math.sqrt(_DOUBLE_MAX / (64.0 * max(n, 1)))  # IEEE sqrt, as np.sqrt
 
 
-def check_magnitude(values: np.ndarray, field: str, index: np.ndarray, what: str
-                    ) -> tuple[float, float] | None:
+def check_magnitude(values: np.ndarray, field: str, index: np.ndarray, what: str,
+                    bounds: tuple[float, float] | None = None) -> tuple[float, float] | None:
     """Refuse values whose squares would overflow or underflow float64 sums of squares.
 
-    Returns ``(min, max)`` of the values (None when empty), for callers that need them.
+    Returns ``(min, max)`` of the values (None when empty), for callers that
+    need them; ``bounds`` gives them when the caller already has them.
 
     Raises
     ------
@@ -141,7 +149,7 @@ def check_magnitude(values: np.ndarray, field: str, index: np.ndarray, what: str
     """
     if values.size == 0:
         return None
-    lo, hi = float(values.min()), float(values.max())
+    lo, hi = (float(values.min()), float(values.max())) if bounds is None else bounds
     top = max(hi, -lo)
     limit = magnitude_limit(values.size)
     if limit >= top >= TINY_LIMIT:

@@ -136,41 +136,42 @@ def point_measures(t, sw, zw, first, rinv, effects, p, rss, df, bp_rinv, out):
     v = np.empty((p, CHUNK))
     q = np.empty(CHUNK)
     sigma = np.sqrt(rss / df) if df > 0 else np.nan
-    ss, ss_diff, prev = 0.0, 0.0, 0.0
+    ss = 0.0
     e_row, h_row = out[0], out[1]
     for s0 in range(0, n, CHUNK):
         m = min(CHUNK, n - s0)
         design_rows(t, sw, s0, m, first, p, v)
-        h_row[s0:s0 + m] = 0.0
-        e_row[s0:s0 + m] = 0.0
+        h = h_row[s0:s0 + m]
+        e = e_row[s0:s0 + m]
+        h[:] = 0.0
+        e[:] = 0.0
         for j in range(p):
             _basis_row(rinv, v, j, m, q)
             ej = effects[j]
             for i in range(m):
-                h_row[s0 + i] += q[i] * q[i]
-                e_row[s0 + i] += ej * q[i]
+                h[i] += q[i] * q[i]
+                e[i] += ej * q[i]
         acc = 0.0
         for i in range(m):
-            e = zw[s0 + i] - e_row[s0 + i]
-            e_row[s0 + i] = e
-            acc += e * e
+            e[i] = zw[s0 + i] - e[i]
+            acc += e[i] * e[i]
         ss += acc
-        for i in range(s0, s0 + m):
-            e, hi = e_row[i], h_row[i]
-            one_h = 1 - hi
-            std = e / (np.sqrt(one_h) * sigma)
-            if df > 1:
-                s_i2 = (rss - e * e / one_h) / (df - 1)
-                stud = e / np.sqrt(s_i2 * one_h)
-            else:
-                stud = np.nan
-            out[2, i] = std
-            out[3, i] = stud
-            out[4, i] = std * std * hi / (p * one_h)
-            out[5, i] = stud * np.sqrt(hi / one_h)
-            if i > 0:
-                ss_diff += (e - prev) * (e - prev)
-            prev = e
+        std, stud = out[2, s0:s0 + m], out[3, s0:s0 + m]
+        cook, dffits = out[4, s0:s0 + m], out[5, s0:s0 + m]
+        for i in range(m):
+            std[i] = e[i] / (np.sqrt(1 - h[i]) * sigma)
+            cook[i] = std[i] * std[i] * h[i] / (p * (1 - h[i]))
+        if df > 1:
+            for i in range(m):
+                one_h = 1 - h[i]
+                stud[i] = e[i] / np.sqrt((rss - e[i] * e[i] / one_h) / (df - 1) * one_h)
+                dffits[i] = stud[i] * np.sqrt(h[i] / one_h)
+        else:
+            stud[:] = np.nan
+            dffits[:] = np.nan
+    ss_diff = 0.0
+    for i in range(1, n):
+        ss_diff += (e_row[i] - e_row[i - 1]) * (e_row[i] - e_row[i - 1])
     proj, ss_zc = _projection(t, e_row, bp_rinv, ss / n)
     return ss, ss_diff, proj, ss_zc
 

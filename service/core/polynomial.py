@@ -87,12 +87,14 @@ def _fit(x, y, weights, model: ModelSpec, options: FitOptions) -> FitReport:
     intercept = model.intercept
     u = transforms.apply(model.transform_x, data.x, field="x", index=data.index)
     z = transforms.apply(model.transform_y, data.y, field="y", index=data.index)
-    u_bounds = check_magnitude(u, "x", data.index, _after(model.transform_x))
-    check_magnitude(z, "y", data.index, _after(model.transform_y))
+    u_bounds = check_magnitude(u, "x", data.index, _after(model.transform_x),
+                               data.x_bounds if model.transform_x == "none" else None)
+    check_magnitude(z, "y", data.index, _after(model.transform_y),
+                    data.y_bounds if model.transform_y == "none" else None)
     if data.w is not None:
         check_magnitude(data.w, "weights", data.index, "")
     notices: list[Notice] = []
-    distinct = distinct_count(data.x)
+    distinct = data.distinct if data.distinct is not None else distinct_count(data.x)
     dmax = _supported_max(distinct, intercept, dmin, dmax, selects, notices)
     n = u.size
     sum_log_w = 0.0 if data.w is None else float(np.sum(np.log(data.w)))
@@ -234,11 +236,12 @@ def _supported_max(distinct, intercept, dmin, dmax, selects, notices) -> int:
 def _coefficient_table(terms, raw, cov, df, level) -> tuple[Coefficient, ...]:
     # at most 11 coefficients: Python floats (same IEEE operations, fewer numpy calls)
     est = raw.tolist()
-    se = [math.sqrt(v) if v > 0 else (v if math.isnan(v) else 0.0) for v in np.diag(cov).tolist()]
+    se = [math.sqrt(v) if v > 0 else (v if math.isnan(v) else 0.0)
+          for v in cov.diagonal().tolist()]
     tval = [b / s if s > 0 else NAN for b, s in zip(est, se, strict=True)]
     if df > 0:
         tq = t_quantile(df, 0.5 + level / 2)
-        pval = (2 * special.stdtr(df, [-abs(t) for t in tval])).tolist()
+        pval = (2 * special.stdtr(df, np.negative(np.abs(tval)))).tolist()
         half = [tq * s if s > 0 else 0.0 for s in se]
     else:
         pval = half = [NAN] * len(est)
