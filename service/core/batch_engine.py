@@ -20,9 +20,10 @@ import numpy as np
 from scipy import special
 
 from service.core import batch_kernel as kern
+from service.core import batch_residuals as resid_checks
 from service.core import flags as single
 from service.core.anova import lack_of_fit
-from service.core.batch_tests import shapiro_p, shapiro_weights
+from service.core.batch_tests import SHAPIRO_MAX_N, shapiro_p, shapiro_weights
 from service.core.decomposition import EXACT_FIT_RTOL  # the one exact-fit cut-off
 from service.core.diagnostics import OUTLIER_ALPHA
 from service.core.summary import LEVERAGE_ONE  # leave-one-out residual undefined above
@@ -100,7 +101,7 @@ def tables(lengths: np.ndarray, P: int) -> tuple[np.ndarray, ...]:
     for i, n in enumerate(uniq.tolist()):
         bonf[i], cook[i] = _limits(n, P)
         sw_start[i] = at
-        if 3 <= n <= kern.SHAPIRO_MAX_N:
+        if 3 <= n <= SHAPIRO_MAX_N:
             parts.append(shapiro_weights(n))
             at += n
     sw_coef = np.concatenate(parts) if parts else np.zeros(1)
@@ -213,10 +214,10 @@ def _shapiro_w(resid, offsets, rows, n, spread, tabs) -> np.ndarray:
     if np.all(lengths == width) and np.all(np.diff(starts) == width):  # back to back
         block = resid[starts[0]:starts[0] + need.size * width].reshape(need.size, width)
     else:
-        block = kern.gather_padded(resid, starts, lengths, width)
+        block = resid_checks.gather_padded(resid, starts, lengths, width)
     srt = np.sort(block, axis=1)
     slot, _, _, sw_start, sw_coef = tabs
-    num = kern.shapiro_numerator(srt, lengths, slot, sw_start, sw_coef)
+    num = resid_checks.shapiro_numerator(srt, lengths, slot, sw_start, sw_coef)
     with np.errstate(all="ignore"):
         w[need] = np.minimum(num * num / spread[need], 1.0)
     return w
@@ -225,11 +226,13 @@ def _shapiro_w(resid, offsets, rows, n, spread, tabs) -> np.ndarray:
 def _points(marks, offsets, rows, cols):
     """Indices (within each series) of the outlying and of the influential points."""
     found = ({}, {})
-    for which, bit in enumerate((kern.OUTLIER_BIT, kern.INFLUENTIAL_BIT)):
+    for which, bit in enumerate((resid_checks.OUTLIER_BIT, resid_checks.INFLUENTIAL_BIT)):
         if not (cols["n_outliers"] if which == 0 else cols["n_influential"]).any():
             continue
-        where, index = kern.collect(marks, offsets, rows, bit)
-        cuts = np.flatnonzero(np.diff(where)) + 1
-        for g, part in zip(where[np.r_[0, cuts]].tolist(), np.split(index, cuts), strict=True):
-            found[which][int(rows[g])] = tuple(part.tolist())
+        where, index = resid_checks.collect(marks, offsets, rows, bit)
+        cuts = (np.flatnonzero(np.diff(where)) + 1).tolist()
+        index = index.tolist()
+        for g, a, b in zip(rows[where[[0, *cuts]]].tolist(), [0, *cuts], [*cuts, len(index)],
+                           strict=True):
+            found[which][g] = tuple(index[a:b])
     return found

@@ -8,23 +8,8 @@ is a few passes over its own points, in cache, with no temporary arrays;
 the distribution functions (p-values, quantiles) stay in scipy, evaluated
 before (tables per length) or after (vectorized over the chunk) the kernel.
 
-Numerics. Each series' x is mapped onto [-1, 1] (``t = (u - shift) / scale``);
-the weighted discrete orthonormal polynomials ``q_0 .. q_d`` of that series
-are built by the Stieltjes three-term recurrence and each new vector is
-re-orthogonalized against every earlier one (a second classical Gram-Schmidt
-sweep: "twice is enough"). The sweep is not optional: on designs with an
-outlying x the bare recurrence loses orthogonality and digits (1e-5 relative
-at degree 4 with condition number ~700; with the sweep 1e-12). The ``q_k``
-are the columns of the thin-QR ``Q`` factor of the scaled design
-``sqrt(w) * t**k``; their power coefficients give ``R^-1``. The residual sum
-of squares of every nested degree is the largest model's plus the squares of
-the effects it leaves out, never a difference of large numbers. Normal
-equations on raw powers are never formed.
-
-References: Golub & Van Loan, *Matrix Computations*, 4th ed., sec. 5.2
-(Gram-Schmidt, re-orthogonalization); Forsythe (1957), *J. SIAM* 5, 74-88
-(discrete orthogonal polynomials by the three-term recurrence); Shapiro-Wilk
-weights of Royston (1995), AS R94; Breusch-Pagan in Koenker's studentized form.
+The numerics of the basis are described in :mod:`service.core.batch_basis`;
+the residual checks in :mod:`service.core.batch_residuals`.
 """
 
 from __future__ import annotations
@@ -34,7 +19,8 @@ import math
 import numba
 import numpy as np
 
-from service.core.batch_tests import SHAPIRO_MAX_N
+from service.core.batch_basis import basis, distinct, dot
+from service.core.batch_residuals import residual_pass
 
 SELECT_CODES = {"sequential_f": 0, "aic": 1, "aicc": 2, "bic": 3, "press": 4, "adj_r2": 5,
                 "fixed": 6}
@@ -58,97 +44,8 @@ _SHAPIRO_WILK = SC.index("shapiro_wilk")
 _DURBIN_WATSON = SC.index("durbin_watson")
 _BREUSCH_PAGAN = SC.index("breusch_pagan")
 OK, REJECT = 0, 1          # status: fitted here / hand the series to fit_series
-OUTLIER_BIT, INFLUENTIAL_BIT = 1, 2
 NEAR_CRIT = 1e-9           # an F this close to its critical value is settled by fit_series
 _TWO_PI_LOG = math.log(2.0 * math.pi)
-
-
-@numba.njit(cache=True, nogil=True, error_model="numpy", fastmath={"reassoc"})
-def _dot(a, b):
-    """``a . b``; reassociation lets the sum run in vector lanes (rounding order only)."""
-    acc = 0.0
-    for i in range(a.size):
-        acc += a[i] * b[i]
-    return acc
-
-
-@numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
-def _axpy(alpha, x, y):
-    """``y -= alpha * x`` in place (no temporary array)."""
-    for i in range(y.size):
-        y[i] -= alpha * x[i]
-
-
-@numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
-def _scale(y, factor):
-    for i in range(y.size):
-        y[i] *= factor
-
-
-@numba.njit(cache=True, nogil=True, error_model="numpy")
-def _basis(t, s, n, P, intercept, unit, q, ck):
-    """Orthonormal ``q[k, :n] = s * P_k(t)`` for ``k < P``; ``ck[k]`` power coefficients of P_k."""
-    ck[:P, :P] = 0.0
-    for i in range(n):
-        if intercept:
-            q[0, i] = 1.0 if unit else s[i]
-        else:
-            q[0, i] = t[i] if unit else s[i] * t[i]
-    norm = math.sqrt(_dot(q[0, :n], q[0, :n]))
-    _scale(q[0, :n], 1.0 / norm)
-    ck[0, 0] = 1.0 / norm
-    first, beta = 0, 0.0
-    if intercept and unit and P > 1:  # q_0 is constant: q_1 is the centred t, normalized
-        alpha = t[:n].sum() / n
-        for i in range(n):
-            q[1, i] = t[i] - alpha
-        norm = math.sqrt(_dot(q[1, :n], q[1, :n]))
-        _scale(q[1, :n], 1.0 / norm)
-        ck[1, 1] = 1.0 / norm
-        ck[1, 0] = -alpha / norm
-        beta = norm / math.sqrt(n)
-        first = 1
-    for k in range(first, P - 1):
-        # Stieltjes: t q_k = beta_{k+1} q_{k+1} + alpha_k q_k + beta_k q_{k-1}
-        alpha = 0.0
-        for i in range(n):
-            v = t[i] * q[k, i]
-            q[k + 1, i] = v
-            alpha += v * q[k, i]
-        for m in range(1, P):
-            ck[k + 1, m] = ck[k, m - 1]
-        for m in range(P):
-            ck[k + 1, m] -= alpha * ck[k, m]
-            if k > 0:
-                ck[k + 1, m] -= beta * ck[k - 1, m]
-        for i in range(n):
-            q[k + 1, i] -= alpha * q[k, i]
-            if k > 0:
-                q[k + 1, i] -= beta * q[k - 1, i]
-        for j in range(k + 1):  # second classical Gram-Schmidt sweep
-            h = _dot(q[j, :n], q[k + 1, :n])
-            _axpy(h, q[j, :n], q[k + 1, :n])
-            _axpy(h, ck[j, :P], ck[k + 1, :P])
-        beta = math.sqrt(_dot(q[k + 1, :n], q[k + 1, :n]))
-        _scale(q[k + 1, :n], 1.0 / beta)
-        _scale(ck[k + 1, :P], 1.0 / beta)
-
-
-@numba.njit(cache=True, nogil=True, error_model="numpy")
-def _distinct(u, n):
-    """Number of distinct values of ``u[:n]`` (no sort when strictly increasing)."""
-    steps = 1
-    for i in range(1, n):
-        if u[i] > u[i - 1]:
-            steps += 1
-    if steps == n:
-        return n
-    srt = np.sort(u[:n])
-    steps = 1
-    for i in range(1, n):
-        if srt[i] > srt[i - 1]:
-            steps += 1
-    return steps
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
@@ -227,8 +124,7 @@ def fit_rows(u, z, w, unit, offsets, rows, dmin, dmax, intercept, code, need_pre
     zw = np.empty(width)
     res = np.empty(width)
     e = np.empty(width)
-    h = np.empty(width)
-    e2 = np.empty(width)
+    bp_sums = np.empty(dmax + 2)
     q = np.empty((P, width))
     qb = np.empty((dmax + 1, width))
     ck = np.zeros((P, P))
@@ -246,8 +142,8 @@ def fit_rows(u, z, w, unit, offsets, rows, dmin, dmax, intercept, code, need_pre
         n = offsets[rows[g] + 1] - a
         uu, zz = u[a:a + n], z[a:a + n]
         status[g] = REJECT
-        distinct = _distinct(uu, n)
-        if distinct - c < dmax:
+        n_distinct = distinct(uu, n)
+        if n_distinct - c < dmax:
             continue        # fit_series lowers max_degree (or refuses): its answer
         small, big = uu.min(), uu.max()
         if intercept:
@@ -265,16 +161,16 @@ def fit_rows(u, z, w, unit, offsets, rows, dmin, dmax, intercept, code, need_pre
                 sum_log_w += math.log(w[a + i])
         if not unit:
             sum_w = w[a:a + n].sum()
-        _basis(t, s, n, P, intercept, unit, q, ck)
+        basis(t, s, n, P, intercept, unit, q, ck)
         for i in range(n):
             zw[i] = zz[i] * s[i] if not unit else zz[i]
-        sum_zw2 = _dot(zw[:n], zw[:n])
+        sum_zw2 = dot(zw[:n], zw[:n])
         k0 = 0
         if intercept:  # remove the weighted mean first: no cancellation on large offsets
             if unit:
                 zbar = zw[:n].sum() / n
             else:
-                zbar = _dot(s[:n], zw[:n]) / sum_w
+                zbar = dot(s[:n], zw[:n]) / sum_w
             for i in range(n):
                 res[i] = zw[i] - (zbar if unit else zbar * s[i])
             b[0] = zbar * math.sqrt(sum_w)
@@ -282,13 +178,13 @@ def fit_rows(u, z, w, unit, offsets, rows, dmin, dmax, intercept, code, need_pre
         else:
             res[:n] = zw[:n]
         for k in range(k0, P):   # effects, then the residual after all P columns
-            b[k] = _dot(q[k, :n], res[:n])
+            b[k] = dot(q[k, :n], res[:n])
         for i in range(n):
             acc = 0.0
             for k in range(k0, P):
                 acc += b[k] * q[k, i]
             res[i] -= acc
-        rss_full = _dot(res[:n], res[:n])
+        rss_full = dot(res[:n], res[:n])
         tail[P] = 0.0
         for k in range(P - 1, -1, -1):
             tail[k] = tail[k + 1] + b[k] * b[k]
@@ -322,7 +218,7 @@ def fit_rows(u, z, w, unit, offsets, rows, dmin, dmax, intercept, code, need_pre
             f[0] = np.nan
         cc[9, :m] = f[:m]
         if need_press:
-            _press(q, b, res, e, h, n, P, dmin + c, m, lev_one, exact, cc)
+            _press(q, b, res, e, n, P, dmin + c, m, lev_one, exact, cc)
         pick, climb, near = _select(code, cc, exact, f, crit, cc[0], m, NEAR_CRIT)
         if near:
             continue        # significance within 1e-9 of the limit: fit_series decides
@@ -375,16 +271,6 @@ def fit_rows(u, z, w, unit, offsets, rows, dmin, dmax, intercept, code, need_pre
             cond = sv[0] / sv[-1] if sv[-1] > 0 else np.inf
             if not cond <= cond_caution:
                 continue    # fit_series' extended precision keeps the digits float64 loses
-        # chosen model's residuals and hat diagonals
-        for i in range(n):
-            acc = res[i]
-            for k in range(p, P):
-                acc += b[k] * q[k, i]
-            e[i] = acc
-            lev = 0.0
-            for k in range(p):
-                lev += q[k, i] * q[k, i]
-            h[i] = lev
         status[g] = OK
         rss = cc[1, pick]
         usable = not exact[pick] and df >= 1
@@ -396,21 +282,13 @@ def fit_rows(u, z, w, unit, offsets, rows, dmin, dmax, intercept, code, need_pre
             inf_cut = cook[slot[n], p] * p * rss / df
         if n > p:
             lev_cut = 2.0 * p / n
-        n_out = n_inf = n_high = 0
-        for i in range(n):
-            one_h = 1 - h[i]
-            r = e[i] * e[i] / one_h
-            mark = 0
-            if r > out_cut:
-                mark |= OUTLIER_BIT
-                n_out += 1
-            if r * h[i] / one_h > inf_cut:
-                mark |= INFLUENTIAL_BIT
-                n_inf += 1
-            if h[i] > lev_cut:
-                n_high += 1
-            marks[a + i] = mark
-            resid[a + i] = e[i]
+        degree = dmin + pick
+        bp_degree = degree if usable and degree >= 1 and n > degree + 1 else 0
+        if bp_degree and not (unit and intercept):
+            basis(t, s, n, dmax + 1, True, True, qb, ckb)
+        n_out, n_inf, n_high, spread, dw, bp = residual_pass(
+            res, b, q, p, P, n, (out_cut, inf_cut, lev_cut),
+            q if unit and intercept else qb, bp_degree, bp_sums, marks, resid, a)
         row = sc[g]
         row[0], row[1], row[2], row[3], row[4] = n, dmin + pick, df, rss, sigma
         for j in range(3, 9):   # r_squared .. press of the chosen candidate
@@ -420,30 +298,21 @@ def fit_rows(u, z, w, unit, offsets, rows, dmin, dmax, intercept, code, need_pre
         row[_N_HIGH_LEVERAGE] = n_high
         row[_CONDITION_NUMBER] = cond
         row[_CLIMB] = climb
-        row[_REPEATS] = 1.0 if distinct < n else 0.0
+        row[_REPEATS] = 1.0 if n_distinct < n else 0.0
         row[_EXACT] = 1.0 if exact[pick] else 0.0
         row[_P] = p
         for kk in range(len(CAND)):
             for j in range(m):
                 cand[kk, g, j] = cc[kk, j]
-        sw = dw = bp = np.nan
-        if usable:
-            sw = _spread(e, n)
-            dw = _durbin_watson(e, n)
-            degree = dmin + pick
-            if degree >= 1 and n > degree + 1:
-                if unit and intercept:
-                    bp = _breusch_pagan(e, e2, n, q, degree)
-                else:
-                    _basis(t, s, n, dmax + 1, True, True, qb, ckb)
-                    bp = _breusch_pagan(e, e2, n, qb, degree)
-        row[_SHAPIRO_WILK] = sw
+        if not usable:
+            spread = dw = np.nan
+        row[_SHAPIRO_WILK] = spread
         row[_DURBIN_WATSON] = dw
         row[_BREUSCH_PAGAN] = bp
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
-def _press(q, b, res, e, h, n, P, kmin, m, lev_one, exact, cc):
+def _press(q, b, res, e, n, P, kmin, m, lev_one, exact, cc):
     """PRESS of every candidate (``sum (e_i / (1 - h_i))^2``; NaN when some h_i ~ 1)."""
     e[:n] = res[:n]
     kk = P
@@ -451,7 +320,8 @@ def _press(q, b, res, e, h, n, P, kmin, m, lev_one, exact, cc):
         k = kmin + j
         while kk > k:
             kk -= 1
-            _axpy(-b[kk], q[kk, :n], e[:n])
+            for i in range(n):
+                e[i] += b[kk] * q[kk, i]
         total, ok = 0.0, True
         for i in range(n):
             lev = 0.0
@@ -464,83 +334,3 @@ def _press(q, b, res, e, h, n, P, kmin, m, lev_one, exact, cc):
         cc[8, j] = 0.0 if exact[j] else (total if ok else np.nan)
 
 
-@numba.njit(cache=True, nogil=True, error_model="numpy")
-def _spread(e, n):
-    """Sum of squared deviations of ``e[:n]`` (Shapiro-Wilk's denominator); NaN outside 3..5000."""
-    if n < 3 or n > SHAPIRO_MAX_N:
-        return np.nan
-    mean = e[:n].sum() / n
-    return _dot(e[:n], e[:n]) - n * mean * mean
-
-
-@numba.njit(cache=True, nogil=True, error_model="numpy")
-def gather_padded(resid, starts, lengths, width):
-    """Rows ``resid[starts[g]:starts[g] + lengths[g]]`` padded with +inf to ``width``."""
-    out = np.empty((starts.size, width))
-    for g in range(starts.size):
-        for i in range(width):
-            out[g, i] = resid[starts[g] + i] if i < lengths[g] else np.inf
-    return out
-
-
-@numba.njit(cache=True, nogil=True, error_model="numpy")
-def shapiro_numerator(srt, lengths, slot, sw_start, sw_coef):
-    """``c . e_sorted`` per row with the AS R94 weights of that row's length."""
-    out = np.empty(srt.shape[0])
-    for g in range(srt.shape[0]):
-        at = sw_start[slot[lengths[g]]]
-        acc = 0.0
-        for i in range(lengths[g]):
-            acc += sw_coef[at + i] * srt[g, i]
-        out[g] = acc
-    return out
-
-
-@numba.njit(cache=True, nogil=True, error_model="numpy")
-def collect(marks, offsets, rows, bit):
-    """Series positions and in-series indices of the points whose mark has ``bit``."""
-    count = 0
-    for g in range(rows.size):
-        for i in range(offsets[rows[g]], offsets[rows[g] + 1]):
-            if marks[i] & bit:
-                count += 1
-    where, index = np.empty(count, dtype=np.int64), np.empty(count, dtype=np.int64)
-    k = 0
-    for g in range(rows.size):
-        a = offsets[rows[g]]
-        for i in range(a, offsets[rows[g] + 1]):
-            if marks[i] & bit:
-                where[k], index[k] = g, i - a
-                k += 1
-    return where, index
-
-
-@numba.njit(cache=True, nogil=True, error_model="numpy")
-def _durbin_watson(e, n):
-    """Durbin-Watson statistic of ``e[:n]`` in the given order."""
-    num = 0.0
-    for i in range(1, n):
-        d = e[i] - e[i - 1]
-        num += d * d
-    ss = _dot(e[:n], e[:n])
-    return num / ss if ss > 0 else np.nan
-
-
-@numba.njit(cache=True, nogil=True, error_model="numpy")
-def _breusch_pagan(e, e2, n, qb, degree):
-    """Koenker's LM: ``n R^2`` of ``e^2`` on the unweighted orthonormal powers ``qb[1..degree]``."""
-    for i in range(n):
-        e2[i] = e[i] * e[i]
-    total = e2[:n].sum()
-    sq = _dot(e2[:n], e2[:n])
-    proj = 0.0
-    for k in range(1, degree + 1):   # orthogonal to the constant: centring changes nothing
-        hk = _dot(qb[k, :n], e2[:n])
-        proj += hk * hk
-    ss = sq - total * total / n
-    if not ss > 1e-8 * sq:     # nearly constant squared residuals: centre exactly
-        ss = 0.0
-        for i in range(n):
-            d = e2[i] - total / n
-            ss += d * d
-    return n * proj / ss if ss > 0 else np.nan

@@ -15,9 +15,8 @@ from statsmodels.stats.diagnostic import het_breuschpagan
 from statsmodels.stats.outliers_influence import OLSInfluence
 from statsmodels.stats.stattools import durbin_watson
 
-from service.core import ModelSpec
+from service.core import ModelSpec, batch_residuals
 from service.core import batch_engine as engine
-from service.core import batch_kernel as kern
 from service.core import batch_tests as bt
 from service.core.batch import fit_batch
 from tests.batch.conftest import ragged_series, rel
@@ -55,12 +54,17 @@ def test_shapiro_wilk_of_back_to_back_rows_equals_scipy():
     assert rel(w, [stats.shapiro(v).statistic for v in parts]) < 1e-12
 
 
-def test_durbin_watson_equals_statsmodels_for_many_lengths():
-    # oracle: statsmodels.stats.stattools.durbin_watson
+def test_residual_pass_durbin_watson_equals_statsmodels_for_many_lengths():
+    # oracle: statsmodels.stats.stattools.durbin_watson; with p = P = 0 the pass takes
+    # the given vector as the residuals
     rng = np.random.default_rng(2)
     for n in rng.integers(5, 60, 40).tolist():
         e = np.cumsum(rng.normal(size=n)) * 0.3 + rng.normal(size=n)
-        assert rel(kern._durbin_watson(e, n), durbin_watson(e)) < 1e-12
+        got = batch_residuals.residual_pass(
+            e, np.zeros(1), np.zeros((1, n)), 0, 0, n, (np.inf, np.inf, np.inf),
+            np.zeros((1, n)), 0, np.zeros(2), np.zeros(n, dtype=np.uint8), np.empty(n), 0)
+        assert rel(got[4], durbin_watson(e)) < 1e-12
+        assert rel(got[3], ((e - e.mean()) ** 2).sum()) < 1e-9  # Shapiro-Wilk denominator
 
 
 def test_batch_diagnostics_equal_statsmodels_series_by_series():
