@@ -76,6 +76,17 @@ def on_starting(server):
     observability.prepare_multiprocess_dir()
 
 
+def post_worker_init(worker):
+    """Load the compiled batch kernel before the worker takes its first request.
+
+    numba caches the machine code on disk: only the very first boot of an install
+    compiles (~15 s; the container image does it at build time).
+    """
+    from service.core.batch import warm_up
+
+    warm_up()
+
+
 def child_exit(server, worker):
     """Drop a dead worker's live gauges; its counters keep counting in the totals."""
     from service import observability

@@ -8,12 +8,11 @@ Entry points::
 
 Series arrive concatenated (``x``, ``y`` and optional ``weights`` flat, with
 ``lengths``), which is how long-format tables and NDJSON streams hold them.
-Rows are grouped by model, sorted by length and cut into blocks of at most
-:data:`~service.core.batch_layout.BLOCK_POINTS` points whose lengths differ by
-at most :data:`~service.core.batch_layout.MAX_PAD_RATIO`; short rows are padded
-with weight 0, so working memory per block is bounded and independent of the
-number of series. Each block is fitted by the vectorized engine (:mod:`service.core.batch_block`,
-:mod:`service.core.batch_diagnostics`).
+Rows are grouped by model and cut into chunks of about
+:data:`~service.core.batch_layout.CHUNK_POINTS` points; each chunk is one call
+of the compiled kernel (:mod:`service.core.batch_kernel`, driven by
+:mod:`service.core.batch_engine`), which reads every series in place, so
+working memory per chunk is bounded and independent of the number of series.
 
 A series the engine should not take — missing or non-finite values, weights
 <= 0, a transform domain error, too few distinct x for the candidates, an
@@ -29,11 +28,10 @@ from dataclasses import replace
 
 import numpy as np
 
-from service.core import batch_block, batch_diagnostics, batch_engine, transforms
+from service.core import batch_engine, transforms
 from service.core import batch_layout as layout
-from service.core.batch_results import BatchResult, empty_columns, fill_from_report
+from service.core.batch_results import BatchResult, empty_columns, fill_from_report, write_chunk
 from service.core.errors import FitError
-from service.core.flags import COND_CAUTION
 from service.core.inputs import check_spec
 from service.core.polynomial import fit_series
 from service.core.spec import FitOptions, ModelSpec
@@ -146,27 +144,34 @@ def fit_many(x, y, lengths, weights=None, *, model: ModelSpec = _MODEL, models=N
         if detail == "full":
             fallback.extend((int(r), spec_model) for r in rows)
             continue
-        bspec = batch_block.BlockSpec(dmin, dmax, spec_model.intercept,
+        bspec = batch_engine.BlockSpec(dmin, dmax, spec_model.intercept,
                                       spec_model.select if selects else "fixed",
                                       float(spec_model.alpha),
                                       need_press=selects and spec_model.select == "press")
         good, bad = layout.screen(x, y, w, offsets, rows, spec_model, raw)
         fallback.extend((int(r), spec_model) for r in bad)
-        for block in layout.blocks(good, lengths):
-            jobs.append((block, spec_model, bspec))
+        if good.size:
+            u = transforms._FORWARD[spec_model.transform_x](x)
+            z = transforms._FORWARD[spec_model.transform_y](y)
+            tabs = batch_engine.tables(lengths[good], bspec.max_degree + bspec.c)
+            for chunk in layout.chunks(good, lengths):
+                jobs.append((chunk, spec_model, bspec, u, z, tabs))
+    marks = np.zeros(x.size, dtype=np.uint8)
+    resid = np.empty(x.size)
+
     def run(job):
+        chunk, _, bspec, u, z, tabs = job
         with np.errstate(all="ignore"):  # undefined values become NaN data, not warnings
-            return _fit_block(x, y, w, offsets, lengths, *job)
+            return batch_engine.fit_chunk(u, z, w, offsets, chunk, bspec, tabs, marks, resid)
 
     if workers > 1 and len(jobs) > 1:
         with ThreadPoolExecutor(workers) as pool:
             results = list(pool.map(run, jobs))
     else:
         results = [run(job) for job in jobs]
-    for (_, spec_model, bspec), (res, rejected) in zip(jobs, results, strict=True):
-        layout.scatter(out, res, bspec)
+    for (_, spec_model, bspec, *_), (res, rejected) in zip(jobs, results, strict=True):
+        write_chunk(out, res, bspec)
         fallback.extend((int(r), spec_model) for r in rejected)
-    layout.finish(out)
     single = options if detail == "full" else replace(options, grid=None,
                                                       include=_SUMMARY_INCLUDE)
     for row, spec_model in sorted(fallback):
@@ -205,72 +210,6 @@ def _fit_one(out, row, model, options, x, y, w, offsets, raw):
     fill_from_report(out, row, report)
 
 
-def _fit_block(x, y, w, offsets, lengths, rows, model, bspec):
-    """Fit one block; return (result dict, rows handed to the single-series path)."""
-    lens = lengths[rows]
-    width = int(lens.max())
-    padded = not np.all(lens == width)
-    valid = (np.arange(width)[None, :] < lens[:, None]) if padded else None
-    index = layout.gather_index(offsets, rows, lens, width)
-    u = transforms._FORWARD[model.transform_x](layout.take(x, index, rows, width, 1.0))
-    z = transforms._FORWARD[model.transform_y](layout.take(y, index, rows, width, 1.0))
-    if padded:
-        u, z = u * valid, z * valid
-    distinct, increasing = layout.distinct(u, valid, lens)
-    cap = distinct - bspec.c
-    take = cap >= bspec.max_degree
-    if not take.all():  # the core lowers max_degree (or refuses) for these: its path
-        rejected = rows[~take]
-        rows, lens, u, z = rows[take], lens[take], u[take], z[take]
-        distinct = distinct[take]
-        valid = None if valid is None else valid[take]
-        if rows.size == 0:
-            return None, rejected
-    else:
-        rejected = rows[:0]
-    if w is not None:
-        wb = layout.take(w, index, rows, width, 0.0)
-    else:
-        wb = None if valid is None else valid.astype(float)
-    fit = batch_block.fit_block(u, z, wb, valid, bspec, increasing=increasing)
-    finite = np.isfinite(fit["coef"][:, 0]) & np.isfinite(fit["rss"])
-    if w is None and bspec.intercept:
-        bp_basis = fit["q"]
-    else:
-        bp_basis, _ = batch_engine.orthonormal_basis(
-            fit["t"], None if valid is None else valid.astype(float), bspec.max_degree + 1, True)
-    diag = batch_diagnostics.diagnose_block(fit, valid, u, z, wb if w is not None else None,
-                                            distinct < lens, bp_basis)
-    fit.pop("q")
-    fit.pop("resid_w")
-    fit.pop("leverage")
-    fit.pop("t")
-    fit.pop("sqrt_w")
-    fit.update(diag)
-    fit["rows"] = rows
-    # Ill-conditioned designs go to the single-series path: its extended-precision QR
-    # keeps the digits that float64 loses there (and it flags them the same way).
-    good = finite & (diag["condition_number"] <= COND_CAUTION) & _moderate(fit)
-    if not good.all():
-        fit["bad"] = ~good
-        rejected = np.concatenate([rejected, rows[~good]])
-    return fit, rejected
-
-
-def _moderate(fit: dict) -> np.ndarray:
-    """Rows whose raw coefficients and standard errors square safely in float64.
-
-    Outside about 1e-150..1e150 the single-series path (extended precision, and
-    NaN with a notice where a value does not fit a normal double) is the reference.
-    """
-    with np.errstate(all="ignore"):
-        values = np.concatenate([fit["coef"], fit["se"]], axis=1)
-        mags = np.abs(values)
-        odd = (mags > 1e150) | ((mags < 1e-150) & (mags > 0))
-        zero_se = (fit["se"] == 0) & (fit["sigma"] > 0)[:, None]
-    return ~(np.where(np.isnan(values), False, odd).any(axis=1) | zero_se.any(axis=1))
-
-
 def fit_chunks(series, *, chunk_series: int = 4096, model: ModelSpec = _MODEL,
                options: FitOptions = _OPTIONS, detail: str = "summary", workers: int = 1):
     """Fit an iterable of series chunk by chunk, for streams of any length.
@@ -293,3 +232,16 @@ def fit_chunks(series, *, chunk_series: int = 4096, model: ModelSpec = _MODEL,
     if buf:
         yield start, fit_batch(buf, model=model, models=models, options=options,
                                detail=detail, workers=workers)
+
+
+def warm_up() -> None:
+    """Load (or compile and cache) the compiled batch kernel before the first real batch.
+
+    The first call in a fresh install compiles for ~15 s and caches the machine code
+    on disk (numba, next to the modules or in ``NUMBA_CACHE_DIR``); later processes
+    load it in ~0.3 s. Servers call this before taking traffic.
+    """
+    x = np.tile(np.arange(8.0), 2)
+    y = 1.0 + x + 0.1 * np.sin(7.0 * x)
+    fit_many(x, y, [8, 8], model=ModelSpec(max_degree=2))
+    fit_many(x, y, [8, 8], np.ones(16), model=ModelSpec(max_degree=2, intercept=False))

@@ -1,193 +1,238 @@
-"""Vectorized least-squares polynomial fits of many series of one (padded) length.
+"""Drive the compiled batch kernel: tables before, p-values and flags after.
 
-A block holds ``G`` series as rows of ``(G, L)`` arrays. Short series are
-padded with weight 0, which removes the padded points from every sum, so
-one block can hold series of different lengths.
-
-Numerics. Each series' x is mapped onto [-1, 1] (``t = (u - shift) / scale``);
-then the weighted discrete orthonormal polynomials ``q_0 .. q_d`` of that
-series are built by the Stieltjes three-term recurrence, vectorized across
-rows, and each new vector is re-orthogonalized against every earlier one
-(a second classical Gram-Schmidt sweep: "twice is enough"). The sweep is not
-optional: on designs with an outlying x the bare recurrence loses
-orthogonality and digits (1e-5 relative at degree 4 with condition number
-~700; with the sweep 1e-12). The ``q_k`` are the columns of the thin-QR ``Q``
-factor of the scaled design ``sqrt(w) * t**k``; their polynomial
-coefficients give ``R^-1``. The residual sum of squares of every nested degree
-is the largest model's (a sum of squared residuals) plus the squares of the
-effects it leaves out, never a difference of large numbers. Normal equations
-on raw powers are never formed.
-
-References: Golub & Van Loan, *Matrix Computations*, 4th ed., sec. 5.2
-(Gram-Schmidt, re-orthogonalization); Forsythe (1957), *J. SIAM* 5, 74-88
-(fitting with discrete orthogonal polynomials via the three-term recurrence).
+:func:`fit_chunk` fits one chunk of series of one model with
+:func:`service.core.batch_kernel.fit_rows` and returns a :class:`ChunkResult`
+for the rows it fitted, plus the rows it hands to ``fit_series`` (too few
+distinct x, an F at its critical value, an ill-conditioned design, extreme
+magnitudes). Conventions, thresholds and flag rules are those of
+:mod:`service.core.summary`, :mod:`service.core.diagnostics` and
+:mod:`service.core.flags` (common-practice cut-offs: Bonferroni outlier limit,
+``h > 2p/n``, Cook's distance above the median of ``F(p, n - p)``, tests at
+alpha 0.05, Durbin-Watson outside [1.5, 2.5]).
 """
 
 from __future__ import annotations
 
+from dataclasses import dataclass
+from functools import lru_cache
+
 import numpy as np
 from scipy import special
 
+from service.core import batch_kernel as kern
+from service.core import batch_residuals as resid_checks
+from service.core import flags as single
+from service.core.anova import lack_of_fit
+from service.core.batch_tests import SHAPIRO_MAX_N, shapiro_p, shapiro_weights
+from service.core.decomposition import EXACT_FIT_RTOL  # the one exact-fit cut-off
+from service.core.diagnostics import OUTLIER_ALPHA
+from service.core.summary import LEVERAGE_ONE  # leave-one-out residual undefined above
 
-def _dot(a: np.ndarray, b: np.ndarray) -> np.ndarray:
-    return np.einsum("gn,gn->g", a, b)
+FLAG_CODES = ("exact_fit", "no_residual_df", "few_points_per_parameter",
+              "ill_conditioned_design", "lack_of_fit", "non_normal_residuals",
+              "non_constant_variance", "serial_correlation", "outliers",
+              "influential_points", "high_leverage", "extrapolation")
+BIT = {code: 1 << i for i, code in enumerate(FLAG_CODES)}
+SC = {name: i for i, name in enumerate(kern.SC)}
 
 
-def scale_x(u: np.ndarray, valid: np.ndarray | None, intercept: bool,
-            n: np.ndarray | None = None) -> tuple[np.ndarray, ...]:
-    """Per-row shift and scale mapping the valid x of each row onto [-1, 1].
+@dataclass(frozen=True, slots=True)
+class BlockSpec:
+    """What to fit: candidate degrees and how to choose among them."""
 
-    Same float operations as :func:`service.core.design.scaling`: with an
-    intercept the range maps onto [-1, 1]; without one the shift is 0 and the
-    scale is ``max |u|`` (a shift would add a constant term). ``valid`` None
-    means every entry is real. ``n`` (points per row) says the rows are in
-    increasing order, so the range is read off the ends. Returns
-    ``(t, shift, scale)``; ``t`` is 0 where padded.
+    min_degree: int
+    max_degree: int
+    intercept: bool
+    select: str          # one of SELECT_METHODS, or "fixed"
+    alpha: float
+    need_press: bool
+
+    @property
+    def c(self) -> int:
+        return 1 if self.intercept else 0
+
+
+@dataclass(frozen=True, slots=True)
+class ChunkResult:
+    """Fitted rows of one chunk (internal): per-series columns and point indices."""
+
+    rows: np.ndarray                   # input rows fitted here
+    columns: dict                      # name -> (k,) values, names of batch_results.SCALARS
+    coef: np.ndarray                   # (k, P)
+    se: np.ndarray
+    candidates: dict                   # measure -> (k, m)
+    outliers: dict                     # row -> tuple of point indices
+    influential: dict
+
+
+@lru_cache(maxsize=64)
+def _crit(alpha: float, size: int) -> np.ndarray:
+    """``F(1, df; 1 - alpha)`` for df = 0 .. size - 1 (df 0 uses df 1)."""
+    return special.fdtri(1, np.maximum(np.arange(size), 1), 1 - alpha)
+
+
+@lru_cache(maxsize=4096)
+def _limits(n: int, P: int) -> tuple[np.ndarray, np.ndarray]:
+    """Bonferroni outlier t limit and Cook's cut-off by number of coefficients p = 0..P."""
+    p = np.arange(P + 1, dtype=float)
+    df = n - p
+    with np.errstate(all="ignore"):
+        bonf = np.where(df > 1, special.stdtrit(np.maximum(df - 1, 1),
+                                                1 - OUTLIER_ALPHA / (2 * n)), np.nan)
+        cook = special.fdtri(np.maximum(p, 1), np.maximum(df, 1), 0.5)
+    return bonf, cook
+
+
+@lru_cache(maxsize=16)
+def _binomials(P: int, start: int) -> np.ndarray:
+    m = np.arange(start, start + P)
+    return special.comb(m[None, :], m[:, None])   # [i, j] = C(m_j, m_i), 0 for i > j
+
+
+def tables(lengths: np.ndarray, P: int) -> tuple[np.ndarray, ...]:
+    """Per-length tables of the kernel: ``slot``, ``bonf``, ``cook``, ``sw_start``, ``sw_coef``."""
+    uniq = np.unique(lengths)
+    slot = np.full(int(uniq[-1]) + 1 if uniq.size else 1, -1, dtype=np.int64)
+    slot[uniq] = np.arange(uniq.size)
+    bonf = np.empty((uniq.size, P + 1))
+    cook = np.empty((uniq.size, P + 1))
+    sw_start = np.zeros(uniq.size, dtype=np.int64)
+    parts, at = [], 0
+    for i, n in enumerate(uniq.tolist()):
+        bonf[i], cook[i] = _limits(n, P)
+        sw_start[i] = at
+        if 3 <= n <= SHAPIRO_MAX_N:
+            parts.append(shapiro_weights(n))
+            at += n
+    sw_coef = np.concatenate(parts) if parts else np.zeros(1)
+    return slot, bonf, cook, sw_start, sw_coef
+
+
+def fit_chunk(u, z, w, offsets, rows, spec: BlockSpec, tabs, marks, resid):
+    """Fit the series ``rows``; return ``(ChunkResult, rows for fit_series)``.
+
+    ``u``, ``z``, ``w`` are the flat x, y (fitting scale) and weights (None:
+    unweighted); ``tabs`` comes from :func:`tables`; ``marks`` (uint8) and
+    ``resid`` (float) are flat scratch arrays the size of ``u``.
     """
-    if n is not None:
-        small, big = u[:, 0], u[np.arange(u.shape[0]), n.astype(np.int64) - 1]
-    elif valid is None:
-        big, small = u.max(axis=1), u.min(axis=1)
+    G = rows.size
+    m = spec.max_degree - spec.min_degree + 1
+    P = spec.max_degree + spec.c
+    lengths = offsets[rows + 1] - offsets[rows]
+    sc = np.full((G, len(kern.SC)), np.nan)
+    cand = np.empty((len(kern.CAND), G, m))
+    coef, se = np.empty((G, P)), np.empty((G, P))
+    status = np.empty(G, dtype=np.int8)
+    crit = _crit(spec.alpha, int(lengths.max(initial=1)) + 1)
+    kern.fit_rows(u, z, np.empty(1) if w is None else w, w is None, offsets, rows,
+                  spec.min_degree, spec.max_degree, spec.intercept,
+                  kern.SELECT_CODES[spec.select], spec.need_press, crit, *tabs[:3],
+                  _binomials(P, 1 - spec.c), EXACT_FIT_RTOL ** 2, LEVERAGE_ONE,
+                  single.COND_CAUTION, sc, cand, coef, se, marks, resid, status)
+    ok = status == kern.OK
+    sc, cand, coef, se = sc[ok], cand[:, ok], coef[ok], se[ok]
+    fitted = rows[ok]
+    cols = {name: sc[:, SC[name]] for name in ("n", "degree", "df_residual", "rss", "sigma",
+                                              "r_squared", "adj_r_squared", "aic", "aicc",
+                                              "bic", "press", "shapiro_wilk", "durbin_watson",
+                                              "breusch_pagan", "n_outliers", "n_influential",
+                                              "n_high_leverage")}
+    cands = {name: cand[i] for i, name in enumerate(kern.CAND)}
+    cands["p_last"] = _p_last(cands, sc[:, SC["climb"]], spec)
+    n, degree = cols["n"], cols["degree"]
+    cols["shapiro_wilk"] = _shapiro_w(resid, offsets, fitted, n, cols["shapiro_wilk"], tabs)
+    with np.errstate(all="ignore"):
+        cols["shapiro_wilk_p"] = np.where(np.isnan(cols["shapiro_wilk"]), np.nan,
+                                          shapiro_p(cols["shapiro_wilk"], n))
+        cols["breusch_pagan_p"] = np.where(np.isnan(cols["breusch_pagan"]), np.nan,
+                                           special.chdtrc(np.maximum(degree, 1),
+                                                          cols["breusch_pagan"]))
+    cols["lack_of_fit_f"], cols["lack_of_fit_p"] = _lack_of_fit(
+        u, z, w, offsets, fitted, sc[:, SC["repeats"]] > 0, cols["rss"], sc[:, SC["p"]])
+    cols["flags"] = _flags(cols, sc[:, SC["p"]], sc[:, SC["exact"]] > 0,
+                           sc[:, SC["condition_number"]])
+    outliers, influential = _points(marks, offsets, fitted, cols)
+    return (ChunkResult(fitted, cols, coef, se, cands, outliers, influential), rows[~ok])
+
+
+def _p_last(cands, climb, spec: BlockSpec) -> np.ndarray:
+    """p-values of the last power where the sequential F climb looked (others NaN)."""
+    f, df = cands["f_last"], cands["df_residual"]
+    p = np.full(f.shape, np.nan)
+    if spec.select != "sequential_f" or f.size == 0:
+        return p
+    look = (np.arange(f.shape[1])[None, :] <= climb[:, None] + 1) & np.isfinite(f)
+    p[look] = special.fdtrc(1, np.maximum(df[look], 1), f[look])
+    return p
+
+
+def _lack_of_fit(u, z, w, offsets, rows, repeats, rss, p):
+    """Lack-of-fit F and p for the rows whose x repeats (NaN elsewhere)."""
+    lof_f = np.full(rows.size, np.nan)
+    lof_p = np.full(rows.size, np.nan)
+    for g in np.flatnonzero(repeats):
+        a, b = offsets[rows[g]], offsets[rows[g] + 1]
+        sw_row = None if w is None else np.sqrt(w[a:b])
+        zw_row = z[a:b] if sw_row is None else z[a:b] * sw_row
+        lof = lack_of_fit(u[a:b], zw_row, sw_row, float(rss[g]), int(p[g]))
+        if lof is not None:
+            lof_f[g], lof_p[g] = lof.f, lof.p_value
+    return lof_f, lof_p
+
+
+def _flags(cols, p, exact, cond) -> np.ndarray:
+    """Bit mask over :data:`FLAG_CODES`, by the rules of :mod:`service.core.flags`."""
+    n, dw = cols["n"], cols["durbin_watson"]
+    mask = np.zeros(n.shape, dtype=np.int64)
+    with np.errstate(invalid="ignore"):
+        for code, hit in (
+                ("exact_fit", exact),
+                ("no_residual_df", n == p),
+                ("few_points_per_parameter", (n != p) & (n < single.POINTS_PER_PARAMETER * p)),
+                ("ill_conditioned_design", cond > single.COND_CAUTION),
+                ("lack_of_fit", cols["lack_of_fit_p"] < single.TEST_ALPHA),
+                ("non_normal_residuals", cols["shapiro_wilk_p"] < single.TEST_ALPHA),
+                ("non_constant_variance", cols["breusch_pagan_p"] < single.TEST_ALPHA),
+                ("serial_correlation",
+                 ~np.isnan(dw) & ~((dw >= single.DW_LOW) & (dw <= single.DW_HIGH))),
+                ("outliers", cols["n_outliers"] > 0),
+                ("influential_points", cols["n_influential"] > 0),
+                ("high_leverage", cols["n_high_leverage"] > 0)):
+            mask |= np.where(hit, BIT[code], 0)
+    return mask
+
+
+def _shapiro_w(resid, offsets, rows, n, spread, tabs) -> np.ndarray:
+    """Shapiro-Wilk W from the kernel's residuals and sums of squared deviations."""
+    w = np.full(rows.size, np.nan)
+    need = np.flatnonzero(np.isfinite(spread))
+    if need.size == 0:
+        return w
+    lengths = n[need].astype(np.int64)
+    starts = offsets[rows[need]]
+    width = int(lengths.max())
+    if np.all(lengths == width) and np.all(np.diff(starts) == width):  # back to back
+        block = resid[starts[0]:starts[0] + need.size * width].reshape(need.size, width)
     else:
-        big = np.where(valid, u, -np.inf).max(axis=1)
-        small = np.where(valid, u, np.inf).min(axis=1)
-    if intercept:
-        shift = 0.5 * small + 0.5 * big
-        scale = 0.5 * big - 0.5 * small
-    else:
-        shift = np.zeros_like(big)
-        scale = np.maximum(np.abs(big), np.abs(small))
-    scale = np.where(scale > 0, scale, 1.0)
-    t = u - shift[:, None]
-    t /= scale[:, None]
-    if valid is not None:
-        t *= valid
-    return t, shift, scale
+        block = resid_checks.gather_padded(resid, starts, lengths, width)
+    srt = np.sort(block, axis=1)
+    slot, _, _, sw_start, sw_coef = tabs
+    num = resid_checks.shapiro_numerator(srt, lengths, slot, sw_start, sw_coef)
+    with np.errstate(all="ignore"):
+        w[need] = np.minimum(num * num / spread[need], 1.0)
+    return w
 
 
-def orthonormal_basis(t: np.ndarray, s: np.ndarray | None, p: int, intercept: bool):
-    """Orthonormal vectors ``q_k = s * P_k(t)`` for ``k < p`` and their power coefficients.
-
-    Parameters
-    ----------
-    t : ndarray (G, L)
-        Scaled x (0 where padded).
-    s : ndarray (G, L) or None
-        Square roots of the weights (0 where padded); None means all ones.
-    p : int
-        Number of columns (degree + 1 with intercept, degree without).
-    intercept : bool
-        Basis starts at the constant (True) or at ``t`` (False).
-
-    Returns
-    -------
-    q : ndarray (p, G, L)
-    coef : ndarray (G, p, p)
-        ``coef[:, m, k]`` is the coefficient of ``t**(m + start)`` in ``P_k``
-        (``start`` = 0 with intercept, 1 without): ``coef`` equals ``R^-1``.
-    """
-    G, L = t.shape
-    q = np.empty((p, G, L))
-    ck = np.zeros((p, G, p))                 # ck[k] = power coefficients of P_k (contiguous)
-    tmp = np.empty((G, L))
-    if intercept:
-        v = np.ones((G, L)) if s is None else s
-    else:
-        v = t if s is None else s * t
-    norm = np.sqrt(_dot(v, v))
-    np.multiply(v, (1.0 / norm)[:, None], out=q[0])
-    ck[0, :, 0] = 1.0 / norm
-    beta = None
-    first = 0
-    if intercept and s is None and p > 1:
-        # q_0 is constant 1/sqrt(L): q_1 is the centred t, normalized (3 passes, not 7)
-        alpha = t.mean(axis=1)
-        v = q[1]
-        np.subtract(t, alpha[:, None], out=v)
-        norm = np.sqrt(_dot(v, v))
-        v *= (1.0 / norm)[:, None]
-        ck[1, :, 1] = 1.0 / norm
-        ck[1, :, 0] = -alpha / norm
-        beta = norm / np.sqrt(L)   # = q_1' t q_0, the recurrence's next beta
-        first = 1
-    for k in range(first, p - 1):
-        # Stieltjes: t q_k = beta_{k+1} q_{k+1} + alpha_k q_k + beta_k q_{k-1}
-        v = q[k + 1]
-        np.multiply(t, q[k], out=v)
-        alpha = _dot(v, q[k])
-        v -= np.multiply(q[k], alpha[:, None], out=tmp)
-        c = ck[k + 1]
-        c[:, 1:] = ck[k, :, :-1]
-        c -= alpha[:, None] * ck[k]
-        if k > 0:
-            v -= np.multiply(q[k - 1], beta[:, None], out=tmp)
-            c -= beta[:, None] * ck[k - 1]
-        # second classical Gram-Schmidt sweep against every earlier vector
-        h = np.einsum("kgn,gn->gk", q[:k + 1], v)
-        v -= np.einsum("gk,kgn->gn", h, q[:k + 1])
-        c -= np.einsum("gk,kgm->gm", h, ck[:k + 1])
-        beta = np.sqrt(_dot(v, v))
-        inv = (1.0 / beta)[:, None]
-        v *= inv
-        c *= inv
-    return q, np.ascontiguousarray(ck.transpose(1, 2, 0))
-
-
-def effects(q: np.ndarray, zw: np.ndarray):
-    """Effects ``b_k = q_k' zw`` (G, p) and the residual after all p columns (G, L)."""
-    b = np.einsum("kgn,gn->gk", q, zw)
-    res = zw - np.einsum("gk,kgn->gn", b, q)
-    return b, res
-
-
-def raw_power_matrix(shift: np.ndarray, scale: np.ndarray, p: int, start: int) -> np.ndarray:
-    """Matrix ``T (G, p, p)`` with ``a_raw = T @ a_t`` for powers ``start .. start+p-1``.
-
-    ``t = (u - shift) / scale`` so ``t**m = sum_j C(m, j) u**j (-shift)**(m-j) / scale**m``
-    (as :func:`service.core.design.conversion`, here in float64).
-    """
-    m = np.arange(start, start + p)
-    binom = special.comb(m[None, :], m[:, None])            # C(m, j), zero for j > m
-    gap = np.maximum(m[None, :] - m[:, None], 0)
-    top = int(m[-1]) + 1
-    neg = np.cumprod(np.column_stack([np.ones_like(shift)] + [-shift] * (top - 1)), axis=1)
-    inv = np.cumprod(np.column_stack([np.ones_like(scale)] + [1.0 / scale] * (top - 1)), axis=1)
-    return binom[None] * neg[:, gap] * inv[:, None, m]
-
-
-def criteria(rss, ss_model, n, k, c, sum_log_w):
-    """Whole-fit measures of candidates with ``k`` coefficients (arrays broadcast).
-
-    Same conventions as :mod:`service.core.summary`: weighted sums of squares,
-    centred total SS with an intercept (``c`` = 1), uncentred without (``c`` = 0),
-    Gaussian log-likelihood at the ML variance, AIC = -2 llf + 2k, BIC = -2 llf + k log n,
-    AICc = AIC + 2k(k+1)/(n-k-1); ``sum_log_w`` is ``sum(log w)`` (0 unweighted).
-    Exact fits (rss == 0) have undefined criteria.
-    """
-    df = n - k
-    tss = ss_model + rss
-    with np.errstate(divide="ignore", invalid="ignore"):
-        r2 = np.where(tss > 0, ss_model / tss, np.nan)
-        adj = np.where((df > 0) & (tss > 0), 1 - (1 - r2) * (n - c) / df, np.nan)
-        sigma = np.where(df > 0, np.sqrt(rss / df), np.nan)
-        m2llf = np.where(rss > 0, n * (np.log(2 * np.pi) + np.log(rss / n) + 1) - sum_log_w,
-                         np.nan)
-        aic = m2llf + 2 * k
-        bic = m2llf + k * np.log(n)
-        aicc = np.where(n - k - 1 > 0, aic + 2 * k * (k + 1) / (n - k - 1), np.nan)
-    return {"df_residual": df, "rss": rss, "sigma": sigma, "r_squared": r2,
-            "adj_r_squared": adj, "aic": aic, "aicc": aicc, "bic": bic}
-
-
-def f_last(b_last, rss, df, exact, with_p=True):
-    """Sequential F of the last power (1 df) over the model's residual mean square, and p.
-
-    The p-values are the costly part; ``with_p=False`` returns them as NaN.
-    """
-    with np.errstate(divide="ignore", invalid="ignore"):
-        ok = (df > 0) & (rss > 0) & ~exact
-        f = np.where(ok, b_last ** 2 / (rss / df), np.nan)
-        if not with_p:
-            return f, np.full(f.shape, np.nan)
-        pv = special.fdtrc(1, np.maximum(df, 1), f)
-    return f, np.where(ok, pv, np.nan)
+def _points(marks, offsets, rows, cols):
+    """Indices (within each series) of the outlying and of the influential points."""
+    found = ({}, {})
+    for which, bit in enumerate((resid_checks.OUTLIER_BIT, resid_checks.INFLUENTIAL_BIT)):
+        if not (cols["n_outliers"] if which == 0 else cols["n_influential"]).any():
+            continue
+        where, index = resid_checks.collect(marks, offsets, rows, bit)
+        cuts = (np.flatnonzero(np.diff(where)) + 1).tolist()
+        index = index.tolist()
+        for g, a, b in zip(rows[where[[0, *cuts]]].tolist(), [0, *cuts], [*cuts, len(index)],
+                           strict=True):
+            found[which][g] = tuple(index[a:b])
+    return found

@@ -13,7 +13,7 @@ from functools import lru_cache
 
 import numpy as np
 
-from service.core.batch_diagnostics import FLAG_CODES
+from service.core.batch_engine import FLAG_CODES, ChunkResult
 from service.core.errors import FitError
 from service.core.results import FitReport, Notice
 
@@ -143,3 +143,29 @@ def fill_from_report(out: dict, row: int, report: FitReport) -> None:
     out["ok"][row] = True
     if report.warnings:
         out.setdefault("notices", {})[row] = tuple(report.warnings)
+
+
+def write_chunk(out: dict, res: ChunkResult, bspec) -> None:
+    """Copy the rows a kernel chunk fitted into the preallocated arrays."""
+    rows = res.rows
+    if rows.size == 0:
+        return
+    if rows[-1] - rows[0] == rows.size - 1:          # consecutive (rows are increasing)
+        rows = slice(int(rows[0]), int(rows[-1]) + 1)
+    cols = out["columns"]
+    for name, values in res.columns.items():
+        cols[name][rows] = values
+    cols["min_degree"][rows] = bspec.min_degree
+    width = res.coef.shape[1]
+    out["coefficients"][rows, :width] = res.coef
+    out["std_errors"][rows, :width] = res.se
+    for m in out["candidates"]:
+        values = res.candidates[m]
+        out["candidates"][m][rows, :values.shape[1]] = values
+    out["intercept"][rows] = bspec.intercept
+    out["select"][rows] = bspec.select
+    out["ok"][rows] = True
+    if res.outliers:
+        out.setdefault("outliers", {}).update(res.outliers)
+    if res.influential:
+        out.setdefault("influential", {}).update(res.influential)

@@ -1,4 +1,4 @@
-"""Vectorized residual tests and influence rules against scipy and statsmodels.
+"""Batch residual tests and influence rules against scipy and statsmodels.
 
 Oracles: scipy.stats.shapiro (Royston's AS R94), statsmodels durbin_watson,
 het_breuschpagan(robust=True) (Koenker's studentized form) and OLSInfluence
@@ -15,33 +15,56 @@ from statsmodels.stats.diagnostic import het_breuschpagan
 from statsmodels.stats.outliers_influence import OLSInfluence
 from statsmodels.stats.stattools import durbin_watson
 
-from service.core import ModelSpec
+from service.core import ModelSpec, batch_residuals
+from service.core import batch_engine as engine
 from service.core import batch_tests as bt
 from service.core.batch import fit_batch
 from tests.batch.conftest import ragged_series, rel
 
 
-def test_shapiro_wilk_rows_equal_scipy_for_every_length_3_to_120():
+def test_shapiro_wilk_of_ragged_rows_equals_scipy_for_every_length_3_to_120():
+    # oracle: scipy.stats.shapiro (AS R94) on each row; the rows have different lengths,
+    # so the padded gather-and-sort path is the one exercised
     rng = np.random.default_rng(17)
     lengths = np.arange(3, 121)
-    e = np.zeros((lengths.size, lengths.max()))
-    for i, n in enumerate(lengths):
-        e[i, :n] = rng.standard_t(5, n) if i % 2 else rng.normal(size=n)
-    w, p = bt.shapiro_wilk(e, lengths.astype(float), padded=True)
-    for i, n in enumerate(lengths):
-        ref = stats.shapiro(e[i, :n])
-        assert abs(w[i] - ref.statistic) < 1e-12, n
-        assert rel(p[i], ref.pvalue) < 1e-9, n
+    parts = [rng.standard_t(5, n) if i % 2 else rng.normal(size=n)
+             for i, n in enumerate(lengths)]
+    resid = np.concatenate(parts)
+    offsets = np.r_[0, np.cumsum(lengths)]
+    rows = np.arange(lengths.size)
+    spread = np.array([float(((v - v.mean()) ** 2).sum()) for v in parts])
+    tabs = engine.tables(lengths, 5)
+    w = engine._shapiro_w(resid, offsets, rows, lengths.astype(float), spread, tabs)
+    p = bt.shapiro_p(w, lengths.astype(float))
+    for i, v in enumerate(parts):
+        ref = stats.shapiro(v)
+        assert abs(w[i] - ref.statistic) < 1e-12, lengths[i]
+        assert rel(p[i], ref.pvalue) < 1e-9, lengths[i]
 
 
-def test_durbin_watson_rows_equal_statsmodels_with_padding():
+def test_shapiro_wilk_of_back_to_back_rows_equals_scipy():
+    # oracle: scipy.stats.shapiro; equal lengths stored back to back use a reshaped view
+    rng = np.random.default_rng(18)
+    parts = [rng.exponential(size=40) for _ in range(25)]
+    offsets = np.arange(26) * 40
+    spread = np.array([float(((v - v.mean()) ** 2).sum()) for v in parts])
+    n = np.full(25, 40.0)
+    w = engine._shapiro_w(np.concatenate(parts), offsets, np.arange(25), n, spread,
+                          engine.tables(np.full(25, 40), 5))
+    assert rel(w, [stats.shapiro(v).statistic for v in parts]) < 1e-12
+
+
+def test_residual_pass_durbin_watson_equals_statsmodels_for_many_lengths():
+    # oracle: statsmodels.stats.stattools.durbin_watson; with p = P = 0 the pass takes
+    # the given vector as the residuals
     rng = np.random.default_rng(2)
-    lengths = rng.integers(5, 60, 40)
-    e = np.zeros((40, 60))
-    for i, n in enumerate(lengths):
-        e[i, :n] = np.cumsum(rng.normal(size=n)) * 0.3 + rng.normal(size=n)
-    dw = bt.durbin_watson(e, lengths.astype(float), padded=True)
-    assert rel(dw, [durbin_watson(e[i, :n]) for i, n in enumerate(lengths)]) < 1e-12
+    for n in rng.integers(5, 60, 40).tolist():
+        e = np.cumsum(rng.normal(size=n)) * 0.3 + rng.normal(size=n)
+        got = batch_residuals.residual_pass(
+            e, np.zeros(1), np.zeros((1, n)), 0, 0, n, (np.inf, np.inf, np.inf),
+            np.zeros((1, n)), 0, np.zeros(2), np.zeros(n, dtype=np.uint8), np.empty(n), 0)
+        assert rel(got[4], durbin_watson(e)) < 1e-12
+        assert rel(got[3], ((e - e.mean()) ** 2).sum()) < 1e-9  # Shapiro-Wilk denominator
 
 
 def test_batch_diagnostics_equal_statsmodels_series_by_series():
