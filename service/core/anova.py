@@ -25,8 +25,8 @@ def sequential_table(effects: np.ndarray, degree: int, intercept: bool, rss: flo
     mse = rss / df_residual if df_residual > 0 else NAN
     f = ss / mse if rss > 0 else np.full(ss.shape, NAN)
     p = special.fdtrc(1, df_residual, f) if df_residual > 0 else np.full(ss.shape, NAN)
-    rows = [AnovaRow(term(k + 1), 1, float(ss[k]), float(ss[k]), float(f[k]), float(p[k]))
-            for k in range(degree)]
+    ssl, fl, pl = ss.tolist(), f.tolist(), p.tolist()
+    rows = [AnovaRow(term(k + 1), 1, ssl[k], ssl[k], fl[k], pl[k]) for k in range(degree)]
     rows.append(AnovaRow("residual", df_residual, rss, mse, NAN, NAN))
     return tuple(rows)
 

@@ -88,29 +88,36 @@ def decompose(u: np.ndarray, z: np.ndarray, w: np.ndarray | None, degrees: list[
     shift, scale = design.scaling(u, intercept, bounds)
     n = u.size
     sqrt_w = None if w is None else np.sqrt(w)
-    zw = z if sqrt_w is None else z * sqrt_w
-    t64 = design.to_t(u, shift, scale)
     p = max_degree + (1 if intercept else 0)
     first = 0 if intercept else 1
     sw = _NONE if sqrt_w is None else sqrt_w
-    rss = np.nan
-    r_inv = None
+    ps = np.array(degrees, dtype=np.int64) + (1 if intercept else 0)  # coefficients
     try:
+        if n <= qr.EXTENDED_MAX_ROWS and not (extended and qr.EXTENDED_IS_WIDER):
+            t64, zw, r, r_inv, effects, rss, column, press, sum_zw2 = kernels_qr.factor_short(
+                u, shift, scale, sw, z, first, p, RANK_TOL, ps, LEVERAGE_ONE)
+            if column >= 0:
+                raise qr.RankDeficient(column)
+            return Decomposition(intercept, max_degree, shift, scale, t64, sqrt_w, zw, r, r_inv,
+                                 r_inv, effects, effects, float(rss), float(sum_zw2),
+                                 tuple(press.tolist()), False)
+        zw = z if sqrt_w is None else z * sqrt_w
+        t64 = design.to_t(u, shift, scale)
+        rss = np.nan
+        r_inv = None
         if n > qr.EXTENDED_MAX_ROWS:
             got = _cholesky_qr2(t64, sw, zw, first, p)
             if got is None:  # too ill-conditioned for Gram passes: float64 Householder
                 r, effects, rss, r_inv = _householder64(t64, sw, zw, first, p)
             else:
                 r, effects, rss = got
-        elif extended and qr.EXTENDED_IS_WIDER:
+        else:
             t_ext = design.to_t(u, shift, scale, qr.EXTENDED)
             sw_ext = None if sqrt_w is None else sqrt_w.astype(qr.EXTENDED)
             a = np.empty((p + 1, n), dtype=qr.EXTENDED)
             design.basis_rows(t_ext, max_degree, intercept, sw_ext, out=a[:p])
             a[p] = zw
             r, effects, rss = qr.householder(a, p, RANK_TOL)
-        else:
-            r, effects, rss, r_inv = _householder64(t64, sw, zw, first, p)
     except qr.RankDeficient as exc:
         raise DesignError(
             f"The design for degree {max_degree} is numerically rank deficient (column "
@@ -121,14 +128,12 @@ def decompose(u: np.ndarray, z: np.ndarray, w: np.ndarray | None, degrees: list[
         r_inv = qr.triangular_inverse(r)
     r_inv64 = np.ascontiguousarray(r_inv, dtype=float)
     effects64 = np.ascontiguousarray(effects, dtype=float)
-    ps = np.array([d + (1 if intercept else 0) for d in degrees], dtype=np.int64)
     press, _, rss_pass = kernels_points.candidate_sums(t64, sw, zw, first, r_inv64, effects64,
                                                        ps, LEVERAGE_ONE)
     if np.isnan(rss):  # Gram passes: the residuals are formed in the candidate pass
         rss = rss_pass
-    sum_zw2 = qr.dot(zw, zw)
     return Decomposition(intercept, max_degree, shift, scale, t64, sqrt_w, zw, r, r_inv,
-                         r_inv64, effects, effects64, float(rss), sum_zw2,
+                         r_inv64, effects, effects64, float(rss), qr.dot(zw, zw),
                          tuple(press.tolist()), r.dtype != np.float64)
 
 

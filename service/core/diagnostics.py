@@ -75,7 +75,7 @@ def diagnose(index: np.ndarray, x: np.ndarray, dec: Decomposition, degree: int, 
         out[2:] = NAN
     tests = _tests(e, ss, ss_diff, proj, ss_zc, degree, exact, df)
     lof = lack_of_fit(x, dec.zw, dec.sqrt_w, rss, p, distinct)
-    outliers = tuple(index[(stud > bonf) | (stud < -bonf)].tolist())  # |stud| > bonf
+    outliers = tuple(index[np.abs(stud) > bonf].tolist())
     high = tuple(index[h > lev_cut].tolist()) if n > p else ()
     infl = tuple(index[cook > cook_cut].tolist())
     thresholds = {"outlier_alpha": OUTLIER_ALPHA, "outlier_t": bonf, "leverage": lev_cut,
