@@ -18,9 +18,9 @@ Conventions (documented for callers):
 from __future__ import annotations
 
 from functools import lru_cache
-from math import log, pi
 from typing import NamedTuple
 
+import numpy as np
 from scipy import special
 
 from service.core.decomposition import (  # noqa: F401  (LEVERAGE_ONE: re-exported)
@@ -28,9 +28,7 @@ from service.core.decomposition import (  # noqa: F401  (LEVERAGE_ONE: re-export
     LEVERAGE_ONE,
     Decomposition,
 )
-
-NAN = float("nan")
-LOG_2PI = log(2 * pi)
+from service.core.kernels_summary import candidate_table
 
 
 @lru_cache(maxsize=4096)
@@ -77,60 +75,25 @@ def candidate_measures(dec: Decomposition, degrees: list[int], sum_log_w: float
                        ) -> list[Measures]:
     """Whole-fit numbers of every candidate degree (``degrees`` ascending, as decomposed).
 
-    PRESS comes from the decomposition's candidate pass (``dec.press``).
-    Sums of squares of effects are sums of positive terms, so float64 keeps
-    them to full precision; the per-candidate arithmetic runs on Python
-    floats (at most 13 candidates, cheaper than numpy calls).
+    PRESS comes from the decomposition's candidate pass (``dec.press``); the
+    arithmetic of the conventions above runs in one compiled loop
+    (``kernels_summary.candidate_table``), the F tail probabilities in one
+    scipy call. Sums of squares of effects are sums of positive terms, so
+    float64 keeps them to full precision.
     """
     n = dec.t.size
     c = 1 if dec.intercept else 0
-    press_all = dec.press
-    e2 = (dec.effects64 ** 2).tolist()
-    big = len(e2)
-    tails = [0.0] * (big + 1)  # tails[p] = sum of e2[p:], summed from the small end
-    for j in range(big - 1, -1, -1):
-        tails[j] = tails[j + 1] + e2[j]
-    exact_cut = (EXACT_FIT_RTOL ** 2) * dec.sum_zw2
-    log_n, half_logw = log(n), 0.5 * sum_log_w
-    rows = []
-    ss_model = 0.0
-    first = True
-    for i, degree in enumerate(degrees):
-        p = degree + c
-        if first:
-            ss_model = sum(e2[c:p])
-            first = False
-        else:
-            ss_model += e2[p - 1]
-        df_model, df_res = p - c, n - p
-        rss = dec.rss_full + tails[p]
-        if rss <= exact_cut:
-            rss = 0.0
-        tss = ss_model + rss
-        exact = rss == 0.0 and df_res > 0
-        r2 = ss_model / tss if tss > 0 else NAN
-        adj = 1 - (1 - r2) * (n - c) / df_res if df_res > 0 and tss > 0 else NAN
-        mse = rss / df_res if df_res > 0 else NAN
-        sigma = mse ** 0.5 if df_res > 0 else NAN
-        fit_ok = df_res > 0 and rss > 0
-        f = (ss_model / df_model) / mse if fit_ok and df_model > 0 else NAN
-        f_last = e2[p - 1] / mse if fit_ok and p > c else NAN
-        if rss > 0:
-            llf = -0.5 * n * (LOG_2PI + log(rss / n) + 1) + half_logw
-            aic, bic = -2 * llf + 2 * p, -2 * llf + p * log_n
-            aicc = aic + 2 * p * (p + 1) / (n - p - 1) if n - p - 1 > 0 else NAN
-        else:
-            llf = aic = bic = aicc = NAN
-        press = 0.0 if exact else press_all[i]
-        pred_r2 = 1 - press / tss if tss > 0 else NAN
-        rows.append([degree, n, p, df_model, df_res, rss, tss, ss_model, r2, adj, sigma, f,
-                     NAN, llf, aic, aicc, bic, press, pred_r2, f_last, NAN, exact])
-    k = len(rows)
-    df_r = [r[4] for r in rows]
+    ps = [d + c for d in degrees]
+    table = candidate_table(dec.effects64, dec.rss_full, (EXACT_FIT_RTOL ** 2) * dec.sum_zw2,
+                            np.asarray(dec.press), n, c, np.asarray(ps, dtype=np.int64),
+                            0.5 * sum_log_w)
+    k = len(ps)
+    df_res = [n - p for p in ps]
     # one call for both: overall F on (df_model, df_res), last power's F on (1, df_res)
-    both = special.fdtrc([r[3] for r in rows] + [1] * k, df_r + df_r,
-                         [r[11] for r in rows] + [r[19] for r in rows]).tolist()
-    f_p, last_p = both[:k], both[k:]
-    for row, fp, lp in zip(rows, f_p, last_p, strict=True):
-        row[12], row[20] = fp, lp
-    return [Measures(*row) for row in rows]
+    probs = special.fdtrc([p - c for p in ps] + [1] * k, df_res + df_res,
+                          np.concatenate((table[:, 6], table[:, 13]))).tolist()
+    rows = table.tolist()
+    return [Measures(d, n, p, p - c, df, r[0], r[1], r[2], r[3], r[4], r[5], r[6], fp, r[7],
+                     r[8], r[9], r[10], r[11], r[12], r[13], lp, r[0] == 0.0 and df > 0)
+            for d, p, df, r, fp, lp in zip(degrees, ps, df_res, rows, probs[:k], probs[k:],
+                                           strict=True)]
