@@ -36,26 +36,35 @@ REORTHOGONALIZE = 0.5 ** 0.5
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy", fastmath={"reassoc"})
-def dot(a, b):
-    """``a . b``; reassociation lets the sum run in vector lanes (rounding order only)."""
+def dot(a, b, n):
+    """``a[:n] . b[:n]``; reassociation lets the sum run in vector lanes (rounding order only)."""
     acc = 0.0
-    for i in range(a.size):
+    for i in range(n):
         acc += a[i] * b[i]
     return acc
 
 
-@numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
-def axpy(alpha, x, y):
-    """``y -= alpha * x`` in place (no temporary array)."""
-    for i in range(y.size):
-        y[i] -= alpha * x[i]
+@numba.njit(cache=True, nogil=True, error_model="numpy", fastmath={"reassoc"})
+def rowdot(a, i, b, j, n):
+    """``a[i, :n] . b[j, :n]`` without forming row views."""
+    acc = 0.0
+    for k in range(n):
+        acc += a[i, k] * b[j, k]
+    return acc
 
 
-@numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
-def scale(y, factor):
-    """``y *= factor`` in place."""
-    for i in range(y.size):
-        y[i] *= factor
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def rowaxpy(alpha, a, i, b, j, n):
+    """``b[j, :n] -= alpha * a[i, :n]`` in place."""
+    for k in range(n):
+        b[j, k] -= alpha * a[i, k]
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def rowscale(a, i, factor, n):
+    """``a[i, :n] *= factor`` in place."""
+    for k in range(n):
+        a[i, k] *= factor
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
@@ -67,16 +76,19 @@ def basis(t, s, n, P, intercept, unit, q, ck):
             q[0, i] = 1.0 if unit else s[i]
         else:
             q[0, i] = t[i] if unit else s[i] * t[i]
-    norm = math.sqrt(dot(q[0, :n], q[0, :n]))
-    scale(q[0, :n], 1.0 / norm)
+    norm = math.sqrt(rowdot(q, 0, q, 0, n))
+    rowscale(q, 0, 1.0 / norm, n)
     ck[0, 0] = 1.0 / norm
     first, beta = 0, 0.0
     if intercept and unit and P > 1:  # q_0 is constant: q_1 is the centred t, normalized
-        alpha = t[:n].sum() / n
+        alpha = 0.0
+        for i in range(n):
+            alpha += t[i]
+        alpha /= n
         for i in range(n):
             q[1, i] = t[i] - alpha
-        norm = math.sqrt(dot(q[1, :n], q[1, :n]))
-        scale(q[1, :n], 1.0 / norm)
+        norm = math.sqrt(rowdot(q, 1, q, 1, n))
+        rowscale(q, 1, 1.0 / norm, n)
         ck[1, 1] = 1.0 / norm
         ck[1, 0] = -alpha / norm
         beta = norm / math.sqrt(n)
@@ -100,15 +112,15 @@ def basis(t, s, n, P, intercept, unit, q, ck):
             q[k + 1, i] -= alpha * q[k, i]
             if k > 0:
                 q[k + 1, i] -= beta * q[k - 1, i]
-        beta = math.sqrt(dot(q[k + 1, :n], q[k + 1, :n]))
+        beta = math.sqrt(rowdot(q, k + 1, q, k + 1, n))
         if beta < REORTHOGONALIZE * math.sqrt(before):
             for j in range(k + 1):  # cancellation: a second Gram-Schmidt sweep
-                h = dot(q[j, :n], q[k + 1, :n])
-                axpy(h, q[j, :n], q[k + 1, :n])
-                axpy(h, ck[j, :P], ck[k + 1, :P])
-            beta = math.sqrt(dot(q[k + 1, :n], q[k + 1, :n]))
-        scale(q[k + 1, :n], 1.0 / beta)
-        scale(ck[k + 1, :P], 1.0 / beta)
+                h = rowdot(q, j, q, k + 1, n)
+                rowaxpy(h, q, j, q, k + 1, n)
+                rowaxpy(h, ck, j, ck, k + 1, P)
+            beta = math.sqrt(rowdot(q, k + 1, q, k + 1, n))
+        rowscale(q, k + 1, 1.0 / beta, n)
+        rowscale(ck, k + 1, 1.0 / beta, P)
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")

@@ -26,6 +26,7 @@ from service.core.anova import lack_of_fit
 from service.core.batch_tests import SHAPIRO_MAX_N, shapiro_p, shapiro_weights
 from service.core.decomposition import EXACT_FIT_RTOL  # the one exact-fit cut-off
 from service.core.diagnostics import OUTLIER_ALPHA
+from service.core.inputs import TINY_LIMIT
 from service.core.summary import LEVERAGE_ONE  # leave-one-out residual undefined above
 
 FLAG_CODES = ("exact_fit", "no_residual_df", "few_points_per_parameter",
@@ -128,7 +129,7 @@ def fit_chunk(u, z, w, offsets, rows, spec: BlockSpec, tabs, marks, resid):
                   spec.min_degree, spec.max_degree, spec.intercept,
                   kern.SELECT_CODES[spec.select], spec.need_press, crit, *tabs[:3],
                   _binomials(P, 1 - spec.c), EXACT_FIT_RTOL ** 2, LEVERAGE_ONE,
-                  single.COND_CAUTION, sc, cand, coef, se, marks, resid, status)
+                  single.COND_CAUTION, TINY_LIMIT, sc, cand, coef, se, marks, resid, status)
     ok = status == kern.OK
     sc, cand, coef, se = sc[ok], cand[:, ok], coef[ok], se[ok]
     fitted = rows[ok]
@@ -215,9 +216,9 @@ def _shapiro_w(resid, offsets, rows, n, spread, tabs) -> np.ndarray:
         block = resid[starts[0]:starts[0] + need.size * width].reshape(need.size, width)
     else:
         block = resid_checks.gather_padded(resid, starts, lengths, width)
-    srt = np.sort(block, axis=1)
+    block.sort(axis=1)     # in place: the residuals are scratch once the kernel is done
     slot, _, _, sw_start, sw_coef = tabs
-    num = resid_checks.shapiro_numerator(srt, lengths, slot, sw_start, sw_coef)
+    num = resid_checks.shapiro_numerator(block, lengths, slot, sw_start, sw_coef)
     with np.errstate(all="ignore"):
         w[need] = np.minimum(num * num / spread[need], 1.0)
     return w
@@ -226,13 +227,15 @@ def _shapiro_w(resid, offsets, rows, n, spread, tabs) -> np.ndarray:
 def _points(marks, offsets, rows, cols):
     """Indices (within each series) of the outlying and of the influential points."""
     found = ({}, {})
-    for which, bit in enumerate((resid_checks.OUTLIER_BIT, resid_checks.INFLUENTIAL_BIT)):
-        if not (cols["n_outliers"] if which == 0 else cols["n_influential"]).any():
+    for which, (count, bit) in enumerate(((cols["n_outliers"], resid_checks.OUTLIER_BIT),
+                                          (cols["n_influential"], resid_checks.INFLUENTIAL_BIT))):
+        hit_rows = rows[count > 0]
+        if hit_rows.size == 0:
             continue
-        where, index = resid_checks.collect(marks, offsets, rows, bit)
+        where, index = resid_checks.collect(marks, offsets, hit_rows, bit)
         cuts = (np.flatnonzero(np.diff(where)) + 1).tolist()
         index = index.tolist()
-        for g, a, b in zip(rows[where[[0, *cuts]]].tolist(), [0, *cuts], [*cuts, len(index)],
-                           strict=True):
+        for g, a, b in zip(hit_rows[where[[0, *cuts]]].tolist(), [0, *cuts],
+                           [*cuts, len(index)], strict=True):
             found[which][g] = tuple(index[a:b])
     return found

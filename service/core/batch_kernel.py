@@ -46,6 +46,33 @@ _BREUSCH_PAGAN = SC.index("breusch_pagan")
 OK, REJECT = 0, 1          # status: fitted here / hand the series to fit_series
 NEAR_CRIT = 1e-9           # an F this close to its critical value is settled by fit_series
 _TWO_PI_LOG = math.log(2.0 * math.pi)
+MAX_FLOAT = float(np.finfo(np.float64).max)
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def _screen(uu, zz, w, a, n, unit, tiny):
+    """Whether a series suits the kernel, and the range of its x.
+
+    Every value finite (a transform outside its domain gives NaN or inf), weights
+    positive, and magnitudes whose squares sum safely in float64 (the limits of
+    :func:`service.core.inputs.check_magnitude`). Others go to fit_series.
+    """
+    limit = math.sqrt(MAX_FLOAT / (64.0 * max(n, 1)))
+    small, big, top_z, top_w = np.inf, -np.inf, 0.0, 0.0
+    for i in range(n):
+        x, y = uu[i], zz[i]
+        if not (math.isfinite(x) and math.isfinite(y)):
+            return False, small, big
+        small, big = min(small, x), max(big, x)
+        top_z = max(top_z, abs(y))
+        if not unit:
+            if not (math.isfinite(w[a + i]) and w[a + i] > 0):
+                return False, small, big
+            top_w = max(top_w, w[a + i])
+    for top in (max(abs(small), abs(big)), top_z, top_w):
+        if top > limit or 0 < top < tiny:
+            return False, small, big
+    return n > 0, small, big
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
@@ -85,7 +112,7 @@ def _select(code, cand, exact, f, crit, df, m, alpha_near):
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
 def fit_rows(u, z, w, unit, offsets, rows, dmin, dmax, intercept, code, need_press,
-             crit, slot, bonf, cook, binom, rtol2, lev_one, cond_caution,
+             crit, slot, bonf, cook, binom, rtol2, lev_one, cond_caution, tiny,
              sc, cand, coef, se, marks, resid, status):
     """Fit, select and diagnose each series ``rows[g]``; results go to row ``g`` of the outputs.
 
@@ -103,6 +130,10 @@ def fit_rows(u, z, w, unit, offsets, rows, dmin, dmax, intercept, code, need_pre
         and ``cook[., p]`` (median of ``F(p, n - p)``).
     binom : ndarray (P, P)
         ``binom[i, j] = C(j + start, i + start)`` (raw-x conversion).
+    rtol2, lev_one, cond_caution, tiny
+        Exact-fit cut-off (squared, relative to ``sum zw^2``), the leverage above
+        which a leave-one-out residual is undefined, the condition number handed to
+        fit_series, and the smallest magnitude whose squares stay normal.
     sc, cand, coef, se : ndarray
         Outputs (see :data:`SC`, :data:`CAND`); ``marks`` flat per point
         (outlier and influential bits); ``resid`` flat per point, the chosen
@@ -142,10 +173,12 @@ def fit_rows(u, z, w, unit, offsets, rows, dmin, dmax, intercept, code, need_pre
         n = offsets[rows[g] + 1] - a
         uu, zz = u[a:a + n], z[a:a + n]
         status[g] = REJECT
+        fine, small, big = _screen(uu, zz, w, a, n, unit, tiny)
+        if not fine:
+            continue        # fit_series' answer: its missing-value policy or its DataError
         n_distinct = distinct(uu, n)
         if n_distinct - c < dmax:
             continue        # fit_series lowers max_degree (or refuses): its answer
-        small, big = uu.min(), uu.max()
         if intercept:
             shift, scale = 0.5 * small + 0.5 * big, 0.5 * big - 0.5 * small
         else:
@@ -164,13 +197,13 @@ def fit_rows(u, z, w, unit, offsets, rows, dmin, dmax, intercept, code, need_pre
         basis(t, s, n, P, intercept, unit, q, ck)
         for i in range(n):
             zw[i] = zz[i] * s[i] if not unit else zz[i]
-        sum_zw2 = dot(zw[:n], zw[:n])
+        sum_zw2 = dot(zw, zw, n)
         k0 = 0
         if intercept:  # remove the weighted mean first: no cancellation on large offsets
             if unit:
                 zbar = zw[:n].sum() / n
             else:
-                zbar = dot(s[:n], zw[:n]) / sum_w
+                zbar = dot(s, zw, n) / sum_w
             for i in range(n):
                 res[i] = zw[i] - (zbar if unit else zbar * s[i])
             b[0] = zbar * math.sqrt(sum_w)
@@ -178,13 +211,16 @@ def fit_rows(u, z, w, unit, offsets, rows, dmin, dmax, intercept, code, need_pre
         else:
             res[:n] = zw[:n]
         for k in range(k0, P):   # effects, then the residual after all P columns
-            b[k] = dot(q[k, :n], res[:n])
+            acc = 0.0
+            for i in range(n):
+                acc += q[k, i] * res[i]
+            b[k] = acc
         for i in range(n):
             acc = 0.0
             for k in range(k0, P):
                 acc += b[k] * q[k, i]
             res[i] -= acc
-        rss_full = dot(res[:n], res[:n])
+        rss_full = dot(res, res, n)
         tail[P] = 0.0
         for k in range(P - 1, -1, -1):
             tail[k] = tail[k + 1] + b[k] * b[k]
