@@ -174,20 +174,69 @@ def conditions(r, tm):
     """2-norm condition numbers of the scaled-basis R and of the raw-power design.
 
     The raw one is taken with unit-norm columns (the usual scaled condition
-    number): ``R T^-1`` is the R factor of the raw design. It is inf when
-    ``T`` is empty (conversion out of the double range) or ``R T^-1`` is not
-    finite. A zero smallest singular value gives inf.
+    number): ``R T^-1`` (``T`` upper triangular, solved by substitution) is the
+    R factor of the raw design. It is inf when ``T`` is empty (conversion out
+    of the double range) or ``R T^-1`` is not finite. A zero smallest singular
+    value gives inf.
     """
-    sv = np.linalg.svd(r)[1]
-    basis = sv[0] / sv[-1] if sv[-1] > 0 else np.inf
+    basis = _condition(r)
     if tm.size == 0:
         return basis, np.inf
-    rr = np.linalg.solve(tm.T, r.T).T  # (R T^-1)
-    p = rr.shape[1]
+    p = r.shape[0]
+    rr = np.zeros((p, p))
+    for i in range(p):  # row i of R T^-1: x T = r_i, forward over the columns of T
+        for j in range(p):
+            acc = r[i, j]
+            for k in range(j):
+                acc -= rr[i, k] * tm[k, j]
+            rr[i, j] = acc / tm[j, j]
     for j in range(p):
         norm = np.sqrt(np.sum(rr[:, j] * rr[:, j]))
         rr[:, j] /= norm
     if not np.all(np.isfinite(rr)):
         return basis, np.inf
-    sr = np.linalg.svd(rr)[1]
-    return basis, sr[0] / sr[-1] if sr[-1] > 0 else np.inf
+    return basis, _condition(rr)
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def _condition(a):
+    """Largest over smallest singular value of a small square matrix (inf when singular).
+
+    One-sided Jacobi (Hestenes): plane rotations make the columns orthogonal;
+    the singular values are then the column norms, each to high relative
+    accuracy. Sweeps stop when no pair is further from orthogonal than
+    ``eps`` (at most 60 sweeps).
+    """
+    a = a.copy()
+    m, n = a.shape
+    eps = np.finfo(np.float64).eps
+    for _ in range(60):
+        rotated = False
+        for i in range(n - 1):
+            for j in range(i + 1, n):
+                alpha = 0.0
+                beta = 0.0
+                gamma = 0.0
+                for k in range(m):
+                    alpha += a[k, i] * a[k, i]
+                    beta += a[k, j] * a[k, j]
+                    gamma += a[k, i] * a[k, j]
+                if alpha == 0.0 or beta == 0.0 or abs(gamma) <= eps * np.sqrt(alpha * beta):
+                    continue
+                rotated = True
+                zeta = (beta - alpha) / (2.0 * gamma)
+                t = (1.0 if zeta >= 0 else -1.0) / (abs(zeta) + np.sqrt(1.0 + zeta * zeta))
+                c = 1.0 / np.sqrt(1.0 + t * t)
+                s = c * t
+                for k in range(m):
+                    ai, aj = a[k, i], a[k, j]
+                    a[k, i] = c * ai - s * aj
+                    a[k, j] = s * ai + c * aj
+        if not rotated:
+            break
+    top, low = 0.0, np.inf
+    for j in range(n):
+        norm = np.sqrt(np.sum(a[:, j] * a[:, j]))
+        top = max(top, norm)
+        low = min(low, norm)
+    return top / low if low > 0 else np.inf

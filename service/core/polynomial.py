@@ -251,10 +251,7 @@ def _coefficient_table(terms, raw, cov, df, level) -> tuple[Coefficient, ...]:
 
 def _conditions(r, shift, scale, degree, intercept) -> tuple[float, float]:
     """Condition numbers of the scaled-basis design and of the raw-power design
-    (``kernels_qr.conditions``); NaN when the SVD does not converge."""
+    (``kernels_qr.conditions``)."""
     tm = design.conversion_float(shift, scale, degree, intercept)
-    try:
-        basis, raw = kernels_qr.conditions(r, _NO_T if tm is None else tm)
-    except np.linalg.LinAlgError:  # pragma: no cover - SVD of a finite small matrix
-        return NAN, NAN
+    basis, raw = kernels_qr.conditions(r, _NO_T if tm is None else tm)
     return float(basis), float(raw)
