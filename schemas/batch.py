@@ -63,7 +63,7 @@ class BatchRequestSchema(StrictSchema):
         "description": "What null means in x, y or weights: error (default) or drop."})
     detail = StrictString(load_default="summary", validate=validate.OneOf(
         DETAILS, error=one_of_message(DETAILS)), metadata={
-        "description": "summary (default): compact result per series from the vectorized "
+        "description": "summary (default): compact result per series from the batch "
                        "engine. full: the whole /v1/fit report per series (slower)."})
     include = fields.List(StrictString(validate=validate.OneOf(
         SECTIONS, error=one_of_message(SECTIONS))), load_default=None, metadata={

@@ -36,6 +36,18 @@ def test_production_defaults():
     assert gunicorn_conf.timeout > 60  # above the app's own 60 s request deadline
 
 
+def test_worker_start_hook_loads_the_batch_kernel_and_freezes_start_up_objects():
+    # In a fresh interpreter, as in a new gunicorn worker: after the hook the compiled
+    # kernel is loaded (a batch fits) and the start-up objects are frozen (gc.freeze).
+    code = ("import gc; from service import gunicorn_conf; gunicorn_conf.post_worker_init(None); "
+            "from service.core import batch_kernel as k; "
+            "print(gc.get_freeze_count() > 10000, len(k.fit_rows.signatures) > 0)")
+    out = subprocess.run([sys.executable, "-c", code], cwd=ROOT, capture_output=True, text=True,
+                         timeout=300)
+    assert out.returncode == 0, out.stderr
+    assert out.stdout.split() == ["True", "True"]
+
+
 def test_help_lists_the_flags():
     out = subprocess.run([sys.executable, "-m", "service.cli", "serve", "--help"], cwd=ROOT,
                          capture_output=True, text=True, timeout=60)
