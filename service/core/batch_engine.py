@@ -131,8 +131,9 @@ def fit_chunk(u, z, w, offsets, rows, spec: BlockSpec, tabs, marks, resid):
                   _binomials(P, 1 - spec.c), EXACT_FIT_RTOL ** 2, LEVERAGE_ONE,
                   single.COND_CAUTION, TINY_LIMIT, sc, cand, coef, se, marks, resid, status)
     ok = status == kern.OK
-    sc, cand, coef, se = sc[ok], cand[:, ok], coef[ok], se[ok]
-    fitted = rows[ok]
+    fitted = rows
+    if not ok.all():
+        sc, cand, coef, se, fitted = sc[ok], cand[:, ok], coef[ok], se[ok], rows[ok]
     cols = {name: sc[:, SC[name]] for name in ("n", "degree", "df_residual", "rss", "sigma",
                                               "r_squared", "adj_r_squared", "aic", "aicc",
                                               "bic", "press", "shapiro_wilk", "durbin_watson",

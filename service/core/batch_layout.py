@@ -11,7 +11,7 @@ import numpy as np
 
 from service.core import transforms
 
-CHUNK_POINTS = 65_536   # points per kernel call: bounds scratch memory, feeds the threads
+CHUNK_POINTS = 131_072   # points per kernel call: bounds scratch memory, feeds the threads
 
 
 def screen(x, y, w, offsets, rows, model, raw):
