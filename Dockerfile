@@ -29,10 +29,10 @@ COPY requirements.lock ./
 RUN pip install --no-cache-dir --requirement requirements.lock
 COPY --from=build /wheels /wheels
 RUN pip install --no-cache-dir --no-deps /wheels/*.whl && rm -rf /wheels
-# Compile the batch kernel at build time (numba caches machine code; a host with another
+# Compile the numerical kernels at build time (numba caches machine code; a host with another
 # CPU model recompiles once into the same directory, so it stays writable for the server).
 ENV NUMBA_CACHE_DIR=/app/.numba-cache
-RUN python -c "from service.core.batch import warm_up; warm_up()" \
+RUN python -c "from service.core.warmup import warm_up; warm_up()" \
     && chown -R 10001:10001 /app/.numba-cache
 USER 10001:10001
 EXPOSE 8000

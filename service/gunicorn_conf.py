@@ -77,10 +77,10 @@ def on_starting(server):
 
 
 def post_worker_init(worker):
-    """Load the compiled batch kernel before the worker takes its first request.
+    """Load the compiled kernels before the worker takes its first request.
 
     numba caches the machine code on disk: only the very first boot of an install
-    compiles (~15 s; the container image does it at build time).
+    compiles (tens of seconds; the container image does it at build time).
 
     Then the objects alive after start-up (modules, the app, compiled code: some
     200,000) are moved out of the garbage collector's reach (``gc.freeze``): a full
@@ -88,7 +88,7 @@ def post_worker_init(worker):
     """
     import gc
 
-    from service.core.batch import warm_up
+    from service.core.warmup import warm_up
 
     warm_up()
     gc.collect()

@@ -5,7 +5,7 @@ from __future__ import annotations
 from flask import Response, current_app, request, stream_with_context
 from flask_smorest import Blueprint
 
-from schemas.batch import BatchRequestSchema, BatchResponseSchema, SeriesSchema
+from schemas.batch import BatchRequestSchema, BatchResponseSchema, SeriesSchema, load_plain_series
 from service.api.batch_job import BatchJob, gc_paused
 from service.api.batch_stream import stream
 from service.api.error_docs import error_responses
@@ -72,5 +72,9 @@ def _json_batch(settings):
         raise _too_large(f"The batch has {total} points in all; the limit is "
                          f"{settings.max_total_points}. Split it into several requests.")
     job = BatchJob(envelope, settings)
-    results = job.results([job.series(obj, i) for i, obj in enumerate(series)])
+    plain = load_plain_series(series, settings.max_points)
+    if plain is not None:     # every series plain: checked and gathered in bulk
+        results = job.plain_results(*plain)
+    else:
+        results = job.results([job.series(obj, i) for i, obj in enumerate(series)])
     return current_app.json.response({"results": results, "summary": job.counts})

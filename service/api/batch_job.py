@@ -14,7 +14,7 @@ import numpy as np
 from marshmallow import ValidationError
 
 from schemas.batch import load_series, summary_rows
-from service.core.batch import fit_batch
+from service.core.batch import fit_batch, fit_many
 from service.core.design import term_names
 from service.core.spec import FitOptions
 from service.errors import ServiceLimitError, fit_error_body, flatten_errors, problem_body
@@ -51,6 +51,15 @@ class BatchJob:
         batch = fit_batch([items[i][1] for i in fit_idx], model=self.model,
                           models=[items[i][1][3] for i in fit_idx], options=self.options,
                           detail=self.detail)
+        return self._assemble(items, fit_idx, batch)
+
+    def plain_results(self, ids, x, y, lengths):
+        """Results for series already in flat arrays (:func:`schemas.batch.load_plain_series`)."""
+        batch = fit_many(x, y, lengths, model=self.model, options=self.options,
+                         detail=self.detail)
+        return self._assemble([(ident, ()) for ident in ids], range(len(ids)), batch)
+
+    def _assemble(self, items, fit_idx, batch):
         ok_rows = np.flatnonzero(batch.ok).tolist()
         bodies = dict(zip(ok_rows, self._fits(batch, ok_rows), strict=True))
         out = []
@@ -81,6 +90,8 @@ class BatchJob:
     def series(self, obj, position: int):
         """(id, (x, y, w, ModelSpec|None)) or (id, problem body) for one series object."""
         ident = obj.get("id", position) if isinstance(obj, dict) else position
+        if isinstance(ident, bool) or not isinstance(ident, (str, int)):
+            ident = position   # an invalid id is not echoed back: the result has a valid one
         try:
             ident, x, y, w, model = load_series(obj, position)
         except ValidationError as exc:

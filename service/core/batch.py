@@ -233,15 +233,3 @@ def fit_chunks(series, *, chunk_series: int = 4096, model: ModelSpec = _MODEL,
         yield start, fit_batch(buf, model=model, models=models, options=options,
                                detail=detail, workers=workers)
 
-
-def warm_up() -> None:
-    """Load (or compile and cache) the compiled batch kernel before the first real batch.
-
-    The first call in a fresh install compiles for ~15 s and caches the machine code
-    on disk (numba, next to the modules or in ``NUMBA_CACHE_DIR``); later processes
-    load it in ~0.3 s. Servers call this before taking traffic.
-    """
-    x = np.tile(np.arange(8.0), 2)
-    y = 1.0 + x + 0.1 * np.sin(7.0 * x)
-    fit_many(x, y, [8, 8], model=ModelSpec(max_degree=2))
-    fit_many(x, y, [8, 8], np.ones(16), model=ModelSpec(max_degree=2, intercept=False))

@@ -36,9 +36,10 @@ def test_production_defaults():
     assert gunicorn_conf.timeout > 60  # above the app's own 60 s request deadline
 
 
-def test_worker_start_hook_loads_the_batch_kernel_and_freezes_start_up_objects():
+def test_worker_start_hook_loads_the_kernels_and_freezes_start_up_objects():
     # In a fresh interpreter, as in a new gunicorn worker: after the hook the compiled
-    # kernel is loaded (a batch fits) and the start-up objects are frozen (gc.freeze).
+    # kernels are loaded (a batch and a single fit ran) and the start-up objects are
+    # frozen (gc.freeze).
     code = ("import gc; from service import gunicorn_conf; gunicorn_conf.post_worker_init(None); "
             "from service.core import batch_kernel as k; "
             "print(gc.get_freeze_count() > 10000, len(k.fit_rows.signatures) > 0)")
