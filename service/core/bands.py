@@ -95,7 +95,8 @@ def _predict(fitted: FittedPolynomial, x, level: float | None, m: int) -> Predic
         tq = wh = float("nan")
     rows, extrap, finite = kernels_bands.curve_bands(
         xs, u, fitted.x_shift, fitted.x_scale, 0 if fitted.intercept else 1,
-        fitted.basis_coefficients, upper_inverse(fitted.r_factor), fitted.sigma, tq, wh, m,
+        np.array(fitted.basis_coefficients, dtype=float), upper_inverse(np.array(fitted.r_factor,
+        dtype=float)), fitted.sigma, tq, wh, m,
         fitted.x_min, fitted.x_max)
     fit, se = rows[0], rows[1]
     lo, hi = rows[2::2], rows[3::2]  # rows: mean, obs, band

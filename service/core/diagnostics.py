@@ -64,8 +64,8 @@ def diagnose(index: np.ndarray, x: np.ndarray, dec: Decomposition, degree: int, 
     tested = not exact and df >= 1
     bp_rinv = _bp_basis(dec, degree) if tested and 1 <= degree < n - 1 else _NO_BASIS
     ss, ss_diff, proj, ss_zc = kernels_points.point_measures(
-        dec.t, dec.weights, dec.zw, dec.first, dec.r_inv64[:p, :p], dec.effects64, p, rss, df,
-        bp_rinv, out)
+        dec.t, dec.weights, dec.zw, dec.first, np.ascontiguousarray(dec.r_inv64[:p, :p]),
+        dec.effects64, p, rss, df, bp_rinv, out)
     e, h, std, stud, cook, dffits = out
     raw = e if dec.sqrt_w is None else e / dec.sqrt_w
     bonf = t_quantile(df - 1, 1 - OUTLIER_ALPHA / (2 * n)) if df > 1 else NAN
@@ -102,7 +102,7 @@ def _bp_basis(dec: Decomposition, degree: int) -> np.ndarray:
     """``R^-1`` of the unweighted powers ``1, t, ..., t^degree``: the fit's own when it is
     unweighted with an intercept, else from a fresh QR."""
     if dec.sqrt_w is None and dec.intercept:
-        return dec.r_inv64[:degree + 1, :degree + 1]
+        return np.ascontiguousarray(dec.r_inv64[:degree + 1, :degree + 1])
     r = np.linalg.qr(np.vander(dec.t, degree + 1, increasing=True), mode="r")
     return np.ascontiguousarray(triangular_inverse(r))
 

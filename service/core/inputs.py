@@ -55,6 +55,8 @@ def _as_vector(values, name: str) -> np.ndarray:
     if arr.ndim != 1:
         raise DataError(f"{name} must be one-dimensional, got shape {arr.shape}.", field=name,
                         fix=f"Send {name} as a flat array of numbers.")
+    if not (arr.flags.c_contiguous and arr.flags.writeable):  # one compiled signature for all
+        arr = arr.copy()
     return arr
 
 

@@ -42,6 +42,7 @@ FLOAT64_TOL = 1e-12  # estimated relative error above which the fit repeats in l
 
 
 _NO_T = np.empty((0, 0))
+_NO_T.setflags(write=False)  # read-only like the cached conversion matrices (one signature)
 _DEFAULT_MODEL = ModelSpec()
 _DEFAULT_OPTIONS = FitOptions()
 
@@ -120,7 +121,7 @@ def _fit(x, y, weights, model: ModelSpec, options: FitOptions) -> FitReport:
                                        (rinv @ rinv.T) * np.longdouble(sigma2))
     sigma = 0.0 if m.exact else m.sigma
     terms = design.term_names(degree, intercept)
-    r64 = np.asarray(dec.r[:p, :p], dtype=float)
+    r64 = np.ascontiguousarray(dec.r[:p, :p], dtype=float)
     cond, raw_cond = _conditions(r64, dec.shift, dec.scale, degree, intercept)
     if lost:
         notices.append(Notice("raw_coefficients_overflow",
