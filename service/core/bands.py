@@ -32,7 +32,7 @@ import numpy as np
 from service.core import kernels_bands, transforms
 from service.core.errors import DataError, SpecError
 from service.core.kernels_qr import upper_inverse
-from service.core.results import FittedPolynomial, Prediction, frozen_array
+from service.core.results import FittedPolynomial, Prediction, frozen_array, frozen_rows
 from service.core.summary import f_quantile, t_quantile
 
 
@@ -107,10 +107,12 @@ def _predict(fitted: FittedPolynomial, x, level: float | None, m: int) -> Predic
         if not transforms.is_increasing(name):
             lo, hi = hi, lo
         finite = bool(np.isfinite(lo).all() and np.isfinite(hi).all())
-    values = [fit, se, lo[0], hi[0], lo[1], hi[1], lo[2], hi[2]]
-    # finite limits imply a finite fit and se (an infinite or NaN one spreads to the limits)
-    if not finite:
-        if any(np.isinf(a).any() for a in values):  # overflow far outside the data: undefined
+    if name == "none" and finite:  # the usual case: read-only views of the kernel's rows
+        values = frozen_rows(rows)
+    else:
+        values = [fit, se, lo[0], hi[0], lo[1], hi[1], lo[2], hi[2]]
+        # finite limits imply a finite fit and se (an infinite or NaN one spreads to the limits)
+        if not finite and any(np.isinf(a).any() for a in values):  # far outside the data
             values = [np.where(np.isinf(a), np.nan, a) for a in values]
-    return Prediction(frozen_array(xs), *(frozen_array(a) for a in values),
-                      frozen_array(extrap, dtype=bool), level)
+        values = [frozen_array(a) for a in values]
+    return Prediction(frozen_array(xs), *values, frozen_array(extrap, dtype=bool), level)

@@ -28,7 +28,7 @@ from service.core.anova import lack_of_fit
 from service.core.decomposition import Decomposition
 from service.core.normality import shapiro_wilk
 from service.core.qr import triangular_inverse
-from service.core.results import Diagnostics, TestResult, frozen_array
+from service.core.results import Diagnostics, TestResult, frozen_array, frozen_rows
 from service.core.summary import f_quantile, t_quantile
 
 NAN = float("nan")
@@ -67,7 +67,6 @@ def diagnose(index: np.ndarray, x: np.ndarray, dec: Decomposition, degree: int, 
         dec.t, dec.weights, dec.zw, dec.first, np.ascontiguousarray(dec.r_inv64[:p, :p]),
         dec.effects64, p, rss, df, bp_rinv, out)
     e, h, std, stud, cook, dffits = out
-    raw = e if dec.sqrt_w is None else e / dec.sqrt_w
     bonf = t_quantile(df - 1, 1 - OUTLIER_ALPHA / (2 * n)) if df > 1 else NAN
     cook_cut = f_quantile(p, df, 0.5) if df > 0 else NAN
     lev_cut = 2 * p / n
@@ -81,9 +80,10 @@ def diagnose(index: np.ndarray, x: np.ndarray, dec: Decomposition, degree: int, 
     thresholds = {"outlier_alpha": OUTLIER_ALPHA, "outlier_t": bonf, "leverage": lev_cut,
                   "cooks_distance": cook_cut, "dffits": 2 * math.sqrt(p / n),
                   **flags.THRESHOLDS}
-    return Diagnostics(frozen_array(index, dtype=int), frozen_array(raw), frozen_array(std),
-                       frozen_array(stud), frozen_array(h), frozen_array(cook),
-                       frozen_array(dffits), tests, lof, outliers, high, infl, thresholds)
+    e, h, std, stud, cook, dffits = frozen_rows(out)
+    raw = e if dec.sqrt_w is None else frozen_array(e / dec.sqrt_w)
+    return Diagnostics(frozen_array(index, dtype=int), raw, std, stud, h, cook, dffits, tests,
+                       lof, outliers, high, infl, thresholds)
 
 
 def _tests(e: np.ndarray, ss: float, ss_diff: float, proj: np.ndarray, ss_zc: float,

@@ -24,6 +24,12 @@ def frozen_array(values, dtype=float) -> np.ndarray:
     return arr
 
 
+def frozen_rows(values: np.ndarray) -> list[np.ndarray]:
+    """Read-only row views of a 2-D float array (one flag change for all rows)."""
+    values.setflags(write=False)
+    return list(values)
+
+
 @dataclass(frozen=True, slots=True)
 class Notice:
     """A numerical or data warning turned into data (``code`` is stable snake_case)."""
