@@ -128,20 +128,6 @@ def triangular_inverse(r: np.ndarray) -> np.ndarray:
     return inv
 
 
-def singular_values(a: np.ndarray) -> np.ndarray:
-    """Singular values of a small float64 matrix (or a stack), largest first (``np.linalg.svd``'s
-    kernel).
-
-    Call inside ``np.errstate(all="ignore")``: no convergence gives NaN, not an exception.
-    """
-    if _kernels is not None:
-        return _kernels.svd(a, signature="d->d")
-    try:
-        return np.linalg.svd(a, compute_uv=False)
-    except np.linalg.LinAlgError:
-        return np.full(a.shape[:-2] + (min(a.shape[-2:]),), np.nan)
-
-
 def solve(a: np.ndarray, b: np.ndarray) -> np.ndarray | None:
     """``a^-1 b`` for small float64 matrices (``np.linalg.solve``'s kernel); None if singular.
 
@@ -152,19 +138,5 @@ def solve(a: np.ndarray, b: np.ndarray) -> np.ndarray | None:
         return out if not np.isnan(out).all() else None
     try:
         return np.linalg.solve(a, b)
-    except np.linalg.LinAlgError:
-        return None
-
-
-def inverse(a: np.ndarray) -> np.ndarray | None:
-    """Inverse of a small float64 matrix (``np.linalg.inv``'s kernel); None if singular.
-
-    Call inside ``np.errstate(all="ignore")``.
-    """
-    if _kernels is not None:
-        out = _kernels.inv(a, signature="d->d")
-        return out if np.isfinite(out).all() else None
-    try:
-        return np.linalg.inv(a)
     except np.linalg.LinAlgError:
         return None
