@@ -30,6 +30,10 @@ def warm_up() -> None:
                                                      transform_x="log"),
                options=FitOptions(grid=GridSpec(count=5)))
     predict(report.model, [1.5, 2.5], level=0.95)
+    # a long series takes the CholeskyQR2 path; an exact fit repeats in extended precision
+    long_x = np.arange(1.0, 5002.0)
+    fit_series(long_x, np.sqrt(long_x), model=ModelSpec(max_degree=3))
+    fit_series(x, 2.0 + 3.0 * x, model=ModelSpec(degree=1))
     x2, y2 = np.tile(x[:8], 2), np.tile(y[:8], 2)
     fit_many(x2, y2, [8, 8], model=ModelSpec(max_degree=2))
     fit_many(x2, y2, [8, 8], np.ones(16), model=ModelSpec(max_degree=2, intercept=False))
