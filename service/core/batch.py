@@ -162,15 +162,17 @@ def fit_many(x, y, lengths, weights=None, *, model: ModelSpec = _MODEL, models=N
     def run(job):
         chunk, _, bspec, u, z, tabs = job
         with np.errstate(all="ignore"):  # undefined values become NaN data, not warnings
-            return batch_engine.fit_chunk(u, z, w, offsets, chunk, bspec, tabs, marks, resid)
+            res, rejected = batch_engine.fit_chunk(u, z, w, offsets, chunk, bspec, tabs,
+                                                   marks, resid)
+        write_chunk(out, res, bspec)   # chunks own disjoint rows: threads write in parallel
+        return rejected
 
     if workers > 1 and len(jobs) > 1:
         with ThreadPoolExecutor(workers) as pool:
             results = list(pool.map(run, jobs))
     else:
         results = [run(job) for job in jobs]
-    for (_, spec_model, bspec, *_), (res, rejected) in zip(jobs, results, strict=True):
-        write_chunk(out, res, bspec)
+    for (_, spec_model, *_), rejected in zip(jobs, results, strict=True):
         fallback.extend((int(r), spec_model) for r in rejected)
     single = options if detail == "full" else replace(options, grid=None,
                                                       include=_SUMMARY_INCLUDE)
