@@ -23,7 +23,7 @@ from service.core import batch_kernel as kern
 from service.core import batch_residuals as resid_checks
 from service.core import flags as single
 from service.core.anova import lack_of_fit
-from service.core.batch_tests import SHAPIRO_MAX_N, shapiro_p, shapiro_weights
+from service.core.batch_tests import SHAPIRO_MAX_N, shapiro_weights
 from service.core.decomposition import EXACT_FIT_RTOL  # the one exact-fit cut-off
 from service.core.diagnostics import OUTLIER_ALPHA
 from service.core.inputs import TINY_LIMIT
@@ -142,10 +142,9 @@ def fit_chunk(u, z, w, offsets, rows, spec: BlockSpec, tabs, marks, resid):
     cands = {name: cand[i] for i, name in enumerate(kern.CAND)}
     cands["p_last"] = _p_last(cands, sc[:, SC["climb"]], spec)
     n, degree = cols["n"], cols["degree"]
-    cols["shapiro_wilk"] = _shapiro_w(resid, offsets, fitted, n, cols["shapiro_wilk"], tabs)
+    cols["shapiro_wilk"], cols["shapiro_wilk_p"] = _shapiro_w(resid, offsets, fitted, n,
+                                                              cols["shapiro_wilk"], tabs)
     with np.errstate(all="ignore"):
-        cols["shapiro_wilk_p"] = np.where(np.isnan(cols["shapiro_wilk"]), np.nan,
-                                          shapiro_p(cols["shapiro_wilk"], n))
         cols["breusch_pagan_p"] = np.where(np.isnan(cols["breusch_pagan"]), np.nan,
                                            special.chdtrc(np.maximum(degree, 1),
                                                           cols["breusch_pagan"]))
@@ -204,12 +203,13 @@ def _flags(cols, p, exact, cond) -> np.ndarray:
     return mask
 
 
-def _shapiro_w(resid, offsets, rows, n, spread, tabs) -> np.ndarray:
-    """Shapiro-Wilk W from the kernel's residuals and sums of squared deviations."""
+def _shapiro_w(resid, offsets, rows, n, spread, tabs) -> tuple[np.ndarray, np.ndarray]:
+    """Shapiro-Wilk W and p from the kernel's residuals and sums of squared deviations."""
     w = np.full(rows.size, np.nan)
+    p = np.full(rows.size, np.nan)
     need = np.flatnonzero(np.isfinite(spread))
     if need.size == 0:
-        return w
+        return w, p
     lengths = n[need].astype(np.int64)
     starts = offsets[rows[need]]
     width = int(lengths.max())
@@ -219,10 +219,9 @@ def _shapiro_w(resid, offsets, rows, n, spread, tabs) -> np.ndarray:
         block = resid_checks.gather_padded(resid, starts, lengths, width)
     block.sort(axis=1)     # in place: the residuals are scratch once the kernel is done
     slot, _, _, sw_start, sw_coef = tabs
-    num = resid_checks.shapiro_numerator(block, lengths, slot, sw_start, sw_coef)
-    with np.errstate(all="ignore"):
-        w[need] = np.minimum(num * num / spread[need], 1.0)
-    return w
+    w[need], p[need] = resid_checks.shapiro_w_p(block, lengths, slot, sw_start, sw_coef,
+                                                spread[need])
+    return w, p
 
 
 def _points(marks, offsets, rows, cols):

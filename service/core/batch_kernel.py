@@ -141,7 +141,7 @@ def fit_rows(u, z, w, unit, offsets, rows, dmin, dmax, intercept, code, need_pre
         The ``shapiro_wilk`` column receives the residuals' sum of squared
         deviations (NaN where the test does not apply): W needs sorted
         residuals, which numpy's vectorized sort gives faster
-        (:func:`shapiro_numerator`).
+        (:func:`service.core.batch_residuals.shapiro_w_p`).
     """
     c = 1 if intercept else 0
     P = dmax + c

@@ -5,15 +5,17 @@ fit: residuals, hat diagonals, the outlier and influence marks, and the sums
 behind Shapiro-Wilk's denominator, Durbin-Watson and Breusch-Pagan (Koenker's
 studentized form, ``LM = n R^2`` of ``e^2`` on the unweighted orthonormal
 powers of t). Shapiro-Wilk needs the residuals sorted; numpy's vectorized sort
-does that for a whole chunk (:func:`gather_padded`, then :func:`shapiro_numerator`).
+does that for a whole chunk (:func:`gather_padded`, then :func:`shapiro_w_p`).
 """
 
 from __future__ import annotations
 
+import math
+
 import numba
 import numpy as np
 
-from service.core.batch_tests import SHAPIRO_MAX_N
+from service.core.batch_tests import C3, C4, C5, C6, GAMMA, SHAPIRO_MAX_N
 
 OUTLIER_BIT, INFLUENTIAL_BIT = 1, 2
 
@@ -98,16 +100,46 @@ def gather_padded(resid, starts, lengths, width):
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
-def shapiro_numerator(srt, lengths, slot, sw_start, sw_coef):
-    """``c . e_sorted`` per row with the AS R94 weights of that row's length."""
-    out = np.empty(srt.shape[0])
+def _poly(coefs, x):
+    out = coefs[-1]
+    for i in range(len(coefs) - 2, -1, -1):
+        out = out * x + coefs[i]
+    return out
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def shapiro_p(w, n):
+    """Royston's p-value for Shapiro-Wilk's W of ``n`` points (AS R94); NaN below 3 points."""
+    if n < 3 or w != w:
+        return np.nan
+    if n == 3:
+        return max(6.0 / math.pi * (math.asin(math.sqrt(w)) - math.pi / 3.0), 0.0)
+    y = math.log1p(-w)
+    if n >= 12:
+        ln = math.log(n)
+        z = (y - _poly(C5, ln)) / math.exp(_poly(C6, ln))
+    else:
+        gamma = _poly(GAMMA, n)
+        if y >= gamma:
+            return 1e-99
+        z = (-math.log(gamma - y) - _poly(C3, n)) / math.exp(_poly(C4, n))
+    return 0.5 * math.erfc(z / math.sqrt(2.0))   # upper normal tail at z
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def shapiro_w_p(srt, lengths, slot, sw_start, sw_coef, spread):
+    """W = (c . e_sorted)^2 / spread with the AS R94 weights of each row's length, and its p."""
+    w = np.empty(srt.shape[0])
+    p = np.empty(srt.shape[0])
     for g in range(srt.shape[0]):
         at = sw_start[slot[lengths[g]]]
         acc = 0.0
         for i in range(lengths[g]):
             acc += sw_coef[at + i] * srt[g, i]
-        out[g] = acc
-    return out
+        value = acc * acc / spread[g]
+        w[g] = 1.0 if value > 1.0 else value
+        p[g] = shapiro_p(w[g], lengths[g])
+    return w, p
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")

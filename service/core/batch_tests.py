@@ -1,10 +1,10 @@
-"""Shapiro-Wilk tables for the batch kernel: the weights per length and W's p-value.
+"""Shapiro-Wilk constants for the batch kernel: AS R94 weights per length, p-value polynomials.
 
 Royston's approximation, algorithm AS R94 (Royston 1995, *Applied Statistics*
 44, 547-551) — the algorithm behind ``scipy.stats.shapiro``, whose output the
 tests use as the oracle. The kernel (:mod:`service.core.batch_kernel`) forms
-``W = (c . e_sorted)^2 / SS`` with these weights; :func:`shapiro_p` turns the
-W of a whole chunk into p-values at once.
+``W = (c . e_sorted)^2 / SS`` with these weights; ``batch_residuals.shapiro_p``
+turns W into its p-value with the polynomials ``C3`` .. ``C6`` and ``GAMMA``.
 """
 
 from __future__ import annotations
@@ -15,13 +15,13 @@ import numpy as np
 from scipy import special
 
 # AS R94 polynomial coefficients (Royston 1995), lowest power first.
-_C1 = (0.0, 0.221157, -0.147981, -2.07119, 4.434685, -2.706056)
-_C2 = (0.0, 0.042981, -0.293762, -1.752461, 5.682633, -3.582633)
-_C3 = (0.544, -0.39978, 0.025054, -6.714e-4)
-_C4 = (1.3822, -0.77857, 0.062767, -0.0020322)
-_C5 = (-1.5861, -0.31082, -0.083751, 0.0038915)
-_C6 = (-0.4803, -0.082676, 0.0030302)
-_G = (-2.273, 0.459)
+C1 = (0.0, 0.221157, -0.147981, -2.07119, 4.434685, -2.706056)
+C2 = (0.0, 0.042981, -0.293762, -1.752461, 5.682633, -3.582633)
+C3 = (0.544, -0.39978, 0.025054, -6.714e-4)
+C4 = (1.3822, -0.77857, 0.062767, -0.0020322)
+C5 = (-1.5861, -0.31082, -0.083751, 0.0038915)
+C6 = (-0.4803, -0.082676, 0.0030302)
+GAMMA = (-2.273, 0.459)
 SHAPIRO_MAX_N = 5000  # upper limit of Royston's approximation (as service.core.normality)
 
 
@@ -59,9 +59,9 @@ def shapiro_weights(n: int) -> np.ndarray:
         summ2 = 2.0 * float(m @ m)
         ssumm2 = np.sqrt(summ2)
         rsn = 1.0 / np.sqrt(n)
-        a1 = float(_poly(_C1, rsn)) - m[0] / ssumm2
+        a1 = float(_poly(C1, rsn)) - m[0] / ssumm2
         if n > 5:
-            a2 = -m[1] / ssumm2 + float(_poly(_C2, rsn))
+            a2 = -m[1] / ssumm2 + float(_poly(C2, rsn))
             fac = np.sqrt((summ2 - 2 * m[0] ** 2 - 2 * m[1] ** 2)
                           / (1 - 2 * a1 ** 2 - 2 * a2 ** 2))
             a[1] = a2
@@ -76,21 +76,3 @@ def shapiro_weights(n: int) -> np.ndarray:
     c[n - half:] = a[::-1]
     c.setflags(write=False)
     return c
-
-
-def shapiro_p(w: np.ndarray, n: np.ndarray) -> np.ndarray:
-    """Royston's p-value for W (AS R94), per row."""
-    with np.errstate(all="ignore"):
-        y = np.log1p(-w)
-        big = n >= 12
-        ln = np.log(n)
-        m_big, s_big = _poly(_C5, ln), np.exp(_poly(_C6, ln))
-        gamma = _poly(_G, n)
-        y_small = -np.log(gamma - y)
-        m_small, s_small = _poly(_C3, n), np.exp(_poly(_C4, n))
-        z = np.where(big, (y - m_big) / s_big, (y_small - m_small) / s_small)
-        p = special.ndtr(-z)
-        p = np.where(~big & (y >= gamma), 1e-99, p)
-        p3 = np.maximum(6 / np.pi * (np.arcsin(np.sqrt(w)) - np.pi / 3), 0.0)
-        p = np.where(n == 3, p3, p)
-    return np.where(n >= 3, p, np.nan)

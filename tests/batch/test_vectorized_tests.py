@@ -17,7 +17,6 @@ from statsmodels.stats.stattools import durbin_watson
 
 from service.core import ModelSpec, batch_residuals
 from service.core import batch_engine as engine
-from service.core import batch_tests as bt
 from service.core.batch import fit_batch
 from tests.batch.conftest import ragged_series, rel
 
@@ -34,8 +33,7 @@ def test_shapiro_wilk_of_ragged_rows_equals_scipy_for_every_length_3_to_120():
     rows = np.arange(lengths.size)
     spread = np.array([float(((v - v.mean()) ** 2).sum()) for v in parts])
     tabs = engine.tables(lengths, 5)
-    w = engine._shapiro_w(resid, offsets, rows, lengths.astype(float), spread, tabs)
-    p = bt.shapiro_p(w, lengths.astype(float))
+    w, p = engine._shapiro_w(resid, offsets, rows, lengths.astype(float), spread, tabs)
     for i, v in enumerate(parts):
         ref = stats.shapiro(v)
         assert abs(w[i] - ref.statistic) < 1e-12, lengths[i]
@@ -49,9 +47,10 @@ def test_shapiro_wilk_of_back_to_back_rows_equals_scipy():
     offsets = np.arange(26) * 40
     spread = np.array([float(((v - v.mean()) ** 2).sum()) for v in parts])
     n = np.full(25, 40.0)
-    w = engine._shapiro_w(np.concatenate(parts), offsets, np.arange(25), n, spread,
-                          engine.tables(np.full(25, 40), 5))
+    w, p = engine._shapiro_w(np.concatenate(parts), offsets, np.arange(25), n, spread,
+                             engine.tables(np.full(25, 40), 5))
     assert rel(w, [stats.shapiro(v).statistic for v in parts]) < 1e-12
+    assert rel(p, [stats.shapiro(v).pvalue for v in parts]) < 1e-9
 
 
 def test_residual_pass_durbin_watson_equals_statsmodels_for_many_lengths():
