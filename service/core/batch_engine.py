@@ -23,6 +23,7 @@ from service.core import batch_kernel as kern
 from service.core import batch_residuals as resid_checks
 from service.core import flags as single
 from service.core.anova import lack_of_fit
+from service.core.batch_ftail import log_beta_table
 from service.core.batch_tests import SHAPIRO_MAX_N, shapiro_weights
 from service.core.decomposition import EXACT_FIT_RTOL  # the one exact-fit cut-off
 from service.core.diagnostics import OUTLIER_ALPHA
@@ -70,6 +71,11 @@ class ChunkResult:
 def _crit(alpha: float, size: int) -> np.ndarray:
     """``F(1, df; 1 - alpha)`` for df = 0 .. size - 1 (df 0 uses df 1)."""
     return special.fdtri(1, np.maximum(np.arange(size), 1), 1 - alpha)
+
+
+@lru_cache(maxsize=64)
+def _log_beta(size: int) -> np.ndarray:
+    return log_beta_table(size)
 
 
 @lru_cache(maxsize=4096)
@@ -124,10 +130,11 @@ def fit_chunk(u, z, w, offsets, rows, spec: BlockSpec, tabs, marks, resid):
     cand = np.empty((len(kern.CAND), G, m))
     coef, se = np.empty((G, P)), np.empty((G, P))
     status = np.empty(G, dtype=np.int8)
-    crit = _crit(spec.alpha, int(lengths.max(initial=1)) + 1)
+    size = int(lengths.max(initial=1)) + 1
+    crit, log_beta = _crit(spec.alpha, size), _log_beta(size)
     kern.fit_rows(u, z, np.empty(1) if w is None else w, w is None, offsets, rows,
                   spec.min_degree, spec.max_degree, spec.intercept,
-                  kern.SELECT_CODES[spec.select], spec.need_press, crit, *tabs[:3],
+                  kern.SELECT_CODES[spec.select], spec.need_press, crit, log_beta, *tabs[:3],
                   _binomials(P, 1 - spec.c), EXACT_FIT_RTOL ** 2, LEVERAGE_ONE,
                   single.COND_CAUTION, TINY_LIMIT, sc, cand, coef, se, marks, resid, status)
     ok = status == kern.OK
@@ -140,7 +147,6 @@ def fit_chunk(u, z, w, offsets, rows, spec: BlockSpec, tabs, marks, resid):
                                               "breusch_pagan", "n_outliers", "n_influential",
                                               "n_high_leverage")}
     cands = {name: cand[i] for i, name in enumerate(kern.CAND)}
-    cands["p_last"] = _p_last(cands, sc[:, SC["climb"]], spec)
     n, degree = cols["n"], cols["degree"]
     cols["shapiro_wilk"], cols["shapiro_wilk_p"] = _shapiro_w(resid, offsets, fitted, n,
                                                               cols["shapiro_wilk"], tabs)
@@ -154,17 +160,6 @@ def fit_chunk(u, z, w, offsets, rows, spec: BlockSpec, tabs, marks, resid):
                            sc[:, SC["condition_number"]])
     outliers, influential = _points(marks, offsets, fitted, cols)
     return (ChunkResult(fitted, cols, coef, se, cands, outliers, influential), rows[~ok])
-
-
-def _p_last(cands, climb, spec: BlockSpec) -> np.ndarray:
-    """p-values of the last power where the sequential F climb looked (others NaN)."""
-    f, df = cands["f_last"], cands["df_residual"]
-    p = np.full(f.shape, np.nan)
-    if spec.select != "sequential_f" or f.size == 0:
-        return p
-    look = (np.arange(f.shape[1])[None, :] <= climb[:, None] + 1) & np.isfinite(f)
-    p[look] = special.fdtrc(1, np.maximum(df[look], 1), f[look])
-    return p
 
 
 def _lack_of_fit(u, z, w, offsets, rows, repeats, rss, p):

@@ -20,13 +20,14 @@ import numba
 import numpy as np
 
 from service.core.batch_basis import basis, distinct, dot
+from service.core.batch_ftail import f1_tail
 from service.core.batch_residuals import residual_pass
 
 SELECT_CODES = {"sequential_f": 0, "aic": 1, "aicc": 2, "bic": 3, "press": 4, "adj_r2": 5,
                 "fixed": 6}
 # candidate measures, first axis of the ``cand`` output
 CAND = ("df_residual", "rss", "sigma", "r_squared", "adj_r_squared", "aic", "aicc", "bic",
-        "press", "f_last")
+        "press", "f_last", "p_last")
 # per-series scalars, columns of the ``sc`` output
 SC = ("n", "degree", "df_residual", "rss", "sigma", "r_squared", "adj_r_squared", "aic",
       "aicc", "bic", "press", "shapiro_wilk", "durbin_watson", "breusch_pagan",
@@ -112,7 +113,7 @@ def _select(code, cand, exact, f, crit, df, m, alpha_near):
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
 def fit_rows(u, z, w, unit, offsets, rows, dmin, dmax, intercept, code, need_press,
-             crit, slot, bonf, cook, binom, rtol2, lev_one, cond_caution, tiny,
+             crit, log_beta, slot, bonf, cook, binom, rtol2, lev_one, cond_caution, tiny,
              sc, cand, coef, se, marks, resid, status):
     """Fit, select and diagnose each series ``rows[g]``; results go to row ``g`` of the outputs.
 
@@ -123,8 +124,8 @@ def fit_rows(u, z, w, unit, offsets, rows, dmin, dmax, intercept, code, need_pre
         series ``r`` is ``offsets[r]:offsets[r + 1]``.
     dmin, dmax, intercept, code, need_press
         Candidate degrees, intercept, :data:`SELECT_CODES` value, whether PRESS is wanted.
-    crit : ndarray
-        ``F(1, df; 1 - alpha)`` by residual df.
+    crit, log_beta : ndarray
+        ``F(1, df; 1 - alpha)`` and ``ln B(df/2, 1/2)`` by residual df.
     slot, bonf, cook
         Per length ``n``: ``slot[n]`` indexes ``bonf[., p]`` (Bonferroni t limit)
         and ``cook[., p]`` (median of ``F(p, n - p)``).
@@ -256,6 +257,9 @@ def fit_rows(u, z, w, unit, offsets, rows, dmin, dmax, intercept, code, need_pre
         if need_press:
             _press(q, b, res, e, n, P, dmin + c, m, lev_one, exact, cc)
         pick, climb, near = _select(code, cc, exact, f, crit, cc[0], m, NEAR_CRIT)
+        for j in range(m):   # p-values where the sequential F climb looked (others NaN)
+            looked = code == 0 and j <= climb + 1 and math.isfinite(f[j])
+            cc[10, j] = f1_tail(f[j], cc[0, j], log_beta[int(cc[0, j])]) if looked else np.nan
         if near:
             continue        # significance within 1e-9 of the limit: fit_series decides
         p = dmin + pick + c
