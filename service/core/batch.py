@@ -30,7 +30,13 @@ import numpy as np
 
 from service.core import batch_engine, transforms
 from service.core import batch_layout as layout
-from service.core.batch_results import BatchResult, empty_columns, fill_from_report, write_chunk
+from service.core.batch_results import (
+    BatchResult,
+    empty_columns,
+    fill_from_report,
+    reset_rows,
+    write_chunk,
+)
 from service.core.errors import FitError
 from service.core.inputs import check_spec
 from service.core.polynomial import fit_series
@@ -130,7 +136,7 @@ def fit_many(x, y, lengths, weights=None, *, model: ModelSpec = _MODEL, models=N
     else:
         for i, m in enumerate(models):
             groups.setdefault(model if m is None else m, []).append(i)
-    out = empty_columns(G, *_widths(groups, options))
+    out = empty_columns(G, *_widths(groups, options), filled=False)  # written in parallel
     out["errors"], out["reports"] = {}, {}
     jobs, fallback = [], []
     for spec_model, rows in groups.items():
@@ -174,6 +180,9 @@ def fit_many(x, y, lengths, weights=None, *, model: ModelSpec = _MODEL, models=N
         results = [run(job) for job in jobs]
     for (_, spec_model, *_), rejected in zip(jobs, results, strict=True):
         fallback.extend((int(r), spec_model) for r in rejected)
+    unset = np.flatnonzero(~out["ok"])
+    if unset.size:   # errors and single-series rows start from the defaults
+        reset_rows(out, unset)
     single = options if detail == "full" else replace(options, grid=None,
                                                       include=_SUMMARY_INCLUDE)
     for row, spec_model in sorted(fallback):

@@ -81,18 +81,37 @@ class BatchResult:
 
 
 
-def empty_columns(G: int, P: int, C: int) -> dict:
-    """Preallocated output arrays (NaN / -1 / False) for ``G`` rows."""
-    cols = {name: np.full(G, np.nan) for name in SCALARS}
-    for name in ("n", "degree", "min_degree", "df_residual", "n_outliers", "n_influential",
-                 "n_high_leverage", "flags"):
-        cols[name] = np.full(G, -1 if name in ("n", "degree", "min_degree") else 0,
-                             dtype=np.int64)
-    return {"columns": cols, "coefficients": np.full((G, P), np.nan),
-            "std_errors": np.full((G, P), np.nan),
-            "candidates": {m: np.full((G, C), np.nan) for m in CANDIDATE_MEASURES},
+_INT_COLUMNS = {"n": -1, "degree": -1, "min_degree": -1, "df_residual": 0, "n_outliers": 0,
+                "n_influential": 0, "n_high_leverage": 0, "flags": 0}
+
+
+def empty_columns(G: int, P: int, C: int, *, filled: bool = True) -> dict:
+    """Preallocated output arrays for ``G`` rows: NaN / -1 / 0 / False, or unset.
+
+    ``filled=False`` leaves the numbers unset (no 60 MB of fill at G = 100,000 before
+    any fit): every row must then be written (:func:`write_chunk`) or reset
+    (:func:`reset_rows`) before it is read. ``ok`` starts False either way.
+    """
+    alloc = (lambda shape, value, dtype=float: np.full(shape, value, dtype=dtype)) if filled \
+        else (lambda shape, value, dtype=float: np.empty(shape, dtype=dtype))
+    cols = {name: alloc(G, _INT_COLUMNS[name], np.int64) if name in _INT_COLUMNS
+            else alloc(G, np.nan) for name in SCALARS}
+    return {"columns": cols, "coefficients": alloc((G, P), np.nan),
+            "std_errors": alloc((G, P), np.nan),
+            "candidates": {m: alloc((G, C), np.nan) for m in CANDIDATE_MEASURES},
             "ok": np.zeros(G, dtype=bool), "intercept": np.ones(G, dtype=bool),
             "select": np.empty(G, dtype=object)}
+
+
+def reset_rows(out: dict, rows) -> None:
+    """Give rows the values of a filled :func:`empty_columns` (NaN / -1 / 0, not ok)."""
+    for name, values in out["columns"].items():
+        values[rows] = _INT_COLUMNS.get(name, np.nan)
+    for key in ("coefficients", "std_errors"):
+        out[key][rows] = np.nan
+    for values in out["candidates"].values():
+        values[rows] = np.nan
+    out["ok"][rows] = False
 
 
 def fill_from_report(out: dict, row: int, report: FitReport) -> None:
@@ -159,9 +178,12 @@ def write_chunk(out: dict, res: ChunkResult, bspec) -> None:
     width = res.coef.shape[1]
     out["coefficients"][rows, :width] = res.coef
     out["std_errors"][rows, :width] = res.se
+    out["coefficients"][rows, width:] = np.nan     # wider for another model of the batch
+    out["std_errors"][rows, width:] = np.nan
     for m in out["candidates"]:
         values = res.candidates[m]
         out["candidates"][m][rows, :values.shape[1]] = values
+        out["candidates"][m][rows, values.shape[1]:] = np.nan
     out["intercept"][rows] = bspec.intercept
     out["select"][rows] = bspec.select
     out["ok"][rows] = True
