@@ -31,13 +31,12 @@ CAND = ("df_residual", "rss", "sigma", "r_squared", "adj_r_squared", "aic", "aic
 # per-series scalars, columns of the ``sc`` output
 SC = ("n", "degree", "df_residual", "rss", "sigma", "r_squared", "adj_r_squared", "aic",
       "aicc", "bic", "press", "shapiro_wilk", "durbin_watson", "breusch_pagan",
-      "condition_number", "n_outliers", "n_influential", "n_high_leverage", "climb",
+      "condition_number", "n_outliers", "n_influential", "n_high_leverage",
       "repeats", "exact", "p")
 _N_OUTLIERS = SC.index("n_outliers")
 _N_INFLUENTIAL = SC.index("n_influential")
 _N_HIGH_LEVERAGE = SC.index("n_high_leverage")
 _CONDITION_NUMBER = SC.index("condition_number")
-_CLIMB = SC.index("climb")
 _REPEATS = SC.index("repeats")
 _EXACT = SC.index("exact")
 _P = SC.index("p")
@@ -337,7 +336,6 @@ def fit_rows(u, z, w, unit, offsets, rows, dmin, dmax, intercept, code, need_pre
         row[_N_INFLUENTIAL] = n_inf
         row[_N_HIGH_LEVERAGE] = n_high
         row[_CONDITION_NUMBER] = cond
-        row[_CLIMB] = climb
         row[_REPEATS] = 1.0 if n_distinct < n else 0.0
         row[_EXACT] = 1.0 if exact[pick] else 0.0
         row[_P] = p
