@@ -162,6 +162,7 @@ def fit_rows(u, z, w, unit, offsets, rows, dmin, dmax, intercept, code, need_pre
     ckb = np.zeros((dmax + 1, dmax + 1))
     b = np.empty(P)
     tail = np.empty(P + 1)
+    head = np.empty(P + 1)
     half = np.empty((P, P))
     negp = np.empty(P + 1)
     invs = np.empty(P + 1)
@@ -224,7 +225,9 @@ def fit_rows(u, z, w, unit, offsets, rows, dmin, dmax, intercept, code, need_pre
         tail[P] = 0.0
         for k in range(P - 1, -1, -1):
             tail[k] = tail[k + 1] + b[k] * b[k]
-        head0 = b[0] * b[0]
+        head[0] = 0.0   # head[k]: model SS of the first k columns, the constant's effect left out
+        for k in range(P):
+            head[k + 1] = head[k] + (b[k] * b[k] if k >= k0 else 0.0)
         for j in range(m):
             kk = dmin + j + c
             rss = rss_full + tail[kk]
@@ -232,7 +235,7 @@ def fit_rows(u, z, w, unit, offsets, rows, dmin, dmax, intercept, code, need_pre
                 rss = 0.0
             df = n - kk
             exact[j] = rss == 0.0 and df > 0
-            ss_model = (tail[0] - tail[kk]) - (head0 if intercept else 0.0)
+            ss_model = head[kk]   # a sum of squares, never a difference (large offsets)
             tss = ss_model + rss
             r2 = ss_model / tss if tss > 0 else np.nan
             cc[0, j] = df
