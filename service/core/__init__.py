@@ -22,6 +22,7 @@ from service.core.errors import (  # noqa: F401
     SpecError,
     TransformError,
 )
+from service.core.kernel_cache import ensure_fresh as _ensure_fresh
 from service.core.polynomial import fit_series  # noqa: F401
 from service.core.results import (  # noqa: F401
     AnovaRow,
@@ -39,3 +40,5 @@ from service.core.results import (  # noqa: F401
     TrustFlag,
 )
 from service.core.spec import FitOptions, GridSpec, ModelSpec  # noqa: F401
+
+_ensure_fresh()  # before any kernel runs: no stale machine code from an older source
