@@ -27,7 +27,7 @@ from service.core.batch_ftail import log_beta_table
 from service.core.batch_tests import SHAPIRO_MAX_N, shapiro_weights
 from service.core.decomposition import EXACT_FIT_RTOL  # the one exact-fit cut-off
 from service.core.diagnostics import OUTLIER_ALPHA
-from service.core.inputs import TINY_LIMIT
+from service.core.inputs import TINY_LIMIT, magnitude_limit
 from service.core.summary import LEVERAGE_ONE  # leave-one-out residual undefined above
 
 FLAG_CODES = ("exact_fit", "no_residual_df", "few_points_per_parameter",
@@ -97,22 +97,28 @@ def _binomials(P: int, start: int) -> np.ndarray:
 
 
 def tables(lengths: np.ndarray, P: int) -> tuple[np.ndarray, ...]:
-    """Per-length tables of the kernel: ``slot``, ``bonf``, ``cook``, ``sw_start``, ``sw_coef``."""
+    """Per-length tables of the kernel.
+
+    ``(slot, bonf, cook, magnitude, sw_start, sw_coef)``: ``slot[n]`` indexes the
+    rows of the others; ``magnitude`` is :func:`service.core.inputs.magnitude_limit`.
+    """
     uniq = np.unique(lengths)
     slot = np.full(int(uniq[-1]) + 1 if uniq.size else 1, -1, dtype=np.int64)
     slot[uniq] = np.arange(uniq.size)
     bonf = np.empty((uniq.size, P + 1))
     cook = np.empty((uniq.size, P + 1))
+    magnitude = np.empty(uniq.size)
     sw_start = np.zeros(uniq.size, dtype=np.int64)
     parts, at = [], 0
     for i, n in enumerate(uniq.tolist()):
         bonf[i], cook[i] = _limits(n, P)
+        magnitude[i] = magnitude_limit(n)
         sw_start[i] = at
         if 3 <= n <= SHAPIRO_MAX_N:
             parts.append(shapiro_weights(n))
             at += n
     sw_coef = np.concatenate(parts) if parts else np.zeros(1)
-    return slot, bonf, cook, sw_start, sw_coef
+    return slot, bonf, cook, magnitude, sw_start, sw_coef
 
 
 def fit_chunk(u, z, w, offsets, rows, spec: BlockSpec, tabs, marks, resid):
@@ -134,7 +140,7 @@ def fit_chunk(u, z, w, offsets, rows, spec: BlockSpec, tabs, marks, resid):
     crit, log_beta = _crit(spec.alpha, size), _log_beta(size)
     kern.fit_rows(u, z, np.empty(1) if w is None else w, w is None, offsets, rows,
                   spec.min_degree, spec.max_degree, spec.intercept,
-                  kern.SELECT_CODES[spec.select], spec.need_press, crit, log_beta, *tabs[:3],
+                  kern.SELECT_CODES[spec.select], spec.need_press, crit, log_beta, *tabs[:4],
                   _binomials(P, 1 - spec.c), EXACT_FIT_RTOL ** 2, LEVERAGE_ONE,
                   single.COND_CAUTION, TINY_LIMIT, sc, cand, coef, se, marks, resid, status)
     ok = status == kern.OK
@@ -213,7 +219,7 @@ def _shapiro_w(resid, offsets, rows, n, spread, tabs) -> tuple[np.ndarray, np.nd
     else:
         block = resid_checks.gather_padded(resid, starts, lengths, width)
     block.sort(axis=1)     # in place: the residuals are scratch once the kernel is done
-    slot, _, _, sw_start, sw_coef = tabs
+    slot, *_, sw_start, sw_coef = tabs
     w[need], p[need] = resid_checks.shapiro_w_p(block, lengths, slot, sw_start, sw_coef,
                                                 spread[need])
     return w, p

@@ -46,18 +46,17 @@ _BREUSCH_PAGAN = SC.index("breusch_pagan")
 OK, REJECT = 0, 1          # status: fitted here / hand the series to fit_series
 NEAR_CRIT = 1e-9           # an F this close to its critical value is settled by fit_series
 _TWO_PI_LOG = math.log(2.0 * math.pi)
-MAX_FLOAT = float(np.finfo(np.float64).max)
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
-def _screen(uu, zz, w, a, n, unit, tiny):
+def _screen(uu, zz, w, a, n, unit, limit, tiny):
     """Whether a series suits the kernel, and the range of its x.
 
     Every value finite (a transform outside its domain gives NaN or inf), weights
     positive, and magnitudes whose squares sum safely in float64 (the limits of
-    :func:`service.core.inputs.check_magnitude`). Others go to fit_series.
+    :func:`service.core.inputs.check_magnitude`, ``limit`` for this length). Others go
+    to fit_series.
     """
-    limit = math.sqrt(MAX_FLOAT / (64.0 * max(n, 1)))
     small, big, top_z, top_w = np.inf, -np.inf, 0.0, 0.0
     for i in range(n):
         x, y = uu[i], zz[i]
@@ -112,7 +111,7 @@ def _select(code, cand, exact, f, crit, df, m, alpha_near):
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
 def fit_rows(u, z, w, unit, offsets, rows, dmin, dmax, intercept, code, need_press,
-             crit, log_beta, slot, bonf, cook, binom, rtol2, lev_one, cond_caution, tiny,
+             crit, log_beta, slot, bonf, cook, magnitude, binom, rtol2, lev_one, cond_caution, tiny,
              sc, cand, coef, se, marks, resid, status):
     """Fit, select and diagnose each series ``rows[g]``; results go to row ``g`` of the outputs.
 
@@ -125,9 +124,10 @@ def fit_rows(u, z, w, unit, offsets, rows, dmin, dmax, intercept, code, need_pre
         Candidate degrees, intercept, :data:`SELECT_CODES` value, whether PRESS is wanted.
     crit, log_beta : ndarray
         ``F(1, df; 1 - alpha)`` and ``ln B(df/2, 1/2)`` by residual df.
-    slot, bonf, cook
-        Per length ``n``: ``slot[n]`` indexes ``bonf[., p]`` (Bonferroni t limit)
-        and ``cook[., p]`` (median of ``F(p, n - p)``).
+    slot, bonf, cook, magnitude
+        Per length ``n``: ``slot[n]`` indexes ``bonf[., p]`` (Bonferroni t limit),
+        ``cook[., p]`` (median of ``F(p, n - p)``) and ``magnitude`` (the largest
+        |value| whose squares sum safely, :func:`service.core.inputs.magnitude_limit`).
     binom : ndarray (P, P)
         ``binom[i, j] = C(j + start, i + start)`` (raw-x conversion).
     rtol2, lev_one, cond_caution, tiny
@@ -174,7 +174,7 @@ def fit_rows(u, z, w, unit, offsets, rows, dmin, dmax, intercept, code, need_pre
         n = offsets[rows[g] + 1] - a
         uu, zz = u[a:a + n], z[a:a + n]
         status[g] = REJECT
-        fine, small, big = _screen(uu, zz, w, a, n, unit, tiny)
+        fine, small, big = _screen(uu, zz, w, a, n, unit, magnitude[slot[n]], tiny)
         if not fine:
             continue        # fit_series' answer: its missing-value policy or its DataError
         n_distinct = distinct(uu, n)
