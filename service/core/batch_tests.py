@@ -14,6 +14,8 @@ from functools import lru_cache
 import numpy as np
 from scipy import special
 
+from service.core.normality import MAX_N, royston_weights
+
 # AS R94 polynomial coefficients (Royston 1995), lowest power first.
 C1 = (0.0, 0.221157, -0.147981, -2.07119, 4.434685, -2.706056)
 C2 = (0.0, 0.042981, -0.293762, -1.752461, 5.682633, -3.582633)
@@ -22,7 +24,7 @@ C4 = (1.3822, -0.77857, 0.062767, -0.0020322)
 C5 = (-1.5861, -0.31082, -0.083751, 0.0038915)
 C6 = (-0.4803, -0.082676, 0.0030302)
 GAMMA = (-2.273, 0.459)
-SHAPIRO_MAX_N = 5000  # upper limit of Royston's approximation (as service.core.normality)
+SHAPIRO_MAX_N = MAX_N  # upper limit of Royston's approximation
 
 
 def _poly(coefs, x):
@@ -32,24 +34,12 @@ def _poly(coefs, x):
     return out
 
 
-def _scipy_weights(n: int) -> np.ndarray | None:
-    """The AS R94 coefficients exactly as scipy computes them (its normal quantiles
-    differ from ``ndtri`` in the 9th digit), or None if that private routine moved."""
-    try:
-        from scipy.stats._ansari_swilk_statistics import swilk
-    except ImportError:  # pragma: no cover - depends on the scipy version
-        return None
-    a = np.zeros(n // 2)
-    swilk(np.linspace(-1.0, 1.0, n), a, 0)
-    return a
-
-
 @lru_cache(maxsize=512)
 def shapiro_weights(n: int) -> np.ndarray:
     """Antisymmetric AS R94 weights ``c`` (length n): ``W = (c . e_sorted)^2 / SS``."""
     half = n // 2
     a = np.zeros(half)
-    ref = _scipy_weights(n) if n > 3 else None
+    ref = royston_weights(n) if n > 3 else None   # scipy's numbers exactly
     if ref is not None:
         a = ref
     elif n == 3:

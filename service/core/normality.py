@@ -28,12 +28,17 @@ MAX_N = 5000  # upper limit of Royston's approximation
 NOTE = "normality of the weighted residuals (Royston's algorithm)"
 
 
-@lru_cache(maxsize=256)
-def _coefficients(n: int) -> np.ndarray:
-    """Royston's weights for ``n`` points, computed once per n (the routine's init step).
+@lru_cache(maxsize=512)
+def royston_weights(n: int) -> np.ndarray | None:
+    """Royston's weights for ``n`` points, computed once per n by scipy's routine (its init
+    step; None where scipy does not expose it). Half of them: ``a[i]`` pairs the i-th
+    smallest and largest order statistics.
 
-    Passed back with ``init=1`` the routine only reads them.
+    Passed back with ``init=1`` the routine only reads them (the batch engine builds its
+    antisymmetric weight vector from the same numbers).
     """
+    if _swilk is None:  # pragma: no cover - older/newer scipy layout
+        return None
     a = np.zeros(n // 2)
     _swilk(np.arange(n, dtype=float), a, 0)
     return a
@@ -50,7 +55,7 @@ def shapiro_wilk(e: np.ndarray) -> TestResult:
         return TestResult("shapiro_wilk", NAN, NAN, None, "not computed: residuals are constant")
     if _swilk is not None:
         y -= e[n // 2]  # as scipy does (gh-15777)
-        w, pw, fault = _swilk(y, _coefficients(n), 1)
+        w, pw, fault = _swilk(y, royston_weights(n), 1)
         if fault in (0, 2):
             return TestResult("shapiro_wilk", float(w), float(pw), None, NOTE)
     with warnings.catch_warnings(), np.errstate(all="ignore"):
