@@ -82,6 +82,11 @@ class OptionsLineSchema(BatchRequestSchema):
         "description": "Not used in NDJSON: one series per line instead."})
 
 
+def valid_id(ident) -> bool:
+    """A series id is a string or an integer (a JSON boolean is not)."""
+    return not isinstance(ident, bool) and isinstance(ident, (str, int))
+
+
 def load_series(obj, position: int):
     """Check one series object; return ``(id, x, y, weights, model_dict_or_None)``.
 
@@ -96,7 +101,7 @@ def load_series(obj, position: int):
     if unknown:
         raise ValidationError({k: [UNKNOWN_FIELD] for k in unknown})
     ident = obj.get("id", position)
-    if isinstance(ident, bool) or not isinstance(ident, (str, int)):
+    if not valid_id(ident):
         raise ValidationError({"id": ["Must be a string or an integer."]})
     errors: dict = {}
     arrays = {}
@@ -144,7 +149,7 @@ def load_plain_series(series: list, max_points: int):
         x, y, ident = obj.get("x"), obj.get("y"), obj.get("id", position)
         if (type(x) is not list or type(y) is not list or len(x) != len(y)
                 or not max(_X.min_items, 1) <= len(x) <= max_points
-                or type(ident) not in (int, str)):       # a bool id is not an id
+                or not valid_id(ident)):
             return None
         ids.append(ident)
         xs.append(x)

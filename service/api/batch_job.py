@@ -13,7 +13,7 @@ from contextlib import contextmanager
 import numpy as np
 from marshmallow import ValidationError
 
-from schemas.batch import load_series, summary_rows
+from schemas.batch import load_series, summary_rows, valid_id
 from service.core.batch import fit_batch, fit_many
 from service.core.design import term_names
 from service.core.spec import FitOptions
@@ -90,7 +90,7 @@ class BatchJob:
     def series(self, obj, position: int):
         """(id, (x, y, w, ModelSpec|None)) or (id, problem body) for one series object."""
         ident = obj.get("id", position) if isinstance(obj, dict) else position
-        if isinstance(ident, bool) or not isinstance(ident, (str, int)):
+        if not valid_id(ident):
             ident = position   # an invalid id is not echoed back: the result has a valid one
         try:
             ident, x, y, w, model = load_series(obj, position)
