@@ -18,7 +18,7 @@ from pathlib import Path
 
 KERNEL_MODULES = ("batch_basis", "batch_ftail", "batch_kernel", "batch_residuals",
                   "kernels_bands", "kernels_inputs", "kernels_points", "kernels_qr",
-                  "kernels_summary")
+                  "kernels_raw", "kernels_summary")
 STAMP = "curvewise-kernels.sha256"
 
 

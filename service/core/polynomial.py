@@ -12,7 +12,7 @@ import math
 import numpy as np
 from scipy import special
 
-from service.core import design, kernels_qr, qr, transforms
+from service.core import design, kernels_qr, kernels_raw, qr, transforms
 from service.core.anova import distinct_count, sequential_table
 from service.core.bands import predict_unguarded
 from service.core.decomposition import decompose
@@ -104,25 +104,28 @@ def _fit(x, y, weights, model: ModelSpec, options: FitOptions) -> FitReport:
     dec, cands, degree, reason, method = _select(u, z, data.w, degrees, model, selects,
                                                  sum_log_w, field, u_bounds, False)
     m = cands[degree - dmin]
-    rinv = dec.r_inv[:m.p, :m.p]
-    coef_b = rinv @ dec.effects[:m.p]
-    if (n <= qr.EXTENDED_MAX_ROWS and qr.EXTENDED_IS_WIDER
-            and not _float64_enough(dec, m, coef_b, rinv, degree)):
+    sigma2 = 0.0 if m.exact else (m.rss / m.df_residual if m.df_residual > 0 else NAN)
+    readout = _float64_readout(dec, m, degree, sigma2)
+    if (readout is None and not dec.extended and n <= qr.EXTENDED_MAX_ROWS
+            and qr.EXTENDED_IS_WIDER):
         dec, cands, degree, reason, method = _select(u, z, data.w, degrees, model, selects,
                                                      sum_log_w, field, u_bounds, True)
         m = cands[degree - dmin]
-        rinv = dec.r_inv[:m.p, :m.p]
-        coef_b = rinv @ dec.effects[:m.p]
+        sigma2 = 0.0 if m.exact else (m.rss / m.df_residual if m.df_residual > 0 else NAN)
     p = m.p
     selection = Selection(method, degree, reason, float(model.alpha),
                           tuple(candidate_row(c) for c in cands))
-    sigma2 = 0.0 if m.exact else (m.rss / m.df_residual if m.df_residual > 0 else NAN)
-    raw, cov, lost = design.raw_coefficients(dec.shift, dec.scale, degree, intercept, coef_b,
-                                       (rinv @ rinv.T) * np.longdouble(sigma2))
+    if readout is not None:
+        coef_b, r64, raw, cov, lost, cond, raw_cond = readout
+    else:  # extended digits into the conversion (it cancels on narrow, off-centre x)
+        rinv = dec.r_inv[:p, :p]
+        coef_b = rinv @ dec.effects[:p]
+        raw, cov, lost = design.raw_coefficients(dec.shift, dec.scale, degree, intercept,
+                                                 coef_b, (rinv @ rinv.T) * np.longdouble(sigma2))
+        r64 = np.ascontiguousarray(dec.r[:p, :p], dtype=float)
+        cond, raw_cond = _conditions(r64, dec.shift, dec.scale, degree, intercept)
     sigma = 0.0 if m.exact else m.sigma
     terms = design.term_names(degree, intercept)
-    r64 = np.ascontiguousarray(dec.r[:p, :p], dtype=float)
-    cond, raw_cond = _conditions(r64, dec.shift, dec.scale, degree, intercept)
     if lost:
         notices.append(Notice("raw_coefficients_overflow",
                               "Some raw-power coefficients or their covariances do not fit in "
@@ -191,26 +194,29 @@ def _select(u, z, w, degrees, model: ModelSpec, selects: bool, sum_log_w: float,
     return dec, cands, dmin, f"Degree {dmin} was fixed by the caller.", "fixed"
 
 
-def _float64_enough(dec, m, coef_b, rinv, degree) -> bool:
-    """True when a float64 factorization keeps the reported numbers to :data:`FLOAT64_TOL`.
+def _float64_readout(dec, m, degree, sigma2):
+    """The chosen fit's float64 numbers (``kernels_raw.float64_readout``), or None when a
+    float64 factorization could lose more than :data:`FLOAT64_TOL` of them.
 
     Estimated relative errors (float64 ulps times an amplification): the
     residual SS loses ``||zw|| / ||e||`` (R² near 1); the coefficients the
     condition number of R times what the conversion to raw powers cancels
-    (``kernels_qr.float64_loss``). An exact fit or a fit without residual
-    df answers False; an extended factorization True.
+    (``kernels_qr.float64_loss``). An exact fit, a fit without residual df
+    and an extended factorization answer None (the caller converts in
+    extended precision).
     """
-    if dec.extended:
-        return True
-    if m.exact or m.df_residual <= 0 or not m.rss > 0:
-        return False
+    if dec.extended or m.exact or m.df_residual <= 0 or not m.rss > 0:
+        return None
     if EPS * math.sqrt(dec.sum_zw2 / m.rss) > FLOAT64_TOL:
-        return False
+        return None
     tm = design.conversion_float(dec.shift, dec.scale, degree, dec.intercept)
     if tm is None:
-        return False
-    r = np.ascontiguousarray(dec.r[:m.p, :m.p])
-    return kernels_qr.float64_loss(r, np.ascontiguousarray(rinv), coef_b, tm) <= FLOAT64_TOL
+        return None
+    # C order for every path (the Gram passes give Fortran order): one compiled signature
+    r, r_inv = np.ascontiguousarray(dec.r), np.ascontiguousarray(dec.r_inv)
+    ok, *numbers = kernels_raw.float64_readout(r, r_inv, dec.effects, m.p, tm, sigma2,
+                                               FLOAT64_TOL)
+    return numbers if ok else None
 
 
 def _after(transform: str) -> str:
