@@ -10,12 +10,11 @@ does that for a whole chunk (:func:`gather_padded`, then :func:`shapiro_w_p`).
 
 from __future__ import annotations
 
-import math
-
 import numba
 import numpy as np
 
-from service.core.batch_tests import C3, C4, C5, C6, GAMMA, SHAPIRO_MAX_N
+from service.core.batch_tests import SHAPIRO_MAX_N
+from service.core.kernels_checks import shapiro_p
 
 OUTLIER_BIT, INFLUENTIAL_BIT = 1, 2
 
@@ -97,33 +96,6 @@ def gather_padded(resid, starts, lengths, width):
         for i in range(width):
             out[g, i] = resid[starts[g] + i] if i < lengths[g] else np.inf
     return out
-
-
-@numba.njit(cache=True, nogil=True, error_model="numpy")
-def _poly(coefs, x):
-    out = coefs[-1]
-    for i in range(len(coefs) - 2, -1, -1):
-        out = out * x + coefs[i]
-    return out
-
-
-@numba.njit(cache=True, nogil=True, error_model="numpy")
-def shapiro_p(w, n):
-    """Royston's p-value for Shapiro-Wilk's W of ``n`` points (AS R94); NaN below 3 points."""
-    if n < 3 or w != w:
-        return np.nan
-    if n == 3:
-        return max(6.0 / math.pi * (math.asin(math.sqrt(w)) - math.pi / 3.0), 0.0)
-    y = math.log1p(-w)
-    if n >= 12:
-        ln = math.log(n)
-        z = (y - _poly(C5, ln)) / math.exp(_poly(C6, ln))
-    else:
-        gamma = _poly(GAMMA, n)
-        if y >= gamma:
-            return 1e-99
-        z = (-math.log(gamma - y) - _poly(C3, n)) / math.exp(_poly(C4, n))
-    return 0.5 * math.erfc(z / math.sqrt(2.0))   # upper normal tail at z
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")

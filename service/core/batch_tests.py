@@ -3,7 +3,7 @@
 Royston's approximation, algorithm AS R94 (Royston 1995, *Applied Statistics*
 44, 547-551) — the algorithm behind ``scipy.stats.shapiro``, whose output the
 tests use as the oracle. The kernel (:mod:`service.core.batch_kernel`) forms
-``W = (c . e_sorted)^2 / SS`` with these weights; ``batch_residuals.shapiro_p``
+``W = (c . e_sorted)^2 / SS`` with these weights; ``kernels_checks.shapiro_p``
 turns W into its p-value with the polynomials ``C3`` .. ``C6`` and ``GAMMA``.
 """
 

@@ -21,12 +21,12 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from scipy import special
 
-from service.core import flags, kernels_points
+from service.core import flags, kernels_checks
 from service.core.anova import lack_of_fit
+from service.core.batch_tests import SHAPIRO_MAX_N, shapiro_weights
 from service.core.decomposition import Decomposition
-from service.core.normality import shapiro_wilk
+from service.core.normality import NOTE as SW_NOTE
 from service.core.qr import triangular_inverse
 from service.core.results import Diagnostics, TestResult, frozen_array, frozen_rows
 from service.core.summary import f_quantile, t_quantile
@@ -34,6 +34,9 @@ from service.core.summary import f_quantile, t_quantile
 NAN = float("nan")
 OUTLIER_ALPHA = 0.05
 _NO_BASIS = np.empty((0, 0))
+_NO_WEIGHTS = np.empty(0)
+_NO_WEIGHTS.setflags(write=False)  # read-only like the cached weights (one signature)
+DW_NOTE = "serial correlation in the given order: ~2 none, <2 positive, >2 negative"
 
 
 def diagnose(index: np.ndarray, x: np.ndarray, dec: Decomposition, degree: int, rss: float,
@@ -63,39 +66,41 @@ def diagnose(index: np.ndarray, x: np.ndarray, dec: Decomposition, degree: int, 
     out = np.empty((6, n))
     tested = not exact and df >= 1
     bp_rinv = _bp_basis(dec, degree) if tested and 1 <= degree < n - 1 else _NO_BASIS
-    ss, ss_diff, proj, ss_zc = kernels_points.point_measures(
-        dec.t, dec.weights, dec.zw, dec.first, np.ascontiguousarray(dec.r_inv64[:p, :p]),
-        dec.effects64, p, rss, df, bp_rinv, out)
-    e, h, std, stud, cook, dffits = out
+    sw_coef = shapiro_weights(n) if tested and 3 <= n <= SHAPIRO_MAX_N else _NO_WEIGHTS
     bonf = t_quantile(df - 1, 1 - OUTLIER_ALPHA / (2 * n)) if df > 1 else NAN
     cook_cut = f_quantile(p, df, 0.5) if df > 0 else NAN
     lev_cut = 2 * p / n
-    if exact or df < 1:
-        out[2:] = NAN
-    tests = _tests(e, ss, ss_diff, proj, ss_zc, degree, exact, df)
+    status, w, w_p, lm, lm_p, dw, outliers, high, infl = kernels_checks.fit_checks(
+        dec.t, dec.weights, dec.zw, dec.first, np.ascontiguousarray(dec.r_inv64[:p, :p]),
+        dec.effects64, p, rss, df, bp_rinv, out, tested, sw_coef, index,
+        np.array((bonf, lev_cut, cook_cut)))
+    if tested:
+        tests = (_shapiro_result(status, w, w_p, n),
+                 _breusch_pagan(n, degree, lm, lm_p),
+                 TestResult("durbin_watson", dw, NAN, None, DW_NOTE))
+    else:
+        why = "exact fit: residuals are rounding noise" if exact else "no residual df"
+        tests = tuple(TestResult(name, NAN, NAN, None, f"not computed ({why})")
+                      for name in ("shapiro_wilk", "breusch_pagan", "durbin_watson"))
     lof = lack_of_fit(x, dec.zw, dec.sqrt_w, rss, p, distinct)
-    outliers = tuple(index[np.abs(stud) > bonf].tolist())
-    high = tuple(index[h > lev_cut].tolist()) if n > p else ()
-    infl = tuple(index[cook > cook_cut].tolist())
     thresholds = {"outlier_alpha": OUTLIER_ALPHA, "outlier_t": bonf, "leverage": lev_cut,
                   "cooks_distance": cook_cut, "dffits": 2 * math.sqrt(p / n),
                   **flags.THRESHOLDS}
     e, h, std, stud, cook, dffits = frozen_rows(out)
     raw = e if dec.sqrt_w is None else frozen_array(e / dec.sqrt_w)
     return Diagnostics(frozen_array(index, dtype=int), raw, std, stud, h, cook, dffits, tests,
-                       lof, outliers, high, infl, thresholds)
+                       lof, tuple(outliers.tolist()), tuple(high.tolist()),
+                       tuple(infl.tolist()), thresholds)
 
 
-def _tests(e: np.ndarray, ss: float, ss_diff: float, proj: np.ndarray, ss_zc: float,
-           degree: int, exact: bool, df: int) -> tuple[TestResult, ...]:
-    if exact or df < 1:
-        why = "exact fit: residuals are rounding noise" if exact else "no residual df"
-        return tuple(TestResult(name, NAN, NAN, None, f"not computed ({why})")
-                     for name in ("shapiro_wilk", "breusch_pagan", "durbin_watson"))
-    dw = ss_diff / ss if ss > 0 else NAN
-    return (shapiro_wilk(e), _breusch_pagan(e.size, degree, proj, ss_zc),
-            TestResult("durbin_watson", dw, NAN, None,
-                       "serial correlation in the given order: ~2 none, <2 positive, >2 negative"))
+def _shapiro_result(status: int, w: float, w_p: float, n: int) -> TestResult:
+    if status == kernels_checks.SW_COMPUTED:
+        return TestResult("shapiro_wilk", w, w_p, None, SW_NOTE)
+    if status == kernels_checks.SW_CONSTANT:
+        return TestResult("shapiro_wilk", NAN, NAN, None, "not computed: residuals are constant")
+    return TestResult("shapiro_wilk", NAN, NAN, None,
+                      f"not computed: the test is defined for 3 to {SHAPIRO_MAX_N} points, "
+                      f"got {n}")
 
 
 def _bp_basis(dec: Decomposition, degree: int) -> np.ndarray:
@@ -107,20 +112,18 @@ def _bp_basis(dec: Decomposition, degree: int) -> np.ndarray:
     return np.ascontiguousarray(triangular_inverse(r))
 
 
-def _breusch_pagan(n: int, degree: int, proj: np.ndarray, ss: float) -> TestResult:
+def _breusch_pagan(n: int, degree: int, lm: float, lm_p: float) -> TestResult:
     """Koenker's studentized form: LM = n R² of e² on (1, t, ..., t^d), chi² on d df.
 
     The R² is ``||Q'zc||² / ||zc||²`` for the centred squared residuals ``zc``
     and an orthonormal basis ``Q`` of the unweighted powers of ``t``
-    (``proj = Q'zc`` and ``ss = ||zc||²`` come from the per-point pass).
+    (``kernels_checks.fit_checks`` forms it and the tail probability).
     """
     if degree < 1 or n <= degree + 1:
         return TestResult("breusch_pagan", NAN, NAN, None,
                           "needs at least one power of x and more points than coefficients")
-    if not ss > 0:
+    if math.isnan(lm):
         return TestResult("breusch_pagan", NAN, NAN, (float(degree),),
                           "not computed: squared residuals are constant")
-    lm = n * float(proj @ proj) / ss
-    pv = float(special.chdtrc(degree, lm))
-    return TestResult("breusch_pagan", lm, pv, (float(degree),),
+    return TestResult("breusch_pagan", lm, lm_p, (float(degree),),
                       "Koenker's studentized LM test of constant variance against the powers of x")

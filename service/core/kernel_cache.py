@@ -17,8 +17,8 @@ import importlib
 from pathlib import Path
 
 KERNEL_MODULES = ("batch_basis", "batch_ftail", "batch_kernel", "batch_residuals",
-                  "kernels_bands", "kernels_inputs", "kernels_points", "kernels_qr",
-                  "kernels_raw", "kernels_summary")
+                  "kernels_bands", "kernels_checks", "kernels_inputs", "kernels_points",
+                  "kernels_qr", "kernels_raw", "kernels_summary")
 STAMP = "curvewise-kernels.sha256"
 
 
