@@ -1,9 +1,6 @@
-"""Sequential (Type I) sums of squares and the lack-of-fit test against pure error.
+"""The lack-of-fit test against pure error, and counting distinct x values.
 
-Each power's sequential SS is the square of its effect in ``Q'y`` (the
-orthogonal decomposition of the weighted response in entry order), so the
-rows add up exactly to the regression SS. Without an intercept the first
-row (``x``) is uncentred, as in NIST StRD's no-intercept datasets.
+(The sequential ANOVA table of a fit is built in :mod:`service.core.tables`.)
 """
 
 from __future__ import annotations
@@ -11,24 +8,9 @@ from __future__ import annotations
 import numpy as np
 from scipy import special
 
-from service.core.results import AnovaRow, LackOfFit
-from service.core.selection import term
+from service.core.results import LackOfFit
 
 NAN = float("nan")
-
-
-def sequential_table(effects: np.ndarray, degree: int, intercept: bool, rss: float,
-                     df_residual: int) -> tuple[AnovaRow, ...]:
-    """One row per power in entry order, then the residual row (nan f/p)."""
-    c = 1 if intercept else 0
-    ss = np.asarray(effects[c:degree + c], dtype=float) ** 2
-    mse = rss / df_residual if df_residual > 0 else NAN
-    f = ss / mse if rss > 0 else np.full(ss.shape, NAN)
-    p = special.fdtrc(1, df_residual, f) if df_residual > 0 else np.full(ss.shape, NAN)
-    ssl, fl, pl = ss.tolist(), f.tolist(), p.tolist()
-    rows = [AnovaRow(term(k + 1), 1, ssl[k], ssl[k], fl[k], pl[k]) for k in range(degree)]
-    rows.append(AnovaRow("residual", df_residual, rss, mse, NAN, NAN))
-    return tuple(rows)
 
 
 def distinct_count(x: np.ndarray) -> int:

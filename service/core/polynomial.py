@@ -10,10 +10,9 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from scipy import special
 
 from service.core import design, kernels_qr, kernels_raw, qr, transforms
-from service.core.anova import distinct_count, sequential_table
+from service.core.anova import distinct_count
 from service.core.bands import predict_unguarded
 from service.core.decomposition import decompose
 from service.core.diagnostics import diagnose
@@ -23,7 +22,6 @@ from service.core.grid import grid_points
 from service.core.inputs import check_magnitude, check_spec, clean_data
 from service.core.normality import MAX_N as SHAPIRO_MAX_N
 from service.core.results import (
-    Coefficient,
     FitReport,
     FitStatistics,
     FittedPolynomial,
@@ -33,7 +31,8 @@ from service.core.results import (
 )
 from service.core.selection import candidate_row, choose
 from service.core.spec import FitOptions, ModelSpec
-from service.core.summary import candidate_measures, t_quantile
+from service.core.summary import candidate_measures
+from service.core.tables import fit_tables
 
 NAN = float("nan")
 RAW_COND_NOTICE = 1e10  # raw-power design condition number worth a notice (common practice)
@@ -163,8 +162,8 @@ def _fit(x, y, weights, model: ModelSpec, options: FitOptions) -> FitReport:
         frozen_array(np.asarray(coef_b, dtype=float)), frozen_array(r64), frozen_array(raw),
         frozen_array(cov), float(sigma), m.df_residual, n, xmin, xmax, data.w is not None,
         float(options.level))
-    coefficients = _coefficient_table(terms, raw, cov, m.df_residual, options.level)
-    anova = sequential_table(dec.effects, degree, intercept, m.rss, m.df_residual)
+    coefficients, anova = fit_tables(terms, raw, cov, dec.effects, degree, intercept, m.rss,
+                                     m.df_residual, options.level)
     statistics = FitStatistics(
         n, p, m.df_model, m.df_residual, m.rss, m.tss, intercept, m.r_squared, m.adj_r_squared,
         float(sigma), m.f, m.f_p_value, m.log_likelihood, m.aic, m.aicc, m.bic, m.press,
@@ -238,22 +237,6 @@ def _supported_max(distinct, intercept, dmin, dmax, selects, notices) -> int:
                               f"{distinct} distinct x values."))
         return cap
     return dmax
-
-
-def _coefficient_table(terms, raw, cov, df, level) -> tuple[Coefficient, ...]:
-    # at most 11 coefficients: Python floats (same IEEE operations, fewer numpy calls)
-    est = raw.tolist()
-    se = [math.sqrt(v) if v > 0 else (v if math.isnan(v) else 0.0)
-          for v in cov.diagonal().tolist()]
-    tval = [b / s if s > 0 else NAN for b, s in zip(est, se, strict=True)]
-    if df > 0:
-        tq = t_quantile(df, 0.5 + level / 2)
-        pval = (2 * special.stdtr(df, np.negative(np.abs(tval)))).tolist()
-        half = [tq * s if s > 0 else 0.0 for s in se]
-    else:
-        pval = half = [NAN] * len(est)
-    return tuple(Coefficient(term, b, s, t, pv, b - h, b + h) for term, b, s, t, pv, h
-                 in zip(terms, est, se, tval, pval, half, strict=True))
 
 
 def _conditions(r, shift, scale, degree, intercept) -> tuple[float, float]:
