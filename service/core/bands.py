@@ -1,7 +1,7 @@
 """Predictions with bands at any x, from a :class:`FittedPolynomial` alone.
 
-``fit_series`` evaluates its grid with :func:`predict`, so a stored model
-reproduces the grid exactly.
+``fit_series`` evaluates its grid with :func:`grid_prediction` (the same
+numbers as :func:`predict`), so a stored model reproduces the grid exactly.
 
 Bands, at confidence ``level`` with ``t = t_{df}(1 - (1 - level)/2)``:
 
@@ -67,10 +67,14 @@ def predict(fitted: FittedPolynomial, x, *, level: float | None = None, m: int =
         return _predict(fitted, x, level, m)
 
 
-def predict_unguarded(fitted: FittedPolynomial, x, *, level: float | None = None,
-                      m: int = 1) -> Prediction:
-    """:func:`predict` for callers already inside ``np.errstate(all="ignore")`` (the fit)."""
-    return _predict(fitted, x, level, m)
+def grid_prediction(fitted: FittedPolynomial, xs: np.ndarray) -> Prediction:
+    """:func:`predict` at the fit's own grid and level, for ``fit_series`` (inside its
+    errstate): ``xs`` is a fresh array of finite values (``grid.grid_points``), so the
+    argument checks are skipped; the numbers are :func:`predict`'s (a stored model
+    reproduces the grid exactly)."""
+    u = transforms.apply(fitted.transform_x, xs, field="x")
+    return _evaluate(fitted, xs, u, fitted.level, 1, np.array(fitted.basis_coefficients),
+                     np.array(fitted.r_factor))
 
 
 def _predict(fitted: FittedPolynomial, x, level: float | None, m: int) -> Prediction:
@@ -86,6 +90,12 @@ def _predict(fitted: FittedPolynomial, x, level: float | None, m: int) -> Predic
         raise DataError(f"x[{i}] is not a finite number.", field=f"x[{i}]",
                         fix="Predict only at finite x values.")
     u = transforms.apply(fitted.transform_x, xs, field="x")
+    return _evaluate(fitted, xs, u, level, m, np.array(fitted.basis_coefficients, dtype=float),
+                     np.array(fitted.r_factor, dtype=float))
+
+
+def _evaluate(fitted: FittedPolynomial, xs: np.ndarray, u: np.ndarray, level: float, m: int,
+              coef: np.ndarray, r_factor: np.ndarray) -> Prediction:
     df = fitted.df_residual
     p = fitted.basis_coefficients.size
     if df > 0:
@@ -94,10 +104,8 @@ def _predict(fitted: FittedPolynomial, x, level: float | None, m: int) -> Predic
     else:
         tq = wh = float("nan")
     rows, extrap, finite = kernels_bands.curve_bands(
-        xs, u, fitted.x_shift, fitted.x_scale, 0 if fitted.intercept else 1,
-        np.array(fitted.basis_coefficients, dtype=float), upper_inverse(np.array(fitted.r_factor,
-        dtype=float)), fitted.sigma, tq, wh, m,
-        fitted.x_min, fitted.x_max)
+        xs, u, fitted.x_shift, fitted.x_scale, 0 if fitted.intercept else 1, coef,
+        upper_inverse(r_factor), fitted.sigma, tq, wh, m, fitted.x_min, fitted.x_max)
     fit, se = rows[0], rows[1]
     lo, hi = rows[2::2], rows[3::2]  # rows: mean, obs, band
     name = fitted.transform_y

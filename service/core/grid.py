@@ -27,7 +27,7 @@ def grid_points(spec: GridSpec, x_min: float, x_max: float, max_points: int) -> 
         more than ``max_points`` points.
     """
     if spec.x is not None:
-        xs = np.asarray(spec.x, dtype=float)
+        xs = np.array(spec.x, dtype=float)  # a copy: the prediction freezes it
         if xs.ndim != 1 or not np.all(np.isfinite(xs)):
             raise SpecError("grid.x must be a flat list of finite numbers.", field="grid.x",
                             fix="Remove null, NaN or infinite values from grid.x.")

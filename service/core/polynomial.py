@@ -13,7 +13,7 @@ import numpy as np
 
 from service.core import design, kernels_qr, kernels_raw, qr, transforms
 from service.core.anova import distinct_count
-from service.core.bands import predict_unguarded
+from service.core.bands import grid_prediction
 from service.core.decomposition import decompose
 from service.core.diagnostics import diagnose
 from service.core.errors import DesignError
@@ -174,7 +174,7 @@ def _fit(x, y, weights, model: ModelSpec, options: FitOptions) -> FitReport:
     grid = None
     if "grid" in options.include and options.grid is not None:
         gx = grid_points(options.grid, xmin, xmax, options.max_grid_points)
-        grid = predict_unguarded(fitted, gx, level=options.level)
+        grid = grid_prediction(fitted, gx)
     flags = trust_flags(n=n, p=p, exact=m.exact, condition=cond, diagnostics=diagnostics,
                         grid=grid)
     return FitReport(fitted, data.n_input, data.dropped, coefficients, anova, statistics,
