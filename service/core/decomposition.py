@@ -50,7 +50,7 @@ class Decomposition:
     effects64: np.ndarray    # (P,) float64
     rss_full: float          # residual SS of the largest model
     sum_zw2: float           # uncentred total SS (weighted)
-    press: tuple[float, ...]  # PRESS of each candidate (NaN at leverage one)
+    press: np.ndarray        # (candidates,) PRESS of each candidate (NaN at leverage one)
     extended: bool
 
     def p(self, degree: int) -> int:
@@ -100,7 +100,7 @@ def decompose(u: np.ndarray, z: np.ndarray, w: np.ndarray | None, degrees: list[
                 raise qr.RankDeficient(column)
             return Decomposition(intercept, max_degree, shift, scale, t64, sqrt_w, zw, r, r_inv,
                                  r_inv, effects, effects, float(rss), float(sum_zw2),
-                                 tuple(press.tolist()), False)
+                                 press, False)
         zw = z if sqrt_w is None else z * sqrt_w
         t64 = design.to_t(u, shift, scale)
         rss = np.nan
@@ -134,7 +134,7 @@ def decompose(u: np.ndarray, z: np.ndarray, w: np.ndarray | None, degrees: list[
         rss = rss_pass
     return Decomposition(intercept, max_degree, shift, scale, t64, sqrt_w, zw, r, r_inv,
                          r_inv64, effects, effects64, float(rss), qr.dot(zw, zw),
-                         tuple(press.tolist()), r.dtype != np.float64)
+                         press, r.dtype != np.float64)
 
 
 def _householder64(t, sw, zw, first, p):

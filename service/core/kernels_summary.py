@@ -20,13 +20,19 @@ def candidate_table(effects, rss_full, exact_cut, press, n, c, ps, half_logw):
     residual SS, ``exact_cut`` the residual SS at or below which a fit is
     exact (reported as 0), ``press`` each candidate's PRESS, ``c`` 1 with an
     intercept, ``half_logw`` half the sum of log weights.
+
+    Also returns ``tails`` (3 x 2k): numerator df, denominator df and F of the
+    overall F tests, then of the last powers' F(1, df) tests, as
+    ``scipy.special.fdtrc`` takes them.
     """
     big = effects.size
     e2 = effects * effects
-    tails = np.zeros(big + 1)  # tails[p] = sum of e2[p:], summed from the small end
+    left = np.zeros(big + 1)  # left[p] = sum of e2[p:], summed from the small end
     for j in range(big - 1, -1, -1):
-        tails[j] = tails[j + 1] + e2[j]
+        left[j] = left[j + 1] + e2[j]
     out = np.full((ps.size, len(COLUMNS)), np.nan)
+    k = ps.size
+    tails = np.empty((3, 2 * k))
     ss_model = 0.0
     for j in range(c, ps[0]):
         ss_model += e2[j]
@@ -36,7 +42,7 @@ def candidate_table(effects, rss_full, exact_cut, press, n, c, ps, half_logw):
         if i > 0:
             ss_model += e2[p - 1]
         df_model, df_res = p - c, n - p
-        rss = rss_full + tails[p]
+        rss = rss_full + left[p]
         if rss <= exact_cut:
             rss = 0.0
         tss = ss_model + rss
@@ -64,4 +70,6 @@ def candidate_table(effects, rss_full, exact_cut, press, n, c, ps, half_logw):
                 row[9] = row[8] + 2 * p * (p + 1) / (n - p - 1)
         row[11] = 0.0 if exact else press[i]
         row[12] = 1 - row[11] / tss if tss > 0 else np.nan
-    return out
+        tails[0, i], tails[1, i], tails[2, i] = df_model, df_res, row[6]
+        tails[0, k + i], tails[1, k + i], tails[2, k + i] = 1, df_res, row[13]
+    return out, tails

@@ -84,14 +84,13 @@ def candidate_measures(dec: Decomposition, degrees: list[int], sum_log_w: float
     n = dec.t.size
     c = 1 if dec.intercept else 0
     ps = [d + c for d in degrees]
-    table = candidate_table(dec.effects64, dec.rss_full, (EXACT_FIT_RTOL ** 2) * dec.sum_zw2,
-                            np.asarray(dec.press), n, c, np.asarray(ps, dtype=np.int64),
-                            0.5 * sum_log_w)
+    table, tails = candidate_table(dec.effects64, dec.rss_full,
+                                   (EXACT_FIT_RTOL ** 2) * dec.sum_zw2, dec.press, n,
+                                   c, np.asarray(ps, dtype=np.int64), 0.5 * sum_log_w)
     k = len(ps)
     df_res = [n - p for p in ps]
     # one call for both: overall F on (df_model, df_res), last power's F on (1, df_res)
-    probs = special.fdtrc([p - c for p in ps] + [1] * k, df_res + df_res,
-                          np.concatenate((table[:, 6], table[:, 13]))).tolist()
+    probs = special.fdtrc(tails[0], tails[1], tails[2]).tolist()
     rows = table.tolist()
     return [Measures(d, n, p, p - c, df, r[0], r[1], r[2], r[3], r[4], r[5], r[6], fp, r[7],
                      r[8], r[9], r[10], r[11], r[12], r[13], lp, r[0] == 0.0 and df > 0)
