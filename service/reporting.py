@@ -18,13 +18,13 @@ _FIELD_NAMES: dict[type, tuple[str, ...]] = {}
 
 def _names(obj) -> tuple[str, ...]:
     cls = type(obj)
-    if cls not in _FIELD_NAMES:
-        _FIELD_NAMES[cls] = tuple(f.name for f in fields(cls))
+    if cls not in _FIELD_NAMES:  # a named tuple (table rows) or a dataclass
+        _FIELD_NAMES[cls] = getattr(cls, "_fields", None) or tuple(f.name for f in fields(cls))
     return _FIELD_NAMES[cls]
 
 
 def plain(obj) -> dict:
-    """A flat dataclass as a dict (no deep copy: arrays are passed through)."""
+    """A flat result object as a dict (no deep copy: arrays are passed through)."""
     return {name: getattr(obj, name) for name in _names(obj)}
 
 

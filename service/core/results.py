@@ -4,12 +4,18 @@ The core returns numbers only: undefined statistics are ``float('nan')``
 (the schemas turn them into JSON null), arrays are read-only numpy arrays.
 Nothing here is mutated after construction. Indices into the data always
 refer to positions in the caller's *original* arrays (before any dropping).
+
+Table rows (coefficients, ANOVA rows, candidates, tests, flags, notices) are
+named tuples: immutable, with named fields, and about three times cheaper to
+build than frozen dataclasses (a fit builds a dozen of them). The containers
+are frozen, slotted dataclasses.
 """
 
 from __future__ import annotations
 
 from collections.abc import Mapping
 from dataclasses import dataclass
+from typing import NamedTuple
 
 import numpy as np
 
@@ -30,16 +36,14 @@ def frozen_rows(values: np.ndarray) -> list[np.ndarray]:
     return list(values)
 
 
-@dataclass(frozen=True, slots=True)
-class Notice:
+class Notice(NamedTuple):
     """A numerical or data warning turned into data (``code`` is stable snake_case)."""
 
     code: str
     message: str
 
 
-@dataclass(frozen=True, slots=True)
-class TrustFlag:
+class TrustFlag(NamedTuple):
     """A plain-language reason to be careful with this fit, with the evidence."""
 
     code: str
@@ -48,8 +52,7 @@ class TrustFlag:
     evidence: Evidence
 
 
-@dataclass(frozen=True, slots=True)
-class Coefficient:
+class Coefficient(NamedTuple):
     """One coefficient on the raw (transformed-if-asked) x scale."""
 
     term: str
@@ -61,8 +64,7 @@ class Coefficient:
     upper: float
 
 
-@dataclass(frozen=True, slots=True)
-class AnovaRow:
+class AnovaRow(NamedTuple):
     """One row of the sequential (Type I) table; the residual row has nan f/p."""
 
     term: str
@@ -98,8 +100,7 @@ class FitStatistics:
     condition_number: float
 
 
-@dataclass(frozen=True, slots=True)
-class Candidate:
+class Candidate(NamedTuple):
     """One row of the selection trail (one candidate degree)."""
 
     degree: int
@@ -152,8 +153,7 @@ class Prediction:
     level: float
 
 
-@dataclass(frozen=True, slots=True)
-class TestResult:
+class TestResult(NamedTuple):
     """A formal assumption test."""
 
     name: str  # "shapiro_wilk" | "breusch_pagan" | "durbin_watson" | ...
