@@ -15,7 +15,7 @@ float64 answer could lose digits (see ``polynomial.py``).
 
 from __future__ import annotations
 
-from dataclasses import dataclass
+from typing import NamedTuple
 
 import numpy as np
 
@@ -32,8 +32,7 @@ _NONE = np.empty(0)
 _NO_RINV = np.empty((0, 0))
 
 
-@dataclass(frozen=True, slots=True)
-class Decomposition:
+class Decomposition(NamedTuple):
     """The weighted QR of the design up to ``max_degree`` and the candidates' sums (internal)."""
 
     intercept: bool

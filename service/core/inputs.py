@@ -7,7 +7,7 @@ caller's original index) and saying what to do about it.
 from __future__ import annotations
 
 import math
-from dataclasses import dataclass
+from typing import NamedTuple
 
 import numpy as np
 
@@ -26,8 +26,7 @@ from service.core.spec import (
 DEFAULT_MAX_DEGREE = 3  # candidates when neither degree nor max_degree is given
 
 
-@dataclass(frozen=True, slots=True)
-class CleanData:
+class CleanData(NamedTuple):
     """Finite, validated arrays of the points used, with their original positions.
 
     ``x_bounds``/``y_bounds`` (min, max) and ``distinct`` (number of distinct
