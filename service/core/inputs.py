@@ -119,7 +119,7 @@ def clean_data(x, y, weights, missing: str) -> CleanData:
 
 def _bad_weight(wa: np.ndarray, index: np.ndarray, weights) -> None:
     i = int(index[np.flatnonzero(wa <= 0)[0]])
-    raise DataError(f"weights[{i}] = {weights[i]!r} is not positive.",
+    raise DataError(f"weights[{i}] = {float(weights[i])!r} is not positive.",
                     field=f"weights[{i}]",
                     fix="Weights are inverse variances (1/sd^2) and must be > 0; drop the "
                         "point instead of giving it weight 0.")

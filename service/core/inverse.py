@@ -127,8 +127,8 @@ def _invert(fitted: FittedPolynomial, y: np.ndarray, m: np.ndarray, level: float
     y_fit = transforms.apply(fitted.transform_y, y, field="y")
     if not np.all(np.isfinite(y_fit)):
         bad = int(np.flatnonzero(~np.isfinite(y_fit))[0])
-        raise DataError(f"y[{bad}] = {y[bad]!r} is not finite after the {fitted.transform_y} "
-                        "transform.", field=f"y[{bad}]",
+        raise DataError(f"y[{bad}] = {float(y[bad])!r} is not finite after the "
+                        f"{fitted.transform_y} transform.", field=f"y[{bad}]",
                         fix="Send readings inside the range the calibration was fitted on.")
     estimates = _read_all(curve, y, y_fit, m)
     return Inversion(estimates=estimates, level=level, monotone=curve.monotone,

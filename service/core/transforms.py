@@ -69,7 +69,7 @@ def apply(name: str, values: np.ndarray, *, field: str,
         pos = int(np.flatnonzero(~ok)[0])
         orig = int(index[pos]) if index is not None else pos
         raise TransformError(
-            f"{field}[{orig}] = {values[pos]!r} is outside the domain of the {name} "
+            f"{field}[{orig}] = {float(values[pos])!r} is outside the domain of the {name} "
             f"transform (values must be {words}).",
             field=f"{field}[{orig}]",
             fix=f"Remove or correct that value, or choose transform_{field} = \"none\" "

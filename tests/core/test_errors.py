@@ -83,6 +83,14 @@ def test_transform_domain(model, field):
     y = [1.0, 2, -3, 4, 5, 6]
     err = _raises(TransformError, field, x, y, model=model)
     assert isinstance(err, DataError)  # hierarchy: TransformError is a DataError
+    value = x[0] if field == "x[0]" else y[2]
+    assert f"{field} = {float(value)!r} is outside" in err.message  # not np.float64(...)
+
+
+def test_bad_weight_message_shows_a_plain_number():
+    err = _raises(DataError, "weights[1]", np.arange(4.0), np.arange(4.0),
+                  np.array([1.0, -2.0, 1.0, 1.0]), model=ModelSpec(degree=1))
+    assert "weights[1] = -2.0 is not positive" in err.message
 
 
 def test_too_few_distinct_x_for_degree():
