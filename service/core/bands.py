@@ -106,21 +106,27 @@ def _evaluate(fitted: FittedPolynomial, xs: np.ndarray, u: np.ndarray, level: fl
     rows, extrap, finite = kernels_bands.curve_bands(
         xs, u, fitted.x_shift, fitted.x_scale, 0 if fitted.intercept else 1, coef,
         upper_inverse(r_factor), fitted.sigma, tq, wh, m, fitted.x_min, fitted.x_max)
-    fit, se = rows[0], rows[1]
-    lo, hi = rows[2::2], rows[3::2]  # rows: mean, obs, band
     name = fitted.transform_y
+    if name == "none" and finite:  # the usual case: read-only views of the kernel's rows
+        values = frozen_rows(rows)
+    else:
+        values = _limits(name, rows, finite)
+    return Prediction(frozen_array(xs), *values, frozen_array(extrap, dtype=bool), level)
+
+
+def _limits(name: str, rows: np.ndarray, finite: bool) -> list[np.ndarray]:
+    """Fit, se and the three bands' limits from the kernel's rows (mean, obs, band), mapped
+    back through the inverse y transform; infinite values (far outside the data) as NaN."""
+    fit, se = rows[0], rows[1]
+    lo, hi = rows[2::2], rows[3::2]
     if name != "none":
         fit = transforms.inverse(name, fit)
         lo, hi = transforms.inverse(name, lo), transforms.inverse(name, hi)
         if not transforms.is_increasing(name):
             lo, hi = hi, lo
         finite = bool(np.isfinite(lo).all() and np.isfinite(hi).all())
-    if name == "none" and finite:  # the usual case: read-only views of the kernel's rows
-        values = frozen_rows(rows)
-    else:
-        values = [fit, se, lo[0], hi[0], lo[1], hi[1], lo[2], hi[2]]
-        # finite limits imply a finite fit and se (an infinite or NaN one spreads to the limits)
-        if not finite and any(np.isinf(a).any() for a in values):  # far outside the data
-            values = [np.where(np.isinf(a), np.nan, a) for a in values]
-        values = [frozen_array(a) for a in values]
-    return Prediction(frozen_array(xs), *values, frozen_array(extrap, dtype=bool), level)
+    values = [fit, se, lo[0], hi[0], lo[1], hi[1], lo[2], hi[2]]
+    # finite limits imply a finite fit and se (an infinite or NaN one spreads to the limits)
+    if not finite and any(np.isinf(a).any() for a in values):
+        values = [np.where(np.isinf(a), np.nan, a) for a in values]
+    return [frozen_array(a) for a in values]
