@@ -1,5 +1,4 @@
-"""Compiled upper tail of F(1, df): the batch kernel's last-power p-values, and a
-short fit's coefficient and sequential-ANOVA p-values (:func:`f1_tails`, ``tables.py``).
+"""Compiled upper tail of F(1, df) for the batch kernel: p-values of the last power.
 
 ``P(F(1, df) > f) = I_x(df/2, 1/2)`` with ``x = df / (df + f)`` (the regularized
 incomplete beta function; equivalently the two-sided tail of Student's t at
@@ -74,15 +73,6 @@ def f1_tail(f, df, log_beta):
         term *= x * (2 * j) / (2 * j + 1)
         total += term
     return 1.0 - 2.0 / math.pi * (theta + s * total)
-
-
-@numba.njit(cache=True, nogil=True, error_model="numpy")
-def f1_tails(fs, df, log_beta):
-    """:func:`f1_tail` of each of ``fs`` (one ``df``)."""
-    out = np.empty(fs.size)
-    for i in range(fs.size):
-        out[i] = f1_tail(fs[i], df, log_beta)
-    return out
 
 
 def log_beta_table(size: int) -> np.ndarray:

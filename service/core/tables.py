@@ -6,35 +6,24 @@ rows add up exactly to the regression SS. Without an intercept the first
 row (``x``) is uncentred, as in NIST StRD's no-intercept datasets.
 
 A coefficient's two-sided p-value ``P(|T_df| > |t|)`` equals the F(1, df)
-upper tail at ``t²``, so both tables' p-values come from one call: the
-compiled tail ``batch_ftail.f1_tails`` up to :data:`COMPILED_MAX_DF` residual
-df (its finite sums grow with df), ``scipy.special.fdtrc`` above (they agree to
-1e-11 relative, ``tests/batch/test_ftail.py``; fdtrc agrees with
-``2 stdtr(df, -|t|)`` to ~1e-13). At most 11 rows each: plain Python floats,
-the same IEEE operations with fewer numpy calls.
+upper tail at ``t²``; both tables' p-values come from one
+``scipy.special.fdtrc`` call (it agrees with ``2 stdtr(df, -|t|)`` to ~1e-13
+relative). At most 11 rows each: plain Python floats, the same IEEE
+operations with fewer numpy calls.
 """
 
 from __future__ import annotations
 
 import math
-from functools import lru_cache
 
 import numpy as np
 from scipy import special
 
-from service.core.batch_ftail import f1_tails
 from service.core.results import AnovaRow, Coefficient
 from service.core.selection import term
 from service.core.summary import t_quantile
 
 NAN = float("nan")
-COMPILED_MAX_DF = 500  # the compiled tail's A&S sums take up to df/2 terms
-
-
-@lru_cache(maxsize=4096)
-def _log_beta(df: int) -> float:
-    """``ln B(df/2, 1/2)`` (``scipy.special.betaln``), cached per df."""
-    return float(special.betaln(0.5 * df, 0.5))
 
 
 def fit_tables(terms: tuple[str, ...], raw: np.ndarray, cov: np.ndarray, effects: np.ndarray,
@@ -61,11 +50,7 @@ def fit_tables(terms: tuple[str, ...], raw: np.ndarray, cov: np.ndarray, effects
     if df > 0:
         tq = t_quantile(df, 0.5 + level / 2)
         half = [tq * s if s > 0 else 0.0 for s in se]
-        values = [t * t for t in tval] + f
-        if df <= COMPILED_MAX_DF:
-            probs = f1_tails(np.array(values), df, _log_beta(df)).tolist()
-        else:
-            probs = special.fdtrc(1, df, values).tolist()
+        probs = special.fdtrc(1, df, [t * t for t in tval] + f).tolist()
     else:
         half = [NAN] * len(est)
         probs = [NAN] * (len(est) + degree)

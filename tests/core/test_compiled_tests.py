@@ -46,24 +46,3 @@ def test_shapiro_wilk_of_residuals_equals_scipy(n):
     np.testing.assert_allclose(sw.statistic, ref.statistic, rtol=1e-12)
     np.testing.assert_allclose(sw.p_value, ref.pvalue, rtol=1e-9)
 
-
-
-@pytest.mark.parametrize("n", [40, 1200])  # residual df below and above tables.COMPILED_MAX_DF
-def test_coefficient_and_anova_p_values_equal_statsmodels(n):
-    # oracle: statsmodels OLS t-test p-values and anova_lm(typ=1) on the same quadratic
-    import pandas as pd
-    import statsmodels.formula.api as smf
-    from statsmodels.stats.anova import anova_lm
-
-    from service.core.tables import COMPILED_MAX_DF
-
-    rng = np.random.default_rng(n)
-    x = np.sort(rng.uniform(0.0, 4.0, n))
-    y = 0.5 + 0.2 * x + 0.02 * x**2 + rng.normal(0.0, 0.5, n)
-    rep = fit_series(x, y, model=ModelSpec(degree=2), options=FitOptions(grid=None))
-    assert (rep.statistics.df_residual <= COMPILED_MAX_DF) == (n == 40)
-    res = smf.ols("y ~ x + I(x**2)", data=pd.DataFrame({"x": x, "y": y})).fit()
-    np.testing.assert_allclose([c.p_value for c in rep.coefficients], res.pvalues, rtol=1e-9)
-    table = anova_lm(res, typ=1)
-    np.testing.assert_allclose([r.p_value for r in rep.anova[:-1]], table["PR(>F)"][:-1],
-                               rtol=1e-9)
