@@ -47,6 +47,16 @@ def _basis_row(rinv, v, j, m, qj):
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy", fastmath=_SUM)
+def _add_column(rinv, v, j, m, ej, q, h, f):
+    """Add basis column ``j`` to the running sums: ``h[:m] += q_j²`` (leverage) and
+    ``f[:m] += ej q_j`` (fitted values), with ``q_j`` from :func:`_basis_row` (into ``q``)."""
+    _basis_row(rinv, v, j, m, q)
+    for i in range(m):
+        h[i] += q[i] * q[i]
+        f[i] += ej * q[i]
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy", fastmath=_SUM)
 def candidate_sums(t, sw, zw, first, rinv, effects, ps, leverage_one):
     """PRESS and the largest leverage of each candidate, and the largest model's RSS.
 
@@ -84,11 +94,7 @@ def candidate_sums(t, sw, zw, first, rinv, effects, ps, leverage_one):
         f[:m] = 0.0
         c = 0
         for j in range(big):
-            _basis_row(rinv, v, j, m, q)
-            ej = effects[j]
-            for i in range(m):
-                h[i] += q[i] * q[i]
-                f[i] += ej * q[i]
+            _add_column(rinv, v, j, m, effects[j], q, h, f)
             if c < ps.size and ps[c] == j + 1:
                 acc, top = 0.0, hmax[c]
                 for i in range(m):
@@ -146,11 +152,7 @@ def point_measures(t, sw, zw, first, rinv, effects, p, rss, df, bp_rinv, out):
         h[:] = 0.0
         e[:] = 0.0
         for j in range(p):
-            _basis_row(rinv, v, j, m, q)
-            ej = effects[j]
-            for i in range(m):
-                h[i] += q[i] * q[i]
-                e[i] += ej * q[i]
+            _add_column(rinv, v, j, m, effects[j], q, h, e)
         acc = 0.0
         for i in range(m):
             e[i] = zw[s0 + i] - e[i]
