@@ -103,14 +103,14 @@ def _fit(x, y, weights, model: ModelSpec, options: FitOptions) -> FitReport:
     dec, cands, degree, reason, method = _select(u, z, data.w, degrees, model, selects,
                                                  sum_log_w, field, u_bounds, False)
     m = cands[degree - dmin]
-    sigma2 = 0.0 if m.exact else (m.rss / m.df_residual if m.df_residual > 0 else NAN)
+    sigma2 = _residual_mean_square(m)
     readout = _float64_readout(dec, m, degree, sigma2)
     if (readout is None and not dec.extended and n <= qr.EXTENDED_MAX_ROWS
             and qr.EXTENDED_IS_WIDER):
         dec, cands, degree, reason, method = _select(u, z, data.w, degrees, model, selects,
                                                      sum_log_w, field, u_bounds, True)
         m = cands[degree - dmin]
-        sigma2 = 0.0 if m.exact else (m.rss / m.df_residual if m.df_residual > 0 else NAN)
+        sigma2 = _residual_mean_square(m)
     p = m.p
     selection = Selection(method, degree, reason, float(model.alpha),
                           tuple(candidate_row(c) for c in cands))
@@ -191,6 +191,11 @@ def _select(u, z, w, degrees, model: ModelSpec, selects: bool, sum_log_w: float,
         return dec, cands, degree, reason, model.select
     dmin = degrees[0]
     return dec, cands, dmin, f"Degree {dmin} was fixed by the caller.", "fixed"
+
+
+def _residual_mean_square(m) -> float:
+    """RSS / df of a candidate: 0 for an exact fit, NaN without residual df."""
+    return 0.0 if m.exact else (m.rss / m.df_residual if m.df_residual > 0 else NAN)
 
 
 def _float64_readout(dec, m, degree, sigma2):
