@@ -32,7 +32,7 @@ RUN pip install --no-cache-dir --no-deps /wheels/*.whl && rm -rf /wheels
 # Compile the numerical kernels at build time (numba caches machine code; a host with another
 # CPU model recompiles once into the same directory, so it stays writable for the server).
 ENV NUMBA_CACHE_DIR=/app/.numba-cache
-RUN python -c "from service.core.warmup import warm_up; warm_up()" \
+RUN python -c "from service.core.compiled.warmup import warm_up; warm_up()" \
     && chown -R 10001:10001 /app/.numba-cache
 USER 10001:10001
 EXPOSE 8000

@@ -38,7 +38,7 @@ ROOT = Path(__file__).resolve().parent.parent
 sys.path.insert(0, str(ROOT))
 
 from service.core import ModelSpec  # noqa: E402
-from service.core.batch import fit_chunks, fit_many  # noqa: E402
+from service.core.batch.driver import fit_chunks, fit_many  # noqa: E402
 
 MODEL = ModelSpec(max_degree=4, select="sequential_f")
 ALPHA = MODEL.alpha

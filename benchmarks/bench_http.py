@@ -142,7 +142,7 @@ def load(port: int, payload: bytes, connections: int, seconds: float,
 
 def start_server(port: int, workers: int) -> subprocess.Popen:
     env = {**os.environ, "PYTHONPATH": str(ROOT), "CURVEWISE_LOG_LEVEL": "WARNING"}
-    command = [sys.executable, "-m", "gunicorn", "-c", "python:service.gunicorn_conf",
+    command = [sys.executable, "-m", "gunicorn", "-c", "python:service.runtime.gunicorn_conf",
                "--workers", str(workers), "--bind", f"127.0.0.1:{port}",
                "benchmarks.bench_http:bench_app()"]
     proc = subprocess.Popen(command, cwd=ROOT, env=env, stdout=subprocess.DEVNULL,

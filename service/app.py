@@ -4,11 +4,12 @@ from __future__ import annotations
 
 from flask import Flask
 
-from service import __version__, guard, observability, security
-from service import errors as error_handling
+from service import __version__
 from service.api import BLUEPRINT_MODULES
-from service.config import Settings
-from service.jsonio import OrjsonProvider
+from service.http import errors as error_handling
+from service.http.jsonio import OrjsonProvider
+from service.runtime import guard, observability, security
+from service.runtime.config import Settings
 
 
 def create_app(overrides: dict | None = None) -> Flask:

@@ -10,8 +10,8 @@ from service.api.batch_job import BatchJob, gc_paused
 from service.api.batch_stream import stream
 from service.api.error_docs import error_responses
 from service.api.parsing import PARSER
-from service.errors import ServiceLimitError
-from service.problems import ProblemKind, register_kind
+from service.http.errors import ServiceLimitError
+from service.http.problems import ProblemKind, register_kind
 
 blp = Blueprint("batch", __name__, description="Fit many series.")
 NDJSON = "application/x-ndjson"

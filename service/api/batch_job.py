@@ -14,14 +14,14 @@ import numpy as np
 from marshmallow import ValidationError
 
 from schemas.batch import load_series, summary_rows, valid_id
-from service.core.batch import fit_batch, fit_many
-from service.core.design import term_names
+from service.core.batch.driver import fit_batch, fit_many
+from service.core.polynomial.design import term_names
 from service.core.spec import FitOptions
-from service.errors import ServiceLimitError, fit_error_body, flatten_errors, problem_body
-from service.limits import check_degree
-from service.observability import record_fit_failure
-from service.reporting import fit_response
-from service.requests import grid_spec, model_spec
+from service.http.errors import ServiceLimitError, fit_error_body, flatten_errors, problem_body
+from service.http.limits import check_degree
+from service.http.reporting import fit_response
+from service.http.requests import grid_spec, model_spec
+from service.runtime.observability import record_fit_failure
 
 FULL_INCLUDE = ("coefficients", "anova", "statistics", "selection", "diagnostics",
                 "fitted_model")

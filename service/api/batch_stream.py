@@ -15,8 +15,8 @@ from marshmallow import ValidationError
 
 from schemas.batch import OptionsLineSchema
 from service.api.batch_job import BatchJob, gc_paused
-from service.errors import ServiceLimitError, flatten_errors, problem_body
-from service.jsonio import dumps_bytes
+from service.http.errors import ServiceLimitError, flatten_errors, problem_body
+from service.http.jsonio import dumps_bytes
 
 STREAM_CHUNK = 2048  # series fitted together while streaming (bounds memory)
 SPOOL_RAM_BYTES = 8 << 20  # NDJSON request bodies beyond this wait on disk, not in memory

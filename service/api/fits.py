@@ -10,10 +10,10 @@ from flask_smorest import Blueprint
 from schemas.common import ProblemSchema
 from schemas.fit import FitRequestSchema, FitResponseSchema
 from service.core import fit_series
-from service.errors import PROBLEM_MIME
-from service.limits import check_series
-from service.reporting import fit_response
-from service.requests import fit_options, model_spec
+from service.http.errors import PROBLEM_MIME
+from service.http.limits import check_series
+from service.http.reporting import fit_response
+from service.http.requests import fit_options, model_spec
 
 blp = Blueprint("fits", __name__, description="Fit one series.")
 

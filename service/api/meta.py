@@ -8,8 +8,8 @@ from flask_smorest import Blueprint, abort
 from schemas.common import MISSING_POLICIES, SECTIONS, SELECT_METHODS, TRANSFORMS
 from schemas.families import FamiliesResponseSchema, describe_options
 from schemas.fit import ModelSchema
-from service.docs_page import render_catalogue, render_openapi, render_problem
-from service.problems import CATALOGUE
+from service.http.docs_page import render_catalogue, render_openapi, render_problem
+from service.http.problems import CATALOGUE
 
 blp = Blueprint("meta", __name__, description="Families and documentation.")
 

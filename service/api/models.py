@@ -15,10 +15,10 @@ from schemas.models import (
 )
 from service.api.error_docs import error_responses
 from service.core import predict
-from service.core.calibration import figures_of_merit, sensitivity
-from service.core.document import from_document
 from service.core.errors import SpecError
-from service.core.inverse import invert
+from service.core.models.calibration import figures_of_merit, sensitivity
+from service.core.models.document import from_document
+from service.core.models.inverse import invert
 
 blp = Blueprint("models", __name__, description="Predict and invert with a fitted-model document.")
 

@@ -9,9 +9,9 @@ from schemas.plots import PlotRequestSchema
 from service.api.error_docs import error_responses
 from service.core import fit_series
 from service.core.errors import SpecError
-from service.limits import check_series
+from service.http.limits import check_series
+from service.http.requests import fit_options, model_spec
 from service.plots import MAX_POINTS, MEDIA_TYPES, PlotOptions, render
-from service.requests import fit_options, model_spec
 
 blp = Blueprint("plots", __name__, description="Figures.")
 

@@ -8,12 +8,12 @@ Public surface (import from here, not from submodules)::
 plus the option types in :mod:`service.core.spec`, the result types in
 :mod:`service.core.results` and the errors in :mod:`service.core.errors`.
 
-Weights are inverse variances (``1/sd²``). See :mod:`service.core.polynomial`
-for the fit, :mod:`service.core.selection` for the degree-choice rules and
-:mod:`service.core.bands` for the bands and the retransformation caveat.
+Weights are inverse variances (``1/sd²``). See :mod:`service.core.polynomial.fit`
+for the fit, :mod:`service.core.polynomial.selection` for the degree-choice rules and
+:mod:`service.core.polynomial.bands` for the bands and the retransformation caveat.
 """
 
-from service.core.bands import predict  # noqa: F401
+from service.core.compiled.cache import ensure_fresh as _ensure_fresh
 from service.core.errors import (  # noqa: F401
     DataError,
     DesignError,
@@ -22,8 +22,8 @@ from service.core.errors import (  # noqa: F401
     SpecError,
     TransformError,
 )
-from service.core.kernel_cache import ensure_fresh as _ensure_fresh
-from service.core.polynomial import fit_series  # noqa: F401
+from service.core.polynomial.bands import predict  # noqa: F401
+from service.core.polynomial.fit import fit_series  # noqa: F401
 from service.core.results import (  # noqa: F401
     AnovaRow,
     Candidate,

@@ -6,7 +6,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from service.core import FitReport, Prediction, Selection, predict, transforms
+from service.core import FitReport, Prediction, Selection, predict
+from service.core.data import transforms
 
 DEFAULT_GRID_POINTS = 200
 

@@ -1,6 +1,6 @@
 """One function per panel: ``draw(ax, data, options)`` on a matplotlib Axes (object API only).
 
-Residual panels use the forms the core computes (``service.core.diagnostics``):
+Residual panels use the forms the core computes (``service.core.polynomial.diagnostics``):
 weighted residuals, internally studentized ("standardized") and externally
 studentized residuals, leverage and Cook's distance. Positions in the normal
 quantile panel are Blom's ``(i - 3/8) / (n + 1/4)`` (common practice).

@@ -164,7 +164,7 @@ def test_grid_over_the_limit_is_422(client, grid):
 
 
 def test_problem_type_pages_exist_for_every_code(client):
-    from service.problems import CATALOGUE
+    from service.http.problems import CATALOGUE
 
     for code in CATALOGUE:
         page = client.get(f"/problems/{code}")

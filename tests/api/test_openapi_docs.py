@@ -88,7 +88,7 @@ def test_docs_page_is_offline_and_covers_every_operation(client, spec):
 
 
 def test_readme_error_catalogue_matches_the_server():
-    from service.problems import CATALOGUE
+    from service.http.problems import CATALOGUE
 
     readme = (ROOT / "README.md").read_text()
     rows = set(re.findall(r"^\| (\d{3}) \| `([a-z_]+)` \|", readme, flags=re.M))

@@ -12,7 +12,7 @@ import mpmath
 import numpy as np
 import pytest
 
-from service.core.batch_basis import basis
+from service.core.batch.basis import basis
 
 
 def _design(kind: int, rng):

@@ -13,7 +13,7 @@ import numpy as np
 import pytest
 
 from service.core import FitOptions, ModelSpec, fit_series
-from service.core.batch import fit_batch
+from service.core.batch.driver import fit_batch
 from tests.batch.conftest import ragged_series, rel
 
 TOL = 1e-9

@@ -11,7 +11,7 @@ import numpy as np
 import statsmodels.api as sm
 
 from service.core import DataError, DesignError, ModelSpec
-from service.core.batch import fit_batch, fit_many
+from service.core.batch.driver import fit_batch, fit_many
 from tests.batch.conftest import ragged_series, rel
 
 

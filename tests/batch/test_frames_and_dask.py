@@ -1,6 +1,6 @@
 """Long-format pandas entry and Dask on a 2-worker LocalCluster equal the in-process batch.
 
-The in-process reference is :func:`service.core.batch.fit_batch` (checked against
+The in-process reference is :func:`service.core.batch.driver.fit_batch` (checked against
 fit_series and statsmodels in the other batch tests). The Dask test is bounded:
 a small cluster on 127.0.0.1, a timeout, and a few hundred series.
 """
@@ -12,8 +12,8 @@ import pandas as pd
 import pytest
 
 from service.core import ModelSpec
-from service.core.batch import fit_batch
-from service.core.frames import fit_frame
+from service.core.batch.driver import fit_batch
+from service.core.batch.frames import fit_frame
 from tests.batch.conftest import ragged_series
 
 MODEL = ModelSpec(max_degree=3, select="bic")
@@ -60,7 +60,7 @@ def test_dask_on_a_local_cluster_equals_in_process():
     distributed = pytest.importorskip("distributed")
     frame = _long_frame(300, seed=13)
     ref = fit_frame(frame, model=MODEL)
-    from service.core.dask_support import fit_dask
+    from service.core.batch.dask_support import fit_dask
 
     with distributed.LocalCluster(n_workers=2, threads_per_worker=1, processes=True,
                                   host="127.0.0.1", dashboard_address=None) as cluster, \

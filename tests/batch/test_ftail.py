@@ -10,7 +10,7 @@ import numpy as np
 import pytest
 from scipy import special
 
-from service.core.batch_ftail import f1_tail, log_beta_table
+from service.core.batch.ftail import f1_tail, log_beta_table
 
 
 def test_f1_tail_equals_scipy_fdtrc_over_df_and_f():

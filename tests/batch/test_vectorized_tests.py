@@ -15,9 +15,10 @@ from statsmodels.stats.diagnostic import het_breuschpagan
 from statsmodels.stats.outliers_influence import OLSInfluence
 from statsmodels.stats.stattools import durbin_watson
 
-from service.core import ModelSpec, batch_residuals
-from service.core import batch_engine as engine
-from service.core.batch import fit_batch
+from service.core import ModelSpec
+from service.core.batch import engine
+from service.core.batch import residuals as batch_residuals
+from service.core.batch.driver import fit_batch
 from tests.batch.conftest import ragged_series, rel
 
 

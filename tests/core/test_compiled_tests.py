@@ -9,7 +9,7 @@ import scipy.stats
 from scipy import special
 
 from service.core import FitOptions, ModelSpec, fit_series
-from service.core.kernels_checks import chi2_tail
+from service.core.checks.kernels import chi2_tail
 
 
 def test_chi2_tail_equals_scipy_chdtrc():

@@ -17,7 +17,9 @@ import mpmath
 import numpy as np
 import pytest
 
-from service.core import FitOptions, ModelSpec, design, fit_series, kernels_raw
+from service.core import FitOptions, ModelSpec, fit_series
+from service.core.polynomial import design
+from service.core.polynomial.compiled import raw as kernels_raw
 
 NO_GRID = FitOptions(grid=None)
 

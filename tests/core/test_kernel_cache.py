@@ -2,7 +2,7 @@
 
 numba keys a cached function by its own source file (its documented behaviour), so a
 caller keeps the callee's old machine code when only the callee's file changes. The
-stamp in :mod:`service.core.kernel_cache` flushes the cache when any kernel source
+stamp in :mod:`service.core.compiled.cache` flushes the cache when any kernel source
 changed. Each step runs in a fresh interpreter, as a new server process would.
 """
 
@@ -20,7 +20,7 @@ CALLER = ("import numba\nfrom callee_mod import callee\n@numba.njit(cache=True)\
 
 def _run(tmp_path, flush: bool) -> list[str]:
     code = (f"import sys; sys.path.insert(0, {str(tmp_path)!r}); import callee_mod, caller_mod; "
-            "from service.core.kernel_cache import ensure_fresh; "
+            "from service.core.compiled.cache import ensure_fresh; "
             + ("print(ensure_fresh([callee_mod, caller_mod])); " if flush else "")
             + "print(caller_mod.caller(1))")
     out = subprocess.run([sys.executable, "-c", code], cwd=ROOT, capture_output=True, text=True,
@@ -40,14 +40,15 @@ def test_a_changed_callee_is_recompiled_after_the_stamp_check(tmp_path):
 
 
 def test_the_core_kernels_carry_a_current_stamp():
-    from service.core import kernel_cache
+    from service.core.compiled import cache as kernel_cache
 
     assert kernel_cache.ensure_fresh() is False   # service.core checked it on import
 
 
 def test_every_module_with_compiled_kernels_is_stamped():
-    from service.core import kernel_cache
+    from service.core.compiled import cache as kernel_cache
 
-    compiled = {p.stem for p in (ROOT / "service" / "core").glob("*.py")
+    core = ROOT / "service" / "core"
+    compiled = {".".join(p.relative_to(core).with_suffix("").parts) for p in core.rglob("*.py")
                 if "numba.njit" in p.read_text()}
     assert compiled == set(kernel_cache.KERNEL_MODULES)

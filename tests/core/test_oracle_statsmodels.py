@@ -192,7 +192,7 @@ def test_reciprocal_x_transform_matches_statsmodels():
 @pytest.mark.parametrize("weighted", [False, True])
 def test_long_series_float64_path_matches_statsmodels(weighted):
     # n above qr.EXTENDED_MAX_ROWS: the float64 CholeskyQR2 path
-    from service.core import qr
+    from service.core.polynomial import qr
 
     rng = np.random.default_rng(61)
     n = qr.EXTENDED_MAX_ROWS + 1000

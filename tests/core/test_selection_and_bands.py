@@ -1,6 +1,6 @@
 """Degree-selection rules and band formulas, checked against statsmodels numbers.
 
-The rules are the documented ones (service/core/selection.py): hierarchical
+The rules are the documented ones (service/core/polynomial/selection.py): hierarchical
 candidates; sequential_f adds the next power while its partial F against the larger
 model's residual mean square is significant; the criteria pick the minimum (AIC,
 AICc, BIC, PRESS) or maximum (adjusted R²). Oracles: statsmodels OLS results of each

@@ -18,7 +18,7 @@ BLAS = ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS")
 
 def test_importing_the_cli_pins_blas_threads_before_numpy():
     env = {k: v for k, v in os.environ.items() if k not in BLAS}
-    code = ("import sys, os, service.cli; assert 'numpy' not in sys.modules; "
+    code = ("import sys, os, service.runtime.cli; assert 'numpy' not in sys.modules; "
             f"print([os.environ[k] for k in {BLAS!r}])")
     out = subprocess.run([sys.executable, "-c", code], cwd=ROOT, env=env, capture_output=True,
                          text=True, timeout=60)
@@ -27,7 +27,7 @@ def test_importing_the_cli_pins_blas_threads_before_numpy():
 
 
 def test_production_defaults():
-    from service import gunicorn_conf
+    from service.runtime import gunicorn_conf
 
     assert gunicorn_conf.worker_class == "sync"
     assert gunicorn_conf.default_workers() == max(2, gunicorn_conf.usable_cores())
@@ -40,8 +40,9 @@ def test_worker_start_hook_loads_the_kernels_and_freezes_start_up_objects():
     # In a fresh interpreter, as in a new gunicorn worker: after the hook the compiled
     # kernels are loaded (a batch and a single fit ran) and the start-up objects are
     # frozen (gc.freeze).
-    code = ("import gc; from service import gunicorn_conf; gunicorn_conf.post_worker_init(None); "
-            "from service.core import batch_kernel as k; "
+    code = ("import gc; from service.runtime import gunicorn_conf; "
+            "gunicorn_conf.post_worker_init(None); "
+            "from service.core.batch import kernel as k; "
             "print(gc.get_freeze_count() > 10000, len(k.fit_rows.signatures) > 0)")
     out = subprocess.run([sys.executable, "-c", code], cwd=ROOT, capture_output=True, text=True,
                          timeout=300)
@@ -50,7 +51,7 @@ def test_worker_start_hook_loads_the_kernels_and_freezes_start_up_objects():
 
 
 def test_help_lists_the_flags():
-    out = subprocess.run([sys.executable, "-m", "service.cli", "serve", "--help"], cwd=ROOT,
+    out = subprocess.run([sys.executable, "-m", "service.runtime.cli", "serve", "--help"], cwd=ROOT,
                          capture_output=True, text=True, timeout=60)
     assert out.returncode == 0
     for flag in ("--host", "--port", "--workers", "--dev"):
@@ -58,8 +59,8 @@ def test_help_lists_the_flags():
 
 
 def test_flags_win_over_environment_over_defaults():
-    from service.cli import build_parser, resolve
-    from service.gunicorn_conf import default_workers
+    from service.runtime.cli import build_parser, resolve
+    from service.runtime.gunicorn_conf import default_workers
 
     env = {"CURVEWISE_HOST": "127.0.0.2", "CURVEWISE_PORT": "9001", "CURVEWISE_WORKERS": "5"}
     assert resolve(build_parser().parse_args(["serve"]), env) == ("127.0.0.2", 9001, 5)

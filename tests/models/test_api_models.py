@@ -13,7 +13,7 @@ from hypothesis import strategies as st
 from scipy import stats
 
 from service.app import create_app
-from service.core.inverse import STATUSES
+from service.core.models.inverse import STATUSES
 from tests.conftest import load_nist
 
 PROBLEM = "application/problem+json"

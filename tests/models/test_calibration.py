@@ -8,7 +8,7 @@ import statsmodels.api as sm
 from scipy import optimize
 
 from service.core import FitOptions, GridSpec, ModelSpec, fit_series, predict
-from service.core.calibration import figures_of_merit, sensitivity
+from service.core.models.calibration import figures_of_merit, sensitivity
 from tests.conftest import load_nist
 
 

@@ -20,7 +20,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from service.core import DocumentError, FitOptions, GridSpec, ModelSpec, fit_series, predict
-from service.core.document import canonical_bytes, checksum, from_document, to_document
+from service.core.models.document import canonical_bytes, checksum, from_document, to_document
 from tests.conftest import load_nist
 
 POLYNOMIAL_SETS = {"norris": 1, "pontius": 2, "noint1": 1, "noint2": 1, "filip": 10,

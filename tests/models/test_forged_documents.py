@@ -14,10 +14,11 @@ import pytest
 from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
-from service.core import FitError, FitOptions, GridSpec, ModelSpec, design, fit_series
-from service.core.calibration import figures_of_merit, sensitivity
-from service.core.document import checksum, from_document, to_document
-from service.core.inverse import invert
+from service.core import FitError, FitOptions, GridSpec, ModelSpec, fit_series
+from service.core.models.calibration import figures_of_merit, sensitivity
+from service.core.models.document import checksum, from_document, to_document
+from service.core.models.inverse import invert
+from service.core.polynomial import design
 from tests.conftest import load_nist
 
 wide = st.one_of(st.floats(-1e300, 1e300), st.sampled_from([0.0, 1e-300, -1e-300, 5e-324,

@@ -18,7 +18,7 @@ from service.core import (
     fit_series,
     predict,
 )
-from service.core.inverse import STATUSES, invert
+from service.core.models.inverse import STATUSES, invert
 from tests.conftest import load_nist
 
 LEAN = FitOptions(grid=None, include=frozenset({"fitted_model"}))
@@ -281,7 +281,7 @@ def test_any_reading_gets_a_status_or_a_typed_error(pontius_models, which, readi
 
 def test_bracketing_fallback_gives_the_same_fieller_interval(monkeypatch):
     # Force the fallback path (as if Newton failed): it must reproduce the closed form too.
-    from service.core import inverse_band
+    from service.core.models import inverse_band
 
     monkeypatch.setattr(inverse_band.CalibrationCurve, "_newton",
                         lambda self, t, y0, m, sign: np.full_like(t, np.nan))
@@ -330,7 +330,7 @@ def test_weighted_calibration_interval_matches_statsmodels_wls_bands():
 def test_exact_fit_without_residual_df_gives_x_but_no_interval():
     # Three points, quadratic: no residual df, sigma undefined (null in the document). The
     # estimate is still the root of the interpolating parabola (oracle: numpy.polyfit/roots).
-    from service.core.document import from_document, to_document
+    from service.core.models.document import from_document, to_document
 
     x, y = np.array([1.0, 2.0, 4.0]), np.array([1.0, 3.0, 6.0])  # vertex at 7.5
     doc = to_document(_fit(x, y, 2))

@@ -9,8 +9,8 @@ import time
 import pytest
 from flask import Response
 
-from service import guard
 from service.app import create_app
+from service.runtime import guard
 
 LIMIT = 0.3
 

@@ -8,8 +8,8 @@ from __future__ import annotations
 import json
 import logging
 
-from service import logs
 from service.app import create_app
+from service.runtime import logs
 
 
 class _Records(logging.Handler):

@@ -14,9 +14,9 @@ import re
 import pytest
 from prometheus_client.parser import text_string_to_metric_families
 
-from service import logs, observability
 from service.app import create_app
 from service.core.errors import DesignError
+from service.runtime import logs, observability
 
 
 def samples(client) -> dict[tuple[str, tuple], float]:

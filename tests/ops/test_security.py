@@ -10,8 +10,8 @@ import hmac
 
 import pytest
 
-from service import security
 from service.app import create_app
+from service.runtime import security
 
 TOKENS = ("old-token-0123456789abcdef", "new-token-fedcba9876543210")
 

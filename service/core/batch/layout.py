@@ -1,0 +1,58 @@
+"""How a batch is laid out for the engine: screening and chunks.
+
+Internal to :mod:`service.core.batch.driver`. Series are held back to back in flat
+arrays with ``offsets``; the engine reads each series in place, so series of
+any mix of lengths need no padding and no copies.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from service.core.data import transforms
+
+CHUNK_POINTS = 131_072   # points per kernel call: bounds scratch memory, feeds the threads
+
+
+def screen(x, y, w, offsets, rows, model, raw):
+    """Split rows into those the engine takes and those for the single-series path.
+
+    Empty and malformed series go to the single-series path here. Non-finite values,
+    weights <= 0 and extreme magnitudes are found by the kernel as it reads each
+    series (:func:`service.core.batch.kernel.fit_rows`); only a transform's domain is
+    checked here, on the raw values (``1 / inf`` would look finite afterwards).
+    """
+    lengths = offsets[rows + 1] - offsets[rows]
+    bad = (lengths == 0) | np.isin(rows, np.fromiter(raw, dtype=np.int64, count=len(raw)))
+    kinds = [(getattr(model, name), values)
+             for name, values in (("transform_x", x), ("transform_y", y))]
+    if any(kind != "none" for kind, _ in kinds):
+        with np.errstate(all="ignore"):
+            point_bad = ~(np.isfinite(x) & np.isfinite(y))
+            for kind, values in kinds:
+                if kind != "none":
+                    point_bad |= ~transforms._DOMAIN[kind][0](values)
+        hits = np.flatnonzero(point_bad)
+        if hits.size:
+            bad_series = np.unique(np.searchsorted(offsets, hits, side="right") - 1)
+            bad |= np.isin(rows, bad_series)
+    return rows[~bad], rows[bad]
+
+
+def chunks(rows, lengths):
+    """Cut rows (in input order) into chunks of about :data:`CHUNK_POINTS` points.
+
+    A chunk is the unit of work of one kernel call (and of one thread); its
+    scratch memory is bounded by its longest series, so memory stays flat in
+    the number of series.
+    """
+    if rows.size == 0:
+        return
+    ends = np.cumsum(lengths[rows])
+    cuts = np.searchsorted(ends, np.arange(CHUNK_POINTS, int(ends[-1]), CHUNK_POINTS),
+                           side="right")
+    start = 0
+    for stop in [*np.unique(cuts).tolist(), rows.size]:
+        if stop > start:
+            yield rows[start:stop]
+            start = stop

@@ -1,0 +1,165 @@
+"""Compiled residual checks shared by every family: per-point forms, the formal tests and
+the flagged points, from weighted residuals and leverages.
+
+* Per-point forms (:func:`point_forms`), with ``e`` the weighted residuals and
+  ``h`` the leverages: internally studentized ``e / (sigma sqrt(1-h))``,
+  externally studentized ``e / sqrt(s_(i)² (1-h))`` with
+  ``s_(i)² = (rss - e²/(1-h)) / (df-1)``, Cook's distance ``std² h / (p (1-h))``
+  and DFFITS ``stud sqrt(h/(1-h))``.
+* Shapiro-Wilk ``W = (c . e_sorted)² / sum (e - mean)²`` with Royston's AS R94
+  weights ``c`` (``checks.shapiro_tables.shapiro_weights``, scipy's numbers) and
+  Royston's p-value (:func:`shapiro_p`; the batch kernel uses the same
+  function). ``tests/core`` holds both to ``scipy.stats.shapiro``.
+* Breusch-Pagan (Koenker's studentized form) ``LM = n ||Q'zc||² / ||zc||²`` for
+  the centred squared residuals ``zc`` and an orthonormal basis ``Q`` of the
+  family's auxiliary regressors, and its chi-squared tail (:func:`chi2_tail`).
+* Durbin-Watson ``sum (e_i - e_(i-1))² / sum e²``.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numba
+import numpy as np
+
+from service.core.checks.shapiro_tables import C3, C4, C5, C6, GAMMA
+
+SW_COMPUTED, SW_CONSTANT, SW_SKIPPED = 0, 1, 2
+_SUM = {"reassoc", "nsz"}  # vectorized sums only; no assumption about NaN or infinity
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def _poly(coefs, x):
+    out = coefs[-1]
+    for i in range(len(coefs) - 2, -1, -1):
+        out = out * x + coefs[i]
+    return out
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def shapiro_p(w, n):
+    """Royston's p-value for Shapiro-Wilk's W of ``n`` points (AS R94); NaN below 3 points."""
+    if n < 3 or w != w:
+        return np.nan
+    if n == 3:
+        return max(6.0 / math.pi * (math.asin(math.sqrt(w)) - math.pi / 3.0), 0.0)
+    y = math.log1p(-w)
+    if n >= 12:
+        ln = math.log(n)
+        z = (y - _poly(C5, ln)) / math.exp(_poly(C6, ln))
+    else:
+        gamma = _poly(GAMMA, n)
+        if y >= gamma:
+            return 1e-99
+        z = (-math.log(gamma - y) - _poly(C3, n)) / math.exp(_poly(C4, n))
+    return 0.5 * math.erfc(z / math.sqrt(2.0))   # upper normal tail at z
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def chi2_tail(df, x):
+    """``P(chi²_df > x)`` for a whole ``df >= 1`` (sums of positive terms: full relative
+    accuracy in the tail).
+
+    Even df: ``exp(-x/2) sum_{j < df/2} (x/2)^j / j!``; odd df:
+    ``erfc(sqrt(x/2)) + exp(-x/2) sum_{j=1}^{(df-1)/2} (x/2)^(j-1/2) / Gamma(j+1/2)``
+    (Abramowitz & Stegun 26.4.4, 26.4.5).
+    """
+    if not x > 0.0:
+        return 1.0 if x == 0.0 or x < 0.0 else np.nan
+    if x == np.inf:
+        return 0.0
+    h = 0.5 * x
+    if df % 2 == 0:
+        term = total = 1.0
+        for j in range(1, df // 2):
+            term *= h / j
+            total += term
+        return math.exp(-h) * total
+    term = math.sqrt(h) / math.gamma(1.5)
+    total = 0.0
+    for j in range(1, (df - 1) // 2 + 1):
+        total += term
+        term *= h / (j + 0.5)
+    return math.erfc(math.sqrt(h)) + math.exp(-h) * total
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def positions(index, values, cut, absolute):
+    """Caller positions (``index``) of the values above ``cut`` (in absolute value if asked)."""
+    keep = np.empty(values.size, dtype=np.int64)
+    k = 0
+    for i in range(values.size):
+        v = abs(values[i]) if absolute else values[i]
+        if v > cut:
+            keep[k] = index[i]
+            k += 1
+    return keep[:k]
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy", fastmath=_SUM)
+def point_forms(out, s0, m, p, rss, df):
+    """Studentized residuals, Cook's distance and DFFITS of points ``s0 .. s0+m``.
+
+    ``out`` (6 x n) holds the weighted residual ``e`` in row 0 and the leverage
+    ``h`` in row 1; rows 2..5 receive the internally and externally studentized
+    residuals, Cook's distance and DFFITS. ``df`` below 2 leaves the externally
+    studentized row (and DFFITS) NaN.
+    """
+    sigma = np.sqrt(rss / df) if df > 0 else np.nan
+    e, h = out[0, s0:s0 + m], out[1, s0:s0 + m]
+    std, stud = out[2, s0:s0 + m], out[3, s0:s0 + m]
+    cook, dffits = out[4, s0:s0 + m], out[5, s0:s0 + m]
+    for i in range(m):
+        std[i] = e[i] / (np.sqrt(1 - h[i]) * sigma)
+        cook[i] = std[i] * std[i] * h[i] / (p * (1 - h[i]))
+    if df > 1:
+        for i in range(m):
+            one_h = 1 - h[i]
+            stud[i] = e[i] / np.sqrt((rss - e[i] * e[i] / one_h) / (df - 1) * one_h)
+            dffits[i] = stud[i] * np.sqrt(h[i] / one_h)
+    else:
+        stud[:] = np.nan
+        dffits[:] = np.nan
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def residual_tests(e, ss, ss_diff, proj, ss_zc, bp_df, tested, sw_coef):
+    """Shapiro-Wilk, Breusch-Pagan and Durbin-Watson of the weighted residuals ``e``.
+
+    ``ss = sum e²``, ``ss_diff = sum (e_i - e_(i-1))²``, ``proj = Q'zc`` for an
+    orthonormal basis ``Q`` of the auxiliary regressors (the constant included),
+    ``ss_zc = ||zc||²`` and ``bp_df`` the test's df (below 1 skips it).
+    ``sw_coef`` holds the Shapiro-Wilk weights for ``n`` points, or is empty to
+    skip that test; ``tested`` False returns every statistic NaN.
+
+    Returns
+    -------
+    sw_status : SW_COMPUTED, SW_CONSTANT (residuals all equal) or SW_SKIPPED.
+    w, w_p, lm, lm_p, dw : float
+    """
+    n = e.size
+    w = w_p = lm = lm_p = dw = np.nan
+    status = SW_SKIPPED
+    if tested:
+        dw = ss_diff / ss if ss > 0 else np.nan
+        if sw_coef.size == n:
+            srt = np.sort(e)
+            status = SW_CONSTANT
+            if srt[0] != srt[-1]:
+                status = SW_COMPUTED
+                mean = 0.0
+                for i in range(n):
+                    mean += srt[i]
+                mean /= n
+                spread = 0.0
+                acc = 0.0
+                for i in range(n):
+                    spread += (srt[i] - mean) * (srt[i] - mean)
+                    acc += sw_coef[i] * srt[i]
+                w = min(acc * acc / spread, 1.0)
+                w_p = shapiro_p(w, n)
+        if bp_df >= 1 and ss_zc > 0:
+            lm = n * np.sum(proj * proj) / ss_zc
+            lm_p = chi2_tail(bp_df, lm)
+    return status, w, w_p, lm, lm_p, dw

@@ -1,0 +1,1 @@
+"""Compiled-kernel plumbing: the numba cache stamp and the warm-up run before serving."""

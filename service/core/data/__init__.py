@@ -1,0 +1,1 @@
+"""Family-independent data handling: input checks, transforms and evaluation grids."""

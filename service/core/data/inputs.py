@@ -1,0 +1,243 @@
+"""Checking the caller's arrays and the model/options before any numerics.
+
+Every problem becomes a typed error naming the offending field (with the
+caller's original index) and saying what to do about it.
+"""
+
+from __future__ import annotations
+
+import math
+from typing import NamedTuple
+
+import numpy as np
+
+from service.core.data.pair_summary import pair_summary
+from service.core.errors import DataError, SpecError
+from service.core.spec import (
+    HARD_MAX_DEGREE,
+    MISSING_POLICIES,
+    SECTIONS,
+    SELECT_METHODS,
+    TRANSFORMS,
+    FitOptions,
+    ModelSpec,
+)
+
+DEFAULT_MAX_DEGREE = 3  # candidates when neither degree nor max_degree is given
+
+
+class CleanData(NamedTuple):
+    """Finite, validated arrays of the points used, with their original positions.
+
+    ``x_bounds``/``y_bounds`` (min, max) and ``distinct`` (number of distinct
+    x) are filled when nothing was dropped and x is sorted ascending, else None.
+    """
+
+    x: np.ndarray
+    y: np.ndarray
+    w: np.ndarray | None
+    index: np.ndarray
+    n_input: int
+    dropped: tuple[int, ...]
+    x_bounds: tuple[float, float] | None = None
+    y_bounds: tuple[float, float] | None = None
+    distinct: int | None = None
+
+
+def _as_vector(values, name: str) -> np.ndarray:
+    try:
+        arr = np.asarray(values, dtype=float)
+    except (TypeError, ValueError) as exc:
+        raise DataError(f"{name} must be a list of numbers ({exc}).", field=name,
+                        fix=f"Send {name} as a flat array of numbers (null marks a missing "
+                            "value).") from None
+    if arr.ndim != 1:
+        raise DataError(f"{name} must be one-dimensional, got shape {arr.shape}.", field=name,
+                        fix=f"Send {name} as a flat array of numbers.")
+    if not (arr.flags.c_contiguous and arr.flags.writeable):  # one compiled signature for all
+        arr = arr.copy()
+    return arr
+
+
+def clean_data(x, y, weights, missing: str) -> CleanData:
+    """Validate lengths, finiteness, weights and the missing-value policy.
+
+    Raises
+    ------
+    DataError
+        Mismatched lengths, empty input, infinite values, missing values under
+        ``missing="error"``, or weights that are not strictly positive.
+    """
+    xa, ya = _as_vector(x, "x"), _as_vector(y, "y")
+    wa = None if weights is None else _as_vector(weights, "weights")
+    n = xa.size
+    if ya.size != n:
+        raise DataError(f"x has {n} values but y has {ya.size}.", field="y",
+                        fix="Send x and y with the same number of values, paired by position.")
+    if wa is not None and wa.size != n:
+        raise DataError(f"x has {n} values but weights has {wa.size}.", field="weights",
+                        fix="Send one weight per point, or no weights at all.")
+    if n == 0:
+        raise DataError("No data points were given.", field="x",
+                        fix="Send at least as many points as the model has coefficients.")
+    arrays = [("x", xa), ("y", ya)] + ([("weights", wa)] if wa is not None else [])
+    finite, x_lo, x_hi, y_lo, y_hi, distinct = pair_summary(xa, ya)
+    if finite and (wa is None or math.isfinite(float(np.add.reduce(wa)))):
+        if wa is not None and not np.all(wa > 0):
+            _bad_weight(wa, np.arange(n), weights)
+        return CleanData(xa, ya, wa, np.arange(n), n, (), (float(x_lo), float(x_hi)),
+                         (float(y_lo), float(y_hi)), distinct if distinct > 0 else None)
+    for name, arr in arrays:
+        bad = np.isinf(arr)
+        if bad.any():
+            i = int(np.flatnonzero(bad)[0])
+            raise DataError(f"{name}[{i}] is infinite.", field=f"{name}[{i}]",
+                            fix="Replace it with a finite number, or with null to mark it missing.")
+    isnan = np.isnan(xa) | np.isnan(ya)
+    if wa is not None:
+        isnan |= np.isnan(wa)
+    index = np.arange(n)
+    dropped: tuple[int, ...] = ()
+    if isnan.any():
+        if missing == "error":
+            i = int(np.flatnonzero(isnan)[0])  # first incomplete pair; x before y before weights
+            name = next(name for name, arr in arrays if np.isnan(arr[i]))
+            raise DataError(f"{name}[{i}] is missing (null or NaN).", field=f"{name}[{i}]",
+                            fix='Supply the value, remove the pair, or set missing = "drop" '
+                                "to drop incomplete pairs (their indices are reported).")
+        keep = ~isnan
+        dropped = tuple(int(i) for i in np.flatnonzero(isnan))
+        xa, ya, index = xa[keep], ya[keep], index[keep]
+        wa = wa[keep] if wa is not None else None
+        if xa.size == 0:
+            raise DataError("Every pair has a missing value; nothing is left to fit.", field="x",
+                            fix="Send complete (x, y) pairs.")
+    if wa is not None and not np.all(wa > 0):
+        _bad_weight(wa, index, weights)
+    return CleanData(xa, ya, wa, index, n, dropped)
+
+
+def _bad_weight(wa: np.ndarray, index: np.ndarray, weights) -> None:
+    i = int(index[np.flatnonzero(wa <= 0)[0]])
+    raise DataError(f"weights[{i}] = {float(weights[i])!r} is not positive.",
+                    field=f"weights[{i}]",
+                    fix="Weights are inverse variances (1/sd^2) and must be > 0; drop the "
+                        "point instead of giving it weight 0.")
+
+
+TINY_LIMIT = 1e-150  # every |value| below this: squares underflow (sums of squares vanish)
+
+
+_DOUBLE_MAX = float(np.finfo(float).max)
+
+
+def magnitude_limit(n: int) -> float:
+    """Largest |value| whose squares still sum over ``n`` points within float64 (margin 64)."""
+    return math.sqrt(_DOUBLE_MAX / (64.0 * max(n, 1)))  # IEEE sqrt, as np.sqrt
+
+
+def check_magnitude(values: np.ndarray, field: str, index: np.ndarray, what: str,
+                    bounds: tuple[float, float] | None = None) -> tuple[float, float] | None:
+    """Refuse values whose squares would overflow or underflow float64 sums of squares.
+
+    Returns ``(min, max)`` of the values (None when empty), for callers that
+    need them; ``bounds`` gives them when the caller already has them.
+
+    Raises
+    ------
+    DataError
+        Naming the first offending value, with a fix (change units).
+    """
+    if values.size == 0:
+        return None
+    lo, hi = (float(values.min()), float(values.max())) if bounds is None else bounds
+    top = max(hi, -lo)
+    limit = magnitude_limit(values.size)
+    if limit >= top >= TINY_LIMIT:
+        return lo, hi
+    mags = np.abs(values)
+    big = mags > limit
+    if big.any():
+        i = int(np.flatnonzero(big)[0])
+        where = f" {what}" if what else ""
+        raise DataError(f"{field}[{int(index[i])}] = {values[i]:g} is too large in magnitude"
+                        f"{where} (limit {limit:.3g} for {values.size} points).",
+                        field=f"{field}[{int(index[i])}]",
+                        fix=f"Rescale {field} (change its units) so its values are moderate.")
+    if 0.0 < top < TINY_LIMIT:
+        where = f" {what}" if what else ""
+        raise DataError(f"Every {field} value is below {TINY_LIMIT:g} in magnitude"
+                        f"{where}; sums of squares would underflow.", field=field,
+                        fix=f"Rescale {field} (change its units) so its values are moderate.")
+    return lo, hi
+
+
+def _spec_error(message: str, field: str, fix: str) -> SpecError:
+    return SpecError(message, field=field, fix=fix)
+
+
+def check_spec(model: ModelSpec, options: FitOptions) -> tuple[int, int, bool]:
+    """Validate the model and options; return ``(min_degree, max_degree, selects)``.
+
+    Raises
+    ------
+    SpecError
+        An unknown name, an out-of-range number, or options that contradict each other.
+    """
+    if model.family != "polynomial":
+        raise _spec_error(f"Unknown model family {model.family!r}.", "model.family",
+                          'Use family = "polynomial".')
+    if model.transform_x not in TRANSFORMS:
+        raise _spec_error(f"Unknown transform_x {model.transform_x!r}.", "model.transform_x",
+                          f"Use one of {', '.join(TRANSFORMS)}.")
+    if model.transform_y not in TRANSFORMS:
+        raise _spec_error(f"Unknown transform_y {model.transform_y!r}.", "model.transform_y",
+                          f"Use one of {', '.join(TRANSFORMS)}.")
+    if not 0.0 < float(options.level) < 1.0:
+        raise _spec_error(f"level = {options.level!r} is not between 0 and 1.", "level",
+                          "Use a confidence level such as 0.95.")
+    if options.missing not in MISSING_POLICIES:
+        raise _spec_error(f"Unknown missing policy {options.missing!r}.", "missing",
+                          'Use "error" or "drop".')
+    unknown = set(options.include) - set(SECTIONS)
+    if unknown:
+        raise _spec_error(f"Unknown section(s) in include: {sorted(unknown)}.", "include",
+                          f"Use names from {', '.join(SECTIONS)}.")
+    lowest = 0 if model.intercept else 1
+    if model.degree is not None:
+        if model.max_degree is not None:
+            raise _spec_error("Both degree and max_degree are given.", "model.max_degree",
+                              "Give degree for a fixed model, or max_degree (and select) to "
+                              "choose the degree, not both.")
+        d = _int(model.degree, "model.degree")
+        if not lowest <= d <= HARD_MAX_DEGREE:
+            extra = "." if model.intercept else " (degree 0 needs the intercept)."
+            raise _spec_error(f"degree = {d} is outside {lowest}..{HARD_MAX_DEGREE}.",
+                              "model.degree", f"Use a degree from {lowest} to "
+                              f"{HARD_MAX_DEGREE}{extra}")
+        return d, d, False
+    if model.select not in SELECT_METHODS:
+        raise _spec_error(f"Unknown select method {model.select!r}.", "model.select",
+                          f"Use one of {', '.join(SELECT_METHODS)}.")
+    if not 0.0 < float(model.alpha) < 1.0:
+        raise _spec_error(f"alpha = {model.alpha!r} is not between 0 and 1.", "model.alpha",
+                          "Use a significance level such as 0.05.")
+    dmin = _int(model.min_degree, "model.min_degree")
+    dmax = DEFAULT_MAX_DEGREE if model.max_degree is None else _int(model.max_degree,
+                                                                     "model.max_degree")
+    if not lowest <= dmin <= HARD_MAX_DEGREE:
+        raise _spec_error(f"min_degree = {dmin} is outside {lowest}..{HARD_MAX_DEGREE}.",
+                          "model.min_degree", f"Use a min_degree from {lowest} to "
+                          f"{HARD_MAX_DEGREE}.")
+    if not dmin <= dmax <= HARD_MAX_DEGREE:
+        raise _spec_error(f"max_degree = {dmax} is outside {dmin}..{HARD_MAX_DEGREE}.",
+                          "model.max_degree", f"Use a max_degree from min_degree ({dmin}) to "
+                          f"{HARD_MAX_DEGREE}.")
+    return dmin, dmax, True
+
+
+def _int(value, field: str) -> int:
+    if isinstance(value, bool) or int(value) != value:
+        raise _spec_error(f"{field} = {value!r} is not a whole number.", field,
+                          "Use a whole number.")
+    return int(value)

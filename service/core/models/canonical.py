@@ -1,0 +1,60 @@
+"""Canonical form and checksum of the fitted-model document, and the writers' number helpers.
+
+The checksum is ``"sha256:" + hex`` over the *canonical form*: every field
+except ``checksum``, serialized as JSON with sorted keys, no whitespace, ASCII
+only, floats in Python ``repr`` (shortest digits that round-trip exactly),
+undefined numbers as ``null`` and negative zero as ``0.0``. See
+:mod:`service.core.models.document` and ``docs/fitted-model.md``.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import math
+from collections.abc import Mapping
+from typing import Any
+
+import numpy as np
+
+CHECKSUM_PREFIX = "sha256:"
+
+
+def checksum(body: Mapping[str, Any]) -> str:
+    """The ``sha256:<hex>`` checksum of a document's canonical form (``checksum`` excluded)."""
+    return CHECKSUM_PREFIX + hashlib.sha256(canonical_bytes(body)).hexdigest()
+
+
+def canonical_bytes(body: Mapping[str, Any]) -> bytes:
+    """Canonical JSON of every field but ``checksum``: sorted keys, no spaces, float repr.
+
+    Negative zero is written as ``0.0`` (many JSON tools drop the sign of zero).
+    """
+    payload = {key: _unsigned_zero(value) for key, value in body.items() if key != "checksum"}
+    text = json.dumps(payload, sort_keys=True, separators=(",", ":"), ensure_ascii=True,
+                      allow_nan=False)
+    return text.encode("ascii")
+
+
+def to_float(value) -> float | None:
+    """A finite float with the sign of zero dropped, or ``None`` for NaN/inf."""
+    value = float(value) + 0.0  # + 0.0 turns -0.0 into 0.0
+    return value if math.isfinite(value) else None
+
+
+def _unsigned_zero(value):
+    if isinstance(value, float):
+        return value + 0.0
+    if isinstance(value, list):
+        return [_unsigned_zero(item) for item in value]
+    return value
+
+
+def to_vector(values) -> list:
+    """A flat list of :func:`to_float` values."""
+    return [to_float(v) for v in np.asarray(values, dtype=float).ravel()]
+
+
+def to_matrix(values) -> list:
+    """A list of rows of :func:`to_float` values (at least 2-D)."""
+    return [to_vector(row) for row in np.atleast_2d(np.asarray(values, dtype=float))]

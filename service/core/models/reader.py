@@ -1,0 +1,251 @@
+"""Field-by-field reading and checking of a fitted-model document.
+
+:class:`DocumentReader` checks the version, the field set, each field's type
+and shape, the document's internal arithmetic and the checksum, raising
+:class:`~service.core.errors.DocumentError` naming the first bad field.
+"""
+
+from __future__ import annotations
+
+import math
+from collections.abc import Mapping
+
+import numpy as np
+
+from service.core.data import transforms
+from service.core.errors import DataError, DocumentError
+from service.core.models.canonical import CHECKSUM_PREFIX, checksum, to_float
+from service.core.polynomial import design
+from service.core.spec import HARD_MAX_DEGREE, TRANSFORMS
+
+SUPPORTED_VERSIONS = (1,)
+
+# field name -> kind; the order is the order written (readers must not rely on it)
+FIELDS: dict[str, str] = {
+    "schema_version": "int",
+    "family": "str",
+    "degree": "int",
+    "intercept": "bool",
+    "terms": "str_list",
+    "transform_x": "str",
+    "transform_y": "str",
+    "x_shift": "float",
+    "x_scale": "float",
+    "basis_coefficients": "vector",
+    "r_factor": "matrix",
+    "raw_coefficients": "vector_nullable",
+    "raw_covariance": "matrix_nullable",
+    "sigma": "float_nullable",
+    "df_residual": "int",
+    "n": "int",
+    "x_min": "float",
+    "x_max": "float",
+    "weighted": "bool",
+    "level": "float",
+    "checksum": "str",
+}
+
+
+class DocumentReader:
+    """Field-by-field validation with errors that name the field."""
+
+    def __init__(self, doc, prefix: str) -> None:
+        self.doc = doc
+        self.prefix = prefix
+
+    def fail(self, name: str | None, message: str, fix: str):
+        field = (self.prefix + name) if name else (self.prefix.rstrip(".") or None)
+        raise DocumentError(message, field=field, fix=fix)
+
+    def read(self) -> dict:
+        doc = self.doc
+        if not isinstance(doc, Mapping):
+            self.fail(None, "The fitted-model document must be a JSON object.",
+                      "Send the fitted_model object exactly as /v1/fit returned it.")
+        if "schema_version" not in doc:
+            self.fail("schema_version", "The document has no schema_version.",
+                      "Send the fitted_model object exactly as /v1/fit returned it.")
+        version = doc["schema_version"]
+        if isinstance(version, bool) or version not in SUPPORTED_VERSIONS:
+            self.fail("schema_version",
+                      f"Unsupported schema_version {version!r}; this service reads "
+                      f"{', '.join(map(str, SUPPORTED_VERSIONS))}.",
+                      "Refit with this service to get a current document.")
+        unknown = sorted(str(key) for key in doc if key not in FIELDS)
+        if unknown:
+            self.fail(unknown[0], f"Unknown field {unknown[0]!r} in a schema_version "
+                      f"{version} document.", "Remove fields that /v1/fit did not write.")
+        for name in FIELDS:
+            if name not in doc:
+                self.fail(name, f"The document is missing the required field {name!r}.",
+                          "Send the fitted_model object unchanged, with every field.")
+        values = {name: getattr(self, "_" + kind)(name, doc[name]) for name, kind in FIELDS.items()}
+        self._check_scalars(values)
+        return values
+
+    # --- typed readers
+    def _int(self, name, value):
+        if isinstance(value, bool) or not isinstance(value, (int, float)) or not (
+                isinstance(value, int) or (math.isfinite(value) and value.is_integer())):
+            self.fail(name, f"{name} must be an integer, got {value!r}.",
+                      f"Send the {name} that /v1/fit wrote.")
+        return int(value)
+
+    def _bool(self, name, value):
+        if not isinstance(value, bool):
+            self.fail(name, f"{name} must be true or false, got {value!r}.",
+                      f"Send the {name} that /v1/fit wrote.")
+        return value
+
+    def _str(self, name, value):
+        if not isinstance(value, str):
+            self.fail(name, f"{name} must be a string.", f"Send the {name} that /v1/fit wrote.")
+        return value
+
+    def _str_list(self, name, value):
+        if not isinstance(value, list) or not all(isinstance(v, str) for v in value):
+            self.fail(name, f"{name} must be a list of strings.",
+                      f"Send the {name} that /v1/fit wrote.")
+        return list(value)
+
+    def _number(self, name, value, nullable: bool):
+        if value is None and nullable:
+            return None
+        if isinstance(value, bool) or not isinstance(value, (int, float)):
+            self.fail(name, f"{name} must be a number, got {value!r}.",
+                      f"Send the {name} that /v1/fit wrote.")
+        value = float(value)
+        if not math.isfinite(value):
+            self.fail(name, f"{name} must be finite.", f"Send the {name} that /v1/fit wrote.")
+        return value
+
+    def _float(self, name, value):
+        return self._number(name, value, nullable=False)
+
+    def _float_nullable(self, name, value):
+        return self._number(name, value, nullable=True)
+
+    def _vector(self, name, value, nullable: bool = False):
+        if not isinstance(value, list):
+            self.fail(name, f"{name} must be a list of numbers.",
+                      f"Send the {name} that /v1/fit wrote.")
+        return [self._number(f"{name}[{i}]", v, nullable) for i, v in enumerate(value)]
+
+    def _vector_nullable(self, name, value):
+        return self._vector(name, value, nullable=True)
+
+    def _matrix(self, name, value, nullable: bool = False):
+        if not isinstance(value, list):
+            self.fail(name, f"{name} must be a list of rows.",
+                      f"Send the {name} that /v1/fit wrote.")
+        return [self._vector(f"{name}[{i}]", row, nullable) for i, row in enumerate(value)]
+
+    def _matrix_nullable(self, name, value):
+        return self._matrix(name, value, nullable=True)
+
+    # --- whole-document checks
+    def _check_scalars(self, v: dict) -> None:
+        keep = "Send the fitted_model object exactly as /v1/fit returned it."
+        if v["family"] != "polynomial":
+            self.fail("family", f"Unknown family {v['family']!r}; only 'polynomial'.", keep)
+        if not 0 <= v["degree"] <= HARD_MAX_DEGREE:
+            self.fail("degree", f"degree must be 0..{HARD_MAX_DEGREE}.", keep)
+        p = v["degree"] + (1 if v["intercept"] else 0)
+        if p < 1:
+            self.fail("degree", "A model without intercept needs degree >= 1.", keep)
+        if len(v["terms"]) != p:
+            self.fail("terms", f"terms must list {p} terms for this degree and intercept.", keep)
+        for name in ("transform_x", "transform_y"):
+            if v[name] not in TRANSFORMS:
+                self.fail(name, f"{name} must be one of {', '.join(TRANSFORMS)}.", keep)
+        if not v["x_scale"] > 0:
+            self.fail("x_scale", "x_scale must be positive.", keep)
+        for name in ("basis_coefficients", "raw_coefficients"):
+            if len(v[name]) != p:
+                self.fail(name, f"{name} must have {p} entries.", keep)
+        for name in ("r_factor", "raw_covariance"):
+            if len(v[name]) != p or any(len(row) != p for row in v[name]):
+                self.fail(name, f"{name} must be a {p} x {p} matrix.", keep)
+        if v["df_residual"] < 0 or v["n"] < p or v["df_residual"] > v["n"] - p:
+            self.fail("df_residual", "df_residual must lie in 0 .. n - parameters.", keep)
+        if v["sigma"] is None:
+            v["sigma"] = math.nan
+            if v["df_residual"] > 0:
+                self.fail("sigma", "sigma is null although df_residual > 0.", keep)
+        elif v["sigma"] < 0:
+            self.fail("sigma", "sigma must be >= 0.", keep)
+        if not v["x_min"] <= v["x_max"]:
+            self.fail("x_min", "x_min must not exceed x_max.", keep)
+        if not 0 < v["level"] < 1:
+            self.fail("level", "level must lie strictly between 0 and 1.", keep)
+
+    def check_consistency(self, v, basis, raw, r_factor, covariance, p) -> None:
+        """Catch hand edits that break the document's internal arithmetic, naming the field."""
+        keep = "Send the fitted_model object exactly as /v1/fit returned it."
+        if np.any(np.tril(r_factor, -1) != 0.0):
+            self.fail("r_factor", "r_factor must be upper triangular.", keep)
+        if np.any(np.diag(r_factor) == 0.0):
+            self.fail("r_factor", "r_factor has a zero on its diagonal.", keep)
+        finite = np.isfinite(covariance)
+        if not np.array_equal(finite, finite.T) or not np.allclose(
+                covariance[finite], covariance.T[finite], rtol=1e-9, atol=0.0):
+            self.fail("raw_covariance", "raw_covariance must be symmetric.", keep)
+        if not v["intercept"] and v["x_shift"] != 0.0:
+            self.fail("x_shift", "A model without intercept must have x_shift 0.", keep)
+        with np.errstate(all="ignore"):
+            self._check_scaling(v, keep)
+            try:
+                invertible = np.all(np.isfinite(np.linalg.inv(r_factor)))
+            except np.linalg.LinAlgError:
+                invertible = False
+            if not invertible:
+                self.fail("r_factor", "r_factor is singular in double precision.", keep)
+            conversion = design.conversion(v["x_shift"], v["x_scale"], v["degree"],
+                                           v["intercept"])
+            expected = (conversion @ basis.astype(conversion.dtype)).astype(float)
+            u = v["x_shift"] + v["x_scale"] * np.linspace(-1.0, 1.0, 7)  # the calibrated range
+            powers = np.arange(0 if v["intercept"] else 1, (0 if v["intercept"] else 1) + p)
+            t = np.linspace(-1.0, 1.0, 7)[:, None] ** powers[None, :]
+            evaluable = np.all(np.isfinite(np.abs(basis)[None, :] * t).sum(axis=1))
+            evaluable = evaluable and np.all(np.isfinite(basis * basis))
+            # raw entries outside the double range are null (NaN); the checksum covers them
+            comparable = np.all(np.isfinite(raw)) and np.all(np.isfinite(expected))
+            if comparable:
+                terms_raw = raw[None, :] * u[:, None] ** powers[None, :]
+                terms_exp = expected[None, :] * u[:, None] ** powers[None, :]
+                gap = np.abs(terms_raw.sum(axis=1) - terms_exp.sum(axis=1))
+                size = np.abs(terms_raw).sum(axis=1) + np.abs(terms_exp).sum(axis=1)
+                comparable = bool(np.all(np.isfinite(size)))
+        if not evaluable:
+            self.fail("basis_coefficients", "The coefficients are too large to evaluate in "
+                      "double precision over the calibrated range.", keep)
+        if comparable and np.any(gap > 1e-7 * size + 1e-300):
+            self.fail("raw_coefficients",
+                      "raw_coefficients and basis_coefficients describe different curves; "
+                      "one of them was edited.", keep)
+
+    def _check_scaling(self, v, keep: str) -> None:
+        """/v1/fit maps the calibrated range into t in [-1, 1]; anything else was edited."""
+        ends = np.array([v["x_min"], v["x_max"]])
+        try:
+            u = transforms.apply(v["transform_x"], ends, field="x_min")
+        except DataError:
+            self.fail("x_min", f"x_min/x_max lie outside the domain of the {v['transform_x']} "
+                      "transform.", keep)
+        t = (u - v["x_shift"]) / v["x_scale"]
+        if not (np.all(np.isfinite(t)) and np.all(np.abs(t) <= 1.0 + 1e-6)):
+            self.fail("x_scale", "x_shift and x_scale do not map [x_min, x_max] into "
+                      "[-1, 1] as /v1/fit writes them.", keep)
+
+    def check_checksum(self, v) -> None:
+        given = v["checksum"]
+        if not (given.startswith(CHECKSUM_PREFIX) and len(given) == len(CHECKSUM_PREFIX) + 64):
+            self.fail("checksum", "checksum must be 'sha256:' followed by 64 hex digits.",
+                      "Send the fitted_model object exactly as /v1/fit returned it.")
+        body = dict(v)
+        body["sigma"] = to_float(body["sigma"])
+        if given != checksum(body):
+            self.fail("checksum",
+                      "The checksum does not match the document's content: a field was changed "
+                      "after the fit (hand edit, truncation or lossy number formatting).",
+                      "Send the fitted_model object unchanged, or refit to get a new one.")

@@ -1,0 +1,1 @@
+"""The polynomial family: basis and scaling, QR, nested candidates, selection, tables, bands."""

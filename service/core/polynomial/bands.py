@@ -1,0 +1,133 @@
+"""Predictions with bands at any x, from a :class:`FittedPolynomial` alone.
+
+``fit_series`` evaluates its grid with :func:`grid_prediction` (the same
+numbers as :func:`predict`), so a stored model reproduces the grid exactly.
+
+Bands, at confidence ``level`` with ``t = t_{df}(1 - (1 - level)/2)``:
+
+* mean: ``fit ± t se``, with ``se = sigma ||R^-T v(t)||``;
+* new observation(s): ``fit ± t sqrt(se² + sigma²/m)`` for the mean of ``m``
+  future observations of unit weight (variance sigma², i.e. weight 1 on the
+  caller's inverse-variance scale);
+* simultaneous (Working-Hotelling) band for the whole curve:
+  ``fit ± sqrt(p F_{p, df}(level)) se``.
+
+The points are evaluated in one compiled loop (``kernels_bands.curve_bands``)
+with ``R^-1`` from back substitution (inf/NaN for a singular R of a forged document).
+
+With a transformed response the fit and limits are computed on the fitting
+scale and mapped back through the inverse transform (limits swap for the
+decreasing ``reciprocal``). The back-transformed fit estimates the *median*
+of y rather than its mean when the errors are symmetric on the fitting
+scale (retransformation bias; for ``log`` the mean is larger by about
+``exp(sigma²/2)``). ``se_fit`` stays on the fitting scale.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+from service.core.checks.quantiles import f_quantile, t_quantile
+from service.core.data import transforms
+from service.core.errors import DataError, SpecError
+from service.core.polynomial.compiled import bands as kernels_bands
+from service.core.polynomial.compiled.qr import upper_inverse
+from service.core.results import FittedPolynomial, Prediction, frozen_array, frozen_rows
+
+
+def _check_level(level: float) -> float:
+    level = float(level)
+    if not 0.0 < level < 1.0:
+        raise SpecError(f"level = {level!r} is not between 0 and 1.", field="level",
+                        fix="Use a confidence level such as 0.95.")
+    return level
+
+
+def predict(fitted: FittedPolynomial, x, *, level: float | None = None, m: int = 1) -> Prediction:
+    """Fitted values and bands at ``x`` (original x and y scales).
+
+    Parameters
+    ----------
+    fitted : FittedPolynomial
+        A fitted model (``FitReport.model``).
+    x : array_like
+        Where to predict, on the caller's original x scale; finite values.
+    level : float, optional
+        Confidence level; defaults to the level the model was fitted with.
+    m : int
+        Number of future observations whose mean the observation band covers.
+
+    Raises
+    ------
+    DataError, TransformError, SpecError
+        Non-finite x, x outside the x transform's domain, bad level or m.
+    """
+    with np.errstate(all="ignore"):  # overflow far outside the data becomes NaN, not a warning
+        return _predict(fitted, x, level, m)
+
+
+def grid_prediction(fitted: FittedPolynomial, xs: np.ndarray) -> Prediction:
+    """:func:`predict` at the fit's own grid and level, for ``fit_series`` (inside its
+    errstate): ``xs`` is a fresh array of finite values (``grid.grid_points``), so the
+    argument checks are skipped; the numbers are :func:`predict`'s (a stored model
+    reproduces the grid exactly)."""
+    u = transforms.apply(fitted.transform_x, xs, field="x")
+    return _evaluate(fitted, xs, u, fitted.level, 1, np.array(fitted.basis_coefficients),
+                     np.array(fitted.r_factor))
+
+
+def _predict(fitted: FittedPolynomial, x, level: float | None, m: int) -> Prediction:
+    level = _check_level(fitted.level if level is None else level)
+    if isinstance(m, bool) or int(m) != m or m < 1:
+        raise SpecError(f"m = {m!r} is not a positive whole number.", field="m",
+                        fix="Give the number of future observations to average (1 or more).")
+    xs = np.array(x, dtype=float, ndmin=1)  # a copy: the result freezes it
+    if xs.ndim != 1:
+        raise DataError("x must be one-dimensional.", field="x", fix="Send a flat list of numbers.")
+    if not math.isfinite(float(np.add.reduce(xs))) and not np.isfinite(xs).all():
+        i = int(np.flatnonzero(~np.isfinite(xs))[0])
+        raise DataError(f"x[{i}] is not a finite number.", field=f"x[{i}]",
+                        fix="Predict only at finite x values.")
+    u = transforms.apply(fitted.transform_x, xs, field="x")
+    return _evaluate(fitted, xs, u, level, m, np.array(fitted.basis_coefficients, dtype=float),
+                     np.array(fitted.r_factor, dtype=float))
+
+
+def _evaluate(fitted: FittedPolynomial, xs: np.ndarray, u: np.ndarray, level: float, m: int,
+              coef: np.ndarray, r_factor: np.ndarray) -> Prediction:
+    df = fitted.df_residual
+    p = fitted.basis_coefficients.size
+    if df > 0:
+        tq = t_quantile(df, 0.5 + level / 2)
+        wh = math.sqrt(p * f_quantile(p, df, level))
+    else:
+        tq = wh = float("nan")
+    rows, extrap, finite = kernels_bands.curve_bands(
+        xs, u, fitted.x_shift, fitted.x_scale, 0 if fitted.intercept else 1, coef,
+        upper_inverse(r_factor), fitted.sigma, tq, wh, m, fitted.x_min, fitted.x_max)
+    name = fitted.transform_y
+    if name == "none" and finite:  # the usual case: read-only views of the kernel's rows
+        values = frozen_rows(rows)
+    else:
+        values = _limits(name, rows, finite)
+    return Prediction(frozen_array(xs), *values, frozen_array(extrap, dtype=bool), level)
+
+
+def _limits(name: str, rows: np.ndarray, finite: bool) -> list[np.ndarray]:
+    """Fit, se and the three bands' limits from the kernel's rows (mean, obs, band), mapped
+    back through the inverse y transform; infinite values (far outside the data) as NaN."""
+    fit, se = rows[0], rows[1]
+    lo, hi = rows[2::2], rows[3::2]
+    if name != "none":
+        fit = transforms.inverse(name, fit)
+        lo, hi = transforms.inverse(name, lo), transforms.inverse(name, hi)
+        if not transforms.is_increasing(name):
+            lo, hi = hi, lo
+        finite = bool(np.isfinite(lo).all() and np.isfinite(hi).all())
+    values = [fit, se, lo[0], hi[0], lo[1], hi[1], lo[2], hi[2]]
+    # finite limits imply a finite fit and se (an infinite or NaN one spreads to the limits)
+    if not finite and any(np.isinf(a).any() for a in values):
+        values = [np.where(np.isinf(a), np.nan, a) for a in values]
+    return [frozen_array(a) for a in values]

@@ -1,0 +1,1 @@
+"""Compiled (numba) loops of the polynomial family's single-series fit."""

@@ -1,0 +1,47 @@
+"""Compiled diagnostics of one polynomial fit in one call: per-point forms, the three formal
+tests and the flagged points.
+
+:func:`fit_checks` runs ``points.point_measures`` (residuals and leverages from
+the fit's basis, then the shared per-point forms) and the shared tests of
+:mod:`service.core.checks.kernels` on its residuals; the Breusch-Pagan
+regressors are the unweighted powers of ``t``.
+"""
+
+from __future__ import annotations
+
+import numba
+import numpy as np
+
+from service.core.checks.kernels import positions, residual_tests
+from service.core.polynomial.compiled.points import point_measures
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def fit_checks(t, sw, zw, first, rinv, effects, p, rss, df, bp_rinv, out, tested,
+               sw_coef, index, cuts):
+    """Per-point forms into ``out`` (``point_measures``), then the tests and flagged points.
+
+    ``tested`` False (exact fit or no residual df) leaves the studentized rows
+    of ``out`` NaN and the tests NaN. ``sw_coef`` holds the Shapiro-Wilk weights
+    for ``n`` points, or is empty to skip the test. ``cuts`` = (outlier t,
+    leverage, Cook's distance); ``index`` maps positions to the caller's.
+
+    Returns
+    -------
+    sw_status : SW_COMPUTED, SW_CONSTANT (residuals all equal) or SW_SKIPPED.
+    w, w_p, lm, lm_p, dw : float
+        Shapiro-Wilk W and p, Breusch-Pagan LM and p (NaN when ``bp_rinv`` is
+        empty or the squared residuals are constant), Durbin-Watson.
+    outliers, high, influential : int64 arrays of caller positions.
+    """
+    n = t.size
+    ss, ss_diff, proj, ss_zc = point_measures(t, sw, zw, first, rinv, effects, p, rss, df,
+                                              bp_rinv, out)
+    if not tested:
+        out[2:] = np.nan
+    status, w, w_p, lm, lm_p, dw = residual_tests(out[0], ss, ss_diff, proj, ss_zc,
+                                                  bp_rinv.shape[0] - 1, tested, sw_coef)
+    outliers = positions(index, out[3], cuts[0], True)
+    high = positions(index, out[1], cuts[1], False) if n > p else index[:0]
+    influential = positions(index, out[4], cuts[2], False)
+    return status, w, w_p, lm, lm_p, dw, outliers, high, influential

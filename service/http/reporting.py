@@ -1,0 +1,89 @@
+"""A frozen core :class:`~service.core.results.FitReport` -> the /v1/fit response dict.
+
+Names follow the wire contract (``schemas/fit_response.py`` documents every
+field). Numbers stay numbers: NaN and infinities are written as JSON ``null``
+by the JSON layer (orjson), numpy arrays go to it unconverted.
+"""
+
+from __future__ import annotations
+
+from dataclasses import fields
+
+from service.core.models.document import to_document
+from service.core.results import FitReport, Prediction
+
+ALWAYS = ("model", "n", "n_input", "dropped", "warnings", "flags")
+_FIELD_NAMES: dict[type, tuple[str, ...]] = {}
+
+
+def _names(obj) -> tuple[str, ...]:
+    cls = type(obj)
+    if cls not in _FIELD_NAMES:  # a named tuple (table rows) or a dataclass
+        _FIELD_NAMES[cls] = getattr(cls, "_fields", None) or tuple(f.name for f in fields(cls))
+    return _FIELD_NAMES[cls]
+
+
+def plain(obj) -> dict:
+    """A flat result object as a dict (no deep copy: arrays are passed through)."""
+    return {name: getattr(obj, name) for name in _names(obj)}
+
+
+def fit_response(report: FitReport, include) -> dict:
+    """The response for one fit, with the sections in ``include`` (an iterable of names)."""
+    fitted = report.model
+    stats = report.statistics
+    body = {
+        "model": {"family": "polynomial", "degree": fitted.degree, "intercept": fitted.intercept,
+                  "terms": list(fitted.terms), "transform_x": fitted.transform_x,
+                  "transform_y": fitted.transform_y},
+        "n": stats.n,
+        "n_input": report.n_input,
+        "dropped": list(report.dropped),
+    }
+    wanted = set(include)
+    if "coefficients" in wanted:
+        body["coefficients"] = [plain(c) for c in report.coefficients]
+    if "anova" in wanted:
+        body["anova"] = [_anova_row(row) for row in report.anova]
+    if "statistics" in wanted:
+        body["statistics"] = plain(stats)
+    if "selection" in wanted:
+        selection = report.selection
+        body["selection"] = {"method": selection.method,
+                             "chosen_degree": selection.chosen_degree,
+                             "reason": selection.reason, "alpha": selection.alpha,
+                             "candidates": [plain(c) for c in selection.candidates]}
+    if "diagnostics" in wanted and report.diagnostics is not None:
+        body["diagnostics"] = diagnostics_section(report.diagnostics)
+    if "grid" in wanted:
+        body["grid"] = None if report.grid is None else prediction_section(report.grid)
+    body["warnings"] = [plain(w) for w in report.warnings]
+    body["flags"] = [plain(f) for f in report.flags]
+    if "fitted_model" in wanted:
+        body["fitted_model"] = to_document(fitted)
+    return body
+
+
+def _anova_row(row) -> dict:
+    out = plain(row)
+    if row.term == "residual":  # no F test on the residual row
+        out.pop("f", None)
+        out.pop("p_value", None)
+    return out
+
+
+def prediction_section(prediction: Prediction) -> dict:
+    """Grid/prediction arrays under their contract names."""
+    return plain(prediction)
+
+
+def diagnostics_section(diagnostics) -> dict:
+    """Diagnostics with nested tests and lack of fit as plain dicts."""
+    out = plain(diagnostics)
+    out["tests"] = [plain(t) for t in diagnostics.tests]
+    out["lack_of_fit"] = None if diagnostics.lack_of_fit is None else plain(
+        diagnostics.lack_of_fit)
+    out["thresholds"] = dict(diagnostics.thresholds)
+    for key in ("outliers", "high_leverage", "influential"):
+        out[key] = list(out[key])
+    return out

@@ -1,0 +1,31 @@
+"""A loaded request body (dicts from the schemas) -> the core's option objects."""
+
+from __future__ import annotations
+
+from service.core.spec import FitOptions, GridSpec, ModelSpec
+from service.runtime.config import Settings
+
+
+def model_spec(model: dict) -> ModelSpec:
+    """ModelSpec from a loaded ``model`` object (schemas.fit.ModelSchema)."""
+    return ModelSpec(family=model["family"], degree=model["degree"],
+                     max_degree=None if model["degree"] is not None else model["max_degree"],
+                     select=model["select"], alpha=model["alpha"], intercept=model["intercept"],
+                     transform_x=model["transform_x"], transform_y=model["transform_y"],
+                     min_degree=model["min_degree"])
+
+
+def grid_spec(grid: dict | None) -> GridSpec | None:
+    """GridSpec from a loaded ``grid`` object (None: no grid)."""
+    if grid is None:
+        return None
+    x = grid["x"]
+    return GridSpec(count=grid["count"], start=grid["start"], stop=grid["stop"],
+                    step=grid["step"], x=None if x is None else tuple(x.tolist()))
+
+
+def fit_options(body: dict, settings: Settings) -> FitOptions:
+    """FitOptions from a loaded fit body, with this server's grid limit."""
+    return FitOptions(level=body["level"], missing=body["missing"], grid=grid_spec(body["grid"]),
+                      include=frozenset(body["include"]),
+                      max_grid_points=settings.max_grid_points)

@@ -1,0 +1,2 @@
+"""Running the service as a process: configuration, the gunicorn server, guards, auth and CORS,
+metrics and logs."""

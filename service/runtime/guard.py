@@ -1,0 +1,194 @@
+"""Per-request guards: a compute deadline, and early refusal of bodies over the size limit.
+
+**Compute deadline.** Under gunicorn's sync workers each request runs in the worker's main
+thread, so a POSIX interval timer (``signal.setitimer(ITIMER_REAL)``) is armed for
+``Settings.request_timeout`` seconds when the request starts and disarmed when its response
+has been produced (streamed bodies included). When it fires, :class:`ComputeTimeout` is raised
+inside whatever Python code is running, and the one error path turns it into a 503
+problem+json. If that first interruption is swallowed by a broad ``except Exception``
+somewhere, the timer fires again every :data:`REPEAT_SECONDS` with :class:`DeadlinePassed`, a
+``BaseException`` that such handlers do not catch, and the middleware answers the same 503
+itself. A single C call that never returns to Python (one huge LAPACK call) cannot be
+interrupted this way; gunicorn's ``timeout`` (set a little above ``request_timeout`` in
+``service.runtime.gunicorn_conf``) is the hard backstop that kills and replaces the worker.
+
+An exception can land anywhere in Python code, so a gunicorn worker whose request was
+interrupted finishes answering and then retires (it sends itself SIGTERM, gunicorn's graceful
+stop); the master starts a fresh one. That keeps any half-updated state from serving again.
+
+A SIGALRM timer that was already running (a test runner's timeout, say) is put back when the
+request ends, less the time the request took.
+
+Where the timer cannot be used (a non-main thread, e.g. Flask's threaded development server,
+or a platform without ``SIGALRM``) the guard stands aside and only gunicorn's timeout applies.
+
+**Body size.** A declared ``Content-Length`` over ``Settings.max_body_bytes`` is refused with 413
+before a byte of the body is read (Werkzeug would do the same when the body is first read; this
+makes it independent of whether and when a view reads it). Chunked bodies are cut off by
+Werkzeug's ``MAX_CONTENT_LENGTH`` while they are read.
+"""
+
+from __future__ import annotations
+
+import os
+import signal
+import sys
+import threading
+import time
+
+from flask import Flask, request
+from werkzeug.exceptions import RequestEntityTooLarge
+
+from service.http.errors import PROBLEM_MIME, ServiceLimitError, problem_body
+from service.http.jsonio import dumps_bytes
+
+REPEAT_SECONDS = 1.0
+
+
+class ComputeTimeout(ServiceLimitError):
+    """The request's compute ran past ``request_timeout``; answered as 503 problem+json."""
+
+    def __init__(self, limit: float) -> None:
+        super().__init__(
+            503, "timeout",
+            f"The request needed more than the {limit:g} s compute limit and was stopped. "
+            "Fix: send fewer series or points per request, a lower max_degree or a smaller "
+            "grid, or ask the operator to raise CURVEWISE_REQUEST_TIMEOUT.")
+        self.limit = limit
+
+
+class DeadlinePassed(BaseException):  # noqa: N818 - a signal, not an error to handle
+    """Raised when the timer fires again after a swallowed :class:`ComputeTimeout`."""
+
+
+def timer_usable() -> bool:
+    """Whether a SIGALRM interval timer can guard the current thread."""
+    return hasattr(signal, "setitimer") and threading.current_thread() is threading.main_thread()
+
+
+class DeadlineMiddleware:
+    """WSGI middleware arming the compute timer around one request, body iteration included."""
+
+    def __init__(self, wsgi_app, limit: float) -> None:
+        self.wsgi_app = wsgi_app
+        self.limit = limit
+
+    def __call__(self, environ, start_response):
+        if self.limit <= 0 or not timer_usable():
+            return self.wsgi_app(environ, start_response)
+        fired = []
+
+        def on_alarm(signum, frame):
+            fired.append(True)
+            if len(fired) == 1:
+                raise ComputeTimeout(self.limit)
+            raise DeadlinePassed
+
+        previous = _Previous(signal.signal(signal.SIGALRM, on_alarm),
+                             signal.setitimer(signal.ITIMER_REAL, self.limit, REPEAT_SECONDS))
+        retire = environ.get("SERVER_SOFTWARE", "").startswith("gunicorn")
+        started = []
+
+        def tracked_start(*args):
+            started.append(True)
+            return start_response(*args)
+
+        try:
+            result = self.wsgi_app(environ, tracked_start)
+        except DeadlinePassed:
+            _disarm(previous)
+            result = self._timeout_response(environ, start_response, bool(started))
+            fired.append(True)
+        except BaseException:
+            _disarm(previous)
+            _retire_if(fired and retire)
+            raise
+        body = _GuardedBody(result, previous, lambda: _retire_if(fired and retire))
+        if fired:  # the answer is the 503 already: nothing left to interrupt
+            body.disarm()
+        return body
+
+    def _timeout_response(self, environ, start_response, restart: bool):
+        error = ComputeTimeout(self.limit)
+        body = problem_body(503, None, error.message, errors={"_body": [error.message]},
+                            code=error.code)
+        body["instance"] = environ.get("PATH_INFO")
+        payload = dumps_bytes(body)
+        start_response("503 SERVICE UNAVAILABLE", [("Content-Type", PROBLEM_MIME),
+                                                   ("Content-Length", str(len(payload))),
+                                                   ("Cache-Control", "no-store")],
+                       *([sys.exc_info()] if restart else []))  # PEP 3333: replace a start
+        return [payload]
+
+
+def _retire_if(needed) -> None:
+    """Ask this gunicorn worker to stop after the current request (graceful SIGTERM)."""
+    if needed:
+        os.kill(os.getpid(), signal.SIGTERM)
+
+
+class _Previous:
+    """The SIGALRM handler and timer that were in place before the request (e.g. a test
+    runner's own timeout), restored afterwards with the time that has passed taken off."""
+
+    def __init__(self, handler, timer: tuple[float, float]) -> None:
+        self.handler = handler if handler is not None else signal.SIG_DFL
+        self.delay, self.interval = timer
+        self.armed_at = time.monotonic()
+
+
+def _disarm(previous: _Previous) -> None:
+    signal.setitimer(signal.ITIMER_REAL, 0)
+    signal.signal(signal.SIGALRM, previous.handler)
+    if previous.delay > 0:  # an earlier timer keeps running; overdue ones fire at once
+        left = previous.delay - (time.monotonic() - previous.armed_at)
+        signal.setitimer(signal.ITIMER_REAL, max(left, 0.001), previous.interval)
+
+
+class _GuardedBody:
+    """Response iterable that keeps the timer armed until the server has the whole body."""
+
+    def __init__(self, body, previous, after) -> None:
+        self._body = body
+        self._previous = previous
+        self._after = after
+        self._armed = True
+        self._closed = False
+
+    def __iter__(self):
+        try:
+            yield from self._body
+        finally:
+            self.close()
+
+    def disarm(self) -> None:
+        if self._armed:
+            self._armed = False
+            _disarm(self._previous)
+
+    def close(self) -> None:
+        if self._closed:
+            return
+        self._closed = True
+        self.disarm()
+        try:
+            close = getattr(self._body, "close", None)
+            if close is not None:
+                close()
+        finally:
+            self._after()
+
+
+def install(app: Flask) -> None:
+    """Add the compute deadline and the early 413 to ``app`` (from its Settings)."""
+    settings = app.config["CURVEWISE"]
+    app.wsgi_app = DeadlineMiddleware(app.wsgi_app, float(settings.request_timeout))
+    limit = int(settings.max_body_bytes)
+
+    @app.before_request
+    def _body_size():
+        declared = request.content_length
+        if declared is not None and declared > limit:
+            raise RequestEntityTooLarge(
+                f"The body declares {declared} bytes; the limit is {limit}. Fix: split the data "
+                "over several requests, or ask the operator to raise CURVEWISE_MAX_BODY_BYTES.")
