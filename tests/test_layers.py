@@ -53,3 +53,58 @@ def test_core_loads_without_flask_or_marshmallow_in_a_fresh_interpreter():
             "print(bad); sys.exit(1 if bad else 0)")
     result = subprocess.run([sys.executable, "-c", code], cwd=ROOT, capture_output=True, text=True)
     assert result.returncode == 0, result.stdout + result.stderr
+
+
+# Inside the core, floors from bottom to top; a module may import its own floor and below.
+# Family folders (one per family) sit on one floor and never import each other.
+CORE_FLOORS = (
+    {"errors", "results", "spec", "compiled", "compiled.cache"},
+    {"data"},
+    {"checks"},
+    {"polynomial", "nonlinear"},
+    {"models"},
+    {"families", "compare"},
+    {"batch"},
+    {"compiled.warmup", "__init__"},
+)
+FAMILY_FOLDERS = {"polynomial", "nonlinear"}
+
+
+def _room(module: str) -> str:
+    """The floor key of a dotted name inside service.core (``polynomial.fit`` -> polynomial)."""
+    for key in sorted(set().union(*CORE_FLOORS), key=len, reverse=True):  # longest match
+        if module == key or module.startswith(key + "."):
+            return key
+    raise AssertionError(f"service.core.{module} is on no floor of CORE_FLOORS")
+
+
+def _floor(room: str) -> int:
+    return next(i for i, floor in enumerate(CORE_FLOORS) if room in floor)
+
+
+def test_core_imports_point_down_its_floors():
+    core = ROOT / "service" / "core"
+    wrong = []
+    for path in core.rglob("*.py"):
+        parts = path.relative_to(core).with_suffix("").parts
+        name = ".".join(p for p in parts if p != "__init__") or "__init__"
+        here = _room(name)
+        tree = ast.parse(path.read_text(), filename=str(path))
+        for node in ast.walk(tree):
+            targets = []
+            if isinstance(node, ast.ImportFrom) and node.module and node.level == 0:
+                targets = [node.module] + [f"{node.module}.{a.name}" for a in node.names]
+            elif isinstance(node, ast.Import):
+                targets = [a.name for a in node.names]
+            for target in targets:
+                if not target.startswith("service.core."):
+                    continue
+                there = target.removeprefix("service.core.")
+                try:
+                    room = _room(there)
+                except AssertionError:
+                    continue  # an attribute (service.core.x.name), judged by its module
+                sibling = room != here and {room, here} <= FAMILY_FOLDERS
+                if _floor(room) > _floor(here) or sibling:
+                    wrong.append(f"{name} imports {there}")
+    assert not wrong, "imports that point up (or across family folders):\n" + "\n".join(wrong)

@@ -5,9 +5,9 @@ from __future__ import annotations
 from flask import Response, current_app
 from flask_smorest import Blueprint, abort
 
-from schemas.common import MISSING_POLICIES, SECTIONS, SELECT_METHODS, TRANSFORMS
-from schemas.families import FamiliesResponseSchema, describe_options
-from schemas.fit import ModelSchema
+from schemas.common import MISSING_POLICIES, SECTIONS
+from schemas.families import MODEL_SCHEMAS, FamiliesResponseSchema, describe_options
+from service.core import families as registry
 from service.http.docs_page import render_catalogue, render_openapi, render_problem
 from service.http.problems import CATALOGUE
 
@@ -24,13 +24,12 @@ def families():
     settings = current_app.config["CURVEWISE"]
     return {
         "families": [{
-            "name": "polynomial",
-            "description": "Polynomial in x (optionally transformed) by least squares, fixed "
-                           "degree or chosen from candidates; every lower power is kept.",
-            "options": describe_options(ModelSchema()),
-            "select_methods": list(SELECT_METHODS),
-            "transforms": list(TRANSFORMS),
-        }],
+            "name": entry.name,
+            "description": entry.description,
+            "options": describe_options(MODEL_SCHEMAS[entry.name]()),
+            "select_methods": list(entry.select_methods),
+            "transforms": list(entry.transforms),
+        } for entry in registry.FAMILIES.values()],
         "missing_policies": list(MISSING_POLICIES),
         "sections": list(SECTIONS),
         "defaults": {"level": 0.95, "missing": "error", "grid": {"count": 200},

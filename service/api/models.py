@@ -14,11 +14,8 @@ from schemas.models import (
     PredictResponseSchema,
 )
 from service.api.error_docs import error_responses
-from service.core import predict
+from service.core import family_of, predict, read_document
 from service.core.errors import SpecError
-from service.core.models.calibration import figures_of_merit, sensitivity
-from service.core.models.document import from_document
-from service.core.models.inverse import invert
 
 blp = Blueprint("models", __name__, description="Predict and invert with a fitted-model document.")
 
@@ -42,7 +39,7 @@ _PREDICT_COLUMNS = ("x", "fit", "se_fit", "mean_lower", "mean_upper", "obs_lower
 @document_errors
 def predict_view(body):
     """Predict with intervals at new x from a stored fitted model."""
-    fitted = from_document(body["fitted_model"], field_prefix="fitted_model.")
+    fitted = read_document(body["fitted_model"], field_prefix="fitted_model.")
     _check_count("x", len(body["x"]))
     result = predict(fitted, body["x"], level=body["level"], m=body["replicates"])
     columns = {name: getattr(result, name) for name in _PREDICT_COLUMNS}
@@ -57,14 +54,19 @@ def predict_view(body):
 @document_errors
 def invert_view(body):
     """Read x back from observed y, with calibration intervals and figures of merit."""
-    fitted = from_document(body["fitted_model"], field_prefix="fitted_model.")
+    fitted = read_document(body["fitted_model"], field_prefix="fitted_model.")
     _check_count("y", len(body["y"]))
-    result = invert(fitted, body["y"], replicates=body["replicates"], level=body["level"])
-    slopes = _slopes(fitted, [e.x for e in result.estimates])
+    entry = family_of(fitted)
+    if entry.invert is None:
+        raise SpecError(f"The {entry.name} family cannot be read backwards.",
+                        field="fitted_model.family", fix="Invert a model of a family that "
+                        "GET /v1/families lists as invertible.")
+    result = entry.invert(fitted, body["y"], replicates=body["replicates"], level=body["level"])
+    slopes = _slopes(entry.sensitivity, fitted, [e.x for e in result.estimates])
     columns = {name: [getattr(e, name) for e in result.estimates]
                for name in ("y", "replicates", "x", "lower", "upper", "status", "other_roots")}
     columns["sensitivity"] = slopes
-    figures = figures_of_merit(fitted, alpha=body["detection_alpha"],
+    figures = entry.figures_of_merit(fitted, alpha=body["detection_alpha"],
                                beta=body["detection_beta"])
     return {"estimates": columns, "level": result.level, "monotone": result.monotone,
             "turning_points": list(result.turning_points), "x_min": result.x_min,
@@ -79,7 +81,7 @@ def _check_count(name: str, count: int) -> None:
                             "CURVEWISE_MAX_GRID_POINTS.", code="limit_exceeded")
 
 
-def _slopes(fitted, xs: list[float]) -> list[float]:
+def _slopes(sensitivity, fitted, xs: list[float]) -> list[float]:
     """dy/dx at each estimate; NaN where there is no estimate."""
     found = [i for i, x in enumerate(xs) if x == x]
     out = [float("nan")] * len(xs)

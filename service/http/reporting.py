@@ -9,7 +9,7 @@ from __future__ import annotations
 
 from dataclasses import fields
 
-from service.core.models.document import to_document
+from service.core.families import family_of
 from service.core.results import FitReport, Prediction
 
 ALWAYS = ("model", "n", "n_input", "dropped", "warnings", "flags")
@@ -60,7 +60,7 @@ def fit_response(report: FitReport, include) -> dict:
     body["warnings"] = [plain(w) for w in report.warnings]
     body["flags"] = [plain(f) for f in report.flags]
     if "fitted_model" in wanted:
-        body["fitted_model"] = to_document(fitted)
+        body["fitted_model"] = family_of(fitted).write_document(fitted)
     return body
 
 

@@ -38,9 +38,9 @@ from service.core.batch.results import (
     write_chunk,
 )
 from service.core.data import transforms
-from service.core.data.inputs import check_spec
 from service.core.errors import FitError
-from service.core.polynomial.fit import fit_series
+from service.core.families import family, fit_series
+from service.core.polynomial.spec_check import check_spec
 from service.core.spec import FitOptions, ModelSpec
 
 DETAILS = ("summary", "full")
@@ -143,6 +143,10 @@ def fit_many(x, y, lengths, weights=None, *, model: ModelSpec = _MODEL, models=N
     for spec_model, rows in groups.items():
         rows = np.asarray(rows, dtype=np.int64)
         try:
+            if not family(spec_model.family).compiled_batch:
+                family(spec_model.family).check_spec(spec_model, options)
+                fallback.extend((int(r), spec_model) for r in rows)
+                continue
             dmin, dmax, selects = check_spec(spec_model, options)
         except FitError as exc:
             for r in rows:
@@ -196,6 +200,8 @@ def _widths(groups, options) -> tuple[int, int]:
     p = c = 1
     for m in groups:
         try:
+            if not family(m.family).compiled_batch:
+                continue
             dmin, dmax, _ = check_spec(m, options)
         except FitError:
             continue

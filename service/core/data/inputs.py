@@ -1,4 +1,4 @@
-"""Checking the caller's arrays and the model/options before any numerics.
+"""Checking the caller's arrays and the family-independent options before any numerics.
 
 Every problem becomes a typed error naming the offending field (with the
 caller's original index) and saying what to do about it.
@@ -13,17 +13,7 @@ import numpy as np
 
 from service.core.data.pair_summary import pair_summary
 from service.core.errors import DataError, SpecError
-from service.core.spec import (
-    HARD_MAX_DEGREE,
-    MISSING_POLICIES,
-    SECTIONS,
-    SELECT_METHODS,
-    TRANSFORMS,
-    FitOptions,
-    ModelSpec,
-)
-
-DEFAULT_MAX_DEGREE = 3  # candidates when neither degree nor max_degree is given
+from service.core.spec import MISSING_POLICIES, SECTIONS, FitOptions
 
 
 class CleanData(NamedTuple):
@@ -172,72 +162,21 @@ def check_magnitude(values: np.ndarray, field: str, index: np.ndarray, what: str
     return lo, hi
 
 
-def _spec_error(message: str, field: str, fix: str) -> SpecError:
-    return SpecError(message, field=field, fix=fix)
-
-
-def check_spec(model: ModelSpec, options: FitOptions) -> tuple[int, int, bool]:
-    """Validate the model and options; return ``(min_degree, max_degree, selects)``.
+def check_options(options: FitOptions) -> None:
+    """Validate the family-independent options (level, missing policy, sections).
 
     Raises
     ------
     SpecError
-        An unknown name, an out-of-range number, or options that contradict each other.
+        An unknown name or an out-of-range number, naming the field.
     """
-    if model.family != "polynomial":
-        raise _spec_error(f"Unknown model family {model.family!r}.", "model.family",
-                          'Use family = "polynomial".')
-    if model.transform_x not in TRANSFORMS:
-        raise _spec_error(f"Unknown transform_x {model.transform_x!r}.", "model.transform_x",
-                          f"Use one of {', '.join(TRANSFORMS)}.")
-    if model.transform_y not in TRANSFORMS:
-        raise _spec_error(f"Unknown transform_y {model.transform_y!r}.", "model.transform_y",
-                          f"Use one of {', '.join(TRANSFORMS)}.")
     if not 0.0 < float(options.level) < 1.0:
-        raise _spec_error(f"level = {options.level!r} is not between 0 and 1.", "level",
-                          "Use a confidence level such as 0.95.")
+        raise SpecError(f"level = {options.level!r} is not between 0 and 1.", field="level",
+                        fix="Use a confidence level such as 0.95.")
     if options.missing not in MISSING_POLICIES:
-        raise _spec_error(f"Unknown missing policy {options.missing!r}.", "missing",
-                          'Use "error" or "drop".')
+        raise SpecError(f"Unknown missing policy {options.missing!r}.", field="missing",
+                        fix='Use "error" or "drop".')
     unknown = set(options.include) - set(SECTIONS)
     if unknown:
-        raise _spec_error(f"Unknown section(s) in include: {sorted(unknown)}.", "include",
-                          f"Use names from {', '.join(SECTIONS)}.")
-    lowest = 0 if model.intercept else 1
-    if model.degree is not None:
-        if model.max_degree is not None:
-            raise _spec_error("Both degree and max_degree are given.", "model.max_degree",
-                              "Give degree for a fixed model, or max_degree (and select) to "
-                              "choose the degree, not both.")
-        d = _int(model.degree, "model.degree")
-        if not lowest <= d <= HARD_MAX_DEGREE:
-            extra = "." if model.intercept else " (degree 0 needs the intercept)."
-            raise _spec_error(f"degree = {d} is outside {lowest}..{HARD_MAX_DEGREE}.",
-                              "model.degree", f"Use a degree from {lowest} to "
-                              f"{HARD_MAX_DEGREE}{extra}")
-        return d, d, False
-    if model.select not in SELECT_METHODS:
-        raise _spec_error(f"Unknown select method {model.select!r}.", "model.select",
-                          f"Use one of {', '.join(SELECT_METHODS)}.")
-    if not 0.0 < float(model.alpha) < 1.0:
-        raise _spec_error(f"alpha = {model.alpha!r} is not between 0 and 1.", "model.alpha",
-                          "Use a significance level such as 0.05.")
-    dmin = _int(model.min_degree, "model.min_degree")
-    dmax = DEFAULT_MAX_DEGREE if model.max_degree is None else _int(model.max_degree,
-                                                                     "model.max_degree")
-    if not lowest <= dmin <= HARD_MAX_DEGREE:
-        raise _spec_error(f"min_degree = {dmin} is outside {lowest}..{HARD_MAX_DEGREE}.",
-                          "model.min_degree", f"Use a min_degree from {lowest} to "
-                          f"{HARD_MAX_DEGREE}.")
-    if not dmin <= dmax <= HARD_MAX_DEGREE:
-        raise _spec_error(f"max_degree = {dmax} is outside {dmin}..{HARD_MAX_DEGREE}.",
-                          "model.max_degree", f"Use a max_degree from min_degree ({dmin}) to "
-                          f"{HARD_MAX_DEGREE}.")
-    return dmin, dmax, True
-
-
-def _int(value, field: str) -> int:
-    if isinstance(value, bool) or int(value) != value:
-        raise _spec_error(f"{field} = {value!r} is not a whole number.", field,
-                          "Use a whole number.")
-    return int(value)
+        raise SpecError(f"Unknown section(s) in include: {sorted(unknown)}.", field="include",
+                        fix=f"Use names from {', '.join(SECTIONS)}.")

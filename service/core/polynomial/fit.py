@@ -16,7 +16,7 @@ from service.core.checks.lack_of_fit import distinct_count
 from service.core.checks.shapiro import MAX_N as SHAPIRO_MAX_N
 from service.core.data import transforms
 from service.core.data.grid import grid_points
-from service.core.data.inputs import check_magnitude, check_spec, clean_data
+from service.core.data.inputs import check_magnitude, clean_data
 from service.core.errors import DesignError
 from service.core.polynomial import design, qr
 from service.core.polynomial.bands import grid_prediction
@@ -25,6 +25,7 @@ from service.core.polynomial.compiled import raw as kernels_raw
 from service.core.polynomial.decomposition import decompose
 from service.core.polynomial.diagnostics import diagnose
 from service.core.polynomial.selection import candidate_row, choose
+from service.core.polynomial.spec_check import check_spec
 from service.core.polynomial.summary import candidate_measures
 from service.core.polynomial.tables import fit_tables
 from service.core.results import (
