@@ -21,6 +21,7 @@ import numpy as np
 
 from service.core.batch.basis import basis, distinct, dot
 from service.core.batch.ftail import f1_tail
+from service.core.batch.kernel_steps import press, screen, select
 from service.core.batch.residuals import residual_pass
 
 SELECT_CODES = {"sequential_f": 0, "aic": 1, "aicc": 2, "bic": 3, "press": 4, "adj_r2": 5,
@@ -46,67 +47,6 @@ _BREUSCH_PAGAN = SC.index("breusch_pagan")
 OK, REJECT = 0, 1          # status: fitted here / hand the series to fit_series
 NEAR_CRIT = 1e-9           # an F this close to its critical value is settled by fit_series
 _TWO_PI_LOG = math.log(2.0 * math.pi)
-
-
-@numba.njit(cache=True, nogil=True, error_model="numpy")
-def _screen(uu, zz, w, a, n, unit, limit, tiny):
-    """Whether a series suits the kernel, and the range of its x.
-
-    Every value finite (a transform outside its domain gives NaN or inf), weights
-    positive, and magnitudes whose squares sum safely in float64 (the limits of
-    :func:`service.core.data.inputs.check_magnitude`, ``limit`` for this length). Others go
-    to fit_series.
-    """
-    small, big, top_z, top_w = np.inf, -np.inf, 0.0, 0.0
-    for i in range(n):
-        x, y = uu[i], zz[i]
-        if not (math.isfinite(x) and math.isfinite(y)):
-            return False, small, big
-        small, big = min(small, x), max(big, x)
-        top_z = max(top_z, abs(y))
-        if not unit:
-            if not (math.isfinite(w[a + i]) and w[a + i] > 0):
-                return False, small, big
-            top_w = max(top_w, w[a + i])
-    for top in (max(abs(small), abs(big)), top_z, top_w):
-        if top > limit or 0 < top < tiny:
-            return False, small, big
-    return n > 0, small, big
-
-
-@numba.njit(cache=True, nogil=True, error_model="numpy")
-def _select(code, cand, exact, f, crit, df, m, alpha_near):
-    """Chosen candidate index, climb length and whether an F sits at its critical value."""
-    first_exact = -1
-    for j in range(m):
-        if exact[j]:
-            first_exact = j
-            break
-    climb, near = 0, False
-    if code == 6:
-        return 0, 0, False
-    if code == 0:
-        for j in range(1, m):
-            c = crit[max(int(df[j]), 1)]
-            if abs(f[j] - c) <= alpha_near * c:
-                near = True
-            if not f[j] > c:
-                break
-            climb += 1
-        if first_exact >= 0 and first_exact <= climb + 1:
-            return first_exact, climb, near
-        return climb, climb, near
-    row = 4 if code == 5 else 4 + code  # adj_r2; aic, aicc, bic, press
-    pick, best = -1, 0.0
-    for j in range(m):
-        v = cand[row, j]
-        if v != v:
-            continue
-        if pick < 0 or (v > best if code == 5 else v < best):
-            pick, best = j, v
-    if first_exact >= 0:
-        return first_exact, 0, False
-    return max(pick, 0), 0, False
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
@@ -174,7 +114,7 @@ def fit_rows(u, z, w, unit, offsets, rows, dmin, dmax, intercept, code, need_pre
         n = offsets[rows[g] + 1] - a
         uu, zz = u[a:a + n], z[a:a + n]
         status[g] = REJECT
-        fine, small, big = _screen(uu, zz, w, a, n, unit, magnitude[slot[n]], tiny)
+        fine, small, big = screen(uu, zz, w, a, n, unit, magnitude[slot[n]], tiny)
         if not fine:
             continue        # fit_series' answer: its missing-value policy or its DataError
         n_distinct = distinct(uu, n)
@@ -257,8 +197,8 @@ def fit_rows(u, z, w, unit, offsets, rows, dmin, dmax, intercept, code, need_pre
             f[0] = np.nan
         cc[9, :m] = f[:m]
         if need_press:
-            _press(q, b, res, e, n, P, dmin + c, m, lev_one, exact, cc)
-        pick, climb, near = _select(code, cc, exact, f, crit, cc[0], m, NEAR_CRIT)
+            press(q, b, res, e, n, P, dmin + c, m, lev_one, exact, cc)
+        pick, climb, near = select(code, cc, exact, f, crit, cc[0], m, NEAR_CRIT)
         for j in range(m):   # p-values where the sequential F climb looked (others NaN)
             looked = code == 0 and j <= climb + 1 and math.isfinite(f[j])
             cc[10, j] = f1_tail(f[j], cc[0, j], log_beta[int(cc[0, j])]) if looked else np.nan
@@ -350,28 +290,3 @@ def fit_rows(u, z, w, unit, offsets, rows, dmin, dmax, intercept, code, need_pre
         row[_SHAPIRO_WILK] = spread
         row[_DURBIN_WATSON] = dw
         row[_BREUSCH_PAGAN] = bp
-
-
-@numba.njit(cache=True, nogil=True, error_model="numpy")
-def _press(q, b, res, e, n, P, kmin, m, lev_one, exact, cc):
-    """PRESS of every candidate (``sum (e_i / (1 - h_i))^2``; NaN when some h_i ~ 1)."""
-    e[:n] = res[:n]
-    kk = P
-    for j in range(m - 1, -1, -1):   # walk down from the largest model
-        k = kmin + j
-        while kk > k:
-            kk -= 1
-            for i in range(n):
-                e[i] += b[kk] * q[kk, i]
-        total, ok = 0.0, True
-        for i in range(n):
-            lev = 0.0
-            for r in range(k):
-                lev += q[r, i] * q[r, i]
-            if not lev < lev_one:
-                ok = False
-            loo = e[i] / (1 - lev)
-            total += loo * loo
-        cc[8, j] = 0.0 if exact[j] else (total if ok else np.nan)
-
-
