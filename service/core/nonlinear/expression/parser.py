@@ -131,7 +131,9 @@ class _Converter:
         if isinstance(node, ast.Constant):
             return self.number(node)
         what = _CONSTRUCTS.get(type(node), f"this construct ({type(node).__name__})")
-        raise refuse(f"{what[0].upper()}{what[1:]} is not allowed", self.column(node))
+        column = (self.operator_column(node.left, node.comparators[0])
+                  if isinstance(node, ast.Compare) else self.column(node))
+        raise refuse(f"{what[0].upper()}{what[1:]} is not allowed", column)
 
     def binary(self, node: ast.BinOp) -> Node:
         op = _OPERATORS.get(type(node.op))

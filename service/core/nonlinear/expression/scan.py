@@ -1,7 +1,8 @@
 """Limits, and the character scan that runs before Python's parser sees the text.
 
 The scan refuses what could hurt or confuse the parser (too long, non-ASCII,
-control characters, brackets or sign runs nested beyond :data:`MAX_NESTING`)
+control characters, comments, quotes, a number glued to a name as in ``2x``,
+brackets or sign runs nested beyond :data:`MAX_NESTING`)
 and rewrites the text for :func:`ast.parse`: ``^`` becomes ``**`` (Python
 gives ``^`` a lower precedence than ``+``) and tabs and line breaks become
 spaces. It keeps, for every character of the rewritten text, the 1-based
@@ -11,6 +12,7 @@ caller's own text.
 
 from __future__ import annotations
 
+import re
 from typing import NamedTuple
 
 from service.core.nonlinear.expression.errors import ExpressionError, refuse
@@ -25,6 +27,9 @@ MAX_EXPONENT = 1e3     # largest |constant exponent|
 _OPENING = "([{"
 _CLOSING = ")]}"
 _SPACES = "\t\n\r"
+# a number literal (not part of a name; atomic: no backtracking) followed by a letter or _
+_NUMBER_BEFORE_NAME = re.compile(
+    r"(?<![\w.])(?>(?:\d[\d_]*\.?[\d_]*|\.\d[\d_]*)(?:[eE][+-]?\d[\d_]*)?)(?=[A-Za-z_])")
 _PLAIN_TEXT_HINT = "Send the expression as plain ASCII text, e.g. b1*exp(-b2*x)."
 
 
@@ -88,6 +93,11 @@ def scan(text: object) -> Source:
 
 
 def _check_characters(text: str) -> None:
+    """Refuse non-ASCII, control characters, comments, quotes and numbers run into names.
+
+    The last two would make Python's parser warn (escape sequences, "invalid
+    decimal literal") before the allow-list walk could refuse them.
+    """
     for position, char in enumerate(text, start=1):
         code = ord(char)
         if code > 127:
@@ -96,6 +106,20 @@ def _check_characters(text: str) -> None:
         if (code < 32 and char not in _SPACES) or code == 127:
             raise refuse(f"The control character U+{code:04X} is not allowed", position,
                          fix=_PLAIN_TEXT_HINT)
+        if char == "#":  # a comment would swallow the rest of a line joined by the rewrite
+            raise refuse("Comments ('#') are not allowed", position,
+                         fix="Send the expression alone, without comments.")
+        if char in "'\"":
+            raise refuse("Quoted text is not allowed", position,
+                         fix="Write names without quotes, e.g. b1*x.")
+    glued = _NUMBER_BEFORE_NAME.search(text)
+    if glued:
+        position = glued.end() + 1
+        if text[glued.end()] in "jJ":
+            raise refuse("Complex numbers are not allowed", position,
+                         fix="Use real numbers only.")
+        raise refuse(f"The number {glued.group()!r} runs straight into a name", position,
+                     fix="Write * between a number and a name, e.g. 2*x.")
 
 
 def _check_nesting(text: str) -> None:
