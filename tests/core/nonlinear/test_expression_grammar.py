@@ -10,6 +10,7 @@ arithmetic written out by hand in that reading.
 from __future__ import annotations
 
 import dataclasses
+import pickle
 import re
 
 import numpy as np
@@ -105,3 +106,12 @@ def test_model_is_frozen_and_compares_by_content():
     assert model == compile_model("b1*exp(-b2*x)", ("b1", "b2"))
     assert model != compile_model("b1*exp(-b2*x)", ("b2", "b1"))  # other column order
     assert hash(model.tree) == hash(compile_model("(b1)*exp((-b2)*x)", ["b1", "b2"]).tree)
+
+
+def test_model_pickles_as_its_text():
+    # multiprocessing and Dask move models between processes; the copy must be the same model
+    model = compile_model("b1*exp(-b2*x)", ["b1", "b2"])
+    copy = pickle.loads(pickle.dumps(model))
+    assert copy == model
+    x = np.array([0.5, 2.0])
+    assert copy.jacobian(x, [2.0, 0.3]).tobytes() == model.jacobian(x, [2.0, 0.3]).tobytes()

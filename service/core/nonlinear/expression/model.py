@@ -79,6 +79,9 @@ class ExpressionModel:
         with np.errstate(all="ignore"):
             return self._program.derivative_x(x, theta)
 
+    def __reduce__(self):  # the compiled steps are closures: pickle as text and names
+        return (compile_model, (self.text, self.parameter_names))
+
     def _inputs(self, x, theta) -> tuple[np.ndarray, np.ndarray]:
         x = np.asarray(x, dtype=np.float64)
         theta = np.asarray(theta, dtype=np.float64)
