@@ -82,7 +82,7 @@ HOSTILE = [
     ("~b1*b2*x", 1, "operator '~'"),
     ("not b1", 1, "operator 'not'"),
     ("b1(x)*b2", 1, "'b1' is not a function"),
-    ("exp*b1*b2", 1, "must be called"),
+    ("exp*b1*b2", 1, "is not called"),
     ("(y := 1)*b1*b2", 2, "':='"),
     ("b1, b2", 1, "comma"),
     ("b'x'*b1*b2", 2, "quoted text"),

@@ -76,8 +76,7 @@ def parse_expression(text: object, parameters: tuple[str, ...]) -> Node:
     except SyntaxError as error:
         index = (error.offset or len(source.python) + 1) - 1
         column = source.column(index)
-        detail = error.msg.split(" (")[0]
-        raise refuse(f"Syntax error ({detail})", column) from None
+        raise refuse(f"Syntax error ({error.msg})", column) from None
     except (ValueError, MemoryError, RecursionError):
         raise refuse("The expression is too complex to parse", 1) from None
     _check_size(tree.body, source)
@@ -105,7 +104,8 @@ def _check_size(body: ast.expr, source: Source) -> None:
                              "operations and calls; the excess starts", column,
                              fix="Simplify the expression.")
             depth += 1
-        stack.extend((child, depth) for child in ast.iter_child_nodes(node))
+        children = list(ast.iter_child_nodes(node))
+        stack.extend((child, depth) for child in reversed(children))  # left to right
 
 
 class _Converter:
@@ -187,8 +187,8 @@ class _Converter:
         if node.id in self.index:
             return Parameter(node.id, self.index[node.id], column)
         if node.id in FUNCTIONS:
-            raise refuse(f"The function {node.id!r} must be called with one argument, e.g. "
-                         f"{node.id}(x),", column, fix=FUNCTIONS_HINT)
+            raise refuse(f"The function {node.id!r} is not called (write {node.id}(...))",
+                         column, fix=FUNCTIONS_HINT)
         declared = ", ".join(self.parameters) or "none"
         raise refuse(f"Unknown name {node.id!r} (declared parameters: {declared})", column,
                      fix="Use only x, pi, the allowed functions and the declared parameters, "
