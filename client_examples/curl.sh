@@ -5,7 +5,7 @@
 #
 # Sends the invented greenhouse trial (data/greenhouse.json, made by scripts/demo_data.py) to
 # /v1/fit, lets the service choose the degree, prints the chosen degree and the sequential
-# (Type I) table, then sends the returned fitted-model document to /v1/predict for EC 3.5 dS/m.
+# table, then sends the returned fitted-model document to /v1/predict for EC 3.5 dS/m.
 # Set API_TOKEN if the service has auth on.
 set -euo pipefail
 export LC_ALL=C
@@ -38,14 +38,14 @@ prediction=$(jq -c --argjson x "$NEW_EC" '{fitted_model: .fitted_model, x: [$x]}
 
 echo "Greenhouse nutrient trial (invented demo data): $(jq -r '.n' <<<"$fit") benches"
 jq -r '"chosen degree: \(.selection.chosen_degree) (\(.selection.method))"' <<<"$fit"
-echo "sequential (Type I) table:"
-printf '%-10s%4s%14s%14s%12s%12s\n' term df sum_sq mean_sq F p_value
-jq -r '.anova[] | [.term, .df, .sum_sq, .mean_sq, (.f // "-"), (.p_value // "-")] | @tsv' \
+echo "sequential table:"
+printf '%-10s%4s%16s%14s%12s%12s\n' term df sum_of_squares mean_square F p_value
+jq -r '.anova[] | [.term, .df, .sum_of_squares, .mean_square, (.f // "-"), (.p_value // "-")] | @tsv' \
   <<<"$fit" | while IFS=$'\t' read -r term df ss ms f p; do
     if [ "$f" = "-" ]; then
-      printf '%-10s%4d%14.6g%14.6g\n' "$term" "$df" "$ss" "$ms"
+      printf '%-10s%4d%16.6g%14.6g\n' "$term" "$df" "$ss" "$ms"
     else
-      printf '%-10s%4d%14.6g%14.6g%12.6g%12.4g\n' "$term" "$df" "$ss" "$ms" "$f" "$p"
+      printf '%-10s%4d%16.6g%14.6g%12.6g%12.4g\n' "$term" "$df" "$ss" "$ms" "$f" "$p"
     fi
   done
 level=$(jq -r '.level * 100 | round' "$DATA")

@@ -47,12 +47,13 @@ class CoefficientSchema(Schema):
 
 
 class AnovaRowSchema(Schema):
-    """A row of the sequential (Type I) ANOVA table; the residual row comes last."""
+    """A row of the sequential ANOVA table; the residual row comes last."""
 
     term = text("Term entering the model (x, x^2, ...), or residual.", required=True)
     df = integer("Degrees of freedom.", required=True)
-    sum_sq = number("Sequential sum of squares (uncentred without intercept).", required=True)
-    mean_sq = number("sum_sq / df.", required=True)
+    sum_of_squares = number("Sequential sum of squares (uncentred without intercept).",
+                            required=True)
+    mean_square = number("sum_of_squares / df.", required=True)
     f = number("F statistic against the residual mean square (absent on the residual row).")
     p_value = number("p-value of f (absent on the residual row).")
 
@@ -79,7 +80,7 @@ class StatisticsSchema(Schema):
     aicc = number("AIC with the small-sample correction.")
     bic = number("Bayesian (Schwarz) information criterion.", required=True)
     press = number("Leave-one-out prediction error sum of squares.")
-    predicted_r_squared = number("1 - press / tss.")
+    press_r_squared = number("1 - press / tss.")
     condition_number = number("Condition number of the scaled design (large: unstable).")
 
 
@@ -161,7 +162,7 @@ class GridValuesSchema(Schema):
 
     x = _array("Grid points.")
     fit = _array("Fitted values.")
-    se_fit = _array("Standard error of the fitted mean.")
+    se_mean = _array("Standard error of the fitted mean.")
     mean_lower = _array("Lower confidence limit of the mean.")
     mean_upper = _array("Upper confidence limit of the mean.")
     obs_lower = _array("Lower prediction limit for one new observation.")
@@ -183,7 +184,7 @@ class FitResponseSchema(Schema):
     coefficients = fields.List(fields.Nested(CoefficientSchema), metadata={
         "description": "Coefficients in the raw x scale: intercept, x, x^2, ..."})
     anova = fields.List(fields.Nested(AnovaRowSchema), metadata={
-        "description": "Sequential (Type I) ANOVA, in the order terms enter; residual last."})
+        "description": "Sequential ANOVA, in the order terms enter; residual last."})
     statistics = fields.Nested(StatisticsSchema)
     selection = fields.Nested(SelectionSchema)
     diagnostics = fields.Nested(DiagnosticsSchema)

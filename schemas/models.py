@@ -107,7 +107,7 @@ class PredictionRowSchema(Schema):
 
     x = number("Where.")
     fit = number("Fitted value (original y scale).")
-    se_fit = number("Standard error of the fitted mean (fitting scale).")
+    se_mean = number("Standard error of the fitted mean (fitting scale).")
     mean_lower = number("Lower limit for the mean response.")
     mean_upper = number("Upper limit for the mean response.")
     obs_lower = number("Lower limit for the mean of `replicates` new readings.")

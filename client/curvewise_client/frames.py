@@ -37,7 +37,7 @@ def coefficients_frame(fit: FitResult):
 
 
 def anova_frame(fit: FitResult):
-    """The sequential (Type I) table, residual row last (``f``/``p_value`` missing there)."""
+    """The sequential table, residual row last (``f``/``p_value`` missing there)."""
     return _pandas().DataFrame(_records(fit.anova)).set_index("term")
 
 

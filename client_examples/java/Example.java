@@ -4,7 +4,7 @@
 //
 // Reads the invented greenhouse trial (client_examples/data/greenhouse.json, made by
 // scripts/demo_data.py), lets the service choose the degree, prints the chosen degree, the
-// sequential (Type I) table and a prediction at EC 3.5 dS/m made from the returned
+// sequential table and a prediction at EC 3.5 dS/m made from the returned
 // fitted-model document, which is sent back byte for byte as the service wrote it.
 // JSON is read by the small parser at the end of this file. Set API_TOKEN if auth is on.
 
@@ -45,13 +45,14 @@ public class Example {
                 ((Double) fit.get("n")).intValue());
         System.out.printf("chosen degree: %d (%s)%n", ((Double) selection.get("chosen_degree")).intValue(),
                 selection.get("method"));
-        System.out.println("sequential (Type I) table:");
-        System.out.printf("%-10s%4s%14s%14s%12s%12s%n", "term", "df", "sum_sq", "mean_sq", "F", "p_value");
+        System.out.println("sequential table:");
+        System.out.printf("%-10s%4s%16s%14s%12s%12s%n", "term", "df", "sum_of_squares",
+                "mean_square", "F", "p_value");
         for (Object item : (List<?>) fit.get("anova")) {
             Map<?, ?> row = (Map<?, ?>) item;
-            StringBuilder line = new StringBuilder(String.format(Locale.ROOT, "%-10s%4d%14s%14s",
-                    row.get("term"), ((Double) row.get("df")).intValue(), g(row.get("sum_sq"), 6),
-                    g(row.get("mean_sq"), 6)));
+            StringBuilder line = new StringBuilder(String.format(Locale.ROOT, "%-10s%4d%16s%14s",
+                    row.get("term"), ((Double) row.get("df")).intValue(), g(row.get("sum_of_squares"), 6),
+                    g(row.get("mean_square"), 6)));
             if (row.get("f") != null) {
                 line.append(String.format(Locale.ROOT, "%12s%12s", g(row.get("f"), 6), g(row.get("p_value"), 4)));
             }

@@ -3,7 +3,7 @@
 //   BASE_URL=http://127.0.0.1:8000 node client_examples/javascript/example.mjs
 //
 // Reads the invented greenhouse trial (../data/greenhouse.json, made by scripts/demo_data.py),
-// lets the service choose the degree, prints the chosen degree, the sequential (Type I)
+// lets the service choose the degree, prints the chosen degree, the sequential
 // table and a prediction at EC 3.5 dS/m made from the returned fitted-model document.
 // Set API_TOKEN if the service has auth on.
 
@@ -45,12 +45,12 @@ async function main() {
 
   console.log(`Greenhouse nutrient trial (invented demo data): ${fit.n} benches`);
   console.log(`chosen degree: ${fit.selection.chosen_degree} (${fit.selection.method})`);
-  console.log("sequential (Type I) table:");
-  console.log(pad("term", 10, true) + pad("df", 4) + pad("sum_sq", 14) + pad("mean_sq", 14) +
+  console.log("sequential table:");
+  console.log(pad("term", 10, true) + pad("df", 4) + pad("sum_of_squares", 16) + pad("mean_square", 14) +
               pad("F", 12) + pad("p_value", 12));
   for (const row of fit.anova) {
-    let line = pad(row.term, 10, true) + pad(row.df, 4) + pad(g(row.sum_sq), 14) +
-               pad(g(row.mean_sq), 14);
+    let line = pad(row.term, 10, true) + pad(row.df, 4) + pad(g(row.sum_of_squares), 16) +
+               pad(g(row.mean_square), 14);
     if (row.f !== undefined && row.f !== null) line += pad(g(row.f), 12) + pad(g(row.p_value, 4), 12);
     console.log(line);
   }

@@ -5,7 +5,7 @@
 
 Reads the invented greenhouse trial (client_examples/data/greenhouse.json, made by
 scripts/demo_data.py), lets the service choose the degree, prints the chosen degree,
-the sequential (Type I) table and a prediction at EC 3.5 dS/m made later from the
+the sequential table and a prediction at EC 3.5 dS/m made later from the
 stored fitted-model document. Set API_TOKEN if the service has auth on.
 """
 
@@ -41,10 +41,10 @@ def main() -> int:
 
     print(f"Greenhouse nutrient trial (invented demo data): {fit.n} benches")
     print(f"chosen degree: {fit.chosen_degree} ({fit.selection.method})")
-    print("sequential (Type I) table:")
-    print(f"{'term':<10}{'df':>4}{'sum_sq':>14}{'mean_sq':>14}{'F':>12}{'p_value':>12}")
+    print("sequential table:")
+    print(f"{'term':<10}{'df':>4}{'sum_of_squares':>16}{'mean_square':>14}{'F':>12}{'p_value':>12}")
     for row in fit.anova:
-        line = f"{row.term:<10}{row.df:>4}{row.sum_sq:>14.6g}{row.mean_sq:>14.6g}"
+        line = f"{row.term:<10}{row.df:>4}{row.sum_of_squares:>16.6g}{row.mean_square:>14.6g}"
         if row.f is not None:
             line += f"{row.f:>12.6g}{row.p_value:>12.4g}"
         print(line)

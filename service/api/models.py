@@ -29,7 +29,7 @@ ERRORS = {400: "Unparsable body (not strict JSON: e.g. NaN or Infinity tokens)."
 document_errors = error_responses(blp, ERRORS)
 
 
-_PREDICT_COLUMNS = ("x", "fit", "se_fit", "mean_lower", "mean_upper", "obs_lower", "obs_upper",
+_PREDICT_COLUMNS = ("x", "fit", "se_mean", "mean_lower", "mean_upper", "obs_lower", "obs_upper",
                     "band_lower", "band_upper", "extrapolated")
 
 

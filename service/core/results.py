@@ -65,12 +65,12 @@ class Coefficient(NamedTuple):
 
 
 class AnovaRow(NamedTuple):
-    """One row of the sequential (Type I) table; the residual row has nan f/p."""
+    """One row of the sequential table; the residual row has nan f/p."""
 
     term: str
     df: int
-    sum_sq: float
-    mean_sq: float
+    sum_of_squares: float
+    mean_square: float
     f: float
     p_value: float
 
@@ -96,7 +96,7 @@ class FitStatistics:
     aicc: float
     bic: float
     press: float
-    predicted_r_squared: float
+    press_r_squared: float
     condition_number: float
 
 
@@ -136,13 +136,13 @@ class Prediction:
     observations' mean (m = 1: one new observation); ``band_*``: simultaneous
     (Working-Hotelling) band for the whole curve. ``extrapolated`` marks x
     outside the fitted data range. With a transformed y, ``fit`` and the
-    limits are back-transformed to the original y scale while ``se_fit``
+    limits are back-transformed to the original y scale while ``se_mean``
     stays on the fitting (transformed) scale.
     """
 
     x: FloatArray
     fit: FloatArray
-    se_fit: FloatArray
+    se_mean: FloatArray
     mean_lower: FloatArray
     mean_upper: FloatArray
     obs_lower: FloatArray

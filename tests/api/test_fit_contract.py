@@ -59,8 +59,8 @@ def test_nist_certified_values_through_the_api(client, name):
     residual = out["anova"][-1]
     assert residual["term"] == "residual"
     assert residual["df"] == cert["anova"]["residual"]["df"]
-    assert digits(residual["sum_sq"], cert["anova"]["residual"]["sum_sq"]) >= 11
-    regression_ss = sum(row["sum_sq"] for row in out["anova"][:-1])
+    assert digits(residual["sum_of_squares"], cert["anova"]["residual"]["sum_sq"]) >= 11
+    regression_ss = sum(row["sum_of_squares"] for row in out["anova"][:-1])
     assert digits(regression_ss, cert["anova"]["regression"]["sum_sq"]) >= 11
     assert digits(stats["f"], cert["anova"]["regression"]["f"]) >= 11
 
@@ -100,13 +100,13 @@ def test_ordinary_fit_matches_statsmodels(client, seeded):
     assert stats["df_residual"] == ols.df_resid
     assert stats["aic"] == pytest.approx(ols.aic, rel=1e-10)
     assert stats["bic"] == pytest.approx(ols.bic, rel=1e-10)
-    # Sequential (Type I) table: the x row is the explained SS of the straight-line fit
+    # Sequential table: the x row is the explained SS of the straight-line fit
     # (statsmodels OLS), x^2 the further reduction; the residual row is the OLS residual SS.
     line = sm.OLS(y, np.vander(x, 2, increasing=True)).fit()
     assert [r["term"] for r in out["anova"]] == ["x", "x^2", "residual"]
-    assert out["anova"][0]["sum_sq"] == pytest.approx(line.ess, rel=1e-9)
-    assert out["anova"][1]["sum_sq"] == pytest.approx(line.ssr - ols.ssr, rel=1e-8)
-    assert out["anova"][2]["sum_sq"] == pytest.approx(ols.ssr, rel=1e-9)
+    assert out["anova"][0]["sum_of_squares"] == pytest.approx(line.ess, rel=1e-9)
+    assert out["anova"][1]["sum_of_squares"] == pytest.approx(line.ssr - ols.ssr, rel=1e-8)
+    assert out["anova"][2]["sum_of_squares"] == pytest.approx(ols.ssr, rel=1e-9)
     assert out["anova"][2]["df"] == ols.df_resid and "f" not in out["anova"][2]
 
 

@@ -50,7 +50,7 @@ def test_fit_reproduces_nist_pontius_certified_values(api, pontius):
     assert _rel(fit.statistics.r_squared, cert["r_squared"]) < 1e-12
     residual = fit.anova[-1]
     assert residual.term == "residual" and residual.df == cert["anova"]["residual"]["df"]
-    assert _rel(residual.sum_sq, cert["anova"]["residual"]["sum_sq"]) < 1e-8
+    assert _rel(residual.sum_of_squares, cert["anova"]["residual"]["sum_sq"]) < 1e-8
     assert residual.f is None and residual.p_value is None
 
 

@@ -81,7 +81,7 @@ def test_result_frames_of_one_fit(api):
     np.testing.assert_allclose(coef["std_error"], model.bse, rtol=1e-8)
     anova = frames.anova_frame(fit)
     assert list(anova.index) == ["x", "x^2", "residual"]
-    assert anova.loc["residual", "sum_sq"] == pytest.approx(model.ssr, rel=1e-9)
+    assert anova.loc["residual", "sum_of_squares"] == pytest.approx(model.ssr, rel=1e-9)
     grid = frames.grid_frame(fit)
     assert len(grid) == 25 and {"x", "fit", "obs_lower", "obs_upper"} <= set(grid.columns)
     trail = frames.candidates_frame(fit)

@@ -208,7 +208,7 @@ def test_leverage_one_makes_press_undefined_with_notice():
     x = [0.0, 0.0, 0.0, 1.0, 1.0, 1.0, 5.0]
     y = [0.1, -0.1, 0.0, 1.1, 0.9, 1.0, 20.0]
     rep = fit_series(x, y, model=ModelSpec(degree=2))
-    assert math.isnan(rep.statistics.press) and math.isnan(rep.statistics.predicted_r_squared)
+    assert math.isnan(rep.statistics.press) and math.isnan(rep.statistics.press_r_squared)
     assert "press_undefined" in {n.code for n in rep.warnings}
     assert rep.diagnostics.leverage[-1] == pytest.approx(1.0)
 

@@ -44,13 +44,14 @@ def _pairs(ref, report):
            enumerate(zip(report.coefficients, cert["coefficients"], strict=True))]
     out += [(f"sd[{i}]", c.std_error, v) for i, (c, v) in
             enumerate(zip(report.coefficients, cert["coefficient_sd"], strict=True))]
-    ss_reg = sum(row.sum_sq for row in report.anova[:-1])
+    ss_reg = sum(row.sum_of_squares for row in report.anova[:-1])
     resid = report.anova[-1]
     out += [("residual_sd", st.sigma, cert["residual_sd"]), ("r_squared", st.r_squared,
-            cert["r_squared"]), ("reg.sum_sq", ss_reg, reg["sum_sq"]),
-            ("reg.mean_sq", ss_reg / st.df_model, reg["mean_sq"]),
-            ("res.sum_sq", resid.sum_sq, res["sum_sq"]), ("res.mean_sq", resid.mean_sq,
-            res["mean_sq"]), ("stat.rss", st.rss, res["sum_sq"])]
+            cert["r_squared"]), ("reg.sum_of_squares", ss_reg, reg["sum_sq"]),
+            ("reg.mean_square", ss_reg / st.df_model, reg["mean_sq"]),
+            ("res.sum_of_squares", resid.sum_of_squares, res["sum_sq"]),
+            ("res.mean_square", resid.mean_square, res["mean_sq"]),
+            ("stat.rss", st.rss, res["sum_sq"])]
     if reg["f"] is not None:
         out.append(("reg.f", st.f, reg["f"]))
     return out
@@ -97,4 +98,4 @@ def test_sequential_ss_against_derived_values(name):
     rows = report.anova[:-1]
     assert [r.term for r in rows] == [d["term"] for d in derived]
     for row, d in zip(rows, derived, strict=True):
-        assert significant_digits(row.sum_sq, d["sum_sq"]) >= MIN_DIGITS, (row, d)
+        assert significant_digits(row.sum_of_squares, d["sum_sq"]) >= MIN_DIGITS, (row, d)

@@ -62,7 +62,7 @@ def test_predict_matches_get_prediction(weighted):
     frame = res.get_prediction(_exog(gx, degree)).summary_frame(alpha=0.1)
     g = rep.grid
     np.testing.assert_allclose(g.fit, frame["mean"], rtol=RTOL)
-    np.testing.assert_allclose(g.se_fit, frame["mean_se"], rtol=RTOL)
+    np.testing.assert_allclose(g.se_mean, frame["mean_se"], rtol=RTOL)
     np.testing.assert_allclose(g.mean_lower, frame["mean_ci_lower"], rtol=RTOL)
     np.testing.assert_allclose(g.mean_upper, frame["mean_ci_upper"], rtol=RTOL)
     np.testing.assert_allclose(g.obs_lower, frame["obs_ci_lower"], rtol=RTOL)
@@ -85,9 +85,9 @@ def test_sequential_anova_matches_anova_lm_typ1():
     table = anova_lm(smf.ols("y ~ x + I(x**2) + I(x**3)", data=frame).fit(), typ=1)
     rows = rep.anova
     assert [r.term for r in rows] == ["x", "x^2", "x^3", "residual"]
-    np.testing.assert_allclose([r.sum_sq for r in rows], table["sum_sq"], rtol=RTOL)
+    np.testing.assert_allclose([r.sum_of_squares for r in rows], table["sum_sq"], rtol=RTOL)
     np.testing.assert_allclose([r.df for r in rows], table["df"], rtol=0)
-    np.testing.assert_allclose([r.mean_sq for r in rows], table["mean_sq"], rtol=RTOL)
+    np.testing.assert_allclose([r.mean_square for r in rows], table["mean_sq"], rtol=RTOL)
     np.testing.assert_allclose([r.f for r in rows[:-1]], table["F"][:-1], rtol=RTOL)
     np.testing.assert_allclose([r.p_value for r in rows[:-1]], table["PR(>F)"][:-1], rtol=1e-8)
 
@@ -161,7 +161,7 @@ def test_no_intercept_uses_uncentred_sums_like_statsmodels():
                                 rep.statistics.f], [res.rsquared, res.rsquared_adj, res.fvalue],
                                rtol=RTOL)
     assert [r.term for r in rep.anova] == ["x", "x^2", "residual"]
-    np.testing.assert_allclose(sum(r.sum_sq for r in rep.anova[:-1]), res.ess, rtol=RTOL)
+    np.testing.assert_allclose(sum(r.sum_of_squares for r in rep.anova[:-1]), res.ess, rtol=RTOL)
 
 
 def test_log_y_transform_back_transforms_statsmodels_prediction():

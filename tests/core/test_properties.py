@@ -33,7 +33,7 @@ def _fit(x, y, degree):
     # Sums of squares carry rounding of order eps^2 * sum(y^2) whatever the data: when y
     # is constant the total SS is itself that noise, so it cannot be the only yardstick.
     ss_scale = rep.statistics.tss + 1e-16 * float(y @ y)
-    return fitted, np.array([r.sum_sq for r in rep.anova]), ss_scale
+    return fitted, np.array([r.sum_of_squares for r in rep.anova]), ss_scale
 
 
 def _close(a, b, scale):

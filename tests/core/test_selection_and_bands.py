@@ -97,7 +97,7 @@ def test_grid_step_and_stored_model_agree_exactly():
     rep = fit_series(x, y, model=ModelSpec(max_degree=4),
                      options=FitOptions(grid=GridSpec(start=-1, stop=5, step=0.25)))
     again = predict(rep.model, rep.grid.x)
-    for name in ("fit", "se_fit", "mean_lower", "mean_upper", "obs_lower", "obs_upper",
+    for name in ("fit", "se_mean", "mean_lower", "mean_upper", "obs_lower", "obs_upper",
                  "band_lower", "band_upper"):
         assert np.array_equal(getattr(again, name), getattr(rep.grid, name)), name
     assert "extrapolation" in {f.code for f in rep.flags}

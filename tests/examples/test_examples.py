@@ -4,7 +4,7 @@ The examples fit the invented greenhouse scenario (client_examples/data/greenhou
 from scripts/demo_data.py). The invented data are never the reference: every printed
 number is checked against statsmodels OLS fits of the same data (sequential sums of
 squares as differences of residual sums of squares of nested fits — the textbook
-definition of the Type I table; F tests by ``compare_f_test``; the new-observation
+definition of the sequential table; F tests by ``compare_f_test``; the new-observation
 interval by ``get_prediction``). The examples print 6 significant digits (p-values 4).
 """
 
@@ -58,8 +58,9 @@ def parse(output: str) -> dict:
     head = re.fullmatch(r"Greenhouse nutrient trial \(invented demo data\): (\d+) benches",
                         lines[0])
     chosen = re.fullmatch(r"chosen degree: (\d+) \((\w+)\)", lines[1])
-    assert head and chosen and lines[2] == "sequential (Type I) table:", output
-    assert lines[3].split() == ["term", "df", "sum_sq", "mean_sq", "F", "p_value"], output
+    assert head and chosen and lines[2] == "sequential table:", output
+    header = ["term", "df", "sum_of_squares", "mean_square", "F", "p_value"]
+    assert lines[3].split() == header, output
     table = {}
     for line in lines[4:-1]:
         term, df, *numbers = line.split()

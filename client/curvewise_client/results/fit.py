@@ -36,12 +36,12 @@ class Coefficient:
 
 @dataclass(frozen=True, slots=True)
 class AnovaRow:
-    """One row of the sequential (Type I) table; the residual row has no ``f``/``p_value``."""
+    """One row of the sequential table; the residual row has no ``f``/``p_value``."""
 
     term: str
     df: int | None = None
-    sum_sq: float | None = None
-    mean_sq: float | None = None
+    sum_of_squares: float | None = None
+    mean_square: float | None = None
     f: float | None = None
     p_value: float | None = None
 
@@ -67,7 +67,7 @@ class Statistics:
     aicc: float | None = None
     bic: float | None = None
     press: float | None = None
-    predicted_r_squared: float | None = None
+    press_r_squared: float | None = None
     condition_number: float | None = None
 
 
@@ -110,7 +110,7 @@ class Grid:
     mean_upper: tuple[float | None, ...] = ()
     obs_lower: tuple[float | None, ...] = ()
     obs_upper: tuple[float | None, ...] = ()
-    se_fit: tuple[float | None, ...] = ()
+    se_mean: tuple[float | None, ...] = ()
     band_lower: tuple[float | None, ...] = ()
     band_upper: tuple[float | None, ...] = ()
     extrapolated: tuple[bool, ...] = ()

@@ -20,7 +20,7 @@ class PredictionRow:
     obs_lower: float | None = None
     obs_upper: float | None = None
     extrapolated: bool | None = None
-    se_fit: float | None = None
+    se_mean: float | None = None
     band_lower: float | None = None
     band_upper: float | None = None
 

@@ -20,7 +20,7 @@ scale and mapped back through the inverse transform (limits swap for the
 decreasing ``reciprocal``). The back-transformed fit estimates the *median*
 of y rather than its mean when the errors are symmetric on the fitting
 scale (retransformation bias; for ``log`` the mean is larger by about
-``exp(sigma²/2)``). ``se_fit`` stays on the fitting scale.
+``exp(sigma²/2)``). ``se_mean`` stays on the fitting scale.
 """
 
 from __future__ import annotations

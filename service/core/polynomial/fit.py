@@ -171,7 +171,7 @@ def _fit(x, y, weights, model: ModelSpec, options: FitOptions) -> FitReport:
     statistics = FitStatistics(
         n, p, m.df_model, m.df_residual, m.rss, m.tss, intercept, m.r_squared, m.adj_r_squared,
         float(sigma), m.f, m.f_p_value, m.log_likelihood, m.aic, m.aicc, m.bic, m.press,
-        m.predicted_r_squared, cond)
+        m.press_r_squared, cond)
     diagnostics = None
     if "diagnostics" in options.include:
         diagnostics = diagnose(data.index, data.x, dec, degree, m.rss, m.exact, distinct)

@@ -51,7 +51,7 @@ class Measures(NamedTuple):
     aicc: float
     bic: float
     press: float
-    predicted_r_squared: float
+    press_r_squared: float
     f_last: float
     p_last: float
     exact: bool

@@ -1,4 +1,4 @@
-"""The chosen fit's coefficient table and sequential (Type I) ANOVA table.
+"""The chosen fit's coefficient table and sequential ANOVA table.
 
 Each power's sequential SS is the square of its effect in ``Q'y`` (the
 orthogonal decomposition of the weighted response in entry order), so the

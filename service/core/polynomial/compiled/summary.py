@@ -11,7 +11,7 @@ import numba
 import numpy as np
 
 COLUMNS = ("rss", "tss", "ss_model", "r_squared", "adj_r_squared", "sigma", "f",
-           "log_likelihood", "aic", "aicc", "bic", "press", "predicted_r_squared", "f_last")
+           "log_likelihood", "aic", "aicc", "bic", "press", "press_r_squared", "f_last")
 LOG_2PI = math.log(2 * math.pi)
 
 
