@@ -1,0 +1,1 @@
+"""Nonlinear least squares: model expressions, solver, inference."""
