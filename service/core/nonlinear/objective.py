@@ -16,6 +16,15 @@ from service.core.nonlinear.problem import Problem
 
 # Each residual of a rejected point: its sum of squares is 1e300, finite in float64.
 _HUGE_SUM_OF_SQUARES = 1e300
+# Consecutive non-finite trial points after which a phase gives up: each rejection
+# shrinks the trust region at least twofold, so by then steps are below resolution.
+MAX_NON_FINITE_IN_A_ROW = 60
+
+
+def sum_of_squares(rw: np.ndarray) -> float:
+    """``rw @ rw``; when that overflows, the largest float64 (keeps the order of finite points)."""
+    rss = float(rw @ rw)
+    return rss if rss < np.inf else float(np.finfo(float).max)
 
 
 class StopPhase(Exception):  # noqa: N818  (control flow, not an error)
@@ -46,6 +55,7 @@ class Objective:
         self.nfev = 0
         self.njev = 0
         self.non_finite = 0
+        self._in_a_row = 0
         self.best_theta: np.ndarray | None = None
         self.best_rss = np.inf
         self._fill = np.full(problem.n, np.sqrt(_HUGE_SUM_OF_SQUARES / problem.n))
@@ -55,8 +65,8 @@ class Objective:
         return self.njev >= self.max_jacobians or self.nfev >= self.max_values
 
     def _note(self, theta: np.ndarray, rw: np.ndarray) -> float:
-        rss = float(rw @ rw)
-        if rss < self.best_rss:
+        rss = sum_of_squares(rw)
+        if self.best_theta is None or rss < self.best_rss:
             self.best_rss, self.best_theta = rss, theta.copy()
         return rss
 
@@ -66,13 +76,15 @@ class Objective:
             raise StopPhase("iteration_limit")
         self.nfev += 1
         f = self.problem.values(theta)
-        if f is None:
+        rw = None if f is None else self.problem.sqrt_weights * (self.problem.y - f)
+        if rw is None or not np.isfinite(rw).all():
             self.non_finite += 1
+            self._in_a_row += 1
+            if self._in_a_row >= MAX_NON_FINITE_IN_A_ROW:
+                self._in_a_row = 0
+                raise StopPhase("non_finite_model")
             return None, np.inf
-        rw = self.problem.sqrt_weights * (self.problem.y - f)
-        if not np.isfinite(rw).all():
-            self.non_finite += 1
-            return None, np.inf
+        self._in_a_row = 0
         return rw, self._note(theta, rw)
 
     def linearize(self, theta: np.ndarray):

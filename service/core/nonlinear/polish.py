@@ -26,7 +26,7 @@ from typing import NamedTuple
 
 import numpy as np
 
-from service.core.nonlinear.objective import Objective, StopPhase
+from service.core.nonlinear.objective import Objective, StopPhase, sum_of_squares
 from service.core.nonlinear.tangent import (
     EPS,
     Tangent,
@@ -85,7 +85,7 @@ def assess(objective: Objective, theta, rw, jw, tolerance: float) -> Assessment:
             code = "relative_offset"
         elif proj <= floor:
             code = "small_gradient"
-    return Assessment(theta, rw, jw, float(rw @ rw), free, status, t, offset, cosine, slack,
+    return Assessment(theta, rw, jw, sum_of_squares(rw), free, status, t, offset, cosine, slack,
                       code)
 
 
@@ -103,7 +103,7 @@ def _small(step: np.ndarray, theta: np.ndarray) -> bool:
 
 
 def polish(objective: Objective, theta: np.ndarray, tolerance: float,
-           max_steps: int = 50) -> PolishEnd:
+           max_steps: int = 30) -> PolishEnd:
     """Gauss-Newton polish from ``theta`` until the check is met (see module docstring)."""
     current: Assessment | None = None
     try:

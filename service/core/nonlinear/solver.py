@@ -27,6 +27,7 @@ from typing import NamedTuple
 
 import numpy as np
 
+from service.core.errors import SpecError
 from service.core.nonlinear.objective import Objective
 from service.core.nonlinear.polish import CONVERGED, Assessment, PolishEnd, assess, polish
 from service.core.nonlinear.problem import check_start, make_problem
@@ -77,32 +78,50 @@ def solve(model, x, y, start, *, weights=None, lower=None, upper=None,
     """
     problem = make_problem(model, x, y, weights=weights, lower=lower, upper=upper)
     theta0, _, _ = check_start(problem, start)
-    if not (0 < tolerance < 1):
-        raise ValueError("tolerance must be in (0, 1)")
-    objective = Objective(problem, max(int(max_iterations), 1),
-                          VALUES_PER_ITERATION * max(int(max_iterations), 1))
+    if not 0 < tolerance < 1:
+        raise SpecError("the convergence tolerance must lie between 0 and 1",
+                        field="options.tolerance", fix="use e.g. 1e-8")
+    if int(max_iterations) < 1:
+        raise SpecError("the iteration budget must be at least 1",
+                        field="options.max_iterations", fix="use e.g. 2000")
+    objective = Objective(problem, int(max_iterations),
+                          VALUES_PER_ITERATION * int(max_iterations))
     attempts: list[Attempt] = []
     best: Outcome | None = None
     for strategy in strategies(problem.bounded, problem.n, problem.p):
         if objective.exhausted:
             break
         iterations, nfev = objective.njev, objective.nfev
-        phase = run_phase(objective, theta0, strategy)
-        end = polish(objective, phase.theta, tolerance)
-        code = end.code
-        if phase.reason != "stopped" and code not in CONVERGED:
-            code = phase.reason
-        outcome = _outcome(objective, phase.theta, end, code, tolerance)
-        attempts.append(Attempt(strategy.method, strategy.x_scale, code, outcome.rss,
+        outcome = _run(objective, theta0, strategy, tolerance)
+        attempts.append(Attempt(strategy.method, strategy.x_scale, outcome.code, outcome.rss,
                                 objective.njev - iterations, objective.nfev - nfev))
         if best is None or _better(outcome, best):
             best = outcome
-        if code in CONVERGED:
+        if outcome.code in CONVERGED:
             break
     if best is None:  # budget of zero phases: report the start values
         best = _outcome(objective, theta0, PolishEnd(None, "iteration_limit"),
                         "iteration_limit", tolerance)
     return build_solution(problem, theta0, best, objective, tuple(attempts))
+
+
+def _run(objective: Objective, theta0, strategy, tolerance) -> Outcome:
+    """A phase from the start values and its polish; if the polish made progress but did
+    not converge, one more phase of the same method from the polished point."""
+    theta, outcome = theta0, None
+    for _ in range(2):
+        phase = run_phase(objective, theta, strategy)
+        end = polish(objective, phase.theta, tolerance)
+        code = end.code
+        if phase.reason != "stopped" and code not in CONVERGED:
+            code = phase.reason
+        outcome = _outcome(objective, phase.theta, end, code, tolerance)
+        moved = outcome.assessment is not None and outcome.rss < phase.rss - \
+            outcome.assessment.slack
+        if code in CONVERGED or objective.exhausted or not moved:
+            break
+        theta = outcome.theta
+    return outcome
 
 
 class Outcome(NamedTuple):

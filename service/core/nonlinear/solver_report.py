@@ -4,11 +4,11 @@ from __future__ import annotations
 
 import numpy as np
 
-from service.core.nonlinear.objective import Objective
+from service.core.nonlinear.objective import Objective, sum_of_squares
 from service.core.nonlinear.polish import CONVERGED
 from service.core.nonlinear.problem import Problem
 from service.core.nonlinear.results import Attempt, Notice, Solution, frozen
-from service.core.nonlinear.tangent import null_directions
+from service.core.nonlinear.tangent import gauss_newton_step, null_directions
 
 RUNAWAY_FACTOR = 1e6  # |estimate| beyond this many times max(1, |start|): diverged
 ILL_CONDITIONED = 1e8  # condition number of the column-scaled weighted Jacobian
@@ -32,9 +32,15 @@ def _termination(problem: Problem, theta0, outcome, objective: Objective) -> tup
     if code not in CONVERGED and runaway.any():
         j = int(np.flatnonzero(runaway)[0])
         return "diverged", (
-            f"{names[j]} ran off to {outcome.theta[j]:.3g} (start {theta0[j]:.3g}): the sum of "
-            "squares keeps falling as it grows, so no finite estimate fits these data; check "
-            f"the model or bound {names[j]}")
+            f"{names[j]} ran off to {outcome.theta[j]:.3g} (start {theta0[j]:.3g}); no finite "
+            f"estimate was reached: check the model or bound {names[j]}")
+    if code in ("stalled", "iteration_limit") and a is not None:
+        j = _falls_without_bound(problem, a)
+        if j is not None:
+            return "diverged", (
+                f"the sum of squares keeps falling as {names[j]} moves on from "
+                f"{outcome.theta[j]:.6g} without bound (start {theta0[j]:.6g}), so no finite "
+                f"estimate fits these data: check the model or bound {names[j]}")
     if code not in CONVERGED and a is not None and not full_rank:
         code = "singular_jacobian"
     messages = {
@@ -60,6 +66,35 @@ def _termination(problem: Problem, theta0, outcome, objective: Objective) -> tup
                       "separately determined by these data (only a combination is); fitted "
                       "values may be fine but the estimates are not unique")
     return code, messages[code]
+
+
+def _falls_without_bound(problem: Problem, a) -> int | None:
+    """The parameter along which S never rises again, out to a million times its size.
+
+    The ray follows the Gauss-Newton direction, scaled so that its leading
+    parameter grows by factors 10 .. 1e6 (relative to ``max(1, |theta_j|)``).
+    A sum of squares that never rises beyond rounding along it means the
+    infimum lies at infinity (or on an endless plateau): the fit diverges.
+    """
+    step = np.zeros_like(a.theta)
+    step[a.free] = gauss_newton_step(a.tangent, a.rw)
+    size = np.abs(step) / np.maximum(1.0, np.abs(a.theta))
+    if not np.isfinite(size).all() or size.max() == 0:
+        return None
+    j = int(np.argmax(size))
+    rss = a.rss
+    for k in range(1, 7):
+        theta = a.theta + (10.0 ** k / size[j]) * step
+        if (theta < problem.lower).any() or (theta > problem.upper).any():
+            return None
+        f = problem.values(theta)
+        if f is None:
+            return None
+        new = sum_of_squares(problem.sqrt_weights * (problem.y - f))
+        if new > rss + a.slack:
+            return None
+        rss = min(rss, new)
+    return j
 
 
 def _notices(problem: Problem, outcome, objective: Objective, attempts) -> tuple[Notice, ...]:
