@@ -22,7 +22,7 @@ import numpy as np
 from service.core.errors import DataError, DesignError, SpecError
 from service.core.nonlinear.results import frozen
 
-_MODEL_FAILURES = (ArithmeticError, ValueError, TypeError, IndexError)
+MODEL_FAILURES = (ArithmeticError, ValueError, TypeError, IndexError)
 
 
 @dataclass(frozen=True, slots=True)
@@ -56,7 +56,7 @@ class Problem:
         try:
             with np.errstate(all="ignore"):
                 f = np.asarray(self.model.values(self.x, theta), dtype=float)
-        except _MODEL_FAILURES:
+        except MODEL_FAILURES:
             return None
         if f.shape != self.y.shape or not np.isfinite(f).all():
             return None
@@ -69,7 +69,7 @@ class Problem:
                 f, jac = self.model.values_and_jacobian(self.x, theta)
                 f = np.asarray(f, dtype=float)
                 jac = np.asarray(jac, dtype=float)
-        except _MODEL_FAILURES:
+        except MODEL_FAILURES:
             return None, None
         good_f = f.shape == self.y.shape and bool(np.isfinite(f).all())
         good_j = jac.shape == (self.n, self.p) and bool(np.isfinite(jac).all())
@@ -190,7 +190,7 @@ def _bad_columns(problem: Problem, theta: np.ndarray) -> list[str]:
     try:
         with np.errstate(all="ignore"):
             jac = np.asarray(problem.model.jacobian(problem.x, theta), dtype=float)
-    except _MODEL_FAILURES:
+    except MODEL_FAILURES:
         return []
     if jac.shape != (problem.n, problem.p):
         return []

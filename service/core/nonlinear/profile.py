@@ -28,6 +28,7 @@ from typing import NamedTuple
 
 import numpy as np
 
+from service.core.errors import SpecError
 from service.core.nonlinear.inference import check_options, covariance_scale, critical_value
 from service.core.nonlinear.profile_inner import Constrained, minimize_fixed
 from service.core.nonlinear.results import Notice, ProfileLimit, ProfileLimits, Solution
@@ -53,7 +54,8 @@ class _Side(NamedTuple):
 
 
 def profile_limits(solution: Solution, *, level: float = 0.95, weight_mode: str = "relative",
-                   max_se: float = 30.0, xtol: float = 1e-9) -> ProfileLimits:
+                   parameters: tuple[str, ...] | None = None, max_se: float = 30.0,
+                   xtol: float = 1e-9) -> ProfileLimits:
     """Profile-likelihood confidence limits of every parameter of a :class:`Solution`.
 
     Parameters
@@ -64,6 +66,8 @@ def profile_limits(solution: Solution, *, level: float = 0.95, weight_mode: str 
         Confidence level.
     weight_mode : {"relative", "known_sd"}
         As in :func:`~service.core.nonlinear.inference.infer`.
+    parameters : tuple of str, optional
+        Profile only these parameters (default: all), in the model's order.
     max_se : float
         How far (in Wald standard errors) each side is searched before it is
         declared unbounded.
@@ -81,8 +85,15 @@ def profile_limits(solution: Solution, *, level: float = 0.95, weight_mode: str 
     if np.isfinite(jw).all():
         cov = factor * unscaled_covariance(tangent(jw))
     reason = _why_not(solution, crit, scale, cov)
+    names = problem.parameter_names
+    unknown = sorted(set(parameters or ()) - set(names))
+    if unknown:
+        raise SpecError(f"no parameter named {', '.join(unknown)}", field="profile.parameters",
+                        fix=f"choose from {', '.join(names)}")
     limits = []
-    for j, name in enumerate(problem.parameter_names):
+    for j, name in enumerate(names):
+        if parameters is not None and name not in parameters:
+            continue
         est = float(solution.estimates[j])
         if reason:
             limits.append(ProfileLimit(name, est, np.nan, np.nan, "not_computed",
