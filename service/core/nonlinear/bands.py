@@ -39,6 +39,7 @@ def _grid(solution: Solution, x_new) -> np.ndarray:
     return xs
 
 
+@np.errstate(all="ignore")  # floating-point trouble is data here, never a warning
 def predict(solution: Solution, x_new, *, level: float = 0.95, weight_mode: str = "relative",
             replicates: int = 1, inference: Inference | None = None) -> Bands:
     """Fitted values and delta-method bands at ``x_new``.

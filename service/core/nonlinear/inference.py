@@ -72,6 +72,7 @@ def covariance_scale(solution: Solution, weight_mode: str) -> tuple[float, float
     return sigma, (1.0 if weight_mode == "known_sd" else sigma * sigma)
 
 
+@np.errstate(all="ignore")  # floating-point trouble is data here, never a warning
 def infer(solution: Solution, *, weight_mode: str = "relative", level: float = 0.95,
           alpha: float = 0.05) -> Inference:
     """Standard errors, tests, Wald limits and whole-fit measures of a :class:`Solution`.

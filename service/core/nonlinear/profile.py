@@ -53,6 +53,7 @@ class _Side(NamedTuple):
     refits: int
 
 
+@np.errstate(all="ignore")  # floating-point trouble is data here, never a warning
 def profile_limits(solution: Solution, *, level: float = 0.95, weight_mode: str = "relative",
                    parameters: tuple[str, ...] | None = None, max_se: float = 30.0,
                    xtol: float = 1e-9) -> ProfileLimits:

@@ -40,6 +40,7 @@ DEFAULT_MAX_ITERATIONS = 2000
 VALUES_PER_ITERATION = 20  # model-evaluation budget per Jacobian evaluation
 
 
+@np.errstate(all="ignore")  # floating-point trouble is data here, never a warning
 def solve(model, x, y, start, *, weights=None, lower=None, upper=None,
           max_iterations: int = DEFAULT_MAX_ITERATIONS,
           tolerance: float = DEFAULT_TOLERANCE) -> Solution:
