@@ -21,6 +21,7 @@ which predicts the next warm start.
 
 from __future__ import annotations
 
+import math
 from typing import NamedTuple
 
 import numpy as np
@@ -69,27 +70,27 @@ def minimize_fixed(problem: Problem, j: int, theta: np.ndarray, *, tolerance: fl
     if state is None:
         return None
     rw, jw, rss, f = state
-    sw = problem.sqrt_weights
-    rounding = 4.0 * EPS * sw * (np.abs(problem.y) + np.abs(f))
+    rounding = 4.0 * EPS * problem.sqrt_weights * (np.abs(problem.y) + np.abs(f))
     slack = float(2.0 * np.abs(rw) @ rounding + rounding @ rounding)
     others = np.flatnonzero(np.arange(problem.p) != j)
-    block = np.ix_(others, others)
+    bounded = problem.bounded
     lo, hi = problem.lower[others], problem.upper[others]
-    n, po = problem.n, others.size
+    po = others.size
+    df = problem.n - po
     theta = np.array(theta, dtype=float)
     damping, evaluations, converged, predicted = 0.0, 1, False, 0.0
     for _ in range(max_iterations):
-        full = jw.T @ jw
-        a = full[block]
+        jo = jw[:, others]
+        a = jo.T @ jo
         d = np.sqrt(a.diagonal())
         d[~(d > 0)] = 1.0
-        a_s = a / np.outer(d, d)
-        g_s = (jw.T @ rw)[others] / d
+        a_s = a / (d[:, None] * d)
+        g_s = (jo.T @ rw) / d
         gn = _spd_solve(a_s, g_s)
-        offset = np.inf
+        offset = math.inf
         if gn is not None:
             proj2 = max(float(g_s @ gn), 0.0)
-            offset = np.sqrt(proj2 / po) / np.sqrt(max(rss - proj2, 1e-300) / (n - po))
+            offset = math.sqrt(proj2 / po) / math.sqrt(max(rss - proj2, 1e-300) / df)
             if offset <= tolerance or proj2 <= slack:
                 converged, predicted = True, proj2
                 break
@@ -100,7 +101,8 @@ def minimize_fixed(problem: Problem, j: int, theta: np.ndarray, *, tolerance: fl
                 damping = max(4.0 * damping, 1e-3)
                 continue
             cand = theta.copy()
-            cand[others] = np.clip(theta[others] + step / d, lo, hi)
+            moved = theta[others] + step / d
+            cand[others] = np.minimum(np.maximum(moved, lo), hi) if bounded else moved
             new = _linearize(problem, cand)
             evaluations += 1
             if new is not None and (new[2] < rss or (damping == 0.0 and offset <= 1e-3
@@ -112,11 +114,11 @@ def minimize_fixed(problem: Problem, j: int, theta: np.ndarray, *, tolerance: fl
             damping = max(4.0 * damping, 1e-3)
         if not accepted:
             break
-    full = jw.T @ jw
+    jo, held = jw[:, others], jw[:, j]
     follow = np.zeros(problem.p)
     follow[j] = 1.0
-    path = _spd_solve(full[block], full[others, j])
+    path = _spd_solve(jo.T @ jo, jo.T @ held)
     if path is not None:
         follow[others] = -path
-    return Constrained(theta, rss - predicted, float(-2.0 * rw @ jw[:, j]), follow, converged,
+    return Constrained(theta, rss - predicted, float(-2.0 * rw @ held), follow, converged,
                        evaluations)
