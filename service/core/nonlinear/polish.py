@@ -136,22 +136,39 @@ def _line_search(objective: Objective, current: Assessment, step: np.ndarray,
     A trial point is accepted when its sum of squares is lower beyond rounding,
     or -- once the relative offset is below ``FLAT_OFFSET``, where the sum of
     squares is flat to first order -- when it is equal within rounding and the
-    relative offset (which float64 resolves) falls.
+    relative offset (which float64 resolves) falls. When the full step leaves
+    the box, the first trial only moves the parameter that would reach its bound
+    first onto it (the others' step assumed it free); once it sits exactly on
+    the bound the next check holds it there.
     """
     problem = objective.problem
+    target = current.theta + step
+    outside = (target < problem.lower) | (target > problem.upper)
+    trials = []
+    if outside.any():
+        bound = np.where(target < problem.lower, problem.lower, problem.upper)
+        with np.errstate(all="ignore"):
+            reach = np.where(outside, (bound - current.theta) / step, np.inf)
+        first = int(np.argmin(reach))
+        snap = current.theta.copy()
+        snap[first] = bound[first]
+        trials.append((snap, True))
     t = 1.0
     for _ in range(MAX_HALVINGS):
-        cand = np.clip(current.theta + t * step, problem.lower, problem.upper)
+        trials.append((np.clip(current.theta + t * step, problem.lower, problem.upper), False))
+        t *= 0.5
+    for cand, snapping in trials:
         if np.array_equal(cand, current.theta):
             return None
         _, rss = objective.residuals(cand)
-        flat = current.relative_offset <= FLAT_OFFSET and rss <= current.rss + current.slack
+        flat = (current.relative_offset <= FLAT_OFFSET or snapping) and \
+            rss <= current.rss + current.slack
         if rss < current.rss - current.slack or flat:
             rw, jw, _ = objective.linearize(cand)
             if rw is None:
                 return None
             nxt = assess(objective, cand, rw, jw, tolerance)
-            if not flat or nxt.code or nxt.relative_offset < current.relative_offset:
+            if not flat or snapping or nxt.code or \
+                    nxt.relative_offset < current.relative_offset:
                 return nxt
-        t *= 0.5
     return None

@@ -60,6 +60,14 @@ def _spd_solve(a: np.ndarray, b: np.ndarray) -> np.ndarray | None:
     return x if info == 0 else None
 
 
+def _not_held(problem: Problem, theta, free, jw, rw) -> np.ndarray:
+    """``free`` without the parameters on a bound whose gradient points out of the box."""
+    slope = jw[:, free].T @ rw  # > 0: increasing the parameter lowers S
+    held = ((theta[free] <= problem.lower[free]) & (slope <= 0)) | \
+        ((theta[free] >= problem.upper[free]) & (slope >= 0))
+    return free[~held]
+
+
 def minimize_fixed(problem: Problem, j: int, theta: np.ndarray, *, tolerance: float = 1e-4,
                    max_iterations: int = 60) -> Constrained | None:
     """Minimise the weighted RSS over every parameter but ``j`` (held at ``theta[j]``).
@@ -72,14 +80,19 @@ def minimize_fixed(problem: Problem, j: int, theta: np.ndarray, *, tolerance: fl
     rw, jw, rss, f = state
     rounding = 4.0 * EPS * problem.sqrt_weights * (np.abs(problem.y) + np.abs(f))
     slack = float(2.0 * np.abs(rw) @ rounding + rounding @ rounding)
-    others = np.flatnonzero(np.arange(problem.p) != j)
-    bounded = problem.bounded
-    lo, hi = problem.lower[others], problem.upper[others]
-    po = others.size
-    df = problem.n - po
+    free = np.flatnonzero(np.arange(problem.p) != j)
     theta = np.array(theta, dtype=float)
+    if free.size == 0:  # a one-parameter model: nothing to re-fit
+        return Constrained(theta, rss, float(-2.0 * rw @ jw[:, j]), np.ones(1), True, 1)
+    bounded = problem.bounded
     damping, evaluations, converged, predicted = 0.0, 1, False, 0.0
     for _ in range(max_iterations):
+        others = _not_held(problem, theta, free, jw, rw) if bounded else free
+        lo, hi = problem.lower[others], problem.upper[others]
+        po = others.size
+        if po == 0:
+            converged = True
+            break
         jo = jw[:, others]
         a = jo.T @ jo
         d = np.sqrt(a.diagonal())
@@ -90,7 +103,8 @@ def minimize_fixed(problem: Problem, j: int, theta: np.ndarray, *, tolerance: fl
         offset = math.inf
         if gn is not None:
             proj2 = max(float(g_s @ gn), 0.0)
-            offset = math.sqrt(proj2 / po) / math.sqrt(max(rss - proj2, 1e-300) / df)
+            offset = math.sqrt(proj2 / po) / math.sqrt(max(rss - proj2, 1e-300) /
+                                                        (problem.n - po))
             if offset <= tolerance or proj2 <= slack:
                 converged, predicted = True, proj2
                 break
@@ -114,10 +128,11 @@ def minimize_fixed(problem: Problem, j: int, theta: np.ndarray, *, tolerance: fl
             damping = max(4.0 * damping, 1e-3)
         if not accepted:
             break
+    others = _not_held(problem, theta, free, jw, rw) if bounded else free
     jo, held = jw[:, others], jw[:, j]
     follow = np.zeros(problem.p)
     follow[j] = 1.0
-    path = _spd_solve(jo.T @ jo, jo.T @ held)
+    path = _spd_solve(jo.T @ jo, jo.T @ held) if others.size else None
     if path is not None:
         follow[others] = -path
     return Constrained(theta, rss - predicted, float(-2.0 * rw @ held), follow, converged,

@@ -58,6 +58,9 @@ def _termination(problem: Problem, theta0, outcome, objective: Objective) -> tup
                    f"met (relative offset {offset:.2g}): a parameter may have (almost) no "
                    "effect here; try other start values",
     }
+    if code in CONVERGED and a is not None and not a.free.any():
+        return code, ("converged: every parameter is held at a bound (the sum of squares "
+                      "falls toward each of them)")
     if code == "singular_jacobian":
         involved = null_directions(a.tangent, tuple(s for s, f in zip(names, a.free,
                                                                      strict=True) if f))

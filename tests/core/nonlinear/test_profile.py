@@ -23,7 +23,13 @@ from service.core.errors import SpecError
 from service.core.nonlinear.inference import infer
 from service.core.nonlinear.profile import profile_limits
 from service.core.nonlinear.solver import solve
-from tests.core.nonlinear.models import Logistic4, MichaelisMenten, Quadratic, logistic_data
+from tests.core.nonlinear.models import (
+    ComplexStepModel,
+    Logistic4,
+    MichaelisMenten,
+    Quadratic,
+    logistic_data,
+)
 
 RTOL = 1e-6
 
@@ -97,6 +103,26 @@ def test_linear_model_profile_limits_are_the_t_limits():
     ref = sm.OLS(y, np.column_stack([np.ones_like(x), x, x ** 2])).fit().conf_int(0.05)
     limits = profile_limits(sol).limits
     np.testing.assert_allclose([[lim.lower, lim.upper] for lim in limits], ref, rtol=1e-8)
+
+
+def test_one_parameter_profile_is_the_sum_of_squares_itself():
+    # nothing to re-fit: the limits solve S(b) - S(est) = (t s)^2 directly (scipy brentq)
+    rng = np.random.default_rng(12)
+    x = np.linspace(0.0, 3.0, 12)
+    y = np.exp(-0.7 * x) + rng.normal(0.0, 0.05, x.size)
+    model = ComplexStepModel(lambda xx, b: np.exp(-b[0] * xx), ("rate",))
+    sol = solve(model, x, y, [1.0])
+    s2 = sol.rss / (x.size - 1)
+    crit = stats.t.ppf(0.975, x.size - 1)
+
+    def excess(b):
+        r = y - np.exp(-b * x)
+        return float(r @ r) - sol.rss - crit ** 2 * s2
+
+    est = sol.estimates[0]
+    (lim,) = profile_limits(sol).limits
+    assert lim.lower == pytest.approx(brentq(excess, est - 1.0, est, xtol=1e-14), rel=RTOL)
+    assert lim.upper == pytest.approx(brentq(excess, est, est + 1.0, xtol=1e-14), rel=RTOL)
 
 
 def _unsaturated_michaelis_menten():

@@ -97,11 +97,12 @@ def test_quadratic_equals_statsmodels(weighted):
                                rtol=1e-8)
 
 
-def test_active_upper_bound_matches_trust_region_reflective():
+@pytest.mark.parametrize("start", [[5.0, 1.0], [5.0, 1.5]])  # inside, and on the bound
+def test_active_upper_bound_matches_trust_region_reflective(start):
     x, y = _michaelis_menten(3)
     model = MichaelisMenten()
     upper = [np.inf, 1.5]  # below the unconstrained estimate of km (about 2)
-    sol = solve(model, x, y, [5.0, 1.0], upper=upper)
+    sol = solve(model, x, y, start, upper=upper)
     ref = least_squares(lambda t: model.values(x, t) - y, [5.0, 1.0],
                         jac=lambda t: model.jacobian(x, t), bounds=([-np.inf, -np.inf], upper),
                         method="trf", ftol=1e-15, xtol=1e-15, gtol=1e-15)
