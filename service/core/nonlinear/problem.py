@@ -174,9 +174,12 @@ def check_start(problem: Problem, start) -> tuple[np.ndarray, np.ndarray, np.nda
     f, jac = problem.values_and_jacobian(theta)
     shown = ", ".join(f"{s}={v:.6g}" for s, v in zip(names, theta, strict=True))
     if f is None:
-        raise SpecError(f"the model is not finite at the start values ({shown}) for some x",
+        hint = _single_changes(problem, theta)
+        raise SpecError(f"the model is not finite at the start values ({shown}) for some x"
+                        + (f"; changing {hint} alone makes it finite" if hint else ""),
                         field="model.parameters",
-                        fix="change the start values so the model is finite at every x")
+                        fix=f"change the start value of {hint}" if hint else
+                        "change the start values so the model is finite at every x")
     if jac is None:
         bad = _bad_columns(problem, theta)
         which = ", ".join(bad) if bad else ", ".join(names)
@@ -184,6 +187,26 @@ def check_start(problem: Problem, start) -> tuple[np.ndarray, np.ndarray, np.nda
                         f"the start values ({shown})", field="model.parameters",
                         fix=f"change the start value of {which}")
     return theta, f, jac
+
+
+def _single_changes(problem: Problem, theta: np.ndarray) -> str:
+    """Which single start values, changed alone, make the model finite (with an example).
+
+    Tries a few plain alternatives per parameter (its negative, half, double,
+    1 and 0.1, inside the bounds); returns e.g. ``"rate (e.g. rate=1)"`` or "".
+    """
+    found = []
+    for j, name in enumerate(problem.parameter_names):
+        for value in (-theta[j], 0.5 * theta[j], 2.0 * theta[j], 1.0, 0.1):
+            if value == theta[j] or not problem.lower[j] <= value <= problem.upper[j]:
+                continue
+            trial = theta.copy()
+            trial[j] = value
+            f, jac = problem.values_and_jacobian(trial)
+            if f is not None and jac is not None:
+                found.append(f"{name} (e.g. {name}={value:.6g})")
+                break
+    return " or ".join(found)
 
 
 def _bad_columns(problem: Problem, theta: np.ndarray) -> list[str]:

@@ -38,6 +38,7 @@ def test_model_not_finite_at_start_names_the_parameters_field():
         solve(model, X, np.log(X), [1.0, -1.0])
     assert err.value.field == "model.parameters"
     assert "scale=1" in err.value.message and "rate=-1" in err.value.message
+    assert "changing rate (e.g. rate=1) alone" in err.value.message
 
 
 def test_jacobian_not_finite_at_start_names_the_parameter():
