@@ -9,7 +9,12 @@ their statistical uncertainty. Two further stops acknowledge float64 limits:
 ``small_gradient`` when ``||Q1' r||`` is at the rounding level of the data
 (exact or near-exact fits, where the relative offset is noise over noise), and
 ``small_step`` when the Gauss-Newton correction no longer changes the
-estimates beyond rounding.
+estimates beyond rounding, or when, with the relative offset already below
+``FLAT_OFFSET``, no trial point lowers either the sum of squares beyond its
+rounding or the relative offset (float64 cannot confirm any further step).
+Failing all that, ``stalled`` (no acceptable step), ``singular_jacobian``
+(rank-deficient tangent plane) or ``iteration_limit`` tell the solver to try
+another method.
 
 The polish takes Gauss-Newton steps (minimum-norm, from the SVD of the
 column-scaled weighted Jacobian) with step halving. Close to a minimum the sum
