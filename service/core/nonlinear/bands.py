@@ -58,6 +58,20 @@ def predict(solution: Solution, x_new, *, level: float = 0.95, weight_mode: str 
         ``m``: the observation band is for the mean of ``m`` new observations.
     inference : Inference, optional
         Reuse its covariance (must use the same ``weight_mode``).
+
+    Returns
+    -------
+    Bands
+        Fit, standard error and both bands per new x, with ``extrapolated``
+        flags; NaN (and a notice) where the model is not finite.
+
+    Raises
+    ------
+    DataError
+        New x that are not finite numbers shaped like the data's x rows
+        (field ``"grid.x"``).
+    SpecError
+        Bad ``weight_mode``, ``level`` or ``replicates``.
     """
     check_options(weight_mode, level)
     if int(replicates) != replicates or replicates < 1:

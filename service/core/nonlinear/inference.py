@@ -87,6 +87,17 @@ def infer(solution: Solution, *, weight_mode: str = "relative", level: float = 0
         Confidence level of the Wald limits.
     alpha : float
         Level of the chi-square goodness-of-fit test (known-SD mode).
+
+    Returns
+    -------
+    Inference
+        Parameter rows, covariance and correlation, whole-fit measures and
+        notices (rank deficiency, non-convergence, no residual df).
+
+    Raises
+    ------
+    SpecError
+        Unknown ``weight_mode`` or ``level`` outside (0, 1).
     """
     check_options(weight_mode, level)
     problem = solution.problem

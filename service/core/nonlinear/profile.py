@@ -74,6 +74,18 @@ def profile_limits(solution: Solution, *, level: float = 0.95, weight_mode: str 
         declared unbounded.
     xtol : float
         Limits are located to ``xtol`` Wald standard errors.
+
+    Returns
+    -------
+    ProfileLimits
+        One row per profiled parameter with a status per side, and a
+        ``profile_unbounded`` notice per parameter with an unbounded side.
+
+    Raises
+    ------
+    SpecError
+        Unknown ``weight_mode``, ``level`` outside (0, 1), or an unknown name
+        in ``parameters`` (field ``"profile.parameters"``).
     """
     check_options(weight_mode, level)
     problem = solution.problem
