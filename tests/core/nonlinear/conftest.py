@@ -1,29 +1,34 @@
-"""Access to the stored NIST StRD nonlinear files (read at run time, never copied)."""
+"""Nonlinear test helpers: the stored NIST StRD nonlinear files (read at run time through
+the one reference-folder helper, never copied) and the min-LRE table printed at the end."""
 
 from __future__ import annotations
 
 import json
-import os
-from pathlib import Path
 
 import pytest
 
-NONLINEAR_DIR = (Path(__file__).resolve().parents[3] / ".." / "shared" / "reference"
-                 / "nist-strd-nonlinear")
+from tests.conftest import reference_file
+
+# (dataset, start) -> (min LRE of estimates, of standard errors, LRE of the RSS, note)
+NIST_NONLINEAR_LRE: dict[tuple[str, str], tuple[float, float, float, str]] = {}
 
 
 @pytest.fixture
 def nist_nonlinear():
-    """Loader of ``../shared/reference/nist-strd-nonlinear/<name>.json``.
-
-    Skips when the folder is absent, unless CURVEWISE_REQUIRE_REFERENCE=1 (then fails).
-    """
-    if not NONLINEAR_DIR.is_dir():
-        reason = f"reference folder {NONLINEAR_DIR} is absent"
-        if os.environ.get("CURVEWISE_REQUIRE_REFERENCE") == "1":
-            pytest.fail(reason)
-        pytest.skip(reason)
+    """Loader of ``<reference folder>/nist-strd-nonlinear/<name>.json`` (skips when absent,
+    fails under CURVEWISE_REQUIRE_REFERENCE=1)."""
 
     def load(name: str) -> dict:
-        return json.loads((NONLINEAR_DIR / f"{name}.json").read_text())
+        return json.loads(reference_file(f"nist-strd-nonlinear/{name}.json").read_text())
     return load
+
+
+def pytest_terminal_summary(terminalreporter):
+    if not NIST_NONLINEAR_LRE:
+        return
+    terminalreporter.write_sep("-", "NIST StRD nonlinear: minimum LRE per dataset and start")
+    terminalreporter.write_line(f"{'dataset':10s} {'start':7s} {'estimates':>9s} "
+                                f"{'std.err':>8s} {'RSS':>6s}")
+    for (name, start), (est, se, rss, note) in sorted(NIST_NONLINEAR_LRE.items()):
+        terminalreporter.write_line(f"{name:10s} {start:7s} {est:9.2f} {se:8.2f} {rss:6.2f} "
+                                    f"{note}")

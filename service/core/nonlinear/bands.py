@@ -1,0 +1,126 @@
+"""Predictions with delta-method bands at new x (:func:`predict`).
+
+With ``g`` the model's gradient with respect to the parameters at a new x and
+``C`` the parameter covariance (:mod:`~service.core.nonlinear.inference`),
+``se_fit = sqrt(g' C g)`` (the delta method, i.e. the tangent-plane
+approximation). The band for the mean of ``m`` new observations adds their
+variance ``factor / m``: new observations are taken at unit weight, so their
+variance is ``sigma^2`` in the relative weight mode and 1 in the known-SD
+mode. Quantiles are Student t on the residual df (normal in the known-SD
+mode). ``extrapolated`` marks points outside the data's range (any
+predictor column).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from service.core.errors import DataError, SpecError
+from service.core.nonlinear.inference import check_options, covariance_scale, critical_value
+from service.core.nonlinear.problem import MODEL_FAILURES
+from service.core.nonlinear.results import Bands, Inference, Notice, Solution, frozen
+from service.core.nonlinear.tangent import tangent, unscaled_covariance
+
+
+def _grid(solution: Solution, x_new) -> np.ndarray:
+    try:
+        xs = np.array(x_new, dtype=float)
+    except (TypeError, ValueError) as exc:
+        raise DataError("the new x must be numbers", field="grid.x",
+                        fix="send the new x as numbers") from exc
+    x = solution.problem.x
+    if xs.ndim != x.ndim or xs.shape[1:] != x.shape[1:]:
+        raise DataError(f"the new x must have the shape of the data's x rows {x.shape[1:]}",
+                        field="grid.x", fix="send one x (row) per prediction")
+    if not np.isfinite(xs).all():
+        bad = int(np.flatnonzero(~np.isfinite(xs.reshape(xs.shape[0], -1)).all(axis=1))[0])
+        raise DataError(f"the new x at {bad} is not a finite number", field=f"grid.x[{bad}]",
+                        fix="send finite numbers")
+    return xs
+
+
+@np.errstate(all="ignore")  # floating-point trouble is data here, never a warning
+def predict(solution: Solution, x_new, *, level: float = 0.95, weight_mode: str = "relative",
+            replicates: int = 1, inference: Inference | None = None) -> Bands:
+    """Fitted values and delta-method bands at ``x_new``.
+
+    Parameters
+    ----------
+    solution : Solution
+        The fit.
+    x_new : array_like
+        New predictor values, shaped like the data's ``x`` (rows first).
+    level : float
+        Confidence level of both bands.
+    weight_mode : {"relative", "known_sd"}
+        As in :func:`~service.core.nonlinear.inference.infer`.
+    replicates : int
+        ``m``: the observation band is for the mean of ``m`` new observations.
+    inference : Inference, optional
+        Reuse its covariance (must use the same ``weight_mode``).
+
+    Returns
+    -------
+    Bands
+        Fit, standard error and both bands per new x, with ``extrapolated``
+        flags; NaN (and a notice) where the model is not finite.
+
+    Raises
+    ------
+    DataError
+        New x that are not finite numbers shaped like the data's x rows
+        (field ``"grid.x"``).
+    SpecError
+        Bad ``weight_mode``, ``level`` or ``replicates``.
+    """
+    check_options(weight_mode, level)
+    if int(replicates) != replicates or replicates < 1:
+        raise SpecError(f"replicates = {replicates!r} is not a positive whole number",
+                        field="replicates", fix="use 1 for a single new observation")
+    xs = _grid(solution, x_new)
+    problem = solution.problem
+    k = xs.shape[0]
+    notices: list[Notice] = []
+    _, factor = covariance_scale(solution, weight_mode)
+    if inference is not None and inference.weight_mode == weight_mode:
+        cov = inference.covariance
+    else:
+        jw = problem.sqrt_weights[:, None] * solution.jacobian
+        cov = factor * unscaled_covariance(tangent(jw)) if np.isfinite(jw).all() \
+            else np.full((problem.p, problem.p), np.nan)
+    fit, grad = _evaluate(problem.model, xs, solution.estimates, k, problem.p)
+    bad = ~(np.isfinite(fit) & np.isfinite(grad).all(axis=1))
+    if bad.any():
+        notices.append(Notice("non_finite_prediction", f"the model is not finite at {bad.sum()} "
+                              "of the new x; those predictions are missing"))
+        fit[bad], grad[bad] = np.nan, np.nan
+    if not np.isfinite(cov).all():
+        notices.append(Notice("no_covariance", "no parameter covariance (rank-deficient "
+                              "Jacobian or no residual df): bands are missing"))
+    with np.errstate(all="ignore"):
+        se_fit = np.sqrt(np.maximum(np.einsum("ij,jk,ik->i", grad, cov, grad), 0.0))
+        se_obs = np.sqrt(se_fit ** 2 + factor / replicates)
+    crit = critical_value(weight_mode, problem.n - problem.p, level)
+    x = problem.x.reshape(problem.n, -1)
+    flat = xs.reshape(k, -1)
+    extrapolated = ((flat < x.min(axis=0)) | (flat > x.max(axis=0))).any(axis=1)
+    xs.setflags(write=False)
+    return Bands(x=xs, fit=frozen(fit), se_fit=frozen(se_fit),
+                 mean_lower=frozen(fit - crit * se_fit), mean_upper=frozen(fit + crit * se_fit),
+                 obs_lower=frozen(fit - crit * se_obs), obs_upper=frozen(fit + crit * se_obs),
+                 extrapolated=frozen(extrapolated, dtype=bool), level=level,
+                 critical_value=crit, replicates=int(replicates), notices=tuple(notices))
+
+
+def _evaluate(model, xs, theta, k: int, p: int) -> tuple[np.ndarray, np.ndarray]:
+    """Model values and gradients at new x; NaN where they cannot be computed."""
+    try:
+        with np.errstate(all="ignore"):
+            fit, grad = model.values_and_jacobian(xs, theta)
+            fit = np.array(fit, dtype=float)
+            grad = np.array(grad, dtype=float)
+    except MODEL_FAILURES:
+        return np.full(k, np.nan), np.full((k, p), np.nan)
+    if fit.shape != (k,) or grad.shape != (k, p):
+        return np.full(k, np.nan), np.full((k, p), np.nan)
+    return fit, grad
