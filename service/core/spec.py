@@ -12,6 +12,7 @@ from dataclasses import dataclass, field
 SELECT_METHODS = ("sequential_f", "aic", "aicc", "bic", "press", "adj_r2")
 TRANSFORMS = ("none", "log", "log10", "sqrt", "reciprocal")
 MISSING_POLICIES = ("error", "drop")
+WEIGHTINGS = ("relative", "known_sd")
 SECTIONS = ("coefficients", "anova", "statistics", "selection", "diagnostics", "grid",
             "fitted_model")
 HARD_MAX_DEGREE = 12  # absolute ceiling of the core; the service limit may be lower
@@ -19,12 +20,14 @@ HARD_MAX_DEGREE = 12  # absolute ceiling of the core; the service limit may be l
 
 @dataclass(frozen=True, slots=True)
 class ModelSpec:
-    """A polynomial model family request.
+    """A model request: the family and its options.
 
     Parameters
     ----------
     family : str
-        Only ``"polynomial"`` today.
+        A family of :data:`service.core.families.FAMILIES` (``"polynomial"``,
+        ``"expression"``). The polynomial options follow; the nonlinear ones
+        (``expression``, ``parameters``, ``lower``, ``upper``) come last.
     degree : int or None
         Fixed degree. Mutually exclusive with ``max_degree``.
     max_degree : int or None
@@ -39,6 +42,12 @@ class ModelSpec:
         One of :data:`TRANSFORMS`, applied before fitting.
     min_degree : int
         Smallest candidate degree when selecting (default 1).
+    expression : str or None
+        The model equation in ``x`` and named parameters (``"expression"`` family).
+    parameters : tuple of (name, start value) pairs, or None
+        The parameters, in order, with their start values.
+    lower, upper : tuple of (name, bound) pairs, or None
+        Optional bounds on some parameters.
     """
 
     family: str = "polynomial"
@@ -50,6 +59,10 @@ class ModelSpec:
     transform_x: str = "none"
     transform_y: str = "none"
     min_degree: int = 1
+    expression: str | None = None
+    parameters: tuple[tuple[str, float], ...] | None = None
+    lower: tuple[tuple[str, float], ...] | None = None
+    upper: tuple[tuple[str, float], ...] | None = None
 
     @property
     def selects(self) -> bool:
@@ -90,6 +103,11 @@ class FitOptions:
         Sections of :data:`SECTIONS` to compute. Diagnostics are the costly one.
     max_grid_points : int
         Refuse grids larger than this (``SpecError``).
+    weighting : str
+        ``"relative"`` (default): weights are relative inverse variances and
+        sigma is estimated from the residuals. ``"known_sd"``: weights are
+        ``1/SD²`` of a known measurement error; sigma is not rescaled and a
+        chi-square goodness-of-fit test is reported.
     """
 
     level: float = 0.95
@@ -97,3 +115,4 @@ class FitOptions:
     grid: GridSpec | None = field(default_factory=GridSpec)
     include: frozenset[str] = frozenset(SECTIONS)
     max_grid_points: int = 100_000
+    weighting: str = "relative"

@@ -79,8 +79,6 @@ def predict(solution: Solution, x_new, *, level: float = 0.95, weight_mode: str 
                         field="replicates", fix="use 1 for a single new observation")
     xs = _grid(solution, x_new)
     problem = solution.problem
-    k = xs.shape[0]
-    notices: list[Notice] = []
     _, factor = covariance_scale(solution, weight_mode)
     if inference is not None and inference.weight_mode == weight_mode:
         cov = inference.covariance
@@ -88,7 +86,37 @@ def predict(solution: Solution, x_new, *, level: float = 0.95, weight_mode: str 
         jw = problem.sqrt_weights[:, None] * solution.jacobian
         cov = factor * unscaled_covariance(tangent(jw)) if np.isfinite(jw).all() \
             else np.full((problem.p, problem.p), np.nan)
-    fit, grad = _evaluate(problem.model, xs, solution.estimates, k, problem.p)
+    crit = critical_value(weight_mode, problem.n - problem.p, level)
+    return band_values(problem.model, xs, solution.estimates, cov, factor, crit, level,
+                       int(replicates), problem.x)
+
+
+def band_values(model, xs: np.ndarray, theta: np.ndarray, cov: np.ndarray, factor: float,
+                crit: float, level: float, replicates: int, x_data: np.ndarray) -> Bands:
+    """Fit, standard error and both bands at ``xs`` from estimates and their covariance.
+
+    Parameters
+    ----------
+    model : object
+        Has ``values_and_jacobian(x, theta)``.
+    xs : ndarray
+        New x, shaped like the data's rows.
+    theta, cov : ndarray
+        Estimates and their covariance.
+    factor : float
+        Variance of one new observation at unit weight (``sigma²``, or 1 with known SDs).
+    crit : float
+        Two-sided critical value of both bands.
+    level : float
+        Their confidence level (recorded).
+    replicates : int
+        ``m``: the observation band is for the mean of ``m`` new observations.
+    x_data : ndarray
+        The fitted data's x (``extrapolated`` marks new x outside its range).
+    """
+    k, p = xs.shape[0], theta.size
+    notices: list[Notice] = []
+    fit, grad = _evaluate(model, xs, theta, k, p)
     bad = ~(np.isfinite(fit) & np.isfinite(grad).all(axis=1))
     if bad.any():
         notices.append(Notice("non_finite_prediction", f"the model is not finite at {bad.sum()} "
@@ -100,8 +128,7 @@ def predict(solution: Solution, x_new, *, level: float = 0.95, weight_mode: str 
     with np.errstate(all="ignore"):
         se_fit = np.sqrt(np.maximum(np.einsum("ij,jk,ik->i", grad, cov, grad), 0.0))
         se_obs = np.sqrt(se_fit ** 2 + factor / replicates)
-    crit = critical_value(weight_mode, problem.n - problem.p, level)
-    x = problem.x.reshape(problem.n, -1)
+    x = x_data.reshape(x_data.shape[0], -1)
     flat = xs.reshape(k, -1)
     extrapolated = ((flat < x.min(axis=0)) | (flat > x.max(axis=0))).any(axis=1)
     xs.setflags(write=False)
