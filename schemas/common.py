@@ -11,7 +11,8 @@ from marshmallow import RAISE, Schema, fields
 
 from schemas.fields import StrictFloat, StrictInteger, StrictString
 
-FAMILIES = ("polynomial",)
+FAMILIES = ("polynomial", "expression")
+WEIGHTINGS = ("relative", "known_sd")
 SELECT_METHODS = ("sequential_f", "aic", "aicc", "bic", "press", "adj_r2")
 TRANSFORMS = ("none", "log", "log10", "sqrt", "reciprocal")
 MISSING_POLICIES = ("error", "drop")

@@ -5,10 +5,7 @@ from __future__ import annotations
 from marshmallow import Schema, fields, missing
 
 from schemas.common import integer, number, text
-from schemas.fit import ModelSchema
-
-MODEL_SCHEMAS = {"polynomial": ModelSchema}
-"""Each family's model-object schema, by family name (GET /v1/families lists its options)."""
+from schemas.model_field import MODEL_SCHEMAS  # noqa: F401  (re-exported)
 
 
 class OptionSchema(Schema):

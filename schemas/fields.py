@@ -15,7 +15,7 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from marshmallow import ValidationError, fields
+from marshmallow import ValidationError, fields, validate
 
 _NUMBER_TYPES = (float, int)
 
@@ -220,3 +220,9 @@ def _json_kind(item) -> str:
     if isinstance(item, dict):
         return "an object"
     return type(item).__name__
+
+
+def choice(choices, description: str, **kwargs) -> StrictString:
+    """A string from a fixed vocabulary, documented as an enum."""
+    return StrictString(validate=validate.OneOf(choices, error=one_of_message(choices)),
+                        metadata={"description": description, "enum": list(choices)}, **kwargs)

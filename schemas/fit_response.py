@@ -26,10 +26,14 @@ class FittedModelSummarySchema(Schema):
     """The model that was fitted."""
 
     family = text("Model family.", required=True)
-    degree = integer("Degree of the fitted polynomial (chosen or fixed).", required=True)
-    intercept = StrictBoolean(required=True, metadata={"description": "Constant term present."})
+    degree = integer("Degree of the fitted polynomial (chosen or fixed). Polynomials only.")
+    intercept = StrictBoolean(metadata={"description": "Constant term present. Polynomials "
+                                                      "only."})
     terms = fields.List(fields.String(), required=True, metadata={
-        "description": "Term names in order: intercept, x, x^2, ..."})
+        "description": "Term names in order: intercept, x, x^2, ... for polynomials; the "
+                       "parameter names for nonlinear families."})
+    expression = text("The fitted equation in canonical form (expression family).")
+    weighting = text("How the weights were read: relative or known_sd (nonlinear families).")
     transform_x = text("Transform applied to x before fitting.")
     transform_y = text("Transform applied to y before fitting.")
 
@@ -44,6 +48,13 @@ class CoefficientSchema(Schema):
     p_value = number("Two-sided p-value of t on df_residual degrees of freedom.", required=True)
     lower = number("Lower confidence limit at the requested level.", required=True)
     upper = number("Upper confidence limit at the requested level.", required=True)
+    profile_lower = number("Lower profile-likelihood limit (nonlinear families; null when the "
+                           "profile never reaches the critical value on that side).")
+    profile_upper = number("Upper profile-likelihood limit (nonlinear families; null when "
+                           "unbounded).")
+    profile_lower_status = text("found, unbounded (the data do not bound the parameter on "
+                                "that side) or not_computed (see warnings).")
+    profile_upper_status = text("found, unbounded or not_computed.")
 
 
 class AnovaRowSchema(Schema):
@@ -115,7 +126,8 @@ class SelectionSchema(Schema):
 class TestResultSchema(Schema):
     """A formal assumption test on the residuals."""
 
-    name = text("shapiro_wilk, breusch_pagan, durbin_watson, ...", required=True)
+    name = text("shapiro_wilk, breusch_pagan, durbin_watson; chi_square_fit with known_sd "
+                "weighting.", required=True)
     statistic = number("Test statistic.")
     p_value = number("p-value (null where the test has none).")
     df = fields.List(fields.Float(allow_nan=True, allow_none=True), allow_none=True, metadata={
@@ -167,11 +179,37 @@ class GridValuesSchema(Schema):
     mean_upper = _array("Upper confidence limit of the mean.")
     obs_lower = _array("Lower prediction limit for one new observation.")
     obs_upper = _array("Upper prediction limit for one new observation.")
-    band_lower = _array("Lower simultaneous (Working-Hotelling) band for the whole curve.")
-    band_upper = _array("Upper simultaneous (Working-Hotelling) band for the whole curve.")
+    band_lower = _array("Lower simultaneous band for the whole curve (Working-Hotelling for "
+                        "polynomials; sqrt(p F(p, df)) times the delta-method error for "
+                        "nonlinear families).")
+    band_upper = _array("Upper simultaneous band for the whole curve.")
     extrapolated = fields.List(fields.Boolean(), metadata={
         "description": "True where the grid point lies outside the fitted x range."})
     level = number("Confidence level of the limits.")
+
+
+class FitInfoSchema(Schema):
+    """How a nonlinear fit was started, how it converged and why it stopped."""
+
+    started_from = text("given: the start values in model.parameters.", required=True)
+    start = fields.List(fields.Float(), metadata={"description": "The start values used."})
+    method = text("The trust-region method of the last solver phase and its scaling.")
+    iterations = integer("Jacobian evaluations over every solver phase.")
+    function_evaluations = integer("Model evaluations.")
+    jacobian_evaluations = integer("Jacobian evaluations.")
+    termination = text("Why it stopped: relative_offset, small_gradient or small_step "
+                       "(converged); iteration_limit, non_finite_model, singular_jacobian, "
+                       "diverged or stalled (not converged).", required=True)
+    message = text("The reason in words.")
+    converged = StrictBoolean(required=True, metadata={"description": "Converged by the Bates & "
+                                                                      "Watts criterion."})
+    relative_offset = number("Bates & Watts relative-offset criterion at the end (small: "
+                             "converged).")
+    gradient_norm = number("Largest cosine between the residuals and a Jacobian column.")
+    bound_status = fields.List(fields.String(), metadata={
+        "description": "free, lower or upper per parameter (on a bound you set)."})
+    jacobian_rank = integer("Rank of the weighted, column-scaled Jacobian at the estimates.")
+    condition_number = number("Its condition number.")
 
 
 class FitResponseSchema(Schema):
@@ -182,11 +220,19 @@ class FitResponseSchema(Schema):
     n_input = integer("Points sent (before dropping missing values).")
     dropped = _indices("Original positions of pairs dropped as missing (missing=drop).")
     coefficients = fields.List(fields.Nested(CoefficientSchema), metadata={
-        "description": "Coefficients in the raw x scale: intercept, x, x^2, ..."})
+        "description": "Coefficients in the raw x scale: intercept, x, x^2, ... (polynomials), "
+                       "or the parameters by name with Wald and profile limits (nonlinear)."})
     anova = fields.List(fields.Nested(AnovaRowSchema), metadata={
-        "description": "Sequential ANOVA, in the order terms enter; residual last."})
+        "description": "Sequential ANOVA, in the order terms enter; residual last. "
+                       "Polynomials only."})
     statistics = fields.Nested(StatisticsSchema)
-    selection = fields.Nested(SelectionSchema)
+    selection = fields.Nested(SelectionSchema, metadata={"description": "Polynomials only."})
+    fit_info = fields.Nested(FitInfoSchema, metadata={
+        "description": "Nonlinear families: start, convergence and why the solver stopped."})
+    correlation = fields.List(fields.List(fields.Float(allow_nan=False, allow_none=True)),
+                              metadata={"description": "Nonlinear families: correlation "
+                                                       "matrix of the parameter estimates, "
+                                                       "rows and columns in coefficient order."})
     diagnostics = fields.Nested(DiagnosticsSchema)
     grid = fields.Nested(GridValuesSchema, allow_none=True, metadata={
         "description": "Curve and bands on the grid; null when grid was null."})

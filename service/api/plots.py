@@ -59,6 +59,10 @@ def plot(body):
                         f"(limit {limit}).", field="x", code="limit_exceeded",
                         fix="Fit the full series with /v1/fit and plot a sample of it"
                             + (", or ask for png." if options.format == "svg" else "."))
+    if body["model"]["family"] != "polynomial":
+        raise SpecError(f"Figures of {body['model']['family']} fits are not drawn yet.",
+                        field="model.family", fix="Fit with /v1/fit and draw its grid section, "
+                        "or plot a polynomial fit.")
     fit_body = {**body, "include": sorted(_NEEDED)}
     report = fit_series(body["x"], body["y"], body["weights"], model=model_spec(body["model"]),
                         options=fit_options(fit_body, settings))

@@ -17,8 +17,10 @@ from dataclasses import dataclass
 from types import MappingProxyType
 from typing import Any
 
-from service.core.errors import SpecError
+from service.core.errors import DocumentError, SpecError
 from service.core.models import calibration, document, inverse
+from service.core.nonlinear import family as expression_family
+from service.core.nonlinear.report import FittedCurve
 from service.core.polynomial import bands as polynomial_bands
 from service.core.polynomial import fit as polynomial_fit
 from service.core.polynomial.spec_check import check_spec as polynomial_spec
@@ -42,9 +44,10 @@ class Family:
         ``check_spec(model, options)``: raises ``SpecError`` naming the field.
     predict : callable
         ``predict(fitted, x, *, level=None, m=1) -> Prediction``.
-    write_document, read_document : callable
+    write_document, read_document : callable or None
         ``write_document(fitted) -> dict`` and
-        ``read_document(doc, *, field_prefix="") -> fitted``.
+        ``read_document(doc, *, field_prefix="") -> fitted``; None while the
+        family has no portable document.
     invert : callable or None
         ``invert(fitted, y, *, replicates=1, level=None)``; None when the
         family cannot be read backwards.
@@ -63,8 +66,8 @@ class Family:
     fit: Callable[..., FitReport]
     check_spec: Callable[[ModelSpec, FitOptions], Any]
     predict: Callable[..., Prediction]
-    write_document: Callable[[Any], dict]
-    read_document: Callable[..., Any]
+    write_document: Callable[[Any], dict] | None
+    read_document: Callable[..., Any] | None
     invert: Callable[..., Any] | None = None
     sensitivity: Callable[..., Any] | None = None
     figures_of_merit: Callable[..., Any] | None = None
@@ -83,7 +86,16 @@ POLYNOMIAL = Family(
     sensitivity=calibration.sensitivity, figures_of_merit=calibration.figures_of_merit,
     compiled_batch=True, select_methods=SELECT_METHODS, transforms=TRANSFORMS)
 
-FAMILIES: Mapping[str, Family] = MappingProxyType({f.name: f for f in (POLYNOMIAL,)})
+EXPRESSION = Family(
+    name="expression",
+    description="The caller's own equation in x and named parameters (a plain arithmetic "
+                "expression), fitted by nonlinear least squares from given start values.",
+    fitted_type=FittedCurve, fit=expression_family.fit_series,
+    check_spec=expression_family.check_spec, predict=expression_family.predict,
+    write_document=None, read_document=None)
+
+FAMILIES: Mapping[str, Family] = MappingProxyType(
+    {f.name: f for f in (POLYNOMIAL, EXPRESSION)})
 """Every family by name, in the order ``/v1/families`` lists them."""
 
 
@@ -127,5 +139,10 @@ def read_document(doc: Any, *, field_prefix: str = "") -> Any:
     """
     name = doc.get("family") if isinstance(doc, Mapping) else None
     entry = FAMILIES.get(name) if isinstance(name, str) else None
+    if entry is not None and entry.read_document is None:
+        raise DocumentError(f"Documents of the {name} family cannot be read yet.",
+                            field=f"{field_prefix}family",
+                            fix="Send a document of a family that GET /v1/families lists "
+                                "with a portable document.")
     reader = (entry or next(iter(FAMILIES.values()))).read_document
     return reader(doc, field_prefix=field_prefix)

@@ -63,6 +63,11 @@ CATALOGUE: dict[str, ProblemKind] = {kind.code: kind for kind in (
     ProblemKind("invalid_spec", 422, "Inconsistent model or options",
                 "The model and the options do not make sense together.",
                 "Follow the fix given in detail."),
+    ProblemKind("invalid_expression", 422, "Model equation not accepted",
+                "model.expression is not a plain arithmetic expression in x and the declared "
+                "parameters, or is over a size limit; detail gives the column.",
+                "Use numbers, + - * /, ^ for powers, parentheses and exp, log, log10, sqrt, sin, "
+                "cos, tan, arctan, abs, pi; declare every parameter in model.parameters."),
     ProblemKind("invalid_document", 422, "Invalid fitted-model document",
                 "A fitted-model document is malformed, of an unknown version, or fails its "
                 "checksum.", "Send the document back exactly as /v1/fit returned it."),

@@ -10,6 +10,7 @@ from __future__ import annotations
 from dataclasses import fields
 
 from service.core.families import family_of
+from service.core.nonlinear.report import NonlinearReport
 from service.core.results import FitReport, Prediction
 
 ALWAYS = ("model", "n", "n_input", "dropped", "warnings", "flags")
@@ -28,8 +29,10 @@ def plain(obj) -> dict:
     return {name: getattr(obj, name) for name in _names(obj)}
 
 
-def fit_response(report: FitReport, include) -> dict:
+def fit_response(report: FitReport | NonlinearReport, include) -> dict:
     """The response for one fit, with the sections in ``include`` (an iterable of names)."""
+    if isinstance(report, NonlinearReport):
+        return nonlinear_response(report, include)
     fitted = report.model
     stats = report.statistics
     body = {
@@ -87,3 +90,31 @@ def diagnostics_section(diagnostics) -> dict:
     for key in ("outliers", "high_leverage", "influential"):
         out[key] = list(out[key])
     return out
+
+
+def nonlinear_response(report: NonlinearReport, include) -> dict:
+    """The response for a nonlinear family's fit: parameters by name, with profile limits,
+    how the fit converged (``fit_info``) and the parameter correlations; no sequential
+    ANOVA and no degree selection."""
+    fitted = report.model
+    body = {
+        "model": {"family": fitted.family, "expression": fitted.expression,
+                  "terms": list(fitted.parameter_names), "weighting": fitted.weighting},
+        "n": report.statistics.n,
+        "n_input": report.n_input,
+        "dropped": list(report.dropped),
+    }
+    wanted = set(include)
+    if "coefficients" in wanted:
+        body["coefficients"] = [plain(c) for c in report.coefficients]
+        body["correlation"] = report.correlation
+    if "statistics" in wanted:
+        body["statistics"] = plain(report.statistics)
+    body["fit_info"] = plain(report.fit_info)
+    if "diagnostics" in wanted and report.diagnostics is not None:
+        body["diagnostics"] = diagnostics_section(report.diagnostics)
+    if "grid" in wanted:
+        body["grid"] = None if report.grid is None else prediction_section(report.grid)
+    body["warnings"] = [plain(w) for w in report.warnings]
+    body["flags"] = [plain(f) for f in report.flags]
+    return body

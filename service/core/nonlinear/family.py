@@ -1,0 +1,200 @@
+"""The ``expression`` family: the caller's own model equation, fitted by nonlinear least squares.
+
+One call runs the whole analysis: check the spec, clean the data, compile the
+equation (:mod:`~service.core.nonlinear.expression`), solve from the given
+start values (:mod:`~service.core.nonlinear.solver`), tangent-plane inference
+and profile-likelihood limits, predictions with bands on the grid, the shared
+residual diagnostics (:mod:`service.core.checks`) and the trust flags.
+"""
+
+from __future__ import annotations
+
+from dataclasses import replace
+from functools import lru_cache
+
+import numpy as np
+from scipy import special
+
+from service.core.checks.diagnostics import residual_diagnostics
+from service.core.checks.flags import trust_flags
+from service.core.checks.lack_of_fit import distinct_count
+from service.core.data.grid import grid_points
+from service.core.data.inputs import check_options, clean_data
+from service.core.errors import DesignError, SpecError
+from service.core.nonlinear.bands import band_values
+from service.core.nonlinear.expression import compile_model
+from service.core.nonlinear.flags import nonlinear_flags
+from service.core.nonlinear.inference import infer
+from service.core.nonlinear.profile import profile_limits
+from service.core.nonlinear.report import FitInfo, FittedCurve, NonlinearReport, ParameterRow
+from service.core.nonlinear.solver import solve
+from service.core.results import FitStatistics, Notice, Prediction, TestResult
+from service.core.spec import WEIGHTINGS, FitOptions, ModelSpec
+
+NAN = float("nan")
+EXACT_RTOL = 1e-13     # an RSS below (1e-13)² of the weighted sum of y² is rounding noise
+GOF_ALPHA = 0.05       # the chi-square goodness-of-fit test (known SDs), common practice
+
+
+def check_spec(model: ModelSpec, options: FitOptions) -> None:
+    """Validate an ``expression`` model and the options (``SpecError`` naming the field)."""
+    if not isinstance(model.expression, str) or not model.expression.strip():
+        raise SpecError("The expression family needs the model equation.",
+                        field="model.expression",
+                        fix='Send model.expression, e.g. "b1*(1-exp(-b2*x))".')
+    if not model.parameters:
+        raise SpecError("The expression family needs its parameters with start values.",
+                        field="model.parameters",
+                        fix='Send model.parameters, e.g. {"b1": 250, "b2": 0.0005}.')
+    if options.weighting not in WEIGHTINGS:
+        raise SpecError(f"Unknown weighting {options.weighting!r}.", field="weighting",
+                        fix=f"Use one of {', '.join(WEIGHTINGS)}.")
+    check_options(options)
+    compiled(model.expression, tuple(name for name, _ in model.parameters))
+
+
+@lru_cache(maxsize=256)
+def compiled(expression: str, names: tuple[str, ...]):
+    """The compiled equation (cached: a pipeline fits the same equation many times)."""
+    return compile_model(expression, names)
+
+
+def fit_series(x, y, weights=None, *, model: ModelSpec, options: FitOptions) -> NonlinearReport:
+    """Fit the caller's equation to one series and analyse it.
+
+    Raises
+    ------
+    DataError, DesignError, SpecError
+        Each names the offending field and how to fix it (an equation that is not
+        finite at the start values names ``model.parameters``).
+    """
+    with np.errstate(all="ignore"):
+        return _fit(x, y, weights, model, options)
+
+
+def _fit(x, y, weights, model: ModelSpec, options: FitOptions) -> NonlinearReport:
+    check_spec(model, options)
+    names = tuple(name for name, _ in model.parameters)
+    equation = compiled(model.expression, names)
+    data = clean_data(x, y, weights, options.missing)
+    n, p = data.x.size, len(names)
+    if n < p:
+        raise DesignError(f"{n} points cannot determine {p} parameters.", field="x",
+                          fix=f"Send at least {p} points (5 per parameter is common practice).")
+    start = np.array([value for _, value in model.parameters], dtype=float)
+    solution = solve(equation, data.x, data.y, start, weights=data.w,
+                     lower=_bounds(model.lower, names, -np.inf, "model.lower"),
+                     upper=_bounds(model.upper, names, np.inf, "model.upper"))
+    mode, level = options.weighting, float(options.level)
+    inference = infer(solution, weight_mode=mode, level=level, alpha=GOF_ALPHA)
+    profile = profile_limits(solution, level=level, weight_mode=mode)
+    rows = tuple(ParameterRow(r.name, r.estimate, r.std_error, r.statistic, r.p_value, r.lower,
+                              r.upper, pl.lower, pl.upper, pl.lower_status, pl.upper_status)
+                 for r, pl in zip(inference.parameters, profile.limits, strict=True))
+    x_lo, x_hi = float(data.x.min()), float(data.x.max())
+    fitted = FittedCurve("expression", equation.text, names, solution.estimates,
+                         inference.covariance, inference.sigma, inference.covariance_scale,
+                         inference.df_residual, n, x_lo, x_hi, data.w is not None, mode,
+                         inference.distribution, level, equation)
+    grid = None
+    if options.grid is not None:
+        grid = predict(fitted, grid_points(options.grid, x_lo, x_hi, options.max_grid_points))
+    sqrt_w = None if data.w is None else np.sqrt(data.w)
+    zw = data.y if sqrt_w is None else sqrt_w * data.y
+    exact = solution.rss <= (EXACT_RTOL ** 2) * float(zw @ zw)
+    distinct = data.distinct if data.distinct is not None else distinct_count(data.x)
+    diagnostics = residual_diagnostics(
+        data.index, data.x, np.array(solution.weighted_residuals), inference.leverage, zw,
+        sqrt_w, p, solution.rss, exact, distinct, data.x[:, None], "x")
+    gof = _goodness_of_fit(inference)
+    if gof is not None:
+        diagnostics = replace(diagnostics, tests=diagnostics.tests + (gof,))
+    info = _fit_info(solution, start)
+    flags = nonlinear_flags(info, rows, inference.correlation, gof, GOF_ALPHA)
+    flags.extend(trust_flags(n=n, p=p, exact=exact, condition=NAN, diagnostics=diagnostics,
+                             grid=grid))
+    notices = _notices(solution.notices, inference.notices, profile.notices)
+    return NonlinearReport(fitted, data.n_input, tuple(data.dropped), rows,
+                           inference.correlation, _statistics(inference, n, p), info,
+                           diagnostics, grid, tuple(flags), notices)
+
+
+def predict(fitted: FittedCurve, x, *, level: float | None = None, m: int = 1) -> Prediction:
+    """Fitted values with mean, new-observation and simultaneous bands at ``x``.
+
+    The delta method (tangent plane) around the estimates; the simultaneous band
+    uses ``sqrt(p F(p, df))`` (``sqrt(chi²_p)`` with known SDs) in place of the
+    pointwise critical value.
+    """
+    level = fitted.level if level is None else float(level)
+    if not 0.0 < level < 1.0:
+        raise SpecError(f"level = {level!r} is not between 0 and 1.", field="level",
+                        fix="Use a confidence level such as 0.95.")
+    xs = np.array(x, dtype=float).reshape(-1)
+    p, df = len(fitted.parameter_names), fitted.df_residual
+    if fitted.distribution == "normal":
+        crit = float(special.ndtri(0.5 + 0.5 * level))
+        wide = float(np.sqrt(special.chdtri(p, 1.0 - level)))
+    else:
+        crit = float(special.stdtrit(df, 0.5 + 0.5 * level)) if df > 0 else NAN
+        wide = float(np.sqrt(p * special.fdtri(p, df, level))) if df > 0 else NAN
+    with np.errstate(all="ignore"):
+        bands = band_values(fitted.model, xs, fitted.estimates, fitted.covariance,
+                            fitted.noise_variance, crit, level, int(m),
+                            np.array([fitted.x_min, fitted.x_max]))
+        spread = wide * bands.se_fit
+    return Prediction(bands.x, bands.fit, bands.se_fit, bands.mean_lower, bands.mean_upper,
+                      bands.obs_lower, bands.obs_upper, _frozen(bands.fit - spread),
+                      _frozen(bands.fit + spread), bands.extrapolated, level)
+
+
+def _frozen(values: np.ndarray) -> np.ndarray:
+    values.setflags(write=False)
+    return values
+
+
+def _bounds(given, names: tuple[str, ...], default: float, field: str) -> np.ndarray:
+    out = np.full(len(names), default)
+    for name, value in given or ():
+        if name not in names:
+            raise SpecError(f"{field} names {name!r}, which is not a parameter.",
+                            field=f"{field}.{name}",
+                            fix=f"Use parameter names from {', '.join(names)}.")
+        out[names.index(name)] = value
+    return out
+
+
+def _goodness_of_fit(inference) -> TestResult | None:
+    gof = inference.goodness_of_fit
+    if gof is None:
+        return None
+    return TestResult("chi_square_fit", gof.statistic, gof.p_value, (float(gof.df),),
+                      "weighted RSS against chi-square(n - p): with known SDs it should "
+                      "be about n - p")
+
+
+def _fit_info(solution, start: np.ndarray) -> FitInfo:
+    last = solution.attempts[-1] if solution.attempts else None
+    method = "none" if last is None else f"{last.method} ({last.x_scale} scaling)"
+    return FitInfo("given", tuple(start.tolist()), method, solution.iterations, solution.nfev,
+                   solution.njev, solution.termination, solution.message, solution.converged,
+                   solution.relative_offset, solution.gradient_norm, solution.bound_status,
+                   solution.rank, solution.condition_number)
+
+
+def _statistics(inf, n: int, p: int) -> FitStatistics:
+    df = inf.df_residual
+    adj = 1.0 - (1.0 - inf.r_squared) * (n - 1) / df if df > 0 else NAN
+    return FitStatistics(n, p, p - 1, df, inf.rss, inf.tss, True, inf.r_squared, adj,
+                         inf.sigma, NAN, NAN, inf.log_likelihood, inf.aic, inf.aicc, inf.bic,
+                         NAN, NAN, inf.condition_number)
+
+
+def _notices(*groups) -> tuple[Notice, ...]:
+    seen, out = set(), []
+    for group in groups:
+        for notice in group:
+            if notice.code not in seen:
+                seen.add(notice.code)
+                out.append(Notice(notice.code, notice.message))
+    return tuple(out)
