@@ -44,7 +44,7 @@ def test_no_retired_name_in_the_contract_or_in_answers(client):
     pred = client.post("/v1/predict", json={"fitted_model": doc, "x": [2.0]})
     assert pred.status_code == 200
     answered |= _keys(pred.get_json(), set())
-    for old, new in RETIRED.items():
+    for old in RETIRED:
         assert old not in documented and old not in answered, old
     # the new names are really there (so this test would see a regression)
     assert {"sum_of_squares", "mean_square", "press_r_squared"} <= answered
