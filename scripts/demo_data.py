@@ -6,6 +6,7 @@ curve, noise level and fixed seed, so anyone can regenerate it::
     python scripts/demo_data.py greenhouse          # a /v1/fit request body
     python scripts/demo_data.py nitrate             # a /v1/fit request body
     python scripts/demo_data.py soil --probes 20    # a /v1/batch request body
+    python scripts/demo_data.py enzyme              # a /v1/fit body with the user's equation
     python scripts/demo_data.py greenhouse --degree 2 --include coefficients,statistics
 
 The output is strict JSON on stdout.
@@ -83,9 +84,29 @@ def soil(probes: int = 20, seed: int = SEED) -> dict:
                                         "select": "bic"}, "detail": "summary"}
 
 
+def enzyme(seed: int = SEED) -> dict:
+    """Initial rates of an invented enzyme at eight substrate concentrations, in duplicate.
+
+    Stated curve: rate = 12.0 S / (2.5 + S) (umol/min/mg; S in mM, 0.25 to 32 mM in
+    doublings), noise sd 0.25. Saturation kinetics written as the caller's own
+    equation (the expression family), with rough start values.
+    """
+    rng = np.random.default_rng(seed)
+    s = np.repeat(0.25 * 2.0 ** np.arange(8), 2)
+    rate = 12.0 * s / (2.5 + s) + rng.normal(0.0, 0.25, s.size)
+    return {
+        "x": s.tolist(),
+        "y": np.round(rate, 3).tolist(),
+        "model": {"family": "expression", "expression": "vmax*x/(km + x)",
+                  "parameters": {"vmax": 10, "km": 1}},
+        "grid": {"count": 100},
+        "level": 0.95,
+    }
+
+
 def main(argv: list[str] | None = None) -> int:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    parser.add_argument("scenario", choices=("greenhouse", "nitrate", "soil"))
+    parser.add_argument("scenario", choices=("greenhouse", "nitrate", "soil", "enzyme"))
     parser.add_argument("--probes", type=int, default=20, help="soil: number of probes")
     parser.add_argument("--seed", type=int, default=SEED)
     parser.add_argument("--degree", type=int, help="fix the degree instead of selecting it")
@@ -95,7 +116,8 @@ def main(argv: list[str] | None = None) -> int:
     if args.scenario == "soil":
         body = soil(args.probes, args.seed)
     else:
-        body = {"greenhouse": greenhouse, "nitrate": nitrate}[args.scenario](args.seed)
+        body = {"greenhouse": greenhouse, "nitrate": nitrate,
+                "enzyme": enzyme}[args.scenario](args.seed)
     if args.degree is not None:
         body["model"] = {"family": "polynomial", "degree": args.degree}
     if args.include:
