@@ -19,7 +19,8 @@ from typing import Any
 
 from service.core.errors import DocumentError, SpecError
 from service.core.models import calibration, document, inverse
-from service.core.nonlinear import family as expression_family
+from service.core.nonlinear import analysis as nonlinear_analysis
+from service.core.nonlinear import expression_family
 from service.core.nonlinear.report import FittedCurve
 from service.core.polynomial import bands as polynomial_bands
 from service.core.polynomial import fit as polynomial_fit
@@ -91,7 +92,7 @@ EXPRESSION = Family(
     description="The caller's own equation in x and named parameters (a plain arithmetic "
                 "expression), fitted by nonlinear least squares from given start values.",
     fitted_type=FittedCurve, fit=expression_family.fit_series,
-    check_spec=expression_family.check_spec, predict=expression_family.predict,
+    check_spec=expression_family.check_spec, predict=nonlinear_analysis.predict,
     write_document=None, read_document=None)
 
 FAMILIES: Mapping[str, Family] = MappingProxyType(

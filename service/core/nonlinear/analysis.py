@@ -1,16 +1,15 @@
-"""The ``expression`` family: the caller's own model equation, fitted by nonlinear least squares.
+"""The analysis every nonlinear family shares: from a model and start values to the report.
 
-One call runs the whole analysis: check the spec, clean the data, compile the
-equation (:mod:`~service.core.nonlinear.expression`), solve from the given
-start values (:mod:`~service.core.nonlinear.solver`), tangent-plane inference
-and profile-likelihood limits, predictions with bands on the grid, the shared
-residual diagnostics (:mod:`service.core.checks`) and the trust flags.
+Solve (:mod:`~service.core.nonlinear.solver`), tangent-plane inference and
+profile-likelihood limits, predictions with bands on the grid, the shared
+residual diagnostics (:mod:`service.core.checks`; Breusch-Pagan against x),
+the chi-square goodness-of-fit test with known SDs, and the trust flags.
+A family supplies the model, its parameter names and start values.
 """
 
 from __future__ import annotations
 
 from dataclasses import replace
-from functools import lru_cache
 
 import numpy as np
 from scipy import special
@@ -19,72 +18,66 @@ from service.core.checks.diagnostics import residual_diagnostics
 from service.core.checks.flags import trust_flags
 from service.core.checks.lack_of_fit import distinct_count
 from service.core.data.grid import grid_points
-from service.core.data.inputs import check_options, clean_data
+from service.core.data.inputs import clean_data
 from service.core.errors import DesignError, SpecError
 from service.core.nonlinear.bands import band_values
-from service.core.nonlinear.expression import compile_model
 from service.core.nonlinear.flags import nonlinear_flags
 from service.core.nonlinear.inference import infer
 from service.core.nonlinear.profile import profile_limits
 from service.core.nonlinear.report import FitInfo, FittedCurve, NonlinearReport, ParameterRow
 from service.core.nonlinear.solver import solve
 from service.core.results import FitStatistics, Notice, Prediction, TestResult
-from service.core.spec import WEIGHTINGS, FitOptions, ModelSpec
+from service.core.spec import FitOptions
 
 NAN = float("nan")
 EXACT_RTOL = 1e-13     # an RSS below (1e-13)² of the weighted sum of y² is rounding noise
 GOF_ALPHA = 0.05       # the chi-square goodness-of-fit test (known SDs), common practice
 
 
-def check_spec(model: ModelSpec, options: FitOptions) -> None:
-    """Validate an ``expression`` model and the options (``SpecError`` naming the field)."""
-    if not isinstance(model.expression, str) or not model.expression.strip():
-        raise SpecError("The expression family needs the model equation.",
-                        field="model.expression",
-                        fix='Send model.expression, e.g. "b1*(1-exp(-b2*x))".')
-    if not model.parameters:
-        raise SpecError("The expression family needs its parameters with start values.",
-                        field="model.parameters",
-                        fix='Send model.parameters, e.g. {"b1": 250, "b2": 0.0005}.')
-    if options.weighting not in WEIGHTINGS:
-        raise SpecError(f"Unknown weighting {options.weighting!r}.", field="weighting",
-                        fix=f"Use one of {', '.join(WEIGHTINGS)}.")
-    check_options(options)
-    compiled(model.expression, tuple(name for name, _ in model.parameters))
+def analyse(equation, names: tuple[str, ...], family: str, expression: str, x, y, weights,
+            start, *, lower=None, upper=None, options: FitOptions,
+            started_from: str = "given") -> NonlinearReport:
+    """The whole analysis of one series for any nonlinear family.
 
-
-@lru_cache(maxsize=256)
-def compiled(expression: str, names: tuple[str, ...]):
-    """The compiled equation (cached: a pipeline fits the same equation many times)."""
-    return compile_model(expression, names)
-
-
-def fit_series(x, y, weights=None, *, model: ModelSpec, options: FitOptions) -> NonlinearReport:
-    """Fit the caller's equation to one series and analyse it.
+    Parameters
+    ----------
+    equation : object
+        The model: ``values_and_jacobian(x, theta)`` with exact derivatives.
+    names : tuple of str
+        Parameter names, in the order of ``start``.
+    family, expression : str
+        The family's name and the equation's canonical text (for the report).
+    x, y, weights : array_like
+        The caller's series (cleaned here with ``options.missing``).
+    start : array_like
+        Start values; ``lower``/``upper`` optional bounds (arrays, +-inf for none).
+    options : FitOptions
+        Level, weighting, grid and missing-value policy.
+    started_from : str
+        How ``start`` was chosen, for ``fit_info``.
 
     Raises
     ------
     DataError, DesignError, SpecError
-        Each names the offending field and how to fix it (an equation that is not
-        finite at the start values names ``model.parameters``).
+        Each names the offending field and how to fix it.
     """
     with np.errstate(all="ignore"):
-        return _fit(x, y, weights, model, options)
+        data = clean_data(x, y, weights, options.missing)
+        n, p = data.x.size, len(names)
+        if n < p:
+            raise DesignError(f"{n} points cannot determine {p} parameters.", field="x",
+                              fix=f"Send at least {p} points (5 per parameter is common "
+                                  "practice).")
+        start = np.asarray(start, dtype=float)
+        solution = solve(equation, data.x, data.y, start, weights=data.w, lower=lower,
+                         upper=upper)
+        return _report(solution, data, equation, names, family, expression, start, options,
+                       started_from)
 
 
-def _fit(x, y, weights, model: ModelSpec, options: FitOptions) -> NonlinearReport:
-    check_spec(model, options)
-    names = tuple(name for name, _ in model.parameters)
-    equation = compiled(model.expression, names)
-    data = clean_data(x, y, weights, options.missing)
+def _report(solution, data, equation, names, family, expression, start, options,
+            started_from) -> NonlinearReport:
     n, p = data.x.size, len(names)
-    if n < p:
-        raise DesignError(f"{n} points cannot determine {p} parameters.", field="x",
-                          fix=f"Send at least {p} points (5 per parameter is common practice).")
-    start = np.array([value for _, value in model.parameters], dtype=float)
-    solution = solve(equation, data.x, data.y, start, weights=data.w,
-                     lower=_bounds(model.lower, names, -np.inf, "model.lower"),
-                     upper=_bounds(model.upper, names, np.inf, "model.upper"))
     mode, level = options.weighting, float(options.level)
     inference = infer(solution, weight_mode=mode, level=level, alpha=GOF_ALPHA)
     profile = profile_limits(solution, level=level, weight_mode=mode)
@@ -92,7 +85,7 @@ def _fit(x, y, weights, model: ModelSpec, options: FitOptions) -> NonlinearRepor
                               r.upper, pl.lower, pl.upper, pl.lower_status, pl.upper_status)
                  for r, pl in zip(inference.parameters, profile.limits, strict=True))
     x_lo, x_hi = float(data.x.min()), float(data.x.max())
-    fitted = FittedCurve("expression", equation.text, names, solution.estimates,
+    fitted = FittedCurve(family, expression, names, solution.estimates,
                          inference.covariance, inference.sigma, inference.covariance_scale,
                          inference.df_residual, n, x_lo, x_hi, data.w is not None, mode,
                          inference.distribution, level, equation)
@@ -109,7 +102,7 @@ def _fit(x, y, weights, model: ModelSpec, options: FitOptions) -> NonlinearRepor
     gof = _goodness_of_fit(inference)
     if gof is not None:
         diagnostics = replace(diagnostics, tests=diagnostics.tests + (gof,))
-    info = _fit_info(solution, start)
+    info = _fit_info(solution, start, started_from)
     flags = nonlinear_flags(info, rows, inference.correlation, gof, GOF_ALPHA)
     flags.extend(trust_flags(n=n, p=p, exact=exact, condition=NAN, diagnostics=diagnostics,
                              grid=grid))
@@ -117,6 +110,8 @@ def _fit(x, y, weights, model: ModelSpec, options: FitOptions) -> NonlinearRepor
     return NonlinearReport(fitted, data.n_input, tuple(data.dropped), rows,
                            inference.correlation, _statistics(inference, n, p), info,
                            diagnostics, grid, tuple(flags), notices)
+
+
 
 
 def predict(fitted: FittedCurve, x, *, level: float | None = None, m: int = 1) -> Prediction:
@@ -153,17 +148,6 @@ def _frozen(values: np.ndarray) -> np.ndarray:
     return values
 
 
-def _bounds(given, names: tuple[str, ...], default: float, field: str) -> np.ndarray:
-    out = np.full(len(names), default)
-    for name, value in given or ():
-        if name not in names:
-            raise SpecError(f"{field} names {name!r}, which is not a parameter.",
-                            field=f"{field}.{name}",
-                            fix=f"Use parameter names from {', '.join(names)}.")
-        out[names.index(name)] = value
-    return out
-
-
 def _goodness_of_fit(inference) -> TestResult | None:
     gof = inference.goodness_of_fit
     if gof is None:
@@ -173,10 +157,10 @@ def _goodness_of_fit(inference) -> TestResult | None:
                       "be about n - p")
 
 
-def _fit_info(solution, start: np.ndarray) -> FitInfo:
+def _fit_info(solution, start: np.ndarray, started_from: str) -> FitInfo:
     last = solution.attempts[-1] if solution.attempts else None
     method = "none" if last is None else f"{last.method} ({last.x_scale} scaling)"
-    return FitInfo("given", tuple(start.tolist()), method, solution.iterations, solution.nfev,
+    return FitInfo(started_from, tuple(start.tolist()), method, solution.iterations, solution.nfev,
                    solution.njev, solution.termination, solution.message, solution.converged,
                    solution.relative_offset, solution.gradient_norm, solution.bound_status,
                    solution.rank, solution.condition_number)
