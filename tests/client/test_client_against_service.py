@@ -109,8 +109,9 @@ def test_plot_through_the_client_decodes_at_the_asked_size(api, pontius):
 
 def test_families_lists_the_polynomial_family_and_limits(api):
     families = api.families()
-    assert [f.name for f in families.families] == ["polynomial"]
-    (polynomial,) = families.families
+    names = [f.name for f in families.families]
+    assert names[0] == "polynomial" and "expression" in names     # the registry's order
+    polynomial = families.families[0]
     assert "sequential_f" in polynomial.select_methods
     select = [o for o in polynomial.options if o.name == "select"][0]
     assert "bic" in select.choices
@@ -119,3 +120,24 @@ def test_families_lists_the_polynomial_family_and_limits(api):
 
 def test_health_answers(api):
     assert api.health()["status"] == "ok"
+
+
+def test_the_users_own_equation_comes_back_typed(api):
+    # Oracle: scipy.optimize.curve_fit on the same seeded data (estimates to 1e-6).
+    from scipy.optimize import curve_fit
+
+    rng = np.random.default_rng(11)
+    x = np.repeat([0.25, 0.5, 1, 2, 4, 8, 16, 32], 2).astype(float)
+    y = 12 * x / (2.5 + x) + rng.normal(0, 0.25, x.size)
+    fit = api.fit(x.tolist(), y.tolist(), model={
+        "family": "expression", "expression": "vmax*x/(km + x)",
+        "parameters": {"vmax": 10, "km": 1}})
+    popt, _ = curve_fit(lambda s, v, k: v * s / (k + s), x, y, p0=[10, 1], xtol=1e-14,
+                        ftol=1e-14)
+    assert [c.term for c in fit.coefficients] == ["vmax", "km"]
+    np.testing.assert_allclose([c.estimate for c in fit.coefficients], popt, rtol=1e-6)
+    km = fit.coefficients[1]
+    assert km.profile_lower < km.estimate < km.profile_upper
+    assert km.profile_lower_status == km.profile_upper_status == "found"
+    assert fit.fit_info.converged and fit.fit_info.started_from == "given"
+    assert fit.model.expression == "vmax*x/(km + x)" and len(fit.correlation) == 2

@@ -15,6 +15,7 @@ from curvewise_client.results.fit import (  # noqa: F401
     Candidate,
     Coefficient,
     Diagnostics,
+    FitInfo,
     FitResult,
     Grid,
     ModelInfo,

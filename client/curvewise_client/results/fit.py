@@ -19,11 +19,14 @@ class ModelInfo:
     terms: tuple[str, ...] = ()
     transform_x: str | None = None
     transform_y: str | None = None
+    expression: str | None = None
+    weighting: str | None = None
 
 
 @dataclass(frozen=True, slots=True)
 class Coefficient:
-    """One coefficient in the raw x scale, with its confidence limits."""
+    """One coefficient in the raw x scale (or a nonlinear parameter by name), with its
+    confidence limits; nonlinear fits add profile-likelihood limits and their status."""
 
     term: str
     estimate: float | None = None
@@ -32,6 +35,30 @@ class Coefficient:
     p_value: float | None = None
     lower: float | None = None
     upper: float | None = None
+    profile_lower: float | None = None
+    profile_upper: float | None = None
+    profile_lower_status: str | None = None
+    profile_upper_status: str | None = None
+
+
+@dataclass(frozen=True, slots=True)
+class FitInfo:
+    """How a nonlinear fit was started, how it converged and why it stopped."""
+
+    started_from: str | None = None
+    start: tuple[float, ...] = ()
+    method: str | None = None
+    iterations: int | None = None
+    function_evaluations: int | None = None
+    jacobian_evaluations: int | None = None
+    termination: str | None = None
+    message: str = ""
+    converged: bool | None = None
+    relative_offset: float | None = None
+    gradient_norm: float | None = None
+    bound_status: tuple[str, ...] = ()
+    jacobian_rank: int | None = None
+    condition_number: float | None = None
 
 
 @dataclass(frozen=True, slots=True)
@@ -181,6 +208,8 @@ class FitResult:
     anova: tuple[AnovaRow, ...] = ()
     statistics: Statistics | None = None
     selection: Selection | None = None
+    fit_info: FitInfo | None = None
+    correlation: tuple[tuple[float | None, ...], ...] = ()
     diagnostics: Diagnostics | None = None
     grid: Grid | None = None
     warnings: tuple[Notice, ...] = ()
@@ -200,6 +229,6 @@ class FitResult:
 register(FitResult, model=of(ModelInfo), coefficients=items(of(Coefficient)),
          anova=items(of(AnovaRow)), statistics=of(Statistics), selection=of(Selection),
          grid=of(Grid), diagnostics=of(Diagnostics), warnings=items(of(Notice)),
-         flags=items(of(TrustFlag)))
+         flags=items(of(TrustFlag)), fit_info=of(FitInfo))
 register(Selection, candidates=items(of(Candidate)))
 register(Diagnostics, tests=items(of(TestResult)))
