@@ -7,15 +7,19 @@ otherwise; each family documents its own model object (``MODEL_SCHEMAS``), and
 
 from __future__ import annotations
 
-from marshmallow import Schema, ValidationError, fields
+from marshmallow import Schema, ValidationError, fields, validate
 
+from schemas.common import StrictSchema
 from schemas.expression import ExpressionModelSchema
-from schemas.fields import one_of_message
+from schemas.fields import StrictFloat, choice, one_of_message
 from schemas.polynomial import ModelSchema
 
 MODEL_SCHEMAS: dict[str, type[Schema]] = {"polynomial": ModelSchema,
                                           "expression": ExpressionModelSchema}
 """Each family's model-object schema, by family name."""
+
+COMPARE_RULES = ("aicc", "aic", "bic", "f_test")
+MAX_CANDIDATES = 8
 
 
 def component_name(schema: type[Schema]) -> str:
@@ -24,19 +28,52 @@ def component_name(schema: type[Schema]) -> str:
 
 
 class ModelField(fields.Field):
-    """A model object, loaded by the schema its ``family`` names (default: polynomial)."""
+    """A model object, loaded by the schema its ``family`` names (default: polynomial);
+    with ``candidates`` (and ``comparisons`` allowed), a comparison of several."""
 
-    def __init__(self, **kwargs):
+    def __init__(self, *, comparisons: bool = True, **kwargs):
         metadata = dict(kwargs.pop("metadata", {}))
+        refs = list(MODEL_SCHEMAS.values()) + ([CandidatesSchema] if comparisons else [])
         metadata["oneOf"] = [{"$ref": f"#/components/schemas/{component_name(s)}"}
-                             for s in MODEL_SCHEMAS.values()]
+                             for s in refs]
+        self.comparisons = comparisons
         super().__init__(metadata=metadata, **kwargs)
 
     def _deserialize(self, value, attr, data, **kwargs):
         if not isinstance(value, dict):
             raise ValidationError("Must be a JSON object.")
+        if "candidates" in value:
+            if not self.comparisons:
+                raise ValidationError({"candidates": ["A candidate cannot hold candidates. "
+                                                      "List plain model objects."]})
+            return CandidatesSchema().load(value)
         family = value.get("family", "polynomial")
         schema = MODEL_SCHEMAS.get(family) if isinstance(family, str) else None
         if schema is None:
             raise ValidationError({"family": [one_of_message(tuple(MODEL_SCHEMAS))]})
         return schema().load(value)
+
+
+class CandidatesSchema(StrictSchema):
+    """Several model objects fitted to the same series; one is chosen and the reason given."""
+
+    candidates = fields.List(
+        ModelField(comparisons=False), required=True,
+        validate=validate.Length(2, MAX_CANDIDATES, error=(
+            f"List 2 to {MAX_CANDIDATES} model objects.")),
+        metadata={"description": "The model objects to compare, e.g. [{\"family\": "
+                                 "\"expression\", ...}, {\"family\": \"polynomial\", "
+                                 "\"max_degree\": 3}]. A candidate that cannot be fitted is "
+                                 "reported, not fatal."})
+    select = choice(COMPARE_RULES, "How to choose: aicc (default), aic or bic (smallest "
+                    "criterion among converged candidates), or f_test (extra-sum-of-squares F "
+                    "tests walking nested pairs from the simplest, then the smallest AICc).",
+                    load_default="aicc")
+    alpha = StrictFloat(load_default=0.05, validate=validate.Range(
+        0, 1, min_inclusive=False, max_inclusive=False,
+        error="Must be strictly between 0 and 1, e.g. 0.05."), metadata={
+        "description": "Significance level of the F tests (select=f_test)."})
+
+
+DOCUMENTED_MODELS = (*MODEL_SCHEMAS.values(), CandidatesSchema)
+"""Every model object the request's ``model`` may be (OpenAPI components of its oneOf)."""

@@ -4,7 +4,7 @@ from __future__ import annotations
 
 from flask import Flask
 
-from schemas.model_field import MODEL_SCHEMAS, component_name
+from schemas.model_field import DOCUMENTED_MODELS, component_name
 from service import __version__
 from service.api import BLUEPRINT_MODULES
 from service.http import errors as error_handling
@@ -31,7 +31,7 @@ def create_app(overrides: dict | None = None) -> Flask:
     error_handling.register(app)
     for module in BLUEPRINT_MODULES:
         api.register_blueprint(module.blp)
-    for schema in MODEL_SCHEMAS.values():  # the model objects that ModelField's oneOf names
+    for schema in DOCUMENTED_MODELS:  # the model objects that ModelField's oneOf names
         name = component_name(schema)
         if name not in api.spec.components.schemas:
             api.spec.components.schema(name, schema=schema)

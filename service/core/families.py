@@ -59,6 +59,9 @@ class Family:
         otherwise batch fits go through :attr:`fit` one series at a time.
     select_methods, transforms : tuple of str
         The selection rules and transforms the family accepts.
+    generalizes : tuple of str
+        Families that are special cases of this one (nested: the extra-sum-of-squares
+        F test of :mod:`service.core.compare` applies between them).
     """
 
     name: str
@@ -75,6 +78,7 @@ class Family:
     compiled_batch: bool = False
     select_methods: tuple[str, ...] = ()
     transforms: tuple[str, ...] = ()
+    generalizes: tuple[str, ...] = ()
 
 
 POLYNOMIAL = Family(

@@ -21,7 +21,10 @@ def check_series(body: dict, settings: Settings, prefix: str = "") -> None:
                                 f"The series has {n} points; the limit is {settings.max_points}. "
                                 "Split the series, or raise CURVEWISE_MAX_POINTS.",
                                 field=prefix + "x")
-    check_degree(body["model"], settings, prefix + "model.")
+    model = body["model"]
+    for i, candidate in enumerate(model.get("candidates", ())):
+        check_degree(candidate, settings, f"{prefix}model.candidates[{i}].")
+    check_degree(model, settings, prefix + "model.")
     grid = body.get("grid")
     if grid is not None:
         points = grid_points(grid)

@@ -9,6 +9,7 @@ from __future__ import annotations
 
 from dataclasses import fields
 
+from service.core.compare import Comparison
 from service.core.families import family_of
 from service.core.nonlinear.report import NonlinearReport
 from service.core.results import FitReport, Prediction
@@ -117,4 +118,16 @@ def nonlinear_response(report: NonlinearReport, include) -> dict:
         body["grid"] = None if report.grid is None else prediction_section(report.grid)
     body["warnings"] = [plain(w) for w in report.warnings]
     body["flags"] = [plain(f) for f in report.flags]
+    return body
+
+
+def comparison_response(comparison: Comparison, include) -> dict:
+    """The chosen candidate's full response, plus the comparison table and the reason."""
+    body = fit_response(comparison.report, include)
+    body["comparison"] = {
+        "select": comparison.select, "alpha": comparison.alpha,
+        "chosen": comparison.candidates[comparison.chosen].label,
+        "chosen_index": comparison.chosen, "reason": comparison.reason,
+        "candidates": [plain(row) for row in comparison.candidates],
+        "nested_tests": [plain(t) for t in comparison.nested_tests]}
     return body
