@@ -47,8 +47,7 @@ def build_figure(report: FitReport, x, y, weights=None,
     if "fit" in axes and "studentized_residuals" in axes:  # one x axis for the column
         axes["fit"].tick_params(labelbottom=False)
         axes["fit"].set_xlabel("")
-    strip = legend.strip(figure, layout.legend_room(width_px / dpi))
-    strip_height = legend.height(strip)
+    strip, strip_height = legend.strip(figure, layout.legend_room(width_px / dpi))
     height_px = options.pixel_height(width_px, strip_height)
     if height_px != first_height:
         figure.set_size_inches(width_px / dpi, height_px / dpi)

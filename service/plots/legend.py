@@ -28,26 +28,29 @@ def entries(figure) -> tuple[list, list]:
     return handles, labels
 
 
-def strip(figure, room: float) -> Legend | None:
-    """Add the legend strip to ``figure``, at most ``room`` inches wide; None if no labels.
+def strip(figure, room: float) -> tuple[Legend | None, float]:
+    """Add the legend strip to ``figure``, at most ``room`` inches wide, and its height in
+    inches; ``(None, 0.0)`` when nothing is labelled.
 
     First one line; when that is too wide, a column count guessed from the measured
     entry widths, lowered until the strip fits. Its position is set by :func:`place`.
     """
     handles, labels = entries(figure)
     if not handles:
-        return None
+        return None, 0.0
     renderer, room_px = figure.canvas.get_renderer(), room * figure.dpi
     legend = figure.legend(handles, labels, ncols=len(handles), **_OPTIONS)
-    if legend.get_window_extent(renderer).width <= room_px:
-        return legend
-    columns = min(len(handles) - 1, _columns_guess(legend, renderer, room_px) + 1)
-    while True:
-        legend.remove()
-        legend = figure.legend(handles, labels, ncols=columns, **_OPTIONS)
-        if columns == 1 or legend.get_window_extent(renderer).width <= room_px:
-            return legend
-        columns -= 1
+    extent = legend.get_window_extent(renderer)
+    if extent.width > room_px:
+        columns = min(len(handles) - 1, _columns_guess(legend, renderer, room_px) + 1)
+        while True:
+            legend.remove()
+            legend = figure.legend(handles, labels, ncols=columns, **_OPTIONS)
+            extent = legend.get_window_extent(renderer)
+            if columns == 1 or extent.width <= room_px:
+                break
+            columns -= 1
+    return legend, extent.height / figure.dpi
 
 
 def _columns_guess(legend: Legend, renderer, room_px: float) -> int:
@@ -57,14 +60,6 @@ def _columns_guess(legend: Legend, renderer, room_px: float) -> int:
     entry = sum(texts) / len(texts) + (legend.handlelength + legend.handletextpad
                                        + legend.columnspacing) * font_px
     return max(1, int(room_px // entry))
-
-
-def height(legend: Legend | None) -> float:
-    """Inches the strip takes (0.0 without a legend)."""
-    if legend is None:
-        return 0.0
-    figure = legend.figure
-    return legend.get_window_extent(figure.canvas.get_renderer()).height / figure.dpi
 
 
 def place(legend: Legend | None, corner: tuple[float, float]) -> None:
