@@ -12,21 +12,42 @@ from schemas.common import StrictSchema
 from schemas.fields import StrictBoolean, StrictInteger, StrictString, one_of_message
 from schemas.fit import FitRequestSchema
 
-PANELS = ("fit", "residuals", "normal_quantiles", "scale_location", "leverage", "selection")
+PANELS = ("fit", "studentized_residuals", "influence", "spread", "half_normal", "selection")
 FORMATS = ("png", "svg")
 MIN_PIXELS, MAX_PIXELS = 200, 4000
 MAX_AREA = 8_000_000
 MIN_DPI, MAX_DPI = 50, 300
 MAX_LABEL = 200
+MIN_PANEL_INCHES = (1.7, 1.3)  # plotting area of each panel, width x height
+BASE_SIZE = (800, 600)
+
+_PANELS_DESCRIPTION = (
+    "Panels to draw (default [\"fit\"]). fit: data, fitted curve, band for the mean and for "
+    "a new observation. studentized_residuals: externally studentized residuals against x, "
+    "directly under the fit panel on the same x axis, with the Bonferroni outlier limits. "
+    "influence: studentized residual against leverage with the cut-offs the diagnostics "
+    "flag by (leverage, Cook's distance contour, outlier limits), flagged points marked by "
+    "flag. spread: squared residuals over their mean against x with the Breusch-Pagan "
+    "auxiliary fit and the test's p-value. half_normal: sorted |studentized residuals| "
+    "against half-normal quantiles inside an envelope simulated from the fit (seeded). "
+    "selection: AIC, AICc, BIC and the selection method's own criterion by candidate "
+    "degree. Layout: fit and studentized_residuals in one column at the top, the others "
+    "in rows of up to three in the order given, one legend strip above the panels.")
 
 
-def _pixels(name: str, default: int) -> StrictInteger:
+def _pixels(name: str, base: int) -> StrictInteger:
+    least_w, least_h = MIN_PANEL_INCHES
     return StrictInteger(
-        load_default=default,
+        load_default=None,
         validate=validate.Range(MIN_PIXELS, MAX_PIXELS,
                                 error=f"Must be {MIN_PIXELS} to {MAX_PIXELS} pixels."),
-        metadata={"description": f"Figure {name} in pixels (default {default}); an SVG states "
-                                 f"the same size in px. width x height at most {MAX_AREA}."})
+        metadata={"description": f"Figure {name} in pixels; an SVG states the same size in px. "
+                                 f"width x height at most {MAX_AREA}. Each panel needs at "
+                                 f"least {least_w} x {least_h} inches of plotting area (times "
+                                 f"dpi in pixels) besides its labels: a smaller {name} is "
+                                 f"refused with a 422 naming plot.{name} and the least that "
+                                 f"fits. When absent or null the figure grows to what its panels "
+                                 f"need, never below {base} px."})
 
 
 def _label(description: str) -> StrictString:
@@ -46,17 +67,9 @@ class PlotOptionsSchema(StrictSchema):
         validate=validate.Length(min=1, max=len(PANELS),
                                  error=f"Give 1 to {len(PANELS)} panel names."),
         error_messages={"invalid": "Must be an array of panel names."},
-        metadata={"description": "Panels, drawn row by row in this order (default [\"fit\"]): "
-                                 "fit (data, fitted curve, band for the mean and for a new "
-                                 "observation); residuals (against fitted values); "
-                                 "normal_quantiles (studentized residuals against normal "
-                                 "quantiles); scale_location (square root of |standardized "
-                                 "residual| against fitted values); leverage (standardized "
-                                 "residuals against leverage, Cook's distance 0.5 and 1 "
-                                 "contours); selection (AIC, AICc, BIC and the selection "
-                                 "method's own criterion by candidate degree)."})
-    width = _pixels("width", 800)
-    height = _pixels("height", 600)
+        metadata={"description": _PANELS_DESCRIPTION})
+    width = _pixels("width", BASE_SIZE[0])
+    height = _pixels("height", BASE_SIZE[1])
     dpi = StrictInteger(
         load_default=100,
         validate=validate.Range(MIN_DPI, MAX_DPI, error=f"Must be {MIN_DPI} to {MAX_DPI}."),

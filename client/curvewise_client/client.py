@@ -94,8 +94,9 @@ class Client:
              **fit_options: Any) -> Figure:
         """Render a figure of a fit (``POST /v1/plot``); ``fit_options`` as for :meth:`fit`.
 
-        Panels: ``fit``, ``residuals``, ``normal_quantiles``, ``scale_location``,
-        ``leverage``, ``selection`` (default ``["fit"]``); sizes in pixels.
+        Panels: ``fit``, ``studentized_residuals``, ``influence``, ``spread``,
+        ``half_normal``, ``selection`` (default ``["fit"]``); sizes in pixels (left out,
+        the figure grows to fit its panels).
         """
         if format not in IMAGE_TYPES:
             raise ValueError(f"format must be one of {sorted(IMAGE_TYPES)}")

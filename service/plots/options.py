@@ -6,19 +6,20 @@ names and limits; ``tests/plots/test_plot_schema.py`` keeps the two in step.
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 
 from service.core.errors import SpecError
 from service.plots import layout
 
-PANELS = ("fit", "residuals", "normal_quantiles", "scale_location", "leverage", "selection")
+PANELS = ("fit", "studentized_residuals", "influence", "spread", "half_normal", "selection")
 PANEL_TITLES = {
     "fit": "Data, fitted curve and bands",
-    "residuals": "Residuals against fitted values",
-    "normal_quantiles": "Normal quantiles of studentized residuals",
-    "scale_location": "Spread against fitted values",
-    "leverage": "Residuals against leverage",
-    "selection": "Selection criteria by degree",
+    "studentized_residuals": "Studentized residuals along x",
+    "influence": "Influence map",
+    "spread": "Spread along x",
+    "half_normal": "Half-normal plot",
+    "selection": "Degree selection",
 }
 FORMATS = ("png", "svg")
 MEDIA_TYPES = {"png": "image/png", "svg": "image/svg+xml"}
@@ -28,6 +29,7 @@ MAX_AREA = 8_000_000                      # width * height (a PNG of ~32 MB in m
 MIN_DPI, MAX_DPI = 50, 300
 MAX_POINTS = {"png": 200_000, "svg": 20_000}  # data points drawn; SVG writes one element each
 MAX_LABEL = 200
+BASE_SIZE = (800, 600)                    # px: the least a figure grows from when no size is given
 
 
 @dataclass(frozen=True, slots=True)
@@ -37,9 +39,10 @@ class PlotOptions:
     Parameters
     ----------
     panels : tuple of str
-        Panels from :data:`PANELS`, drawn in this order (row by row).
-    width, height : int
-        Size in pixels (for SVG: the ``width``/``height`` attributes, in px).
+        Panels from :data:`PANELS`; placed by :func:`service.plots.layout.rows`.
+    width, height : int or None
+        Size in pixels (for SVG: the ``width``/``height`` attributes, in px). None lets
+        the figure grow to what its panels need (at least 800 x 600).
     dpi : int
         Pixels per inch: the scale of text and lines relative to the size.
     format : str
@@ -48,11 +51,19 @@ class PlotOptions:
         Also draw the simultaneous (whole-curve) band on the ``fit`` panel.
     title, x_label, y_label : str or None
         Plain labels; default ``x`` and ``y``.
+
+    Raises
+    ------
+    SpecError
+        For an unknown panel, format, size or dpi, and when a given width (or height)
+        leaves some panel less than the minimum plotting area (:mod:`~service.plots.layout`).
+        The height check here assumes a one-line legend; the figure repeats it with the
+        legend it actually draws.
     """
 
     panels: tuple[str, ...] = ("fit",)
-    width: int = 800
-    height: int = 600
+    width: int | None = None
+    height: int | None = None
     dpi: int = 100
     format: str = "png"
     simultaneous: bool = False
@@ -70,28 +81,53 @@ class PlotOptions:
             raise SpecError(f"Unknown format {self.format!r}.", field="plot.format",
                             fix="Use png or svg.")
         for name in ("width", "height"):
-            if not MIN_PIXELS <= getattr(self, name) <= MAX_PIXELS:
-                raise SpecError(f"{name} {getattr(self, name)} is out of range.",
-                                field=f"plot.{name}",
+            value = getattr(self, name)
+            if value is not None and not MIN_PIXELS <= value <= MAX_PIXELS:
+                raise SpecError(f"{name} {value} is out of range.", field=f"plot.{name}",
                                 fix=f"Use {MIN_PIXELS} to {MAX_PIXELS} pixels.")
-        if self.width * self.height > MAX_AREA:
+        if self.width is not None and self.height is not None and (
+                self.width * self.height > MAX_AREA):
             raise SpecError(f"width x height = {self.width * self.height} pixels is over the "
                             f"limit of {MAX_AREA}.", field="plot.width",
                             fix="Make the figure smaller.")
         if not MIN_DPI <= self.dpi <= MAX_DPI:
             raise SpecError(f"dpi {self.dpi} is out of range.", field="plot.dpi",
                             fix=f"Use {MIN_DPI} to {MAX_DPI}.")
-        w, h = layout.panel_size(len(self.panels), self.width / self.dpi,
-                                 self.height / self.dpi, title=bool(self.title),
-                                 second_axis="selection" in self.panels)
-        for name, size, least in (("width", w, layout.MIN_PANEL_WIDTH),
-                                  ("height", h, layout.MIN_PANEL_HEIGHT)):
-            if size < least:
-                raise SpecError(
-                    f"At {self.dpi} dpi, {len(self.panels)} panel(s) leave only {size:.2f} "
-                    f"inches of plot {name} each (at least {least} is needed for the labels).",
-                    field=f"plot.{name}",
-                    fix=f"Increase {name}, lower dpi, or ask for fewer panels.")
+        rows, titled = layout.rows(self.panels), bool(self.title)
+        if self.width is not None:
+            layout.check_size("width", self.width, layout.least_width(rows), self.dpi, rows)
+        if self.height is not None:
+            layout.check_size("height", self.height,
+                              layout.least_height(rows, titled, layout.LEGEND_LINE),
+                              self.dpi, rows)
+
+    def pixel_width(self) -> int:
+        """The figure width: as asked, or grown to the panels (at least 800 px)."""
+        if self.width is not None:
+            return self.width
+        grid = layout.rows(self.panels)
+        limit = MAX_PIXELS if self.height is None else min(MAX_PIXELS, MAX_AREA // self.height)
+        return self._grown("width", layout.least_width(grid),
+                           layout.width_for(grid, layout.ROOMY_WIDTH), BASE_SIZE[0], limit)
+
+    def pixel_height(self, width: int, legend: float) -> int:
+        """The figure height for a figure ``width`` px wide whose legend strip is ``legend``
+        inches high: as asked (refused when too low), or grown (at least 600 px)."""
+        grid, titled = layout.rows(self.panels), bool(self.title)
+        least = layout.least_height(grid, titled, legend)
+        if self.height is not None:
+            layout.check_size("height", self.height, least, self.dpi, grid)
+            return self.height
+        return self._grown("height", least, layout.roomy_height(grid, titled, legend),
+                           BASE_SIZE[1], min(MAX_PIXELS, MAX_AREA // width))
+
+    def _grown(self, name: str, least: float, roomy: float, base: int, limit: int) -> int:
+        need = math.ceil(least * self.dpi - 1e-9)
+        if need > limit:
+            raise SpecError(f"At {self.dpi} dpi the panels {', '.join(self.panels)} need a "
+                            f"figure {need} px in {name}, over the limit of {limit}.",
+                            field="plot.dpi", fix="Lower dpi, or ask for fewer panels.")
+        return min(max(base, math.ceil(roomy * self.dpi - 1e-9)), limit)
 
     @property
     def media_type(self) -> str:
@@ -101,4 +137,4 @@ class PlotOptions:
     @property
     def needs_diagnostics(self) -> bool:
         """True when a residual panel is asked for."""
-        return any(p in self.panels for p in PANELS[1:5])
+        return any(p not in ("fit", "selection") for p in self.panels)

@@ -29,15 +29,28 @@ OKABE_ITO = {
 
 DATA = {"color": OKABE_ITO["black"], "marker": "o", "markersize": 3.5, "linestyle": "none",
         "alpha": 0.8}
-FLAGGED = {"color": OKABE_ITO["vermillion"], "marker": "D", "markersize": 5,
-           "linestyle": "none", "markerfacecolor": "none", "markeredgewidth": 1.2}
+# The three flags of the diagnostics, one hollow shape each, drawn around the data point;
+# sizes differ so that a point with several flags shows every shape.
+_HOLLOW = {"linestyle": "none", "markerfacecolor": "none", "markeredgewidth": 1.2}
+FLAGS = (
+    ("outlier", "outlier", {"color": OKABE_ITO["vermillion"], "marker": "^",
+                            "markersize": 8, **_HOLLOW}),
+    ("high_leverage", "high leverage", {"color": OKABE_ITO["blue"], "marker": "s",
+                                        "markersize": 9.5, **_HOLLOW}),
+    ("influential", "influential", {"color": OKABE_ITO["reddish_purple"], "marker": "D",
+                                    "markersize": 11.5, **_HOLLOW}),
+)
+OUTLIER_LIMIT = {"color": OKABE_ITO["vermillion"], "linestyle": "--", "linewidth": 0.9}
+LEVERAGE_CUT = {"color": OKABE_ITO["blue"], "linestyle": ":", "linewidth": 1.2}
+COOK_CUT = {"color": OKABE_ITO["reddish_purple"], "linestyle": "-.", "linewidth": 1.0}
+AUXILIARY = {"color": OKABE_ITO["orange"], "linewidth": 1.6}
+ENVELOPE = {"color": "#999999", "alpha": 0.3, "linewidth": 0}
+ENVELOPE_MEAN = {"color": "#333333", "linestyle": ":", "linewidth": 1.1}
 CURVE = {"color": OKABE_ITO["blue"], "linewidth": 1.8}
 MEAN_BAND = {"color": OKABE_ITO["sky_blue"], "alpha": 0.45, "linewidth": 0}
 OBS_BAND = {"color": OKABE_ITO["blue"], "linestyle": "--", "linewidth": 1.0}
 SIM_BAND = {"color": OKABE_ITO["reddish_purple"], "linestyle": ":", "linewidth": 1.4}
 REFERENCE = {"color": "#777777", "linestyle": "-", "linewidth": 0.8}
-SMOOTH = {"color": OKABE_ITO["orange"], "linewidth": 1.4}
-CONTOUR = {"color": OKABE_ITO["vermillion"], "linestyle": "--", "linewidth": 0.9}
 CRITERIA = (("aic", "AIC", OKABE_ITO["blue"], "o"),
             ("aicc", "AICc", OKABE_ITO["bluish_green"], "s"),
             ("bic", "BIC", OKABE_ITO["orange"], "^"))
@@ -46,6 +59,9 @@ CHOSEN = {"color": OKABE_ITO["vermillion"], "linestyle": ":", "linewidth": 1.2}
 PNG_COMPRESS_LEVEL = 3  # zlib level: ~25% faster than the default 6 for ~10% larger files
 FONT_SIZE = 8.5
 TITLE_SIZE = 9.5
+NOTE_SIZE = 7.5     # the line of numbers under each panel title
+NOTE_COLOUR = "#444444"
+LEGEND_SIZE = 8.0
 
 # Nothing that changes between runs may reach the file: no dates, a fixed creator string.
 _METADATA = {

@@ -98,8 +98,8 @@ def test_api_errors_carry_the_problem_details(api):
 
 def test_plot_through_the_client_decodes_at_the_asked_size(api, pontius):
     x, y, _ = pontius
-    png = api.plot(x, y, degree=2, panels=["fit", "leverage"], width=700, height=350)
-    assert png.format == "png" and Image.open(io.BytesIO(png.data)).size == (700, 350)
+    png = api.plot(x, y, degree=2, panels=["fit", "influence"], width=700, height=620)
+    assert png.format == "png" and Image.open(io.BytesIO(png.data)).size == (700, 620)
     svg = api.plot(x, y, degree=2, format="svg")
     assert svg.format == "svg" and b'width="800px"' in svg.data[:600]
     with pytest.raises(UnprocessableInput) as info:

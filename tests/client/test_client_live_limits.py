@@ -45,8 +45,8 @@ def test_a_request_over_the_compute_limit_is_not_retried(guarded_url):
     y = np.sin(x) + rng.normal(0, 0.1, x.size)
     started = time.monotonic()
     with pytest.raises(ComputeTimeout) as info:  # six panels of 150k points take seconds
-        client.plot(x, y, max_degree=8, panels=["fit", "residuals", "normal_quantiles",
-                                                "scale_location", "leverage", "selection"],
+        client.plot(x, y, max_degree=8, panels=["fit", "studentized_residuals", "influence",
+                                                "spread", "half_normal", "selection"],
                     width=2800, height=1800)
     assert info.value.attempts == 1 and info.value.status == 503
     assert time.monotonic() - started < 30

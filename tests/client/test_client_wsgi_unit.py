@@ -159,12 +159,12 @@ def test_encode_keeps_digits_turns_nan_into_null_and_refuses_infinity():
 def test_plot_returns_image_bytes_and_asks_by_accept(fake):
     fake.replies["/v1/plot"] = (200, "image/svg+xml", b"<svg/>")
     client = Client("http://t", transport=WSGITransport(fake))
-    figure = client.plot([1, 2, 3], [1, 2, 3], format="svg", panels=["fit", "residuals"],
+    figure = client.plot([1, 2, 3], [1, 2, 3], format="svg", panels=["fit", "spread"],
                          width=640, x_label="EC (dS/m)", simultaneous=True, max_degree=2)
     env = fake.calls[0]
     assert env["HTTP_ACCEPT"] == "image/svg+xml"
     body = json.loads(env["body"])
-    assert body["plot"] == {"format": "svg", "panels": ["fit", "residuals"], "width": 640,
+    assert body["plot"] == {"format": "svg", "panels": ["fit", "spread"], "width": 640,
                             "x_label": "EC (dS/m)", "simultaneous": True}
     assert body["model"] == {"max_degree": 2}
     assert (figure.format, figure.data) == ("svg", b"<svg/>")

@@ -1,10 +1,10 @@
-"""What the panels draw equals what statsmodels computes for the same fit (oracle checks).
+"""The fit and selection panels draw what statsmodels computes for the same fit (oracle
+checks), and every panel renders awkward fits without stray warnings.
 
 Sources: statsmodels OLS/WLS ``get_prediction`` (mean and new-observation intervals),
-``OLSInfluence`` (hat values, internally/externally studentized residuals, Cook's
-distance), OLS ``aic``/``bic``. Blom's plotting positions (i - 3/8)/(n + 1/4) and the
-Cook's distance reference levels 0.5 and 1 are common practice. The data are seeded
-random draws; statsmodels is the reference, never our own numbers.
+``OLSInfluence`` (externally studentized residuals), OLS ``aic``/``bic``. The data are
+seeded random draws; statsmodels is the reference, never our own numbers. The residual
+panels are checked in ``test_plot_diagnostic_panels.py``.
 """
 
 from __future__ import annotations
@@ -14,11 +14,11 @@ import warnings
 import numpy as np
 import pytest
 import statsmodels.api as sm
-from scipy import stats
 from statsmodels.stats.outliers_influence import OLSInfluence
 
 from service.core import FitOptions, GridSpec, ModelSpec, fit_series
 from service.plots import PANELS, PlotOptions, build_figure, render
+from service.plots.options import PANEL_TITLES
 
 RTOL = 1e-9
 
@@ -32,12 +32,7 @@ def _series(seed: int = 7, n: int = 40):
 
 
 def _axes(figure, name):
-    titles = {"fit": "Data, fitted curve and bands", "leverage": "Residuals against leverage",
-              "normal_quantiles": "Normal quantiles of studentized residuals",
-              "residuals": "Residuals against fitted values",
-              "scale_location": "Spread against fitted values",
-              "selection": "Selection criteria by degree"}
-    found = [ax for ax in figure.axes if ax.get_title(loc="left") == titles[name]]
+    found = [ax for ax in figure.axes if ax.get_title(loc="left") == PANEL_TITLES[name]]
     assert len(found) == 1, [ax.get_title(loc="left") for ax in figure.axes]
     return found[0]
 
@@ -57,8 +52,7 @@ def quadratic():
     design = np.vander(x, 3, increasing=True)
     model = sm.OLS(y, design).fit()
     frame = model.get_prediction(np.vander(grid, 3, increasing=True)).summary_frame(alpha=0.05)
-    figure = build_figure(report, x, y, options=PlotOptions(panels=PANELS, width=1500,
-                                                            height=900))
+    figure = build_figure(report, x, y, options=PlotOptions(panels=PANELS))
     return {"x": x, "y": y, "grid": grid, "report": report, "model": model, "frame": frame,
             "influence": OLSInfluence(model), "figure": figure}
 
@@ -84,43 +78,6 @@ def test_fit_panel_curve_and_bands_match_statsmodels(quadratic):
     np.testing.assert_array_equal(data.get_xdata(), quadratic["x"])
 
 
-def test_residual_panels_match_statsmodels_influence(quadratic):
-    fig, infl, model = quadratic["figure"], quadratic["influence"], quadratic["model"]
-    (points,) = [ln for ln in _axes(fig, "residuals").get_lines() if ln.get_marker() == "o"]
-    np.testing.assert_allclose(points.get_xdata(), model.fittedvalues, rtol=RTOL)
-    np.testing.assert_allclose(points.get_ydata(), model.resid, rtol=1e-7, atol=1e-12)
-    (spread,) = [ln for ln in _axes(fig, "scale_location").get_lines() if ln.get_marker() == "o"]
-    np.testing.assert_allclose(spread.get_ydata(),
-                               np.sqrt(np.abs(infl.resid_studentized_internal)), rtol=1e-7)
-    (lev,) = [ln for ln in _axes(fig, "leverage").get_lines() if ln.get_marker() == "o"]
-    np.testing.assert_allclose(lev.get_xdata(), infl.hat_matrix_diag, rtol=1e-9)
-    np.testing.assert_allclose(lev.get_ydata(), infl.resid_studentized_internal, rtol=1e-7)
-
-
-def test_normal_quantile_panel_uses_blom_positions_and_external_studentization(quadratic):
-    (points,) = [ln for ln in _axes(quadratic["figure"], "normal_quantiles").get_lines()
-                 if ln.get_marker() == "o"]
-    n = quadratic["x"].size
-    blom = stats.norm.ppf((np.arange(1, n + 1) - 0.375) / (n + 0.25))
-    np.testing.assert_allclose(points.get_xdata(), blom, rtol=1e-12)
-    np.testing.assert_allclose(points.get_ydata(),
-                               np.sort(quadratic["influence"].resid_studentized_external),
-                               rtol=1e-7)
-
-
-def test_cooks_distance_contours_separate_points_as_statsmodels_does(quadratic):
-    ax = _axes(quadratic["figure"], "leverage")
-    contour = _line(ax, "Cook's distance 0.5 and 1")  # the upper D = 0.5 curve
-    h = quadratic["influence"].hat_matrix_diag
-    r = quadratic["influence"].resid_studentized_internal
-    bound = np.interp(h, contour.get_xdata(), contour.get_ydata())
-    cooks = quadratic["influence"].cooks_distance[0]
-    assert cooks.max() > 0.5, "the seeded data must contain a point beyond the 0.5 contour"
-    inside = np.abs(r) < bound
-    clear = np.abs(cooks - 0.5) > 0.02  # ignore points sitting on the line (interpolation)
-    np.testing.assert_array_equal(inside[clear], (cooks < 0.5)[clear])
-
-
 def test_selection_panel_plots_the_information_criteria_of_each_degree():
     x, y = _series(seed=11, n=30)
     report = fit_series(x, y, model=ModelSpec(max_degree=4, select="bic"))
@@ -141,14 +98,19 @@ def test_weighted_fit_bands_match_statsmodels_wls():
     w = np.linspace(0.5, 4.0, x.size)
     report = fit_series(x, y, w, model=ModelSpec(degree=1),
                         options=FitOptions(grid=GridSpec(count=None, x=tuple(x))))
-    figure = build_figure(report, x, y, w, options=PlotOptions(panels=("fit", "residuals")))
+    figure = build_figure(report, x, y, w,
+                          options=PlotOptions(panels=("fit", "studentized_residuals")))
     wls = sm.WLS(y, sm.add_constant(x), weights=w).fit()
     frame = wls.get_prediction(sm.add_constant(x), weights=w).summary_frame(alpha=0.05)
     np.testing.assert_allclose(_line(_axes(figure, "fit"), "fitted polynomial, degree 1")
                                .get_ydata(), frame["mean"], rtol=RTOL)
-    (points,) = [ln for ln in _axes(figure, "residuals").get_lines() if ln.get_marker() == "o"]
-    np.testing.assert_allclose(points.get_ydata(), np.sqrt(w) * wls.resid, rtol=1e-7)
-    assert _axes(figure, "residuals").get_ylabel() == "Weighted residual"
+    (points,) = [ln for ln in _axes(figure, "studentized_residuals").get_lines()
+                 if ln.get_marker() == "o"]
+    np.testing.assert_allclose(points.get_xdata(), x, rtol=0)
+    # weighted residual forms: OLS on sqrt(w) y against sqrt(w) X (the whitened model)
+    whitened = sm.OLS(np.sqrt(w) * y, np.sqrt(w)[:, None] * sm.add_constant(x)).fit()
+    np.testing.assert_allclose(points.get_ydata(),
+                               OLSInfluence(whitened).resid_studentized_external, rtol=1e-7)
 
 
 EDGE_CASES = {
@@ -175,5 +137,5 @@ def test_every_panel_renders_edge_cases_without_stray_warnings(case):
     report = fit_series(x, y, w, model=model, options=FitOptions(**extra))
     with warnings.catch_warnings():
         warnings.simplefilter("error")
-        png = render(report, x, y, w, PlotOptions(panels=PANELS, width=1200, height=700))
+        png = render(report, x, y, w, PlotOptions(panels=PANELS))
     assert png.startswith(b"\x89PNG\r\n\x1a\n")

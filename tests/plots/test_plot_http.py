@@ -19,6 +19,8 @@ import numpy as np
 import pytest
 from PIL import Image
 
+from schemas.plots import PANELS
+
 ROOT = Path(__file__).resolve().parents[2]
 SVG_NS = "{http://www.w3.org/2000/svg}"
 
@@ -45,23 +47,40 @@ def test_png_decodes_at_the_requested_pixel_size(client, width, height, dpi):
     assert sum(1 for count in image.convert("L").histogram() if count) > 10  # drawn on
 
 
+@pytest.mark.parametrize("fmt", ["png", "svg"])
+def test_without_a_size_the_figure_grows_to_its_panels(client, fmt):
+    r = client.post("/v1/plot", json=_body(panels=list(PANELS), format=fmt))
+    assert r.status_code == 200, r.data[:300]
+    if fmt == "png":
+        image = Image.open(io.BytesIO(r.data))
+        image.load()
+        width, height = image.size
+    else:
+        root = ET.fromstring(r.data)
+        width, height = (int(root.get(k).removesuffix("px")) for k in ("width", "height"))
+    assert width > 800 and height > 600  # every panel keeps its least plotting area
+    again = client.post("/v1/plot", json=_body(panels=list(PANELS), format=fmt,
+                                               width=width, height=height))
+    assert again.status_code == 200 and again.data == r.data  # the same figure, asked for
+
+
 def test_svg_parses_and_states_the_requested_size(client):
-    r = client.post("/v1/plot", json=_body(width=900, height=500, dpi=120,
-                                           panels=["fit", "residuals"]),
+    r = client.post("/v1/plot", json=_body(width=900, height=640, dpi=120,
+                                           panels=["fit", "studentized_residuals"]),
                     headers={"Accept": "image/svg+xml"})
     assert r.status_code == 200 and r.mimetype == "image/svg+xml"
     root = ET.fromstring(r.data)
     assert root.tag == f"{SVG_NS}svg"
-    assert (root.get("width"), root.get("height")) == ("900px", "500px")
+    assert (root.get("width"), root.get("height")) == ("900px", "640px")
     view = [float(v) for v in root.get("viewBox").split()]
-    assert view == pytest.approx([0, 0, 900 * 72 / 120, 500 * 72 / 120])  # points: 72 per inch
+    assert view == pytest.approx([0, 0, 900 * 72 / 120, 640 * 72 / 120])  # points: 72 per inch
     assert root.findall(f".//{SVG_NS}path"), "no drawing in the SVG"
     assert b"<dc:date>" not in r.data  # no timestamp in the metadata
 
 
 def test_identical_input_gives_identical_bytes_even_in_another_process(client):
-    bodies = [_body(panels=["fit", "residuals", "normal_quantiles", "scale_location",
-                            "leverage", "selection"], format=fmt, simultaneous=True,
+    bodies = [_body(panels=["fit", "studentized_residuals", "influence", "spread",
+                            "half_normal", "selection"], format=fmt, simultaneous=True,
                     title="Trial", x_label="EC (dS/m)", y_label="Yield (kg/m²)")
               for fmt in ("png", "svg")]
     here = []
@@ -115,8 +134,14 @@ def test_format_by_body_or_accept_header(client, accept, body_format, expected):
     ({"width": "800"}, "plot.width"),
     ({"colour": "red"}, "plot.colour"),
     ({"title": "t" * 201}, "plot.title"),
-    ({"width": 400, "height": 300, "dpi": 300, "panels": ["fit", "residuals"]},
+    ({"width": 400, "height": 300, "dpi": 300, "panels": ["fit", "studentized_residuals"]},
      "plot.width"),                                          # too small for 2 panels at 300 dpi
+    ({"width": 760, "panels": ["influence", "spread", "half_normal"]}, "plot.width"),
+    ({"height": 480, "panels": ["fit", "studentized_residuals", "influence"]}, "plot.height"),
+    ({"width": 1600, "height": 700, "dpi": 100, "panels": ["fit", "studentized_residuals",
+                                                           "influence", "spread",
+                                                           "half_normal", "selection"]},
+     "plot.height"),
 ])
 def test_bad_plot_options_are_422_naming_the_field(client, plot, field):
     r = client.post("/v1/plot", json=_body(**plot))
@@ -150,5 +175,32 @@ def test_openapi_documents_both_image_types(client):
     spec = client.get("/openapi.json").get_json()
     operation = spec["paths"]["/v1/plot"]["post"]
     assert set(operation["responses"]["200"]["content"]) == {"image/png", "image/svg+xml"}
-    schema = json.dumps(spec["components"]["schemas"])
-    assert "normal_quantiles" in schema and "scale_location" in schema
+
+
+# The panel names of the first figure design; answered with a 422 listing the current ones.
+RETIRED = ("residuals", "normal_quantiles", "scale_location", "leverage")
+
+
+@pytest.mark.parametrize("name", RETIRED)
+def test_retired_panel_names_are_refused_listing_the_current_ones(client, name):
+    r = client.post("/v1/plot", json=_body(panels=["fit", name]))
+    assert r.status_code == 422 and r.mimetype == "application/problem+json"
+    (message,) = r.get_json()["errors"]["plot.panels[1]"]
+    assert all(f"'{panel}'" in message for panel in PANELS), message
+
+
+def test_openapi_and_readme_name_the_current_panels_only(client):
+    spec = client.get("/openapi.json").get_json()
+    options = spec["components"]["schemas"]["PlotOptions"]["properties"]
+    assert options["panels"]["items"]["enum"] == list(PANELS)
+    text = json.dumps(spec)
+    for gone in ("normal_quantiles", "scale_location", "Cook's distance 0.5 and 1"):
+        assert gone not in text, gone
+    described = options["panels"]["description"]
+    assert all(f"{panel}:" in described for panel in PANELS)
+    readme = (ROOT / "README.md").read_text()
+    figures = readme[readme.index("**Figures.**"):readme.index("**Python client**")]
+    for gone in RETIRED:
+        assert f"`{gone}`" not in figures and f'"{gone}"' not in figures, gone
+    assert all(f"`{panel}`" in figures for panel in PANELS)
+    assert "0.5 and 1" not in figures

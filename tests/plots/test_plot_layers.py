@@ -16,7 +16,7 @@ from service.core import fit_series
 from service.plots import PANELS, PlotOptions, render
 x = np.linspace(0, 1, 20)
 png = render(fit_series(x, x ** 2 + np.sin(9 * x) / 10), x, x ** 2 + np.sin(9 * x) / 10,
-             None, PlotOptions(panels=PANELS, width=1200, height=700))
+             None, PlotOptions(panels=PANELS))
 bad = [m for m in ("matplotlib.pyplot", "flask", "werkzeug", "marshmallow", "schemas")
        if m in sys.modules]
 print(bad, png[:4])

@@ -29,8 +29,9 @@ def bodies(draw):
                                      st.sampled_from(["sequential_f", "aic", "bic", "press",
                                                       "adj_r2", "aicc"]))))
     panels = draw(st.lists(st.sampled_from(PANELS), min_size=1, max_size=6, unique=True))
-    plot = {"panels": panels, "width": draw(st.integers(200, 900)),
-            "height": draw(st.integers(200, 700)), "dpi": draw(st.sampled_from([50, 72, 100])),
+    size = st.one_of(st.none(), st.integers(200, 1400))
+    plot = {"panels": panels, "width": draw(size), "height": draw(size),
+            "dpi": draw(st.sampled_from([50, 72, 100])),
             "format": draw(st.sampled_from(["png", "svg"])),
             "simultaneous": draw(st.booleans())}
     return {"x": x, "y": y, "model": model, "plot": plot,
@@ -51,6 +52,8 @@ def test_plot_answers_an_image_or_a_problem(client, body):
     if body["plot"]["format"] == "png":
         image = Image.open(io.BytesIO(r.data))
         image.load()
-        assert image.size == (body["plot"]["width"], body["plot"]["height"])
+        for asked, got in zip((body["plot"]["width"], body["plot"]["height"]), image.size,
+                              strict=True):
+            assert got == asked if asked is not None else got >= 600
     else:
         assert r.data.lstrip().startswith(b"<?xml") and b"</svg>" in r.data[-100:]
