@@ -3,8 +3,8 @@
 Reference: ``service.core.fit_series`` (itself checked against NIST StRD and
 statsmodels in tests/core) on the same seeded ragged data, to 1e-9 relative
 (the issue's requirement), for every selection method, fixed degrees,
-weights, no intercept and transforms. Flags, tests and outlier indices must
-match exactly.
+weights, no intercept and transforms. Flags with their severities, tests and
+outlier indices must match exactly.
 """
 
 from __future__ import annotations
@@ -50,8 +50,9 @@ def _compare(result, series, model, *, press: bool, p_last: bool):
         tests = {t.name: t for t in ref.diagnostics.tests}
         worst = max(worst, rel(cols["shapiro_wilk_p"][g], tests["shapiro_wilk"].p_value),
                     rel(cols["breusch_pagan_p"][g], tests["breusch_pagan"].p_value),
-                    rel(cols["durbin_watson"][g], tests["durbin_watson"].statistic))
-        assert result.flag_codes(g) == tuple(f.code for f in ref.flags), g
+                    rel(cols["durbin_watson"][g], tests["durbin_watson"].statistic),
+                    rel(cols["durbin_watson_p"][g], tests["durbin_watson"].p_value))
+        assert result.flag_severities(g) == tuple((f.code, f.severity) for f in ref.flags), g
         assert result.outliers.get(g, ()) == ref.diagnostics.outliers, g
         assert result.influential.get(g, ()) == ref.diagnostics.influential, g
     return worst
@@ -116,7 +117,7 @@ def test_replicated_x_gets_the_lack_of_fit_test_of_fit_series():
         ref = fit_series(x, y, model=model, options=SUMMARY)
         lof = ref.diagnostics.lack_of_fit
         assert rel(result.columns["lack_of_fit_p"][g], lof.p_value) < TOL
-        assert result.flag_codes(g) == tuple(f.code for f in ref.flags)
+        assert result.flag_severities(g) == tuple((f.code, f.severity) for f in ref.flags)
 
 
 def test_ill_conditioned_designs_get_the_single_series_answer_and_flag():
@@ -184,7 +185,7 @@ def test_exact_fits_constant_y_and_interpolation_equal_fit_series(model):
     for g, (xs, ys) in enumerate(series):
         ref = fit_series(xs, ys, model=model, options=SUMMARY)
         assert result.columns["degree"][g] == ref.selection.chosen_degree, g
-        assert result.flag_codes(g) == tuple(f.code for f in ref.flags), g
+        assert result.flag_severities(g) == tuple((f.code, f.severity) for f in ref.flags), g
         k = len(ref.coefficients)
         design = np.vander(xs, k, increasing=True)
         scale = np.abs(ys).max()

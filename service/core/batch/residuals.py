@@ -2,10 +2,12 @@
 
 :func:`residual_pass` makes one pass over a series' points for the chosen
 fit: residuals, hat diagonals, the outlier and influence marks, and the sums
-behind Shapiro-Wilk's denominator, Durbin-Watson and Breusch-Pagan (Koenker's
-studentized form, ``LM = n R^2`` of ``e^2`` on the unweighted orthonormal
-powers of t). Shapiro-Wilk needs the residuals sorted; numpy's vectorized sort
-does that for a whole chunk (:func:`gather_padded`, then :func:`shapiro_w_p`).
+behind Shapiro-Wilk's denominator, Durbin-Watson and its null moments (the
+design sums of :mod:`service.core.checks.durbin_watson`) and Breusch-Pagan
+(Koenker's studentized form, ``LM = n R^2`` of ``e^2`` on the unweighted
+orthonormal powers of t). Shapiro-Wilk needs the residuals sorted; numpy's
+vectorized sort does that for a whole chunk (:func:`gather_padded`, then
+:func:`shapiro_w_p`).
 """
 
 from __future__ import annotations
@@ -20,7 +22,7 @@ OUTLIER_BIT, INFLUENTIAL_BIT = 1, 2
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
-def residual_pass(res, b, q, p, P, n, cuts, qb, degree, bp_sums, marks, resid, a):
+def residual_pass(res, b, q, p, P, n, cuts, qb, degree, bp_sums, dw_scratch, marks, resid, a):
     """Residuals and marks of the chosen fit; returns the counts and test statistics.
 
     Parameters
@@ -31,17 +33,28 @@ def residual_pass(res, b, q, p, P, n, cuts, qb, degree, bp_sums, marks, resid, a
         ``e^2 h/(1-h)^2`` and ``h`` (``inf``: not tested).
     qb, degree : unweighted orthonormal basis for Breusch-Pagan, and how many
         powers it uses (0: not computed); ``bp_sums`` scratch of ``degree + 1``.
+    dw_scratch : scratch of at least (p + 2, p): the Gram matrix ``G`` of consecutive
+        basis differences, the previous difference and the current one.
     marks, resid, a : flat outputs (outlier/influential bits, residuals) at offset ``a``.
 
     Returns
     -------
-    (n_outliers, n_influential, n_high_leverage, spread, durbin_watson, breusch_pagan)
+    counts : (n_outliers, n_influential, n_high_leverage, n_influential_outliers,
+        n_high_leverage_influential_outliers)
+    spread, durbin_watson, breusch_pagan : float
         ``spread`` is the sum of squared deviations (NaN outside 3..5000 points).
+    dw_sums : (tr(G), ||G||_F², ||AQ||_F²), the moments of Durbin-Watson's d
+        (:func:`service.core.checks.durbin_watson.traces`).
     """
     out_cut, inf_cut, lev_cut = cuts
-    n_out = n_inf = n_high = 0
+    n_out = n_inf = n_high = n_both = n_lever = 0
     s1 = s2 = s4 = dd = prev = 0.0
     bp_sums[:] = 0.0
+    gram = dw_scratch[:p, :p]
+    last, cur = dw_scratch[p], dw_scratch[p + 1]
+    gram[:, :] = 0.0
+    last[:p] = 0.0
+    frob_aq = 0.0
     for i in range(n):
         e = res[i]
         for k in range(p, P):
@@ -49,6 +62,11 @@ def residual_pass(res, b, q, p, P, n, cuts, qb, degree, bp_sums, marks, resid, a
         h = 0.0
         for k in range(p):
             h += q[k, i] * q[k, i]
+            cur[k] = q[k, i] - q[k, i - 1] if i > 0 else 0.0
+            frob_aq += (cur[k] - last[k]) * (cur[k] - last[k])
+            last[k] = cur[k]
+            for j in range(k + 1):
+                gram[k, j] += cur[k] * cur[j]
         one_h = 1 - h
         r = e * e / one_h
         mark = 0
@@ -60,6 +78,10 @@ def residual_pass(res, b, q, p, P, n, cuts, qb, degree, bp_sums, marks, resid, a
             n_inf += 1
         if h > lev_cut:
             n_high += 1
+        if mark == OUTLIER_BIT | INFLUENTIAL_BIT:
+            n_both += 1
+            if h > lev_cut:
+                n_lever += 1
         marks[a + i] = mark
         resid[a + i] = e
         e2 = e * e
@@ -71,6 +93,12 @@ def residual_pass(res, b, q, p, P, n, cuts, qb, degree, bp_sums, marks, resid, a
         prev = e
         for k in range(1, degree + 1):
             bp_sums[k] += qb[k, i] * e2
+    trace_g = frob_g = 0.0
+    for k in range(p):
+        frob_aq += last[k] * last[k]
+        trace_g += gram[k, k]
+        for j in range(k + 1):
+            frob_g += gram[k, j] * gram[k, j] * (1.0 if j == k else 2.0)
     spread = s2 - n * (s1 / n) * (s1 / n) if 3 <= n <= SHAPIRO_MAX_N else np.nan
     dw = dd / s2 if s2 > 0 else np.nan
     bp = np.nan
@@ -85,7 +113,8 @@ def residual_pass(res, b, q, p, P, n, cuts, qb, degree, bp_sums, marks, resid, a
                 d = resid[a + i] * resid[a + i] - s2 / n
                 ss += d * d
         bp = n * proj / ss if ss > 0 else np.nan
-    return n_out, n_inf, n_high, spread, dw, bp
+    return ((n_out, n_inf, n_high, n_both, n_lever), spread, dw, bp,
+            (trace_g, frob_g, frob_aq))
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
