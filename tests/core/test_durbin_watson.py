@@ -117,8 +117,8 @@ def test_without_a_design_the_bound_is_conservative():
         lam = 2.0 * (1.0 - np.cos(np.pi * np.arange(n) / n))
         assert np.all(nu >= lam[:n - 3] - 1e-12)   # Cauchy interlacing
         for level in (0.01, 0.05):
-            c = optimize.brentq(lambda c, lv=level: _exact_cdf(c, nu) - lv, nu[0], nu[-1],
-                                xtol=1e-12)
+            c = optimize.brentq(lambda c, lv=level, ev=nu: _exact_cdf(c, ev) - lv, nu[0],
+                                nu[-1], xtol=1e-12)
             bound = durbin_watson.p_value(c, n - 3, *durbin_watson.bound_traces(n, 3))
             assert bound >= level, (n, level, bound)
 
