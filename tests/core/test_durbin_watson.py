@@ -151,3 +151,7 @@ def test_undefined_cases_are_nan():
     out = durbin_watson.p_value(np.array([0.5, 2.0]), np.array([20, 20]),
                                 np.array([40.0, 40.0]), np.array([120.0, 120.0]))
     assert out.shape == (2,) and out[0] < out[1]
+    # one fit's plain-float path gives the same bits as the array path (batch = fit_series)
+    for args in ((0.5, 20, 40.0, 120.0), (2.0, 20, 40.0, 120.0), (0.3, 37, 77.9, 231.9)):
+        assert durbin_watson.p_value_one(*args) == float(durbin_watson.p_value(*args))
+    assert np.isnan(durbin_watson.p_value_one(1.0, 1, 2.0, 4.0))

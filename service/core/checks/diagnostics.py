@@ -70,15 +70,14 @@ def formal_tests(tested: bool, exact: bool, n: int, sw: tuple, bp: TestResult,
                  for name in ("shapiro_wilk", "breusch_pagan", "durbin_watson"))
 
 
-def durbin_watson_result(dw: float, n: int, p: int, tr1: float, tr2: float,
+def durbin_watson_result(dw: float, p_value: float,
                          note: str = durbin_watson.NOTE) -> TestResult:
     """The Durbin-Watson row: ``d`` and its one-sided p-value for positive serial correlation
-    from ``tr(MA)``, ``tr((MA)²)`` (:func:`service.core.checks.durbin_watson.p_value`)."""
+    (:func:`service.core.checks.durbin_watson.p_value_one`)."""
     if math.isnan(dw):
         return TestResult("durbin_watson", NAN, NAN, None,
                           "not computed: the residuals are all zero")
-    return TestResult("durbin_watson", dw, durbin_watson.p_value(dw, n - p, tr1, tr2), None,
-                      note)
+    return TestResult("durbin_watson", dw, p_value, None, note)
 
 
 def shapiro_result(status: int, w: float, w_p: float, n: int) -> TestResult:
@@ -162,10 +161,11 @@ def residual_diagnostics(index: np.ndarray, x: np.ndarray, e: np.ndarray, h: np.
           TestResult("breusch_pagan", NAN, NAN, None,
                      "needs at least one auxiliary regressor and more points than regressors"))
     if basis is not None:
-        dw_row = durbin_watson_result(dw, n, p, *durbin_watson.design_traces(basis))
+        dw_row = durbin_watson_result(dw, durbin_watson.p_value_one(
+            dw, n - p, *durbin_watson.design_traces(basis)))
     else:
-        dw_row = durbin_watson_result(dw, n, p, *durbin_watson.bound_traces(n, p),
-                                      note=durbin_watson.NOTE_BOUND)
+        dw_row = durbin_watson_result(dw, durbin_watson.p_value_one(
+            dw, n - p, *durbin_watson.bound_traces(n, p)), note=durbin_watson.NOTE_BOUND)
     tests = formal_tests(tested, exact, n, (status, w, w_p), bp, dw_row)
     cuts = cut_offs(n, p, df)
     flagged = (checks_kernels.positions(index, out[3], cuts[0], True),

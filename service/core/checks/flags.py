@@ -147,9 +147,9 @@ def _from_diagnostics(d: Diagnostics) -> list[TrustFlag]:
                              "Bonferroni-adjusted studentized-residual limit.",
                              {"indices": d.outliers, "threshold": d.thresholds["outlier_t"],
                               "alpha": TEST_ALPHA, "family_alpha": FAMILY_ALPHA}))
-    outlying = set(d.outliers)
+    outlying = set(d.outliers) if d.outliers else ()
     if d.influential:
-        both = tuple(i for i in d.influential if i in outlying)
+        both = tuple(i for i in d.influential if i in outlying) if outlying else ()
         if both:
             message = (f"{len(both)} point(s) are outliers that also change the fit strongly "
                        "on their own (Cook's distance); check them.")
@@ -160,8 +160,10 @@ def _from_diagnostics(d: Diagnostics) -> list[TrustFlag]:
                              {"indices": d.influential, "outlying": both,
                               "threshold": d.thresholds["cooks_distance"]}))
     if d.high_leverage:
-        lever = set(d.high_leverage)
-        both = tuple(i for i in d.influential if i in outlying and i in lever)
+        both = ()
+        if outlying and d.influential:
+            lever = set(d.high_leverage)
+            both = tuple(i for i in d.influential if i in outlying and i in lever)
         if both:
             message = (f"{len(both)} high-leverage point(s) are influential outliers: the "
                        "curve leans on points that disagree with the rest.")

@@ -21,7 +21,6 @@ from service.core.checks.diagnostics import (
     formal_tests,
     shapiro_coefficients,
 )
-from service.core.checks.durbin_watson import traces
 from service.core.checks.lack_of_fit import lack_of_fit
 from service.core.polynomial.compiled import checks as kernels_checks
 from service.core.polynomial.decomposition import Decomposition
@@ -59,11 +58,11 @@ def diagnose(index: np.ndarray, x: np.ndarray, dec: Decomposition, degree: int, 
     tested = not exact and df >= 1
     bp_rinv = _bp_basis(dec, degree) if tested and 1 <= degree < n - 1 else _NO_BASIS
     cuts = cut_offs(n, p, df)
-    status, w, w_p, lm, lm_p, dw, outliers, high, infl, dw_sums = kernels_checks.fit_checks(
+    status, w, w_p, lm, lm_p, dw, outliers, high, infl, dw_p = kernels_checks.fit_checks(
         dec.t, dec.weights, dec.zw, dec.first, np.ascontiguousarray(dec.r_inv64[:p, :p]),
         dec.effects64, p, rss, df, bp_rinv, out, tested, shapiro_coefficients(n, tested),
         index, cuts)
-    dw_row = durbin_watson_result(dw, n, p, *traces(n, *dw_sums.tolist())) if tested else None
+    dw_row = durbin_watson_result(dw, dw_p) if tested else None
     tests = formal_tests(tested, exact, n, (status, w, w_p), _breusch_pagan(n, degree, lm, lm_p),
                          dw_row)
     lof = lack_of_fit(x, dec.zw, dec.sqrt_w, rss, p, distinct)

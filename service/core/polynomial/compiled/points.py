@@ -196,18 +196,20 @@ def _difference_sums(q, dq, m, p, first, carry, gram):
         for i in range(1, m):
             dj[i] = qj[i] - qj[i - 1]
         acc = (dj[0] - carry[1, j]) * (dj[0] - carry[1, j])
+        diag = dj[0] * dj[0]
         for i in range(1, m):
             acc += (dj[i] - dj[i - 1]) * (dj[i] - dj[i - 1])
+            diag += dj[i] * dj[i]
         frob_aq += acc
+        gram[j, j] += diag
         carry[0, j], carry[1, j] = qj[m - 1], dj[m - 1]
-    for j in range(p):
-        for k in range(j + 1):
+    for j in range(1, p):
+        for k in range(j):
             acc = 0.0
             for i in range(m):
                 acc += dq[j, i] * dq[k, i]
             gram[j, k] += acc
-            if k < j:
-                gram[k, j] = gram[j, k]
+            gram[k, j] = gram[j, k]
     return frob_aq
 
 
