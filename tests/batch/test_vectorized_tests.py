@@ -64,8 +64,7 @@ def test_residual_pass_durbin_watson_equals_statsmodels_for_many_lengths():
         e = np.cumsum(rng.normal(size=n)) * 0.3 + rng.normal(size=n)
         got = batch_residuals.residual_pass(
             e, np.zeros(1), np.zeros((1, n)), 0, 0, n, (np.inf, np.inf, np.inf),
-            np.zeros((1, n)), 0, np.zeros(2), np.zeros((2, 1)), np.zeros(n, dtype=np.uint8),
-            np.empty(n), 0)
+            np.zeros((1, n)), 0, np.zeros(2), np.zeros(n, dtype=np.uint8), np.empty(n), 0)
         assert rel(got[2], durbin_watson(e)) < 1e-12
         assert rel(got[1], ((e - e.mean()) ** 2).sum()) < 1e-9  # Shapiro-Wilk denominator
 

@@ -96,7 +96,6 @@ def fit_rows(u, z, w, unit, offsets, rows, dmin, dmax, intercept, code, need_pre
     res = np.empty(width)
     e = np.empty(width)
     bp_sums = np.empty(dmax + 2)
-    dw_scratch = np.empty((P + 2, P))
     q = np.empty((P, width))
     qb = np.empty((dmax + 1, width))
     ck = np.zeros((P, P))
@@ -271,7 +270,7 @@ def fit_rows(u, z, w, unit, offsets, rows, dmin, dmax, intercept, code, need_pre
             basis(t, s, n, dmax + 1, True, True, qb, ckb)
         counts, spread, dw, bp, dw_sums = residual_pass(
             res, b, q, p, P, n, (out_cut, inf_cut, lev_cut),
-            q if unit and intercept else qb, bp_degree, bp_sums, dw_scratch, marks, resid, a)
+            q if unit and intercept else qb, bp_degree, bp_sums, marks, resid, a)
         row = sc[g]
         row[0], row[1], row[2], row[3], row[4] = n, dmin + pick, df, rss, sigma
         for j in range(3, 9):   # r_squared .. press of the chosen candidate

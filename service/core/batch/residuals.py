@@ -19,10 +19,11 @@ from service.core.checks.kernels import shapiro_p
 from service.core.checks.shapiro_tables import SHAPIRO_MAX_N
 
 OUTLIER_BIT, INFLUENTIAL_BIT = 1, 2
+_SUM = {"reassoc", "nsz"}  # vectorized sums only; no assumption about NaN or infinity
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
-def residual_pass(res, b, q, p, P, n, cuts, qb, degree, bp_sums, dw_scratch, marks, resid, a):
+def residual_pass(res, b, q, p, P, n, cuts, qb, degree, bp_sums, marks, resid, a):
     """Residuals and marks of the chosen fit; returns the counts and test statistics.
 
     Parameters
@@ -33,8 +34,6 @@ def residual_pass(res, b, q, p, P, n, cuts, qb, degree, bp_sums, dw_scratch, mar
         ``e^2 h/(1-h)^2`` and ``h`` (``inf``: not tested).
     qb, degree : unweighted orthonormal basis for Breusch-Pagan, and how many
         powers it uses (0: not computed); ``bp_sums`` scratch of ``degree + 1``.
-    dw_scratch : scratch of at least (p + 2, p): the Gram matrix ``G`` of consecutive
-        basis differences, the previous difference and the current one.
     marks, resid, a : flat outputs (outlier/influential bits, residuals) at offset ``a``.
 
     Returns
@@ -43,18 +42,12 @@ def residual_pass(res, b, q, p, P, n, cuts, qb, degree, bp_sums, dw_scratch, mar
         n_high_leverage_influential_outliers)
     spread, durbin_watson, breusch_pagan : float
         ``spread`` is the sum of squared deviations (NaN outside 3..5000 points).
-    dw_sums : (tr(G), ||G||_F², ||AQ||_F²), the moments of Durbin-Watson's d
-        (:func:`service.core.checks.durbin_watson.traces`).
+    dw_sums : (tr(G), ||G||_F², ||AQ||_F²) of the fit's basis (:func:`design_sums`).
     """
     out_cut, inf_cut, lev_cut = cuts
     n_out = n_inf = n_high = n_both = n_lever = 0
     s1 = s2 = s4 = dd = prev = 0.0
     bp_sums[:] = 0.0
-    gram = dw_scratch[:p, :p]
-    last, cur = dw_scratch[p], dw_scratch[p + 1]
-    gram[:, :] = 0.0
-    last[:p] = 0.0
-    frob_aq = 0.0
     for i in range(n):
         e = res[i]
         for k in range(p, P):
@@ -62,11 +55,6 @@ def residual_pass(res, b, q, p, P, n, cuts, qb, degree, bp_sums, dw_scratch, mar
         h = 0.0
         for k in range(p):
             h += q[k, i] * q[k, i]
-            cur[k] = q[k, i] - q[k, i - 1] if i > 0 else 0.0
-            frob_aq += (cur[k] - last[k]) * (cur[k] - last[k])
-            last[k] = cur[k]
-            for j in range(k + 1):
-                gram[k, j] += cur[k] * cur[j]
         one_h = 1 - h
         r = e * e / one_h
         mark = 0
@@ -93,12 +81,6 @@ def residual_pass(res, b, q, p, P, n, cuts, qb, degree, bp_sums, dw_scratch, mar
         prev = e
         for k in range(1, degree + 1):
             bp_sums[k] += qb[k, i] * e2
-    trace_g = frob_g = 0.0
-    for k in range(p):
-        frob_aq += last[k] * last[k]
-        trace_g += gram[k, k]
-        for j in range(k + 1):
-            frob_g += gram[k, j] * gram[k, j] * (1.0 if j == k else 2.0)
     spread = s2 - n * (s1 / n) * (s1 / n) if 3 <= n <= SHAPIRO_MAX_N else np.nan
     dw = dd / s2 if s2 > 0 else np.nan
     bp = np.nan
@@ -113,8 +95,63 @@ def residual_pass(res, b, q, p, P, n, cuts, qb, degree, bp_sums, dw_scratch, mar
                 d = resid[a + i] * resid[a + i] - s2 / n
                 ss += d * d
         bp = n * proj / ss if ss > 0 else np.nan
-    return ((n_out, n_inf, n_high, n_both, n_lever), spread, dw, bp,
-            (trace_g, frob_g, frob_aq))
+    return (n_out, n_inf, n_high, n_both, n_lever), spread, dw, bp, design_sums(q, p, n)
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy", fastmath=_SUM)
+def design_sums(q, p, n):
+    """``tr(G)``, ``||G||_F²`` and ``||AQ||_F²`` of the basis rows ``q[:p, :n]``: the moments
+    of Durbin-Watson's d (:mod:`service.core.checks.durbin_watson`).
+
+    ``G = sum_i d_i d_i'`` over the differences ``d_i = q_i - q_(i-1)``, and
+    ``||AQ||² = d_1² + sum_(i>=2) (d_i - d_(i-1))² + d_(n-1)²``; tight loops over one
+    column (or a pair), outside the per-point pass.
+    """
+    trace_g = frob_g = frob_aq = 0.0
+    if n < 2:
+        return trace_g, frob_g, frob_aq
+    for k in range(p):   # shifted views: no negative indices in the loops (they vectorize)
+        qk = q[k]
+        first, last = qk[1] - qk[0], qk[n - 1] - qk[n - 2]
+        now, one_back, two_back = qk[2:n], qk[1:n - 1], qk[0:n - 2]
+        diag = first * first
+        aq = 0.0
+        for i in range(n - 2):
+            d = now[i] - one_back[i]
+            s2 = d - (one_back[i] - two_back[i])
+            diag += d * d
+            aq += s2 * s2
+        frob_aq += aq + first * first + last * last
+        trace_g += diag
+        frob_g += diag * diag
+        k_now, k_back = qk[1:n], qk[0:n - 1]
+        for j in range(k):
+            j_now, j_back = q[j, 1:n], q[j, 0:n - 1]
+            acc = 0.0
+            for i in range(n - 1):
+                acc += (k_now[i] - k_back[i]) * (j_now[i] - j_back[i])
+            frob_g += 2.0 * acc * acc
+    return trace_g, frob_g, frob_aq
+    for k in range(p):
+        qk = q[k]
+        first, last = qk[1] - qk[0], qk[n - 1] - qk[n - 2]
+        diag = first * first
+        aq = 0.0
+        for i in range(2, n):
+            d = qk[i] - qk[i - 1]
+            s2 = qk[i] - 2.0 * qk[i - 1] + qk[i - 2]
+            diag += d * d
+            aq += s2 * s2
+        frob_aq += aq + first * first + last * last
+        trace_g += diag
+        frob_g += diag * diag
+        for j in range(k):
+            qj = q[j]
+            acc = 0.0
+            for i in range(1, n):
+                acc += (qk[i] - qk[i - 1]) * (qj[i] - qj[i - 1])
+            frob_g += 2.0 * acc * acc
+    return trace_g, frob_g, frob_aq
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")

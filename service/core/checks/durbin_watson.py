@@ -84,8 +84,11 @@ def p_value(d, k, tr1, tr2):
     The compiled :func:`service.core.checks.kernels.dw_p` row by row, so one fit
     (:func:`p_value_one`) and a batch get the same bits.
     """
-    d, k, tr1, tr2 = np.broadcast_arrays(*(np.asarray(v, dtype=float)
-                                           for v in (d, k, tr1, tr2)))
+    args = (d, k, tr1, tr2)
+    if all(isinstance(v, np.ndarray) and v.ndim == 1 and v.dtype == np.float64
+           and v.shape == args[0].shape for v in args):    # a batch's columns
+        return kernels.dw_p_many(*args)
+    d, k, tr1, tr2 = np.broadcast_arrays(*(np.asarray(v, dtype=float) for v in args))
     out = kernels.dw_p_many(*(np.ascontiguousarray(v).ravel() for v in (d, k, tr1, tr2)))
     return out.reshape(d.shape)
 

@@ -190,16 +190,17 @@ def _difference_sums(q, dq, m, p, first, carry, gram):
     the caller adds the last difference squared (``d_n = 0``) after the last chunk.
     """
     frob_aq = 0.0
-    for j in range(p):
+    for j in range(p):   # shifted views: no negative indices in the loops (they vectorize)
         qj, dj = q[j], dq[j]
         dj[0] = 0.0 if first else qj[0] - carry[0, j]
-        for i in range(1, m):
-            dj[i] = qj[i] - qj[i - 1]
+        q_now, q_back, d_now, d_back = qj[1:m], qj[0:m - 1], dj[1:m], dj[0:m - 1]
+        for i in range(m - 1):
+            d_now[i] = q_now[i] - q_back[i]
         acc = (dj[0] - carry[1, j]) * (dj[0] - carry[1, j])
         diag = dj[0] * dj[0]
-        for i in range(1, m):
-            acc += (dj[i] - dj[i - 1]) * (dj[i] - dj[i - 1])
-            diag += dj[i] * dj[i]
+        for i in range(m - 1):
+            acc += (d_now[i] - d_back[i]) * (d_now[i] - d_back[i])
+            diag += d_now[i] * d_now[i]
         frob_aq += acc
         gram[j, j] += diag
         carry[0, j], carry[1, j] = qj[m - 1], dj[m - 1]
