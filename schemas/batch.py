@@ -185,7 +185,7 @@ def summary_rows(result, rows, terms_of) -> list[dict]:
     """Compact summaries of the fitted rows ``rows`` of a columnar batch result.
 
     ``result`` has ``columns``, ``coefficients``, ``std_errors``, ``candidates``,
-    ``select``, ``outliers`` and ``flag_codes(row)`` (the core's BatchResult);
+    ``select``, ``outliers`` and ``flags_of(mask, levels)`` (the core's BatchResult);
     ``terms_of(degree, intercept)`` names the coefficients.
     """
     rows = np.asarray(rows, dtype=np.int64)
@@ -225,11 +225,12 @@ def summary_rows(result, rows, terms_of) -> list[dict]:
                   c["sigma"][rows].tolist(), c["r_squared"][rows].tolist(),
                   c["adj_r_squared"][rows].tolist(), c["df_residual"][rows].tolist(),
                   c["shapiro_wilk_p"][rows].tolist(), c["breusch_pagan_p"][rows].tolist(),
-                  c["durbin_watson"][rows].tolist(), c["lack_of_fit_p"][rows].tolist(),
-                  c["flags"][rows].tolist(), strict=True)
-    codes_of, outliers = result.codes_of, result.outliers
-    for i, (row, n, deg, kk, icpt, method, est, se, sigma, r2, adj, df, sw, bp, dw, lof,
-            mask) in enumerate(columns):
+                  c["durbin_watson"][rows].tolist(), c["durbin_watson_p"][rows].tolist(),
+                  c["lack_of_fit_p"][rows].tolist(), c["flags"][rows].tolist(),
+                  c["flag_levels"][rows].tolist(), strict=True)
+    flags_of, outliers = result.flags_of, result.outliers
+    for i, (row, n, deg, kk, icpt, method, est, se, sigma, r2, adj, df, sw, bp, dw, dw_p, lof,
+            mask, levels) in enumerate(columns):
         terms = terms_cache.get((deg, icpt))
         if terms is None:
             terms = terms_cache[(deg, icpt)] = list(terms_of(deg, icpt))
@@ -237,8 +238,9 @@ def summary_rows(result, rows, terms_of) -> list[dict]:
                 "std_error": se[:kk], "sigma": sigma, "r_squared": r2, "adj_r_squared": adj,
                 "df_residual": df, "selection": measure_rows.get(i) or {"method": method},
                 "tests": {"shapiro_wilk_p": sw, "breusch_pagan_p": bp, "durbin_watson": dw,
-                          "lack_of_fit_p": lof},
-                "flags": list(codes_of(mask))}
+                          "durbin_watson_p": dw_p, "lack_of_fit_p": lof},
+                "flags": [{"code": code, "severity": severity}
+                          for code, severity in flags_of(mask, levels)]}
         if row in outliers:
             body["outliers"] = list(outliers[row])
         out.append(body)
@@ -266,10 +268,14 @@ class SummarySchema(Schema):
                        "undefined, and for sequential_f beyond the first non-significant "
                        "power, which the climb never examines), and f (sequential F)."})
     tests = fields.Dict(metadata={"description": "shapiro_wilk_p, breusch_pagan_p, "
-                                                 "durbin_watson, lack_of_fit_p (null if not "
-                                                 "computed)."})
-    flags = fields.List(fields.String(), metadata={
-        "description": "Trust flag codes (as in /v1/fit flags; see /docs for the messages)."})
+                                                 "durbin_watson, durbin_watson_p (one-sided, "
+                                                 "positive serial correlation), lack_of_fit_p "
+                                                 "(null if not computed)."})
+    flags = fields.List(fields.Dict(), metadata={
+        "description": "Trust flags as {code, severity} (as in /v1/fit flags, without the "
+                       "message and evidence; see /docs). Triage on severity: caution and "
+                       "serious flags rest on tests with a family-wise level of 0.05 per fit, "
+                       "or on facts about the design; info flags describe the design."})
     outliers = fields.List(fields.Integer(), metadata={
         "description": "Indices of outlying points, when there are any."})
 
@@ -289,4 +295,7 @@ class BatchResponseSchema(Schema):
     """Results in request order, then counts."""
 
     results = fields.List(fields.Nested(BatchResultSchema))
-    summary = fields.Dict(metadata={"description": "ok, error and flagged counts."})
+    summary = fields.Dict(metadata={
+        "description": "Counts: ok and error series; flagged, the series with at least one "
+                       "caution or serious flag; by_severity, the series by their most severe "
+                       "flag (serious, caution, info, none)."})

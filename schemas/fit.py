@@ -98,8 +98,9 @@ class FitRequestSchema(StrictSchema):
         load_default=lambda: list(SECTIONS),
         error_messages={"invalid": "Must be an array of section names."},
         metadata={"description": "Sections to compute and return (default: all). n, model, "
-                                 "warnings and flags are always returned. Diagnostics are "
-                                 "the costly section on large series."})
+                                 "warnings and flags are always returned, and the flags "
+                                 "always rest on the full diagnostics (computed whether or "
+                                 "not the diagnostics section is returned)."})
 
     @validates_schema
     def _consistent(self, data, **kwargs):

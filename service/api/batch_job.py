@@ -23,6 +23,7 @@ from service.http.reporting import fit_response
 from service.http.requests import grid_spec, model_spec
 from service.runtime.observability import record_fit_failure
 
+SEVERITY_ORDER = ("serious", "caution", "info", "none")   # most severe first
 FULL_INCLUDE = ("coefficients", "anova", "statistics", "selection", "diagnostics",
                 "fitted_model")
 
@@ -43,7 +44,8 @@ class BatchJob:
             grid=grid_spec(grid) if grid is not None else None,
             include=frozenset(include) | ({"grid"} if grid is not None else set()),
             max_grid_points=settings.max_grid_points)
-        self.counts = {"ok": 0, "error": 0, "flagged": 0}
+        self.counts = {"ok": 0, "error": 0, "flagged": 0,
+                       "by_severity": dict.fromkeys(SEVERITY_ORDER, 0)}
 
     def results(self, items):
         """``items``: (id, series tuple or error body). Returns result dicts in order."""
@@ -70,7 +72,7 @@ class BatchJob:
                 out.append({"id": ident, "status": "error", "error": series})
             elif j in bodies:
                 fit = bodies[j]
-                self.counts["flagged"] += bool(fit.get("flags"))
+                self._count_flags(fit.get("flags") or ())
                 out.append({"id": ident, "status": "ok", "fit": fit})
             else:
                 out.append({"id": ident, "status": "error",
@@ -81,6 +83,13 @@ class BatchJob:
         for code, count in reasons.items():
             record_fit_failure(code, count)
         return out
+
+    def _count_flags(self, flags) -> None:
+        """Count one fitted series by its most severe flag (caution or serious: flagged)."""
+        found = {flag["severity"] for flag in flags}
+        worst = next(s for s in SEVERITY_ORDER if s in found or s == "none")
+        self.counts["by_severity"][worst] += 1
+        self.counts["flagged"] += worst in ("serious", "caution")
 
     def _fits(self, batch, rows):
         if self.detail == "full":

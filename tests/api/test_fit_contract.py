@@ -218,6 +218,21 @@ def test_include_chooses_sections(client, seeded):
     assert "coefficients" not in out and "model" in out
 
 
+def test_flags_do_not_depend_on_include(client, seeded):
+    # the diagnostic flags are computed whether or not the diagnostics section is returned;
+    # a spike makes sure there is a test-based flag to lose
+    x, y, _ = seeded
+    y = y.copy()
+    y[20] += 6.0
+    full = fit(client, {"x": x.tolist(), "y": y.tolist(), "model": {"degree": 2}})
+    assert "outliers" in {f["code"] for f in full["flags"]}
+    for include in ([], ["coefficients"], ["statistics", "grid"]):
+        out = fit(client, {"x": x.tolist(), "y": y.tolist(), "model": {"degree": 2},
+                           "include": include})
+        assert "diagnostics" not in out
+        assert out["flags"] == full["flags"], include
+
+
 def test_missing_drop_removes_pairs_and_reports_them(client, seeded):
     # Oracle: the same fit on the complete pairs only (numpy polyfit).
     x, y, _ = seeded

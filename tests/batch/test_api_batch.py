@@ -49,7 +49,8 @@ def test_batch_results_equal_single_fit_results(client):
         assert rel(fit["std_error"], [c["std_error"] for c in one["coefficients"]]) < 1e-9
         for name in ("sigma", "r_squared", "adj_r_squared"):
             assert rel(fit[name], one["statistics"][name]) < 1e-9
-        assert fit["flags"] == [f["code"] for f in one["flags"]]
+        assert fit["flags"] == [{"code": f["code"], "severity": f["severity"]}
+                                for f in one["flags"]]
         aic = [c["aic"] for c in one["selection"]["candidates"]]
         assert rel(fit["selection"]["values"], aic) < 1e-9
 
@@ -97,7 +98,12 @@ def test_ndjson_survives_a_broken_line_and_keeps_order(client):
     lines = [{"options": {"model": MODEL}}] + series[:3] + [b'{"id": "oops", "x": [1, 2'] \
         + series[3:]
     out = _ndjson(client, lines)
-    assert out[-1]["summary"] == {"ok": 6, "error": 1, "flagged": out[-1]["summary"]["flagged"]}
+    summary = out[-1]["summary"]
+    assert summary == {"ok": 6, "error": 1, "flagged": summary["flagged"],
+                       "by_severity": summary["by_severity"]}
+    assert sum(summary["by_severity"].values()) == 6
+    assert summary["flagged"] == summary["by_severity"]["serious"] + summary["by_severity"][
+        "caution"]
     results = out[:-1]
     assert [r["line"] for r in results] == [2, 3, 4, 5, 6, 7, 8]
     assert results[3]["status"] == "error" and results[3]["error"]["status"] == 400
@@ -105,6 +111,29 @@ def test_ndjson_survives_a_broken_line_and_keeps_order(client):
     json_body = _post(client, {"series": series, "model": MODEL}).get_json()
     ok = [r for r in results if r["status"] == "ok"]
     assert [r["fit"] for r in ok] == [r["fit"] for r in json_body["results"]]
+
+
+def test_summary_counts_series_by_their_most_severe_flag(client):
+    # seeded invented series: two clean quadratics (at most info flags expected), one with
+    # an absurd spike (outliers: caution), one interpolated exactly (no_residual_df: serious)
+    rng = np.random.default_rng(4)
+    x = np.linspace(0.0, 10.0, 40)
+    clean = [1.0 + 0.5 * x - 0.03 * x * x + rng.normal(0.0, 0.2, x.size) for _ in range(2)]
+    spike = clean[0].copy()
+    spike[17] += 50.0
+    series = [{"id": i, "x": x.tolist(), "y": y.tolist()} for i, y in
+              enumerate([*clean, spike])] + [{"id": 3, "x": [0.0, 1, 2], "y": [1.0, 3, 2]}]
+    body = _post(client, {"series": series, "model": {"degree": 2}}).get_json()
+    worst = []
+    for result in body["results"]:
+        levels = {f["severity"] for f in result["fit"]["flags"]}
+        worst.append(next((s for s in ("serious", "caution", "info") if s in levels), "none"))
+    assert worst[2:] == ["caution", "serious"]
+    assert {"code": "outliers", "severity": "caution"} in body["results"][2]["fit"]["flags"]
+    summary = body["summary"]
+    assert summary["by_severity"] == {s: worst.count(s) for s in ("serious", "caution", "info",
+                                                                   "none")}
+    assert summary["flagged"] == worst.count("serious") + worst.count("caution")
 
 
 def test_ndjson_without_options_line_uses_the_defaults(client):

@@ -3,8 +3,8 @@
 Reference: ``service.core.fit_series`` (itself checked against NIST StRD and
 statsmodels in tests/core) on the same seeded ragged data, to 1e-9 relative
 (the issue's requirement), for every selection method, fixed degrees,
-weights, no intercept and transforms. Flags, tests and outlier indices must
-match exactly.
+weights, no intercept and transforms. Flags with their severities, tests and
+outlier indices must match exactly.
 """
 
 from __future__ import annotations
@@ -50,8 +50,9 @@ def _compare(result, series, model, *, press: bool, p_last: bool):
         tests = {t.name: t for t in ref.diagnostics.tests}
         worst = max(worst, rel(cols["shapiro_wilk_p"][g], tests["shapiro_wilk"].p_value),
                     rel(cols["breusch_pagan_p"][g], tests["breusch_pagan"].p_value),
-                    rel(cols["durbin_watson"][g], tests["durbin_watson"].statistic))
-        assert result.flag_codes(g) == tuple(f.code for f in ref.flags), g
+                    rel(cols["durbin_watson"][g], tests["durbin_watson"].statistic),
+                    rel(cols["durbin_watson_p"][g], tests["durbin_watson"].p_value))
+        assert result.flag_severities(g) == tuple((f.code, f.severity) for f in ref.flags), g
         assert result.outliers.get(g, ()) == ref.diagnostics.outliers, g
         assert result.influential.get(g, ()) == ref.diagnostics.influential, g
     return worst
@@ -116,7 +117,7 @@ def test_replicated_x_gets_the_lack_of_fit_test_of_fit_series():
         ref = fit_series(x, y, model=model, options=SUMMARY)
         lof = ref.diagnostics.lack_of_fit
         assert rel(result.columns["lack_of_fit_p"][g], lof.p_value) < TOL
-        assert result.flag_codes(g) == tuple(f.code for f in ref.flags)
+        assert result.flag_severities(g) == tuple((f.code, f.severity) for f in ref.flags)
 
 
 def test_ill_conditioned_designs_get_the_single_series_answer_and_flag():
@@ -184,7 +185,7 @@ def test_exact_fits_constant_y_and_interpolation_equal_fit_series(model):
     for g, (xs, ys) in enumerate(series):
         ref = fit_series(xs, ys, model=model, options=SUMMARY)
         assert result.columns["degree"][g] == ref.selection.chosen_degree, g
-        assert result.flag_codes(g) == tuple(f.code for f in ref.flags), g
+        assert result.flag_severities(g) == tuple((f.code, f.severity) for f in ref.flags), g
         k = len(ref.coefficients)
         design = np.vander(xs, k, increasing=True)
         scale = np.abs(ys).max()
@@ -227,3 +228,40 @@ def test_a_large_offset_with_a_weak_trend_keeps_r_squared(weighted):
             k = len(ref.coefficients)
             assert rel(result.coefficients[g, :k], [c.estimate for c in ref.coefficients]) < tol
             assert rel(result.std_errors[g, :k], [c.std_error for c in ref.coefficients]) < tol
+
+
+def test_every_decision_flag_and_severity_equals_fit_series():
+    # seeded faulty series so that each test-based flag fires somewhere, and influence and
+    # leverage are seen both as info and as caution: the engine must give the same flags,
+    # severities and p-values (Durbin-Watson's included) as fit_series
+    rng = np.random.default_rng(77)
+    series = []
+    for i in range(60):
+        n = 25 + i % 30
+        x = np.sort(rng.uniform(0.0, 1.0, n))
+        if i % 6 == 0:
+            x[-1] = 1.3                                       # a far point ...
+        if i % 12 == 0:
+            x = np.repeat(np.linspace(0.0, 1.0, n // 3), 3)   # ... or replicated x
+        noise = rng.normal(0.0, 0.3, x.size)
+        kind = i % 5
+        if kind == 1:                                         # AR(1) errors
+            for j in range(1, x.size):
+                noise[j] += 0.8 * noise[j - 1]
+        elif kind == 2:                                       # growing scatter
+            noise *= 0.2 + 3.0 * x
+        elif kind == 3:                                       # skewed errors
+            noise = 0.3 * (rng.exponential(size=x.size) - 1.0)
+        y = 1.0 + 2.0 * x - 1.5 * x * x + 2.0 * (i % 12 == 0) * (2 * x - 1) ** 3 + noise
+        if kind == 4:
+            y[-1] += 3.0                                      # a spike (at the far point)
+        series.append((x, y, None))
+    model = ModelSpec(degree=2)
+    result = fit_batch([(x, y) for x, y, _ in series], model=model)
+    assert _compare(result, series, model, press=False, p_last=False) < TOL
+    seen = {pair for g in range(len(series)) for pair in result.flag_severities(g)}
+    for code in ("lack_of_fit", "non_normal_residuals", "non_constant_variance",
+                 "serial_correlation", "outliers"):
+        assert any(c == code for c, _ in seen), code
+    for code in ("influential_points", "high_leverage"):
+        assert {(code, "info"), (code, "caution")} <= seen, code

@@ -2,7 +2,8 @@
 
 Oracle for the good fits: statsmodels OLS on the raw powers of x (its params,
 bse, rsquared) — fine at these sizes and degrees; the outlier check uses
-statsmodels' Bonferroni outlier test on the same fit.
+statsmodels' Bonferroni outlier test on the same fit, at the flags' per-test level
+(``TEST_ALPHA`` = 0.01: five tests under a family-wise 0.05).
 """
 
 from __future__ import annotations
@@ -12,6 +13,7 @@ import statsmodels.api as sm
 
 from service.core import DataError, DesignError, ModelSpec
 from service.core.batch.driver import fit_batch, fit_many
+from service.core.checks.flags import TEST_ALPHA
 from tests.batch.conftest import ragged_series, rel
 
 
@@ -64,18 +66,18 @@ def test_the_absurd_outlier_is_flagged_with_its_index():
     x, y = series[30]
     d = int(result.columns["degree"][30])
     ols = sm.OLS(y, np.vander(x, d + 1, increasing=True)).fit()
-    table = ols.outlier_test(method="bonferroni", alpha=0.05)  # statsmodels' own test
-    assert list(np.flatnonzero(table[:, 2] < 0.05)) == [7]
+    table = ols.outlier_test(method="bonferroni", alpha=TEST_ALPHA)  # statsmodels' own test
+    assert list(np.flatnonzero(table[:, 2] < TEST_ALPHA)) == [7]
     for g, (xg, yg) in enumerate(series):   # every other series: as statsmodels says
         if not result.ok[g]:
             continue
         dg = int(result.columns["degree"][g])
         fit = sm.OLS(yg, np.vander(xg, dg + 1, increasing=True)).fit()
-        expected = tuple(np.flatnonzero(fit.outlier_test(method="bonferroni")[:, 2] < 0.05))
+        expected = tuple(np.flatnonzero(fit.outlier_test(method="bonferroni")[:, 2] < TEST_ALPHA))
         assert result.outliers.get(g, ()) == expected, g
-    influential = [g for g in range(len(series)) if result.ok[g] and "influential_points" in
-                   result.flag_codes(g)]
-    assert influential == [30]   # only the absurd point moves its fit on its own
+    influential = [g for g in range(len(series)) if result.ok[g] and
+                   ("influential_points", "caution") in result.flag_severities(g)]
+    assert influential == [30]   # only the absurd point is an outlier that moves its fit
 
 
 def test_missing_values_can_be_dropped_per_series():

@@ -42,6 +42,14 @@ def test_pandas_entry_equals_in_process_batch():
     np.testing.assert_array_equal(got["se_intercept"].to_numpy()[ok], ref.std_errors[ok, 0])
     np.testing.assert_array_equal(got["sigma"].to_numpy()[ok], ref.columns["sigma"][ok])
     assert [tuple(f) for f in got["flags"][ok]] == [ref.flag_codes(i) for i in np.flatnonzero(ok)]
+    pairs = [tuple(zip(f, s, strict=True)) for f, s in zip(got["flags"][ok],
+                                                          got["flag_severities"][ok], strict=True)]
+    assert pairs == [ref.flag_severities(i) for i in np.flatnonzero(ok)]
+    for i in np.flatnonzero(ok):   # the most severe flag, or none
+        levels = set(got.loc[i, "flag_severities"])
+        assert got.loc[i, "severity"] == next(
+            (s for s in ("serious", "caution", "info") if s in levels), "none")
+    assert got.loc[5, "severity"] is None   # the error row
 
 
 def test_pandas_entry_with_weights_and_text_values():

@@ -2,8 +2,9 @@
 
 Oracles: scipy.stats.shapiro (Royston's AS R94), statsmodels durbin_watson,
 het_breuschpagan(robust=True) (Koenker's studentized form) and OLSInfluence
-(leverage, Cook's distance). Thresholds are common practice: Cook's distance
-above the median of F(p, n - p), leverage above 2p/n.
+(leverage, Cook's distance), OLSResults.outlier_test (Bonferroni). Thresholds:
+Cook's distance above the median of F(p, n - p), leverage above 2p/n, the outlier
+test at the flags' per-test level TEST_ALPHA (0.01).
 """
 
 from __future__ import annotations
@@ -19,6 +20,7 @@ from service.core import ModelSpec
 from service.core.batch import engine
 from service.core.batch import residuals as batch_residuals
 from service.core.batch.driver import fit_batch
+from service.core.checks.flags import TEST_ALPHA
 from tests.batch.conftest import ragged_series, rel
 
 
@@ -63,8 +65,8 @@ def test_residual_pass_durbin_watson_equals_statsmodels_for_many_lengths():
         got = batch_residuals.residual_pass(
             e, np.zeros(1), np.zeros((1, n)), 0, 0, n, (np.inf, np.inf, np.inf),
             np.zeros((1, n)), 0, np.zeros(2), np.zeros(n, dtype=np.uint8), np.empty(n), 0)
-        assert rel(got[4], durbin_watson(e)) < 1e-12
-        assert rel(got[3], ((e - e.mean()) ** 2).sum()) < 1e-9  # Shapiro-Wilk denominator
+        assert rel(got[2], durbin_watson(e)) < 1e-12
+        assert rel(got[1], ((e - e.mean()) ** 2).sum()) < 1e-9  # Shapiro-Wilk denominator
 
 
 def test_batch_diagnostics_equal_statsmodels_series_by_series():
@@ -96,6 +98,6 @@ def test_batch_diagnostics_equal_statsmodels_series_by_series():
         assert result.influential.get(g, ()) == tuple(np.flatnonzero(infl.cooks_distance[0] > cut))
         high = np.flatnonzero(infl.hat_matrix_diag > 2 * p / n)
         assert int(result.columns["n_high_leverage"][g]) == high.size
-        outl = ols.outlier_test(method="bonferroni", alpha=0.05)
-        assert result.outliers.get(g, ()) == tuple(np.flatnonzero(outl[:, 2] < 0.05))
+        outl = ols.outlier_test(method="bonferroni", alpha=TEST_ALPHA)
+        assert result.outliers.get(g, ()) == tuple(np.flatnonzero(outl[:, 2] < TEST_ALPHA))
     assert checked_bp > 0  # the heteroscedastic series did trigger the test

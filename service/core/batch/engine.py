@@ -6,9 +6,12 @@ for the rows it fitted, plus the rows it hands to ``fit_series`` (too few
 distinct x, an F at its critical value, an ill-conditioned design, extreme
 magnitudes). Conventions, thresholds and flag rules are those of
 :mod:`service.core.polynomial.summary`, :mod:`service.core.polynomial.diagnostics` and
-:mod:`service.core.checks.flags` (common-practice cut-offs: Bonferroni outlier limit,
-``h > 2p/n``, Cook's distance above the median of ``F(p, n - p)``, tests at
-alpha 0.05, Durbin-Watson outside [1.5, 2.5]).
+:mod:`service.core.checks.flags` (tests at the per-test level ``TEST_ALPHA``: the
+Bonferroni outlier limit, lack of fit, Shapiro-Wilk, Breusch-Pagan and the one-sided
+Durbin-Watson p-value of :mod:`service.core.checks.durbin_watson`; ``h > 2p/n`` and
+Cook's distance above the median of ``F(p, n - p)`` are info unless one of their points
+is also an outlier). Each flag carries its severity (:data:`SEVERITIES`, two bits per
+code in the ``flag_levels`` column).
 """
 
 from __future__ import annotations
@@ -22,6 +25,7 @@ from scipy import special
 from service.core.batch import kernel as kern
 from service.core.batch import residuals as resid_checks
 from service.core.batch.ftail import log_beta_table
+from service.core.checks import durbin_watson
 from service.core.checks import flags as single
 from service.core.checks.diagnostics import OUTLIER_ALPHA
 from service.core.checks.lack_of_fit import lack_of_fit
@@ -35,6 +39,7 @@ FLAG_CODES = ("exact_fit", "no_residual_df", "few_points_per_parameter",
               "non_constant_variance", "serial_correlation", "outliers",
               "influential_points", "high_leverage", "extrapolation")
 BIT = {code: 1 << i for i, code in enumerate(FLAG_CODES)}
+SEVERITIES = ("info", "caution", "serious")   # level 0, 1, 2: bits 2i, 2i+1 of flag_levels
 SC = {name: i for i, name in enumerate(kern.SC)}
 
 
@@ -162,8 +167,12 @@ def fit_chunk(u, z, w, offsets, rows, spec: BlockSpec, tabs, marks, resid):
                                                           cols["breusch_pagan"]))
     cols["lack_of_fit_f"], cols["lack_of_fit_p"] = _lack_of_fit(
         u, z, w, offsets, fitted, sc[:, SC["repeats"]] > 0, cols["rss"], sc[:, SC["p"]])
-    cols["flags"] = _flags(cols, sc[:, SC["p"]], sc[:, SC["exact"]] > 0,
-                           sc[:, SC["condition_number"]])
+    p = sc[:, SC["p"]]
+    cols["durbin_watson_p"] = durbin_watson.p_value(
+        cols["durbin_watson"], n - p, *durbin_watson.traces(
+            n, sc[:, SC["dw_trace_g"]], sc[:, SC["dw_frob_g"]], sc[:, SC["dw_frob_aq"]]))
+    cols["flags"], cols["flag_levels"] = _flags(cols, sc, p, sc[:, SC["exact"]] > 0,
+                                                sc[:, SC["condition_number"]])
     outliers, influential = _points(marks, offsets, fitted, cols)
     return (ChunkResult(fitted, cols, coef, se, cands, outliers, influential), rows[~ok])
 
@@ -182,26 +191,34 @@ def _lack_of_fit(u, z, w, offsets, rows, repeats, rss, p):
     return lof_f, lof_p
 
 
-def _flags(cols, p, exact, cond) -> np.ndarray:
-    """Bit mask over :data:`FLAG_CODES`, by the rules of :mod:`service.core.checks.flags`."""
-    n, dw = cols["n"], cols["durbin_watson"]
+def _flags(cols, sc, p, exact, cond) -> tuple[np.ndarray, np.ndarray]:
+    """Bit mask over :data:`FLAG_CODES` and their severities (two bits per code), by the
+    rules of :mod:`service.core.checks.flags`."""
+    n, alpha = cols["n"], single.TEST_ALPHA
     mask = np.zeros(n.shape, dtype=np.int64)
+    levels = np.zeros(n.shape, dtype=np.int64)
+    info, caution, serious = range(3)
     with np.errstate(invalid="ignore"):
-        for code, hit in (
-                ("exact_fit", exact),
-                ("no_residual_df", n == p),
-                ("few_points_per_parameter", (n != p) & (n < single.POINTS_PER_PARAMETER * p)),
-                ("ill_conditioned_design", cond > single.COND_CAUTION),
-                ("lack_of_fit", cols["lack_of_fit_p"] < single.TEST_ALPHA),
-                ("non_normal_residuals", cols["shapiro_wilk_p"] < single.TEST_ALPHA),
-                ("non_constant_variance", cols["breusch_pagan_p"] < single.TEST_ALPHA),
-                ("serial_correlation",
-                 ~np.isnan(dw) & ~((dw >= single.DW_LOW) & (dw <= single.DW_HIGH))),
-                ("outliers", cols["n_outliers"] > 0),
-                ("influential_points", cols["n_influential"] > 0),
-                ("high_leverage", cols["n_high_leverage"] > 0)):
+        for code, hit, level in (
+                ("exact_fit", exact, caution),
+                ("no_residual_df", n == p, serious),
+                ("few_points_per_parameter", (n != p) & (n < single.POINTS_PER_PARAMETER * p),
+                 info),
+                ("ill_conditioned_design", cond > single.COND_CAUTION,
+                 np.where(cond > single.COND_SERIOUS, serious, caution)),
+                ("lack_of_fit", cols["lack_of_fit_p"] < alpha, serious),
+                ("non_normal_residuals", cols["shapiro_wilk_p"] < alpha, caution),
+                ("non_constant_variance", cols["breusch_pagan_p"] < alpha, caution),
+                ("serial_correlation", cols["durbin_watson_p"] < alpha, caution),
+                ("outliers", cols["n_outliers"] > 0, caution),
+                ("influential_points", cols["n_influential"] > 0,
+                 np.where(sc[:, SC["n_influential_outliers"]] > 0, caution, info)),
+                ("high_leverage", cols["n_high_leverage"] > 0,
+                 np.where(sc[:, SC["n_leveraged_outliers"]] > 0, caution, info))):
+            shift = FLAG_CODES.index(code)
             mask |= np.where(hit, BIT[code], 0)
-    return mask
+            levels |= np.where(hit, np.left_shift(level, 2 * shift), 0)
+    return mask, levels
 
 
 def _shapiro_w(resid, offsets, rows, n, spread, tabs) -> tuple[np.ndarray, np.ndarray]:

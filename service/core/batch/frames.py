@@ -27,8 +27,9 @@ _MODEL = ModelSpec()
 _OPTIONS = FitOptions()
 RESULT_SCALARS = ("n", "degree", "df_residual", "sigma", "r_squared", "adj_r_squared", "rss",
                   "aic", "aicc", "bic", "press", "shapiro_wilk_p", "breusch_pagan_p",
-                  "durbin_watson", "lack_of_fit_p", "n_outliers", "n_influential",
-                  "n_high_leverage")
+                  "durbin_watson", "durbin_watson_p", "lack_of_fit_p", "n_outliers",
+                  "n_influential", "n_high_leverage")
+SEVERITY_ORDER = ("serious", "caution", "info")
 
 
 def _numeric(series: pd.Series) -> np.ndarray:
@@ -57,7 +58,9 @@ def fit_frame(df: pd.DataFrame, id: str = "id", x: str = "x", y: str = "y",  # n
     pandas.DataFrame
         One row per series: ``id``, ``status``, the columns of :data:`RESULT_SCALARS`,
         ``coef_<term>`` and ``se_<term>`` for every term up to the largest degree
-        (NaN beyond a row's degree), ``flags`` (tuple of codes), and the error columns.
+        (NaN beyond a row's degree), ``flags`` (tuple of codes), ``flag_severities`` (their
+        severities, in the same order), ``severity`` (the most severe: serious, caution,
+        info, or none without flags; None on error rows), and the error columns.
     """
     codes, uniques = pd.factorize(df[id], sort=False) if len(df) else (np.empty(0, int), [])
     order = np.argsort(codes, kind="stable")
@@ -87,13 +90,22 @@ def result_frame(result: BatchResult, ids, model: ModelSpec = _MODEL) -> pd.Data
     for j, term in enumerate(terms[:width]):
         out[f"coef_{term}"] = result.coefficients[:, j]
         out[f"se_{term}"] = result.std_errors[:, j]
-    out["flags"] = [result.flag_codes(i) if result.ok[i] else () for i in range(G)]
+    flagged = [result.flag_severities(i) if result.ok[i] else () for i in range(G)]
+    out["flags"] = [tuple(code for code, _ in f) for f in flagged]
+    out["flag_severities"] = [tuple(level for _, level in f) for f in flagged]
+    out["severity"] = [_worst(f) if result.ok[i] else None for i, f in enumerate(flagged)]
     errors = result.errors
     out["error_code"] = [errors[i].code if i in errors else None for i in range(G)]
     out["error_field"] = [errors[i].field if i in errors else None for i in range(G)]
     out["error"] = [(errors[i].message + (f" Fix: {errors[i].fix}" if errors[i].fix else ""))
                     if i in errors else None for i in range(G)]
     frame = pd.DataFrame(out)
-    for name in (id_name, "status", "flags", "error_code", "error_field", "error"):
+    for name in (id_name, "status", "flags", "flag_severities", "severity", "error_code",
+                 "error_field", "error"):
         frame[name] = pd.Series(list(out[name]), dtype=object, index=frame.index)
     return frame
+
+
+def _worst(flags) -> str:
+    found = {level for _, level in flags}
+    return next((level for level in SEVERITY_ORDER if level in found), "none")

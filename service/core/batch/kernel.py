@@ -33,10 +33,10 @@ CAND = ("df_residual", "rss", "sigma", "r_squared", "adj_r_squared", "aic", "aic
 SC = ("n", "degree", "df_residual", "rss", "sigma", "r_squared", "adj_r_squared", "aic",
       "aicc", "bic", "press", "shapiro_wilk", "durbin_watson", "breusch_pagan",
       "condition_number", "n_outliers", "n_influential", "n_high_leverage",
-      "repeats", "exact", "p")
-_N_OUTLIERS = SC.index("n_outliers")
-_N_INFLUENTIAL = SC.index("n_influential")
-_N_HIGH_LEVERAGE = SC.index("n_high_leverage")
+      "n_influential_outliers", "n_leveraged_outliers", "repeats", "exact", "p",
+      "dw_trace_g", "dw_frob_g", "dw_frob_aq")
+_N_OUTLIERS = SC.index("n_outliers")   # .. the five counts of residual_pass in order
+_DW_SUMS = SC.index("dw_trace_g")      # .. its three Durbin-Watson design sums in order
 _CONDITION_NUMBER = SC.index("condition_number")
 _REPEATS = SC.index("repeats")
 _EXACT = SC.index("exact")
@@ -268,16 +268,17 @@ def fit_rows(u, z, w, unit, offsets, rows, dmin, dmax, intercept, code, need_pre
         bp_degree = degree if usable and degree >= 1 and n > degree + 1 else 0
         if bp_degree and not (unit and intercept):
             basis(t, s, n, dmax + 1, True, True, qb, ckb)
-        n_out, n_inf, n_high, spread, dw, bp = residual_pass(
+        counts, spread, dw, bp, dw_sums = residual_pass(
             res, b, q, p, P, n, (out_cut, inf_cut, lev_cut),
             q if unit and intercept else qb, bp_degree, bp_sums, marks, resid, a)
         row = sc[g]
         row[0], row[1], row[2], row[3], row[4] = n, dmin + pick, df, rss, sigma
         for j in range(3, 9):   # r_squared .. press of the chosen candidate
             row[j + 2] = cc[j, pick]
-        row[_N_OUTLIERS] = n_out
-        row[_N_INFLUENTIAL] = n_inf
-        row[_N_HIGH_LEVERAGE] = n_high
+        for j in range(5):
+            row[_N_OUTLIERS + j] = counts[j]
+        for j in range(3):
+            row[_DW_SUMS + j] = dw_sums[j]
         row[_CONDITION_NUMBER] = cond
         row[_REPEATS] = 1.0 if n_distinct < n else 0.0
         row[_EXACT] = 1.0 if exact[pick] else 0.0

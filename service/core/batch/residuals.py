@@ -2,10 +2,12 @@
 
 :func:`residual_pass` makes one pass over a series' points for the chosen
 fit: residuals, hat diagonals, the outlier and influence marks, and the sums
-behind Shapiro-Wilk's denominator, Durbin-Watson and Breusch-Pagan (Koenker's
-studentized form, ``LM = n R^2`` of ``e^2`` on the unweighted orthonormal
-powers of t). Shapiro-Wilk needs the residuals sorted; numpy's vectorized sort
-does that for a whole chunk (:func:`gather_padded`, then :func:`shapiro_w_p`).
+behind Shapiro-Wilk's denominator, Durbin-Watson and its null moments (the
+design sums of :mod:`service.core.checks.durbin_watson`) and Breusch-Pagan
+(Koenker's studentized form, ``LM = n R^2`` of ``e^2`` on the unweighted
+orthonormal powers of t). Shapiro-Wilk needs the residuals sorted; numpy's
+vectorized sort does that for a whole chunk (:func:`gather_padded`, then
+:func:`shapiro_w_p`).
 """
 
 from __future__ import annotations
@@ -17,6 +19,7 @@ from service.core.checks.kernels import shapiro_p
 from service.core.checks.shapiro_tables import SHAPIRO_MAX_N
 
 OUTLIER_BIT, INFLUENTIAL_BIT = 1, 2
+_SUM = {"reassoc", "nsz"}  # vectorized sums only; no assumption about NaN or infinity
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
@@ -35,11 +38,14 @@ def residual_pass(res, b, q, p, P, n, cuts, qb, degree, bp_sums, marks, resid, a
 
     Returns
     -------
-    (n_outliers, n_influential, n_high_leverage, spread, durbin_watson, breusch_pagan)
+    counts : (n_outliers, n_influential, n_high_leverage, n_influential_outliers,
+        n_high_leverage_influential_outliers)
+    spread, durbin_watson, breusch_pagan : float
         ``spread`` is the sum of squared deviations (NaN outside 3..5000 points).
+    dw_sums : (tr(G), ||G||_F², ||AQ||_F²) of the fit's basis (:func:`design_sums`).
     """
     out_cut, inf_cut, lev_cut = cuts
-    n_out = n_inf = n_high = 0
+    n_out = n_inf = n_high = n_both = n_lever = 0
     s1 = s2 = s4 = dd = prev = 0.0
     bp_sums[:] = 0.0
     for i in range(n):
@@ -60,6 +66,10 @@ def residual_pass(res, b, q, p, P, n, cuts, qb, degree, bp_sums, marks, resid, a
             n_inf += 1
         if h > lev_cut:
             n_high += 1
+        if mark == OUTLIER_BIT | INFLUENTIAL_BIT:
+            n_both += 1
+            if h > lev_cut:
+                n_lever += 1
         marks[a + i] = mark
         resid[a + i] = e
         e2 = e * e
@@ -85,7 +95,63 @@ def residual_pass(res, b, q, p, P, n, cuts, qb, degree, bp_sums, marks, resid, a
                 d = resid[a + i] * resid[a + i] - s2 / n
                 ss += d * d
         bp = n * proj / ss if ss > 0 else np.nan
-    return n_out, n_inf, n_high, spread, dw, bp
+    return (n_out, n_inf, n_high, n_both, n_lever), spread, dw, bp, design_sums(q, p, n)
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy", fastmath=_SUM)
+def design_sums(q, p, n):
+    """``tr(G)``, ``||G||_F²`` and ``||AQ||_F²`` of the basis rows ``q[:p, :n]``: the moments
+    of Durbin-Watson's d (:mod:`service.core.checks.durbin_watson`).
+
+    ``G = sum_i d_i d_i'`` over the differences ``d_i = q_i - q_(i-1)``, and
+    ``||AQ||² = d_1² + sum_(i>=2) (d_i - d_(i-1))² + d_(n-1)²``; tight loops over one
+    column (or a pair), outside the per-point pass.
+    """
+    trace_g = frob_g = frob_aq = 0.0
+    if n < 2:
+        return trace_g, frob_g, frob_aq
+    for k in range(p):   # shifted views: no negative indices in the loops (they vectorize)
+        qk = q[k]
+        first, last = qk[1] - qk[0], qk[n - 1] - qk[n - 2]
+        now, one_back, two_back = qk[2:n], qk[1:n - 1], qk[0:n - 2]
+        diag = first * first
+        aq = 0.0
+        for i in range(n - 2):
+            d = now[i] - one_back[i]
+            s2 = d - (one_back[i] - two_back[i])
+            diag += d * d
+            aq += s2 * s2
+        frob_aq += aq + first * first + last * last
+        trace_g += diag
+        frob_g += diag * diag
+        k_now, k_back = qk[1:n], qk[0:n - 1]
+        for j in range(k):
+            j_now, j_back = q[j, 1:n], q[j, 0:n - 1]
+            acc = 0.0
+            for i in range(n - 1):
+                acc += (k_now[i] - k_back[i]) * (j_now[i] - j_back[i])
+            frob_g += 2.0 * acc * acc
+    return trace_g, frob_g, frob_aq
+    for k in range(p):
+        qk = q[k]
+        first, last = qk[1] - qk[0], qk[n - 1] - qk[n - 2]
+        diag = first * first
+        aq = 0.0
+        for i in range(2, n):
+            d = qk[i] - qk[i - 1]
+            s2 = qk[i] - 2.0 * qk[i - 1] + qk[i - 2]
+            diag += d * d
+            aq += s2 * s2
+        frob_aq += aq + first * first + last * last
+        trace_g += diag
+        frob_g += diag * diag
+        for j in range(k):
+            qj = q[j]
+            acc = 0.0
+            for i in range(1, n):
+                acc += (qk[i] - qk[i - 1]) * (qj[i] - qj[i - 1])
+            frob_g += 2.0 * acc * acc
+    return trace_g, frob_g, frob_aq
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")

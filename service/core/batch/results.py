@@ -13,14 +13,15 @@ from functools import lru_cache
 
 import numpy as np
 
-from service.core.batch.engine import FLAG_CODES, ChunkResult
+from service.core.batch.engine import FLAG_CODES, SEVERITIES, ChunkResult
 from service.core.errors import FitError
 from service.core.results import FitReport, Notice
 
 SCALARS = ("n", "degree", "min_degree", "df_residual", "rss", "sigma", "r_squared",
            "adj_r_squared", "aic", "aicc", "bic", "press", "shapiro_wilk", "shapiro_wilk_p",
-           "durbin_watson", "breusch_pagan", "breusch_pagan_p", "lack_of_fit_f",
-           "lack_of_fit_p", "n_outliers", "n_influential", "n_high_leverage", "flags")
+           "durbin_watson", "durbin_watson_p", "breusch_pagan", "breusch_pagan_p",
+           "lack_of_fit_f", "lack_of_fit_p", "n_outliers", "n_influential", "n_high_leverage",
+           "flags", "flag_levels")
 CANDIDATE_MEASURES = ("df_residual", "rss", "sigma", "r_squared", "adj_r_squared", "aic", "aicc",
                       "bic", "press", "f_last", "p_last")
 
@@ -29,6 +30,25 @@ CANDIDATE_MEASURES = ("df_residual", "rss", "sigma", "r_squared", "adj_r_squared
 def codes_of(mask: int) -> tuple[str, ...]:
     """Flag codes of a bit mask over :data:`FLAG_CODES`, in that order."""
     return tuple(code for i, code in enumerate(FLAG_CODES) if mask >> i & 1)
+
+
+@lru_cache(maxsize=4096)
+def flags_of(mask: int, levels: int) -> tuple[tuple[str, str], ...]:
+    """``(code, severity)`` of each flag of a bit mask, severities from ``levels`` (two bits
+    per code, :data:`~service.core.batch.engine.SEVERITIES`)."""
+    return tuple((code, SEVERITIES[levels >> 2 * i & 3])
+                 for i, code in enumerate(FLAG_CODES) if mask >> i & 1)
+
+
+def levels_of(flags) -> tuple[int, int]:
+    """Bit mask and severity levels of a report's :class:`TrustFlag` tuple."""
+    mask = levels = 0
+    for flag in flags:
+        if flag.code in FLAG_CODES:
+            i = FLAG_CODES.index(flag.code)
+            mask |= 1 << i
+            levels |= SEVERITIES.index(flag.severity) << 2 * i
+    return mask, levels
 
 
 @dataclass(frozen=True)
@@ -40,7 +60,7 @@ class BatchResult:
     ok : (G,) bool
     columns : mapping name -> (G,) array for every name in :data:`SCALARS`
         (``degree``/``min_degree``/``n`` are -1 on error rows; ``flags`` is a bit
-        mask over :data:`FLAG_CODES`).
+        mask over :data:`FLAG_CODES`, ``flag_levels`` their severities, two bits per code).
     coefficients, std_errors : (G, P) raw-x coefficients in entry order, NaN-padded.
     candidates : mapping measure -> (G, C); column j is degree ``min_degree + j``
         (NaN where that candidate was not examined).
@@ -74,15 +94,19 @@ class BatchResult:
         return int(self.ok.sum())
 
     codes_of = staticmethod(codes_of)
+    flags_of = staticmethod(flags_of)
 
     def flag_codes(self, row: int) -> tuple[str, ...]:
         """Flag codes of one row, in the order ``fit_series`` lists them."""
         return codes_of(int(self.columns["flags"][row]))
 
+    def flag_severities(self, row: int) -> tuple[tuple[str, str], ...]:
+        """``(code, severity)`` of each flag of one row, in the order of :meth:`flag_codes`."""
+        return flags_of(int(self.columns["flags"][row]), int(self.columns["flag_levels"][row]))
 
 
 _INT_COLUMNS = {"n": -1, "degree": -1, "min_degree": -1, "df_residual": 0, "n_outliers": 0,
-                "n_influential": 0, "n_high_leverage": 0, "flags": 0}
+                "n_influential": 0, "n_high_leverage": 0, "flags": 0, "flag_levels": 0}
 
 
 def empty_columns(G: int, P: int, C: int, *, filled: bool = True) -> dict:
@@ -134,6 +158,7 @@ def fill_from_report(out: dict, row: int, report: FitReport) -> None:
                 cols[name + "_p"][row] = tests[name].p_value
         if "durbin_watson" in tests:
             cols["durbin_watson"][row] = tests["durbin_watson"].statistic
+            cols["durbin_watson_p"][row] = tests["durbin_watson"].p_value
         if d.lack_of_fit is not None:
             cols["lack_of_fit_f"][row] = d.lack_of_fit.f
             cols["lack_of_fit_p"][row] = d.lack_of_fit.p_value
@@ -144,11 +169,7 @@ def fill_from_report(out: dict, row: int, report: FitReport) -> None:
             out.setdefault("outliers", {})[row] = tuple(d.outliers)
         if d.influential:
             out.setdefault("influential", {})[row] = tuple(d.influential)
-    mask = 0
-    for flag in report.flags:
-        if flag.code in FLAG_CODES:
-            mask |= 1 << FLAG_CODES.index(flag.code)
-    cols["flags"][row] = mask
+    cols["flags"][row], cols["flag_levels"][row] = levels_of(report.flags)
     k = len(report.coefficients)
     width = out["coefficients"].shape[1]
     out["coefficients"][row, :min(k, width)] = [c.estimate for c in report.coefficients][:width]

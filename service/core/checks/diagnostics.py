@@ -4,18 +4,23 @@ Every family hands the same numbers in: weighted residuals ``e_i = sqrt(w_i)
 (y_i - ŷ_i)`` (for unweighted fits, the plain residuals, so all residual forms
 share one variance), leverages ``h_i`` (the hat-matrix diagonal; the
 tangent-plane one for nonlinear models), the parameter count ``p`` and the
-residual SS. Nothing here knows how the curve was fitted.
+residual SS, and optionally an orthonormal basis of the (weighted, tangent-plane)
+design for the Durbin-Watson p-value. Nothing here knows how the curve was fitted.
 
-Thresholds (common practice, also returned in ``Diagnostics.thresholds``):
+Thresholds (also returned in ``Diagnostics.thresholds``; the flag rules and the
+family-wise level are in :mod:`service.core.checks.flags`):
 
-* outlier: |externally studentized residual| above the two-sided
-  Bonferroni t critical value ``t_{df-1}(1 - alpha/(2n))``, alpha = 0.05;
-* high leverage: ``h > 2p/n`` (Hoaglin & Welsch);
+* outlier: |externally studentized residual| above the two-sided Bonferroni t
+  critical value ``t_{df-1}(1 - alpha/(2n))`` (Cook & Weisberg 1982), alpha the
+  per-test level :data:`service.core.checks.flags.TEST_ALPHA`;
+* high leverage: ``h > 2p/n`` (Hoaglin & Welsch 1978);
 * influential: Cook's distance above the median of ``F(p, n - p)``
-  (Cook & Weisberg); ``|DFFITS| > 2 sqrt(p/n)`` (Belsley, Kuh & Welsch) is
-  reported as a threshold for reference;
-* the cut-offs the trust flags use (test alpha, Durbin-Watson range,
-  points per coefficient, condition number) are added from
+  (Cook 1977; Cook & Weisberg 1982); ``|DFFITS| > 2 sqrt(p/n)`` (Belsley, Kuh &
+  Welsch 1980) is reported as a threshold for reference;
+* Durbin-Watson: one-sided p-value for positive serial correlation
+  (:mod:`service.core.checks.durbin_watson`);
+* the levels the trust flags use (per-test and family-wise alpha, points per
+  coefficient, condition number) are added from
   :data:`service.core.checks.flags.THRESHOLDS`.
 """
 
@@ -25,7 +30,7 @@ import math
 
 import numpy as np
 
-from service.core.checks import flags
+from service.core.checks import durbin_watson, flags
 from service.core.checks import kernels as checks_kernels
 from service.core.checks.lack_of_fit import lack_of_fit
 from service.core.checks.quantiles import f_quantile, t_quantile
@@ -34,8 +39,7 @@ from service.core.checks.shapiro_tables import SHAPIRO_MAX_N, shapiro_weights
 from service.core.results import Diagnostics, LackOfFit, TestResult, frozen_array, frozen_rows
 
 NAN = float("nan")
-OUTLIER_ALPHA = 0.05
-DW_NOTE = "serial correlation in the given order: ~2 none, <2 positive, >2 negative"
+OUTLIER_ALPHA = flags.TEST_ALPHA   # the Bonferroni outlier test is one of the flag tests
 NO_WEIGHTS = np.empty(0)
 NO_WEIGHTS.setflags(write=False)  # read-only like the cached weights (one compiled signature)
 
@@ -53,16 +57,27 @@ def shapiro_coefficients(n: int, tested: bool) -> np.ndarray:
 
 
 def formal_tests(tested: bool, exact: bool, n: int, sw: tuple, bp: TestResult,
-                 dw: float) -> tuple[TestResult, ...]:
+                 dw: TestResult) -> tuple[TestResult, ...]:
     """Shapiro-Wilk, Breusch-Pagan and Durbin-Watson results, or why they were not run.
 
-    ``sw`` is ``(status, w, p)`` from :func:`service.core.checks.kernels.residual_tests`.
+    ``sw`` is ``(status, w, p)`` from :func:`service.core.checks.kernels.residual_tests`;
+    ``dw`` comes from :func:`durbin_watson_result`.
     """
     if tested:
-        return (shapiro_result(*sw, n), bp, TestResult("durbin_watson", dw, NAN, None, DW_NOTE))
+        return (shapiro_result(*sw, n), bp, dw)
     why = "exact fit: residuals are rounding noise" if exact else "no residual df"
     return tuple(TestResult(name, NAN, NAN, None, f"not computed ({why})")
                  for name in ("shapiro_wilk", "breusch_pagan", "durbin_watson"))
+
+
+def durbin_watson_result(dw: float, p_value: float,
+                         note: str = durbin_watson.NOTE) -> TestResult:
+    """The Durbin-Watson row: ``d`` and its one-sided p-value for positive serial correlation
+    (:func:`service.core.checks.durbin_watson.p_value_one`)."""
+    if math.isnan(dw):
+        return TestResult("durbin_watson", NAN, NAN, None,
+                          "not computed: the residuals are all zero")
+    return TestResult("durbin_watson", dw, p_value, None, note)
 
 
 def shapiro_result(status: int, w: float, w_p: float, n: int) -> TestResult:
@@ -104,7 +119,7 @@ def assemble(index: np.ndarray, out: np.ndarray, sqrt_w: np.ndarray | None,
 def residual_diagnostics(index: np.ndarray, x: np.ndarray, e: np.ndarray, h: np.ndarray,
                          zw: np.ndarray, sqrt_w: np.ndarray | None, p: int, rss: float,
                          exact: bool, distinct: int, auxiliary: np.ndarray,
-                         against: str) -> Diagnostics:
+                         against: str, basis: np.ndarray | None = None) -> Diagnostics:
     """Diagnostics of any fit from its weighted residuals and leverages.
 
     Parameters
@@ -119,6 +134,10 @@ def residual_diagnostics(index: np.ndarray, x: np.ndarray, e: np.ndarray, h: np.
     distinct : number of distinct x values.
     auxiliary : (n, d) regressors of the Breusch-Pagan test, without the constant
         (d = 0 skips the test); ``against`` names them in the test's note.
+    basis : (n, p) orthonormal basis of the weighted design (for a nonlinear model, of
+        its weighted Jacobian at the solution), rows in the given order: the moments
+        of the Durbin-Watson statistic. None uses Durbin & Watson's lower bound, whose
+        p-value is conservative for any design of ``p`` columns.
     """
     n = e.size
     df = n - p
@@ -132,8 +151,8 @@ def residual_diagnostics(index: np.ndarray, x: np.ndarray, e: np.ndarray, h: np.
         ss = float(e @ e)
         ss_diff = float(np.sum(np.diff(e) ** 2))
         zc = e * e - ss / n
-        basis = np.linalg.qr(np.column_stack((np.ones(n), auxiliary)))[0]
-        proj = basis.T @ zc
+        aux_basis = np.linalg.qr(np.column_stack((np.ones(n), auxiliary)))[0]
+        proj = aux_basis.T @ zc
     bp_df = auxiliary.shape[1] if n > auxiliary.shape[1] + 1 else 0
     status, w, w_p, lm, lm_p, dw = checks_kernels.residual_tests(
         out[0], ss, ss_diff, proj, float(zc @ zc), bp_df, tested,
@@ -141,7 +160,13 @@ def residual_diagnostics(index: np.ndarray, x: np.ndarray, e: np.ndarray, h: np.
     bp = (breusch_pagan_result(lm, lm_p, bp_df, against) if bp_df else
           TestResult("breusch_pagan", NAN, NAN, None,
                      "needs at least one auxiliary regressor and more points than regressors"))
-    tests = formal_tests(tested, exact, n, (status, w, w_p), bp, dw)
+    if basis is not None:
+        dw_row = durbin_watson_result(dw, durbin_watson.p_value_one(
+            dw, n - p, *durbin_watson.design_traces(basis)))
+    else:
+        dw_row = durbin_watson_result(dw, durbin_watson.p_value_one(
+            dw, n - p, *durbin_watson.bound_traces(n, p)), note=durbin_watson.NOTE_BOUND)
+    tests = formal_tests(tested, exact, n, (status, w, w_p), bp, dw_row)
     cuts = cut_offs(n, p, df)
     flagged = (checks_kernels.positions(index, out[3], cuts[0], True),
                checks_kernels.positions(index, out[1], cuts[1], False) if n > p else index[:0],

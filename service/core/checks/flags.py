@@ -1,28 +1,78 @@
 """Trust flags: plain-language reasons to be careful with a fit, with their evidence.
 
-Cut-offs are common practice, not laws; each flag's evidence carries the
-number and the cut-off it was compared with.
+Severity says what a flag is worth to a pipeline that triages on it:
+
+* ``serious`` / ``caution`` flags are either **facts** about the data, the design
+  or the request, true or false with certainty (no error rate): ``exact_fit``,
+  ``no_residual_df``, ``ill_conditioned_design`` (condition number of the scaled
+  basis above 1e6, serious above 1e10: common practice) and ``extrapolation``;
+  or **decisions** of a formal test at a stated level. The tests, each at the
+  per-test level ``TEST_ALPHA = FAMILY_ALPHA / 5 = 0.01``:
+
+  - ``outliers``: Bonferroni-corrected externally studentized residual test
+    (largest ``|t_i|`` against ``t_{n-p-1}(1 - alpha / (2n))``; Cook & Weisberg 1982);
+  - ``lack_of_fit`` (serious): F test of the lack-of-fit against pure error, when
+    x repeats (Draper & Smith 1998);
+  - ``non_normal_residuals``: Shapiro-Wilk, Royston's p-value (AS R94);
+  - ``non_constant_variance``: Breusch-Pagan in Koenker's studentized form;
+  - ``serial_correlation``: Durbin-Watson, **one-sided** (positive serial
+    correlation in the given order) p-value from the design's moments of d
+    (:mod:`service.core.checks.durbin_watson`).
+
+  Family-wise rule: Bonferroni across these five tests. Under a correct model
+  with independent normal errors the chance that a fit gets any test-based
+  caution or serious flag is at most ``FAMILY_ALPHA = 0.05`` (Boole's
+  inequality; exactly so for the F and Bonferroni-t tests, approximately for
+  the three whose p-values are approximations).
+
+* Influence is a caution only when it is also evidence: ``influential_points``
+  (Cook's distance above the median of ``F(p, n - p)``, Cook 1977) and
+  ``high_leverage`` (``h > 2p/n``, Hoaglin & Welsch 1978) are ``info`` on their
+  own: on a clean fit they describe the design (the end points of an evenly
+  spaced design always exceed 2p/n; an isolated x has a large Cook's distance
+  for most noise draws). Each becomes ``caution`` when one of its points is also
+  an outlier by the Bonferroni test above, i.e. a point that both disagrees with
+  the rest of the data and moves the curve. Both are then subsets of the
+  ``outliers`` decision and add nothing to the family-wise rate.
+
+* ``few_points_per_parameter`` (fewer than 5 points per coefficient, common
+  practice) is ``info``: a fact about the design that says the tests above have
+  little power, not evidence of a problem.
+
+``benchmarks/bench_flag_calibration.py`` prints the firing rates on clean and
+faulty series; ``tests/core/test_flag_calibration.py`` holds them to the levels.
 """
 
 from __future__ import annotations
 
-import math
-
 from service.core.results import Diagnostics, Prediction, TrustFlag
 
-TEST_ALPHA = 0.05          # formal assumption tests (common practice)
-POINTS_PER_PARAMETER = 5   # fewer points per coefficient than this: caution (common practice)
+FAMILY_ALPHA = 0.05        # chance of any test-based caution/serious flag on a clean fit
+TESTED = ("lack_of_fit", "non_normal_residuals", "non_constant_variance", "serial_correlation",
+          "outliers")
+TEST_ALPHA = FAMILY_ALPHA / len(TESTED)   # Bonferroni: 0.01 per test
+POINTS_PER_PARAMETER = 5   # fewer points per coefficient than this: info (common practice)
 COND_CAUTION = 1e6         # basis condition number: ~6 of 16 digits at risk (common practice)
 COND_SERIOUS = 1e10
-DW_LOW, DW_HIGH = 1.5, 2.5  # Durbin-Watson rule of thumb (common practice)
-THRESHOLDS = {"test_alpha": TEST_ALPHA, "points_per_parameter": float(POINTS_PER_PARAMETER),
-              "condition_number": COND_CAUTION, "condition_number_serious": COND_SERIOUS,
-              "durbin_watson_low": DW_LOW, "durbin_watson_high": DW_HIGH}
+THRESHOLDS = {"test_alpha": TEST_ALPHA, "family_alpha": FAMILY_ALPHA,
+              "points_per_parameter": float(POINTS_PER_PARAMETER),
+              "condition_number": COND_CAUTION, "condition_number_serious": COND_SERIOUS}
 
 
 def trust_flags(*, n: int, p: int, exact: bool, condition: float,
                 diagnostics: Diagnostics | None, grid: Prediction | None) -> tuple[TrustFlag, ...]:
-    """Collect the flags that apply to this fit (order: most to least severe within kind)."""
+    """Collect the flags that apply to this fit (order: most to least severe within kind).
+
+    Parameters
+    ----------
+    n, p : points used and fitted parameters.
+    exact : the fit reproduces every point.
+    condition : condition number of the family's (scaled) design; NaN when it has none.
+    diagnostics : the shared residual diagnostics
+        (:func:`service.core.checks.diagnostics.residual_diagnostics`); None skips
+        the data-driven flags.
+    grid : the predictions on the caller's grid, or None.
+    """
     out: list[TrustFlag] = []
     if exact:
         out.append(TrustFlag("exact_fit", "caution",
@@ -35,9 +85,10 @@ def trust_flags(*, n: int, p: int, exact: bool, condition: float,
                              "interpolates and nothing measures its error.",
                              {"n": n, "parameters": p}))
     elif n < POINTS_PER_PARAMETER * p:
-        out.append(TrustFlag("few_points_per_parameter", "caution",
-                             f"Only {n / p:.1f} points per coefficient; estimates and tests are "
-                             f"fragile below about {POINTS_PER_PARAMETER}.",
+        out.append(TrustFlag("few_points_per_parameter", "info",
+                             f"Only {n / p:.1f} points per coefficient: the checks below have "
+                             f"little power to find a problem with fewer than about "
+                             f"{POINTS_PER_PARAMETER}.",
                              {"n": n, "parameters": p, "threshold": POINTS_PER_PARAMETER}))
     if condition > COND_CAUTION:
         sev = "serious" if condition > COND_SERIOUS else "caution"
@@ -46,7 +97,7 @@ def trust_flags(*, n: int, p: int, exact: bool, condition: float,
                              "changes in the data can move the coefficients a lot.",
                              {"condition_number": condition, "threshold": COND_CAUTION}))
     if diagnostics is not None:
-        out.extend(_from_diagnostics(diagnostics, n))
+        out.extend(_from_diagnostics(diagnostics))
     if grid is not None and grid.extrapolated.any():
         k = int(grid.extrapolated.sum())
         out.append(TrustFlag("extrapolation", "caution",
@@ -57,7 +108,12 @@ def trust_flags(*, n: int, p: int, exact: bool, condition: float,
     return tuple(out)
 
 
-def _from_diagnostics(d: Diagnostics, n: int) -> list[TrustFlag]:
+def _test_evidence(statistic: float, p_value: float) -> dict:
+    return {"statistic": statistic, "p_value": p_value, "alpha": TEST_ALPHA,
+            "family_alpha": FAMILY_ALPHA}
+
+
+def _from_diagnostics(d: Diagnostics) -> list[TrustFlag]:
     out: list[TrustFlag] = []
     lof = d.lack_of_fit
     if lof is not None and lof.p_value < TEST_ALPHA:
@@ -65,40 +121,56 @@ def _from_diagnostics(d: Diagnostics, n: int) -> list[TrustFlag]:
                              "Replicated x values show the curve misses the level means by more "
                              "than the replicate scatter explains: the model shape is wrong.",
                              {"f": lof.f, "p_value": lof.p_value, "df": (lof.df_lack, lof.df_pure),
-                              "alpha": TEST_ALPHA}))
+                              "alpha": TEST_ALPHA, "family_alpha": FAMILY_ALPHA}))
     tests = {t.name: t for t in d.tests}
     sw, bp, dw = tests.get("shapiro_wilk"), tests.get("breusch_pagan"), tests.get("durbin_watson")
     if sw is not None and sw.p_value < TEST_ALPHA:
         out.append(TrustFlag("non_normal_residuals", "caution",
                              "The residuals do not look normally distributed (Shapiro-Wilk), so "
                              "p-values and bands may be off.",
-                             {"statistic": sw.statistic, "p_value": sw.p_value,
-                              "alpha": TEST_ALPHA}))
+                             _test_evidence(sw.statistic, sw.p_value)))
     if bp is not None and bp.p_value < TEST_ALPHA:
         out.append(TrustFlag("non_constant_variance", "caution",
                              "The scatter changes along x (Breusch-Pagan); consider weights "
                              "(inverse variances) or a transform of y.",
-                             {"statistic": bp.statistic, "p_value": bp.p_value,
-                              "alpha": TEST_ALPHA}))
-    if dw is not None and not math.isnan(dw.statistic) and not DW_LOW <= dw.statistic <= DW_HIGH:
+                             _test_evidence(bp.statistic, bp.p_value)))
+    if dw is not None and dw.p_value < TEST_ALPHA:
         out.append(TrustFlag("serial_correlation", "caution",
-                             "Neighbouring residuals (in the given order) are correlated "
-                             "(Durbin-Watson), so the uncertainties are likely understated.",
-                             {"statistic": dw.statistic, "range": (DW_LOW, DW_HIGH)}))
+                             "Neighbouring residuals (in the given order) are positively "
+                             "correlated (Durbin-Watson, one-sided), so the uncertainties are "
+                             "likely understated, or the curve misses a trend in that order.",
+                             {**_test_evidence(dw.statistic, dw.p_value),
+                              "alternative": "positive"}))
     if d.outliers:
         out.append(TrustFlag("outliers", "caution",
                              f"{len(d.outliers)} point(s) sit further from the curve than the "
                              "Bonferroni-adjusted studentized-residual limit.",
-                             {"indices": d.outliers, "threshold": d.thresholds["outlier_t"]}))
+                             {"indices": d.outliers, "threshold": d.thresholds["outlier_t"],
+                              "alpha": TEST_ALPHA, "family_alpha": FAMILY_ALPHA}))
+    outlying = set(d.outliers) if d.outliers else ()
     if d.influential:
-        out.append(TrustFlag("influential_points", "caution",
-                             f"{len(d.influential)} point(s) change the fit strongly on their "
-                             "own (Cook's distance); check them.",
-                             {"indices": d.influential,
+        both = tuple(i for i in d.influential if i in outlying) if outlying else ()
+        if both:
+            message = (f"{len(both)} point(s) are outliers that also change the fit strongly "
+                       "on their own (Cook's distance); check them.")
+        else:
+            message = (f"{len(d.influential)} point(s) have a large Cook's distance, but none "
+                       "is an outlier: the design leans on them.")
+        out.append(TrustFlag("influential_points", "caution" if both else "info", message,
+                             {"indices": d.influential, "outlying": both,
                               "threshold": d.thresholds["cooks_distance"]}))
     if d.high_leverage:
-        out.append(TrustFlag("high_leverage", "info",
-                             f"{len(d.high_leverage)} point(s) have high leverage (x far from "
-                             "the rest), so the curve leans on them.",
-                             {"indices": d.high_leverage, "threshold": d.thresholds["leverage"]}))
+        both = ()
+        if outlying and d.influential:
+            lever = set(d.high_leverage)
+            both = tuple(i for i in d.influential if i in outlying and i in lever)
+        if both:
+            message = (f"{len(both)} high-leverage point(s) are influential outliers: the "
+                       "curve leans on points that disagree with the rest.")
+        else:
+            message = (f"{len(d.high_leverage)} point(s) have high leverage (x far from the "
+                       "rest), so the curve leans on them; none is an influential outlier.")
+        out.append(TrustFlag("high_leverage", "caution" if both else "info", message,
+                             {"indices": d.high_leverage, "influential_outliers": both,
+                              "threshold": d.thresholds["leverage"]}))
     return out

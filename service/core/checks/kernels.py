@@ -13,7 +13,10 @@ the flagged points, from weighted residuals and leverages.
 * Breusch-Pagan (Koenker's studentized form) ``LM = n ||Q'zc||² / ||zc||²`` for
   the centred squared residuals ``zc`` and an orthonormal basis ``Q`` of the
   family's auxiliary regressors, and its chi-squared tail (:func:`chi2_tail`).
-* Durbin-Watson ``sum (e_i - e_(i-1))² / sum e²``.
+* Durbin-Watson ``sum (e_i - e_(i-1))² / sum e²``, and its one-sided p-value from
+  the design's moments of d (:func:`dw_p`; the moments are described in
+  :mod:`service.core.checks.durbin_watson`) with a compiled regularized incomplete
+  beta function (:func:`beta_cdf`, checked against ``scipy.special.betainc``).
 """
 
 from __future__ import annotations
@@ -82,6 +85,94 @@ def chi2_tail(df, x):
         total += term
         term *= h / (j + 0.5)
     return math.erfc(math.sqrt(h)) + math.exp(-h) * total
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def _beta_fraction(a, b, x):
+    """Continued fraction of the incomplete beta function (modified Lentz; converges fast
+    for ``x < (a + 1) / (a + b + 2)``)."""
+    tiny = 1e-300
+    c, d = 1.0, 1.0 - (a + b) * x / (a + 1.0)
+    d = 1.0 / (d if abs(d) > tiny else tiny)
+    h = d
+    for m in range(1, 100_000):
+        for aa in (m * (b - m) * x / ((a - 1.0 + 2 * m) * (a + 2 * m)),
+                   -(a + m) * (a + b + m) * x / ((a + 2 * m) * (a + 1.0 + 2 * m))):
+            d = 1.0 + aa * d
+            d = 1.0 / (d if abs(d) > tiny else tiny)
+            c = 1.0 + aa / c
+            c = c if abs(c) > tiny else tiny
+            h *= d * c
+        if abs(d * c - 1.0) < 1e-16:
+            break
+    return h
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def _stirling_tail(z):
+    """``ln Gamma(z) - ((z - 1/2) ln z - z + ln(2 pi) / 2)`` for z >= 10 (A&S 6.1.41)."""
+    r = 1.0 / (z * z)
+    return (1.0 / 12.0 - r * (1.0 / 360.0 - r * (1.0 / 1260.0 - r / 1680.0))) / z
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def _log_front(a, b, x):
+    """``ln(x^a (1 - x)^b / B(a, b))``. For a, b >= 10 written around ``x0 = a / (a + b)``
+    with Stirling's series, so that large a and b lose no digits to cancellation."""
+    if a < 10.0 or b < 10.0:
+        return (math.lgamma(a + b) - math.lgamma(a) - math.lgamma(b)
+                + a * math.log(x) + b * math.log1p(-x))
+    x0 = a / (a + b)
+    delta = x - x0
+    return (a * math.log1p(delta / x0) + b * math.log1p(-delta / (1.0 - x0))
+            + 0.5 * (math.log(a) + math.log(b) - math.log(a + b) - math.log(2.0 * math.pi))
+            - _stirling_tail(a) - _stirling_tail(b) + _stirling_tail(a + b))
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def beta_cdf(a, b, x):
+    """Regularized incomplete beta ``I_x(a, b)`` for ``a, b > 0`` (the lower tail)."""
+    if not (a > 0 and b > 0) or x != x:
+        return np.nan
+    if x <= 0.0:
+        return 0.0
+    if x >= 1.0:
+        return 1.0
+    log_front = _log_front(a, b, x)
+    if x < (a + 1.0) / (a + b + 2.0):
+        return math.exp(log_front) * _beta_fraction(a, b, x) / a
+    return 1.0 - math.exp(log_front) * _beta_fraction(b, a, 1.0 - x) / b
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def dw_traces(n, trace_g, frob_g, frob_aq):
+    """``(tr(MA), tr((MA)²))`` from the design sums ``tr(G)``, ``||G||²``, ``||AQ||²``."""
+    return 2.0 * (n - 1) - trace_g, (6.0 * n - 8.0) - 2.0 * frob_aq + frob_g
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def dw_p(d, k, tr1, tr2):
+    """``P(d <= d_obs)``: ``d / 4`` as a beta variable with the mean ``tr1 / k`` and the
+    variance ``2 (k tr2 - tr1²) / (k² (k + 2))`` of ``d`` (over 16); NaN when undefined."""
+    if not k >= 2 or d != d:
+        return np.nan
+    mean = tr1 / k / 4.0
+    var = 2.0 * (k * tr2 - tr1 * tr1) / (k * k * (k + 2.0)) / 16.0
+    if not (var > 0 and 0 < mean < 1):
+        return np.nan
+    spread = mean * (1.0 - mean) / var - 1.0
+    if not spread > 0:
+        return np.nan
+    return beta_cdf(mean * spread, (1.0 - mean) * spread, min(max(d / 4.0, 0.0), 1.0))
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def dw_p_many(d, k, tr1, tr2):
+    """:func:`dw_p` of each row of equal-length arrays."""
+    out = np.empty(d.size)
+    for i in range(d.size):
+        out[i] = dw_p(d[i], k[i], tr1[i], tr2[i])
+    return out
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")

@@ -14,6 +14,7 @@ from __future__ import annotations
 import numpy as np
 
 from service.core.batch.driver import fit_many
+from service.core.checks import durbin_watson
 from service.core.polynomial.bands import predict
 from service.core.polynomial.fit import fit_series
 from service.core.spec import FitOptions, GridSpec, ModelSpec
@@ -37,3 +38,5 @@ def warm_up() -> None:
     x2, y2 = np.tile(x[:8], 2), np.tile(y[:8], 2)
     fit_many(x2, y2, [8, 8], model=ModelSpec(max_degree=2))
     fit_many(x2, y2, [8, 8], np.ones(16), model=ModelSpec(max_degree=2, intercept=False))
+    # the shared diagnostics' Durbin-Watson p-value, called from Python by any family
+    durbin_watson.p_value_one(1.5, 10.0, *durbin_watson.bound_traces(13, 3))

@@ -15,7 +15,7 @@ import numpy as np
 from scipy import special
 
 from service.core.checks.diagnostics import residual_diagnostics
-from service.core.checks.flags import trust_flags
+from service.core.checks.flags import TEST_ALPHA, trust_flags
 from service.core.checks.lack_of_fit import distinct_count
 from service.core.data.grid import grid_points
 from service.core.data.inputs import clean_data
@@ -31,7 +31,7 @@ from service.core.spec import FitOptions
 
 NAN = float("nan")
 EXACT_RTOL = 1e-13     # an RSS below (1e-13)² of the weighted sum of y² is rounding noise
-GOF_ALPHA = 0.05       # the chi-square goodness-of-fit test (known SDs), common practice
+GOF_ALPHA = TEST_ALPHA  # the chi-square goodness-of-fit test (known SDs): a flag test's level
 
 
 def analyse(equation, names: tuple[str, ...], family: str, expression: str, x, y, weights,
@@ -98,7 +98,8 @@ def _report(solution, data, equation, names, family, expression, start, options,
     distinct = data.distinct if data.distinct is not None else distinct_count(data.x)
     diagnostics = residual_diagnostics(
         data.index, data.x, np.array(solution.weighted_residuals), inference.leverage, zw,
-        sqrt_w, p, solution.rss, exact, distinct, data.x[:, None], "x")
+        sqrt_w, p, solution.rss, exact, distinct, data.x[:, None], "x",
+        basis=_tangent_basis(solution, inference))
     gof = _goodness_of_fit(inference)
     if gof is not None:
         diagnostics = replace(diagnostics, tests=diagnostics.tests + (gof,))
@@ -146,6 +147,15 @@ def predict(fitted: FittedCurve, x, *, level: float | None = None, m: int = 1) -
 def _frozen(values: np.ndarray) -> np.ndarray:
     values.setflags(write=False)
     return values
+
+
+def _tangent_basis(solution, inference) -> np.ndarray | None:
+    """Orthonormal basis of the weighted Jacobian at the solution (the tangent plane), for
+    the Durbin-Watson moments; None when it is not of full rank."""
+    jw = solution.problem.sqrt_weights[:, None] * solution.jacobian
+    if inference.rank < jw.shape[1] or not np.isfinite(jw).all():
+        return None
+    return np.linalg.qr(jw)[0]
 
 
 def _goodness_of_fit(inference) -> TestResult | None:

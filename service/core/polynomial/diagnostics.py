@@ -4,7 +4,8 @@ The residuals and leverages come from the fit's orthonormal basis
 (:func:`service.core.polynomial.compiled.points.point_measures`); the
 per-point forms, the formal tests, the cut-offs and the frozen result are the
 shared ones of :mod:`service.core.checks.diagnostics` (which documents the
-thresholds). Breusch-Pagan regresses the squared residuals on the powers of x.
+thresholds). Breusch-Pagan regresses the squared residuals on the powers of x; the
+Durbin-Watson p-value takes its moments from the fit's own weighted basis.
 """
 
 from __future__ import annotations
@@ -16,6 +17,7 @@ from service.core.checks.diagnostics import (
     assemble,
     breusch_pagan_result,
     cut_offs,
+    durbin_watson_result,
     formal_tests,
     shapiro_coefficients,
 )
@@ -56,12 +58,13 @@ def diagnose(index: np.ndarray, x: np.ndarray, dec: Decomposition, degree: int, 
     tested = not exact and df >= 1
     bp_rinv = _bp_basis(dec, degree) if tested and 1 <= degree < n - 1 else _NO_BASIS
     cuts = cut_offs(n, p, df)
-    status, w, w_p, lm, lm_p, dw, outliers, high, infl = kernels_checks.fit_checks(
+    status, w, w_p, lm, lm_p, dw, outliers, high, infl, dw_p = kernels_checks.fit_checks(
         dec.t, dec.weights, dec.zw, dec.first, np.ascontiguousarray(dec.r_inv64[:p, :p]),
         dec.effects64, p, rss, df, bp_rinv, out, tested, shapiro_coefficients(n, tested),
         index, cuts)
+    dw_row = durbin_watson_result(dw, dw_p) if tested else None
     tests = formal_tests(tested, exact, n, (status, w, w_p), _breusch_pagan(n, degree, lm, lm_p),
-                         dw)
+                         dw_row)
     lof = lack_of_fit(x, dec.zw, dec.sqrt_w, rss, p, distinct)
     return assemble(index, out, dec.sqrt_w, tests, lof, (outliers, high, infl), cuts, n, p)
 

@@ -69,7 +69,8 @@ def fit_series(x, y, weights=None, *, model: ModelSpec = _DEFAULT_MODEL,
     -------
     FitReport
         Frozen. ``diagnostics``/``grid`` are None when not in ``options.include``
-        (or when ``options.grid`` is None).
+        (or when ``options.grid`` is None); the diagnostics are computed either way,
+        since the trust flags rest on them.
 
     Raises
     ------
@@ -172,15 +173,16 @@ def _fit(x, y, weights, model: ModelSpec, options: FitOptions) -> FitReport:
         n, p, m.df_model, m.df_residual, m.rss, m.tss, intercept, m.r_squared, m.adj_r_squared,
         float(sigma), m.f, m.f_p_value, m.log_likelihood, m.aic, m.aicc, m.bic, m.press,
         m.press_r_squared, cond)
-    diagnostics = None
-    if "diagnostics" in options.include:
-        diagnostics = diagnose(data.index, data.x, dec, degree, m.rss, m.exact, distinct)
+    # always diagnosed: the trust flags rest on these tests, whatever include returns
+    diagnostics = diagnose(data.index, data.x, dec, degree, m.rss, m.exact, distinct)
     grid = None
     if "grid" in options.include and options.grid is not None:
         gx = grid_points(options.grid, xmin, xmax, options.max_grid_points)
         grid = grid_prediction(fitted, gx)
     flags = trust_flags(n=n, p=p, exact=m.exact, condition=cond, diagnostics=diagnostics,
                         grid=grid)
+    if "diagnostics" not in options.include:
+        diagnostics = None
     return FitReport(fitted, data.n_input, data.dropped, coefficients, anova, statistics,
                      selection, diagnostics, grid, flags, tuple(notices))
 

@@ -1,5 +1,5 @@
 """Compiled diagnostics of one polynomial fit in one call: per-point forms, the three formal
-tests and the flagged points.
+tests (Durbin-Watson with its p-value) and the flagged points.
 
 :func:`fit_checks` runs ``points.point_measures`` (residuals and leverages from
 the fit's basis, then the shared per-point forms) and the shared tests of
@@ -12,7 +12,7 @@ from __future__ import annotations
 import numba
 import numpy as np
 
-from service.core.checks.kernels import positions, residual_tests
+from service.core.checks.kernels import dw_p, dw_traces, positions, residual_tests
 from service.core.polynomial.compiled.points import point_measures
 
 
@@ -33,10 +33,13 @@ def fit_checks(t, sw, zw, first, rinv, effects, p, rss, df, bp_rinv, out, tested
         Shapiro-Wilk W and p, Breusch-Pagan LM and p (NaN when ``bp_rinv`` is
         empty or the squared residuals are constant), Durbin-Watson.
     outliers, high, influential : int64 arrays of caller positions.
+    dw_p : float
+        One-sided p-value of Durbin-Watson's d for positive serial correlation, from
+        the design's moments (``point_measures``' sums, ``kernels.dw_p``).
     """
     n = t.size
-    ss, ss_diff, proj, ss_zc = point_measures(t, sw, zw, first, rinv, effects, p, rss, df,
-                                              bp_rinv, out)
+    ss, ss_diff, proj, ss_zc, dw_sums = point_measures(t, sw, zw, first, rinv, effects, p,
+                                                       rss, df, bp_rinv, out)
     if not tested:
         out[2:] = np.nan
     status, w, w_p, lm, lm_p, dw = residual_tests(out[0], ss, ss_diff, proj, ss_zc,
@@ -44,4 +47,6 @@ def fit_checks(t, sw, zw, first, rinv, effects, p, rss, df, bp_rinv, out, tested
     outliers = positions(index, out[3], cuts[0], True)
     high = positions(index, out[1], cuts[1], False) if n > p else index[:0]
     influential = positions(index, out[4], cuts[2], False)
-    return status, w, w_p, lm, lm_p, dw, outliers, high, influential
+    tr1, tr2 = dw_traces(n, dw_sums[0], dw_sums[1], dw_sums[2])
+    return status, w, w_p, lm, lm_p, dw, outliers, high, influential, dw_p(dw, float(n - p),
+                                                                           tr1, tr2)

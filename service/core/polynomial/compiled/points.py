@@ -137,10 +137,17 @@ def point_measures(t, sw, zw, first, rinv, effects, p, rss, df, bp_rinv, out):
         ``zc = e² - mean(e²)`` and the orthonormal basis ``q = R^-T v(t)`` of ``bp_rinv``.
     ss_zc : float
         ``sum zc²``.
+    dw_sums : ndarray (3,)
+        ``tr(G)``, ``||G||_F²`` and ``||AQ||_F²`` of the fit's basis (the moments of
+        Durbin-Watson's d, :mod:`service.core.checks.durbin_watson`).
     """
     n = t.size
     v = np.empty((p, CHUNK))
-    q = np.empty(CHUNK)
+    q = np.empty((p, CHUNK))
+    dq = np.empty((p, CHUNK))
+    carry = np.zeros((2, p))   # the previous point's basis row and its difference
+    gram = np.zeros((p, p))
+    frob_aq = 0.0
     ss = 0.0
     e_row, h_row = out[0], out[1]
     for s0 in range(0, n, CHUNK):
@@ -151,18 +158,60 @@ def point_measures(t, sw, zw, first, rinv, effects, p, rss, df, bp_rinv, out):
         h[:] = 0.0
         e[:] = 0.0
         for j in range(p):
-            _add_column(rinv, v, j, m, effects[j], q, h, e)
+            _add_column(rinv, v, j, m, effects[j], q[j], h, e)
         acc = 0.0
         for i in range(m):
             e[i] = zw[s0 + i] - e[i]
             acc += e[i] * e[i]
         ss += acc
         point_forms(out, s0, m, p, rss, df)
+        frob_aq += _difference_sums(q, dq, m, p, s0 == 0, carry, gram)
+    for j in range(p):
+        frob_aq += carry[1, j] * carry[1, j]
     ss_diff = 0.0
     for i in range(1, n):
         ss_diff += (e_row[i] - e_row[i - 1]) * (e_row[i] - e_row[i - 1])
     proj, ss_zc = _projection(t, e_row, bp_rinv, ss / n)
-    return ss, ss_diff, proj, ss_zc
+    dw_sums = np.zeros(3)
+    for j in range(p):
+        dw_sums[0] += gram[j, j]
+        for k in range(p):
+            dw_sums[1] += gram[j, k] * gram[j, k]
+    dw_sums[2] = frob_aq
+    return ss, ss_diff, proj, ss_zc, dw_sums
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy", fastmath=_SUM)
+def _difference_sums(q, dq, m, p, first, carry, gram):
+    """Add one chunk's consecutive basis differences ``d_i = q_i - q_(i-1)`` to ``gram``
+    (``G = sum d d'``); return its share of ``||AQ||² = sum_i (d_i - d_(i+1))²``.
+
+    ``carry`` holds the previous point's row ``q`` and difference ``d`` (``d_0 = 0``);
+    the caller adds the last difference squared (``d_n = 0``) after the last chunk.
+    """
+    frob_aq = 0.0
+    for j in range(p):   # shifted views: no negative indices in the loops (they vectorize)
+        qj, dj = q[j], dq[j]
+        dj[0] = 0.0 if first else qj[0] - carry[0, j]
+        q_now, q_back, d_now, d_back = qj[1:m], qj[0:m - 1], dj[1:m], dj[0:m - 1]
+        for i in range(m - 1):
+            d_now[i] = q_now[i] - q_back[i]
+        acc = (dj[0] - carry[1, j]) * (dj[0] - carry[1, j])
+        diag = dj[0] * dj[0]
+        for i in range(m - 1):
+            acc += (d_now[i] - d_back[i]) * (d_now[i] - d_back[i])
+            diag += d_now[i] * d_now[i]
+        frob_aq += acc
+        gram[j, j] += diag
+        carry[0, j], carry[1, j] = qj[m - 1], dj[m - 1]
+    for j in range(1, p):
+        for k in range(j):
+            acc = 0.0
+            for i in range(m):
+                acc += dq[j, i] * dq[k, i]
+            gram[j, k] += acc
+            gram[k, j] = gram[j, k]
+    return frob_aq
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy", fastmath=_SUM)
