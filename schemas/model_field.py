@@ -9,12 +9,14 @@ from __future__ import annotations
 
 from marshmallow import Schema, ValidationError, fields
 
+from schemas.builtin import BUILTIN_SCHEMAS
 from schemas.expression import ExpressionModelSchema
 from schemas.fields import one_of_message
 from schemas.polynomial import ModelSchema
 
 MODEL_SCHEMAS: dict[str, type[Schema]] = {"polynomial": ModelSchema,
-                                          "expression": ExpressionModelSchema}
+                                          "expression": ExpressionModelSchema,
+                                          **BUILTIN_SCHEMAS}
 """Each family's model-object schema, by family name."""
 
 
