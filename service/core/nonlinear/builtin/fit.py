@@ -1,9 +1,13 @@
 """Fitting a built-in family: automatic starts, several solves, the best converged fit kept.
 
-Every automatic start (:mod:`.starts`) is solved to convergence with the shared
-engine (:func:`~service.core.nonlinear.solver.solve`, exact derivatives of the
-compiled equation); the fit kept is the converged one with the lowest residual
-sum of squares (the lowest of all when none converged). The caller's complete
+Every automatic start (:mod:`.starts`) is solved with the shared engine
+(:func:`~service.core.nonlinear.solver.solve`, exact derivatives of the compiled
+equation) on a short budget of ``EXPLORE_ITERATIONS``; the fit kept is the
+converged one with the lowest residual sum of squares. When none converged, the
+lowest is solved on from where it stopped with the engine's full budget. When a
+start that did not converge got lower than the kept fit, the report says so
+(notice ``lower_rss_not_converged``: the optimum may lie at the edge of the
+parameter space, e.g. logistic5's asymmetry -> infinity). The caller's complete
 start values replace the search (``started_from = "given"``). The kept
 estimates are written in the family's documented convention (e.g. slope > 0
 for logistic4) and analysed like any nonlinear fit
@@ -29,17 +33,22 @@ from service.core.nonlinear.polish import CONVERGED
 from service.core.nonlinear.report import NonlinearReport
 from service.core.nonlinear.results import Solution
 from service.core.nonlinear.solver import solve
+from service.core.results import Notice
 from service.core.spec import FitOptions, ModelSpec
 
 SAME_RSS = 1e-9  # relative: two fits this close in RSS are the same optimum
+EXPLORE_ITERATIONS = 150  # Jacobian evaluations per automatic start (a converging start
+#                           needs a few dozen; a run-away would spend the whole budget)
 
 
 class Kept(NamedTuple):
-    """The fit kept among the starts: its solution, where it started, how many were solved."""
+    """The fit kept among the starts: its solution, where it started, how many were solved,
+    and the lowest solution of all (converged or not)."""
 
     solution: Solution
     start: Start
     tried: int
+    lowest: Solution
 
 
 def fit_series(family: Builtin, x, y, weights=None, *, model: ModelSpec,
@@ -68,7 +77,8 @@ def fit_series(family: Builtin, x, y, weights=None, *, model: ModelSpec,
         out = report(kept.solution, data, compiled, free, family.name, compiled.text, start,
                      options=options, started_from="given" if given else "automatic",
                      start_strategy=kept.start.strategy, starts_tried=kept.tried)
-        return replace(out, derived=derived_rows(family, out))
+        return replace(out, derived=derived_rows(family, out),
+                       warnings=out.warnings + _lower_elsewhere(kept, free))
 
 
 def best_fit(family: Builtin, compiled, data, scale: str, held: Held) -> Kept:
@@ -84,25 +94,38 @@ def best_fit(family: Builtin, compiled, data, scale: str, held: Held) -> Kept:
         starts = [Start("given", {**held.fixed, **held.given})]
     else:
         starts = automatic_starts(family, series_of(data.x, data.y, data.w, scale), held)
+    budget = {} if starts[0].strategy == "given" else {"max_iterations": EXPLORE_ITERATIONS}
     best: Kept | None = None
+    lowest: Solution | None = None
     tried = 0
     for start in starts:
         vector = [start.values[n] for n in free]
         try:
             solution = solve(compiled, data.x, data.y, vector, weights=data.w, lower=lower,
-                             upper=upper)
+                             upper=upper, **budget)
         except SpecError:
             if start.strategy == "given":
                 raise
             continue
         tried += 1
+        if lowest is None or solution.rss < lowest.rss:
+            lowest = solution
         if best is None or _better(solution, best.solution):
-            best = Kept(solution, start, tried)
+            best = Kept(solution, start, 0, solution)
     if best is None:
         raise SpecError(f"No automatic start made the {family.name} curve finite at every x.",
                         field="model.parameters",
                         fix="Give start values for the parameters in model.parameters.")
-    return best._replace(tried=tried)
+    if budget and best.solution.termination not in CONVERGED:  # go on with the full budget
+        try:
+            more = solve(compiled, data.x, data.y, best.solution.estimates, weights=data.w,
+                         lower=lower, upper=upper)
+        except SpecError:  # stopped where the derivatives are no longer finite
+            more = best.solution
+        if _better(more, best.solution):
+            best = best._replace(solution=more)
+            lowest = more if more.rss < lowest.rss else lowest
+    return best._replace(tried=tried, lowest=lowest)
 
 
 def _better(new: Solution, old: Solution) -> bool:
@@ -110,6 +133,19 @@ def _better(new: Solution, old: Solution) -> bool:
     if new_ok != old_ok:
         return new_ok
     return new.rss < old.rss * (1.0 - SAME_RSS)
+
+
+def _lower_elsewhere(kept: Kept, free: tuple[str, ...]) -> tuple[Notice, ...]:
+    low, fit = kept.lowest, kept.solution
+    if low.termination in CONVERGED or not low.rss < fit.rss * (1.0 - SAME_RSS):
+        return ()
+    where = ", ".join(f"{n}={v:.4g}" for n, v in zip(free, low.estimates, strict=True))
+    return (Notice("lower_rss_not_converged",
+                   f"A start that did not converge reached a lower residual sum of squares "
+                   f"({low.rss:.6g}, against {fit.rss:.6g} here) at {where}: the least-squares "
+                   "optimum may lie at the edge of the parameter space (a parameter heading "
+                   "to 0 or infinity). A simpler family, bounds or fixed values may suit the "
+                   "data better."),)
 
 
 def _canonical(family: Builtin, compiled, data, held: Held, kept: Kept) -> Kept:
@@ -130,7 +166,8 @@ def _canonical(family: Builtin, compiled, data, held: Held, kept: Kept) -> Kept:
     solution = solve(compiled, data.x, data.y, vector, weights=data.w, lower=lower, upper=upper)
     if solution.termination not in CONVERGED or solution.rss > kept.solution.rss * (1 + SAME_RSS):
         return kept
-    return Kept(solution, Start(f"{kept.start.strategy}_rewritten", written), kept.tried)
+    return kept._replace(solution=solution,
+                         start=Start(f"{kept.start.strategy}_rewritten", written))
 
 
 def _check_data(family: Builtin, scale: str, x: np.ndarray, p: int) -> None:
