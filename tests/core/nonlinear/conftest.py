@@ -42,8 +42,10 @@ def _builtin_scores(terminalreporter):
     terminalreporter.write_sep("-", "built-in families: share of seeded series fitted to the "
                                     "global least-squares optimum")
     terminalreporter.write_line(f"{'family':17s} {'series':>6s} {'no opt.':>7s} "
-                                f"{'automatic':>9s} {'curve_fit(1,...)':>16s}")
+                                f"{'automatic':>9s} {'(unconverged)':>13s} "
+                                f"{'curve_fit(1,...)':>16s}")
     for name, score in BUILTIN_SCORES.items():
         ours, other = score.rates()
         terminalreporter.write_line(f"{name:17s} {score.series:6d} "
-                                    f"{score.no_finite_optimum:7d} {ours:9.3f} {other:16.3f}")
+                                    f"{score.no_finite_optimum:7d} {ours:9.3f} "
+                                    f"{score.not_converged:13d} {other:16.3f}")

@@ -2,8 +2,9 @@
 
 Source of the reference optimum: scipy.optimize.least_squares from the true values and
 from random perturbations of them, tolerances 1e-14 (see builtin_simulation.py, which
-also defines the seeded designs and how series without a finite optimum are counted).
-The requirement (project issue 15): at least 99.5% of the series per family. The rates,
+also defines the seeded designs, the scoring, and how series without a finite optimum
+are counted). The requirement (project issue 15): at least 99.5% of the series per
+family reach the optimum's residual sum of squares. The rates,
 and those of scipy.optimize.curve_fit from its default start of all ones on the same
 series, are printed at the end of the run.
 """

@@ -3,8 +3,9 @@
 Every automatic start (:mod:`.starts`) is solved with the shared engine
 (:func:`~service.core.nonlinear.solver.solve`, exact derivatives of the compiled
 equation) on a short budget of ``EXPLORE_ITERATIONS``; the fit kept is the
-converged one with the lowest residual sum of squares. When none converged, the
-lowest is solved on from where it stopped with the engine's full budget. When a
+converged one with the lowest residual sum of squares. When the lowest of all did
+not converge, it is solved on from where it stopped with the engine's full budget
+(and kept if it then converges lower, or if nothing converged). When a
 start that did not converge got lower than the kept fit, the report says so
 (notice ``lower_rss_not_converged``: the optimum may lie at the edge of the
 parameter space, e.g. logistic5's asymmetry -> infinity). The caller's complete
@@ -96,7 +97,7 @@ def best_fit(family: Builtin, compiled, data, scale: str, held: Held) -> Kept:
         starts = automatic_starts(family, series_of(data.x, data.y, data.w, scale), held)
     budget = {} if starts[0].strategy == "given" else {"max_iterations": EXPLORE_ITERATIONS}
     best: Kept | None = None
-    lowest: Solution | None = None
+    lowest: Kept | None = None
     tried = 0
     for start in starts:
         vector = [start.values[n] for n in free]
@@ -108,24 +109,26 @@ def best_fit(family: Builtin, compiled, data, scale: str, held: Held) -> Kept:
                 raise
             continue
         tried += 1
-        if lowest is None or solution.rss < lowest.rss:
-            lowest = solution
+        found = Kept(solution, start, 0, solution)
+        if lowest is None or solution.rss < lowest.solution.rss:
+            lowest = found
         if best is None or _better(solution, best.solution):
-            best = Kept(solution, start, 0, solution)
+            best = found
     if best is None:
         raise SpecError(f"No automatic start made the {family.name} curve finite at every x.",
                         field="model.parameters",
                         fix="Give start values for the parameters in model.parameters.")
-    if budget and best.solution.termination not in CONVERGED:  # go on with the full budget
+    if budget and lowest.solution.termination not in CONVERGED:  # on with the full budget
         try:
-            more = solve(compiled, data.x, data.y, best.solution.estimates, weights=data.w,
+            more = solve(compiled, data.x, data.y, lowest.solution.estimates, weights=data.w,
                          lower=lower, upper=upper)
         except SpecError:  # stopped where the derivatives are no longer finite
-            more = best.solution
+            more = lowest.solution
         if _better(more, best.solution):
-            best = best._replace(solution=more)
-            lowest = more if more.rss < lowest.rss else lowest
-    return best._replace(tried=tried, lowest=lowest)
+            best = lowest._replace(solution=more)
+        if more.rss < lowest.solution.rss:
+            lowest = lowest._replace(solution=more)
+    return best._replace(tried=tried, lowest=lowest.solution)
 
 
 def _better(new: Solution, old: Solution) -> bool:
