@@ -161,3 +161,20 @@ def test_fixed_values_are_written_as_numbers():
         "plateau + (-2.5 - plateau)*exp(-k*x)"
     assert equation("power", "linear", (("exponent", 1e-05),)).parameter_names == (
         "coefficient",)
+
+
+@pytest.mark.parametrize("data", ["tiny_x", "huge_x", "constant_y", "one_x"])
+@pytest.mark.parametrize("name", list(BUILTINS))
+def test_awkward_data_give_a_report_or_a_typed_error(name, data):
+    # Found by hand-fuzzing: x near 1e-300 broke a straight-line fit of the shape start,
+    # x near 1e200 made a half-life's derivative divide by an underflowed zero.
+    rng = np.random.default_rng(1)
+    x = {"tiny_x": np.linspace(1e-300, 1e-299, 10), "huge_x": np.linspace(1e200, 2e200, 10),
+         "constant_y": np.arange(1.0, 11.0), "one_x": np.ones(10)}[data]
+    y = np.ones(10) if data == "constant_y" else rng.normal(size=10)
+    try:
+        out = fit_series(BUILTINS[name], x, y, model=ModelSpec(family=name), options=OPTIONS)
+    except (DataError, DesignError, SpecError) as error:
+        assert error.field
+    else:
+        assert out.fit_info.started_from == "automatic" and out.fit_info.starts_tried >= 1

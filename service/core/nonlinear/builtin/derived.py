@@ -11,6 +11,8 @@ from __future__ import annotations
 
 import math
 
+import numpy as np
+
 from service.core.nonlinear.builtin.definition import Builtin, Derived
 from service.core.nonlinear.report import DerivedRow, NonlinearReport, ParameterRow
 
@@ -29,8 +31,9 @@ def _row(derived: Derived, row: ParameterRow) -> DerivedRow:
     if not lo_dom < theta < hi_dom:  # outside the range where the quantity means anything
         return DerivedRow(derived.name, derived.meaning, derived.parameter, NAN, NAN, NAN, NAN,
                           NAN, NAN, "not_computed", "not_computed")
-    value = float(derived.value(theta))
-    slope = float(derived.slope(theta))
+    with np.errstate(all="ignore"):  # numpy scalars: an overflow is inf, never an exception
+        value = float(derived.value(np.float64(theta)))
+        slope = float(derived.slope(np.float64(theta)))
     se = abs(slope) * row.std_error
     crit = (row.upper - theta) / row.std_error if row.std_error > 0 else NAN
     low = _mapped(derived, row.profile_lower, row.profile_lower_status)
@@ -47,4 +50,5 @@ def _mapped(derived: Derived, limit: float, status: str) -> tuple[float, str]:
     lo_dom, hi_dom = derived.domain
     if not lo_dom < limit < hi_dom:
         return NAN, "unbounded"
-    return float(derived.value(limit)), "found"
+    with np.errstate(all="ignore"):
+        return float(derived.value(np.float64(limit))), "found"

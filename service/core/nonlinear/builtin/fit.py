@@ -95,6 +95,11 @@ def best_fit(family: Builtin, compiled, data, scale: str, held: Held) -> Kept:
         starts = [Start("given", {**held.fixed, **held.given})]
     else:
         starts = automatic_starts(family, series_of(data.x, data.y, data.w, scale), held)
+    if not starts:
+        raise SpecError(f"No start made the {family.name} curve finite at every x.",
+                        field="model.parameters",
+                        fix="Give start values for the parameters in model.parameters, or "
+                            "check that the data suit this family.")
     budget = {} if starts[0].strategy == "given" else {"max_iterations": EXPLORE_ITERATIONS}
     best: Kept | None = None
     lowest: Kept | None = None
@@ -115,9 +120,10 @@ def best_fit(family: Builtin, compiled, data, scale: str, held: Held) -> Kept:
         if best is None or _better(solution, best.solution):
             best = found
     if best is None:
-        raise SpecError(f"No automatic start made the {family.name} curve finite at every x.",
+        raise SpecError(f"No start made the {family.name} curve finite at every x.",
                         field="model.parameters",
-                        fix="Give start values for the parameters in model.parameters.")
+                        fix="Give start values for the parameters in model.parameters, or "
+                            "check that the data suit this family.")
     if budget and lowest.solution.termination not in CONVERGED:  # on with the full budget
         try:
             more = solve(compiled, data.x, data.y, lowest.solution.estimates, weights=data.w,

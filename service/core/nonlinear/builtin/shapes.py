@@ -48,8 +48,11 @@ def line(u: np.ndarray, v: np.ndarray) -> tuple[float, float] | None:
     keep = np.isfinite(u) & np.isfinite(v)
     if np.unique(u[keep]).size < 2:
         return None
-    slope, intercept = np.polyfit(u[keep], v[keep], 1)
-    return float(intercept), float(slope)
+    with np.errstate(all="ignore"):
+        du = u[keep] - u[keep].mean()
+        slope = float(du @ (v[keep] - v[keep].mean()) / (du @ du))
+        intercept = float(v[keep].mean() - slope * u[keep].mean())
+    return (intercept, slope) if np.isfinite(slope) and np.isfinite(intercept) else None
 
 
 def logit_slope(u: np.ndarray, y: np.ndarray, left: float, right: float) -> float | None:
