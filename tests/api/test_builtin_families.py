@@ -15,6 +15,7 @@ from scipy import optimize
 from schemas.builtin import BUILTIN_PARAMETERS
 from tests.api.helpers import assert_problem, post_json
 from tests.core.nonlinear import builtin_simulation as sim
+from tests.core.nonlinear.builtin_designs import log4
 
 FAMILIES = list(BUILTIN_PARAMETERS)
 
@@ -155,12 +156,12 @@ def test_logistic4_scales_and_a_falling_curve(client):
     # (y_left, y_right, slope) -> (y_right, y_left, -slope); the answer uses slope > 0.
     x = np.repeat([0.0, 0.01, 0.1, 1.0, 10.0, 100.0, 1000.0], 3)
     rng = np.random.default_rng(11)
-    y = sim._log4(x, 5.0, 1.0, 1.2, 2.0) + rng.normal(0, 0.05, x.size)
+    y = log4(x, 5.0, 1.0, 1.2, 2.0) + rng.normal(0, 0.05, x.size)
     out = _fit(client, {"x": x.tolist(), "y": y.tolist(), "grid": None,
                         "model": {"family": "logistic4"}})    # log scale, zero dose kept
     est = {c["term"]: c["estimate"] for c in out["coefficients"]}
     assert est["slope"] > 0 and est["y_left"] > est["y_right"]
-    popt, _ = optimize.curve_fit(sim._log4, x, y, p0=[5.0, 1.0, 1.2, 2.0], xtol=1e-14,
+    popt, _ = optimize.curve_fit(log4, x, y, p0=[5.0, 1.0, 1.2, 2.0], xtol=1e-14,
                                  ftol=1e-14, gtol=1e-14)
     np.testing.assert_allclose(list(est.values()), popt, rtol=1e-6)
     lin = _fit(client, {"x": x.tolist(), "y": y.tolist(), "grid": None,
