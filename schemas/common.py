@@ -11,7 +11,9 @@ from marshmallow import RAISE, Schema, fields
 
 from schemas.fields import StrictFloat, StrictInteger, StrictString
 
-FAMILIES = ("polynomial", "expression")
+FAMILIES = ("polynomial", "expression", "logistic4", "logistic5", "exponential",
+            "michaelis_menten", "gompertz", "logistic_growth", "power", "gaussian_peak",
+            "biexponential", "weibull")
 WEIGHTINGS = ("relative", "known_sd")
 SELECT_METHODS = ("sequential_f", "aic", "aicc", "bic", "press", "adj_r2")
 TRANSFORMS = ("none", "log", "log10", "sqrt", "reciprocal")

@@ -18,11 +18,24 @@ class OptionSchema(Schema):
     description = text("What the option does.", required=True)
 
 
+class ParameterSchema(Schema):
+    """One parameter of a built-in family."""
+
+    name = text("Parameter name, as in the answer's coefficients and in model.parameters, "
+                "model.lower, model.upper and model.fixed.", required=True)
+    meaning = text("What the parameter is, with its unit.", required=True)
+    constraint = text("Its admissible values, in words.", required=True)
+
+
 class FamilySchema(Schema):
     """A model family."""
 
     name = text("Family name (the model.family value).", required=True)
     description = text("What the family fits.", required=True)
+    equation = text("The family's equation in x and its parameters (built-in families); the "
+                    "answer's model.expression is the fitted form.", allow_none=True)
+    parameters = fields.List(fields.Nested(ParameterSchema), metadata={
+        "description": "Each parameter's meaning and constraint (built-in families)."})
     options = fields.List(fields.Nested(OptionSchema), required=True,
                           metadata={"description": "Options of the model object."})
     select_methods = fields.List(fields.String(), required=True,

@@ -32,7 +32,8 @@ class FittedModelSummarySchema(Schema):
     terms = fields.List(fields.String(), required=True, metadata={
         "description": "Term names in order: intercept, x, x^2, ... for polynomials; the "
                        "parameter names for nonlinear families."})
-    expression = text("The fitted equation in canonical form (expression family).")
+    expression = text("The fitted equation in canonical form (nonlinear families; fixed "
+                      "parameters of a built-in family appear as their numbers).")
     weighting = text("How the weights were read: relative or known_sd (nonlinear families).")
     transform_x = text("Transform applied to x before fitting.")
     transform_y = text("Transform applied to y before fitting.")
@@ -191,7 +192,8 @@ class GridValuesSchema(Schema):
 class FitInfoSchema(Schema):
     """How a nonlinear fit was started, how it converged and why it stopped."""
 
-    started_from = text("given: the start values in model.parameters.", required=True)
+    started_from = text("given: the start values in model.parameters; automatic: a built-in "
+                        "family's own start values.", required=True)
     start = fields.List(fields.Float(), metadata={"description": "The start values used."})
     method = text("The trust-region method of the last solver phase and its scaling.")
     iterations = integer("Jacobian evaluations over every solver phase.")
@@ -210,6 +212,31 @@ class FitInfoSchema(Schema):
         "description": "free, lower or upper per parameter (on a bound you set)."})
     jacobian_rank = integer("Rank of the weighted, column-scaled Jacobian at the estimates.")
     condition_number = number("Its condition number.")
+    start_strategy = text("The start the reported fit came from: given, or for automatic "
+                          "starts grid_best (best point of the grid search with the linear "
+                          "parameters solved exactly), grid_local_2... (other local minima of "
+                          "that grid) or shape (read off the data: ends, interpolated "
+                          "midpoint, linearized rate); _rewritten when the estimates were "
+                          "then written in the family's convention (e.g. slope > 0).")
+    starts_tried = integer("Starts solved; the converged fit with the lowest residual sum of "
+                           "squares was kept.")
+
+
+class DerivedSchema(Schema):
+    """A quantity computed from one parameter (e.g. a half-life from a rate constant)."""
+
+    name = text("Name of the quantity, e.g. half_life.", required=True)
+    meaning = text("What it is, with its formula and unit.", required=True)
+    parameter = text("The parameter it is computed from.", required=True)
+    estimate = number("Its value at the estimates.", required=True)
+    std_error = number("Delta-method standard error.", required=True)
+    lower = number("Lower Wald limit (estimate - critical value x std_error).", required=True)
+    upper = number("Upper Wald limit.", required=True)
+    profile_lower = number("Lower profile-likelihood limit: the parameter's profile limit "
+                           "mapped through the (monotone) formula; null when not found.")
+    profile_upper = number("Upper profile-likelihood limit, likewise.")
+    profile_lower_status = text("found, unbounded or not_computed.")
+    profile_upper_status = text("found, unbounded or not_computed.")
 
 
 class CandidateRowSchema(Schema):
@@ -274,6 +301,9 @@ class FitResponseSchema(Schema):
     comparison = fields.Nested(ComparisonSchema, metadata={
         "description": "With model.candidates: the comparison table and the reason; the "
                        "other sections report the chosen candidate."})
+    derived = fields.List(fields.Nested(DerivedSchema), metadata={
+        "description": "Built-in families: quantities computed from a parameter (half-lives, "
+                       "full width at half maximum) with delta-method and profile limits."})
     fit_info = fields.Nested(FitInfoSchema, metadata={
         "description": "Nonlinear families: start, convergence and why the solver stopped."})
     correlation = fields.List(fields.List(fields.Float(allow_nan=False, allow_none=True)),

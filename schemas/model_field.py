@@ -9,13 +9,15 @@ from __future__ import annotations
 
 from marshmallow import Schema, ValidationError, fields, validate
 
+from schemas.builtin import BUILTIN_SCHEMAS
 from schemas.common import StrictSchema
 from schemas.expression import ExpressionModelSchema
 from schemas.fields import StrictFloat, choice, one_of_message
 from schemas.polynomial import ModelSchema
 
 MODEL_SCHEMAS: dict[str, type[Schema]] = {"polynomial": ModelSchema,
-                                          "expression": ExpressionModelSchema}
+                                          "expression": ExpressionModelSchema,
+                                          **BUILTIN_SCHEMAS}
 """Each family's model-object schema, by family name."""
 
 COMPARE_RULES = ("aicc", "aic", "bic", "f_test")

@@ -26,6 +26,8 @@ def families():
         "families": [{
             "name": entry.name,
             "description": entry.description,
+            "equation": entry.equation,
+            "parameters": [p._asdict() for p in entry.parameters],
             "options": describe_options(MODEL_SCHEMAS[entry.name]()),
             "select_methods": list(entry.select_methods),
             "transforms": list(entry.transforms),

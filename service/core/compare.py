@@ -189,7 +189,8 @@ def _nests(small: ModelSpec, big: ModelSpec, rs: CandidateRow, rb: CandidateRow)
         return False
     if small.family == big.family == "polynomial":
         return (small.intercept or not big.intercept) and small.transform_x == big.transform_x
-    return small.family in families.family(big.family).generalizes
+    same_terms = small.scale == big.scale and not small.fixed and not big.fixed
+    return same_terms and small.family in families.family(big.family).generalizes
 
 
 def _f_test(small: CandidateRow, big: CandidateRow) -> NestedTest:

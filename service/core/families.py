@@ -14,6 +14,7 @@ from __future__ import annotations
 
 from collections.abc import Callable, Mapping
 from dataclasses import dataclass
+from functools import partial
 from types import MappingProxyType
 from typing import Any
 
@@ -21,6 +22,10 @@ from service.core.errors import DocumentError, SpecError
 from service.core.models import calibration, document, inverse
 from service.core.nonlinear import analysis as nonlinear_analysis
 from service.core.nonlinear import expression_family
+from service.core.nonlinear.builtin import fit as builtin_fit
+from service.core.nonlinear.builtin import spec_check as builtin_spec
+from service.core.nonlinear.builtin.catalogue import BUILTINS
+from service.core.nonlinear.builtin.definition import Builtin, ParameterInfo
 from service.core.nonlinear.report import FittedCurve
 from service.core.polynomial import bands as polynomial_bands
 from service.core.polynomial import fit as polynomial_fit
@@ -62,6 +67,11 @@ class Family:
     generalizes : tuple of str
         Families that are special cases of this one (nested: the extra-sum-of-squares
         F test of :mod:`service.core.compare` applies between them).
+    equation : str or None
+        The family's equation, ``y = ...`` (None when the caller writes it).
+    parameters : tuple of ParameterInfo
+        Each parameter's name, meaning (with unit) and constraint; empty when the
+        caller names them.
     """
 
     name: str
@@ -79,6 +89,8 @@ class Family:
     select_methods: tuple[str, ...] = ()
     transforms: tuple[str, ...] = ()
     generalizes: tuple[str, ...] = ()
+    equation: str | None = None
+    parameters: tuple[ParameterInfo, ...] = ()
 
 
 POLYNOMIAL = Family(
@@ -99,8 +111,29 @@ EXPRESSION = Family(
     check_spec=expression_family.check_spec, predict=nonlinear_analysis.predict,
     write_document=None, read_document=None)
 
+
+
+NESTED_IN = {"logistic5": ("logistic4",),    # asymmetry = 1
+             "weibull": ("exponential",)}      # shape = 1, tau = 1/k
+"""Built-in families that contain others as a special case (for the F test of a comparison)."""
+
+
+def _builtin(entry: Builtin) -> Family:
+    """The registry entry of a built-in nonlinear family (automatic start values)."""
+    return Family(
+        name=entry.name, description=entry.description, fitted_type=FittedCurve,
+        fit=partial(builtin_fit.fit_series, entry), check_spec=partial(builtin_spec.check_spec,
+                                                                       entry),
+        predict=nonlinear_analysis.predict, write_document=None, read_document=None,
+        equation=entry.equation_text(), parameters=entry.parameters,
+        generalizes=NESTED_IN.get(entry.name, ()))
+
+
+BUILTIN_FAMILIES = tuple(_builtin(entry) for entry in BUILTINS.values())
+"""One entry per built-in family (logistic4, logistic5, exponential, ...)."""
+
 FAMILIES: Mapping[str, Family] = MappingProxyType(
-    {f.name: f for f in (POLYNOMIAL, EXPRESSION)})
+    {f.name: f for f in (POLYNOMIAL, EXPRESSION, *BUILTIN_FAMILIES)})
 """Every family by name, in the order ``/v1/families`` lists them."""
 
 
@@ -115,7 +148,10 @@ def family(name: str, *, field: str = "model.family") -> Family:
 
 
 def family_of(fitted: Any) -> Family:
-    """The family whose fits carry objects of ``type(fitted)``."""
+    """The family whose fits carry objects of ``type(fitted)`` (the one it names, if any)."""
+    named = FAMILIES.get(getattr(fitted, "family", None) or "")
+    if named is not None and isinstance(fitted, named.fitted_type):
+        return named
     for entry in FAMILIES.values():
         if isinstance(fitted, entry.fitted_type):
             return entry

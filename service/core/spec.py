@@ -26,8 +26,9 @@ class ModelSpec:
     ----------
     family : str
         A family of :data:`service.core.families.FAMILIES` (``"polynomial"``,
-        ``"expression"``). The polynomial options follow; the nonlinear ones
-        (``expression``, ``parameters``, ``lower``, ``upper``) come last.
+        ``"expression"``, or a built-in nonlinear family such as ``"logistic4"``).
+        The polynomial options follow; the nonlinear ones (``expression``,
+        ``parameters``, ``lower``, ``upper``, ``fixed``, ``scale``) come last.
     degree : int or None
         Fixed degree. Mutually exclusive with ``max_degree``.
     max_degree : int or None
@@ -45,9 +46,15 @@ class ModelSpec:
     expression : str or None
         The model equation in ``x`` and named parameters (``"expression"`` family).
     parameters : tuple of (name, start value) pairs, or None
-        The parameters, in order, with their start values.
+        The parameters, in order, with their start values. Built-in families
+        choose their own starts; given values replace the automatic ones.
     lower, upper : tuple of (name, bound) pairs, or None
         Optional bounds on some parameters.
+    fixed : tuple of (name, value) pairs, or None
+        Built-in families: parameters held at a value (not fitted).
+    scale : str or None
+        Built-in families with a choice of x scale (``"log"`` or ``"linear"``);
+        None takes the family's default.
     """
 
     family: str = "polynomial"
@@ -63,6 +70,8 @@ class ModelSpec:
     parameters: tuple[tuple[str, float], ...] | None = None
     lower: tuple[tuple[str, float], ...] | None = None
     upper: tuple[tuple[str, float], ...] | None = None
+    fixed: tuple[tuple[str, float], ...] | None = None
+    scale: str | None = None
 
     @property
     def selects(self) -> bool:

@@ -109,6 +109,8 @@ def nonlinear_response(report: NonlinearReport, include) -> dict:
     if "coefficients" in wanted:
         body["coefficients"] = [plain(c) for c in report.coefficients]
         body["correlation"] = report.correlation
+        if report.derived:
+            body["derived"] = [plain(d) for d in report.derived]
     if "statistics" in wanted:
         body["statistics"] = plain(report.statistics)
     body["fit_info"] = plain(report.fit_info)

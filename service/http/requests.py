@@ -12,6 +12,10 @@ def model_spec(model: dict) -> ModelSpec:
         return ModelSpec(family="expression", expression=model["expression"],
                          parameters=_pairs(model["parameters"]), lower=_pairs(model["lower"]),
                          upper=_pairs(model["upper"]))
+    if "fixed" in model:  # a built-in nonlinear family
+        return ModelSpec(family=model["family"], parameters=_pairs(model["parameters"]),
+                         lower=_pairs(model["lower"]), upper=_pairs(model["upper"]),
+                         fixed=_pairs(model["fixed"]), scale=model.get("scale"))
     return ModelSpec(family=model["family"], degree=model["degree"],
                      max_degree=None if model["degree"] is not None else model["max_degree"],
                      select=model["select"], alpha=model["alpha"], intercept=model["intercept"],

@@ -31,3 +31,16 @@ def test_families_lists_options_vocabularies_and_limits():
     assert all(o["description"] for o in options.values())
     assert out["limits"]["max_degree"] == 7 and out["limits"]["max_points"] == 1234
     assert out["sections"] == list(spec.SECTIONS)
+
+
+def test_family_vocabularies_match_the_registry():
+    from schemas.builtin import BUILTIN_PARAMETERS, BUILTIN_SCALES
+    from schemas.model_field import MODEL_SCHEMAS
+    from service.core import families
+    from service.core.nonlinear.builtin.catalogue import BUILTINS
+
+    assert common.FAMILIES == tuple(families.FAMILIES)
+    assert tuple(MODEL_SCHEMAS) == tuple(families.FAMILIES)
+    assert BUILTIN_PARAMETERS == {name: entry.names for name, entry in BUILTINS.items()}
+    assert BUILTIN_SCALES == {name: entry.scales for name, entry in BUILTINS.items()
+                              if len(entry.scales) > 1}

@@ -71,12 +71,20 @@ def analyse(equation, names: tuple[str, ...], family: str, expression: str, x, y
         start = np.asarray(start, dtype=float)
         solution = solve(equation, data.x, data.y, start, weights=data.w, lower=lower,
                          upper=upper)
-        return _report(solution, data, equation, names, family, expression, start, options,
-                       started_from)
+        return report(solution, data, equation, names, family, expression, start,
+                      options=options, started_from=started_from)
 
 
-def _report(solution, data, equation, names, family, expression, start, options,
-            started_from) -> NonlinearReport:
+def report(solution, data, equation, names: tuple[str, ...], family: str, expression: str,
+           start, *, options: FitOptions, started_from: str = "given",
+           start_strategy: str = "given", starts_tried: int = 1) -> NonlinearReport:
+    """The report of a solved fit (what :func:`analyse` does after :func:`solve`).
+
+    For families that choose among several solved starts themselves: ``solution``
+    is the kept :class:`Solution` of ``data`` (a cleaned series,
+    :func:`service.core.data.inputs.clean_data`), ``start`` the start it came from,
+    ``start_strategy`` its name and ``starts_tried`` how many starts were solved.
+    """
     n, p = data.x.size, len(names)
     mode, level = options.weighting, float(options.level)
     inference = infer(solution, weight_mode=mode, level=level, alpha=GOF_ALPHA)
@@ -103,7 +111,8 @@ def _report(solution, data, equation, names, family, expression, start, options,
     gof = _goodness_of_fit(inference)
     if gof is not None:
         diagnostics = replace(diagnostics, tests=diagnostics.tests + (gof,))
-    info = _fit_info(solution, start, started_from)
+    info = _fit_info(solution, np.asarray(start, dtype=float), started_from, start_strategy,
+                     starts_tried)
     flags = nonlinear_flags(info, rows, inference.correlation, gof, GOF_ALPHA)
     flags.extend(trust_flags(n=n, p=p, exact=exact, condition=NAN, diagnostics=diagnostics,
                              grid=grid))
@@ -111,8 +120,6 @@ def _report(solution, data, equation, names, family, expression, start, options,
     return NonlinearReport(fitted, data.n_input, tuple(data.dropped), rows,
                            inference.correlation, _statistics(inference, n, p), info,
                            diagnostics, grid, tuple(flags), notices)
-
-
 
 
 def predict(fitted: FittedCurve, x, *, level: float | None = None, m: int = 1) -> Prediction:
@@ -167,13 +174,14 @@ def _goodness_of_fit(inference) -> TestResult | None:
                       "be about n - p")
 
 
-def _fit_info(solution, start: np.ndarray, started_from: str) -> FitInfo:
+def _fit_info(solution, start: np.ndarray, started_from: str, start_strategy: str,
+              starts_tried: int) -> FitInfo:
     last = solution.attempts[-1] if solution.attempts else None
     method = "none" if last is None else f"{last.method} ({last.x_scale} scaling)"
     return FitInfo(started_from, tuple(start.tolist()), method, solution.iterations, solution.nfev,
                    solution.njev, solution.termination, solution.message, solution.converged,
                    solution.relative_offset, solution.gradient_norm, solution.bound_status,
-                   solution.rank, solution.condition_number)
+                   solution.rank, solution.condition_number, start_strategy, starts_tried)
 
 
 def _statistics(inf, n: int, p: int) -> FitStatistics:

@@ -38,14 +38,18 @@ class ParameterRow(NamedTuple):
 class FitInfo:
     """How the fit was started, how it converged and why it stopped.
 
-    ``termination`` is the solver's stable code (``relative_offset``,
+    ``started_from`` is ``"given"`` (the caller's start values) or ``"automatic"``
+    (a built-in family's own starts); ``start_strategy`` names the start the
+    reported fit came from (``"given"``, or e.g. ``"grid_best"``, ``"shape"``) and
+    ``starts_tried`` how many starts were solved before the best converged fit
+    was kept. ``termination`` is the solver's stable code (``relative_offset``,
     ``small_gradient`` and ``small_step`` mean converged); ``relative_offset``
     is the Bates & Watts (1981) criterion at the end, ``gradient_norm`` the
     largest cosine between the residuals and a Jacobian column; ``bound_status``
     holds ``"free"``, ``"lower"`` or ``"upper"`` per parameter.
     """
 
-    started_from: str  # "given"
+    started_from: str  # "given" | "automatic"
     start: tuple[float, ...]
     method: str
     iterations: int
@@ -59,6 +63,32 @@ class FitInfo:
     bound_status: tuple[str, ...]
     jacobian_rank: int
     condition_number: float
+    start_strategy: str = "given"
+    starts_tried: int = 1
+
+
+class DerivedRow(NamedTuple):
+    """A quantity derived from one parameter (e.g. a half-life from a rate constant).
+
+    ``std_error`` is the delta-method standard error, ``lower``/``upper`` the Wald
+    limits around the estimate with it; the profile limits are the parameter's
+    own profile limits mapped through the (monotone) function, so they are exact
+    profile-likelihood limits of the derived quantity too. A side is
+    ``"unbounded"`` (NaN) when the parameter's limit leaves the range where the
+    function is finite and monotone.
+    """
+
+    name: str
+    meaning: str
+    parameter: str
+    estimate: float
+    std_error: float
+    lower: float
+    upper: float
+    profile_lower: float
+    profile_upper: float
+    profile_lower_status: str
+    profile_upper_status: str
 
 
 @dataclass(frozen=True, slots=True)
@@ -105,3 +135,4 @@ class NonlinearReport:
     grid: Prediction | None
     flags: tuple[TrustFlag, ...]
     warnings: tuple[Notice, ...]
+    derived: tuple[DerivedRow, ...] = ()

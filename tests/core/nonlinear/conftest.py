@@ -11,6 +11,8 @@ from tests.conftest import reference_file
 
 # (dataset, start) -> (min LRE of estimates, of standard errors, LRE of the RSS, note)
 NIST_NONLINEAR_LRE: dict[tuple[str, str], tuple[float, float, float, str]] = {}
+# built-in family -> its simulation score (tests/core/nonlinear/builtin_simulation.Score)
+BUILTIN_SCORES: dict[str, object] = {}
 
 
 @pytest.fixture
@@ -24,6 +26,8 @@ def nist_nonlinear():
 
 
 def pytest_terminal_summary(terminalreporter):
+    if BUILTIN_SCORES:
+        _builtin_scores(terminalreporter)
     if not NIST_NONLINEAR_LRE:
         return
     terminalreporter.write_sep("-", "NIST StRD nonlinear: minimum LRE per dataset and start")
@@ -32,3 +36,16 @@ def pytest_terminal_summary(terminalreporter):
     for (name, start), (est, se, rss, note) in sorted(NIST_NONLINEAR_LRE.items()):
         terminalreporter.write_line(f"{name:10s} {start:7s} {est:9.2f} {se:8.2f} {rss:6.2f} "
                                     f"{note}")
+
+
+def _builtin_scores(terminalreporter):
+    terminalreporter.write_sep("-", "built-in families: share of seeded series fitted to the "
+                                    "global least-squares optimum")
+    terminalreporter.write_line(f"{'family':17s} {'series':>6s} {'no opt.':>7s} "
+                                f"{'automatic':>9s} {'(unconverged)':>13s} "
+                                f"{'curve_fit(1,...)':>16s}")
+    for name, score in BUILTIN_SCORES.items():
+        ours, other = score.rates()
+        terminalreporter.write_line(f"{name:17s} {score.series:6d} "
+                                    f"{score.no_finite_optimum:7d} {ours:9.3f} "
+                                    f"{score.not_converged:13d} {other:16.3f}")
