@@ -7,6 +7,7 @@ curve, noise level and fixed seed, so anyone can regenerate it::
     python scripts/demo_data.py nitrate             # a /v1/fit request body
     python scripts/demo_data.py soil --probes 20    # a /v1/batch request body
     python scripts/demo_data.py enzyme              # a /v1/fit body with the user's equation
+    python scripts/demo_data.py assay               # a /v1/fit body comparing 4PL and 5PL
     python scripts/demo_data.py greenhouse --degree 2 --include coefficients,statistics
 
 The output is strict JSON on stdout.
@@ -104,9 +105,32 @@ def enzyme(seed: int = SEED) -> dict:
     }
 
 
+def assay(seed: int = SEED) -> dict:
+    """Optical density of an invented immunoassay's eight standards, in triplicate.
+
+    Stated curve: a five-parameter logistic on log concentration, OD from 0.05 to
+    2.4, half-way at 12 ng/mL, slope 1.0, asymmetry 2.5 (a clearly lopsided
+    curve); standards 0.1 to 300 ng/mL in about three-fold steps; noise sd 1% of
+    the signal plus 0.005. The body compares the 4PL and the 5PL by the F test.
+    """
+    rng = np.random.default_rng(seed)
+    conc = np.repeat(np.round(np.geomspace(0.1, 300.0, 8), 3), 3)
+    z = (2 ** (1 / 2.5) - 1) * (conc / 12.0) ** 1.0
+    od = 2.4 + (0.05 - 2.4) / (1 + z) ** 2.5
+    od = od + rng.normal(0.0, 1.0, conc.size) * (0.01 * od + 0.005)
+    return {
+        "x": conc.tolist(),
+        "y": np.round(od, 4).tolist(),
+        "model": {"candidates": [{"family": "logistic4"}, {"family": "logistic5"}],
+                  "select": "f_test", "alpha": 0.05},
+        "grid": {"count": 100},
+        "level": 0.95,
+    }
+
+
 def main(argv: list[str] | None = None) -> int:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    parser.add_argument("scenario", choices=("greenhouse", "nitrate", "soil", "enzyme"))
+    parser.add_argument("scenario", choices=("greenhouse", "nitrate", "soil", "enzyme", "assay"))
     parser.add_argument("--probes", type=int, default=20, help="soil: number of probes")
     parser.add_argument("--seed", type=int, default=SEED)
     parser.add_argument("--degree", type=int, help="fix the degree instead of selecting it")
@@ -117,7 +141,7 @@ def main(argv: list[str] | None = None) -> int:
         body = soil(args.probes, args.seed)
     else:
         body = {"greenhouse": greenhouse, "nitrate": nitrate,
-                "enzyme": enzyme}[args.scenario](args.seed)
+                "enzyme": enzyme, "assay": assay}[args.scenario](args.seed)
     if args.degree is not None:
         body["model"] = {"family": "polynomial", "degree": args.degree}
     if args.include:
