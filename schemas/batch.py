@@ -296,6 +296,6 @@ class BatchResponseSchema(Schema):
 
     results = fields.List(fields.Nested(BatchResultSchema))
     summary = fields.Dict(metadata={
-        "description": "Counts: ok and error series; flagged, the series with at least one "
-                       "caution or serious flag; by_severity, the series by their most severe "
-                       "flag (serious, caution, info, none)."})
+        "description": "Counts: ok and error series; serious, caution and info, the fitted "
+                       "series by their most severe flag; flagged, those with at least one "
+                       "caution or serious flag (serious + caution)."})

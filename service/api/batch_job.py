@@ -23,7 +23,7 @@ from service.http.reporting import fit_response
 from service.http.requests import grid_spec, model_spec
 from service.runtime.observability import record_fit_failure
 
-SEVERITY_ORDER = ("serious", "caution", "info", "none")   # most severe first
+SEVERITY_ORDER = ("serious", "caution", "info")   # most severe first
 FULL_INCLUDE = ("coefficients", "anova", "statistics", "selection", "diagnostics",
                 "fitted_model")
 
@@ -44,8 +44,9 @@ class BatchJob:
             grid=grid_spec(grid) if grid is not None else None,
             include=frozenset(include) | ({"grid"} if grid is not None else set()),
             max_grid_points=settings.max_grid_points)
-        self.counts = {"ok": 0, "error": 0, "flagged": 0,
-                       "by_severity": dict.fromkeys(SEVERITY_ORDER, 0)}
+        # flat (the metrics reader takes the summary as one flat object): the series by
+        # their most severe flag; flagged = serious + caution
+        self.counts = {"ok": 0, "error": 0, "flagged": 0, "serious": 0, "caution": 0, "info": 0}
 
     def results(self, items):
         """``items``: (id, series tuple or error body). Returns result dicts in order."""
@@ -87,9 +88,10 @@ class BatchJob:
     def _count_flags(self, flags) -> None:
         """Count one fitted series by its most severe flag (caution or serious: flagged)."""
         found = {flag["severity"] for flag in flags}
-        worst = next(s for s in SEVERITY_ORDER if s in found or s == "none")
-        self.counts["by_severity"][worst] += 1
-        self.counts["flagged"] += worst in ("serious", "caution")
+        worst = next((s for s in SEVERITY_ORDER if s in found), None)
+        if worst is not None:
+            self.counts[worst] += 1
+            self.counts["flagged"] += worst != "info"
 
     def _fits(self, batch, rows):
         if self.detail == "full":
