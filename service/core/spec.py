@@ -16,6 +16,9 @@ WEIGHTINGS = ("relative", "known_sd")
 SECTIONS = ("coefficients", "anova", "statistics", "selection", "diagnostics", "grid",
             "fitted_model")
 HARD_MAX_DEGREE = 12  # absolute ceiling of the core; the service limit may be lower
+# Largest count of replicate readings (m): the largest whole number a double holds exactly;
+# beyond it sigma²/m is below rounding of any band anyway.
+MAX_REPLICATES = 2**53 - 1
 
 
 @dataclass(frozen=True, slots=True)

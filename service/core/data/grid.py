@@ -42,6 +42,11 @@ def grid_points(spec: GridSpec, x_min: float, x_max: float, max_points: int) -> 
     if stop < start:
         raise SpecError(f"grid.stop ({stop:g}) is below grid.start ({start:g}).",
                         field="grid.stop", fix="Give stop >= start.")
+    if not math.isfinite(stop - start):
+        raise SpecError(f"The grid from {start:g} to {stop:g} spans more than the largest "
+                        "double: its points cannot be spaced evenly.", field="grid.stop",
+                        fix="Give grid.start and grid.stop less than 1.7e308 apart, or list "
+                            "the points in grid.x.")
     if spec.step is not None:
         step = float(spec.step)
         if not (math.isfinite(step) and step > 0):

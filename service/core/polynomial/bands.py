@@ -35,6 +35,7 @@ from service.core.errors import DataError, SpecError
 from service.core.polynomial.compiled import bands as kernels_bands
 from service.core.polynomial.compiled.qr import upper_inverse
 from service.core.results import FittedPolynomial, Prediction, frozen_array, frozen_rows
+from service.core.spec import MAX_REPLICATES
 
 
 def _check_level(level: float) -> float:
@@ -80,9 +81,10 @@ def grid_prediction(fitted: FittedPolynomial, xs: np.ndarray) -> Prediction:
 
 def _predict(fitted: FittedPolynomial, x, level: float | None, m: int) -> Prediction:
     level = _check_level(fitted.level if level is None else level)
-    if isinstance(m, bool) or int(m) != m or m < 1:
-        raise SpecError(f"m = {m!r} is not a positive whole number.", field="m",
-                        fix="Give the number of future observations to average (1 or more).")
+    if isinstance(m, bool) or int(m) != m or not 1 <= m <= MAX_REPLICATES:
+        raise SpecError(f"m = {m!r} is not a whole number from 1 to {MAX_REPLICATES}.",
+                        field="m", fix="Give the number of future observations to average "
+                        "(1 or more).")
     xs = np.array(x, dtype=float, ndmin=1)  # a copy: the result freezes it
     if xs.ndim != 1:
         raise DataError("x must be one-dimensional.", field="x", fix="Send a flat list of numbers.")
@@ -99,8 +101,8 @@ def _evaluate(fitted: FittedPolynomial, xs: np.ndarray, u: np.ndarray, level: fl
               coef: np.ndarray, r_factor: np.ndarray) -> Prediction:
     df = fitted.df_residual
     p = fitted.basis_coefficients.size
-    if df > 0:
-        tq = t_quantile(df, 0.5 + level / 2)
+    if df > 0:  # upper tails from 1 - level (exact), never from 0.5 + level / 2 (rounds to 1)
+        tq = -t_quantile(df, (1.0 - level) / 2)
         wh = math.sqrt(p * f_quantile(p, df, level))
     else:
         tq = wh = float("nan")
