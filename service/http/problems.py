@@ -52,7 +52,8 @@ CATALOGUE: dict[str, ProblemKind] = {kind.code: kind for kind in (
                 "The degree is over CURVEWISE_MAX_DEGREE or the grid has more points than "
                 "CURVEWISE_MAX_GRID_POINTS.", "Ask for less, or raise the limit."),
     ProblemKind("invalid_data", 422, "Unusable data",
-                "Arrays of different lengths, empty arrays, non-finite values or weights <= 0.",
+                "Arrays of different lengths, empty arrays, non-finite values, weights <= 0, "
+                "or weights whose largest / smallest ratio is over 1e16.",
                 "Fix the array named in errors."),
     ProblemKind("transform_domain", 422, "Value outside the transform's domain",
                 "A value is outside the domain of the requested transform (e.g. log of x <= 0).",
