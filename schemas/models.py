@@ -118,6 +118,10 @@ class PredictionRowSchema(Schema):
     band_upper = number("Upper limit of the simultaneous (Working-Hotelling) band.")
     extrapolated = fields.Boolean(metadata={
         "description": "x lies outside the fitted data range [x_min, x_max]."})
+    unbounded = fields.Boolean(metadata={
+        "description": "A limit has no finite value on the original y scale and is null: the "
+                       "band reaches the pole of the reciprocal transform (the interval "
+                       "holding the fit is open on that side), or leaves the double range."})
 
 
 class Rows(fields.List):

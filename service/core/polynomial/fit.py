@@ -15,7 +15,7 @@ from service.core.checks.flags import trust_flags
 from service.core.checks.lack_of_fit import distinct_count
 from service.core.checks.shapiro import MAX_N as SHAPIRO_MAX_N
 from service.core.data import transforms
-from service.core.data.grid import grid_points
+from service.core.data.grid import check_domain, grid_points
 from service.core.data.inputs import check_magnitude, clean_data
 from service.core.errors import DesignError
 from service.core.polynomial import design, qr
@@ -178,6 +178,7 @@ def _fit(x, y, weights, model: ModelSpec, options: FitOptions) -> FitReport:
     grid = None
     if "grid" in options.include and options.grid is not None:
         gx = grid_points(options.grid, xmin, xmax, options.max_grid_points)
+        check_domain(options.grid, gx, model.transform_x)
         grid = grid_prediction(fitted, gx)
     flags = trust_flags(n=n, p=p, exact=m.exact, condition=cond, diagnostics=diagnostics,
                         grid=grid)
