@@ -53,8 +53,9 @@ def batch():
     """Fit many independent series; a bad series gets an error result, the rest are fitted."""
     settings = current_app.config["CURVEWISE"]
     if request.mimetype == NDJSON:
+        lines = stream(request, settings)  # body and options line checked: problems come here
         # X-Accel-Buffering: a buffering proxy (nginx) passes the lines on as they come
-        return Response(stream_with_context(stream(settings)), mimetype=NDJSON,
+        return Response(stream_with_context(lines), mimetype=NDJSON,
                         headers={"X-Accel-Buffering": "no"})
     with gc_paused():
         return _json_batch(settings)

@@ -1,48 +1,34 @@
 """NDJSON form of ``/v1/batch``: read series line by line, stream one result per line.
 
-The request body is spooled first (bounded memory), then fitted in chunks of
+The request body is spooled first by the view (bounded memory; :mod:`service.api.body`
+answers a body over the limit or badly framed before any line), then fitted in chunks of
 :data:`STREAM_CHUNK` series; an optional first line ``{"options": {...}}``
 carries the shared options.
 """
 
 from __future__ import annotations
 
-import tempfile
-
 import orjson
-from flask import request
 from marshmallow import ValidationError
 
 from schemas.batch import OptionsLineSchema
 from service.api.batch_job import BatchJob, gc_paused
+from service.api.body import spool_body
 from service.http.errors import ServiceLimitError, flatten_errors, problem_body
 from service.http.jsonio import dumps_bytes
 
 STREAM_CHUNK = 2048  # series fitted together while streaming (bounds memory)
-SPOOL_RAM_BYTES = 8 << 20  # NDJSON request bodies beyond this wait on disk, not in memory
 
 
-def _spooled_body(size: int = 1 << 16):
-    """The whole request body, copied to a spooled temporary file (RAM up to 8 MiB, then disk).
-
-    Most HTTP clients send the whole body before they read any of the response;
-    answering while the body still arrives would fill both socket buffers and
-    deadlock. Reading it first (bounded memory) and then streaming the results
-    works with every client.
-    """
-    spool = tempfile.SpooledTemporaryFile(max_size=SPOOL_RAM_BYTES)
-    while True:
-        block = request.stream.read(size)
-        if not block:
-            break
-        spool.write(block)
-    spool.seek(0)
-    return spool
+def stream(request, settings):
+    """Spool the body (problems for its size and framing come here, before any answer), then
+    return the generator fitting its series chunk by chunk, one result per line."""
+    body = spool_body(request)
+    return _answer(settings, body)
 
 
-def stream(settings):
-    """Spool the body, then fit its series chunk by chunk, one result per line."""
-    with _spooled_body() as body:
+def _answer(settings, body):
+    with body:
         yield from _stream_lines(settings, body)
 
 

@@ -24,8 +24,8 @@ or a platform without ``SIGALRM``) the guard stands aside and only gunicorn's ti
 
 **Body size.** A declared ``Content-Length`` over ``Settings.max_body_bytes`` is refused with 413
 before a byte of the body is read (Werkzeug would do the same when the body is first read; this
-makes it independent of whether and when a view reads it). Chunked bodies are cut off by
-Werkzeug's ``MAX_CONTENT_LENGTH`` while they are read.
+makes it independent of whether and when a view reads it). Chunked bodies are counted while
+they are read (:mod:`service.api.body`): one byte over the limit is a 413 problem.
 """
 
 from __future__ import annotations
