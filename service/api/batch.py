@@ -40,7 +40,8 @@ def _too_large(message: str) -> ServiceLimitError:
 ERRORS = {400: "Unparsable JSON body.",
           413: "Body, number of series or total points over the limit (batch_too_large).",
           415: "Body sent neither as application/json nor as application/x-ndjson.",
-          422: "Invalid shared options (a bad series only gets an error result)."}
+          422: "Invalid shared options, also on the NDJSON options line (a bad series only "
+               "gets an error result)."}
 
 
 _document_errors = error_responses(blp, ERRORS)

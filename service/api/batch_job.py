@@ -18,7 +18,7 @@ from service.core.batch.driver import fit_batch, fit_many
 from service.core.polynomial.design import term_names
 from service.core.spec import FitOptions
 from service.http.errors import ServiceLimitError, fit_error_body, flatten_errors, problem_body
-from service.http.limits import check_degree
+from service.http.limits import check_degree, check_grid
 from service.http.reporting import fit_response
 from service.http.requests import grid_spec, model_spec
 from service.runtime.observability import record_fit_failure
@@ -38,6 +38,8 @@ class BatchJob:
         include = envelope.get("include") or FULL_INCLUDE
         self.include = tuple(include)
         grid = envelope.get("grid")
+        if grid is not None:  # shared by every series: over the limit is the request's fault
+            check_grid(grid, settings)
         self.options = FitOptions(
             level=envelope["level"], missing=envelope["missing"],
             grid=grid_spec(grid) if grid is not None else None,
@@ -52,6 +54,14 @@ class BatchJob:
                           models=[items[i][1][3] for i in fit_idx], options=self.options,
                           detail=self.detail)
         return self._assemble(items, fit_idx, batch)
+
+    def error_results(self, items):
+        """Result dicts for ``(id, problem body)`` items, counted like fitted ones."""
+        out = [{"id": ident, "status": "error", "error": body} for ident, body in items]
+        self.counts["error"] += len(out)
+        for code, count in Counter(body.get("code") for _, body in items).items():
+            record_fit_failure(code, count)
+        return out
 
     def plain_results(self, ids, x, y, lengths):
         """Results for series already in flat arrays (:func:`schemas.batch.load_plain_series`)."""

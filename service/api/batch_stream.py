@@ -1,91 +1,156 @@
 """NDJSON form of ``/v1/batch``: read series line by line, stream one result per line.
 
-The request body is spooled first by the view (bounded memory; :mod:`service.api.body`
-answers a body over the limit or badly framed before any line), then fitted in chunks of
-:data:`STREAM_CHUNK` series; an optional first line ``{"options": {...}}``
-carries the shared options.
+Before any answer starts, the view spools the body (:func:`service.api.body.spool_body`:
+bounded memory, 413 for a chunked body over the limit, 400 for broken framing) and reads the
+first line: an options line ``{"options": {...}}`` that is not valid is a 422 problem, as in
+the JSON form. Then series are fitted in chunks of :data:`STREAM_CHUNK` lines and answered
+one line each, in line order.
+
+Memory per request is bounded whatever the lines hold: the spool (8 MiB in RAM, the rest on
+disk), the longest line, and at most :data:`STREAM_CHUNK` pending lines. A line that is not
+JSON becomes an error line at once when no series waits before it (else with its chunk);
+every non-blank line counts against ``CURVEWISE_MAX_SERIES``, so a stream of garbage is cut
+at the limit like any other.
 """
 
 from __future__ import annotations
 
+from collections.abc import Iterator
+
 import orjson
+from flask_smorest import abort
 from marshmallow import ValidationError
 
 from schemas.batch import OptionsLineSchema
 from service.api.batch_job import BatchJob, gc_paused
 from service.api.body import spool_body
+from service.api.parsing import BOM
 from service.http.errors import ServiceLimitError, flatten_errors, problem_body
 from service.http.jsonio import dumps_bytes
 
-STREAM_CHUNK = 2048  # series fitted together while streaming (bounds memory)
+STREAM_CHUNK = 2048  # lines fitted and answered together while streaming (bounds memory)
 
 
-def stream(request, settings):
-    """Spool the body (problems for its size and framing come here, before any answer), then
-    return the generator fitting its series chunk by chunk, one result per line."""
+def stream(request, settings) -> Iterator[bytes]:
+    """Spool the body and check its options line (problems, before any answer); return the
+    generator of answer lines, which closes the spool when it ends."""
     body = spool_body(request)
-    return _answer(settings, body)
+    try:
+        lines = _numbered(_lines(body))
+        job, first = _options(lines, settings)
+    except BaseException:
+        body.close()
+        raise
+    return _answer(body, _Stream(job, settings), first, lines)
 
 
-def _answer(settings, body):
+def _options(lines, settings) -> tuple[BatchJob, tuple[int, bytes] | None]:
+    """The job from the options line, or the defaults and the first line (a series)."""
+    for line_no, raw in lines:
+        if line_no == 1 and raw.startswith(BOM):
+            raw = raw[len(BOM):]
+        try:
+            obj = orjson.loads(raw)
+        except orjson.JSONDecodeError:
+            obj = None
+        if not (isinstance(obj, dict) and set(obj) == {"options"}):
+            return BatchJob(OptionsLineSchema().load({}), settings), (line_no, raw)
+        try:
+            envelope = OptionsLineSchema().load(obj["options"])
+        except ValidationError as exc:
+            abort(422, message=f"The options line (line {line_no}) is not valid; see errors "
+                               "for each field and its fix. No series was read.",
+                  errors=flatten_errors({"options": exc.messages}), code="validation_error")
+        try:
+            return BatchJob(envelope, settings), None
+        except ServiceLimitError as exc:
+            raise ServiceLimitError(exc.status, exc.code, exc.message,
+                                    field=f"options.{exc.field}") from None
+    return BatchJob(OptionsLineSchema().load({}), settings), None
+
+
+def _answer(body, state: _Stream, first, lines) -> Iterator[bytes]:
     with body:
-        yield from _stream_lines(settings, body)
+        if first is not None:
+            yield from state.take(*first)
+        for line_no, raw in lines:
+            if state.done:
+                break
+            yield from state.take(line_no, raw)
+        yield from state.finish()
 
 
-def _stream_lines(settings, body):
-    """Read series line by line, fit them chunk by chunk, write one result per line."""
-    job, pending, n_series, n_points, line_no = None, [], 0, 0, 0
-    for raw in _lines(body):
-        line_no += 1
-        if not raw.strip():
-            continue
+class _Stream:
+    """Lines read so far, the chunk waiting to be fitted, and the limits."""
+
+    def __init__(self, job: BatchJob, settings) -> None:
+        self.job, self.settings = job, settings
+        self.pending: list[tuple[int, object, object]] = []  # (line, id, series or problem)
+        self.series_pending = 0
+        self.lines = self.points = 0
+        self.done = False
+        self.truncated_at: int | None = None
+
+    def take(self, line_no: int, raw: bytes) -> Iterator[bytes]:
+        """Answer lines due after reading one more non-blank line."""
+        self.lines += 1
         try:
             obj = orjson.loads(raw)
         except orjson.JSONDecodeError as exc:
-            pending.append((line_no, None, problem_body(
+            obj, item = None, (None, problem_body(
                 400, None, f"Line {line_no} is not valid JSON: {exc}. Send one JSON object "
                 "per line.", errors={"_body": ["Send one JSON object per line."]},
-                code="invalid_json")))
-            continue
-        if job is None:
-            if isinstance(obj, dict) and set(obj) == {"options"}:
-                try:
-                    job = BatchJob(OptionsLineSchema().load(obj["options"]), settings)
-                except ValidationError as exc:
-                    yield _line({"line": line_no, "status": "error", "error": problem_body(
-                        422, None, "The options line is not valid.",
-                        errors=flatten_errors({"options": exc.messages}),
-                        code="validation_error")})
-                    return
-                except ServiceLimitError as exc:
-                    yield _line({"line": line_no, "status": "error", "error": problem_body(
-                        exc.status, None, exc.message, errors={f"options.{exc.field}":
-                                                               [exc.message]}, code=exc.code)})
-                    return
-                continue
-            job = BatchJob(OptionsLineSchema().load({}), settings)
-        n_series += 1
-        n_points += len(obj["x"]) if isinstance(obj, dict) and isinstance(obj.get("x"),
-                                                                          list) else 0
-        if n_series > settings.max_series or n_points > settings.max_total_points:
-            yield from _flush(job, pending)
-            yield _line({"line": line_no, "status": "error", "error": problem_body(
-                413, None, f"The stream passed this server's limit of {settings.max_series} "
-                f"series or {settings.max_total_points} points; line {line_no} and the rest "
-                "were not read. Send them in another request.", code="batch_too_large")})
-            yield _line({"summary": {**job.counts, "truncated_at_line": line_no}})
+                code="invalid_json"))
+        points = len(obj["x"]) if isinstance(obj, dict) and isinstance(obj.get("x"), list) else 0
+        if (self.lines > self.settings.max_series
+                or self.points + points > self.settings.max_total_points):
+            yield from self._truncate(line_no)
             return
-        ident, item = job.series(obj, n_series - 1)
-        pending.append((line_no, ident, item))
-        if len(pending) >= STREAM_CHUNK:
-            yield from _flush(job, pending)
-            pending = []
-    job = job or BatchJob(OptionsLineSchema().load({}), settings)
-    yield from _flush(job, pending)
-    yield _line({"summary": job.counts})
+        self.points += points
+        if obj is not None:
+            item = self.job.series(obj, self.lines - 1)
+        if isinstance(item[1], dict) and not self.series_pending:
+            yield _line({"line": line_no, **self.job.error_results([item])[0]})
+            return
+        self.pending.append((line_no, *item))
+        self.series_pending += not isinstance(item[1], dict)
+        if len(self.pending) >= STREAM_CHUNK:
+            yield from self._flush()
+
+    def finish(self) -> Iterator[bytes]:
+        """The last chunk, then the summary."""
+        yield from self._flush()
+        summary = dict(self.job.counts)
+        if self.truncated_at is not None:
+            summary["truncated_at_line"] = self.truncated_at
+        yield _line({"summary": summary})
+
+    def _truncate(self, line_no: int) -> Iterator[bytes]:
+        yield from self._flush()
+        self.done, self.truncated_at = True, line_no
+        yield _line({"line": line_no, "status": "error", "error": problem_body(
+            413, None, f"The stream passed this server's limit of {self.settings.max_series} "
+            f"lines or {self.settings.max_total_points} points; line {line_no} and the rest "
+            "were not read. Send them in another request.", code="batch_too_large")})
+
+    def _flush(self) -> Iterator[bytes]:
+        pending, self.pending, self.series_pending = self.pending, [], 0
+        if not pending:
+            return
+        with gc_paused():
+            results = self.job.results([(ident, item) for _, ident, item in pending])
+        for (line_no, _, _), result in zip(pending, results, strict=True):
+            yield _line({"line": line_no, **result})
 
 
-def _lines(stream, size: int = 1 << 16):
+def _numbered(lines) -> Iterator[tuple[int, bytes]]:
+    """(line number, bytes) of the non-blank lines."""
+    for line_no, raw in enumerate(lines, start=1):
+        if raw.strip():
+            yield line_no, raw
+
+
+def _lines(stream, size: int = 1 << 16) -> Iterator[bytes]:
     """Lines of a byte stream, read in blocks (iterating the raw WSGI stream reads a byte
     at a time). Memory: one block plus the longest line; long lines are joined once."""
     pieces: list[bytes] = []
@@ -106,15 +171,6 @@ def _lines(stream, size: int = 1 << 16):
     tail = b"".join(pieces)
     if tail:
         yield tail
-
-
-def _flush(job: BatchJob, pending):
-    if not pending:
-        return
-    with gc_paused():
-        results = job.results([(ident, item) for _, ident, item in pending])
-    for (line_no, _, _), result in zip(pending, results, strict=True):
-        yield _line({"line": line_no, **result})
 
 
 def _line(obj) -> bytes:
