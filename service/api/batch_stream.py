@@ -11,13 +11,20 @@ disk), the longest line, and at most :data:`STREAM_CHUNK` pending lines. A line 
 JSON becomes an error line at once when no series waits before it (else with its chunk);
 every non-blank line counts against ``CURVEWISE_MAX_SERIES``, so a stream of garbage is cut
 at the limit like any other.
+
+The answer always ends with the summary line. The compute deadline is checked between lines
+and between chunks (never inside a compiled call); when it passes, or anything fails, the
+stream ends with an error line for the first line not answered (503 ``timeout``, or 500)
+and the summary, whose ``truncated_at_line`` says where to resume.
 """
 
 from __future__ import annotations
 
+import logging
 from collections.abc import Iterator
 
 import orjson
+from flask import request
 from flask_smorest import abort
 from marshmallow import ValidationError
 
@@ -25,10 +32,13 @@ from schemas.batch import OptionsLineSchema
 from service.api.batch_job import BatchJob, gc_paused
 from service.api.body import spool_body
 from service.api.parsing import BOM
-from service.http.errors import ServiceLimitError, flatten_errors, problem_body
+from service.core.interrupt import checkpoint
+from service.http.errors import ServiceLimitError, flatten_errors, problem_body, timeout_message
 from service.http.jsonio import dumps_bytes
+from service.runtime.guard import ComputeTimeout, DeadlinePassed, deadline_of
 
 STREAM_CHUNK = 2048  # lines fitted and answered together while streaming (bounds memory)
+log = logging.getLogger("curvewise.errors")
 
 
 def stream(request, settings) -> Iterator[bytes]:
@@ -70,14 +80,23 @@ def _options(lines, settings) -> tuple[BatchJob, tuple[int, bytes] | None]:
 
 
 def _answer(body, state: _Stream, first, lines) -> Iterator[bytes]:
+    deadline = deadline_of(request.environ)
+    if deadline is not None:
+        deadline.checked_by_caller()  # checkpoints between lines and chunks stop this stream
     with body:
-        if first is not None:
-            yield from state.take(*first)
-        for line_no, raw in lines:
-            if state.done:
-                break
-            yield from state.take(line_no, raw)
-        yield from state.finish()
+        try:
+            if first is not None:
+                yield from state.take(*first)
+            for line_no, raw in lines:
+                if state.done:
+                    break
+                yield from state.take(line_no, raw)
+            yield from state.finish()
+        except (Exception, DeadlinePassed) as exc:  # never GeneratorExit: the client left
+            if deadline is not None:
+                deadline.stand_down()
+            yield from state.cut(exc, timed_out=isinstance(exc, ComputeTimeout) or (
+                deadline is not None and deadline.expired))
 
 
 class _Stream:
@@ -90,9 +109,13 @@ class _Stream:
         self.lines = self.points = 0
         self.done = False
         self.truncated_at: int | None = None
+        self.current = 0  # the line being read
+        self.fitting: list = []  # the chunk being fitted (not answered yet)
 
     def take(self, line_no: int, raw: bytes) -> Iterator[bytes]:
         """Answer lines due after reading one more non-blank line."""
+        self.current = line_no
+        checkpoint()
         self.lines += 1
         try:
             obj = orjson.loads(raw)
@@ -133,12 +156,31 @@ class _Stream:
             f"lines or {self.settings.max_total_points} points; line {line_no} and the rest "
             "were not read. Send them in another request.", code="batch_too_large")})
 
+    def cut(self, error: BaseException, *, timed_out: bool) -> Iterator[bytes]:
+        """End the answer early: an error line for the first line not answered, then the
+        summary with ``truncated_at_line`` (that line and the rest were not answered)."""
+        waiting = self.fitting or self.pending
+        line_no = waiting[0][0] if waiting else self.current
+        if timed_out:
+            message = timeout_message(self.settings.request_timeout)
+            problem = problem_body(503, None, message, errors={"_body": [message]},
+                                   code="timeout")
+        else:
+            log.error("NDJSON batch stopped at line %s", line_no, exc_info=error)
+            problem = problem_body(500, None, "An unexpected error occurred; this is a bug. "
+                                   f"Line {line_no} and the rest were not answered.",
+                                   code="internal_error")
+        yield _line({"line": line_no, "status": "error", "error": problem})
+        yield _line({"summary": {**self.job.counts, "truncated_at_line": line_no}})
+
     def _flush(self) -> Iterator[bytes]:
         pending, self.pending, self.series_pending = self.pending, [], 0
         if not pending:
             return
+        self.fitting = pending
         with gc_paused():
             results = self.job.results([(ident, item) for _, ident, item in pending])
+        self.fitting = []
         for (line_no, _, _), result in zip(pending, results, strict=True):
             yield _line({"line": line_no, **result})
 
