@@ -25,11 +25,12 @@ TOO_LARGE_INTEGER = (f"Too large: whole numbers must lie within -{MAX_JSON_INTEG
                      f"{MAX_JSON_INTEGER} (2^53 - 1). Send a smaller number.")
 
 
+REQUIRED_MESSAGE = "Missing required field. Add it; see /docs for its meaning."
+NULL_MESSAGE = "May not be null. Send a value, or leave the field out for its default."
+
+
 def _messages(**extra: str) -> dict:
-    base = {
-        "required": "Missing required field. Add it; see /docs for its meaning.",
-        "null": "May not be null. Send a value, or leave the field out for its default.",
-    }
+    base = {"required": REQUIRED_MESSAGE, "null": NULL_MESSAGE}
     base.update(extra)
     return base
 

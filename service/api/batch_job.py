@@ -16,7 +16,7 @@ from marshmallow import ValidationError
 from schemas.batch import load_series, summary_rows, valid_id
 from service.core.batch.driver import fit_batch, fit_many
 from service.core.polynomial.design import term_names
-from service.core.spec import FitOptions
+from service.core.spec import HARD_MAX_DEGREE, FitOptions
 from service.http.errors import ServiceLimitError, fit_error_body, flatten_errors, problem_body
 from service.http.limits import check_degree, check_grid
 from service.http.reporting import fit_response
@@ -44,7 +44,8 @@ class BatchJob:
             level=envelope["level"], missing=envelope["missing"],
             grid=grid_spec(grid) if grid is not None else None,
             include=frozenset(include) | ({"grid"} if grid is not None else set()),
-            max_grid_points=settings.max_grid_points)
+            max_grid_points=settings.max_grid_points,
+            max_degree=min(settings.max_degree, HARD_MAX_DEGREE))
         self.counts = {"ok": 0, "error": 0, "flagged": 0}
 
     def results(self, items):

@@ -111,6 +111,9 @@ class FitOptions:
         sigma is estimated from the residuals. ``"known_sd"``: weights are
         ``1/SD²`` of a known measurement error; sigma is not rescaled and a
         chi-square goodness-of-fit test is reported.
+    max_degree : int
+        Highest polynomial degree the caller allows (a server's configured limit; at most
+        :data:`HARD_MAX_DEGREE`): degrees above it are refused, and messages name it.
     """
 
     level: float = 0.95
@@ -119,3 +122,4 @@ class FitOptions:
     include: frozenset[str] = frozenset(SECTIONS)
     max_grid_points: int = 100_000
     weighting: str = "relative"
+    max_degree: int = HARD_MAX_DEGREE
