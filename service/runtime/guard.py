@@ -65,6 +65,7 @@ from service.http.jsonio import dumps_bytes
 REPEAT_SECONDS = 1.0
 RETRY_SECONDS = 0.01  # the timer fired inside compiled machinery: try again this soon
 ENVIRON_KEY = DEADLINE_KEY
+PRODUCED_KEY = "curvewise.answer_produced"  # a non-streamed answer: nothing left to compute
 _COMPILED_PACKAGES = ("numba", "llvmlite")
 
 
@@ -189,7 +190,9 @@ class DeadlineMiddleware:
             _retire_if(fired and retire)
             raise
         body = _GuardedBody(result, previous, lambda: _retire_if(fired and retire))
-        if fired:  # the answer is the 503 already: nothing left to interrupt
+        if fired or environ.get(PRODUCED_KEY):
+            # the answer is the 503 already, or wholly produced: only the server's writes are
+            # left, and an interruption there would cut a finished answer short
             body.disarm()
         return body
 
@@ -272,6 +275,12 @@ def install(app: Flask) -> None:
     settings = app.config["CURVEWISE"]
     app.wsgi_app = DeadlineMiddleware(app.wsgi_app, float(settings.request_timeout))
     limit = int(settings.max_body_bytes)
+
+    @app.after_request
+    def _mark_produced(response):
+        if not response.is_streamed:
+            request.environ[PRODUCED_KEY] = True
+        return response
 
     @app.before_request
     def _body_size():

@@ -10,9 +10,11 @@ Data are invented and seeded.
 
 from __future__ import annotations
 
+import io
 import json
 import random
 import socket
+import sys
 import time
 
 import numpy as np
@@ -156,3 +158,22 @@ def test_live_stream_cut_by_the_deadline_ends_with_the_summary(slow_srv):
     lines = [json.loads(line) for line in payload.splitlines() if line]
     assert lines[-2]["error"]["code"] == "timeout"
     assert lines[-1]["summary"]["truncated_at_line"] == lines[-2]["line"]
+
+
+def test_a_finished_answer_is_never_cut_while_the_server_writes_it():
+    # the timer guards computing, not a slow reader: a produced JSON answer is written whole
+    app = create_app({"request_timeout": 0.2})
+    body = orjson.dumps({"series": SERIES[:200], "model": {"degree": 2}})
+    environ = {"REQUEST_METHOD": "POST", "PATH_INFO": "/v1/batch", "SERVER_NAME": "test",
+               "SERVER_PORT": "80", "SERVER_PROTOCOL": "HTTP/1.1", "wsgi.url_scheme": "http",
+               "wsgi.input": io.BytesIO(body), "CONTENT_LENGTH": str(len(body)),
+               "CONTENT_TYPE": "application/json", "wsgi.errors": sys.stderr}
+    status = []
+    result = app(environ, lambda s, h, *a: status.append(s))
+    try:
+        time.sleep(0.5)  # a slow reader: the limit passes before the first byte is taken
+        payload = b"".join(result)
+    finally:
+        getattr(result, "close", lambda: None)()
+    assert status[0].startswith("200")
+    assert len(orjson.loads(payload)["results"]) == 200
