@@ -30,7 +30,8 @@ SEVERITIES = ("info", "caution", "serious")
 UNKNOWN_FIELD = "Unknown field. Remove it; /docs lists the fields this object accepts."
 
 
-# marshmallow's stock messages, and ours: every message says what to do
+# marshmallow's stock messages, and ours: every message says what to do (no braces: marshmallow
+# formats them)
 _STOCK_MESSAGES = {
     "required": (fields.Field.default_error_messages["required"], REQUIRED_MESSAGE),
     "null": (fields.Field.default_error_messages["null"], NULL_MESSAGE),
@@ -39,7 +40,7 @@ _STOCK_INVALID = {
     fields.List: (fields.List.default_error_messages["invalid"],
                   "Must be a JSON array. Send a list, e.g. [1, 2, 3]."),
     fields.Dict: (fields.Mapping.default_error_messages["invalid"],
-                  "Must be a JSON object. Send {\"name\": value, ...}."),
+                  "Must be a JSON object (names to values). Send an object, not a list."),
 }
 
 

@@ -12,6 +12,7 @@
 
 from __future__ import annotations
 
+import copy
 import gzip
 import logging
 import os
@@ -93,22 +94,26 @@ def _requests(document):
     yield "/v1/predict", {"fitted_model": dict(document), "x": [2.0]}
     yield "/v1/invert", {"fitted_model": dict(document), "y": [2.0]}
     yield "/v1/batch", {"series": [dict(FIT)]}
+    yield "/v1/fit", {**FIT, "model": {"family": "expression", "expression": "a*x",
+                                       "parameters": {"a": 1.0}}}
 
 
 @settings(max_examples=60, deadline=None, database=None, derandomize=True,
           suppress_health_check=list(HealthCheck))
-@given(which=st.integers(0, 3), key_index=st.integers(0, 40),
-       edit=st.sampled_from(["drop", "null", "number", "string", "object"]),
+@given(which=st.integers(0, 4), key_index=st.integers(0, 40),
+       edit=st.sampled_from(["drop", "null", "number", "string", "object", "list"]),
        nested=st.booleans())
 def test_no_answer_carries_marshmallows_stock_texts(api, document, which, key_index, edit,
                                                      nested):
-    path, body = list(_requests(document))[which]
-    target = body["fitted_model"] if nested and "fitted_model" in body else body
+    path, body = copy.deepcopy(list(_requests(document))[which])
+    target = body["fitted_model"] if nested and "fitted_model" in body else (
+        body["model"] if nested and "model" in body else body)
     key = sorted(target)[key_index % len(target)]
     if edit == "drop":
         del target[key]
     else:
-        target[key] = {"null": None, "number": 7, "string": "x", "object": {"a": 1}}[edit]
+        target[key] = {"null": None, "number": 7, "string": "x", "object": {"a": 1},
+                       "list": [1, "a"]}[edit]
     answer = api.post(path, data=orjson.dumps(body), content_type="application/json")
     assert answer.status_code < 500, answer.data[:300]
     if answer.status_code != 200:
