@@ -9,7 +9,13 @@ from __future__ import annotations
 
 from marshmallow import RAISE, Schema, fields
 
-from schemas.fields import StrictFloat, StrictInteger, StrictString
+from schemas.fields import (
+    NULL_MESSAGE,
+    REQUIRED_MESSAGE,
+    StrictFloat,
+    StrictInteger,
+    StrictString,
+)
 
 FAMILIES = ("polynomial", "expression", "logistic4", "logistic5", "exponential",
             "michaelis_menten", "gompertz", "logistic_growth", "power", "gaussian_peak",
@@ -26,8 +32,24 @@ SEVERITIES = ("info", "caution", "serious")
 UNKNOWN_FIELD = "Unknown field. Remove it; /docs lists the fields this object accepts."
 
 
+# marshmallow's stock messages, and ours: every message says what to do (no braces: marshmallow
+# formats them)
+_STOCK_MESSAGES = {
+    "required": (fields.Field.default_error_messages["required"], REQUIRED_MESSAGE),
+    "null": (fields.Field.default_error_messages["null"], NULL_MESSAGE),
+}
+_STOCK_INVALID = {
+    fields.List: (fields.List.default_error_messages["invalid"],
+                  "Must be a JSON array. Send a list, e.g. [1, 2, 3]."),
+    fields.Dict: (fields.Mapping.default_error_messages["invalid"],
+                  "Must be a JSON object (names to values). Send an object, not a list."),
+}
+
+
 class StrictSchema(Schema):
-    """Base for request objects: unknown fields are an error naming the field."""
+    """Base for request objects: unknown fields are an error naming the field, and no field
+    answers with marshmallow's stock text (a missing nested document or list says what to
+    do, like every other field)."""
 
     class Meta:
         unknown = RAISE
@@ -36,6 +58,15 @@ class StrictSchema(Schema):
         "unknown": UNKNOWN_FIELD,
         "type": "Must be a JSON object.",
     }
+
+    def on_bind_field(self, field_name: str, field_obj: fields.Field) -> None:
+        messages = field_obj.error_messages
+        for key, (stock, ours) in _STOCK_MESSAGES.items():
+            if messages.get(key) == stock:
+                messages[key] = ours
+        for kind, (stock, ours) in _STOCK_INVALID.items():
+            if isinstance(field_obj, kind) and messages.get("invalid") == stock:
+                messages["invalid"] = ours
 
 
 def number(description: str, **kwargs) -> StrictFloat:

@@ -18,13 +18,19 @@ import numpy as np
 from marshmallow import ValidationError, fields, validate
 
 _NUMBER_TYPES = (float, int)
+# Whole numbers beyond 2^53 - 1 are not exchanged exactly by every JSON implementation
+# (RFC 8259 section 6, I-JSON RFC 7493); no count or option of this service needs more.
+MAX_JSON_INTEGER = 2**53 - 1
+TOO_LARGE_INTEGER = (f"Too large: whole numbers must lie within -{MAX_JSON_INTEGER} .. "
+                     f"{MAX_JSON_INTEGER} (2^53 - 1). Send a smaller number.")
+
+
+REQUIRED_MESSAGE = "Missing required field. Add it; see /docs for its meaning."
+NULL_MESSAGE = "May not be null. Send a value, or leave the field out for its default."
 
 
 def _messages(**extra: str) -> dict:
-    base = {
-        "required": "Missing required field. Add it; see /docs for its meaning.",
-        "null": "May not be null. Send a value, or leave the field out for its default.",
-    }
+    base = {"required": REQUIRED_MESSAGE, "null": NULL_MESSAGE}
     base.update(extra)
     return base
 
@@ -55,18 +61,18 @@ class StrictInteger(fields.Integer):
     def __init__(self, **kwargs):
         kwargs.setdefault("error_messages", _messages(
             invalid="Not an integer. Send a whole JSON number such as 3.",
+            too_large=TOO_LARGE_INTEGER,
         ))
         kwargs.setdefault("strict", True)
         super().__init__(**kwargs)
 
     def _validated(self, value):
-        if isinstance(value, bool):
+        if isinstance(value, bool) or not isinstance(value, _NUMBER_TYPES) or (
+                isinstance(value, float) and not (math.isfinite(value) and value.is_integer())):
             raise self.make_error("invalid")
-        if isinstance(value, float) and value.is_integer() and abs(value) < 2**53:
-            return int(value)
-        if not isinstance(value, int):
-            raise self.make_error("invalid")
-        return value
+        if abs(value) > MAX_JSON_INTEGER:
+            raise self.make_error("too_large")
+        return int(value)
 
 
 class StrictBoolean(fields.Boolean):

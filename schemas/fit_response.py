@@ -186,6 +186,11 @@ class GridValuesSchema(Schema):
     band_upper = _array("Upper simultaneous band for the whole curve.")
     extrapolated = fields.List(fields.Boolean(), metadata={
         "description": "True where the grid point lies outside the fitted x range."})
+    unbounded = fields.List(fields.Boolean(), metadata={
+        "description": "True where a limit has no finite value on the original y scale and "
+                       "is null: the band reaches the pole of the reciprocal transform (the "
+                       "interval holding the fit is open on that side), or leaves the double "
+                       "range."})
     level = number("Confidence level of the limits.")
 
 

@@ -13,6 +13,8 @@ from marshmallow import Schema, ValidationError, fields, validate
 
 from schemas.common import TRANSFORMS, StrictSchema, integer, number, text
 from schemas.fields import (
+    MAX_JSON_INTEGER,
+    TOO_LARGE_INTEGER,
     NumberArray,
     StrictBoolean,
     StrictFloat,
@@ -98,7 +100,7 @@ class PredictRequestSchema(StrictSchema):
     level = StrictFloat(load_default=None, allow_none=True, validate=_LEVEL, metadata={
         "description": "Confidence level of the bands; default: the document's level."})
     replicates = StrictInteger(load_default=1, validate=validate.Range(
-        min=1, error="Must be 1 or more."), metadata={
+        min=1, error="Must be 1 or more."), metadata={"maximum": MAX_JSON_INTEGER,
         "description": "m: the observation band covers the mean of m future readings."})
 
 
@@ -116,6 +118,10 @@ class PredictionRowSchema(Schema):
     band_upper = number("Upper limit of the simultaneous (Working-Hotelling) band.")
     extrapolated = fields.Boolean(metadata={
         "description": "x lies outside the fitted data range [x_min, x_max]."})
+    unbounded = fields.Boolean(metadata={
+        "description": "A limit has no finite value on the original y scale and is null: the "
+                       "band reaches the pole of the reciprocal transform (the interval "
+                       "holding the fit is open on that side), or leaves the double range."})
 
 
 class Rows(fields.List):
@@ -157,8 +163,9 @@ class ReplicatesField(fields.Field):
         super().__init__(metadata={
             "description": "How many readings were averaged into each y (m): one integer for "
                            "all, or a list with one per y.",
-            "oneOf": [{"type": "integer", "minimum": 1},
-                      {"type": "array", "items": {"type": "integer", "minimum": 1}}]},
+            "oneOf": [{"type": "integer", "minimum": 1, "maximum": MAX_JSON_INTEGER},
+                      {"type": "array", "items": {"type": "integer", "minimum": 1,
+                                                  "maximum": MAX_JSON_INTEGER}}]},
             **kwargs)
 
     def _deserialize(self, value, attr, data, **kwargs):
@@ -172,6 +179,9 @@ class ReplicatesField(fields.Field):
                 isinstance(value, float) and not value.is_integer()) or value < 1:
             message = "Must be a whole number >= 1 (readings averaged into this y)."
             raise ValidationError({index: [message]} if index is not None else message)
+        if value > MAX_JSON_INTEGER:
+            raise ValidationError({index: [TOO_LARGE_INTEGER]} if index is not None
+                                  else TOO_LARGE_INTEGER)
         return int(value)
 
 

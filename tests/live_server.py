@@ -40,18 +40,19 @@ def _ready(url: str) -> bool:
 
 @contextmanager
 def live_server(*, workers: int = 2, env: dict | None = None, startup_timeout: float = 30.0,
-                extra_args: tuple[str, ...] = ()):
+                extra_args: tuple[str, ...] = (), log_path: Path | None = None):
     """Run gunicorn on 127.0.0.1:<free port>; yield ``"http://127.0.0.1:<port>"``.
 
     ``env`` adds/overrides environment variables (e.g. ``{"CURVEWISE_MAX_POINTS": "100"}``).
-    The server's combined output is kept in a temporary file and shown if startup fails.
+    The server's combined output is kept in a temporary file (``log_path``, when given, for
+    the test to read) and shown if startup fails.
     """
     port = free_port()
     base_url = f"http://127.0.0.1:{port}"
     command = [sys.executable, "-m", "service.runtime.cli", "serve", "--host", "127.0.0.1",
                "--port", str(port), "--workers", str(workers), *extra_args]
     child_env = {**os.environ, "PYTHONUNBUFFERED": "1", **(env or {})}
-    log = tempfile.TemporaryFile(mode="w+b")
+    log = tempfile.TemporaryFile(mode="w+b") if log_path is None else open(log_path, "w+b")
     process = subprocess.Popen(command, cwd=ROOT, env=child_env, stdout=log,
                                stderr=subprocess.STDOUT, stdin=subprocess.DEVNULL,
                                start_new_session=True)

@@ -225,8 +225,8 @@ class WSGITransport:
              timeout: float | None) -> Response:
         parts = urlsplit(url)
         streamed = body is not None and not isinstance(body, (bytes, bytearray))
-        stream = (io.BufferedReader(_IterReader(iter(body))) if streamed
-                  else io.BytesIO(body or b""))
+        source = _IterReader(iter(body)) if streamed else None
+        stream = io.BufferedReader(source) if source is not None else io.BytesIO(body or b"")
         environ = {
             "REQUEST_METHOD": method,
             "SCRIPT_NAME": self.script_name,
@@ -263,6 +263,11 @@ class WSGITransport:
         app_iter = self.app(environ, start_response)
         iterator = iter(app_iter)
         first = next(iterator, None)  # WSGI apps may call start_response lazily
+        if source is not None and source.error is not None:
+            # the caller's own iterator failed while the app read it: that error, not the
+            # app's answer to a broken body (as over HTTP)
+            getattr(app_iter, "close", lambda: None)()
+            raise source.error
         if "status" not in captured:
             raise ProtocolError(f"{method} {url}: the app never called start_response")
         chunks = _prepend(captured.get("written", []), first, iterator)
@@ -282,13 +287,18 @@ class _IterReader(io.RawIOBase):
 
     def __init__(self, chunks: Iterator[bytes]) -> None:
         self._chunks, self._pending = chunks, b""
+        self.error: BaseException | None = None  # what the caller's iterator raised
 
     def readable(self) -> bool:
         return True
 
     def readinto(self, buffer) -> int:
         while not self._pending:
-            chunk = next(self._chunks, None)
+            try:
+                chunk = next(self._chunks, None)
+            except Exception as exc:
+                self.error = exc
+                raise
             if chunk is None:
                 return 0
             self._pending = bytes(chunk)

@@ -40,7 +40,8 @@ def _too_large(message: str) -> ServiceLimitError:
 ERRORS = {400: "Unparsable JSON body.",
           413: "Body, number of series or total points over the limit (batch_too_large).",
           415: "Body sent neither as application/json nor as application/x-ndjson.",
-          422: "Invalid shared options (a bad series only gets an error result)."}
+          422: "Invalid shared options, also on the NDJSON options line (a bad series only "
+               "gets an error result)."}
 
 
 _document_errors = error_responses(blp, ERRORS)
@@ -53,8 +54,9 @@ def batch():
     """Fit many independent series; a bad series gets an error result, the rest are fitted."""
     settings = current_app.config["CURVEWISE"]
     if request.mimetype == NDJSON:
+        lines = stream(request, settings)  # body and options line checked: problems come here
         # X-Accel-Buffering: a buffering proxy (nginx) passes the lines on as they come
-        return Response(stream_with_context(stream(settings)), mimetype=NDJSON,
+        return Response(stream_with_context(lines), mimetype=NDJSON,
                         headers={"X-Accel-Buffering": "no"})
     with gc_paused():
         return _json_batch(settings)

@@ -16,9 +16,9 @@ from marshmallow import ValidationError
 from schemas.batch import load_series, summary_rows, valid_id
 from service.core.batch.driver import fit_batch, fit_many
 from service.core.polynomial.design import term_names
-from service.core.spec import FitOptions
+from service.core.spec import HARD_MAX_DEGREE, FitOptions
 from service.http.errors import ServiceLimitError, fit_error_body, flatten_errors, problem_body
-from service.http.limits import check_degree
+from service.http.limits import check_degree, check_grid
 from service.http.reporting import fit_response
 from service.http.requests import grid_spec, model_spec
 from service.runtime.observability import record_fit_failure
@@ -39,11 +39,14 @@ class BatchJob:
         include = envelope.get("include") or FULL_INCLUDE
         self.include = tuple(include)
         grid = envelope.get("grid")
+        if grid is not None:  # shared by every series: over the limit is the request's fault
+            check_grid(grid, settings)
         self.options = FitOptions(
             level=envelope["level"], missing=envelope["missing"],
             grid=grid_spec(grid) if grid is not None else None,
             include=frozenset(include) | ({"grid"} if grid is not None else set()),
-            max_grid_points=settings.max_grid_points)
+            max_grid_points=settings.max_grid_points,
+            max_degree=min(settings.max_degree, HARD_MAX_DEGREE))
         # flat (the metrics reader takes the summary as one flat object): the series by
         # their most severe flag; flagged = serious + caution
         self.counts = {"ok": 0, "error": 0, "flagged": 0, "serious": 0, "caution": 0, "info": 0}
@@ -55,6 +58,14 @@ class BatchJob:
                           models=[items[i][1][3] for i in fit_idx], options=self.options,
                           detail=self.detail)
         return self._assemble(items, fit_idx, batch)
+
+    def error_results(self, items):
+        """Result dicts for ``(id, problem body)`` items, counted like fitted ones."""
+        out = [{"id": ident, "status": "error", "error": body} for ident, body in items]
+        self.counts["error"] += len(out)
+        for code, count in Counter(body.get("code") for _, body in items).items():
+            record_fit_failure(code, count)
+        return out
 
     def plain_results(self, ids, x, y, lengths):
         """Results for series already in flat arrays (:func:`schemas.batch.load_plain_series`)."""

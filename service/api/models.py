@@ -30,7 +30,7 @@ document_errors = error_responses(blp, ERRORS)
 
 
 _PREDICT_COLUMNS = ("x", "fit", "se_mean", "mean_lower", "mean_upper", "obs_lower", "obs_upper",
-                    "band_lower", "band_upper", "extrapolated")
+                    "band_lower", "band_upper", "extrapolated", "unbounded")
 
 
 @blp.route("/v1/predict", methods=["POST"])
@@ -43,6 +43,8 @@ def predict_view(body):
     _check_count("x", len(body["x"]))
     result = predict(fitted, body["x"], level=body["level"], m=body["replicates"])
     columns = {name: getattr(result, name) for name in _PREDICT_COLUMNS}
+    if columns["unbounded"] is None:  # a family that does not mark unbounded limits
+        columns["unbounded"] = [False] * len(result.x)
     return {"predictions": columns, "level": result.level, "replicates": body["replicates"],
             "extrapolated_count": int(result.extrapolated.sum())}
 

@@ -3,7 +3,9 @@
 ``create_app`` installs :data:`PARSER` on every blueprint, so every
 ``@blp.arguments(Schema)`` body is decoded here. orjson accepts only strict
 JSON (RFC 8259): the tokens ``NaN``/``Infinity``, trailing commas, comments
-and invalid UTF-8 are refused with the position of the problem.
+and invalid UTF-8 are refused with the position of the problem. A leading UTF-8
+byte order mark is skipped (RFC 8259 allows a parser to ignore it). The body
+itself is read by :mod:`service.api.body` (limits, framing, Content-Encoding).
 """
 
 from __future__ import annotations
@@ -13,7 +15,16 @@ from flask_smorest import abort
 from webargs import core
 from webargs.flaskparser import FlaskParser
 
+from service.api.body import read_body
+
 _NON_JSON_TOKENS = (b"NaN", b"Infinity", b"-Infinity", b"nan", b"inf")
+BOM = b"\xef\xbb\xbf"  # a UTF-8 byte order mark: allowed before JSON text (RFC 8259 8.1)
+
+
+def json_text(req) -> bytes:
+    """The body without a leading UTF-8 byte order mark."""
+    data = read_body(req)
+    return data[len(BOM):] if data.startswith(BOM) else data
 
 
 class OrjsonParser(FlaskParser):
@@ -26,7 +37,7 @@ class OrjsonParser(FlaskParser):
                                "Send the header Content-Type: application/json.",
                   errors={"_body": ["Send Content-Type: application/json."]},
                   code="unsupported_media_type")
-        data = read_body(req)
+        data = json_text(req)
         if not data.strip():
             abort(400, message="The body is empty. Send a JSON object.",
                   errors={"_body": ["Send a JSON object."]}, code="invalid_json")
@@ -37,7 +48,7 @@ class OrjsonParser(FlaskParser):
 
     def _handle_invalid_json_error(self, error, req, *args, **kwargs):
         message = f"The body is not valid JSON: {error}."
-        data = read_body(req)
+        data = json_text(req)
         position = getattr(error, "pos", None)
         near = data[position:position + 9] if isinstance(position, int) else b""
         if near.startswith(_NON_JSON_TOKENS) or near.lstrip(b"-").startswith(_NON_JSON_TOKENS):
@@ -46,32 +57,6 @@ class OrjsonParser(FlaskParser):
         elif isinstance(error, UnicodeDecodeError) or "UTF-8" in str(error):
             message = "The body is not valid UTF-8 text. Encode the JSON as UTF-8."
         abort(400, message=message, errors={"_body": [message]}, code="invalid_json")
-
-
-def read_body(req) -> bytes:
-    """The request body, read once and cached on the request.
-
-    With a declared Content-Length (already checked against the limit before the view
-    ran) the body is read from the WSGI input in one call: werkzeug's generic reader
-    copies it in 64 KiB pieces, which costs ~3x more on multi-megabyte bodies. Chunked
-    bodies go through werkzeug, which enforces MAX_CONTENT_LENGTH while reading.
-    """
-    cached = req.environ.get("curvewise.body")
-    if cached is not None:
-        return cached
-    length = req.content_length
-    limit = req.max_content_length
-    already_read = "_cached_data" in vars(req)  # someone called get_data() before us
-    if length is None or already_read or (limit is not None and length > limit):
-        data = req.get_data(cache=True)  # werkzeug: chunked bodies and the 413 path
-    else:
-        data = req.environ["wsgi.input"].read(length)
-        if len(data) != length:
-            abort(400, message=f"The body ended after {len(data)} of the {length} declared "
-                               "bytes. Send the whole body.",
-                  errors={"_body": ["Incomplete body."]}, code="invalid_json")
-    req.environ["curvewise.body"] = data
-    return data
 
 
 PARSER = OrjsonParser()

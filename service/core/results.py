@@ -137,7 +137,10 @@ class Prediction:
     (Working-Hotelling) band for the whole curve. ``extrapolated`` marks x
     outside the fitted data range. With a transformed y, ``fit`` and the
     limits are back-transformed to the original y scale while ``se_mean``
-    stays on the fitting (transformed) scale.
+    stays on the fitting (transformed) scale. ``unbounded`` marks x where a
+    limit has no finite value on the original scale (the band reaches the pole
+    of the ``reciprocal`` transform, or leaves the double range); that limit
+    is NaN. None from families without it (read as all False).
     """
 
     x: FloatArray
@@ -151,6 +154,7 @@ class Prediction:
     band_upper: FloatArray
     extrapolated: np.ndarray  # bool
     level: float
+    unbounded: np.ndarray | None = None  # bool
 
 
 class TestResult(NamedTuple):

@@ -16,6 +16,9 @@ WEIGHTINGS = ("relative", "known_sd")
 SECTIONS = ("coefficients", "anova", "statistics", "selection", "diagnostics", "grid",
             "fitted_model")
 HARD_MAX_DEGREE = 12  # absolute ceiling of the core; the service limit may be lower
+# Largest count of replicate readings (m): the largest whole number a double holds exactly;
+# beyond it sigma²/m is below rounding of any band anyway.
+MAX_REPLICATES = 2**53 - 1
 
 
 @dataclass(frozen=True, slots=True)
@@ -117,6 +120,9 @@ class FitOptions:
         sigma is estimated from the residuals. ``"known_sd"``: weights are
         ``1/SD²`` of a known measurement error; sigma is not rescaled and a
         chi-square goodness-of-fit test is reported.
+    max_degree : int
+        Highest polynomial degree the caller allows (a server's configured limit; at most
+        :data:`HARD_MAX_DEGREE`): degrees above it are refused, and messages name it.
     """
 
     level: float = 0.95
@@ -125,3 +131,4 @@ class FitOptions:
     include: frozenset[str] = frozenset(SECTIONS)
     max_grid_points: int = 100_000
     weighting: str = "relative"
+    max_degree: int = HARD_MAX_DEGREE

@@ -25,6 +25,16 @@ VALIDATION_DETAIL = "The request body is not valid; see errors for each field an
 log = logging.getLogger("curvewise.errors")
 
 
+DEADLINE_KEY = "curvewise.deadline"  # where service.runtime.guard keeps the request's deadline
+
+
+def timeout_message(limit: float) -> str:
+    """What a request stopped at the compute deadline is told."""
+    return (f"The request needed more than the {limit:g} s compute limit and was stopped. "
+            "Fix: send fewer series or points per request, a lower max_degree or a smaller "
+            "grid, or ask the operator to raise CURVEWISE_REQUEST_TIMEOUT.")
+
+
 class ServiceLimitError(Exception):
     """A request over one of the service's limits, or over its time budget."""
 
@@ -109,6 +119,13 @@ class CurvewiseApi(Api):
                                 "paths."]}
         if isinstance(error, InternalServerError):
             original = getattr(error, "original_exception", None)
+            deadline = request.environ.get(DEADLINE_KEY)
+            if deadline is not None and deadline.expired:  # an interruption in disguise
+                log.warning("%s on %s %s after the compute deadline; answered as a timeout",
+                            type(original).__name__, request.method, request.path)
+                message = timeout_message(deadline.limit)
+                return problem(503, None, message, errors={"_body": [message]},
+                               code="timeout")
             if original is not None:
                 log.error("unhandled error on %s %s", request.method, request.path,
                           exc_info=original)

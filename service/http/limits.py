@@ -27,12 +27,17 @@ def check_series(body: dict, settings: Settings, prefix: str = "") -> None:
     check_degree(model, settings, prefix + "model.")
     grid = body.get("grid")
     if grid is not None:
-        points = grid_points(grid)
-        if points is not None and points > settings.max_grid_points:
-            raise ServiceLimitError(422, "limit_exceeded",
-                                    f"The grid would have {points} points; the limit is "
-                                    f"{settings.max_grid_points}. Use a larger step or fewer "
-                                    "points.", field=prefix + "grid")
+        check_grid(grid, settings, prefix)
+
+
+def check_grid(grid: dict, settings: Settings, prefix: str = "") -> None:
+    """Refuse a loaded grid with more points than the limit (422, field prefix + ``grid``)."""
+    points = grid_points(grid)
+    if points is not None and points > settings.max_grid_points:
+        raise ServiceLimitError(422, "limit_exceeded",
+                                f"The grid would have {points} points; the limit is "
+                                f"{settings.max_grid_points}. Use a larger step or fewer "
+                                "points.", field=prefix + "grid")
 
 
 def check_degree(model: dict, settings: Settings, prefix: str = "") -> None:

@@ -31,6 +31,21 @@ CATALOGUE: dict[str, ProblemKind] = {kind.code: kind for kind in (
                 "The body is not strict JSON (including the non-JSON tokens NaN and Infinity) "
                 "or is not UTF-8.",
                 "Send valid JSON. Write a missing value as null (with \"missing\": \"drop\")."),
+    # answered by the proxy in front (the nginx configuration of docs/operations.md) for
+    # requests it refuses before any worker sees them; the service serves their pages
+    ProblemKind("malformed_request", 400, "Malformed request",
+                "The request line or headers are not valid HTTP/1.1 (a bad or doubled "
+                "Content-Length, Transfer-Encoding with Content-Length); refused by the proxy.",
+                "Send a well-formed HTTP/1.1 request (let your HTTP library frame it)."),
+    ProblemKind("uri_too_long", 414, "URI too long",
+                "The request line is longer than the proxy accepts; refused by the proxy.",
+                "Send a shorter URL: data go in the body."),
+    ProblemKind("headers_too_large", 431, "Headers too large",
+                "A header line is longer than the proxy accepts; refused by the proxy.",
+                "Send shorter headers."),
+    ProblemKind("unsupported_transfer_coding", 501, "Transfer coding not supported",
+                "The body uses a transfer coding other than chunked; refused by the proxy.",
+                "Send the body with a Content-Length, or chunked."),
     ProblemKind("not_found", 404, "Not found", "No resource at this path.",
                 "See GET /openapi.json or /docs for the paths."),
     ProblemKind("method_not_allowed", 405, "Method not allowed",
@@ -52,7 +67,8 @@ CATALOGUE: dict[str, ProblemKind] = {kind.code: kind for kind in (
                 "The degree is over CURVEWISE_MAX_DEGREE or the grid has more points than "
                 "CURVEWISE_MAX_GRID_POINTS.", "Ask for less, or raise the limit."),
     ProblemKind("invalid_data", 422, "Unusable data",
-                "Arrays of different lengths, empty arrays, non-finite values or weights <= 0.",
+                "Arrays of different lengths, empty arrays, non-finite values, weights <= 0, "
+                "or weights whose largest / smallest ratio is over 1e16.",
                 "Fix the array named in errors."),
     ProblemKind("transform_domain", 422, "Value outside the transform's domain",
                 "A value is outside the domain of the requested transform (e.g. log of x <= 0).",

@@ -77,8 +77,12 @@ def _anova_row(row) -> dict:
 
 
 def prediction_section(prediction: Prediction) -> dict:
-    """Grid/prediction arrays under their contract names."""
-    return plain(prediction)
+    """Grid/prediction arrays under their contract names (``unbounded`` all false when a
+    family does not mark it)."""
+    out = plain(prediction)
+    if out["unbounded"] is None:
+        out["unbounded"] = [False] * len(prediction.x)
+    return out
 
 
 def diagnostics_section(diagnostics) -> dict:

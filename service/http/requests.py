@@ -2,7 +2,7 @@
 
 from __future__ import annotations
 
-from service.core.spec import FitOptions, GridSpec, ModelSpec
+from service.core.spec import HARD_MAX_DEGREE, FitOptions, GridSpec, ModelSpec
 from service.runtime.config import Settings
 
 
@@ -42,4 +42,5 @@ def fit_options(body: dict, settings: Settings) -> FitOptions:
     return FitOptions(level=body["level"], missing=body["missing"], grid=grid_spec(body["grid"]),
                       include=frozenset(body["include"]),
                       max_grid_points=settings.max_grid_points,
-                      weighting=body.get("weighting", "relative"))
+                      weighting=body.get("weighting", "relative"),
+                      max_degree=min(settings.max_degree, HARD_MAX_DEGREE))

@@ -56,8 +56,10 @@ loglevel = os.environ.get("CURVEWISE_LOG_LEVEL", "info").lower()
 logconfig_dict = {  # gunicorn's own messages as JSON lines too (same shape as the app's)
     "version": 1, "disable_existing_loggers": False,
     "formatters": {"json": {"()": "service.runtime.logs.JsonFormatter"}},
+    # gunicorn guesses "Perhaps out of memory?" for any SIGKILL; the filter says what is known
+    "filters": {"worker_signals": {"()": "service.runtime.logs.WorkerSignalFilter"}},
     "handlers": {"stderr": {"class": "logging.StreamHandler", "formatter": "json",
-                            "stream": "ext://sys.stderr"}},
+                            "stream": "ext://sys.stderr", "filters": ["worker_signals"]}},
     "root": {"level": loglevel.upper(), "handlers": ["stderr"]},
     "loggers": {"gunicorn.error": {"level": loglevel.upper(), "handlers": ["stderr"],
                                    "propagate": False, "qualname": "gunicorn.error"},

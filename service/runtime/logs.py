@@ -13,6 +13,7 @@ import re
 import sys
 import time
 import uuid
+from pathlib import Path
 
 import orjson
 from flask import g, has_request_context, request
@@ -40,6 +41,53 @@ class JsonFormatter(logging.Formatter):
         if record.exc_info:
             entry["exception"] = self.formatException(record.exc_info)
         return orjson.dumps(entry, default=str).decode()
+
+
+class WorkerSignalFilter(logging.Filter):
+    """Reword gunicorn's guess about a worker killed by SIGKILL ("Perhaps out of memory?").
+
+    gunicorn cannot know who sent the signal: an operator's or an orchestrator's ``kill -9``
+    is as likely as the kernel's out-of-memory killer. Where the cgroup (v2) counts
+    out-of-memory kills, the count tells which; elsewhere the message names both and where
+    to look. The record also gets ``fields`` ``event`` and ``signal`` for log queries.
+    """
+
+    GUESS = " Perhaps out of memory?"
+    EVENTS = Path("/sys/fs/cgroup/memory.events")
+
+    def __init__(self, name: str = "") -> None:
+        super().__init__(name)
+        self.oom_kills = self._oom_kills()
+
+    def filter(self, record: logging.LogRecord) -> bool:
+        if not (isinstance(record.msg, str) and record.msg.endswith(self.GUESS)):
+            return True
+        count, seen = self._oom_kills(), self.oom_kills
+        self.oom_kills = count
+        if count is not None and seen is not None and count > seen:
+            why = "The kernel's out-of-memory killer stopped it (the cgroup's oom_kill count rose)."
+        elif count is not None and seen is not None:
+            why = ("Not the out-of-memory killer (the cgroup's oom_kill count did not change): "
+                   "an operator, an orchestrator or another process sent the signal.")
+        else:
+            why = ("The signal came from outside the worker: an operator, an orchestrator, or "
+                   "the kernel's out-of-memory killer (the kernel log says which).")
+        record.msg = record.msg[:-len(self.GUESS)] + " " + why
+        signal_name = record.args[1] if isinstance(record.args, tuple) and len(
+            record.args) > 1 else None
+        record.fields = {**(getattr(record, "fields", None) or {}), "event": "worker_killed",
+                         "signal": signal_name}
+        return True
+
+    def _oom_kills(self) -> int | None:
+        try:
+            for line in self.EVENTS.read_text().splitlines():
+                key, _, value = line.partition(" ")
+                if key == "oom_kill":
+                    return int(value)
+        except (OSError, ValueError):
+            return None
+        return None
 
 
 def current_request_id() -> str | None:

@@ -71,8 +71,11 @@ def test_fit_then_predict_is_exact_across_models(api, name, model):
     rows = _post(api, "/v1/predict", {"fitted_model": fit["fitted_model"],
                                       "x": grid["x"]}).get_json()["predictions"]
     for column in ("fit", "obs_lower", "obs_upper", "mean_lower", "mean_upper"):
-        np.testing.assert_allclose([r[column] for r in rows], grid[column], rtol=1e-12, atol=0,
+        # null where a reciprocal band reaches the pole (unbounded): equal as NaN
+        np.testing.assert_allclose(np.array([r[column] for r in rows], dtype=float),
+                                   np.array(grid[column], dtype=float), rtol=1e-12, atol=0,
                                    err_msg=column)
+    assert [r["unbounded"] for r in rows] == grid["unbounded"]
 
 
 def test_document_with_null_raw_coefficients_is_accepted_over_the_wire(api):

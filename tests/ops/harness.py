@@ -81,9 +81,9 @@ class Server:
 
 
 @contextmanager
-def server(*, workers: int = 2, env: dict | None = None):
+def server(*, workers: int = 2, env: dict | None = None, log_path: Path | None = None):
     """A live gunicorn (``tests/live_server.py``) with its master pid."""
-    with live_server(workers=workers, env=env) as url:
+    with live_server(workers=workers, env=env, log_path=log_path) as url:
         srv = Server(url, _find_master(urlsplit(url).port))
         srv.wait_workers(workers)
         yield srv

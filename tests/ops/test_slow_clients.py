@@ -165,3 +165,61 @@ def test_buffering_proxy_keeps_serving_while_many_clients_trickle(srv, tmp_path,
         assert outcomes == [200] * 30, outcomes
         status, headers, _ = request(proxied, "GET", "/healthz", headers={"X-Request-ID": "r-1"})
         assert status == 200 and headers["x-request-id"] == "r-1"  # ids pass through nginx
+
+
+class HeaderTrickle:
+    """``count`` connections trickling request headers one byte every ``gap`` s until the
+    peer closes them or ``seconds`` pass; records how long each stayed open."""
+
+    def __init__(self, port: int, count: int, seconds: float, gap: float = 0.5) -> None:
+        self.port, self.count, self.seconds, self.gap = port, count, seconds, gap
+        self.open_for: list[float] = []
+        self.lock = threading.Lock()
+        self.threads = [threading.Thread(target=self._run, daemon=True) for _ in range(count)]
+
+    def _run(self) -> None:
+        head = b"POST /v1/fit HTTP/1.1\r\nHost: 127.0.0.1\r\nX-Padding: " + b"a" * 4000
+        started = time.monotonic()
+        try:
+            with socket.create_connection(("127.0.0.1", self.port), timeout=5) as sock:
+                for i in range(len(head)):
+                    if time.monotonic() - started > self.seconds:
+                        break
+                    sock.sendall(head[i:i + 1])
+                    time.sleep(self.gap)
+        except OSError:
+            pass  # the peer closed the connection: that is what is measured
+        with self.lock:
+            self.open_for.append(time.monotonic() - started)
+
+    def __enter__(self):
+        for t in self.threads:
+            t.start()
+        time.sleep(0.5)
+        return self
+
+    def __exit__(self, *exc):
+        for t in self.threads:
+            t.join(timeout=self.seconds + 10)
+
+
+def test_header_trickling_clients_are_dropped_by_the_proxy_and_never_hold_a_worker(
+        srv, tmp_path):
+    """8 clients trickle headers past nginx's client_header_timeout (10 s in the documented
+    configuration): every other request is answered meanwhile, and nginx drops each trickler
+    at its timeout. Bare, each would hold a sync worker until gunicorn's own timeout (90 s by
+    default), which is why the proxy is prescribed (test above)."""
+    config = documented_config()
+    header_timeout = float(re.search(r"client_header_timeout (\d+)s;", config).group(1))
+    with nginx_in_front(srv.port, tmp_path) as proxy_port:
+        proxied = f"http://127.0.0.1:{proxy_port}"
+        with HeaderTrickle(proxy_port, count=8, seconds=header_timeout + 5) as trickle:
+            outcomes = []
+            for _ in range(20):  # spread over the trickle: about 10 s
+                outcomes += answered_within(proxied, 1, timeout=3.0)
+                time.sleep(0.5)
+        assert outcomes == [200] * 20, outcomes
+        assert len(trickle.open_for) == 8
+        # dropped at the timeout (plus one trickle gap to notice), long before the end
+        assert all(header_timeout - 1 <= t <= header_timeout + 2.5 for t in trickle.open_for), \
+            trickle.open_for

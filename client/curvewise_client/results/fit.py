@@ -141,6 +141,7 @@ class Grid:
     band_lower: tuple[float | None, ...] = ()
     band_upper: tuple[float | None, ...] = ()
     extrapolated: tuple[bool, ...] = ()
+    unbounded: tuple[bool, ...] = ()
     level: float | None = None
 
 

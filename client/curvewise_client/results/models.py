@@ -23,6 +23,7 @@ class PredictionRow:
     se_mean: float | None = None
     band_lower: float | None = None
     band_upper: float | None = None
+    unbounded: bool | None = None
 
 
 @dataclass(frozen=True, slots=True)

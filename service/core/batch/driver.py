@@ -19,6 +19,9 @@ A series the engine should not take — missing or non-finite values, weights
 ill-conditioned design (condition number over 1e6), or ``detail="full"`` —
 goes through :func:`service.core.fit_series` itself, so it gets exactly the
 single-series answer or typed error. One bad series never fails the others.
+
+A caller's budget (:mod:`service.core.interrupt`) is checked between chunks and between
+series fitted one by one, never inside a compiled call.
 """
 
 from __future__ import annotations
@@ -40,6 +43,7 @@ from service.core.batch.results import (
 from service.core.data import transforms
 from service.core.errors import FitError
 from service.core.families import family, fit_series
+from service.core.interrupt import checkpoint
 from service.core.polynomial.spec_check import check_spec
 from service.core.spec import FitOptions, ModelSpec
 
@@ -172,6 +176,7 @@ def fit_many(x, y, lengths, weights=None, *, model: ModelSpec = _MODEL, models=N
 
     def run(job):
         chunk, _, bspec, u, z, tabs = job
+        checkpoint()  # a caller's budget is checked between chunks, never inside the kernel
         with np.errstate(all="ignore"):  # undefined values become NaN data, not warnings
             res, rejected = batch_engine.fit_chunk(u, z, w, offsets, chunk, bspec, tabs,
                                                    marks, resid)
@@ -191,6 +196,7 @@ def fit_many(x, y, lengths, weights=None, *, model: ModelSpec = _MODEL, models=N
     single = options if detail == "full" else replace(options, grid=None,
                                                       include=_SUMMARY_INCLUDE)
     for row, spec_model in sorted(fallback):
+        checkpoint()
         _fit_one(out, row, spec_model, single, x, y, w, offsets, raw)
     return BatchResult(**out)
 

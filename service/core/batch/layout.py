@@ -10,6 +10,7 @@ from __future__ import annotations
 import numpy as np
 
 from service.core.data import transforms
+from service.core.data.inputs import MAX_WEIGHT_RATIO
 
 CHUNK_POINTS = 131_072   # points per kernel call: bounds scratch memory, feeds the threads
 
@@ -20,10 +21,14 @@ def screen(x, y, w, offsets, rows, model, raw):
     Empty and malformed series go to the single-series path here. Non-finite values,
     weights <= 0 and extreme magnitudes are found by the kernel as it reads each
     series (:func:`service.core.batch.kernel.fit_rows`); only a transform's domain is
-    checked here, on the raw values (``1 / inf`` would look finite afterwards).
+    checked here, on the raw values (``1 / inf`` would look finite afterwards), and the spread
+    of the weights (over :data:`~service.core.data.inputs.MAX_WEIGHT_RATIO` the single-series
+    path refuses the series, naming its weights).
     """
     lengths = offsets[rows + 1] - offsets[rows]
     bad = (lengths == 0) | np.isin(rows, np.fromiter(raw, dtype=np.int64, count=len(raw)))
+    if w is not None:
+        bad |= np.isin(rows, _wide_weights(w, offsets))
     kinds = [(getattr(model, name), values)
              for name, values in (("transform_x", x), ("transform_y", y))]
     if any(kind != "none" for kind, _ in kinds):
@@ -37,6 +42,17 @@ def screen(x, y, w, offsets, rows, model, raw):
             bad_series = np.unique(np.searchsorted(offsets, hits, side="right") - 1)
             bad |= np.isin(rows, bad_series)
     return rows[~bad], rows[bad]
+
+
+def _wide_weights(w, offsets):
+    """Series whose weights span more than MAX_WEIGHT_RATIO (or are not all positive)."""
+    nonempty = np.flatnonzero(np.diff(offsets) > 0)
+    if nonempty.size == 0:
+        return nonempty
+    starts = offsets[nonempty]
+    with np.errstate(all="ignore"):
+        fine = np.maximum.reduceat(w, starts) <= MAX_WEIGHT_RATIO * np.minimum.reduceat(w, starts)
+    return nonempty[~fine]
 
 
 def chunks(rows, lengths):

@@ -6,7 +6,8 @@ import math
 
 import numpy as np
 
-from service.core.errors import SpecError
+from service.core.data import transforms
+from service.core.errors import SpecError, TransformError
 from service.core.spec import GridSpec
 
 DEFAULT_COUNT = 200
@@ -42,6 +43,11 @@ def grid_points(spec: GridSpec, x_min: float, x_max: float, max_points: int) -> 
     if stop < start:
         raise SpecError(f"grid.stop ({stop:g}) is below grid.start ({start:g}).",
                         field="grid.stop", fix="Give stop >= start.")
+    if not math.isfinite(stop - start):
+        raise SpecError(f"The grid from {start:g} to {stop:g} spans more than the largest "
+                        "double: its points cannot be spaced evenly.", field="grid.stop",
+                        fix="Give grid.start and grid.stop less than 1.7e308 apart, or list "
+                            "the points in grid.x.")
     if spec.step is not None:
         step = float(spec.step)
         if not (math.isfinite(step) and step > 0):
@@ -69,3 +75,31 @@ def _check_size(size: int, max_points: int, field: str) -> None:
         raise SpecError(f"The grid would have {size} points, over the limit of {max_points}.",
                         field=field, fix=f"Ask for at most {max_points} grid points (a larger "
                         "step or a smaller count), or predict in several requests.")
+
+
+def check_domain(spec: GridSpec, xs: np.ndarray, transform: str) -> None:
+    """Refuse grid points outside the domain of the x transform, naming the grid's field.
+
+    ``xs`` are :func:`grid_points` of ``spec``. The field is ``grid.x[i]`` for an explicit
+    grid, ``grid.start`` or ``grid.stop`` when an end is outside, else ``grid``.
+
+    Raises
+    ------
+    TransformError
+    """
+    bad = transforms.first_outside(transform, xs)
+    if bad is None:
+        return
+    if spec.x is not None:
+        field = f"grid.x[{bad}]"
+    elif bad == 0:
+        field = "grid.start"
+    elif bad == xs.size - 1:
+        field = "grid.stop"
+    else:
+        field = "grid"
+    raise TransformError(
+        f"Grid point {bad} (x = {float(xs[bad])!r}) is outside the domain of the {transform} "
+        f"transform of x (values must be {transforms.domain_words(transform)}).", field=field,
+        fix="Give grid points inside that domain (grid.x, or grid.start and grid.stop on one "
+            "side of it), or omit the grid to use the data range.")

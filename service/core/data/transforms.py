@@ -40,6 +40,20 @@ def is_increasing(name: str) -> bool:
     return name != "reciprocal"
 
 
+def first_outside(name: str, values: np.ndarray) -> int | None:
+    """Position of the first value outside the domain of transform ``name``, or None."""
+    test = _DOMAIN[name][0]
+    if test is None:
+        return None
+    ok = test(values)
+    return None if np.all(ok) else int(np.flatnonzero(~ok)[0])
+
+
+def domain_words(name: str) -> str:
+    """The domain of transform ``name`` in words ("greater than 0", ...)."""
+    return _DOMAIN[name][1]
+
+
 def apply(name: str, values: np.ndarray, *, field: str,
           index: np.ndarray | None = None) -> np.ndarray:
     """Apply transform ``name`` to ``values`` after checking its domain.
@@ -63,10 +77,9 @@ def apply(name: str, values: np.ndarray, *, field: str,
     """
     if name == "none":
         return values
-    test, words = _DOMAIN[name]
-    ok = test(values)
-    if not np.all(ok):
-        pos = int(np.flatnonzero(~ok)[0])
+    pos = first_outside(name, values)
+    if pos is not None:
+        words = domain_words(name)
         orig = int(index[pos]) if index is not None else pos
         raise TransformError(
             f"{field}[{orig}] = {float(values[pos])!r} is outside the domain of the {name} "

@@ -127,8 +127,8 @@ def _figures(fitted: FittedPolynomial, alpha: float, beta: float) -> Calibration
     lod = _first_root(lambda x: signal(x) - ICH_DETECTION_FACTOR * sigma, x_far)
     loq = _first_root(lambda x: signal(x) - ICH_QUANTIFICATION_FACTOR * sigma, x_far)
     df = int(fitted.df_residual)
-    t_alpha = float(stats.t.ppf(1 - alpha, df))
-    t_beta = float(stats.t.ppf(1 - beta, df))
+    t_alpha = float(stats.t.isf(alpha, df))  # upper tails: 1 - alpha rounds to 1 for tiny alpha
+    t_beta = float(stats.t.isf(beta, df))
     critical = t_alpha * pred_sd(0.0)
     x_c = _first_root(lambda x: signal(x) - critical, x_far)
     x_d = _first_root(lambda x: signal(x) - t_beta * pred_sd(x) - critical, x_far)

@@ -34,6 +34,7 @@ from service.core.errors import DataError, SpecError
 from service.core.models.inverse_band import CalibrationCurve
 from service.core.models.inverse_roots import batch_roots
 from service.core.results import FittedPolynomial
+from service.core.spec import MAX_REPLICATES
 
 STATUSES = {
     "ok": "A single root inside the calibrated range with a bounded interval inside it.",
@@ -137,19 +138,23 @@ def _invert(fitted: FittedPolynomial, y: np.ndarray, m: np.ndarray, level: float
 
 
 def _replicates(replicates, count: int) -> np.ndarray:
-    m = np.asarray(replicates)
+    """The counts as int64, checked as doubles first (a Python int past 2^63 would wrap)."""
+    try:
+        m = np.array(replicates, dtype=float)
+    except (TypeError, ValueError, OverflowError):
+        m = np.full(np.shape(replicates), np.nan)
     if m.ndim == 0:
         m = np.full(count, m)
     if m.shape != (count,):
         raise SpecError(f"replicates must be one count or {count} counts (one per y).",
                         field="replicates", fix="Send a single integer or one per reading.")
-    if not np.all(np.isfinite(m.astype(float))) or np.any(m != np.round(m)) or np.any(m < 1):
-        bad = int(np.flatnonzero(~(np.isfinite(m.astype(float)) & (m >= 1)
-                                   & (m == np.round(m))))[0])
-        raise SpecError("replicates must be whole numbers >= 1.",
+    good = np.isfinite(m) & (m >= 1) & (m <= MAX_REPLICATES) & (m == np.round(m))
+    if not np.all(good):
+        bad = int(np.flatnonzero(~good)[0])
+        raise SpecError(f"replicates must be whole numbers from 1 to {MAX_REPLICATES}.",
                         field="replicates" if np.ndim(replicates) == 0 else f"replicates[{bad}]",
                         fix="Give how many readings were averaged into each y.")
-    return m.astype(int)
+    return m.astype(np.int64)
 
 
 def _read_all(curve: CalibrationCurve, y, y_t, m) -> tuple[InverseEstimate, ...]:

@@ -37,7 +37,8 @@ class CalibrationCurve:
             self.w[i:i + len(self.coef)] += gram_inv[i]
         self.dw = P.polyder(self.w)
         df = int(fitted.df_residual)
-        q = float(special.stdtrit(df, 0.5 + level / 2)) if df > 0 else math.nan
+        # the upper tail from 1 - level (exact); 0.5 + level / 2 rounds to 1 near level 1
+        q = -float(special.stdtrit(df, (1.0 - level) / 2)) if df > 0 else math.nan
         self.qs = np.float64(q) * np.float64(fitted.sigma)  # half-width per sqrt(1/m + w)
         u_ends = transforms.apply(fitted.transform_x, np.array([fitted.x_min, fitted.x_max]),
                                   field="fitted_model.x_min")

@@ -13,12 +13,18 @@ from collections.abc import Mapping
 import numpy as np
 
 from service.core.data import transforms
+from service.core.data.inputs import magnitude_limit
 from service.core.errors import DataError, DocumentError
 from service.core.models.canonical import CHECKSUM_PREFIX, checksum, to_float
+from service.core.models.consistency import EPS, covariance_symmetric, curve_gap
 from service.core.polynomial import design
 from service.core.spec import HARD_MAX_DEGREE, TRANSFORMS
 
 SUPPORTED_VERSIONS = (1,)
+# x_shift and x_scale are recomputed from the transformed ends; a transform evaluated on
+# another array may differ by an ulp or two (SIMD paths), so allow a few ulps of the ends
+SCALING_ULPS = 8
+EXTENDED_IS_WIDER = bool(np.finfo(np.longdouble).max > np.finfo(float).max)
 
 # field name -> kind; the order is the order written (readers must not rely on it)
 FIELDS: dict[str, str] = {
@@ -186,55 +192,60 @@ class DocumentReader:
             self.fail("r_factor", "r_factor must be upper triangular.", keep)
         if np.any(np.diag(r_factor) == 0.0):
             self.fail("r_factor", "r_factor has a zero on its diagonal.", keep)
-        finite = np.isfinite(covariance)
-        if not np.array_equal(finite, finite.T) or not np.allclose(
-                covariance[finite], covariance.T[finite], rtol=1e-9, atol=0.0):
-            self.fail("raw_covariance", "raw_covariance must be symmetric.", keep)
         if not v["intercept"] and v["x_shift"] != 0.0:
             self.fail("x_shift", "A model without intercept must have x_shift 0.", keep)
         with np.errstate(all="ignore"):
             self._check_scaling(v, keep)
+            if not covariance_symmetric(v, covariance, r_factor):
+                self.fail("raw_covariance", "raw_covariance must be symmetric.", keep)
             try:
                 invertible = np.all(np.isfinite(np.linalg.inv(r_factor)))
             except np.linalg.LinAlgError:
                 invertible = False
             if not invertible:
                 self.fail("r_factor", "r_factor is singular in double precision.", keep)
-            conversion = design.conversion(v["x_shift"], v["x_scale"], v["degree"],
-                                           v["intercept"])
-            expected = (conversion @ basis.astype(conversion.dtype)).astype(float)
-            u = v["x_shift"] + v["x_scale"] * np.linspace(-1.0, 1.0, 7)  # the calibrated range
-            powers = np.arange(0 if v["intercept"] else 1, (0 if v["intercept"] else 1) + p)
-            t = np.linspace(-1.0, 1.0, 7)[:, None] ** powers[None, :]
-            evaluable = np.all(np.isfinite(np.abs(basis)[None, :] * t).sum(axis=1))
-            evaluable = evaluable and np.all(np.isfinite(basis * basis))
-            # raw entries outside the double range are null (NaN); the checksum covers them
-            comparable = np.all(np.isfinite(raw)) and np.all(np.isfinite(expected))
-            if comparable:
-                terms_raw = raw[None, :] * u[:, None] ** powers[None, :]
-                terms_exp = expected[None, :] * u[:, None] ** powers[None, :]
-                gap = np.abs(terms_raw.sum(axis=1) - terms_exp.sum(axis=1))
-                size = np.abs(terms_raw).sum(axis=1) + np.abs(terms_exp).sum(axis=1)
-                comparable = bool(np.all(np.isfinite(size)))
+            evaluable, gap, size, rounding = curve_gap(v, basis, raw, p)
         if not evaluable:
             self.fail("basis_coefficients", "The coefficients are too large to evaluate in "
                       "double precision over the calibrated range.", keep)
-        if comparable and np.any(gap > 1e-7 * size + 1e-300):
+        if not np.all(np.isfinite(size)):
+            if EXTENDED_IS_WIDER:  # the writer's own numbers always fit extended precision
+                self.fail("raw_coefficients", "raw_coefficients and basis_coefficients cannot "
+                          "be compared over the calibrated range.", keep)
+        elif np.any(gap > 1e-7 * size + rounding + 1e-300):
             self.fail("raw_coefficients",
                       "raw_coefficients and basis_coefficients describe different curves; "
                       "one of them was edited.", keep)
 
     def _check_scaling(self, v, keep: str) -> None:
-        """/v1/fit maps the calibrated range into t in [-1, 1]; anything else was edited."""
+        """/v1/fit maps the calibrated range onto [-1, 1] (``design.scaling``); anything else
+        was edited.
+
+        The ends are transformed again and the writer's ``(x_shift, x_scale)`` recomputed
+        from them. The two agree to rounding: the transform of an end may differ by an ulp or
+        two between the data array and this two-element array, so the tolerance is a few
+        ulps of the transformed ends (never a fraction of the scale: on a narrow range far
+        from zero, one ulp of the shift is a sizeable part of the scale). The ends must also
+        lie within the magnitude a fit of ``n`` points accepts.
+        """
         ends = np.array([v["x_min"], v["x_max"]])
         try:
             u = transforms.apply(v["transform_x"], ends, field="x_min")
         except DataError:
             self.fail("x_min", f"x_min/x_max lie outside the domain of the {v['transform_x']} "
                       "transform.", keep)
-        t = (u - v["x_shift"]) / v["x_scale"]
-        if not (np.all(np.isfinite(t)) and np.all(np.abs(t) <= 1.0 + 1e-6)):
-            self.fail("x_scale", "x_shift and x_scale do not map [x_min, x_max] into "
+        lo, hi = float(np.min(u)), float(np.max(u))
+        top = max(abs(lo), abs(hi))
+        if not (math.isfinite(top) and top <= magnitude_limit(v["n"])):
+            self.fail("x_min", "x_min/x_max are larger in magnitude than a fit of n points "
+                      "accepts.", keep)
+        shift, scale = design.scaling(u, v["intercept"], (lo, hi))
+        tolerance = SCALING_ULPS * EPS * top
+        if abs(v["x_shift"] - shift) > tolerance:
+            self.fail("x_shift", "x_shift is not the centre of [x_min, x_max] (on the "
+                      "transformed scale) as /v1/fit writes it.", keep)
+        if abs(v["x_scale"] - scale) > tolerance:
+            self.fail("x_scale", "x_shift and x_scale do not map [x_min, x_max] onto "
                       "[-1, 1] as /v1/fit writes them.", keep)
 
     def check_checksum(self, v) -> None:
@@ -249,3 +260,4 @@ class DocumentReader:
                       "The checksum does not match the document's content: a field was changed "
                       "after the fit (hand edit, truncation or lossy number formatting).",
                       "Send the fitted_model object unchanged, or refit to get a new one.")
+

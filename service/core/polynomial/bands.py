@@ -35,6 +35,7 @@ from service.core.errors import DataError, SpecError
 from service.core.polynomial.compiled import bands as kernels_bands
 from service.core.polynomial.compiled.qr import upper_inverse
 from service.core.results import FittedPolynomial, Prediction, frozen_array, frozen_rows
+from service.core.spec import MAX_REPLICATES
 
 
 def _check_level(level: float) -> float:
@@ -80,9 +81,10 @@ def grid_prediction(fitted: FittedPolynomial, xs: np.ndarray) -> Prediction:
 
 def _predict(fitted: FittedPolynomial, x, level: float | None, m: int) -> Prediction:
     level = _check_level(fitted.level if level is None else level)
-    if isinstance(m, bool) or int(m) != m or m < 1:
-        raise SpecError(f"m = {m!r} is not a positive whole number.", field="m",
-                        fix="Give the number of future observations to average (1 or more).")
+    if isinstance(m, bool) or int(m) != m or not 1 <= m <= MAX_REPLICATES:
+        raise SpecError(f"m = {m!r} is not a whole number from 1 to {MAX_REPLICATES}.",
+                        field="m", fix="Give the number of future observations to average "
+                        "(1 or more).")
     xs = np.array(x, dtype=float, ndmin=1)  # a copy: the result freezes it
     if xs.ndim != 1:
         raise DataError("x must be one-dimensional.", field="x", fix="Send a flat list of numbers.")
@@ -99,8 +101,8 @@ def _evaluate(fitted: FittedPolynomial, xs: np.ndarray, u: np.ndarray, level: fl
               coef: np.ndarray, r_factor: np.ndarray) -> Prediction:
     df = fitted.df_residual
     p = fitted.basis_coefficients.size
-    if df > 0:
-        tq = t_quantile(df, 0.5 + level / 2)
+    if df > 0:  # upper tails from 1 - level (exact), never from 0.5 + level / 2 (rounds to 1)
+        tq = -t_quantile(df, (1.0 - level) / 2)
         wh = math.sqrt(p * f_quantile(p, df, level))
     else:
         tq = wh = float("nan")
@@ -109,25 +111,43 @@ def _evaluate(fitted: FittedPolynomial, xs: np.ndarray, u: np.ndarray, level: fl
         upper_inverse(r_factor), fitted.sigma, tq, wh, m, fitted.x_min, fitted.x_max)
     name = fitted.transform_y
     if name == "none" and finite:  # the usual case: read-only views of the kernel's rows
-        values = frozen_rows(rows)
+        values, unbounded = frozen_rows(rows), np.zeros(xs.size, dtype=bool)
     else:
-        values = _limits(name, rows, finite)
-    return Prediction(frozen_array(xs), *values, frozen_array(extrap, dtype=bool), level)
+        values, unbounded = _limits(name, rows, finite)
+    return Prediction(frozen_array(xs), *values, frozen_array(extrap, dtype=bool), level,
+                      frozen_array(unbounded, dtype=bool))
 
 
-def _limits(name: str, rows: np.ndarray, finite: bool) -> list[np.ndarray]:
+def _limits(name: str, rows: np.ndarray, finite: bool) -> tuple[list[np.ndarray], np.ndarray]:
     """Fit, se and the three bands' limits from the kernel's rows (mean, obs, band), mapped
-    back through the inverse y transform; infinite values (far outside the data) as NaN."""
+    back through the inverse y transform, and where a limit is unbounded.
+
+    An interval on the fitting scale maps to the interval of the original scale that holds
+    the fit. Under ``reciprocal`` an interval that reaches 0 (the pole) holds the fit only on
+    one side: with a positive fit on the fitting scale, [1/upper, +inf); with a negative one,
+    (-inf, 1/lower]. The missing side is unbounded: NaN, and marked. Infinite values (far
+    outside the data, or beyond the double range after the inverse) are NaN and marked too.
+    """
     fit, se = rows[0], rows[1]
     lo, hi = rows[2::2], rows[3::2]
+    pole = np.zeros(lo.shape, dtype=bool)
     if name != "none":
+        if name == "reciprocal":
+            pole = (lo <= 0.0) & (hi >= 0.0)
+            above, below = pole & (fit > 0.0), pole & (fit < 0.0)
         fit = transforms.inverse(name, fit)
         lo, hi = transforms.inverse(name, lo), transforms.inverse(name, hi)
         if not transforms.is_increasing(name):
             lo, hi = hi, lo
+        if name == "reciprocal":
+            hi = np.where(above, np.inf, hi)   # [1/upper, +inf)
+            lo = np.where(below, -np.inf, lo)  # (-inf, 1/lower]
+            lo, hi = np.where(pole & ~(above | below), np.nan, lo), np.where(
+                pole & ~(above | below), np.nan, hi)  # a fit at the pole: nothing holds it
         finite = bool(np.isfinite(lo).all() and np.isfinite(hi).all())
+    unbounded = np.isfinite(fit) & (pole | np.isinf(lo) | np.isinf(hi)).any(axis=0)
     values = [fit, se, lo[0], hi[0], lo[1], hi[1], lo[2], hi[2]]
     # finite limits imply a finite fit and se (an infinite or NaN one spreads to the limits)
     if not finite and any(np.isinf(a).any() for a in values):
         values = [np.where(np.isinf(a), np.nan, a) for a in values]
-    return [frozen_array(a) for a in values]
+    return [frozen_array(a) for a in values], unbounded

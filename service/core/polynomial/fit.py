@@ -15,9 +15,10 @@ from service.core.checks.flags import trust_flags
 from service.core.checks.lack_of_fit import distinct_count
 from service.core.checks.shapiro import MAX_N as SHAPIRO_MAX_N
 from service.core.data import transforms
-from service.core.data.grid import grid_points
+from service.core.data.grid import check_domain, grid_points
 from service.core.data.inputs import check_magnitude, clean_data
 from service.core.errors import DesignError
+from service.core.interrupt import checkpoint
 from service.core.polynomial import design, qr
 from service.core.polynomial.bands import grid_prediction
 from service.core.polynomial.compiled import qr as kernels_qr
@@ -107,6 +108,7 @@ def _fit(x, y, weights, model: ModelSpec, options: FitOptions) -> FitReport:
     field = "model.max_degree" if selects else "model.degree"
     dec, cands, degree, reason, method = _select(u, z, data.w, degrees, model, selects,
                                                  sum_log_w, field, u_bounds, False)
+    checkpoint()  # a caller's budget is checked between the phases of a fit
     m = cands[degree - dmin]
     sigma2 = _residual_mean_square(m)
     readout = _float64_readout(dec, m, degree, sigma2)
@@ -173,11 +175,14 @@ def _fit(x, y, weights, model: ModelSpec, options: FitOptions) -> FitReport:
         n, p, m.df_model, m.df_residual, m.rss, m.tss, intercept, m.r_squared, m.adj_r_squared,
         float(sigma), m.f, m.f_p_value, m.log_likelihood, m.aic, m.aicc, m.bic, m.press,
         m.press_r_squared, cond)
+    checkpoint()
     # always diagnosed: the trust flags rest on these tests, whatever include returns
     diagnostics = diagnose(data.index, data.x, dec, degree, m.rss, m.exact, distinct)
     grid = None
+    checkpoint()
     if "grid" in options.include and options.grid is not None:
         gx = grid_points(options.grid, xmin, xmax, options.max_grid_points)
+        check_domain(options.grid, gx, model.transform_x)
         grid = grid_prediction(fitted, gx)
     flags = trust_flags(n=n, p=p, exact=m.exact, condition=cond, diagnostics=diagnostics,
                         grid=grid)

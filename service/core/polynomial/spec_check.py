@@ -35,17 +35,17 @@ def check_spec(model: ModelSpec, options: FitOptions) -> tuple[int, int, bool]:
                         field="weighting", fix='Use "relative" for polynomial fits; known_sd '
                         "applies to the nonlinear families.")
     lowest = 0 if model.intercept else 1
+    top = max(1, min(int(options.max_degree), HARD_MAX_DEGREE))  # the caller's limit
     if model.degree is not None:
         if model.max_degree is not None:
             raise _spec_error("Both degree and max_degree are given.", "model.max_degree",
                               "Give degree for a fixed model, or max_degree (and select) to "
                               "choose the degree, not both.")
         d = _int(model.degree, "model.degree")
-        if not lowest <= d <= HARD_MAX_DEGREE:
+        if not lowest <= d <= top:
             extra = "." if model.intercept else " (degree 0 needs the intercept)."
-            raise _spec_error(f"degree = {d} is outside {lowest}..{HARD_MAX_DEGREE}.",
-                              "model.degree", f"Use a degree from {lowest} to "
-                              f"{HARD_MAX_DEGREE}{extra}")
+            raise _spec_error(f"degree = {d} is outside {lowest}..{top}.",
+                              "model.degree", f"Use a degree from {lowest} to {top}{extra}")
         return d, d, False
     if model.select not in SELECT_METHODS:
         raise _spec_error(f"Unknown select method {model.select!r}.", "model.select",
@@ -56,14 +56,13 @@ def check_spec(model: ModelSpec, options: FitOptions) -> tuple[int, int, bool]:
     dmin = _int(model.min_degree, "model.min_degree")
     dmax = DEFAULT_MAX_DEGREE if model.max_degree is None else _int(model.max_degree,
                                                                      "model.max_degree")
-    if not lowest <= dmin <= HARD_MAX_DEGREE:
-        raise _spec_error(f"min_degree = {dmin} is outside {lowest}..{HARD_MAX_DEGREE}.",
-                          "model.min_degree", f"Use a min_degree from {lowest} to "
-                          f"{HARD_MAX_DEGREE}.")
-    if not dmin <= dmax <= HARD_MAX_DEGREE:
-        raise _spec_error(f"max_degree = {dmax} is outside {dmin}..{HARD_MAX_DEGREE}.",
+    if not lowest <= dmin <= top:
+        raise _spec_error(f"min_degree = {dmin} is outside {lowest}..{top}.",
+                          "model.min_degree", f"Use a min_degree from {lowest} to {top}.")
+    if not dmin <= dmax <= top:
+        raise _spec_error(f"max_degree = {dmax} is outside {dmin}..{top}.",
                           "model.max_degree", f"Use a max_degree from min_degree ({dmin}) to "
-                          f"{HARD_MAX_DEGREE}.")
+                          f"{top}.")
     return dmin, dmax, True
 
 

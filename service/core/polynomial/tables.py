@@ -48,7 +48,7 @@ def fit_tables(terms: tuple[str, ...], raw: np.ndarray, cov: np.ndarray, effects
     mse = rss / df if df > 0 else NAN
     f = [v / mse if rss > 0 else NAN for v in ss]
     if df > 0:
-        tq = t_quantile(df, 0.5 + level / 2)
+        tq = -t_quantile(df, (1.0 - level) / 2)  # upper tail from 1 - level (exact)
         half = [tq * s if s > 0 else 0.0 for s in se]
         probs = special.fdtrc(1, df, [t * t for t in tval] + f).tolist()
     else:
