@@ -181,3 +181,16 @@ def test_families_describes_the_expression_family(client):
     options = {o["name"] for o in listed["expression"]["options"]}
     assert {"family", "expression", "parameters", "lower", "upper"} <= options
     assert "equation" in listed["expression"]["description"]
+
+
+def test_a_level_a_hair_below_one_keeps_finite_limits(client, assay):
+    # Oracle: scipy.stats.t.isf of the upper tail (computed there without cancellation).
+    x, y = assay
+    level = 0.9999999999999999
+    out = _fit(client, {"x": x.tolist(), "y": y.tolist(), "level": level, "grid": {"count": 3},
+                        "model": {"family": "expression", "expression": FOUR_PL,
+                                  "parameters": {"a": 0.2, "b": 1.0, "c": 1.5, "d": 2.0}}})
+    crit = stats.t.isf((1 - level) / 2, x.size - 4)
+    row = out["coefficients"][0]
+    assert row["upper"] == pytest.approx(row["estimate"] + crit * row["std_error"], rel=1e-9)
+    assert all(v is not None for v in out["grid"]["mean_upper"])

@@ -136,10 +136,10 @@ def predict(fitted: FittedCurve, x, *, level: float | None = None, m: int = 1) -
     xs = np.array(x, dtype=float).reshape(-1)
     p, df = len(fitted.parameter_names), fitted.df_residual
     if fitted.distribution == "normal":
-        crit = float(special.ndtri(0.5 + 0.5 * level))
+        crit = float(-special.ndtri(0.5 * (1.0 - level)))  # upper tail: exact near level 1
         wide = float(np.sqrt(special.chdtri(p, 1.0 - level)))
     else:
-        crit = float(special.stdtrit(df, 0.5 + 0.5 * level)) if df > 0 else NAN
+        crit = float(-special.stdtrit(df, 0.5 * (1.0 - level))) if df > 0 else NAN
         wide = float(np.sqrt(p * special.fdtri(p, df, level))) if df > 0 else NAN
     with np.errstate(all="ignore"):
         bands = band_values(fitted.model, xs, fitted.estimates, fitted.covariance,

@@ -59,10 +59,10 @@ def check_options(weight_mode: str, level: float) -> None:
 
 def critical_value(weight_mode: str, df: int, level: float) -> float:
     """Two-sided quantile: ``t_df(1 - alpha/2)`` (relative) or ``z(1 - alpha/2)`` (known SD)."""
-    q = 0.5 + 0.5 * level
+    tail = 0.5 * (1.0 - level)  # the upper tail, taken by symmetry: exact for levels near 1
     if weight_mode == "known_sd":
-        return float(special.ndtri(q))
-    return float(special.stdtrit(df, q)) if df > 0 else np.nan
+        return float(-special.ndtri(tail))
+    return float(-special.stdtrit(df, tail)) if df > 0 else np.nan
 
 
 def covariance_scale(solution: Solution, weight_mode: str) -> tuple[float, float]:
