@@ -15,6 +15,9 @@ import matplotlib
 # bytes in every process. Set once at import; nothing else in the service writes SVG.
 matplotlib.rcParams["svg.hashsalt"] = "curvewise"
 matplotlib.rcParams["svg.fonttype"] = "path"  # glyphs as paths: no dependence on client fonts
+# Every text is drawn as written: a caller's "$" never starts matplotlib's math parser
+# (whose syntax errors would otherwise surface while the figure is drawn).
+matplotlib.rcParams["text.parse_math"] = False
 
 OKABE_ITO = {
     "black": "#000000",
