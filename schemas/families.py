@@ -52,6 +52,9 @@ class LimitsSchema(Schema):
     max_degree = integer("Highest degree (422 above).", required=True)
     max_grid_points = integer("Most grid points (422 above).", required=True)
     max_series = integer("Most series in one /v1/batch request.", required=True)
+    max_full_series = integer("Most series in one JSON /v1/batch request with detail full "
+                              "(NDJSON streams full reports without this limit).",
+                              required=True)
     max_total_points = integer("Most points in one /v1/batch request.", required=True)
     request_timeout = number("Seconds of compute per request (503 above).", required=True)
 

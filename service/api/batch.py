@@ -68,6 +68,14 @@ def _json_batch(settings):
     if len(series) > settings.max_series:
         raise _too_large(f"The batch has {len(series)} series; the limit is "
                          f"{settings.max_series}. Split it into several requests.")
+    if envelope["detail"] == "full" and len(series) > settings.max_full_series:
+        # every full report is held until the JSON answer is written (~30 KB a series):
+        # the bound keeps a request's memory flat; NDJSON streams them one by one instead
+        raise _too_large(f"A JSON batch with detail \"full\" holds every report until it "
+                         f"answers; {len(series)} series are over this server's limit of "
+                         f"{settings.max_full_series}. Send them as NDJSON "
+                         "(application/x-ndjson), which streams full reports, or ask for "
+                         "detail \"summary\".")
     total = sum(len(s["x"]) for s in series if isinstance(s, dict) and isinstance(
         s.get("x"), list))
     if total > settings.max_total_points:

@@ -38,7 +38,7 @@ def families():
                      "include": list(SECTIONS)},
         "limits": {name: getattr(settings, name) for name in (
             "max_body_bytes", "max_points", "max_degree", "max_grid_points", "max_series",
-            "max_total_points", "request_timeout")},
+            "max_full_series", "max_total_points", "request_timeout")},
     }
 
 

@@ -18,6 +18,7 @@ class Settings:
     max_degree: int = 10
     max_grid_points: int = 20_000
     max_series: int = 100_000            # per batch request
+    max_full_series: int = 2_000         # per JSON batch with detail=full (whole reports held)
     max_total_points: int = 10_000_000   # per batch request
     request_timeout: float = 60.0        # seconds of compute per request
     auth_tokens: tuple[str, ...] = ()    # empty: auth off
