@@ -9,6 +9,8 @@ elsewhere the tail is at least about 0.08 and the finite sums of Abramowitz &
 Stegun 26.7.3 (odd df) and 26.7.4 (even df) give it without cancellation.
 ``tests/batch/test_ftail.py`` checks it against ``scipy.special.fdtrc``
 (the single-series path's function) over df 1..6000: 1e-11 relative or better.
+The continued fraction is the one the shared checks use for every incomplete beta
+(:func:`service.core.checks.kernels.beta_fraction`).
 """
 
 from __future__ import annotations
@@ -19,28 +21,7 @@ import numba
 import numpy as np
 from scipy import special
 
-_TINY = 1e-300
-
-
-@numba.njit(cache=True, nogil=True, error_model="numpy")
-def _beta_fraction(a, b, x):
-    """Continued fraction of ``I_x(a, b)`` (modified Lentz), converging for small ``x``."""
-    qab, qap, qam = a + b, a + 1.0, a - 1.0
-    c, d = 1.0, 1.0 - qab * x / qap
-    d = 1.0 / (d if abs(d) > _TINY else _TINY)
-    h = d
-    for m in range(1, 1000):
-        m2 = 2 * m
-        for aa in (m * (b - m) * x / ((qam + m2) * (a + m2)),
-                   -(a + m) * (qab + m) * x / ((a + m2) * (qap + m2))):
-            d = 1.0 + aa * d
-            d = 1.0 / (d if abs(d) > _TINY else _TINY)
-            c = 1.0 + aa / c
-            c = c if abs(c) > _TINY else _TINY
-            h *= d * c
-        if abs(d * c - 1.0) < 2e-16:
-            break
-    return h
+from service.core.checks.kernels import beta_fraction
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
@@ -56,7 +37,7 @@ def f1_tail(f, df, log_beta):
     x, y = df / (df + f), f / (df + f)            # cos^2 and sin^2 of the t angle
     if x < (a + 1.0) / (a + 2.5):
         front = math.exp(a * math.log(x) + 0.5 * math.log(y) - log_beta)
-        return front * _beta_fraction(a, 0.5, x) / a
+        return front * beta_fraction(a, 0.5, x) / a
     k = int(df)
     s = math.sqrt(y)
     if k % 2 == 0:                                  # A&S 26.7.4

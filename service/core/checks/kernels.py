@@ -88,7 +88,7 @@ def chi2_tail(df, x):
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
-def _beta_fraction(a, b, x):
+def beta_fraction(a, b, x):
     """Continued fraction of the incomplete beta function (modified Lentz; converges fast
     for ``x < (a + 1) / (a + b + 2)``)."""
     tiny = 1e-300
@@ -140,8 +140,8 @@ def beta_cdf(a, b, x):
         return 1.0
     log_front = _log_front(a, b, x)
     if x < (a + 1.0) / (a + b + 2.0):
-        return math.exp(log_front) * _beta_fraction(a, b, x) / a
-    return 1.0 - math.exp(log_front) * _beta_fraction(b, a, 1.0 - x) / b
+        return math.exp(log_front) * beta_fraction(a, b, x) / a
+    return 1.0 - math.exp(log_front) * beta_fraction(b, a, 1.0 - x) / b
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
