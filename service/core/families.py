@@ -19,7 +19,7 @@ from types import MappingProxyType
 from typing import Any
 
 from service.core.errors import DocumentError, SpecError
-from service.core.models import calibration, document, inverse
+from service.core.models import calibration, curve_document, document, inverse
 from service.core.nonlinear import analysis as nonlinear_analysis
 from service.core.nonlinear import expression_family
 from service.core.nonlinear.builtin import fit as builtin_fit
@@ -109,7 +109,8 @@ EXPRESSION = Family(
                 "expression), fitted by nonlinear least squares from given start values.",
     fitted_type=FittedCurve, fit=expression_family.fit_series,
     check_spec=expression_family.check_spec, predict=nonlinear_analysis.predict,
-    write_document=None, read_document=None)
+    write_document=curve_document.to_curve_document,
+    read_document=curve_document.from_curve_document)
 
 
 
@@ -124,8 +125,9 @@ def _builtin(entry: Builtin) -> Family:
         name=entry.name, description=entry.description, fitted_type=FittedCurve,
         fit=partial(builtin_fit.fit_series, entry), check_spec=partial(builtin_spec.check_spec,
                                                                        entry),
-        predict=nonlinear_analysis.predict, write_document=None, read_document=None,
-        equation=entry.equation_text(), parameters=entry.parameters,
+        predict=nonlinear_analysis.predict, write_document=curve_document.to_curve_document,
+        read_document=curve_document.from_curve_document, equation=entry.equation_text(),
+        parameters=entry.parameters,
         generalizes=NESTED_IN.get(entry.name, ()))
 
 
