@@ -19,7 +19,7 @@ from types import MappingProxyType
 from typing import Any
 
 from service.core.errors import DocumentError, SpecError
-from service.core.models import calibration, curve_document, document, inverse
+from service.core.models import calibration, curve_document, curve_inverse, document, inverse
 from service.core.nonlinear import analysis as nonlinear_analysis
 from service.core.nonlinear import expression_family
 from service.core.nonlinear.builtin import fit as builtin_fit
@@ -103,6 +103,11 @@ POLYNOMIAL = Family(
     sensitivity=calibration.sensitivity, figures_of_merit=calibration.figures_of_merit,
     compiled_batch=True, select_methods=SELECT_METHODS, transforms=TRANSFORMS)
 
+_CURVE_INVERSE = {"invert": curve_inverse.invert_curve,
+                  "sensitivity": curve_inverse.sensitivity,
+                  "figures_of_merit": curve_inverse.figures_of_merit}
+"""Reading a nonlinear curve backwards (where it is monotone over the calibrated range)."""
+
 EXPRESSION = Family(
     name="expression",
     description="The caller's own equation in x and named parameters (a plain arithmetic "
@@ -110,7 +115,7 @@ EXPRESSION = Family(
     fitted_type=FittedCurve, fit=expression_family.fit_series,
     check_spec=expression_family.check_spec, predict=nonlinear_analysis.predict,
     write_document=curve_document.to_curve_document,
-    read_document=curve_document.from_curve_document)
+    read_document=curve_document.from_curve_document, **_CURVE_INVERSE)
 
 
 
@@ -127,7 +132,7 @@ def _builtin(entry: Builtin) -> Family:
                                                                        entry),
         predict=nonlinear_analysis.predict, write_document=curve_document.to_curve_document,
         read_document=curve_document.from_curve_document, equation=entry.equation_text(),
-        parameters=entry.parameters,
+        parameters=entry.parameters, **_CURVE_INVERSE,
         generalizes=NESTED_IN.get(entry.name, ()))
 
 
