@@ -111,3 +111,14 @@ def test_bands_of_a_builtin_curve_match_an_independent_delta_method(client):
     half_obs = t * np.sqrt(se**2 + doc["sigma"] ** 2 / m)
     np.testing.assert_allclose([r["obs_upper"] - r["fit"] for r in rows], half_obs, rtol=1e-6)
     np.testing.assert_allclose([r["fit"] - r["mean_lower"] for r in rows], t * se, rtol=1e-6)
+
+
+def test_openapi_documents_both_layouts(client):
+    spec = client.get("/openapi.json").get_json()
+    components = spec["components"]["schemas"]
+    assert {"expression", "parameter_names", "covariance", "checksum"} <= set(
+        components["CurveDocument"]["properties"])
+    for name in ("PredictRequest", "InvertRequest"):
+        field = components[name]["properties"]["fitted_model"]
+        assert {r["$ref"] for r in field["oneOf"]} == {"#/components/schemas/FittedModel",
+                                                       "#/components/schemas/CurveDocument"}
