@@ -8,9 +8,9 @@ internal consistency, that the equation compiles with exactly the named paramete
 
 from __future__ import annotations
 
-from marshmallow import fields, validate
+from marshmallow import Schema, fields, validate
 
-from schemas.common import FAMILIES, WEIGHTINGS, StrictSchema
+from schemas.common import FAMILIES, WEIGHTINGS, StrictSchema, integer, number
 from schemas.fields import StrictBoolean, StrictFloat, StrictInteger, StrictString, one_of_message
 
 _KEEP = " Written by /v1/fit; send it back unchanged."
@@ -65,3 +65,13 @@ class CurveDocumentSchema(StrictSchema):
     checksum = StrictString(required=True, metadata={
         "description": "'sha256:' + hex SHA-256 of the canonical form of every other field "
                        "(docs/fitted-model.md). A changed document is refused with 422."})
+
+
+class WorkingRangeSchema(Schema):
+    """Where a logistic calibration reads concentrations back precisely enough (/v1/invert)."""
+
+    cv_limit = number("The largest acceptable CV of a back-calculated x (0.2 = 20%).")
+    replicates = integer("m: readings averaged into each y for this profile (the request's "
+                         "replicates when it is one integer, else 1).")
+    lower = number("Smallest x of the working range (null when no x reaches the limit).")
+    upper = number("Largest x of the working range (null when no x reaches the limit).")

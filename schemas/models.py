@@ -12,7 +12,7 @@ import math
 from marshmallow import Schema, ValidationError, fields, validate
 
 from schemas.common import TRANSFORMS, StrictSchema, integer, number, text
-from schemas.curve_document import CurveDocumentSchema
+from schemas.curve_document import CurveDocumentSchema, WorkingRangeSchema
 from schemas.fields import (
     MAX_JSON_INTEGER,
     TOO_LARGE_INTEGER,
@@ -227,6 +227,11 @@ class InvertRequestSchema(StrictSchema):
         "description": "False-positive risk for the decision/detection limits."})
     detection_beta = StrictFloat(load_default=0.05, validate=_RISK, metadata={
         "description": "False-negative risk for the detection limit."})
+    cv_limit = StrictFloat(load_default=0.2, validate=validate.Range(
+        0, 1, min_inclusive=False, max_inclusive=False,
+        error="Must be strictly between 0 and 1, e.g. 0.2 for 20%."), metadata={
+        "description": "logistic4/logistic5: the CV limit of the working range (0.2 = 20%, "
+                       "common practice in bioanalytical method validation)."})
 
 
 class EstimateSchema(Schema):
@@ -278,3 +283,7 @@ class InvertResponseSchema(Schema):
     x_min = number("Calibrated range: smallest x of the data.")
     x_max = number("Calibrated range: largest x of the data.")
     calibration = fields.Nested(CalibrationSchema)
+    working_range = fields.Nested(WorkingRangeSchema, allow_none=True, metadata={
+        "description": "logistic4/logistic5: the x range where the delta-method CV of a "
+                       "back-calculated x stays at or under cv_limit (precision profile; "
+                       "docs/fitted-model.md); null for other families."})

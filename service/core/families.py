@@ -19,7 +19,14 @@ from types import MappingProxyType
 from typing import Any
 
 from service.core.errors import DocumentError, SpecError
-from service.core.models import calibration, curve_document, curve_inverse, document, inverse
+from service.core.models import (
+    calibration,
+    curve_document,
+    curve_inverse,
+    document,
+    inverse,
+    precision_profile,
+)
 from service.core.nonlinear import analysis as nonlinear_analysis
 from service.core.nonlinear import expression_family
 from service.core.nonlinear.builtin import fit as builtin_fit
@@ -72,6 +79,9 @@ class Family:
     parameters : tuple of ParameterInfo
         Each parameter's name, meaning (with unit) and constraint; empty when the
         caller names them.
+    precision_profile : callable or None
+        ``precision_profile(fitted, *, cv_limit, replicates)``: the working range of a
+        dose-response calibration (logistic4, logistic5); None otherwise.
     """
 
     name: str
@@ -91,6 +101,7 @@ class Family:
     generalizes: tuple[str, ...] = ()
     equation: str | None = None
     parameters: tuple[ParameterInfo, ...] = ()
+    precision_profile: Callable[..., Any] | None = None
 
 
 POLYNOMIAL = Family(
@@ -133,7 +144,9 @@ def _builtin(entry: Builtin) -> Family:
         predict=nonlinear_analysis.predict, write_document=curve_document.to_curve_document,
         read_document=curve_document.from_curve_document, equation=entry.equation_text(),
         parameters=entry.parameters, **_CURVE_INVERSE,
-        generalizes=NESTED_IN.get(entry.name, ()))
+        generalizes=NESTED_IN.get(entry.name, ()),
+        precision_profile=(precision_profile.precision_profile
+                           if entry.name in precision_profile.PROFILE_FAMILIES else None))
 
 
 BUILTIN_FAMILIES = tuple(_builtin(entry) for entry in BUILTINS.values())

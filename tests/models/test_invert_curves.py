@@ -145,3 +145,20 @@ def test_a_peak_is_not_monotone(client):
     np.testing.assert_allclose(out["turning_points"], [centre], rtol=1e-9)
     assert out["estimates"][0]["status"] == "multiple_roots_in_range"
     assert len(out["estimates"][0]["other_roots"]) == 2
+
+
+def test_a_logistic_reports_its_working_range_and_other_curves_do_not(client, logistic,
+                                                                     saturation):
+    # the service's working range equals the core precision profile's (tested against a
+    # Monte Carlo in test_precision_profile.py), for the request's replicates and limit
+    from service.core import read_document
+    from service.core.models.precision_profile import precision_profile
+
+    res = post_json(client, "/v1/invert", {"fitted_model": logistic, "y": [1.5],
+                                           "replicates": M, "cv_limit": 0.15})
+    working = res.get_json()["working_range"]
+    profile = precision_profile(read_document(logistic), cv_limit=0.15, replicates=M)
+    assert working == {"cv_limit": 0.15, "replicates": M, "lower": profile.lower,
+                       "upper": profile.upper}
+    assert logistic["x_min"] <= working["lower"] < working["upper"] <= logistic["x_max"]
+    assert _invert(client, saturation, [1.5])["working_range"] is None
