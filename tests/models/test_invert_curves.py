@@ -162,3 +162,32 @@ def test_a_logistic_reports_its_working_range_and_other_curves_do_not(client, lo
                        "upper": profile.upper}
     assert logistic["x_min"] <= working["lower"] < working["upper"] <= logistic["x_max"]
     assert _invert(client, saturation, [1.5])["working_range"] is None
+
+
+FORGED = [  # well-formed v2 documents with a freshly computed checksum (a forger's)
+    lambda d: d["estimates"].__setitem__(0, 1e308),
+    lambda d: d["estimates"].__setitem__(2, -1e308),
+    lambda d: d["estimates"].__setitem__(3, 0.0),
+    lambda d: d.update(covariance=[[1e308] * 4 for _ in range(4)]),
+    lambda d: d.update(covariance=[[None] * 4 for _ in range(4)]),
+    lambda d: d.update(x_min=d["x_max"]),
+    lambda d: d.update(x_min=-1e308, x_max=1e308),
+    lambda d: d.update(x_min=5e-324, x_max=1e-323),
+    lambda d: d.update(sigma=0.0, noise_variance=0.0),
+    lambda d: d.update(expression="sin(1/x)*y_left + y_right*slope*ec50"),
+]
+
+
+@pytest.mark.parametrize("forge", range(len(FORGED)))
+def test_forged_curve_documents_get_answers_never_server_errors(api, logistic, forge):
+    import copy
+
+    from service.core.models.canonical import checksum
+
+    doc = copy.deepcopy(logistic)
+    FORGED[forge](doc)
+    doc["checksum"] = checksum(doc)
+    for path, body in (("/v1/predict", {"x": [0.0, 1e-300, 0.5, 1e300, -1.0]}),
+                       ("/v1/invert", {"y": [0.0, 1.0, 1e300, -1e300, 2.0], "replicates": 3})):
+        answer = post_json(api, path, {"fitted_model": doc, **body})
+        assert answer.status_code in (200, 422), answer.data[:300]

@@ -256,5 +256,10 @@ def _first_crossing(start: float, ladder: np.ndarray, fn) -> float | None:
 
 
 def _brent(fn, a: float, b: float) -> float:
+    """Brent's method on a bracket found on a grid; when re-evaluating an end at one point
+    lands on the other side by rounding (no sign change left), the end nearer zero."""
+    fa, fb = fn(a), fn(b)
+    if not (math.isfinite(fa) and math.isfinite(fb)) or fa * fb > 0:
+        return float(a if abs(fa) <= abs(fb) or not math.isfinite(fb) else b)
     xtol = 4 * _EPS * max(abs(a), abs(b), 1e-300)
     return float(optimize.brentq(fn, a, b, xtol=xtol, rtol=4 * _EPS, maxiter=200))

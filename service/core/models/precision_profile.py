@@ -114,7 +114,9 @@ def precision_profile(fitted: FittedCurve, *, cv_limit: float = DEFAULT_CV_LIMIT
 
 
 def _brent(fn, a: float, b: float) -> float:
-    if not (math.isfinite(fn(a)) and math.isfinite(fn(b))):
-        return float(a if math.isfinite(fn(a)) else b)
+    fa, fb = fn(a), fn(b)
+    if not (math.isfinite(fa) and math.isfinite(fb)) or fa * fb > 0:
+        return float(a if math.isfinite(fa) and (abs(fa) <= abs(fb) or not math.isfinite(fb))
+                     else b)
     xtol = 8 * float(np.finfo(float).eps) * max(abs(a), abs(b))
     return float(optimize.brentq(fn, a, b, xtol=xtol, maxiter=200))
