@@ -10,7 +10,7 @@ from marshmallow import Schema, fields
 
 from schemas.common import NoticeSchema, TrustFlagSchema, integer, number, text
 from schemas.fields import NumberArray, StrictBoolean
-from schemas.models import FittedModelSchema
+from schemas.models import FittedModelField
 
 
 def _array(description: str) -> NumberArray:
@@ -322,6 +322,6 @@ class FitResponseSchema(Schema):
         "description": "Numerical or data warnings."})
     flags = fields.List(fields.Nested(TrustFlagSchema), required=True, metadata={
         "description": "Plain-language reasons to be careful with this fit."})
-    fitted_model = fields.Nested(FittedModelSchema, metadata={
+    fitted_model = FittedModelField(metadata={
         "description": "The portable fitted-model document (versioned, checksummed). Store "
                        "it and send it back unchanged to /v1/predict or /v1/invert."})

@@ -12,6 +12,7 @@ import math
 from marshmallow import Schema, ValidationError, fields, validate
 
 from schemas.common import TRANSFORMS, StrictSchema, integer, number, text
+from schemas.curve_document import CurveDocumentSchema, WorkingRangeSchema
 from schemas.fields import (
     MAX_JSON_INTEGER,
     TOO_LARGE_INTEGER,
@@ -49,8 +50,9 @@ class FittedModelSchema(StrictSchema):
 
     schema_version = StrictInteger(
         required=True,
-        validate=validate.OneOf([1], error="Unsupported schema_version; this service reads 1. "
-                                           "Refit with this service to get a current document."),
+        validate=validate.OneOf([1, 2], error="Unsupported schema_version; this service reads 1 "
+                                              "and 2. Refit with this service to get a current "
+                                              "document."),
         metadata={"description": "Version of this document layout (1)."})
     family = StrictString(required=True, validate=validate.OneOf(["polynomial"]),
                           metadata={"description": "Model family." + _KEEP})
@@ -90,10 +92,36 @@ class FittedModelSchema(StrictSchema):
                        "(docs/fitted-model.md). A changed document is refused with 422."})
 
 
+DOCUMENT_SCHEMAS: dict[int, type[Schema]] = {1: FittedModelSchema, 2: CurveDocumentSchema}
+"""Each fitted-model document layout by schema_version (1: polynomial; 2: nonlinear)."""
+
+
+class FittedModelField(fields.Field):
+    """A fitted-model document, loaded by the schema of its ``schema_version`` (version 1
+    unless it says 2); dumped unchanged. Documented as a oneOf of the layouts."""
+
+    def __init__(self, **kwargs):
+        metadata = dict(kwargs.pop("metadata", {}))
+        metadata["oneOf"] = [{"$ref": f"#/components/schemas/{s.__name__.removesuffix('Schema')}"}
+                             for s in DOCUMENT_SCHEMAS.values()]
+        super().__init__(metadata=metadata, **kwargs)
+
+    def _serialize(self, value, attr, obj, **kwargs):
+        return value
+
+    def _deserialize(self, value, attr, data, **kwargs):
+        if not isinstance(value, dict):
+            raise ValidationError("Must be a JSON object. Send the fitted_model object exactly "
+                                  "as /v1/fit returned it.")
+        version = value.get("schema_version")
+        schema = DOCUMENT_SCHEMAS.get(2 if version == 2 and not isinstance(version, bool) else 1)
+        return schema().load(value)
+
+
 class PredictRequestSchema(StrictSchema):
     """Predict at new x with a stored fitted model."""
 
-    fitted_model = fields.Nested(FittedModelSchema, required=True, metadata={
+    fitted_model = FittedModelField(required=True, metadata={
         "description": "The fitted_model document from a /v1/fit response, unchanged."})
     x = NumberArray(required=True, metadata={
         "description": "Where to predict, on the original x scale."})
@@ -188,7 +216,7 @@ class ReplicatesField(fields.Field):
 class InvertRequestSchema(StrictSchema):
     """Read x back from observed y with a stored calibration curve."""
 
-    fitted_model = fields.Nested(FittedModelSchema, required=True, metadata={
+    fitted_model = FittedModelField(required=True, metadata={
         "description": "The fitted_model document from a /v1/fit response, unchanged."})
     y = NumberArray(required=True, metadata={
         "description": "Observed readings (original y scale); each the mean of its replicates."})
@@ -199,6 +227,11 @@ class InvertRequestSchema(StrictSchema):
         "description": "False-positive risk for the decision/detection limits."})
     detection_beta = StrictFloat(load_default=0.05, validate=_RISK, metadata={
         "description": "False-negative risk for the detection limit."})
+    cv_limit = StrictFloat(load_default=0.2, validate=validate.Range(
+        0, 1, min_inclusive=False, max_inclusive=False,
+        error="Must be strictly between 0 and 1, e.g. 0.2 for 20%."), metadata={
+        "description": "logistic4/logistic5: the CV limit of the working range (0.2 = 20%, "
+                       "common practice in bioanalytical method validation)."})
 
 
 class EstimateSchema(Schema):
@@ -250,3 +283,7 @@ class InvertResponseSchema(Schema):
     x_min = number("Calibrated range: smallest x of the data.")
     x_max = number("Calibrated range: largest x of the data.")
     calibration = fields.Nested(CalibrationSchema)
+    working_range = fields.Nested(WorkingRangeSchema, allow_none=True, metadata={
+        "description": "logistic4/logistic5: the x range where the delta-method CV of a "
+                       "back-calculated x stays at or under cv_limit (precision profile; "
+                       "docs/fitted-model.md); null for other families."})

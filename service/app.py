@@ -5,6 +5,7 @@ from __future__ import annotations
 from flask import Flask
 
 from schemas.model_field import DOCUMENTED_MODELS, component_name
+from schemas.models import DOCUMENT_SCHEMAS
 from service import __version__
 from service.api import BLUEPRINT_MODULES
 from service.http import errors as error_handling
@@ -33,6 +34,10 @@ def create_app(overrides: dict | None = None) -> Flask:
         api.register_blueprint(module.blp)
     for schema in DOCUMENTED_MODELS:  # the model objects that ModelField's oneOf names
         name = component_name(schema)
+        if name not in api.spec.components.schemas:
+            api.spec.components.schema(name, schema=schema)
+    for schema in DOCUMENT_SCHEMAS.values():  # the layouts that FittedModelField's oneOf names
+        name = schema.__name__.removesuffix("Schema")
         if name not in api.spec.components.schemas:
             api.spec.components.schema(name, schema=schema)
     app.extensions["curvewise-api"] = api

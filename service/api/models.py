@@ -72,7 +72,20 @@ def invert_view(body):
                                beta=body["detection_beta"])
     return {"estimates": columns, "level": result.level, "monotone": result.monotone,
             "turning_points": list(result.turning_points), "x_min": result.x_min,
-            "x_max": result.x_max, "calibration": asdict(figures)}
+            "x_max": result.x_max, "calibration": asdict(figures),
+            "working_range": _working_range(entry, fitted, body)}
+
+
+def _working_range(entry, fitted, body) -> dict | None:
+    """The precision profile's working range (logistic calibrations), else None."""
+    if entry.precision_profile is None:
+        return None
+    m = body["replicates"] if isinstance(body["replicates"], int) else 1
+    profile = entry.precision_profile(fitted, cv_limit=body["cv_limit"], replicates=m)
+    if not profile.available:
+        return None
+    return {"cv_limit": profile.cv_limit, "replicates": m, "lower": profile.lower,
+            "upper": profile.upper}
 
 
 def _check_count(name: str, count: int) -> None:

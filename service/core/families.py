@@ -19,7 +19,14 @@ from types import MappingProxyType
 from typing import Any
 
 from service.core.errors import DocumentError, SpecError
-from service.core.models import calibration, document, inverse
+from service.core.models import (
+    calibration,
+    curve_document,
+    curve_inverse,
+    document,
+    inverse,
+    precision_profile,
+)
 from service.core.nonlinear import analysis as nonlinear_analysis
 from service.core.nonlinear import expression_family
 from service.core.nonlinear.builtin import fit as builtin_fit
@@ -72,6 +79,9 @@ class Family:
     parameters : tuple of ParameterInfo
         Each parameter's name, meaning (with unit) and constraint; empty when the
         caller names them.
+    precision_profile : callable or None
+        ``precision_profile(fitted, *, cv_limit, replicates)``: the working range of a
+        dose-response calibration (logistic4, logistic5); None otherwise.
     """
 
     name: str
@@ -91,6 +101,7 @@ class Family:
     generalizes: tuple[str, ...] = ()
     equation: str | None = None
     parameters: tuple[ParameterInfo, ...] = ()
+    precision_profile: Callable[..., Any] | None = None
 
 
 POLYNOMIAL = Family(
@@ -103,13 +114,19 @@ POLYNOMIAL = Family(
     sensitivity=calibration.sensitivity, figures_of_merit=calibration.figures_of_merit,
     compiled_batch=True, select_methods=SELECT_METHODS, transforms=TRANSFORMS)
 
+_CURVE_INVERSE = {"invert": curve_inverse.invert_curve,
+                  "sensitivity": curve_inverse.sensitivity,
+                  "figures_of_merit": curve_inverse.figures_of_merit}
+"""Reading a nonlinear curve backwards (where it is monotone over the calibrated range)."""
+
 EXPRESSION = Family(
     name="expression",
     description="The caller's own equation in x and named parameters (a plain arithmetic "
                 "expression), fitted by nonlinear least squares from given start values.",
     fitted_type=FittedCurve, fit=expression_family.fit_series,
     check_spec=expression_family.check_spec, predict=nonlinear_analysis.predict,
-    write_document=None, read_document=None)
+    write_document=curve_document.to_curve_document,
+    read_document=curve_document.from_curve_document, **_CURVE_INVERSE)
 
 
 
@@ -124,9 +141,12 @@ def _builtin(entry: Builtin) -> Family:
         name=entry.name, description=entry.description, fitted_type=FittedCurve,
         fit=partial(builtin_fit.fit_series, entry), check_spec=partial(builtin_spec.check_spec,
                                                                        entry),
-        predict=nonlinear_analysis.predict, write_document=None, read_document=None,
-        equation=entry.equation_text(), parameters=entry.parameters,
-        generalizes=NESTED_IN.get(entry.name, ()))
+        predict=nonlinear_analysis.predict, write_document=curve_document.to_curve_document,
+        read_document=curve_document.from_curve_document, equation=entry.equation_text(),
+        parameters=entry.parameters, **_CURVE_INVERSE,
+        generalizes=NESTED_IN.get(entry.name, ()),
+        precision_profile=(precision_profile.precision_profile
+                           if entry.name in precision_profile.PROFILE_FAMILIES else None))
 
 
 BUILTIN_FAMILIES = tuple(_builtin(entry) for entry in BUILTINS.values())

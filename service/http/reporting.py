@@ -124,6 +124,8 @@ def nonlinear_response(report: NonlinearReport, include) -> dict:
         body["grid"] = None if report.grid is None else prediction_section(report.grid)
     body["warnings"] = [plain(w) for w in report.warnings]
     body["flags"] = [plain(f) for f in report.flags]
+    if "fitted_model" in wanted:
+        body["fitted_model"] = family_of(fitted).write_document(fitted)
     return body
 
 

@@ -1,0 +1,265 @@
+"""Reading x back from an observed y with a nonlinear family's fitted curve.
+
+For a reading ``y0`` (the mean of ``m`` replicate readings) the estimate is the x
+in the calibrated range ``[x_min, x_max]`` where the fitted curve ``f`` equals
+``y0``, found by Brent's bracketed root finder on a sign change of ``f - y0``
+located on a dense grid (``GRID_POINTS`` over the range). Whether the curve is
+monotone over the range is judged on the same grid from its exact derivative
+``df/dx`` (:meth:`ExpressionModel.derivative_x`); where the slope changes sign the
+turning point is found by Brent's method on ``df/dx``.
+
+The calibration interval is the classical one (Eisenhart 1939, as for the
+polynomials; see :mod:`service.core.models.inverse`): the piece containing the
+estimate of the set of x whose band for the mean of ``m`` new readings
+(:func:`service.core.nonlinear.analysis.predict`, delta method) contains ``y0``.
+Each limit is where ``max(lower(x) - y0, y0 - upper(x))`` first turns positive
+moving away from the estimate, bracketed on the grid (and beyond the range on a
+geometric ladder up to ``FAR_WIDTHS`` range widths) and refined by Brent's method.
+
+A reading the curve reaches only outside the range is ``outside_range`` (that x
+in ``other_roots``); one it never reaches within ``FAR_WIDTHS`` range widths (beyond
+an asymptote) is ``no_real_root``. The statuses are those of the polynomials
+(:data:`service.core.models.inverse.STATUSES`).
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+from scipy import optimize
+
+from service.core.errors import DataError, SpecError
+from service.core.models.calibration import CalibrationFigures
+from service.core.models.inverse import InverseEstimate, Inversion, _replicates
+from service.core.nonlinear.analysis import predict
+from service.core.nonlinear.report import FittedCurve
+
+GRID_POINTS = 2049
+UNAVAILABLE = ("Detection and quantification limits are computed here for straight-line and "
+               "quadratic calibrations only.")
+FAR_WIDTHS = 1e6  # how far beyond the range a root or an interval limit is looked for
+_EPS = float(np.finfo(float).eps)
+
+
+def invert_curve(fitted: FittedCurve, y, *, replicates=1, level: float | None = None
+                 ) -> Inversion:
+    """Estimate x for each observed y, with classical calibration intervals.
+
+    Parameters
+    ----------
+    fitted : FittedCurve
+        The calibration curve of a nonlinear family.
+    y : array_like
+        Observed readings; each the mean of its ``replicates`` readings.
+    replicates : int or array_like of int
+        ``m`` for every reading, or one count per reading (>= 1).
+    level : float, optional
+        Interval level; defaults to the fit's level.
+
+    Returns
+    -------
+    Inversion
+        ``monotone`` and ``turning_points`` judged over the calibrated range.
+
+    Raises
+    ------
+    SpecError
+        Bad level, replicates, or a range of a single point.
+    DataError
+        Non-finite readings.
+    """
+    level = fitted.level if level is None else float(level)
+    if not 0 < level < 1:
+        raise SpecError("level must lie strictly between 0 and 1.", field="level",
+                        fix="Use e.g. 0.95.")
+    if not fitted.x_min < fitted.x_max:
+        raise SpecError("A curve fitted at a single x cannot be read backwards.",
+                        field="fitted_model.x_min", fix="Fit the calibration at several x.")
+    y = np.atleast_1d(np.asarray(y, dtype=float))
+    if not np.all(np.isfinite(y)):
+        bad = int(np.flatnonzero(~np.isfinite(y))[0])
+        raise DataError(f"y[{bad}] is not a finite number.", field=f"y[{bad}]",
+                        fix="Send finite readings only.")
+    m = _replicates(replicates, len(y))
+    with np.errstate(all="ignore"):
+        reader = _CurveReader(fitted, level)
+        estimates = tuple(reader.read(float(y0), int(k)) for y0, k in zip(y, m, strict=True))
+    return Inversion(estimates, level, reader.monotone, reader.turning_points,
+                     fitted.x_min, fitted.x_max)
+
+
+def sensitivity(fitted: FittedCurve, x) -> np.ndarray:
+    """Slope ``dy/dx`` of the fitted curve at each x (exact derivative of the equation)."""
+    with np.errstate(all="ignore"):
+        return fitted.model.derivative_x(np.atleast_1d(np.asarray(x, dtype=float)),
+                                         fitted.estimates)
+
+
+def figures_of_merit(fitted: FittedCurve, *, alpha: float = 0.05, beta: float = 0.05
+                     ) -> CalibrationFigures:
+    """Not available for nonlinear curves yet: every figure NaN, with the reason."""
+    nan = math.nan
+    return CalibrationFigures(False, UNAVAILABLE, nan, float(fitted.sigma), nan, nan, alpha,
+                              beta, nan, nan, nan, not (fitted.x_min <= 0.0 <= fitted.x_max))
+
+
+class _CurveReader:
+    """The grid, monotonicity and per-reading root and interval search of one curve."""
+
+    def __init__(self, fitted: FittedCurve, level: float) -> None:
+        self.fitted, self.level = fitted, level
+        self.lo, self.hi = fitted.x_min, fitted.x_max
+        self.width = self.hi - self.lo
+        self.grid = _grid(self.lo, self.hi)
+        self.values = self.f(self.grid)
+        slope = sensitivity(fitted, self.grid)
+        finite = np.all(np.isfinite(self.values)) and np.all(np.isfinite(slope))
+        signs = np.sign(slope)
+        self.monotone = bool(finite and (np.all(signs > 0) or np.all(signs < 0)))
+        self.turning_points = self._turning(slope) if finite else ()
+        self._bands: dict[int, tuple[np.ndarray, np.ndarray]] = {}
+
+    def f(self, x) -> np.ndarray:
+        return self.fitted.model.values(np.atleast_1d(np.asarray(x, dtype=float)),
+                                        self.fitted.estimates)
+
+    def _turning(self, slope: np.ndarray) -> tuple[float, ...]:
+        change = np.flatnonzero(np.sign(slope[:-1]) * np.sign(slope[1:]) < 0)
+        return tuple(_brent(lambda x: float(sensitivity(self.fitted, [x])[0]),
+                            self.grid[i], self.grid[i + 1]) for i in change)
+
+    # --- the estimate
+    def read(self, y0: float, m: int) -> InverseEstimate:
+        gap = self.values - y0
+        inside = _crossings(self.grid, gap, lambda x: float(self.f([x])[0] - y0))
+        if not inside:
+            outside = self._outside_root(y0)
+            status = "no_real_root" if outside is None else "outside_range"
+            others = () if outside is None else (outside,)
+            return InverseEstimate(y0, m, math.nan, math.nan, math.nan, status, others)
+        if len(inside) > 1:
+            return InverseEstimate(y0, m, math.nan, math.nan, math.nan,
+                                   "multiple_roots_in_range", tuple(inside))
+        x_hat = inside[0]
+        lower, upper, status = self._interval(x_hat, y0, m)
+        if not self.monotone:
+            status = "not_monotone"
+        return InverseEstimate(y0, m, x_hat, lower, upper, status, ())
+
+    def _outside_root(self, y0: float) -> float | None:
+        """The nearest x beyond the range where the curve reaches ``y0``, or None."""
+        for end, ladder in ((self.lo, self._ladder(-1)), (self.hi, self._ladder(+1))):
+            found = _first_crossing(end, ladder, lambda x: float(self.f([x])[0] - y0))
+            if found is not None:
+                return found
+        return None
+
+    def _ladder(self, direction: int) -> np.ndarray:
+        """Points beyond one end, outward: a geometric ladder of range widths, and (towards
+        zero from a positive x_min) halvings of x_min, so curves defined for x > 0 are probed
+        up to their edge."""
+        end = self.hi if direction > 0 else self.lo
+        steps = end + direction * self.width * 2.0 ** np.arange(-12, math.log2(FAR_WIDTHS) + 1)
+        if direction < 0 and self.lo > 0:
+            steps = np.concatenate([steps[steps > 0], self.lo * 2.0 ** -np.arange(1, 60),
+                                    [0.0]])
+            steps = np.sort(steps)[::-1]
+        return steps
+
+    # --- the interval
+    def _band(self, m: int) -> tuple[np.ndarray, np.ndarray]:
+        if m not in self._bands:
+            band = predict(self.fitted, self.grid, level=self.level, m=m)
+            self._bands[m] = (np.asarray(band.obs_lower), np.asarray(band.obs_upper))
+        return self._bands[m]
+
+    def outside_band(self, x: float, y0: float, m: int) -> float:
+        """``max(lower - y0, y0 - upper)`` of the band for the mean of m readings at x:
+        negative where the band contains y0."""
+        band = predict(self.fitted, [x], level=self.level, m=m)
+        return float(max(band.obs_lower[0] - y0, y0 - band.obs_upper[0]))
+
+    def _interval(self, x_hat: float, y0: float, m: int) -> tuple[float, float, str]:
+        lower, upper = self._band(m)
+        if not (np.all(np.isfinite(lower)) and np.all(np.isfinite(upper))):
+            return math.nan, math.nan, "interval_undefined"
+        h = np.maximum(lower - y0, y0 - upper)
+
+        def h_at(x):
+            return self.outside_band(x, y0, m)
+
+        limits = []
+        for direction in (-1, +1):
+            side = (self.grid < x_hat) if direction < 0 else (self.grid > x_hat)
+            xs, hs = self.grid[side], h[side]
+            if direction < 0:
+                xs, hs = xs[::-1], hs[::-1]
+            out = np.flatnonzero(hs > 0)
+            if out.size:
+                k = int(out[0])
+                near = x_hat if k == 0 else float(xs[k - 1])
+                limits.append(_brent(h_at, *sorted((near, float(xs[k])))))
+            else:
+                end = self.lo if direction < 0 else self.hi
+                limits.append(_first_crossing(end, self._ladder(direction), h_at))
+        lo_x = math.nan if limits[0] is None else limits[0]
+        hi_x = math.nan if limits[1] is None else limits[1]
+        if limits[0] is None or limits[1] is None:
+            return lo_x, hi_x, "interval_unbounded"
+        if lo_x < self.lo or hi_x > self.hi:
+            return lo_x, hi_x, "interval_exceeds_range"
+        elsewhere = (self.grid < lo_x) | (self.grid > hi_x)
+        if np.any(h[elsewhere] <= 0):
+            return lo_x, hi_x, "interval_disjoint"
+        return lo_x, hi_x, "ok"
+
+
+def _grid(lo: float, hi: float) -> np.ndarray:
+    """``GRID_POINTS`` equally spaced over the range, joined (for a positive range) by as
+    many geometrically spaced: dose-response curves on a dose axis spanning decades turn
+    in the first few percent of the range."""
+    grid = np.linspace(lo, hi, GRID_POINTS)
+    if lo > 0:
+        grid = np.union1d(grid, np.geomspace(lo, hi, GRID_POINTS))
+        grid[0], grid[-1] = lo, hi
+    return grid
+
+
+def _crossings(grid: np.ndarray, gap: np.ndarray, fn) -> list[float]:
+    """Every x in the range where ``gap`` (fn on the grid) is zero or changes sign."""
+    roots = []
+    for i in np.flatnonzero(gap == 0.0):
+        roots.append(float(grid[i]))
+    for i in np.flatnonzero(np.sign(gap[:-1]) * np.sign(gap[1:]) < 0):
+        roots.append(_brent(fn, grid[i], grid[i + 1]))
+    return sorted(roots)
+
+
+def _first_crossing(start: float, ladder: np.ndarray, fn) -> float | None:
+    """The first sign change of ``fn`` walking from ``start`` along ``ladder`` (outward),
+    skipping points where fn is not finite; refined by Brent's method."""
+    previous, value = start, fn(start)
+    if not math.isfinite(value):
+        return None
+    for x in ladder:
+        current = fn(float(x))
+        if not math.isfinite(current):
+            continue
+        if current == 0.0:
+            return float(x)
+        if (current > 0) != (value > 0):
+            a, b = sorted((previous, float(x)))
+            return _brent(fn, a, b)
+        previous, value = float(x), current
+    return None
+
+
+def _brent(fn, a: float, b: float) -> float:
+    """Brent's method on a bracket found on a grid; when re-evaluating an end at one point
+    lands on the other side by rounding (no sign change left), the end nearer zero."""
+    fa, fb = fn(a), fn(b)
+    if not (math.isfinite(fa) and math.isfinite(fb)) or fa * fb > 0:
+        return float(a if abs(fa) <= abs(fb) or not math.isfinite(fb) else b)
+    xtol = 4 * _EPS * max(abs(a), abs(b), 1e-300)
+    return float(optimize.brentq(fn, a, b, xtol=xtol, rtol=4 * _EPS, maxiter=200))
