@@ -253,7 +253,8 @@ class EstimateSchema(Schema):
 
 
 class CalibrationSchema(Schema):
-    """Figures of merit of a straight-line or quadratic calibration (formulas in docs)."""
+    """Figures of merit of a calibration: straight-line and quadratic polynomials, and
+    nonlinear curves monotone from the blank (formulas in docs)."""
 
     available = fields.Boolean(metadata={"description": "False when not defined for this model."})
     reason = text("Why the figures are not available (empty when available).")

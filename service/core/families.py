@@ -22,6 +22,7 @@ from service.core.errors import DocumentError, SpecError
 from service.core.models import (
     calibration,
     curve_document,
+    curve_figures,
     curve_inverse,
     document,
     inverse,
@@ -116,7 +117,7 @@ POLYNOMIAL = Family(
 
 _CURVE_INVERSE = {"invert": curve_inverse.invert_curve,
                   "sensitivity": curve_inverse.sensitivity,
-                  "figures_of_merit": curve_inverse.figures_of_merit}
+                  "figures_of_merit": curve_figures.figures_of_merit}
 """Reading a nonlinear curve backwards (where it is monotone over the calibrated range)."""
 
 EXPRESSION = Family(

@@ -30,14 +30,11 @@ import numpy as np
 from scipy import optimize
 
 from service.core.errors import DataError, SpecError
-from service.core.models.calibration import CalibrationFigures
 from service.core.models.inverse import InverseEstimate, Inversion, _replicates
 from service.core.nonlinear.analysis import predict
 from service.core.nonlinear.report import FittedCurve
 
 GRID_POINTS = 2049
-UNAVAILABLE = ("Detection and quantification limits are computed here for straight-line and "
-               "quadratic calibrations only.")
 FAR_WIDTHS = 1e6  # how far beyond the range a root or an interval limit is looked for
 _EPS = float(np.finfo(float).eps)
 
@@ -94,14 +91,6 @@ def sensitivity(fitted: FittedCurve, x) -> np.ndarray:
     with np.errstate(all="ignore"):
         return fitted.model.derivative_x(np.atleast_1d(np.asarray(x, dtype=float)),
                                          fitted.estimates)
-
-
-def figures_of_merit(fitted: FittedCurve, *, alpha: float = 0.05, beta: float = 0.05
-                     ) -> CalibrationFigures:
-    """Not available for nonlinear curves yet: every figure NaN, with the reason."""
-    nan = math.nan
-    return CalibrationFigures(False, UNAVAILABLE, nan, float(fitted.sigma), nan, nan, alpha,
-                              beta, nan, nan, nan, not (fitted.x_min <= 0.0 <= fitted.x_max))
 
 
 class _CurveReader:

@@ -91,8 +91,9 @@ def precision_profile(fitted: FittedCurve, *, cv_limit: float = DEFAULT_CV_LIMIT
                                 "undefined.", cv_limit, replicates, empty, empty, math.nan,
                                 math.nan)
     start = fitted.x_min if fitted.x_min > 0 else fitted.x_max * 1e-6
-    grid = np.union1d(np.geomspace(start, fitted.x_max, GRID_POINTS),
-                      np.linspace(start, fitted.x_max, GRID_POINTS))
+    grid = np.linspace(start, fitted.x_max, GRID_POINTS)
+    if start > 0:
+        grid = np.union1d(grid, np.geomspace(start, fitted.x_max, GRID_POINTS))
     cv = back_calculated_cv(fitted, grid, replicates=replicates)
     good = np.isfinite(cv) & (cv <= cv_limit)
     if not good.any():
