@@ -15,12 +15,9 @@ weighted residual sum of squares.
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import TYPE_CHECKING, NamedTuple
+from typing import Any, NamedTuple
 
 import numpy as np
-
-if TYPE_CHECKING:
-    from service.core.nonlinear.problem import Problem
 
 FloatArray = np.ndarray  # read-only float64
 
@@ -77,7 +74,7 @@ class Solution:
     evaluations.
     """
 
-    problem: Problem
+    problem: Any  # the service.core.nonlinear.problem.Problem it solved (built on these types)
     parameter_names: tuple[str, ...]
     start: FloatArray
     estimates: FloatArray
