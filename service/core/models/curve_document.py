@@ -22,7 +22,7 @@ from typing import Any
 import numpy as np
 
 from service.core.errors import SpecError
-from service.core.models.canonical import CHECKSUM_PREFIX, checksum, to_float, to_matrix, to_vector
+from service.core.models.canonical import checksum, to_float, to_matrix, to_vector
 from service.core.models.reader import DocumentReader
 from service.core.nonlinear.builtin.catalogue import BUILTINS
 from service.core.nonlinear.expression import compile_model
@@ -143,6 +143,8 @@ def _nan(value: float | None) -> float:
 class CurveReader(DocumentReader):
     """Field-by-field validation of a schema_version 2 document, naming the field."""
 
+    fields = CURVE_FIELDS
+
     def read(self) -> dict:
         doc = self.doc
         if not isinstance(doc, Mapping):
@@ -152,16 +154,7 @@ class CurveReader(DocumentReader):
             self.fail("schema_version", f"A {doc.get('family')!r} document must have "
                       f"schema_version {SCHEMA_VERSION}, got {version!r}.",
                       "Refit with this service to get a current document.")
-        unknown = sorted(str(key) for key in doc if key not in CURVE_FIELDS)
-        if unknown:
-            self.fail(unknown[0], f"Unknown field {unknown[0]!r} in a schema_version "
-                      f"{SCHEMA_VERSION} document.", "Remove fields that /v1/fit did not write.")
-        for name in CURVE_FIELDS:
-            if name not in doc:
-                self.fail(name, f"The document is missing the required field {name!r}.",
-                          "Send the fitted_model object unchanged, with every field.")
-        values = {name: getattr(self, "_" + kind)(name, doc[name])
-                  for name, kind in CURVE_FIELDS.items()}
+        values = self.read_fields(SCHEMA_VERSION)
         self._check_curve_scalars(values)
         return values
 
@@ -229,12 +222,6 @@ class CurveReader(DocumentReader):
                       "writes.", _KEEP)
         return model
 
-    def check_checksum(self, v) -> None:
-        given = v["checksum"]
-        if not (given.startswith(CHECKSUM_PREFIX) and len(given) == len(CHECKSUM_PREFIX) + 64):
-            self.fail("checksum", "checksum must be 'sha256:' followed by 64 hex digits.", _KEEP)
-        if given != checksum(v):
-            self.fail("checksum",
-                      "The checksum does not match the document's content: a field was changed "
-                      "after the fit (hand edit, truncation or lossy number formatting).",
-                      "Send the fitted_model object unchanged, or refit to get a new one.")
+    def checksum_body(self, v: dict) -> dict:
+        """The values as the writer summed them (read back unchanged)."""
+        return v

@@ -55,6 +55,8 @@ FIELDS: dict[str, str] = {
 class DocumentReader:
     """Field-by-field validation with errors that name the field."""
 
+    fields: Mapping[str, str] = FIELDS  # the layout read: field name -> typed reader
+
     def __init__(self, doc, prefix: str) -> None:
         self.doc = doc
         self.prefix = prefix
@@ -77,17 +79,24 @@ class DocumentReader:
                       f"Unsupported schema_version {version!r}; this service reads "
                       f"{', '.join(map(str, SUPPORTED_VERSIONS))}.",
                       "Refit with this service to get a current document.")
-        unknown = sorted(str(key) for key in doc if key not in FIELDS)
+        values = self.read_fields(version)
+        self._check_scalars(values)
+        return values
+
+    def read_fields(self, version: int) -> dict:
+        """Every field of :attr:`fields`, read by its typed reader; unknown or missing
+        fields are refused naming them."""
+        doc = self.doc
+        unknown = sorted(str(key) for key in doc if key not in self.fields)
         if unknown:
             self.fail(unknown[0], f"Unknown field {unknown[0]!r} in a schema_version "
                       f"{version} document.", "Remove fields that /v1/fit did not write.")
-        for name in FIELDS:
+        for name in self.fields:
             if name not in doc:
                 self.fail(name, f"The document is missing the required field {name!r}.",
                           "Send the fitted_model object unchanged, with every field.")
-        values = {name: getattr(self, "_" + kind)(name, doc[name]) for name, kind in FIELDS.items()}
-        self._check_scalars(values)
-        return values
+        return {name: getattr(self, "_" + kind)(name, doc[name])
+                for name, kind in self.fields.items()}
 
     # --- typed readers
     def _int(self, name, value):
@@ -248,14 +257,18 @@ class DocumentReader:
             self.fail("x_scale", "x_shift and x_scale do not map [x_min, x_max] onto "
                       "[-1, 1] as /v1/fit writes them.", keep)
 
+    def checksum_body(self, v: dict) -> dict:
+        """The values as the writer summed them (sigma through the writer's number helper)."""
+        body = dict(v)
+        body["sigma"] = to_float(body["sigma"])
+        return body
+
     def check_checksum(self, v) -> None:
         given = v["checksum"]
         if not (given.startswith(CHECKSUM_PREFIX) and len(given) == len(CHECKSUM_PREFIX) + 64):
             self.fail("checksum", "checksum must be 'sha256:' followed by 64 hex digits.",
                       "Send the fitted_model object exactly as /v1/fit returned it.")
-        body = dict(v)
-        body["sigma"] = to_float(body["sigma"])
-        if given != checksum(body):
+        if given != checksum(self.checksum_body(v)):
             self.fail("checksum",
                       "The checksum does not match the document's content: a field was changed "
                       "after the fit (hand edit, truncation or lossy number formatting).",
