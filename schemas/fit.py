@@ -91,8 +91,8 @@ class FitRequestSchema(StrictSchema):
                        "up to a common factor, sigma estimated from the residuals) or known_sd "
                        "(weights are 1/SD² of a known measurement error: sigma is not "
                        "rescaled, limits use the normal distribution and a chi-square "
-                       "goodness-of-fit test is reported). known_sd applies to the nonlinear "
-                       "families.", load_default="relative")
+                       "goodness-of-fit test is reported; weights are then required).",
+                       load_default="relative")
     include = fields.List(
         choice(SECTIONS, "A response section."),
         load_default=lambda: list(SECTIONS),

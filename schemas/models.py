@@ -87,6 +87,10 @@ class FittedModelSchema(StrictSchema):
     weighted = StrictBoolean(required=True,
                              metadata={"description": "Fitted with weights." + _KEEP})
     level = _doc_float("Default confidence level for predictions and intervals.")
+    weighting = StrictString(validate=validate.OneOf(["known_sd"]), metadata={
+        "description": "Present only for fits with known measurement SDs (weighting "
+                       "known_sd): sigma is then 1 and limits use the normal distribution. "
+                       "Absent means relative weights." + _KEEP})
     checksum = StrictString(required=True, metadata={
         "description": "'sha256:' + hex SHA-256 of the canonical form of every other field "
                        "(docs/fitted-model.md). A changed document is refused with 422."})

@@ -13,7 +13,7 @@ import numpy as np
 
 from service.core.data.pair_summary import pair_summary
 from service.core.errors import DataError, SpecError
-from service.core.spec import MISSING_POLICIES, SECTIONS, FitOptions
+from service.core.spec import MISSING_POLICIES, SECTIONS, WEIGHTINGS, FitOptions
 
 
 class CleanData(NamedTuple):
@@ -209,3 +209,6 @@ def check_options(options: FitOptions) -> None:
     if unknown:
         raise SpecError(f"Unknown section(s) in include: {sorted(unknown)}.", field="include",
                         fix=f"Use names from {', '.join(SECTIONS)}.")
+    if options.weighting not in WEIGHTINGS:
+        raise SpecError(f"Unknown weighting {options.weighting!r}.", field="weighting",
+                        fix=f"Use one of {', '.join(WEIGHTINGS)}.")
