@@ -112,7 +112,7 @@ class Client:
              degree: int | None = None, max_degree: int | None = None,
              select: str | None = None, grid: Mapping[str, Any] | None = None,
              level: float | None = None, missing: str | None = None,
-             weighting: str | None = None) -> Figure:
+             weighting: str | None = None, include: Sequence[str] | None = None) -> Figure:
         """Render a figure of a fit (``POST /v1/plot``); the fit keywords as for :meth:`fit`.
 
         Panels: ``fit``, ``studentized_residuals``, ``influence``, ``spread``,
@@ -126,7 +126,7 @@ class Client:
                 "title": title, "x_label": x_label, "y_label": y_label}
         body = fit_body(x, y, weights=weights, model=model, degree=degree,
                         max_degree=max_degree, select=select, grid=grid, level=level,
-                        missing=missing, weighting=weighting)
+                        missing=missing, weighting=weighting, include=include)
         body["plot"] = {k: v for k, v in plot.items() if v is not None}
         response = self._request("POST", "/v1/plot", encode(body), accept=IMAGE_TYPES[format])
         data = response.read()
