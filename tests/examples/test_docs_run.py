@@ -291,3 +291,11 @@ def test_make_test_lints_and_runs_the_suite():
                          timeout=30, check=True).stdout
     assert re.search(r"ruff check service schemas client tests", dry), dry
     assert re.search(r"\.venv/bin/python -m pytest\s*$", dry, re.MULTILINE), dry
+
+
+def test_problem_answers_in_printed_output_are_found():
+    """The check behind "a block fails when it prints a problem": top-level objects only."""
+    printed = ('{"n": 3, "results": [{"status": 422, "title": "nested, not an answer"}]}\n'
+               'not json {"type": "/problems/x", "title": "Invalid", "status": 422}')
+    assert [p["title"] for p in _problems(printed)] == ["Invalid"]
+    assert _problems('{"status": 200, "title": "fine"}') == []
