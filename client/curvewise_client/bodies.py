@@ -29,15 +29,13 @@ def fit_body(x: Any, y: Any, *, weights: Any = None, model: Mapping[str, Any] | 
              weighting: str | None = None, include: Sequence[str] | None = None
              ) -> dict[str, Any]:
     """The ``/v1/fit`` request body as a dict (shortcuts merged into ``model``)."""
-    if model is not None and not isinstance(model, Mapping):
-        raise InputError(f"model must be a mapping such as {{'degree': 2}}, "
-                         f"not a {type(model).__name__}")
-    spec = dict(model or {})
+    spec = mapping(model, "model", "{'degree': 2}") or {}
     spec.update(drop_none(degree=degree, max_degree=max_degree, select=select))
     body: dict[str, Any] = {"x": numbers(x, "x"), "y": numbers(y, "y")}
     if weights is not None:
         body["weights"] = numbers(weights, "weights")
-    body.update(drop_none(model=spec or None, grid=dict(grid) if grid else None, level=level,
+    body.update(drop_none(model=spec or None, grid=mapping(grid, "grid", "{'count': 200}") or None,
+                          level=level,
                           missing=missing, weighting=weighting,
                           include=strings(include, "include")))
     return body
@@ -141,7 +139,21 @@ def strings(values: Any, name: str) -> list[str] | None:
         return None
     if isinstance(values, str):
         raise InputError(f"{name} must be a list of names, e.g. [{values!r}], not one string")
-    return list(values.tolist() if hasattr(values, "tolist") else values)
+    try:
+        return list(values.tolist() if hasattr(values, "tolist") else values)
+    except TypeError:
+        raise InputError(f"{name} must be a list of names, not a {type(values).__name__}"
+                         ) from None
+
+
+def mapping(value: Any, name: str, example: str) -> dict[str, Any] | None:
+    """A request member that is a JSON object (``model``, ``grid``), as a new dict."""
+    if value is None:
+        return None
+    if not isinstance(value, Mapping):
+        raise InputError(f"{name} must be a mapping such as {example}, "
+                         f"not a {type(value).__name__}")
+    return dict(value)
 
 
 def drop_none(**members: Any) -> dict[str, Any]:

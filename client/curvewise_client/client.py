@@ -13,6 +13,7 @@ from curvewise_client.bodies import (
     drop_none,
     encode,
     fit_body,
+    mapping,
     numbers,
     series_body,
     strings,
@@ -76,6 +77,11 @@ class Client:
                              f"not {base_url!r}")
         if isinstance(retries, bool) or not isinstance(retries, int) or not 0 <= retries <= 10:
             raise InputError(f"retries must be an integer between 0 and 10, not {retries!r}")
+        _seconds("timeout", timeout, least=0.0, equal=False)
+        _seconds("backoff", backoff)
+        _seconds("backoff_cap", backoff_cap)
+        if token is not None and not isinstance(token, str):
+            raise InputError(f"token must be a string, not a {type(token).__name__}")
         self.base_url = base_url.rstrip("/")
         self.token = token
         self.timeout = timeout
@@ -84,6 +90,11 @@ class Client:
         self.backoff_cap = backoff_cap
         self.transport = transport if transport is not None else HTTPTransport()
         self._sleep = sleep
+
+    def __repr__(self) -> str:
+        auth = ", token=***" if self.token else ""
+        return (f"Client({self.base_url!r}{auth}, timeout={self.timeout}, "
+                f"retries={self.retries}, transport={type(self.transport).__name__})")
 
     # -- endpoints: every keyword is a wire member (a misspelt one is a TypeError, unsent) ---
 
@@ -267,6 +278,13 @@ class Client:
 
 
 
+def _seconds(name: str, value: Any, least: float = 0.0, equal: bool = True) -> None:
+    if isinstance(value, bool) or not isinstance(value, (int, float)) or not (
+            value >= least if equal else value > least):
+        raise InputError(f"{name} must be a number of seconds {'>=' if equal else '>'} {least:g},"
+                         f" not {value!r}")
+
+
 def _iterable(series: Any) -> Any:
     if isinstance(series, (str, bytes, Mapping)) or not hasattr(series, "__iter__"):
         raise InputError("series must be a list (or an iterator) of series mappings such as "
@@ -277,11 +295,9 @@ def _iterable(series: Any) -> Any:
 def _shared(*, model: Mapping[str, Any] | None, include: Sequence[str] | None,
             grid: Mapping[str, Any] | None, **members: Any) -> dict[str, Any]:
     """The shared members of a batch request, None left out."""
-    if model is not None and not isinstance(model, Mapping):
-        raise InputError(f"model must be a mapping such as {{'max_degree': 3}}, "
-                         f"not a {type(model).__name__}")
-    return drop_none(model=dict(model) if model else None, include=strings(include, "include"),
-                     grid=dict(grid) if grid else None, **members)
+    return drop_none(model=mapping(model, "model", "{'max_degree': 3}") or None,
+                     include=strings(include, "include"),
+                     grid=mapping(grid, "grid", "{'count': 200}") or None, **members)
 
 
 def _api_error(response: Response) -> ApiError:

@@ -101,6 +101,10 @@ NOT_SENT = [
     ("series array", lambda c: c.batch([{"id": 1, "x": "12", "y": [1, 2]}]), r"series\[0\]\.x"),
     ("fit without document", lambda c: c.predict(FitResult(), [1.0]), "no fitted_model"),
     ("document not a mapping", lambda c: c.invert("doc", [1.0]), "fitted_model must be"),
+    ("grid a list", lambda c: c.fit([1, 2], [1, 2], grid=[1, 2]), "grid must be a mapping"),
+    ("batch grid a list", lambda c: c.batch([], grid=[1]), "grid must be a mapping"),
+    ("batch model a number", lambda c: c.batch([], model=3), "model must be a mapping"),
+    ("panels a number", lambda c: c.plot([1, 2], [1, 2], panels=3), "panels must be a list"),
     ("object in an option", lambda c: c.fit([1, 2], [1, 2], grid={"x": object()}),
      "cannot send a object"),
 ]
@@ -122,12 +126,19 @@ def test_a_streamed_batch_refuses_a_bad_series_as_an_input_error():
 
 
 @pytest.mark.parametrize("kwargs, message", [
-    ({"retries": 11}, "retries"), ({"retries": -1}, "retries"), ({"retries": 1.5}, "retries")])
+    ({"retries": 11}, "retries"), ({"retries": -1}, "retries"), ({"retries": 1.5}, "retries"),
+    ({"timeout": 0}, "timeout"), ({"timeout": "30"}, "timeout"), ({"backoff": -1}, "backoff"),
+    ({"backoff_cap": None}, "backoff_cap"), ({"token": 123}, "token")])
 def test_client_settings_are_checked(kwargs, message):
     with pytest.raises(InputError, match=message):
         Client("http://t", **kwargs)
     with pytest.raises(InputError, match="base_url"):
         Client("127.0.0.1:8000")
+
+
+def test_the_client_repr_names_its_server_but_never_its_token():
+    text = repr(Client("http://svc.test:8080/", token="s3cret", retries=1))
+    assert "http://svc.test:8080" in text and "s3cret" not in text and "retries=1" in text
 
 
 def _public_methods():
