@@ -187,3 +187,19 @@ def document(fitted_model: Mapping[str, Any] | FitResult) -> dict[str, Any]:
         raise InputError("fitted_model must be the fitted_model mapping of a /v1/fit answer "
                          f"(or the FitResult), not a {type(fitted_model).__name__}")
     return thaw(fitted_model)
+
+
+def iterable_series(series: Any) -> Any:
+    """``series`` of a batch, checked to be a list or an iterator (not one mapping)."""
+    if isinstance(series, (str, bytes, Mapping)) or not hasattr(series, "__iter__"):
+        raise InputError("series must be a list (or an iterator) of series mappings such as "
+                         f"{{'id': 'a', 'x': [...], 'y': [...]}}, not a {type(series).__name__}")
+    return series
+
+
+def shared_members(*, model: Mapping[str, Any] | None, include: Sequence[str] | None,
+            grid: Mapping[str, Any] | None, **members: Any) -> dict[str, Any]:
+    """The shared members of a batch request, None left out."""
+    return drop_none(model=mapping(model, "model", "{'max_degree': 3}") or None,
+                     include=strings(include, "include"),
+                     grid=mapping(grid, "grid", "{'count': 200}") or None, **members)

@@ -13,9 +13,10 @@ from curvewise_client.bodies import (
     drop_none,
     encode,
     fit_body,
-    mapping,
+    iterable_series,
     numbers,
     series_body,
+    shared_members,
     strings,
 )
 from curvewise_client.errors import (
@@ -155,8 +156,8 @@ class Client:
         Each series is a mapping with ``id``, ``x``, ``y`` and optionally ``weights`` and
         ``model``; the keywords are the shared request members of the same name.
         """
-        body = {"series": [series_body(s, i) for i, s in enumerate(_iterable(series))],
-                **_shared(model=model, detail=detail, level=level, missing=missing,
+        body = {"series": [series_body(s, i) for i, s in enumerate(iterable_series(series))],
+                **shared_members(model=model, detail=detail, level=level, missing=missing,
                           include=include, grid=grid)}
         return build(BatchResult, self._json("POST", "/v1/batch", body))
 
@@ -171,9 +172,9 @@ class Client:
         consumed lazily while results come back. Shared options (``model``,
         ``detail``...) travel in the first line as ``{"options": {...}}``.
         """
-        shared = _shared(model=model, detail=detail, level=level, missing=missing,
+        shared = shared_members(model=model, detail=detail, level=level, missing=missing,
                          include=include, grid=grid)
-        series = _iterable(series)
+        series = iterable_series(series)
         first_line = encode({"options": shared}) + b"\n" if shared else b""
 
         def lines() -> Iterator[bytes]:
@@ -283,21 +284,6 @@ def _seconds(name: str, value: Any, least: float = 0.0, equal: bool = True) -> N
             value >= least if equal else value > least):
         raise InputError(f"{name} must be a number of seconds {'>=' if equal else '>'} {least:g},"
                          f" not {value!r}")
-
-
-def _iterable(series: Any) -> Any:
-    if isinstance(series, (str, bytes, Mapping)) or not hasattr(series, "__iter__"):
-        raise InputError("series must be a list (or an iterator) of series mappings such as "
-                         f"{{'id': 'a', 'x': [...], 'y': [...]}}, not a {type(series).__name__}")
-    return series
-
-
-def _shared(*, model: Mapping[str, Any] | None, include: Sequence[str] | None,
-            grid: Mapping[str, Any] | None, **members: Any) -> dict[str, Any]:
-    """The shared members of a batch request, None left out."""
-    return drop_none(model=mapping(model, "model", "{'max_degree': 3}") or None,
-                     include=strings(include, "include"),
-                     grid=mapping(grid, "grid", "{'count': 200}") or None, **members)
 
 
 def _api_error(response: Response) -> ApiError:
