@@ -198,7 +198,7 @@ def iterable_series(series: Any) -> Any:
 
 
 def shared_members(*, model: Mapping[str, Any] | None, include: Sequence[str] | None,
-            grid: Mapping[str, Any] | None, **members: Any) -> dict[str, Any]:
+                   grid: Mapping[str, Any] | None, **members: Any) -> dict[str, Any]:
     """The shared members of a batch request, None left out."""
     return drop_none(model=mapping(model, "model", "{'max_degree': 3}") or None,
                      include=strings(include, "include"),
