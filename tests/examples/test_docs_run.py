@@ -63,7 +63,8 @@ NOT_RUN = {
 
 # Blocks known to fail as written, being fixed on another branch; matched by their text and
 # not run (the one below waits 30 s for a scheduler that is not there), so a rewritten block
-# is run normally again and this entry goes stale (test_every_skip_is_used says so).
+# is run normally again and this entry goes stale
+# (test_every_command_block_is_labelled_and_every_skip_is_used says so).
 EXPECTED_TO_FAIL = {
     ("docs/scaling.md", 'Client("tcp://scheduler:8786")'):
         "the Dask-to-Parquet example needs a scheduler at tcp://scheduler:8786 and "
@@ -236,7 +237,7 @@ def test_every_command_of_the_doc_runs_as_written(doc, docs_server, tmp_path):
     assert ran
 
 
-def test_the_examples_write_only_into_the_folder_they_run_in():
+def test_the_files_the_examples_write_are_git_ignored():
     """The files the docs' commands write are git-ignored in a checkout, where readers run them."""
     written = set()
     for doc in DOCS:
