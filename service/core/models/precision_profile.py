@@ -52,10 +52,10 @@ from service.core.nonlinear.report import FittedCurve
 
 PROFILE_FAMILIES = ("logistic4", "logistic5")
 DEFAULT_CV_LIMIT = 0.20  # common practice in bioanalytical method validation
-GRID_POINTS = 513        # profile grid: as many equally and geometrically spaced points
-TABLE_POINTS = 1025      # band table over the range, before the ladders beyond it
+GRID_POINTS = 257        # profile grid: as many equally and geometrically spaced points
+TABLE_POINTS = 513       # band table over the range, before the ladders beyond it
 FAR_WIDTHS = 2.0 ** 20   # how far beyond the range an interval end is looked for
-BISECTIONS = 64          # halvings of each end's bracket (a bracket of 2x: below 1 ulp)
+BISECTIONS = 100         # most steps of each end's bracketed search (ends a few ulps apart)
 
 
 @dataclass(frozen=True, slots=True)
@@ -230,13 +230,36 @@ def _table(lo: float, hi: float) -> np.ndarray:
 
 
 def _bisect(fn, near: np.ndarray, far: np.ndarray) -> np.ndarray:
-    """Vectorized bisection for the points where ``fn`` turns non-negative between ``near``
-    (negative) and ``far`` (non-negative; NaN counts as outside)."""
+    """Vectorized bracketed root finding for the points where ``fn`` turns non-negative
+    between ``near`` (negative) and ``far`` (non-negative; NaN counts as outside; either may
+    be the larger): the
+    Illinois variant of regula falsi (superlinear; a secant point that is not strictly
+    inside its bracket, or not finite, is replaced by the midpoint), until every bracket
+    is a few ulps wide or ``BISECTIONS`` steps."""
     a, b = near.copy(), far.copy()
+    fa, fb = fn(a), fn(b)
+    fa = np.where(np.isfinite(fa), np.minimum(fa, -0.0), -1.0)  # negative by construction
+    fb = np.where(np.isfinite(fb), np.maximum(fb, 0.0), 1.0)    # non-negative likewise
+    side = np.zeros(a.shape)  # +1: b was kept last step, -1: a was
+    tolerance = 4 * np.finfo(float).eps
     for _ in range(BISECTIONS):
-        mid = 0.5 * (a + b)
-        out = ~(fn(mid) < 0)
-        a, b = np.where(out, a, mid), np.where(out, mid, b)
+        open_ = np.abs(b - a) > tolerance * np.maximum(np.abs(a), np.abs(b))
+        if not open_.any():
+            break
+        with np.errstate(all="ignore"):
+            mid = b - fb * (b - a) / (fb - fa)
+        bad = ~((mid > np.minimum(a, b)) & (mid < np.maximum(a, b)))
+        mid = np.where(bad, 0.5 * (a + b), mid)
+        mid = np.where(open_, mid, a)
+        value = fn(mid)
+        out = ~(value < 0)
+        value = np.where(np.isfinite(value), value, 1.0)
+        # the end kept twice in a row has its value halved (Illinois)
+        fa = np.where(out & (side < 0), 0.5 * fa, fa)
+        fb = np.where(~out & (side > 0), 0.5 * fb, fb)
+        a, fa = np.where(open_ & ~out, mid, a), np.where(open_ & ~out, value, fa)
+        b, fb = np.where(open_ & out, mid, b), np.where(open_ & out, np.maximum(value, 0.0), fb)
+        side = np.where(out, -1.0, 1.0)
     return 0.5 * (a + b)
 
 
