@@ -167,6 +167,8 @@ def _candidates(comparison, log_x: bool) -> tuple[CandidateCurve, ...]:
     key = "aicc" if comparison.select == "f_test" else comparison.select
     fitted = [(row, r) for row, r in zip(comparison.candidates, comparison.reports,
                                          strict=True) if r is not None]
+    if not fitted:
+        return ()
     lo = min(r.model.x_min for _, r in fitted)
     hi = max(r.model.x_max for _, r in fitted)
     xs = curve_x(lo, hi, log_x)

@@ -43,13 +43,14 @@ def build_figure(report: FitReport, x, y, weights=None,
     """
     if options.log_x:
         check_log_x(x)
-    if "selection" in options.panels and comparison is None and not is_polynomial(
-            report.model):
+    compared = comparison is not None and any(r is not None for r in comparison.reports)
+    if "selection" in options.panels and not compared and not is_polynomial(report.model):
         raise SpecError("The selection panel shows a choice: a polynomial's degree selection "
                         "or a comparison of candidate models; this fit chose nothing.",
                         field="plot.panels", fix="Leave selection out, or send "
                         "model.candidates to compare models.")
-    data = gather(report, x, y, weights, log_x=options.log_x, comparison=comparison)
+    data = gather(report, x, y, weights, log_x=options.log_x,
+                  comparison=comparison if compared else None)
     grid, titled, dpi = layout.rows(options.panels), bool(options.title), options.dpi
     width_px = options.pixel_width()
     first_height = options.height or options.pixel_height(width_px, layout.LEGEND_LINE)
