@@ -52,8 +52,8 @@ from service.core.nonlinear.report import FittedCurve
 
 PROFILE_FAMILIES = ("logistic4", "logistic5")
 DEFAULT_CV_LIMIT = 0.20  # common practice in bioanalytical method validation
-GRID_POINTS = 257        # profile grid: as many equally and geometrically spaced points
-TABLE_POINTS = 513       # band table over the range, before the ladders beyond it
+GRID_POINTS = 129        # profile grid: as many equally and geometrically spaced points
+TABLE_POINTS = 257       # band table over the range, before the ladders beyond it
 FAR_WIDTHS = 2.0 ** 20   # how far beyond the range an interval end is looked for
 BISECTIONS = 100         # most steps of each end's bracketed search (ends a few ulps apart)
 
