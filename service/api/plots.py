@@ -20,8 +20,9 @@ ERRORS = {400: "Unparsable body (not strict JSON: e.g. NaN or Infinity tokens)."
           413: "Body or number of points over the limit.",
           415: "Body not sent as application/json.",
           422: "Invalid or unfittable input, a figure size, dpi or panel list out of range, "
-               "or a size too small for the panels' least plotting area; errors names each "
-               "field and its fix."}
+               "a size too small for the panels' least plotting area, x_scale log with an x "
+               "that is not positive, or the selection panel of a nonlinear fit that "
+               "compared nothing; errors names each field and its fix."}
 _BINARY = {"schema": {"type": "string", "format": "binary"}}
 _IMAGE_DOC = {"responses": {"200": {"description": "The figure (PNG or SVG); the same body "
                                                    "always gives the same bytes.",
