@@ -289,6 +289,7 @@ class InvertResponseSchema(Schema):
     x_max = number("Calibrated range: largest x of the data.")
     calibration = fields.Nested(CalibrationSchema)
     working_range = fields.Nested(WorkingRangeSchema, allow_none=True, metadata={
-        "description": "logistic4/logistic5: the x range where the delta-method CV of a "
-                       "back-calculated x stays at or under cv_limit (precision profile; "
+        "description": "logistic4/logistic5: the x range where the CV of a back-calculated x "
+                       "(half its central 68.27% range over x) stays at or under cv_limit "
+                       "(precision profile; "
                        "docs/fitted-model.md); null for other families."})

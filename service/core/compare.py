@@ -75,6 +75,7 @@ class Comparison:
     chosen: int
     reason: str
     report: Any  # the chosen candidate's full report
+    reports: tuple[Any, ...] = ()  # every candidate's report, None where it failed (figures)
 
 
 _OPTIONS = FitOptions()
@@ -122,7 +123,7 @@ def compare(x, y, weights=None, *, candidates: tuple[ModelSpec, ...], select: st
     tests = _nested_tests(candidates, rows, usable)
     chosen, reason = _choose(select, alpha, rows, usable, tests)
     return Comparison(select, alpha, tuple(rows), tuple(tests), chosen, reason,
-                      reports[chosen])
+                      reports[chosen], tuple(reports))
 
 
 def _check(candidates, select, alpha) -> None:

@@ -17,11 +17,14 @@ from curvewise_client.results.fit import (  # noqa: F401
     AnovaRow,
     Candidate,
     Coefficient,
+    ComparedModel,
+    Comparison,
     Diagnostics,
     FitInfo,
     FitResult,
     Grid,
     ModelInfo,
+    NestedTest,
     Notice,
     Selection,
     Statistics,
@@ -33,12 +36,15 @@ from curvewise_client.results.models import (  # noqa: F401
     Estimates,
     PredictionRow,
     Predictions,
+    WorkingRange,
 )
 from curvewise_client.results.plain import Result  # noqa: F401
 from curvewise_client.results.service import (  # noqa: F401
     Families,
     Family,
     FamilyOption,
+    FamilyParameter,
     Figure,
     Limits,
+    Reading,
 )

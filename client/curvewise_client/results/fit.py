@@ -194,6 +194,49 @@ class Diagnostics(Result):
     thresholds: Mapping[str, Any] = field(default_factory=empty_mapping)
 
 
+@dataclass(frozen=True, slots=True)
+class ComparedModel:
+    """One candidate of a comparison of model families (NaN/None where it failed)."""
+
+    label: str
+    family: str | None = None
+    n_parameters: int | None = None
+    rss: float | None = None
+    df_residual: int | None = None
+    sigma: float | None = None
+    aic: float | None = None
+    aicc: float | None = None
+    bic: float | None = None
+    converged: bool | None = None
+    flags: tuple[str, ...] = ()
+    error: str | None = None
+
+
+@dataclass(frozen=True, slots=True)
+class NestedTest:
+    """Extra-sum-of-squares F test of a candidate against a richer one containing it."""
+
+    simpler: str
+    richer: str
+    f: float | None = None
+    df_numerator: int | None = None
+    df_denominator: int | None = None
+    p_value: float | None = None
+
+
+@dataclass(frozen=True, slots=True)
+class Comparison:
+    """How ``model.candidates`` were compared, and which one the report is about."""
+
+    select: str | None = None
+    alpha: float | None = None
+    chosen: str | None = None
+    chosen_index: int | None = None
+    reason: str = ""
+    candidates: tuple[ComparedModel, ...] = ()
+    nested_tests: tuple[NestedTest, ...] = ()
+
+
 @dataclass(frozen=True, slots=True, repr=False)
 class FitResult(Result):
     """The answer of ``POST /v1/fit``.
@@ -217,6 +260,7 @@ class FitResult(Result):
     warnings: tuple[Notice, ...] = ()
     flags: tuple[TrustFlag, ...] = ()
     fitted_model: Mapping[str, Any] | None = None
+    comparison: Comparison | None = None
     raw: Mapping[str, Any] = field(default_factory=empty_mapping)
 
     @property
@@ -231,6 +275,7 @@ class FitResult(Result):
 register(FitResult, model=of(ModelInfo), coefficients=items(of(Coefficient)),
          anova=items(of(AnovaRow)), statistics=of(Statistics), selection=of(Selection),
          grid=of(Grid), diagnostics=of(Diagnostics), warnings=items(of(Notice)),
-         flags=items(of(TrustFlag)), fit_info=of(FitInfo))
+         flags=items(of(TrustFlag)), fit_info=of(FitInfo), comparison=of(Comparison))
+register(Comparison, candidates=items(of(ComparedModel)), nested_tests=items(of(NestedTest)))
 register(Selection, candidates=items(of(Candidate)))
 register(Diagnostics, tests=items(of(TestResult)))

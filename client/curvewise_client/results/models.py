@@ -57,6 +57,17 @@ class Estimate(Result):
         return self.status == "ok"
 
 
+@dataclass(frozen=True, slots=True)
+class WorkingRange:
+    """The x range where the CV of a back-calculated x stays at or under ``cv_limit``
+    (logistic4/logistic5 calibrations; a computed guide, not a validated limit)."""
+
+    cv_limit: float | None = None
+    replicates: int | None = None
+    lower: float | None = None
+    upper: float | None = None
+
+
 @dataclass(frozen=True, slots=True, repr=False)
 class Estimates(Result):
     """The answer of ``POST /v1/invert``."""
@@ -68,9 +79,10 @@ class Estimates(Result):
     x_min: float | None = None
     x_max: float | None = None
     calibration: Mapping[str, Any] | None = None
+    working_range: WorkingRange | None = None
     raw: Mapping[str, Any] = field(default_factory=empty_mapping)
 
 
 
 register(Predictions, predictions=rows(of(PredictionRow)))
-register(Estimates, estimates=rows(of(Estimate)))
+register(Estimates, estimates=rows(of(Estimate)), working_range=of(WorkingRange))

@@ -66,6 +66,27 @@ class FamilyOption(Result):
     description: str = ""
 
 
+@dataclass(frozen=True, slots=True)
+class FamilyParameter:
+    """One parameter of a built-in family: its meaning (with unit) and constraint."""
+
+    name: str
+    meaning: str = ""
+    constraint: str = ""
+
+
+@dataclass(frozen=True, slots=True)
+class Reading:
+    """What ``POST /v1/invert`` answers for a family's fits, and when."""
+
+    invertible: bool | None = None
+    invert_condition: str = ""
+    working_range: bool | None = None
+    working_range_condition: str = ""
+    detection_limit: bool | None = None
+    detection_limit_condition: str = ""
+
+
 @dataclass(frozen=True, slots=True, repr=False)
 class Family(Result):
     """A model family the service fits, with its options."""
@@ -75,6 +96,9 @@ class Family(Result):
     options: tuple[FamilyOption, ...] = ()
     select_methods: tuple[str, ...] = ()
     transforms: tuple[str, ...] = ()
+    equation: str | None = None
+    parameters: tuple[FamilyParameter, ...] = ()
+    reading: Reading | None = None
 
 
 @dataclass(frozen=True, slots=True, repr=False)
@@ -108,4 +132,5 @@ class Families(Result):
 
 
 register(Families, families=items(of(Family)), limits=of(Limits))
-register(Family, options=items(of(FamilyOption)))
+register(Family, options=items(of(FamilyOption)), parameters=items(of(FamilyParameter)),
+         reading=of(Reading))
