@@ -120,6 +120,7 @@ class Client:
              width: int | None = None, height: int | None = None, dpi: int | None = None,
              simultaneous: bool | None = None, title: str | None = None,
              x_label: str | None = None, y_label: str | None = None,
+             x_scale: str | None = None,
              weights: Sequence[float] | None = None, model: Mapping[str, Any] | None = None,
              degree: int | None = None, max_degree: int | None = None,
              select: str | None = None, grid: Mapping[str, Any] | None = None,
@@ -129,13 +130,13 @@ class Client:
 
         Panels: ``fit``, ``studentized_residuals``, ``influence``, ``spread``,
         ``half_normal``, ``selection`` (default ``["fit"]``); sizes in pixels (left out,
-        the figure grows to fit its panels).
+        the figure grows to fit its panels); ``x_scale="log"`` draws x on a log axis.
         """
         if format not in IMAGE_TYPES:
             raise InputError(f"format must be one of {sorted(IMAGE_TYPES)}, not {format!r}")
         plot = {"format": format, "panels": strings(panels, "panels"),
                 "width": width, "height": height, "dpi": dpi, "simultaneous": simultaneous,
-                "title": title, "x_label": x_label, "y_label": y_label}
+                "title": title, "x_label": x_label, "y_label": y_label, "x_scale": x_scale}
         body = fit_body(x, y, weights=weights, model=model, degree=degree,
                         max_degree=max_degree, select=select, grid=grid, level=level,
                         missing=missing, weighting=weighting, include=include)
