@@ -16,7 +16,6 @@ of the batch are in ``frame.attrs["summary"]``.
 
 from __future__ import annotations
 
-import io
 import json
 from collections.abc import Mapping
 from typing import Any
@@ -84,10 +83,10 @@ def encode_long(data: Any, *, id: str = "id", x: str = "x", y: str = "y",  # noq
                               "strings or integers; x, y and weight numbers (missing "
                               "values as NaN/None)") from exc
     table = table.rename_columns(names).replace_schema_metadata(None)
-    sink = io.BytesIO()
+    sink = pa.BufferOutputStream()
     with pa.ipc.new_stream(sink, table.schema) as writer:
         writer.write_table(table)
-    return sink.getvalue()
+    return sink.getvalue().to_pybytes()
 
 
 def options_query(model: Mapping[str, Any] | None, options: Mapping[str, Any] | None) -> str:

@@ -31,7 +31,7 @@ from marshmallow import ValidationError
 
 from schemas.batch import BatchOptionsSchema
 from service.api.batch_job import BatchJob, gc_paused
-from service.api.body import read_body
+from service.api.body import blocks
 from service.core.batch.columnar import FlatSeries, flatten_table
 from service.core.batch.tidy import error_rows, result_table, summary_counts
 from service.core.errors import FitError
@@ -46,6 +46,7 @@ COLUMNAR = (ARROW_STREAM, ARROW_FILE, PARQUET)
 JSON = "application/json"
 OPTIONS_PARAM = "options"
 COLUMNS = ("id", "x", "y", "weight")
+READ_BLOCK = 4 << 20
 _FORMATS = {ARROW_STREAM: "an Arrow IPC stream", ARROW_FILE: "an Arrow IPC file",
             PARQUET: "a Parquet file"}
 register_kind(ProblemKind(
@@ -140,7 +141,7 @@ def _job(envelope: dict, settings) -> BatchJob:
 
 def _read_table(request) -> pa.Table:
     kind = request.mimetype
-    data = read_body(request)
+    data = b"".join(blocks(request, READ_BLOCK))   # a table is read whole: few large reads
     if not data:
         abort(400, message=f"The body is empty. Send {_FORMATS[kind]} with the columns "
                            "id, x, y (and weight).",
