@@ -15,6 +15,7 @@ import numpy as np
 import orjson
 import pandas as pd
 import pyarrow as pa
+import pyarrow.compute  # noqa: F401 - pa.compute below
 import pyarrow.parquet as pq
 import pytest
 
@@ -174,6 +175,16 @@ def test_dictionary_ids_and_integer_numbers_are_read(client):
     plain = _arrow_answer(_post(client, _ipc(table), {"model": MODEL}, accept=ARROW))
     encoded = _arrow_answer(_post(client, _ipc(dictionary), {"model": MODEL}, accept=ARROW))
     assert encoded.equals(plain)
+    # run-end encoded ids (as the client sends them): runs of a shuffled table repeat ids,
+    # those of a grouped one do not; both answer as the plain column
+    grouped = frame.sort_values("id", kind="stable").reset_index(drop=True)
+    for source in (frame, grouped):
+        table = pa.Table.from_pandas(source, preserve_index=False)
+        runs = table.set_column(0, "id", pa.chunked_array(
+            [pa.compute.run_end_encode(chunk) for chunk in table.column("id").chunks]))
+        expected = _arrow_answer(_post(client, _ipc(table), {"model": MODEL}, accept=ARROW))
+        got = _arrow_answer(_post(client, _ipc(runs), {"model": MODEL}, accept=ARROW))
+        assert got.equals(expected)
     whole = pa.table({"id": [1] * 6 + [2] * 6, "x": list(range(6)) * 2,
                       "y": [1, 3, 2, 5, 4, 6] * 2})           # int64 x and y
     out = _arrow_answer(_post(client, _ipc(whole), {"model": {"degree": 1}}, accept=ARROW))

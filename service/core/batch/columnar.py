@@ -95,9 +95,13 @@ def flatten_table(table: pa.Table, id: str = "id", x: str = "x",  # noqa: A002
         A column is absent or of the wrong type, or an id is null; ``field`` names the
         column.
     """
-    ids = _ids(_column(table, id), id)
+    column = _column(table, id)
     xs, ys = _numbers(table, x), _numbers(table, y)
     ws = None if weight is None else _numbers(table, weight)
+    runs = _distinct_runs(column, id) if pa.types.is_run_end_encoded(column.type) else None
+    if runs is not None:                 # sent run-end encoded, one run per series
+        return FlatSeries(runs[0], xs, ys, ws, runs[1])
+    ids = _ids(column, id)
     if len(ids) == 0:
         return FlatSeries(ids, xs, ys, ws, np.zeros(0, dtype=np.int64))
     runs = pc.run_end_encode(ids)
@@ -125,6 +129,24 @@ def fit_flat(flat: FlatSeries, *, model: ModelSpec = _MODEL, options: FitOptions
                     detail=detail, workers=workers)
 
 
+def _distinct_runs(column: pa.ChunkedArray, name: str):
+    """(ids, lengths) of a run-end encoded id column whose runs have distinct ids, else
+    None (the column is then decoded and grouped like any other)."""
+    if any(chunk.offset for chunk in column.chunks):
+        return None
+    values, lengths = [], []
+    for chunk in column.chunks:
+        ends = chunk.run_ends.to_numpy().astype(np.int64)
+        values.append(chunk.values)
+        lengths.append(np.diff(ends, prepend=0))
+    if not values:
+        return None
+    ids = _ids(pa.chunked_array(values, column.type.value_type), name)
+    if len(pc.unique(ids)) != len(ids):
+        return None
+    return ids, np.concatenate(lengths)
+
+
 def _column(table: pa.Table, name: str) -> pa.ChunkedArray:
     if name not in table.column_names:
         raise DataError(f"The table has no column {name!r} (it has "
@@ -135,6 +157,9 @@ def _column(table: pa.Table, name: str) -> pa.ChunkedArray:
 
 def _ids(column: pa.ChunkedArray, name: str) -> pa.Array:
     kind = column.type
+    if pa.types.is_run_end_encoded(kind):
+        kind = kind.value_type
+        column = pa.chunked_array([pc.run_end_decode(c) for c in column.chunks], kind)
     if pa.types.is_dictionary(kind):
         kind = kind.value_type
         column = pc.cast(column, kind)

@@ -32,6 +32,7 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 import pyarrow as pa
+import pyarrow.compute as pc
 
 from service.core.batch.engine import FLAG_CODES
 from service.core.batch.results import BatchResult
@@ -81,7 +82,7 @@ def result_table(result: BatchResult, ids=None, model: ModelSpec = _MODEL,
     columns: dict[str, pa.Array] = {}
     if ids is not None:
         columns[id_name] = ids if isinstance(ids, pa.Array) else pa.array(ids)
-    columns["status"] = pa.array(np.where(ok, "ok", "error"), pa.string())
+    columns["status"] = pc.if_else(pa.array(ok), "ok", "error")
     for name in RESULT_SCALARS:
         values = np.asarray(result.columns[name])
         if values.dtype.kind == "f":
@@ -163,13 +164,17 @@ def error_rows(schema: pa.Schema, ids, codes, fields, messages, id_name: str = "
 def summary_counts(table: pa.Table) -> dict[str, int]:
     """Counts as in the JSON batch summary: ok, error, flagged (serious + caution), and the
     fitted series by their most severe flag."""
-    status = table.column("status").to_numpy(zero_copy_only=False)
-    worst = table.column("severity").to_numpy(zero_copy_only=False)
-    counts = {"ok": int((status == "ok").sum()), "error": int((status == "error").sum())}
-    by = {s: int((worst == s).sum()) for s in WORST_FIRST}
+    status, worst = (_tally(table.column(name)) for name in ("status", "severity"))
+    counts = {"ok": status.get("ok", 0), "error": status.get("error", 0)}
+    by = {s: worst.get(s, 0) for s in WORST_FIRST}
     counts["flagged"] = by["serious"] + by["caution"]
     counts.update(by)
     return counts
+
+
+def _tally(column: pa.ChunkedArray) -> dict[str, int]:
+    return {entry["values"]: entry["counts"]
+            for entry in column.drop_null().value_counts().to_pylist()}
 
 
 def _pandas_type(kind: pa.DataType):
