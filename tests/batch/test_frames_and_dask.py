@@ -122,3 +122,32 @@ def test_dask_results_write_to_parquet_as_the_docs_show(tmp_path):
         drop=True)
     assert len(back) == 60 and (back["status"] == "error").sum() == 1   # lot-0005 has a NaN
     pd.testing.assert_frame_equal(back, ref, check_dtype=False)
+
+
+def test_arrow_stream_in_chunks_equals_fit_frame(tmp_path):
+    # docs/scaling.md, "Streaming a long Arrow stream or file": an IPC stream on disk fitted
+    # chunk by chunk into a Parquet file; series cut across record batches and chunks
+    pa = pytest.importorskip("pyarrow")
+    import pyarrow.parquet as pq
+
+    from service.core.batch.arrow_stream import fit_arrow_stream
+
+    frame = _long_frame(45, seed=15)
+    table = pa.Table.from_pandas(frame, preserve_index=False)
+    with pa.OSFile(str(tmp_path / "points.arrows"), "wb") as sink, \
+            pa.ipc.new_stream(sink, table.schema) as writer:
+        writer.write_table(table, max_chunksize=113)     # record batches cut series apart
+    with pa.memory_map(str(tmp_path / "points.arrows")) as source:
+        reader = pa.ipc.open_stream(source)
+        writer, chunks = None, 0
+        for results in fit_arrow_stream(reader, model=MODEL, chunk_series=7):
+            # 7 series, plus at most the runs of one record batch (113 rows, series >= 20)
+            assert results.num_rows <= 7 + 113 // 20 + 1
+            chunks += 1
+            writer = writer or pq.ParquetWriter(str(tmp_path / "fits.parquet"), results.schema)
+            writer.write_table(results)
+        writer.close()
+    assert chunks >= 4
+    back = pq.read_table(tmp_path / "fits.parquet").to_pandas(
+        types_mapper={pa.int64(): pd.Int64Dtype()}.get)
+    pd.testing.assert_frame_equal(back, fit_frame(frame, model=MODEL))
