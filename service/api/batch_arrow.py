@@ -67,10 +67,7 @@ def columnar_batch(request, settings, too_large) -> Response:
                            "\"summary\", or Accept: application/json.",
               errors={"options.detail": ["Use \"summary\" with an Arrow answer."]},
               code="validation_error")
-    table = _read_table(request)
-    if table.num_rows > settings.max_total_points:
-        raise too_large(f"The table has {table.num_rows} rows (points); the limit is "
-                        f"{settings.max_total_points}. Split it into several requests.")
+    table = _read_table(request, settings.max_total_points, too_large)
     flat = _flatten(table)
     if len(flat) > settings.max_series:
         raise too_large(f"The table has {len(flat)} series (distinct ids); the limit is "
@@ -139,7 +136,27 @@ def _job(envelope: dict, settings) -> BatchJob:
                                 field=f"{OPTIONS_PARAM}.{exc.field}") from None
 
 
-def _read_table(request) -> pa.Table:
+def _decode(kind: str, buffer: pa.Buffer, max_rows: int) -> pa.Table | None:
+    """The table in ``buffer``, or None when it has more than ``max_rows`` rows."""
+    if kind == PARQUET:
+        parquet = pq.ParquetFile(buffer)
+        return None if parquet.metadata.num_rows > max_rows else parquet.read()
+    if kind == ARROW_FILE:
+        reader = pa.ipc.open_file(buffer)
+        batches = (reader.get_batch(i) for i in range(reader.num_record_batches))
+    else:
+        reader = pa.ipc.open_stream(buffer)
+        batches = iter(reader)
+    kept, rows = [], 0
+    for batch in batches:
+        rows += batch.num_rows
+        if rows > max_rows:
+            return None
+        kept.append(batch)
+    return pa.Table.from_batches(kept, schema=reader.schema)
+
+
+def _read_table(request, max_rows: int, too_large) -> pa.Table:
     kind = request.mimetype
     data = b"".join(blocks(request, READ_BLOCK))   # a table is read whole: few large reads
     if not data:
@@ -148,19 +165,20 @@ def _read_table(request) -> pa.Table:
               errors={"_body": ["Send a table."]}, code="invalid_table")
     buffer = pa.py_buffer(data)
     try:
-        if kind == PARQUET:
-            table = pq.read_table(buffer)
-        elif kind == ARROW_FILE:
-            table = pa.ipc.open_file(buffer).read_all()
-        else:
-            table = pa.ipc.open_stream(buffer).read_all()
-        table.validate(full=True)   # offsets and lengths checked before any value is read
+        # rows are counted as the table is read (a Parquet file's from its footer): a
+        # compressed body over the row limit is refused before it is all decompressed
+        table = _decode(kind, buffer, max_rows)
+        if table is not None:
+            table.validate(full=True)   # offsets and lengths checked before any value is read
     except (pa.ArrowException, OSError, ValueError) as exc:
         said = str(exc).strip().splitlines()[0][:200] if str(exc).strip() else type(exc).__name__
         abort(400, message=f"The body is not {_FORMATS[kind]} ({said}). Write it with an "
                            "Arrow or Parquet library, and send the Content-Type that matches "
                            "it (application/json for JSON).",
               errors={"_body": [f"Send {_FORMATS[kind]}."]}, code="invalid_table")
+    if table is None:
+        raise too_large(f"The table has more than {max_rows} rows (points), this server's "
+                        "limit. Split it into several requests.")
     unknown = [name for name in table.column_names if name not in COLUMNS]
     if unknown:
         abort(422, message="The table has columns this endpoint does not read; send only "

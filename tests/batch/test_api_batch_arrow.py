@@ -239,13 +239,18 @@ def test_wrong_content_is_400_or_415_with_a_clear_message(client):
     assert answer.status_code == 422 and "options" in answer.get_json()["errors"]
 
 
-@pytest.mark.parametrize("overrides", [{"max_series": 5}, {"max_total_points": 100},
-                                       {"max_body_bytes": 2000}])
-def test_limits_are_413(overrides):
+@pytest.mark.parametrize("kind, content_type", [
+    ("stream", ARROW), ("file", "application/vnd.apache.arrow.file"),
+    ("parquet", "application/vnd.apache.parquet")])
+@pytest.mark.parametrize("overrides, code", [({"max_series": 5}, "batch_too_large"),
+                                             ({"max_total_points": 100}, "batch_too_large"),
+                                             ({"max_body_bytes": 2000}, "body_too_large")])
+def test_limits_are_413(overrides, code, kind, content_type):
     client = create_app(overrides).test_client()
-    answer = _post(client, _ipc(_long(_series(8))), {"model": MODEL}, accept=ARROW)
+    answer = _post(client, _ipc(_long(_series(8)), kind), {"model": MODEL}, accept=ARROW,
+                   content_type=content_type)
     assert answer.status_code == 413 and answer.mimetype == "application/problem+json"
-    assert answer.get_json()["code"] in ("batch_too_large", "body_too_large")
+    assert answer.get_json()["code"] == code
 
 
 def test_a_series_over_the_point_limit_is_an_error_row():
