@@ -57,8 +57,7 @@ def test_batch_frame_of_a_dataframe_equals_ols_and_the_in_process_frame(inproces
     pd.testing.assert_frame_equal(out, expected)
 
 
-def test_batch_frame_of_an_arrow_table_with_weights_shuffled_and_a_bad_series(
-        inprocess_client):
+def test_batch_frame_of_an_arrow_table_with_weights_shuffled_and_a_bad_series(api):
     frame = _long(12, seed=4)
     frame.loc[frame["probe"] == "p0003", "ref"] = 5.0     # one distinct x: cannot fit a line
     rng = np.random.default_rng(9)
@@ -66,8 +65,8 @@ def test_batch_frame_of_an_arrow_table_with_weights_shuffled_and_a_bad_series(
     shuffled = shuffled.assign(ref=shuffled.groupby("probe")["ref"].transform(
         lambda s: np.sort(s.to_numpy())))   # rows shuffled; each series' x still ascending
     table = pa.Table.from_pandas(shuffled, preserve_index=False)
-    out = inprocess_client.batch_frame(table, id="probe", x="ref", y="reading", weight="w",
-                                       model={"degree": 1}, options={"level": 0.9})
+    out = api.batch_frame(table, id="probe", x="ref", y="reading", weight="w",
+                          model={"degree": 1}, options={"level": 0.9})
     assert list(out["probe"]) == list(pd.unique(shuffled["probe"]))
     bad = out.set_index("probe").loc["p0003"]
     assert bad["status"] == "error" and bad["error_code"] == "insufficient_design"
