@@ -271,3 +271,18 @@ def test_a_series_over_the_point_limit_is_an_error_row():
     for result in json_answer["results"]:
         assert (result["id"] in long_ones) == (result.get("error", {}).get("code")
                                                == "too_many_points")
+
+
+@pytest.mark.parametrize("accept", [ARROW, "application/json"])
+def test_batch_metrics_count_arrow_requests_once(client, accept):
+    from tests.ops.test_observability import _batch_counts
+
+    frame = _long(_series(8, seed=12))
+    before = _batch_counts(client)
+    answer = _post(client, _ipc(frame), {"model": MODEL}, accept=accept)
+    assert answer.status_code == 200
+    summary = orjson.loads(_arrow_answer(answer).schema.metadata[b"curvewise.summary"]) \
+        if accept == ARROW else answer.get_json()["summary"]
+    after = _batch_counts(client)
+    assert [a - b for a, b in zip(after, before, strict=True)] == [
+        1, 8, summary["ok"], summary["error"]]
