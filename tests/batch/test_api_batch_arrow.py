@@ -100,15 +100,17 @@ def _arrow_answer(response) -> pa.Table:
     return pa.ipc.open_stream(response.data).read_all()
 
 
-@pytest.mark.parametrize("int_ids, weighted", [(False, False), (True, False), (False, True)])
-def test_arrow_body_answers_exactly_as_the_json_body(client, int_ids, weighted):
+@pytest.mark.parametrize("int_ids, weighted, missing", [
+    (False, False, "error"), (True, False, "error"), (False, True, "error"),
+    (True, True, "drop")])
+def test_arrow_body_answers_exactly_as_the_json_body(client, int_ids, weighted, missing):
     frame = _long(_series(int_ids=int_ids, weighted=weighted))
     series = _in_table_order(_series(int_ids=int_ids, weighted=weighted), frame)
-    reference = client.post("/v1/batch", data=orjson.dumps({"series": series, "model": MODEL}),
+    options = {"model": MODEL, "missing": missing, "level": 0.9}
+    reference = client.post("/v1/batch", data=orjson.dumps({"series": series, **options}),
                             content_type="application/json").get_json()
-    assert reference["summary"]["error"] == 2
-    body = _ipc(frame)
-    got = _post(client, body, {"model": MODEL})
+    assert reference["summary"]["error"] == (2 if missing == "error" else 1)
+    got = _post(client, _ipc(frame), options)
     assert got.status_code == 200 and got.mimetype == "application/json"
     assert got.get_json() == reference
 
