@@ -35,6 +35,7 @@ class TableInputError(CurvewiseError, ValueError):
 
 def _pyarrow():
     try:
+        import pandas  # noqa: F401 - the answer becomes a DataFrame
         import pyarrow
         import pyarrow.ipc  # noqa: F401 - the submodule used below
     except ImportError as exc:  # pragma: no cover - depends on the environment

@@ -14,7 +14,8 @@ that order). A null number becomes NaN, a missing value as JSON ``null`` is: it 
 
 Grouping is free when the rows of each series are already together (a table written
 series by series, or sorted by id): the runs of equal ids are the series, and x and y
-are read in place. Otherwise the rows are gathered by one stable sort of the id codes.
+are read in place; an id column sent run-end encoded (one id and a run end per series)
+is taken as it is. Otherwise the rows are gathered by one stable sort of the id codes.
 
 Every columnar path (the Arrow and Parquet bodies of ``/v1/batch``,
 :func:`service.core.batch.arrow_stream.fit_arrow_stream`) fits through
