@@ -110,6 +110,7 @@ def _tidy_row(item: BatchItem) -> dict[str, Any]:
             row.update(n=fit.get("n"), degree=(fit.get("model") or {}).get("degree"))
             row.update({k: stats.get(k) for k in _SCALARS if k in stats})
             diagnostics = fit.get("diagnostics") or {}
+            row.update(dict.fromkeys(_TESTS))
             for test in diagnostics.get("tests") or ():
                 if test["name"] == "durbin_watson":
                     row["durbin_watson"] = test.get("statistic")

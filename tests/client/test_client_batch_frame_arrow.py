@@ -92,6 +92,20 @@ def test_tidy_frames_from_json_batches_have_the_arrow_names(inprocess_client):
         assert not any(isinstance(v, (tuple, list, dict)) for v in tidy[name]), name
 
 
+def test_tidy_frames_of_full_reports_match_the_summary_ones(inprocess_client):
+    frame = _long(5, seed=6)
+    series = frames.series_from_long_frame(frame, id="probe", x="ref", y="reading")
+    model = {"max_degree": 3, "select": "bic"}
+    summary = frames.batch_frame(inprocess_client.batch(series, model=model))
+    full = frames.batch_frame(inprocess_client.batch(series, model=model, detail="full"))
+    shared = [c for c in summary.columns if c in full.columns and c not in ("id", "status")]
+    assert {"coef_0", "coef_1", "se_1", "sigma", "durbin_watson_p", "lack_of_fit_p",
+            "flag_codes", "n_outliers"} <= set(shared)
+    assert {"rss", "aic", "bic"} <= set(full.columns)           # only full reports have them
+    pd.testing.assert_frame_equal(full[shared], summary[shared], check_dtype=False,
+                                  rtol=1e-9)
+
+
 def test_bad_input_fails_before_sending_and_bad_options_come_back_as_422(inprocess_client):
     frame = _long(3)
     with pytest.raises(TableInputError, match="no column 'y'"):
