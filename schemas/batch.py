@@ -82,6 +82,14 @@ class OptionsLineSchema(BatchRequestSchema):
         "description": "Not used in NDJSON: one series per line instead."})
 
 
+class BatchOptionsSchema(BatchRequestSchema):
+    """Arrow and Parquet bodies: the shared options (the JSON body without series), sent as
+    the ``options`` query parameter, a JSON object."""
+
+    class Meta(BatchRequestSchema.Meta):
+        exclude = ("series",)
+
+
 def valid_id(ident) -> bool:
     """A series id is a string or an integer (a JSON boolean is not)."""
     return not isinstance(ident, bool) and isinstance(ident, (str, int))

@@ -191,6 +191,31 @@ class Client:
             raise ProtocolError(f"/v1/batch answered {response.content_type!r}, not NDJSON")
         return BatchStream(response)
 
+    def batch_frame(self, data: Any, *, id: str = "id", x: str = "x", y: str = "y",  # noqa: A002
+                    weight: str | None = None, model: Mapping[str, Any] | None = None,
+                    options: Mapping[str, Any] | None = None):
+        """Fit one curve per ``id`` of a long table, sent as Arrow; a tidy DataFrame back.
+
+        ``data`` is a pandas DataFrame or a pyarrow Table with one row per point; ``id``,
+        ``x``, ``y`` and ``weight`` name its columns (ids strings or integers; rows in any
+        order, the points of a series in their row order). ``model`` and ``options``
+        (``level``, ``missing``) are the JSON batch's shared members. Returns one row per
+        series, in order of each id's first row, one scalar per cell (``coef_0``,
+        ``se_0``, ..., ``flag_codes``, ``error_code``...: see
+        :mod:`curvewise_client.arrow`); a series that cannot be fitted is a row with
+        ``status == "error"``, never an exception. Needs the ``arrow`` extra.
+        """
+        from curvewise_client import arrow
+
+        body = arrow.encode_long(data, id=id, x=x, y=y, weight=weight)
+        path = "/v1/batch" + arrow.options_query(model, options)
+        response = self._request("POST", path, body, content_type=arrow.ARROW_STREAM,
+                                 accept=arrow.ARROW_STREAM)
+        payload = response.read()
+        if response.content_type != arrow.ARROW_STREAM:
+            raise ProtocolError(f"/v1/batch answered {response.content_type!r}, not Arrow")
+        return arrow.decode_tidy(payload, id=id)
+
     def predict(self, fitted_model: Mapping[str, Any] | FitResult, x: Sequence[float], *,
                 level: float | None = None, replicates: int | None = None) -> Predictions:
         """Predict at new x with a stored fitted-model document (``POST /v1/predict``).

@@ -14,6 +14,7 @@ import numpy as np
 from marshmallow import ValidationError
 
 from schemas.batch import load_series, summary_rows, valid_id
+from service.core.batch.columnar import FlatSeries, fit_flat
 from service.core.batch.driver import fit_batch, fit_many
 from service.core.polynomial.design import term_names
 from service.core.spec import HARD_MAX_DEGREE, FitOptions
@@ -72,6 +73,19 @@ class BatchJob:
         batch = fit_many(x, y, lengths, model=self.model, options=self.options,
                          detail=self.detail)
         return self._assemble([(ident, ()) for ident in ids], range(len(ids)), batch)
+
+    def fit_flat(self, flat: FlatSeries):
+        """The columnar result of series held in flat arrays: the one call the Arrow and
+        Parquet bodies make (:func:`service.core.batch.columnar.fit_flat`)."""
+        return fit_flat(flat, model=self.model, options=self.options, detail=self.detail)
+
+    def flat_results(self, ids, flat: FlatSeries, refused=None):
+        """Result dicts for ``ids`` in order: the series of ``flat`` fitted, and the
+        ``refused`` ones (position -> problem body, not in ``flat``) as errors."""
+        refused = refused or {}
+        items = [(ident, refused.get(i, ())) for i, ident in enumerate(ids)]
+        fit_idx = [i for i in range(len(ids)) if i not in refused]
+        return self._assemble(items, fit_idx, self.fit_flat(flat))
 
     def _assemble(self, items, fit_idx, batch):
         ok_rows = np.flatnonzero(batch.ok).tolist()
