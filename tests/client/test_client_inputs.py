@@ -148,6 +148,7 @@ def _public_methods():
 
 MINIMAL_ARGS = {"fit": ([1, 2], [1, 2]), "plot": ([1, 2], [1, 2]), "batch": ([],),
                 "batch_stream": ([],), "predict": ({}, [1]), "invert": ({}, [1]),
+                "batch_frame": ({"id": [], "x": [], "y": []},),
                 "families": (), "health": ()}
 
 

@@ -61,16 +61,10 @@ NOT_RUN = {
         "Dockerfile and runs its CMD and HEALTHCHECK as written",
 }
 
-# Blocks known to fail as written, being fixed on another branch; matched by their text and
-# not run (the one below waits 30 s for a scheduler that is not there), so a rewritten block
-# is run normally again and this entry goes stale
-# (test_every_command_block_is_labelled_and_every_skip_is_used says so).
-EXPECTED_TO_FAIL = {
-    ("docs/scaling.md", 'Client("tcp://scheduler:8786")'):
-        "the Dask-to-Parquet example needs a scheduler at tcp://scheduler:8786 and "
-        "points/*.parquet that the docs never create; being rewritten to run on a "
-        "LocalCluster with its own data on the batch-engine branch",
-}
+# Blocks known to fail as written while another branch fixes them, matched by their text
+# and not run; an entry whose block runs again goes stale
+# (test_every_command_block_is_labelled_and_every_skip_is_used says so). None today.
+EXPECTED_TO_FAIL: dict[tuple[str, str], str] = {}
 
 
 @dataclass(frozen=True)
