@@ -8,7 +8,8 @@ from flask_smorest import Blueprint, abort
 from schemas.common import MISSING_POLICIES, SECTIONS
 from schemas.families import MODEL_SCHEMAS, FamiliesResponseSchema, describe_options
 from service.core import families as registry
-from service.http.docs_page import render_catalogue, render_openapi, render_problem
+from service.http.docs_page import render_openapi
+from service.http.problem_pages import render_catalogue, render_problem
 from service.http.problems import CATALOGUE
 
 blp = Blueprint("meta", __name__, description="Families and documentation.")

@@ -103,6 +103,9 @@ class CurvewiseApi(Api):
         prepare_response(response, self.spec, PROBLEM_MIME)
         self.spec.components.response("DEFAULT_ERROR", response, lazy=True)
 
+    def _register_pagination_header(self):
+        """No pagination here: leave flask-smorest's pagination schema out of the document."""
+
     def handle_http_exception(self, error: HTTPException):
         data = getattr(error, "data", None) or {}
         errors = data.get("errors") or data.get("messages")
