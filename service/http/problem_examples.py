@@ -76,8 +76,8 @@ EXAMPLES: dict[str, ProblemExample] = {
                                          "Fitting is a POST with the data in the body.",
                                          _post(_FIT)),
     "body_too_large": ProblemExample(
-        _post(_FIT), "Send fewer points per request (here the limit is 60 bytes).",
-        _post({"x": [1, 2, 3], "y": [1.1, 1.9, 3.2]}), settings={"max_body_bytes": 60}),
+        _post(_FIT), "Send fewer points per request (here the limit is 40 bytes).",
+        _post({"x": [1, 2, 3], "y": [1.1, 1.9, 3.2]}), settings={"max_body_bytes": 40}),
     "too_many_points": ProblemExample(
         _post(_FIT), "Send at most CURVEWISE_MAX_POINTS points (here 4) per series.",
         _post({"x": _X[:4], "y": _Y[:4]}), settings={"max_points": 4}),
@@ -129,11 +129,9 @@ EXAMPLES: dict[str, ProblemExample] = {
         "Send the fitted_model member of a /v1/fit answer back unchanged.",
         _post(_NITRATE, path="/v1/predict")),
     "unfittable_input": ProblemExample(
-        _post({"x": [1.0, 2.0, 3.0], "y": [1.1, 1.9, 3.2],
-               "model": {"candidates": [{"degree": 3}, {"degree": 4}]}}),
-        "Offer at least one candidate the data can support.",
-        _post({"x": [1.0, 2.0, 3.0], "y": [1.1, 1.9, 3.2],
-               "model": {"candidates": [{"degree": 1}, {"degree": 4}]}})),
+        _post({**_FIT, "model": {"candidates": [{"degree": 5}, {"degree": 6}]}}),
+        "Offer at least one candidate the data can support (5 points: degree 3 at most).",
+        _post({**_FIT, "model": {"candidates": [{"degree": 1}, {"degree": 6}]}})),
     "headers_too_large": ProblemExample(None, "Send shorter headers.", _post(_FIT),
                                         raw="POST /v1/fit HTTP/1.1\r\nX-Note: xxxx...(5,000 "
                                             "characters)\r\n..."),
