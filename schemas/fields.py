@@ -237,8 +237,7 @@ class NumberArray(fields.Field):
             # orjson refuses NaN/Infinity and out-of-range floats; huge ints can still overflow
             if int in kinds and not np.isfinite(array).all():
                 bad = np.flatnonzero(~np.isfinite(array))
-                raise ValidationError({int(bad[0]): [self.error_messages["item_range"]
-                                                     + also_at(bad)]})
+                raise ValidationError({int(bad[0]): [self._out_of_range(also_at(bad))]})
         return array
 
     def _raise_first_bad(self, value, allowed):
@@ -248,12 +247,17 @@ class NumberArray(fields.Field):
             raise self.make_error("invalid")
         item = value[bad[0]]
         if type(item) in _NUMBER_TYPES:
-            message = self.error_messages["item_range"]
-        elif item is None:
+            raise ValidationError({bad[0]: [self._out_of_range(also_at(bad))]})
+        if item is None:
             message = self.error_messages["item_null"]
         else:
             message = self.error_messages["item_type"].format(kind=_json_kind(item))
         raise ValidationError({bad[0]: [message + also_at(bad)]})
+
+    def _out_of_range(self, more: str) -> str:
+        """A number beyond float64: in a data array, ``invalid_data`` (a non-finite value)."""
+        message = self.error_messages["item_range"] + more
+        return CodedMessage(message, "invalid_data") if self.data else message
 
     @staticmethod
     def _bad(item, allowed) -> bool:
