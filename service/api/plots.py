@@ -60,6 +60,10 @@ def plot(body):
                         f"(limit {limit}).", field="x", code="limit_exceeded",
                         fix="Fit the full series with /v1/fit and plot a sample of it"
                             + (", or ask for png." if options.format == "svg" else "."))
+    if "candidates" in body["model"]:
+        raise SpecError("A comparison of candidate models is not drawn.",
+                        field="model.candidates", fix="Fit the comparison with /v1/fit, then "
+                        "plot the chosen model by sending it as model.")
     if body["model"]["family"] != "polynomial":
         raise SpecError(f"Figures of {body['model']['family']} fits are not drawn yet.",
                         field="model.family", fix="Fit with /v1/fit and draw its grid section, "

@@ -81,3 +81,11 @@ def test_too_few_points_is_said_of_the_data(client, body, says):
                              "x")
     assert says in problem["detail"] and "Too few data" in problem["detail"]
     assert not any(key.startswith("model") for key in problem["errors"])
+
+
+def test_a_comparison_sent_to_plot_is_refused_naming_candidates(client):
+    # found by schemathesis from the plot example: it was a 500 (KeyError) before
+    body = {"x": X[:8], "y": Y[:8], "model": {"candidates": [{"degree": 1}, {"degree": 2}]}}
+    problem = assert_problem(post_json(client, "/v1/plot", body), 422, "invalid_spec",
+                             "model.candidates")
+    assert "/v1/fit" in problem["detail"]
