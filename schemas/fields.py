@@ -47,6 +47,15 @@ class CodedMessage(str):
         return message
 
 
+def coded(messages, code: str):
+    """The same (nested) messages, each a :class:`CodedMessage` with ``code``."""
+    if isinstance(messages, dict):
+        return {key: coded(value, code) for key, value in messages.items()}
+    if isinstance(messages, list):
+        return [coded(value, code) for value in messages]
+    return CodedMessage(str(messages), code)
+
+
 def index_list(indices, cap: int = INDEX_LIST_CAP) -> str:
     """``"3, 7, 12 and 40 more"``: the first ``cap`` indices, then how many are left."""
     indices = [int(i) for i in indices]

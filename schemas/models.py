@@ -22,6 +22,7 @@ from schemas.fields import (
     StrictFloat,
     StrictInteger,
     StrictString,
+    coded,
     one_of_message,
 )
 
@@ -130,16 +131,7 @@ class FittedModelField(fields.Field):
         try:
             return schema().load(value)
         except ValidationError as exc:  # a malformed document: invalid_document
-            raise ValidationError(_coded(exc.messages, "invalid_document")) from None
-
-
-def _coded(messages, code: str):
-    """The same messages, each a :class:`CodedMessage` with ``code``."""
-    if isinstance(messages, dict):
-        return {key: _coded(value, code) for key, value in messages.items()}
-    if isinstance(messages, list):
-        return [_coded(value, code) for value in messages]
-    return CodedMessage(str(messages), code)
+            raise ValidationError(coded(exc.messages, "invalid_document")) from None
 
 
 class PredictRequestSchema(StrictSchema):
