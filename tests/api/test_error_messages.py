@@ -89,3 +89,11 @@ def test_a_comparison_sent_to_plot_is_refused_naming_candidates(client):
     problem = assert_problem(post_json(client, "/v1/plot", body), 422, "invalid_spec",
                              "model.candidates")
     assert "/v1/fit" in problem["detail"]
+
+
+def test_a_degree_the_caller_fixed_is_still_named(client):
+    # three points at one x with degree 1 asked for: the degree is what to change
+    problem = assert_problem(post_json(client, "/v1/fit", {
+        "x": [2.0, 2.0, 2.0], "y": [1.0, 2.0, 3.0], "model": {"degree": 1}}), 422,
+        "insufficient_design", "model.degree")
+    assert "at most 0" in problem["detail"]

@@ -241,13 +241,14 @@ def _after(transform: str) -> str:
 def _supported_max(distinct, intercept, dmin, dmax, selects, notices, *, n: int) -> int:
     """Largest degree the distinct x values support; error or notice when it binds.
 
-    Data at a single x value support no curve at all: that is said of the data (field
-    ``x``), not of the degree asked for.
+    Data at a single x value support no curve at all: when the degree is being selected
+    (the caller did not ask for one) or there is a single point, that is said of the data
+    (field ``x``), not of ``model.min_degree``; a degree the caller fixed is named as such.
     """
     cap = distinct - (1 if intercept else 0)
     if dmin > cap or (not selects and dmax > cap):
         need = dmin + (1 if intercept else 0)
-        if distinct <= 1 and dmin >= 1:
+        if distinct <= 1 and dmin >= 1 and (selects or n == 1):
             what = "a single data point" if n == 1 else f"{n} points, all at the same x"
             raise DesignError(
                 f"Too few data to fit a curve: {what}; a degree-{dmin} curve needs points at "
