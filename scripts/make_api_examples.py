@@ -109,8 +109,9 @@ def abbreviate(key: str, example: dict, answer) -> tuple[object, str | None]:
     if media == "text/html":
         return text[:text.index(HTML_CUT) + len(HTML_CUT)], "prefix"
     if media == "text/plain":
-        lines = [line for line in text.splitlines()
-                 if line.startswith(("# HELP curvewise_", "# TYPE curvewise_"))]
+        lines = [line for line in text.splitlines()  # not the client's own *_created series
+                 if line.startswith(("# HELP curvewise_", "# TYPE curvewise_"))
+                 and "_created " not in line]
         return "\n".join(lines[:METRICS_LINES]), "lines"
     raise ValueError(f"no stored form for {media}")
 
