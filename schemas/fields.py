@@ -225,12 +225,11 @@ class NumberArray(fields.Field):
             raise self.make_error("invalid")
         n = len(value)
         if n < self.min_items:
-            error = self.make_error("too_few", min=self.min_items, n=n)
             if self.data and n == 0:
                 raise ValidationError(CodedMessage(
                     "Empty array: send at least one value (as many as the model has "
                     "coefficients, and more to judge the fit).", "invalid_data"))
-            raise error
+            raise self.make_error("too_few", min=self.min_items, n=n)
         if self.max_items is not None and n > self.max_items:
             raise self.make_error("too_many", max=self.max_items, n=n)
         kinds = set(map(type, value))

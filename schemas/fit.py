@@ -78,10 +78,10 @@ class FitRequestSchema(StrictSchema):
     y = NumberArray(required=True, allow_null_items=True, data=True, metadata={
         "description": "Response values, same length as x. null marks a missing value "
                        "(allowed only with missing=drop)."})
-    weights = NumberArray(allow_none=True, load_default=None, allow_null_items=True, data=True,
-                          metadata={
-        "description": "Optional positive weights (inverse variances), same length as x; "
-                       "null for an unweighted fit."})
+    weights = NumberArray(
+        allow_none=True, load_default=None, allow_null_items=True, data=True, metadata={
+            "description": "Optional positive weights (inverse variances), same length as x; "
+                           "null for an unweighted fit."})
     model = ModelField(load_default=lambda: _MODEL_DEFAULT.load({}), metadata={
         "description": "The model to fit: a polynomial model object (the default family), or "
                        "the model object of the family it names. Default: a polynomial of "
