@@ -7,6 +7,8 @@ otherwise; each family documents its own model object (``MODEL_SCHEMAS``), and
 
 from __future__ import annotations
 
+import json
+
 from marshmallow import Schema, ValidationError, fields, validate
 
 from schemas.builtin import BUILTIN_SCHEMAS
@@ -79,3 +81,21 @@ class CandidatesSchema(StrictSchema):
 
 DOCUMENTED_MODELS = (*MODEL_SCHEMAS.values(), CandidatesSchema)
 """Every model object the request's ``model`` may be (OpenAPI components of its oneOf)."""
+
+MODEL_OPTIONS = frozenset(name for schema in DOCUMENTED_MODELS for name in schema._declared_fields)
+"""Every field a model object can have (degree, max_degree, family, expression, ...)."""
+
+
+def misplaced_model_options(body: dict, own_fields) -> dict[str, list[str]]:
+    """``{name: [message]}`` for each model option sent beside ``model`` instead of inside it.
+
+    ``own_fields`` are the fields of the object itself (they are never misplaced).
+    """
+    errors = {}
+    for name in body:
+        if name in MODEL_OPTIONS and name not in own_fields:
+            shown = json.dumps(body[name], ensure_ascii=False)
+            shown = shown if len(shown) <= 40 else "..."
+            errors[name] = [f"{name} is an option of the model, not of the request: move it "
+                            f"into `model`, e.g. {{\"model\": {{\"{name}\": {shown}}}}}."]
+    return errors

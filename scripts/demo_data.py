@@ -150,6 +150,21 @@ def plate(seed: int = SEED) -> dict:
     }
 
 
+def main_body(scenario: str, *, probes: int = 20, seed: int = SEED, degree: int | None = None,
+              include: str | None = None) -> dict:
+    """The body that ``demo_data.py <scenario> [options]`` prints."""
+    if scenario == "soil":
+        body = soil(probes, seed)
+    else:
+        body = {"greenhouse": greenhouse, "nitrate": nitrate,
+                "enzyme": enzyme, "assay": assay, "plate": plate}[scenario](seed)
+    if degree is not None:
+        body["model"] = {"family": "polynomial", "degree": degree}
+    if include:
+        body["include"] = [name.strip() for name in include.split(",") if name.strip()]
+    return body
+
+
 def main(argv: list[str] | None = None) -> int:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("scenario", choices=("greenhouse", "nitrate", "soil", "enzyme", "assay",
@@ -160,15 +175,8 @@ def main(argv: list[str] | None = None) -> int:
     parser.add_argument("--include", help="comma-separated response sections, e.g. "
                                           "coefficients,statistics")
     args = parser.parse_args(argv)
-    if args.scenario == "soil":
-        body = soil(args.probes, args.seed)
-    else:
-        body = {"greenhouse": greenhouse, "nitrate": nitrate,
-                "enzyme": enzyme, "assay": assay, "plate": plate}[args.scenario](args.seed)
-    if args.degree is not None:
-        body["model"] = {"family": "polynomial", "degree": args.degree}
-    if args.include:
-        body["include"] = [name.strip() for name in args.include.split(",") if name.strip()]
+    body = main_body(args.scenario, probes=args.probes, seed=args.seed, degree=args.degree,
+                     include=args.include)
     json.dump(body, sys.stdout, allow_nan=False)
     sys.stdout.write("\n")
     return 0

@@ -18,7 +18,14 @@ from service.core.batch.columnar import FlatSeries, fit_flat
 from service.core.batch.driver import fit_batch, fit_many
 from service.core.polynomial.design import term_names
 from service.core.spec import HARD_MAX_DEGREE, FitOptions
-from service.http.errors import ServiceLimitError, fit_error_body, flatten_errors, problem_body
+from service.http.errors import (
+    ServiceLimitError,
+    agreed_code,
+    coded_detail,
+    fit_error_body,
+    flatten_errors,
+    problem_body,
+)
 from service.http.limits import check_degree, check_grid
 from service.http.reporting import fit_response
 from service.http.requests import grid_spec, model_spec
@@ -131,10 +138,11 @@ class BatchJob:
         try:
             ident, x, y, w, model = load_series(obj, position)
         except ValidationError as exc:
-            return ident, problem_body(422, None, "This series is not valid; see errors for "
-                                       "each field and its fix.",
-                                       errors=flatten_errors(exc.messages),
-                                       code="validation_error")
+            errors, agreed = flatten_errors(exc.messages), agreed_code(exc.messages)
+            return ident, problem_body(422, None, coded_detail(errors) if agreed else
+                                       "This series is not valid; see errors for each field "
+                                       "and its fix.", errors=errors,
+                                       code=agreed or "validation_error")
         if x.size > self.settings.max_points:
             return ident, problem_body(413, None, f"The series has {x.size} points; the limit "
                                        f"is {self.settings.max_points}. Split the series.",

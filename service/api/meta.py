@@ -9,7 +9,8 @@ from schemas.common import MISSING_POLICIES, SECTIONS
 from schemas.families import MODEL_SCHEMAS, FamiliesResponseSchema, describe_options
 from service.core import families as registry
 from service.core.models.capabilities import capabilities
-from service.http.docs_page import render_catalogue, render_openapi, render_problem
+from service.http.docs_page import render_openapi
+from service.http.problem_pages import render_catalogue, render_problem
 from service.http.problems import CATALOGUE
 
 blp = Blueprint("meta", __name__, description="Families and documentation.")

@@ -110,7 +110,7 @@ def _fit(x, y, weights, model: ModelSpec, options: FitOptions) -> FitReport:
         check_magnitude(data.w, "weights", data.index, "")
     notices: list[Notice] = []
     distinct = data.distinct if data.distinct is not None else distinct_count(data.x)
-    dmax = _supported_max(distinct, intercept, dmin, dmax, selects, notices)
+    dmax = _supported_max(distinct, intercept, dmin, dmax, selects, notices, n=data.x.size)
     n = u.size
     sum_log_w = 0.0 if data.w is None else float(np.sum(np.log(data.w)))
     degrees = list(range(dmin, dmax + 1))
@@ -255,11 +255,23 @@ def _after(transform: str) -> str:
     return "" if transform == "none" else f"after the {transform} transform"
 
 
-def _supported_max(distinct, intercept, dmin, dmax, selects, notices) -> int:
-    """Largest degree the distinct x values support; error or notice when it binds."""
+def _supported_max(distinct, intercept, dmin, dmax, selects, notices, *, n: int) -> int:
+    """Largest degree the distinct x values support; error or notice when it binds.
+
+    Data at a single x value support no curve at all: when the degree is being selected
+    (the caller did not ask for one) or there is a single point, that is said of the data
+    (field ``x``), not of ``model.min_degree``; a degree the caller fixed is named as such.
+    """
     cap = distinct - (1 if intercept else 0)
     if dmin > cap or (not selects and dmax > cap):
         need = dmin + (1 if intercept else 0)
+        if distinct <= 1 and dmin >= 1 and (selects or n == 1):
+            what = "a single data point" if n == 1 else f"{n} points, all at the same x"
+            raise DesignError(
+                f"Too few data to fit a curve: {what}; a degree-{dmin} curve needs points at "
+                f"{need} or more distinct x values.", field="x",
+                fix=f"Send points at {need} or more distinct x values (more to judge the "
+                    "fit).")
         raise DesignError(
             f"Degree {dmin} needs at least {need} distinct x values; the data have {distinct}.",
             field="model.degree" if not selects else "model.min_degree",
