@@ -123,6 +123,13 @@ EXAMPLES: dict[str, ProblemExample] = {
         "Finish the equation and declare every parameter.",
         _post({**_FIT, "model": {"family": "expression", "expression": "a*x + b",
                                  "parameters": {"a": 1.0, "b": 0.0}}})),
+    "invalid_table": ProblemExample(
+        _post(b"id,x,y\na,1,1.1\na,2,1.9\na,3,3.2\n", path="/v1/batch",
+              content_type="application/vnd.apache.arrow.stream"),
+        "A CSV text is not an Arrow stream: write the table with an Arrow library (in Python "
+        "pyarrow.ipc.new_stream, or client.batch_frame), or send the series as JSON.",
+        _post({"series": [{"id": "a", "x": [1, 2, 3], "y": [1.1, 1.9, 3.2]}]},
+              path="/v1/batch")),
     "invalid_document": ProblemExample(
         _post({"fitted_model": {"schema_version": 7, "family": "polynomial"}, "x": [7.5]},
               path="/v1/predict"),

@@ -117,6 +117,9 @@ CASES = {
         "degree": 0, "intercept": False}}))],
     "invalid_expression": [("not a plain arithmetic expression", {}, _post({**FIT, "model": {
         "family": "expression", "expression": "a*x +", "parameters": {"a": 1.0}}}))],
+    "invalid_table": [("cannot be read as its `Content-Type` says", {}, _post(
+        b"id,x,y\na,1,1.1\n", "/v1/batch",
+        content_type="application/vnd.apache.arrow.stream"))],
     "invalid_document": [
         ("malformed", {}, _post({"fitted_model": _without("r_factor"), "x": [2.5]},
                                 "/v1/predict")),

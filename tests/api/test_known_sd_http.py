@@ -59,8 +59,8 @@ def test_stored_document_predicts_the_grid_and_inverts(client):
 
 
 @pytest.mark.parametrize("field, value, code", [
-    ("weighting", "relative", "validation_error"),   # the schema knows only known_sd
-    ("weighting", None, "validation_error"),
+    ("weighting", "relative", "invalid_document"),   # the schema knows only known_sd
+    ("weighting", None, "invalid_document"),
     ("sigma", 0.9, "invalid_document"),              # known SDs mean sigma 1
     ("weighted", False, "invalid_document")])
 def test_tampered_weighting_is_refused_by_name(client, field, value, code):
