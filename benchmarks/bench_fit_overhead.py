@@ -15,8 +15,10 @@ event-loop client (``benchmarks/bench_http.py:load``); the first line printed sa
 The request body is the same for both: n = 50 seeded points, degree chosen from 1..4 by
 sequential F, a 200-point grid.
 
-Printed: requests/s and p99 latency of each server per round, the median ratio of
-throughputs (target >= 0.5, issue 17) and the median p99 of both. Nothing is asserted.
+Printed: requests/s, p99 latency and server CPU time per request (master and workers, from
+/proc) of each server per round, the median ratio of throughputs (target >= 0.5, issue 17),
+the median p99 of both, and the ratio of CPU time per request (unaffected by other work on a
+shared machine, unlike req/s). Nothing is asserted.
 
 Run: ``.venv/bin/python benchmarks/bench_fit_overhead.py [--seconds 4 --rounds 5]``.
 """
@@ -120,6 +122,23 @@ class Server:
         tail = self.log_path.read_text(errors="replace")[-3000:]
         raise SystemExit(f"{self.name} server did not answer 200 on {path}:\n{tail}")
 
+    def cpu_seconds(self) -> float:
+        """CPU time (user + system) used so far by this server's master and live workers."""
+        pids = [self.process.pid]
+        try:
+            children = Path(f"/proc/{self.process.pid}/task/{self.process.pid}/children")
+            pids += [int(p) for p in children.read_text().split()]
+        except OSError:
+            return float("nan")
+        total = 0
+        for pid in pids:
+            try:
+                fields = Path(f"/proc/{pid}/stat").read_text().rsplit(")", 1)[1].split()
+            except OSError:
+                continue
+            total += int(fields[11]) + int(fields[12])  # utime, stime (clock ticks)
+        return total / os.sysconf("SC_CLK_TCK")
+
     def stop(self) -> None:
         if self.process.poll() is None:
             os.killpg(self.process.pid, 15)
@@ -153,12 +172,13 @@ def wrk_load(port: int, path: str, script: Path, seconds: float) -> dict:
                           "-s", str(script), f"http://127.0.0.1:{port}{path}"],
                          capture_output=True, text=True, timeout=seconds + 60, check=True).stdout
     rps = float(re.search(r"Requests/sec:\s+([\d.]+)", out).group(1))
+    count = int(re.search(r"(\d+) requests in", out).group(1))
     p99 = _ms(re.search(r"^\s+99%\s+(\S+)", out, re.M).group(1))
     bad = re.search(r"Non-2xx or 3xx responses:\s+(\d+)", out)
     sock = re.search(r"Socket errors: connect (\d+), read (\d+), write (\d+), timeout (\d+)", out)
     errors = (int(bad.group(1)) if bad else 0) + (
         sum(int(v) for v in sock.groups()[:1] + sock.groups()[2:]) if sock else 0)
-    return {"rps": rps, "p99": p99, "errors": errors}
+    return {"rps": rps, "p99": p99, "errors": errors, "count": count}
 
 
 def python_load(port: int, path: str, body: bytes, seconds: float) -> dict:
@@ -166,7 +186,8 @@ def python_load(port: int, path: str, body: bytes, seconds: float) -> dict:
     from benchmarks.bench_http import load, raw_request
 
     result = load(port, raw_request(path, body), CONNECTIONS, seconds)
-    return {"rps": result["rps"], "p99": result["p99"], "errors": result["errors"]}
+    return {"rps": result["rps"], "p99": result["p99"], "errors": result["errors"],
+            "count": result["n"]}
 
 
 def median(values: list[float]) -> float:
@@ -212,10 +233,14 @@ def main(argv=None) -> int:
 
 def run_rounds(servers, paths, body, script, args, use_wrk) -> list[dict]:
     def once(name, seconds):
-        port = servers[name].port
+        server = servers[name]
+        cpu = server.cpu_seconds()
         if use_wrk:
-            return wrk_load(port, paths[name], script, seconds)
-        return python_load(port, paths[name], body, seconds)
+            result = wrk_load(server.port, paths[name], script, seconds)
+        else:
+            result = python_load(server.port, paths[name], body, seconds)
+        result["cpu_ms"] = (server.cpu_seconds() - cpu) / max(result["count"], 1) * 1e3
+        return result
 
     for name in servers:  # a short unmeasured round each: every worker warm
         once(name, 1.0)
@@ -225,9 +250,10 @@ def run_rounds(servers, paths, body, script, args, use_wrk) -> list[dict]:
     print(f"rounds: {args.rounds} x {args.seconds:g} s per app, alternated")
     for i, result in enumerate(rounds, 1):
         echo, fit = result["echo"], result["curvewise"]
-        print(f"  round {i}: echo {echo['rps']:7.0f} req/s p99 {echo['p99']:6.2f} ms | "
-              f"/v1/fit {fit['rps']:7.0f} req/s p99 {fit['p99']:6.2f} ms | "
-              f"ratio {fit['rps'] / echo['rps']:.2f}  (errors {echo['errors']}/{fit['errors']})")
+        print(f"  round {i}: echo {echo['rps']:6.0f} req/s p99 {echo['p99']:6.2f} ms "
+              f"cpu {echo['cpu_ms']:.2f} ms/req | /v1/fit {fit['rps']:6.0f} req/s p99 "
+              f"{fit['p99']:6.2f} ms cpu {fit['cpu_ms']:.2f} ms/req | ratio "
+              f"{fit['rps'] / echo['rps']:.2f}  (errors {echo['errors']}/{fit['errors']})")
     return rounds
 
 
@@ -241,6 +267,9 @@ def report(rounds: list[dict], log_lines: int) -> None:
           f"{median([r['curvewise']['p99'] for r in rounds]):.2f} ms")
     print(f"throughput ratio /v1/fit / echo: median {median(ratios):.2f} "
           f"(rounds: {', '.join(f'{r:.2f}' for r in ratios)})  target >= 0.5")
+    cpu = [r["echo"]["cpu_ms"] / r["curvewise"]["cpu_ms"] for r in rounds]
+    print(f"server CPU time per request, echo / /v1/fit: median {median(cpu):.2f} (steadier "
+          "than req/s when the machine is shared: other work does not enter it)")
     print(f"curvewise access-log lines written during the run: {log_lines} (logging was on)")
 
 

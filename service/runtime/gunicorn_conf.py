@@ -8,7 +8,10 @@ defaults to the number of usable cores.
 
 from __future__ import annotations
 
+import logging
 import os
+
+from gunicorn import glogging
 
 BLAS_THREAD_VARS = ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS",
                     "VECLIB_MAXIMUM_THREADS", "NUMEXPR_NUM_THREADS")
@@ -66,6 +69,23 @@ logconfig_dict = {  # gunicorn's own messages as JSON lines too (same shape as t
                 "gunicorn.access": {"level": "WARNING", "handlers": [], "propagate": False}},
 }
 forwarded_allow_ips = "127.0.0.1"
+
+
+class AppAccessLogger(glogging.Logger):
+    """gunicorn's logger, minus building access lines that are never written.
+
+    The app writes one JSON access line per request (``service.runtime.observability``);
+    ``gunicorn.access`` has no handler and level WARNING (``logconfig_dict`` above), yet
+    gunicorn would still gather every line's fields before dropping it: about 5% of the
+    worker's time on a small /v1/fit (cProfile of a worker under load).
+    """
+
+    def access(self, resp, req, environ, request_time):
+        if self.access_log.isEnabledFor(logging.INFO):
+            super().access(resp, req, environ, request_time)
+
+
+logger_class = AppAccessLogger
 proc_name = "curvewise"
 
 
