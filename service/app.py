@@ -10,7 +10,7 @@ from service import __version__
 from service.api import BLUEPRINT_MODULES
 from service.http import errors as error_handling
 from service.http.jsonio import OrjsonProvider
-from service.runtime import guard, observability, security
+from service.runtime import guard, observability, security, warming
 from service.runtime.config import Settings
 
 
@@ -44,4 +44,5 @@ def create_app(overrides: dict | None = None) -> Flask:
     observability.install(app)  # first: request id, timing and logs see every answer
     security.install(app)       # then tokens, CORS and headers
     guard.install(app)          # then the early 413 and the compute deadline
+    warming.install(app)        # then 503 while this process's kernels warm up
     return app
