@@ -10,6 +10,11 @@ accepts connections, and until they are ready every request gets a ``503`` probl
 served all along: the liveness probe ``/healthz`` (the process is alive; an orchestrator must
 not restart it for compiling), ``/metrics`` and the problem pages under ``/problems/``.
 
+Readiness belongs to the server, not to one worker: once any worker is warm (the instance's
+marker file exists), a worker still warming holds a request until it is warm itself (its
+warm-up started at the same moment, so that is the time between the first worker and the
+last) rather than refusing it; a worker replacing another warms up before it accepts.
+
 After the warm-up, the objects alive (modules, the app, compiled code) are moved out of the
 garbage collector's reach (``gc.freeze``): a full collection no longer walks them.
 
@@ -34,6 +39,7 @@ from service.http.problems import ProblemKind, register_kind
 from service.runtime.kernel_cache import startup_message
 
 RETRY_AFTER_SECONDS = 5
+WAIT_WHEN_OTHERS_SERVE = 30.0  # seconds a request waits for a worker that lags the others
 DELAY_ENV = "CURVEWISE_TEST_WARMUP_DELAY"
 SERVED_WHILE_WARMING = frozenset({"/healthz", "/metrics"})  # and the pages under /problems/
 log = logging.getLogger("curvewise.warmup")
@@ -46,11 +52,17 @@ register_kind(ProblemKind(
 
 
 class _Warmth:
-    """This process's warm-up: when it started and whether it has finished."""
+    """This process's warm-up: when it started, whether it has finished, and the instance's
+    marker file (present once any worker of this server is warm)."""
 
-    def __init__(self) -> None:
+    def __init__(self, marker: Path | None) -> None:
         self.started = time.monotonic()
         self.done = threading.Event()
+        self.marker = marker
+
+    def others_serve(self) -> bool:
+        """Whether another worker of this server is warm already (the server is ready)."""
+        return self.marker is not None and self.marker.exists()
 
 
 _warmth: _Warmth | None = None
@@ -76,8 +88,8 @@ def start(*, freeze: bool = True, marker: Path | None = None) -> threading.Threa
         The background thread, or None when the warm-up ran here and is done.
     """
     global _warmth
-    warmth = _warmth = _Warmth()
-    if marker is not None and marker.exists():
+    warmth = _warmth = _Warmth(marker)
+    if warmth.others_serve():
         _warm(warmth, freeze, marker)
         return None
     log.info("%s; answering 503 (Retry-After) until ready", startup_message())
@@ -101,12 +113,12 @@ def _warm(warmth: _Warmth, freeze: bool, marker: Path | None) -> None:
     except Exception:  # serve anyway: a kernel then compiles on first use, errors surface
         log.exception("the numerical kernels' warm-up failed; serving without it")
     finally:
-        warmth.done.set()
-        if marker is not None:
+        if marker is not None:  # before done: a worker answering 200 implies the marker
             try:
                 marker.touch()
             except OSError:
                 pass
+        warmth.done.set()
         seconds = time.monotonic() - warmth.started
         record = logging.LogRecord(log.name, logging.INFO, __file__, 0,
                                    "numerical kernels ready after %.1f s", (seconds,), None)
@@ -134,6 +146,8 @@ def install(app: Flask) -> None:
         path = request.path
         if path in SERVED_WHILE_WARMING or path.startswith("/problems/"):
             return None
+        if _warmth.others_serve() and _warmth.done.wait(WAIT_WHEN_OTHERS_SERVE):
+            return None  # the server is ready: this worker is moments behind the first one
         detail = ("The server has just started and is still compiling or loading its numerical "
                   "kernels (about a minute the first time after an install). Retry in "
                   f"{RETRY_AFTER_SECONDS} s; GET /readyz answers 200 once ready.")
