@@ -20,6 +20,10 @@ Printed: requests/s, p99 latency and server CPU time per request (master and wor
 the median p99 of both, and the ratio of CPU time per request (unaffected by other work on a
 shared machine, unlike req/s). Nothing is asserted.
 
+``--baseline CHECKOUT`` adds a third server, /v1/fit from another checkout (say the commit
+before a change, exported with ``git archive``), to the same alternating rounds, so before and
+after are measured side by side under the same machine load.
+
 Run: ``.venv/bin/python benchmarks/bench_fit_overhead.py [--seconds 4 --rounds 5]``.
 """
 
@@ -95,14 +99,14 @@ def post(port: int, path: str, body: bytes, timeout: float = 10.0) -> bytes:
 class Server:
     """One gunicorn with the project's settings serving ``target`` on a free port."""
 
-    def __init__(self, name: str, target: str, workdir: Path) -> None:
+    def __init__(self, name: str, target: str, workdir: Path, root: Path = ROOT) -> None:
         self.name, self.port = name, free_port()
         self.log_path = workdir / f"{name}.log"
-        env = {**os.environ, "PYTHONPATH": str(ROOT), "PYTHONUNBUFFERED": "1"}
+        env = {**os.environ, "PYTHONPATH": str(root), "PYTHONUNBUFFERED": "1"}
         command = [sys.executable, "-m", "gunicorn", "-c", "python:service.runtime.gunicorn_conf",
                    "--workers", str(WORKERS), "--bind", f"127.0.0.1:{self.port}", target]
         self.log = open(self.log_path, "wb")  # noqa: SIM115 - closed in stop()
-        self.process = subprocess.Popen(command, cwd=ROOT, env=env, stdout=self.log,
+        self.process = subprocess.Popen(command, cwd=root, env=env, stdout=self.log,
                                         stderr=subprocess.STDOUT, stdin=subprocess.DEVNULL,
                                         start_new_session=True)
 
@@ -202,27 +206,33 @@ def main(argv=None) -> int:
     parser.add_argument("--rounds", type=int, default=5, help="rounds of each app, alternated")
     parser.add_argument("--python-load", action="store_true",
                         help="use the Python event-loop client even if wrk is installed")
+    parser.add_argument("--baseline", type=Path, metavar="CHECKOUT",
+                        help="also serve /v1/fit from another checkout of the repository (e.g. "
+                             "an older commit exported with git archive), in the same rounds")
     args = parser.parse_args(argv)
     body = request_body()
     use_wrk = shutil.which("wrk") is not None and not args.python_load
     print("load generator: " + ("wrk (1 thread)" if use_wrk else
                                 "Python event-loop client (benchmarks/bench_http.py:load)")
           + f", {CONNECTIONS} connections; gunicorn: {WORKERS} workers, settings of "
-          "service/runtime/gunicorn_conf.py for both apps")
+          "service/runtime/gunicorn_conf.py for every app")
     print(f"cores: {os.cpu_count()}  load average before: {os.getloadavg()[0]:.2f} "
-          "(other work on the machine lowers both rates)")
+          "(other work on the machine lowers every rate)")
     with tempfile.TemporaryDirectory(prefix="curvewise-bench-") as tmp:
         workdir = Path(tmp)
         (workdir / "body.json").write_bytes(body)
         script = workdir / "post.lua"
         script.write_text(_WRK_SCRIPT.format(body=workdir / "body.json"))
         servers = {"echo": Server("echo", "benchmarks.bench_fit_overhead:echo_app()", workdir),
-                   "curvewise": Server("curvewise", "service.app:create_app()", workdir)}
-        paths = {"echo": ECHO_PATH, "curvewise": FIT_PATH}
+                   "/v1/fit": Server("curvewise", "service.app:create_app()", workdir)}
+        if args.baseline is not None:
+            servers["baseline /v1/fit"] = Server("baseline", "service.app:create_app()", workdir,
+                                                 root=args.baseline.resolve())
         try:
             for name, server in servers.items():
-                server.wait(paths[name], body, timeout=300.0)  # a cold numba cache: ~1 min
-            rounds = run_rounds(servers, paths, body, script, args, use_wrk)
+                server.wait(ECHO_PATH if name == "echo" else FIT_PATH, body,
+                            timeout=300.0)  # a cold numba cache: ~1 min
+            rounds = run_rounds(servers, body, script, args, use_wrk)
         finally:
             for server in servers.values():
                 server.stop()
@@ -231,14 +241,15 @@ def main(argv=None) -> int:
     return 0
 
 
-def run_rounds(servers, paths, body, script, args, use_wrk) -> list[dict]:
+def run_rounds(servers, body, script, args, use_wrk) -> list[dict]:
     def once(name, seconds):
         server = servers[name]
+        path = ECHO_PATH if name == "echo" else FIT_PATH
         cpu = server.cpu_seconds()
         if use_wrk:
-            result = wrk_load(server.port, paths[name], script, seconds)
+            result = wrk_load(server.port, path, script, seconds)
         else:
-            result = python_load(server.port, paths[name], body, seconds)
+            result = python_load(server.port, path, body, seconds)
         result["cpu_ms"] = (server.cpu_seconds() - cpu) / max(result["count"], 1) * 1e3
         return result
 
@@ -249,27 +260,32 @@ def run_rounds(servers, paths, body, script, args, use_wrk) -> list[dict]:
         rounds.append({name: once(name, args.seconds) for name in servers})
     print(f"rounds: {args.rounds} x {args.seconds:g} s per app, alternated")
     for i, result in enumerate(rounds, 1):
-        echo, fit = result["echo"], result["curvewise"]
-        print(f"  round {i}: echo {echo['rps']:6.0f} req/s p99 {echo['p99']:6.2f} ms "
-              f"cpu {echo['cpu_ms']:.2f} ms/req | /v1/fit {fit['rps']:6.0f} req/s p99 "
-              f"{fit['p99']:6.2f} ms cpu {fit['cpu_ms']:.2f} ms/req | ratio "
-              f"{fit['rps'] / echo['rps']:.2f}  (errors {echo['errors']}/{fit['errors']})")
+        echo = result["echo"]
+        parts = [f"{name} {r['rps']:5.0f} req/s p99 {r['p99']:6.2f} ms cpu {r['cpu_ms']:.2f} ms"
+                 + ("" if name == "echo" else f" ratio {r['rps'] / echo['rps']:.2f}")
+                 + (f" ({r['errors']} errors)" if r["errors"] else "")
+                 for name, r in result.items()]
+        print(f"  round {i}: " + " | ".join(parts))
     return rounds
 
 
 def report(rounds: list[dict], log_lines: int) -> None:
-    ratios = [r["curvewise"]["rps"] / r["echo"]["rps"] for r in rounds]
-    echo_rps = median([r["echo"]["rps"] for r in rounds])
-    fit_rps = median([r["curvewise"]["rps"] for r in rounds])
-    print(f"echo:    {echo_rps:7.0f} req/s  p99 {median([r['echo']['p99'] for r in rounds]):.2f} ms"
-          " (medians over rounds)")
-    print(f"/v1/fit: {fit_rps:7.0f} req/s  p99 "
-          f"{median([r['curvewise']['p99'] for r in rounds]):.2f} ms")
-    print(f"throughput ratio /v1/fit / echo: median {median(ratios):.2f} "
-          f"(rounds: {', '.join(f'{r:.2f}' for r in ratios)})  target >= 0.5")
-    cpu = [r["echo"]["cpu_ms"] / r["curvewise"]["cpu_ms"] for r in rounds]
-    print(f"server CPU time per request, echo / /v1/fit: median {median(cpu):.2f} (steadier "
-          "than req/s when the machine is shared: other work does not enter it)")
+    print("medians over rounds:")
+    for name in rounds[0]:
+        rps = median([r[name]["rps"] for r in rounds])
+        p99 = median([r[name]["p99"] for r in rounds])
+        cpu = median([r[name]["cpu_ms"] for r in rounds])
+        print(f"  {name:17s} {rps:6.0f} req/s  p99 {p99:6.2f} ms  server CPU {cpu:.2f} ms/request")
+    for name in rounds[0]:
+        if name == "echo":
+            continue
+        ratios = [r[name]["rps"] / r["echo"]["rps"] for r in rounds]
+        cpu = [r["echo"]["cpu_ms"] / r[name]["cpu_ms"] for r in rounds]
+        print(f"throughput ratio {name} / echo: median {median(ratios):.2f} (rounds: "
+              f"{', '.join(f'{v:.2f}' for v in ratios)})  target >= 0.5; ratio of server CPU "
+              f"per request, echo / {name}: median {median(cpu):.2f}")
+    print("(CPU per request is steadier than req/s when the machine is shared: other work does "
+          "not enter it)")
     print(f"curvewise access-log lines written during the run: {log_lines} (logging was on)")
 
 
