@@ -114,3 +114,27 @@ def test_make_run_takes_the_port():
     default = subprocess.run(["make", "-n", "run"], cwd=ROOT, capture_output=True, text=True,
                              timeout=60, env={k: v for k, v in os.environ.items() if k != "PORT"})
     assert "--port 8000" in default.stdout
+
+
+def test_a_lagging_worker_holds_requests_once_another_worker_is_warm(tmp_path, monkeypatch):
+    # In process, as in one gunicorn worker: while its own warm-up runs (slowed by the test
+    # hook) it refuses with 503; once the server's marker says another worker is warm, it
+    # holds the request until its own kernels are loaded and answers it.
+    from service.app import create_app
+    from service.runtime import warming
+
+    monkeypatch.setenv(warming.DELAY_ENV, "1.5")
+    client = create_app().test_client()
+    marker = tmp_path / "kernels-warm"
+    thread = warming.start(freeze=False, marker=marker)
+    try:
+        refused = client.get("/readyz")
+        assert refused.status_code == 503 and refused.headers["Retry-After"]
+        assert refused.get_json()["code"] == "warming_up"
+        assert client.get("/healthz").status_code == 200
+        marker.touch()  # another worker of this server is warm now
+        assert client.get("/readyz").status_code == 200  # held, then answered
+        assert not warming.warming()
+    finally:
+        thread.join(120)
+        warming._warmth = None  # this test process is not a warming worker
