@@ -20,17 +20,25 @@ import numpy as np
 CHECKSUM_PREFIX = "sha256:"
 
 
-def checksum(body: Mapping[str, Any]) -> str:
-    """The ``sha256:<hex>`` checksum of a document's canonical form (``checksum`` excluded)."""
-    return CHECKSUM_PREFIX + hashlib.sha256(canonical_bytes(body)).hexdigest()
+def checksum(body: Mapping[str, Any], *, written: bool = False) -> str:
+    """The ``sha256:<hex>`` checksum of a document's canonical form (``checksum`` excluded).
+
+    ``written=True``: every float of ``body`` came from :func:`to_float`, :func:`to_vector`
+    or :func:`to_matrix` (a writer's own body), so negative zeros are gone already.
+    """
+    return CHECKSUM_PREFIX + hashlib.sha256(canonical_bytes(body, written=written)).hexdigest()
 
 
-def canonical_bytes(body: Mapping[str, Any]) -> bytes:
+def canonical_bytes(body: Mapping[str, Any], *, written: bool = False) -> bytes:
     """Canonical JSON of every field but ``checksum``: sorted keys, no spaces, float repr.
 
     Negative zero is written as ``0.0`` (many JSON tools drop the sign of zero).
     """
-    payload = {key: _unsigned_zero(value) for key, value in body.items() if key != "checksum"}
+    if written:
+        payload = {key: value for key, value in body.items() if key != "checksum"}
+    else:
+        payload = {key: _unsigned_zero(value) for key, value in body.items()
+                   if key != "checksum"}
     return _CANONICAL.encode(payload).encode("ascii")
 
 

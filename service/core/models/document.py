@@ -76,7 +76,7 @@ def to_document(fitted: FittedPolynomial) -> dict:
         "weighted": bool(fitted.weighted),
         "level": to_float(fitted.level),
     }
-    body["checksum"] = checksum(body)
+    body["checksum"] = checksum(body, written=True)  # every float above went through to_float
     return body
 
 
