@@ -8,6 +8,7 @@ STAMP  := $(VENV)/.installed-$(shell cat pyproject.toml client/pyproject.toml 2>
 .PHONY: run test bench lint clean install
 
 $(STAMP): pyproject.toml
+	@echo "curvewise: installing into $(VENV) (first run, or after a dependency change)"
 	test -x $(BIN)/python || $(PYTHON) -m venv $(VENV)
 	$(BIN)/python -m pip install --quiet --upgrade pip
 	$(BIN)/python -m pip install --quiet -e ./client -e '.[test]'
