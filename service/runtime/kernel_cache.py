@@ -9,6 +9,7 @@ from pathlib import Path
 CORE_DIR = Path(__file__).resolve().parents[1] / "core"
 COLD_MESSAGE = "compiling numerical kernels, about a minute the first time"
 WARM_MESSAGE = "loading the compiled numerical kernels, a second or two"
+CACHED_ENV = "CURVEWISE_KERNELS_CACHED"  # set by the gunicorn master at start: "1" or "0"
 
 
 def kernels_cached() -> bool:
@@ -20,5 +21,8 @@ def kernels_cached() -> bool:
 
 
 def startup_message() -> str:
-    """What a starting server is about to do with its kernels."""
-    return WARM_MESSAGE if kernels_cached() else COLD_MESSAGE
+    """What a starting server is about to do with its kernels (as the master found the cache
+    at start, when it said: importing the core may already have compiled a kernel or two)."""
+    said = os.environ.get(CACHED_ENV)
+    cached = kernels_cached() if said is None else said == "1"
+    return WARM_MESSAGE if cached else COLD_MESSAGE

@@ -97,6 +97,7 @@ def test_two_servers_have_their_own_control_sockets(tmp_path):
 def test_serve_says_when_it_compiles_the_kernels(tmp_path, monkeypatch):
     from service.runtime.cli import announce
 
+    monkeypatch.delenv("CURVEWISE_KERNELS_CACHED", raising=False)  # as before gunicorn starts
     monkeypatch.setenv("NUMBA_CACHE_DIR", str(tmp_path))  # an empty cache: a cold start
     text = announce("127.0.0.1", 8080, 2)
     assert "compiling numerical kernels, about a minute the first time" in text
