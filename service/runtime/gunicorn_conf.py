@@ -96,10 +96,11 @@ def on_starting(server):
     """Prepare an empty metrics directory for the workers (service.runtime.observability),
     note whether the kernels are cached (for the workers' first log line), and give this
     gunicorn its own control socket."""
-    from service.runtime import kernel_cache, observability
+    from service.runtime import kernel_cache  # before anything imports the core, which
+    os.environ[kernel_cache.CACHED_ENV] = "1" if kernel_cache.kernels_cached() else "0"
+    from service.runtime import observability  # may compile a kernel or two on import
 
     observability.prepare_multiprocess_dir()
-    os.environ[kernel_cache.CACHED_ENV] = "1" if kernel_cache.kernels_cached() else "0"
     folder = tempfile.mkdtemp(prefix="curvewise-gunicorn-")
     _runtime_dirs.append(folder)
     os.environ[RUNTIME_DIR_ENV] = folder  # inherited by the workers
