@@ -26,6 +26,18 @@ COMPARE_RULES = ("aicc", "aic", "bic", "f_test")
 MAX_CANDIDATES = 8
 
 
+_LOADERS: dict[type[Schema], Schema] = {}
+
+
+def _loader(schema: type[Schema]) -> Schema:
+    """One shared instance per schema class: building a schema deep-copies and binds its
+    fields (~0.1 ms, a tenth of a small /v1/fit); loading keeps no state on the instance."""
+    instance = _LOADERS.get(schema)
+    if instance is None:
+        instance = _LOADERS[schema] = schema()
+    return instance
+
+
 def component_name(schema: type[Schema]) -> str:
     """The OpenAPI component name of a model schema (its class name without "Schema")."""
     return schema.__name__.removesuffix("Schema")
@@ -50,12 +62,12 @@ class ModelField(fields.Field):
             if not self.comparisons:
                 raise ValidationError({"candidates": ["A candidate cannot hold candidates. "
                                                       "List plain model objects."]})
-            return CandidatesSchema().load(value)
+            return _loader(CandidatesSchema).load(value)
         family = value.get("family", "polynomial")
         schema = MODEL_SCHEMAS.get(family) if isinstance(family, str) else None
         if schema is None:
             raise ValidationError({"family": [one_of_message(tuple(MODEL_SCHEMAS))]})
-        return schema().load(value)
+        return _loader(schema).load(value)
 
 
 class CandidatesSchema(StrictSchema):

@@ -11,7 +11,7 @@ from service.api import BLUEPRINT_MODULES, doc_examples
 from service.http import errors as error_handling
 from service.http.examples import ExamplesPlugin
 from service.http.jsonio import OrjsonProvider
-from service.runtime import guard, observability, security
+from service.runtime import guard, observability, security, warming
 from service.runtime.config import Settings
 
 
@@ -46,4 +46,5 @@ def create_app(overrides: dict | None = None) -> Flask:
     observability.install(app)  # first: request id, timing and logs see every answer
     security.install(app)       # then tokens, CORS and headers
     guard.install(app)          # then the early 413 and the compute deadline
+    warming.install(app)        # then 503 while this process's kernels warm up
     return app

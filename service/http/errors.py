@@ -10,6 +10,7 @@ validation errors from the schemas keep their status; limits and timeouts
 from __future__ import annotations
 
 import logging
+from types import FunctionType
 
 from flask import Flask, Response, request
 from flask_smorest import Api
@@ -74,8 +75,24 @@ def fit_error_body(error: FitError) -> dict:
                         code=error.code)
 
 
+MAX_REMEMBERED_FUNCTIONS = 1000
+
+
 class CurvewiseFlask(Flask):
     """Flask app whose unhandled exceptions are logged once, by the 500 handler below."""
+
+    def ensure_sync(self, func):
+        """Flask's answer per plain function, remembered: Flask asks it for every hook and
+        view wrapper of every request (a dozen ``inspect`` calls per request otherwise)."""
+        if type(func) is not FunctionType:  # bound methods are new objects on every call
+            return super().ensure_sync(func)
+        known = self.__dict__.setdefault("_sync_functions", {})
+        sync = known.get(func)
+        if sync is None:
+            sync = super().ensure_sync(func)
+            if len(known) < MAX_REMEMBERED_FUNCTIONS:  # hooks and views: a few dozen
+                known[func] = sync
+        return sync
 
     def log_exception(self, exc_info) -> None:
         """Skip Flask's own ERROR line: ``CurvewiseApi`` logs the 500 with its traceback."""

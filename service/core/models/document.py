@@ -78,7 +78,7 @@ def to_document(fitted: FittedPolynomial) -> dict:
     }
     if fitted.weighting != "relative":  # relative documents stay exactly as before
         body["weighting"] = str(fitted.weighting)
-    body["checksum"] = checksum(body)
+    body["checksum"] = checksum(body, written=True)  # every float above went through to_float
     return body
 
 
