@@ -147,6 +147,9 @@ EXAMPLES: dict[str, ProblemExample] = {
     "unsupported_transfer_coding": ProblemExample(
         None, "Send the body with a Content-Length, or chunked.", _post(_FIT),
         raw="POST /v1/fit HTTP/1.1\r\nTransfer-Encoding: gzip, chunked\r\n\r\n..."),
+    "warming_up": ProblemExample(
+        None, "Wait the seconds in Retry-After and send the same request again (GET /readyz "
+              "answers 200 once the server is ready).", _post(_FIT)),
     "timeout": ProblemExample(
         None, "Send fewer points per request or a lower max_degree, or use /v1/batch; the "
               "limit is CURVEWISE_REQUEST_TIMEOUT seconds of compute.", _post(_FIT)),

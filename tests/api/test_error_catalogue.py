@@ -173,7 +173,7 @@ def test_the_readme_table_and_the_server_list_the_same_codes():
 
 
 PROXY_ROWS = {code for code, (_, when) in ROWS.items() if when.startswith(PROXY_MARK)}
-BUG_AND_DEADLINE = {"internal_error", "timeout"}  # the last test of this module
+BUG_AND_DEADLINE = {"internal_error", "timeout", "warming_up"}  # the last tests of this module
 
 
 def test_the_proxys_rows_are_the_proxys_codes():
@@ -220,3 +220,14 @@ def test_a_bug_and_a_deadline_get_their_rows(code, replacement, settings, monkey
     app = create_app(settings)
     app.config.update(TESTING=False, PROPAGATE_EXCEPTIONS=False)
     assert_problem(send(app, _post(FIT)), ROWS[code][0], code)
+
+
+def test_a_server_still_warming_up_gets_its_row(monkeypatch):
+    # a worker whose kernels are still compiling (tests/live/test_readiness.py shows it live)
+    from service.runtime import warming
+
+    assert "compiling" in ROWS["warming_up"][1] or "kernels" in ROWS["warming_up"][1]
+    monkeypatch.setattr(warming, "_warmth", warming._Warmth(None))
+    response = send(create_app({}), _post(FIT))
+    assert_problem(response, ROWS["warming_up"][0], "warming_up")
+    assert response.headers["Retry-After"] == str(warming.RETRY_AFTER_SECONDS)

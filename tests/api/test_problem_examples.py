@@ -17,7 +17,8 @@ from service.http.problems import CATALOGUE
 from tests.api.helpers import assert_problem
 
 NOT_SENT_IN_PROCESS = {"invalid_body", "malformed_request", "uri_too_long", "headers_too_large",
-                       "unsupported_transfer_coding", "internal_error", "timeout"}
+                       "unsupported_transfer_coding", "internal_error", "timeout",
+                       "warming_up"}  # a state of the server, not of a request
 
 
 @pytest.fixture(scope="module")
