@@ -9,6 +9,7 @@ single-process development server instead.
 from __future__ import annotations
 
 import argparse
+import logging
 import os
 import sys
 
@@ -60,11 +61,25 @@ def announce(host: str, port: int, workers: int | None) -> str:
             "Retry-After, and GET /readyz answers 200 once ready")
 
 
+def say(text: str) -> None:
+    """Tell the person starting the server what happens: plain lines on a terminal, one JSON
+    log object per line otherwise (a container's log collector reads every line as JSON)."""
+    if sys.stderr.isatty():
+        print(text, file=sys.stderr, flush=True)
+        return
+    from service.runtime.logs import JsonFormatter
+
+    formatter = JsonFormatter()
+    for line in text.splitlines():
+        record = logging.LogRecord("curvewise.serve", logging.INFO, __file__, 0, line, None, None)
+        print(formatter.format(record), file=sys.stderr, flush=True)
+
+
 def _serve_dev(host: str, port: int) -> int:
     from service.app import create_app
     from service.runtime import warming
 
-    print(announce(host, port, None), file=sys.stderr, flush=True)
+    say(announce(host, port, None))
     app = create_app()
     warming.start(freeze=False)
     app.run(host=host, port=port, debug=True, use_reloader=False)
@@ -89,7 +104,7 @@ def _serve_gunicorn(host: str, port: int, workers: int) -> int:
             return create_app()
 
     os.environ.setdefault("CURVEWISE_WORKERS", str(workers))
-    print(announce(host, port, workers), file=sys.stderr, flush=True)
+    say(announce(host, port, workers))
     _Server().run()
     return 0
 
