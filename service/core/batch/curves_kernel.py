@@ -68,8 +68,10 @@ def _attempt(fid, nl, u, y, sw, pooled, cols, coef, theta, f, ftrial, jac, jtria
     for j in range(theta.size - lin):
         theta[lin + j] = nl[j]
     ul, yl, swl, pure, m = pooled
+    p = theta.size
     code, rss, offset, iters = solve(fid, theta, ul[:m], yl[:m], swl[:m], f[:m], ftrial[:m],
-                                     jac[:m], jtrial[:m], mats, 200, pure, u.size)
+                                     jac[:p * m].reshape((p, m)), jtrial[:p * m].reshape((p, m)),
+                                     mats, 200, pure, u.size)
     return code <= SMALL_GRADIENT, rss, offset, iters, code
 
 
@@ -103,7 +105,7 @@ def _pool(u, y, w, order, ul, yl, swl):
 def _summary(p, x, y, w, sw, f, js, low, d, rss, cut_t, cut_cook, q, e, out, est_se):
     """Inference and residual checks at the estimates into ``out`` (stats row) and ``est_se``.
 
-    ``js`` is the scaled weighted Jacobian, ``low`` the Cholesky factor of ``js'js`` and
+    ``js`` is the scaled weighted Jacobian (p x n), ``low`` the Cholesky factor of ``js'js`` and
     ``d`` the column norms (as :func:`.curves_solver.solve` leaves them)."""
     n = y.size
     df = n - p
@@ -129,7 +131,7 @@ def _summary(p, x, y, w, sw, f, js, low, d, rss, cut_t, cut_cook, q, e, out, est
         for k in range(p):
             t = 0.0
             for j in range(k + 1):
-                t += inv[k, j] * js[i, j]
+                t += inv[k, j] * js[j, i]
             q[k, i] = t
     dd = ss = 0.0
     xbar = 0.0
@@ -195,7 +197,7 @@ def fit_rows(fid, x, y, w, offsets, rows, cut_t, cut_cook, always_grid, est, se,
     u_all, sw_all = np.empty(nmax), np.empty(nmax)
     f, ftrial, v = np.empty(nmax), np.empty(nmax), np.empty(nmax)
     lev, means = np.empty(nmax), np.empty(nmax)
-    jac, jtrial, mats = np.empty((nmax, p)), np.empty((nmax, p)), np.empty((5 * p + 7, p))
+    jac, jtrial, mats = np.empty(p * nmax), np.empty(p * nmax), np.empty((5 * p + 7, p))
     cols_all, q = np.empty((lin, nmax)), np.empty((p, nmax))
     coef, nl, theta, best = np.empty(lin), np.empty(2), np.empty(p), np.empty(p)
     ul_all, yl_all, swl_all = np.empty(nmax), np.empty(nmax), np.empty(nmax)
@@ -215,14 +217,14 @@ def fit_rows(fid, x, y, w, offsets, rows, cut_t, cut_cook, always_grid, est, se,
         found, best_rss, start, spent = False, np.inf, SHAPE, 0
         if shape_start(fid, xs, u, ys, lev, means, m, nl, v[:n]):
             ok, rss, _, iters, _ = _attempt(fid, nl, u, ys, sw, pooled, cols, coef, theta,
-                                            f[:n], ftrial[:n], jac[:n], jtrial[:n], mats)
+                                            f[:n], ftrial[:n], jac, jtrial, mats)
             spent += iters
             if ok:
                 found, best_rss = True, rss
                 best[:] = theta
         if (always_grid or not found) and grid_start(fid, xs, u, ys, sw, cols, coef, nl):
             ok, rss, _, iters, _ = _attempt(fid, nl, u, ys, sw, pooled, cols, coef, theta,
-                                            f[:n], ftrial[:n], jac[:n], jtrial[:n], mats)
+                                            f[:n], ftrial[:n], jac, jtrial, mats)
             spent += iters
             if ok and (not found or rss < best_rss * (1.0 - SAME_RSS)):
                 found, best_rss, start = True, rss, GRID
@@ -233,23 +235,24 @@ def fit_rows(fid, x, y, w, offsets, rows, cut_t, cut_cook, always_grid, est, se,
         if (fid == L4_LOG or fid == L4_LINEAR) and theta[2] < 0:   # the same curve, slope > 0
             theta[0], theta[1], theta[2] = best[1], best[0], -best[2]
         code, rss, offset, iters = solve(fid, theta, ul_all[:k], yl_all[:k], swl_all[:k],
-                                         f[:k], ftrial[:k], jac[:k], jtrial[:k], mats, 200,
-                                         ss_pure, n)
+                                         f[:k], ftrial[:k], jac[:p * k].reshape((p, k)),
+                                         jtrial[:p * k].reshape((p, k)), mats, 200, ss_pure, n)
         zz = 0.0
         for i in range(n):
             zz += sw[i] * ys[i] * sw[i] * ys[i]
         if code > SMALL_GRADIENT or not rss > EXACT_RTOL * EXACT_RTOL * zz or n <= p + 1:
             continue
         d = mats[4 * p + 2]
-        if not evaluate(fid, theta, u, f[:n], jac[:n]):
+        js = jac[:p * n].reshape((p, n))
+        if not evaluate(fid, theta, u, f[:n], js):
             continue
-        for i in range(n):                   # the scaled weighted Jacobian of the points
-            for j in range(p):
-                jac[i, j] *= sw[i] / d[j]
+        for j in range(p):                   # the scaled weighted Jacobian of the points
+            for i in range(n):
+                js[j, i] *= sw[i] / d[j]
         row = stats[r]
         row[_RSS], row[_OFFSET], row[_ITER], row[_TERM], row[_START] = \
             rss, offset, spent + iters, code, start
-        _summary(p, xs, ys, ws, sw, f[:n], jac[:n], mats[0:p], d, rss,
+        _summary(p, xs, ys, ws, sw, f[:n], js, mats[0:p], d, rss,
                  cut_t[n], cut_cook[n], q, resid[a:b], row, se[r])
         if not math.isfinite(row[_BP]) and n > 2:      # constant x: the single fit decides
             continue

@@ -25,6 +25,8 @@ import math
 import numba
 import numpy as np
 
+_SUM = {"reassoc", "nsz"}  # vectorized sums only; no assumption about NaN or infinity
+
 L4_LOG, L4_LINEAR, EXPONENTIAL, MICHAELIS_MENTEN = 0, 1, 2, 3
 COMPILED = {("logistic4", "log"): L4_LOG, ("logistic4", "linear"): L4_LINEAR,
             ("exponential", "linear"): EXPONENTIAL,
@@ -44,23 +46,38 @@ def _logistic4(theta, u, log_scale, f, jac):
     span = left - right
     centre = math.log(mid) if log_scale else mid
     scale_mid = -slope / mid if log_scale else -slope
-    for i in range(u.size):
-        if u[i] == -np.inf:                   # x = 0 on the log scale: z = 0 for slope > 0
-            f[i] = left if slope > 0 else np.nan
-            jac[i, 0], jac[i, 1], jac[i, 2], jac[i, 3] = 1.0, 0.0, 0.0, 0.0
-            continue
-        d = u[i] - centre
-        z = math.exp(slope * d)
+    n = u.size
+    for i in range(n):                        # branch-free loops: they vectorize
+        f[i] = math.exp(slope * (u[i] - centre))
+    for i in range(n):
+        z = f[i]
         g = 1.0 / (1.0 + z)
         f[i] = right + span * g
         dg = -g * g * span * z
-        jac[i, 0], jac[i, 1] = g, 1.0 - g
-        jac[i, 2], jac[i, 3] = dg * d, dg * scale_mid
+        jac[0, i], jac[1, i] = g, 1.0 - g
+        jac[2, i], jac[3, i] = dg * (u[i] - centre), dg * scale_mid
+    if log_scale:
+        for i in range(n):
+            if u[i] == -np.inf:               # x = 0 on the log scale: z = 0 for slope > 0
+                f[i] = left if slope > 0 else np.nan
+                jac[0, i], jac[1, i], jac[2, i], jac[3, i] = 1.0, 0.0, 0.0, 0.0
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy", fastmath=_SUM)
+def _all_finite(f, jac):
+    total = 0.0                     # NaN or inf anywhere makes the sum NaN
+    for i in range(f.size):
+        total += 0.0 * f[i]
+    for j in range(jac.shape[0]):
+        for i in range(jac.shape[1]):
+            total += 0.0 * jac[j, i]
+    return total == 0.0
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
 def evaluate(fid, theta, u, f, jac):
-    """Curve values ``f`` and Jacobian ``jac`` (n x p) of family ``fid`` at ``theta``.
+    """Curve values ``f`` and Jacobian ``jac`` (p x n: one row per parameter) of family
+    ``fid`` at ``theta``.
 
     ``u`` is the series' x on the family's scale (``ln x`` on the log scale, -inf at
     x = 0). Returns False when a value or derivative is not finite.
@@ -73,19 +90,14 @@ def evaluate(fid, theta, u, f, jac):
         for i in range(n):
             e = math.exp(-k * u[i])
             f[i] = plateau + (y0 - plateau) * e
-            jac[i, 0], jac[i, 1], jac[i, 2] = e, 1.0 - e, -(y0 - plateau) * u[i] * e
+            jac[0, i], jac[1, i], jac[2, i] = e, 1.0 - e, -(y0 - plateau) * u[i] * e
     else:
         vmax, km = theta[0], theta[1]
         for i in range(n):
             g = u[i] / (km + u[i])
             f[i] = vmax * g
-            jac[i, 0], jac[i, 1] = g, -vmax * g / (km + u[i])
-    total = 0.0
-    for i in range(n):              # one finiteness test: NaN or inf anywhere makes it NaN
-        total += 0.0 * f[i]
-        for j in range(jac.shape[1]):
-            total += 0.0 * jac[i, j]
-    return total == 0.0
+            jac[0, i], jac[1, i] = g, -vmax * g / (km + u[i])
+    return _all_finite(f, jac)
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")

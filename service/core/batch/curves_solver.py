@@ -30,6 +30,7 @@ TARGET_OFFSET = 1e-10
 ACCEPT_OFFSET = 1e-8       # the single fit's criterion (solver.DEFAULT_TOLERANCE)
 MAX_ITERATIONS = 200
 EPS = float(np.finfo(float).eps)
+_SUM = {"reassoc", "nsz"}  # vectorized sums only; no assumption about NaN or infinity
 FLAT_OFFSET = 1e-3         # as polish.FLAT_OFFSET
 PIVOT_FLOOR = 1e-24        # squared scaled pivot: below it the tangent plane is singular
 RELATIVE_OFFSET, SMALL_GRADIENT, STALLED, SINGULAR, LIMIT, NON_FINITE = 0, 1, 2, 3, 4, 5
@@ -79,49 +80,50 @@ def backward(low, p, z, out):
         out[i] = t / low[i, i]
 
 
+@numba.njit(cache=True, nogil=True, error_model="numpy", fastmath=_SUM)
+def _dot(a, b):
+    total = 0.0
+    for i in range(a.size):
+        total += a[i] * b[i]
+    return total
+
+
 @numba.njit(cache=True, nogil=True, error_model="numpy")
-def normal_equations(jac, y, f, sw, p, a, g, d):
+def normal_equations(jac, y, f, sw, p, a, g, d, r):
     """Scaled ``Js'Js`` into ``a``, ``Js' r`` into ``g``, column norms into ``d``.
 
-    Returns the RSS (NaN when a column is zero), the rounding floor of ``||Q1' r||``
-    and the rounding slack of the RSS (as :func:`service.core.nonlinear.polish.assess`).
-    ``jac`` is overwritten by the scaled weighted Jacobian ``Js``.
+    ``jac`` (p x n) is overwritten by the scaled weighted Jacobian ``Js`` and ``r`` by
+    the weighted residuals. Returns the RSS (NaN when a column is zero), the rounding
+    floor of ``||Q1' r||`` and the rounding slack of the RSS (as
+    :func:`service.core.nonlinear.polish.assess`).
     """
     n = y.size
+    worst = slack = 0.0
+    for i in range(n):
+        r[i] = sw[i] * (y[i] - f[i])
+        rounding = 4.0 * EPS * sw[i] * (abs(y[i]) + abs(f[i]))
+        worst = max(worst, rounding)
+        slack += 2.0 * abs(r[i]) * rounding + rounding * rounding
+    rss = _dot(r, r)
     for j in range(p):
-        s = 0.0
+        col = jac[j]
         for i in range(n):
-            jac[i, j] *= sw[i]
-            s += jac[i, j] * jac[i, j]
-        d[j] = math.sqrt(s)
+            col[i] *= sw[i]
+        d[j] = math.sqrt(_dot(col, col))
         if not d[j] > 0:
             return np.nan, 0.0, 0.0
         inv = 1.0 / d[j]
         for i in range(n):
-            jac[i, j] *= inv
-        g[j] = 0.0
+            col[i] *= inv
+        g[j] = _dot(col, r)
         for k in range(j + 1):
-            a[j, k] = 0.0
-    rss = worst = slack = 0.0
-    for i in range(n):
-        r = sw[i] * (y[i] - f[i])
-        rss += r * r
-        rounding = 4.0 * EPS * sw[i] * (abs(y[i]) + abs(f[i]))
-        worst = max(worst, rounding)
-        slack += 2.0 * abs(r) * rounding + rounding * rounding
-        for j in range(p):
-            cj = jac[i, j]
-            g[j] += cj * r
-            for k in range(j + 1):
-                a[j, k] += cj * jac[i, k]
-    for j in range(p):
-        for k in range(j):
+            a[j, k] = _dot(col, jac[k])
             a[k, j] = a[j, k]
     return rss, 2.0 * math.sqrt(p) * worst, slack
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
-def check(jac, y, f, sw, p, a, g, d, low, z, pure, n):
+def check(jac, y, f, sw, p, a, g, d, low, z, pure, n, r):
     """The convergence check at the current point: ``(code, rss, offset, slack)``.
 
     ``pure`` is the RSS part no curve can change and ``n`` the number of points (see
@@ -130,7 +132,7 @@ def check(jac, y, f, sw, p, a, g, d, low, z, pure, n):
     ``code`` is RELATIVE_OFFSET or SMALL_GRADIENT when met, SINGULAR for a singular
     tangent plane, STALLED for a zero residual, else -1 (go on).
     """
-    rss, floor, slack = normal_equations(jac, y, f, sw, p, a, g, d)
+    rss, floor, slack = normal_equations(jac, y, f, sw, p, a, g, d, r)
     rss += pure
     if rss != rss or not cholesky(a, p, low):
         return SINGULAR, rss, np.nan, 0.0
@@ -155,7 +157,7 @@ def solve(fid, theta, u, y, sw, f, ftrial, jac, jtrial, mats, max_iterations, pu
     RSS) and ``n`` the number of points; the RSS, gradient and relative offset are those
     of the points, at a third of the work for triplicates.
 
-    Scratch: ``f``, ``ftrial`` (n), ``jac``, ``jtrial`` (n x p), ``mats`` ((5p + 7) x p).
+    Scratch: ``f``, ``ftrial`` (n), ``jac``, ``jtrial`` (p x n), ``mats`` ((5p + 7) x p).
     On a converged return ``f`` holds the curve at ``theta`` and ``jac`` its scaled
     weighted Jacobian ``Js`` (:func:`normal_equations`),
     ``mats[0:p]`` the Cholesky factor of the scaled ``Js'Js`` there and
@@ -175,9 +177,10 @@ def solve(fid, theta, u, y, sw, f, ftrial, jac, jtrial, mats, max_iterations, pu
     g, z, d, step = mats[4 * p], mats[4 * p + 1], mats[4 * p + 2], mats[4 * p + 3]
     trial, trial_g, trial_d = mats[4 * p + 4], mats[4 * p + 5], mats[4 * p + 6]
     trial_low = mats[4 * p + 7:5 * p + 7]
+    r = np.empty(m_points)
     if not evaluate(fid, theta, u, f, jac):
         return NON_FINITE, np.inf, np.nan, 0
-    code, rss, offset, slack = check(jac, y, f, sw, p, a, g, d, low, z, pure, n)
+    code, rss, offset, slack = check(jac, y, f, sw, p, a, g, d, low, z, pure, n, r)
     lam = 1e-3
     for it in range(max_iterations):
         if code >= 0:
@@ -203,12 +206,12 @@ def solve(fid, theta, u, y, sw, f, ftrial, jac, jtrial, mats, max_iterations, pu
             if evaluate(fid, trial, u, ftrial, jtrial):
                 rt = pure
                 for i in range(m_points):
-                    r = sw[i] * (y[i] - ftrial[i])
-                    rt += r * r
+                    e = sw[i] * (y[i] - ftrial[i])
+                    rt += e * e
                 flat = offset <= FLAT_OFFSET and rt <= rss + slack
                 if rt < rss or flat:
                     new = check(jtrial, y, ftrial, sw, p, m, trial_g, trial_d, trial_low, z,
-                                pure, n)
+                                pure, n, r)
                     if rt < rss or new[2] < offset:
                         code, rss, offset, slack = new
                         theta[:] = trial
