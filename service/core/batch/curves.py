@@ -36,8 +36,11 @@ import numpy as np
 from service.core.batch.curves_kernel import STATS, fit_rows
 from service.core.batch.curves_models import COMPILED, L4_LOG, N_PARAMETERS
 from service.core.batch.curves_post import finish
-from service.core.batch.curves_results import CurveBatchResult, empty_curve_columns, \
-    fill_from_report
+from service.core.batch.curves_results import (
+    CurveBatchResult,
+    empty_curve_columns,
+    fill_from_report,
+)
 from service.core.checks.diagnostics import cut_offs
 from service.core.errors import FitError
 from service.core.families import family

@@ -18,6 +18,7 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
+from service.core.batch.curves_frames import fit_curve_frame
 from service.core.batch.driver import fit_many
 from service.core.batch.results import BatchResult
 from service.core.polynomial.design import term_names
@@ -62,6 +63,8 @@ def fit_frame(df: pd.DataFrame, id: str = "id", x: str = "x", y: str = "y",  # n
         severities, in the same order), ``severity`` (the most severe: serious, caution,
         info, or none without flags; None on error rows), and the error columns.
     """
+    if model.family != "polynomial":  # nonlinear families: tidy per-parameter columns
+        return fit_curve_frame(df, id, x, y, weight, model=model, options=options, workers=workers)
     codes, uniques = pd.factorize(df[id], sort=False) if len(df) else (np.empty(0, int), [])
     order = np.argsort(codes, kind="stable")
     lengths = np.bincount(codes, minlength=len(uniques)) if len(df) else np.empty(0, int)

@@ -1,0 +1,63 @@
+"""Seeded, invented curve data for the nonlinear batch tests (demo designs, not references).
+
+Each generator gives ``count`` series of one family's curve plus normal noise on a
+realistic design; parameters vary from series to series. The references the tests
+hold the batch to are the single fit (/v1/fit's engine) and scipy, never these values.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+DOSES = np.repeat(np.geomspace(1e-3, 10.0, 8), 3)      # 8 concentrations x 3 replicates
+TIMES = np.repeat(np.linspace(0.0, 10.0, 12), 2)         # 12 times x 2 replicates
+SUBSTRATE = np.repeat(np.array([0.5, 1, 2, 4, 8, 16, 32, 64.0]), 3)
+
+
+def logistic4(rng, count):
+    """Falling dose-response curves on log x (y_left 100, y_right ~5, ec50 ~0.1)."""
+    out = []
+    for _ in range(count):
+        left, right = 100.0 + rng.normal(0, 3), 5.0 + rng.normal(0, 2)
+        slope, ec50 = 1.2 * np.exp(rng.normal(0, 0.2)), 0.1 * np.exp(rng.normal(0, 0.5))
+        y = right + (left - right) / (1.0 + (DOSES / ec50) ** slope)
+        out.append((DOSES, y + rng.normal(0, 3.0, DOSES.size)))
+    return out
+
+
+def logistic4_linear(rng, count):
+    """Rising logistic curves on linear x (the linear-scale logistic4)."""
+    x = np.repeat(np.linspace(0.0, 10.0, 10), 2)
+    out = []
+    for _ in range(count):
+        mid, slope = 5.0 + rng.normal(0, 0.7), 1.1 * np.exp(rng.normal(0, 0.2))
+        y = 2.0 + 18.0 / (1.0 + np.exp(-slope * (x - mid)))
+        out.append((x, y + rng.normal(0, 0.5, x.size)))
+    return out
+
+
+def exponential(rng, count):
+    """First-order decays from ~50 to ~8 at rate ~0.4 per unit of x."""
+    out = []
+    for _ in range(count):
+        y0, plateau, k = 50.0 + rng.normal(0, 3), 8.0 + rng.normal(0, 1), 0.4 * np.exp(
+            rng.normal(0, 0.2))
+        y = plateau + (y0 - plateau) * np.exp(-k * TIMES)
+        out.append((TIMES, y + rng.normal(0, 1.0, TIMES.size)))
+    return out
+
+
+def michaelis_menten(rng, count):
+    """Saturation curves: vmax ~12, km ~5, 8 substrate levels x 3 replicates."""
+    out = []
+    for _ in range(count):
+        vmax, km = 12.0 * np.exp(rng.normal(0, 0.1)), 5.0 * np.exp(rng.normal(0, 0.3))
+        y = vmax * SUBSTRATE / (km + SUBSTRATE)
+        out.append((SUBSTRATE, y + rng.normal(0, 0.3, SUBSTRATE.size)))
+    return out
+
+
+def flat(series):
+    """Concatenated x, y and the lengths of ``series`` ((x, y) pairs)."""
+    return (np.concatenate([s[0] for s in series]), np.concatenate([s[1] for s in series]),
+            np.array([s[0].size for s in series]))
