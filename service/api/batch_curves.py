@@ -30,7 +30,7 @@ def mixed_results(job, items) -> list[dict]:
     """Result dicts in order for ``items`` ((id, series tuple or error body)) of ``job``."""
     out: list[dict | None] = [None] * len(items)
     polynomial, groups = [], {}
-    for i, (ident, series) in enumerate(items):
+    for i, (_, series) in enumerate(items):
         if not isinstance(series, tuple):
             polynomial.append(i)          # an error body: the polynomial path reports it
             continue
@@ -54,7 +54,9 @@ def mixed_results(job, items) -> list[dict]:
 def group_results(job, ids, series, model) -> list[dict]:
     """Fit series ``(x, y, w, _)`` of one nonlinear model; result dicts in their order."""
     lengths = np.array([s[0].size for s in series], dtype=np.int64)
-    cat = (lambda parts: np.concatenate(parts) if parts else np.empty(0))
+    def cat(parts):
+        return np.concatenate(parts) if parts else np.empty(0)
+
     x, y = cat([s[0] for s in series]), cat([s[1] for s in series])
     weights = None
     if any(s[2] is not None for s in series):

@@ -84,8 +84,8 @@ def test_the_minimum_is_scipys(case):
         single = fit_series(x, y, model=model, options=SINGLE)
         curve = single.model.model              # the compiled equation of the family
         start = batch.estimates[i] * (1 + 1e-3)
-        ref = least_squares(lambda t: curve.values(x, t) - y, start, method="lm",
-                            xtol=1e-15, ftol=1e-15, gtol=1e-15)
+        ref = least_squares(lambda t, c=curve, u=x, v=y: c.values(u, t) - v, start,
+                            method="lm", xtol=1e-15, ftol=1e-15, gtol=1e-15)
         assert _rel(batch.estimates[i], ref.x) <= 1e-6, (batch.estimates[i], ref.x)
 
 

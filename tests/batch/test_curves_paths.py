@@ -24,10 +24,9 @@ def _post(client, body):
 
 
 def _single(client, x, y, model):
-    res = client.post("/v1/fit", data=orjson.dumps({"x": np.asarray(x).tolist(), "y": np.asarray(y).tolist(),
-                                                    "model": model,
-                                                    "grid": None}),
-                      content_type="application/json")
+    body = {"x": np.asarray(x).tolist(), "y": np.asarray(y).tolist(), "model": model,
+            "grid": None}
+    res = client.post("/v1/fit", data=orjson.dumps(body), content_type="application/json")
     assert res.status_code == 200, res.data[:300]
     rows = res.get_json()["coefficients"]
     return [r["estimate"] for r in rows], [r["std_error"] for r in rows]
@@ -97,7 +96,8 @@ def test_a_bad_nonlinear_model_is_a_422_naming_the_field(client):
 
 def test_fit_frame_is_tidy_and_fit_dask_agrees(dose_series):
     frame = pd.DataFrame([{"plate": f"p{i}", "dose": a, "signal": b}
-                          for i, (x, y) in enumerate(dose_series) for a, b in zip(x, y)])
+                          for i, (x, y) in enumerate(dose_series)
+                          for a, b in zip(x, y, strict=True)])
     out = fit_frame(frame, id="plate", x="dose", y="signal",
                     model=ModelSpec(family="logistic4"))
     assert list(out["plate"]) == [f"p{i}" for i in range(len(dose_series))]

@@ -214,27 +214,32 @@ def fit_rows(fid, x, y, w, offsets, rows, cut_t, cut_cook, always_grid, est, se,
         m = levels(u, ys, order, lev, means)
         k, ss_pure = _pool(u, ys, ws, order, ul_all, yl_all, swl_all)
         pooled = (ul_all, yl_all, swl_all, ss_pure, k)
-        found, best_rss, start, spent = False, np.inf, SHAPE, 0
+        found, best_rss, start, spent, current = False, np.inf, SHAPE, 0, False
+        code, offset = -1, np.nan
         if shape_start(fid, xs, u, ys, lev, means, m, nl, v[:n]):
-            ok, rss, _, iters, _ = _attempt(fid, nl, u, ys, sw, pooled, cols, coef, theta,
-                                            f[:n], ftrial[:n], jac, jtrial, mats)
+            ok, rss, off, iters, c = _attempt(fid, nl, u, ys, sw, pooled, cols, coef, theta,
+                                              f[:n], ftrial[:n], jac, jtrial, mats)
             spent += iters
             if ok:
-                found, best_rss = True, rss
+                found, best_rss, current, code, offset = True, rss, True, c, off
                 best[:] = theta
         if (always_grid or not found) and grid_start(fid, xs, u, ys, sw, cols, coef, nl):
-            ok, rss, _, iters, _ = _attempt(fid, nl, u, ys, sw, pooled, cols, coef, theta,
-                                            f[:n], ftrial[:n], jac, jtrial, mats)
+            ok, rss, off, iters, c = _attempt(fid, nl, u, ys, sw, pooled, cols, coef, theta,
+                                              f[:n], ftrial[:n], jac, jtrial, mats)
             spent += iters
+            current = False
             if ok and (not found or rss < best_rss * (1.0 - SAME_RSS)):
-                found, best_rss, start = True, rss, GRID
+                found, best_rss, start, current, code, offset = True, rss, GRID, True, c, off
                 best[:] = theta
         if not found:
             continue
         theta[:] = best
+        rss = best_rss
         if (fid == L4_LOG or fid == L4_LINEAR) and theta[2] < 0:   # the same curve, slope > 0
             theta[0], theta[1], theta[2] = best[1], best[0], -best[2]
-        code, rss, offset, iters = solve(fid, theta, ul_all[:k], yl_all[:k], swl_all[:k],
+            current = False
+        if not current:     # the solver's state (factor, column norms) at the kept estimates
+            code, rss, offset, _ = solve(fid, theta, ul_all[:k], yl_all[:k], swl_all[:k],
                                          f[:k], ftrial[:k], jac[:p * k].reshape((p, k)),
                                          jtrial[:p * k].reshape((p, k)), mats, 200, ss_pure, n)
         zz = 0.0
@@ -251,7 +256,7 @@ def fit_rows(fid, x, y, w, offsets, rows, cut_t, cut_cook, always_grid, est, se,
                 js[j, i] *= sw[i] / d[j]
         row = stats[r]
         row[_RSS], row[_OFFSET], row[_ITER], row[_TERM], row[_START] = \
-            rss, offset, spent + iters, code, start
+            rss, offset, spent, code, start
         _summary(p, xs, ys, ws, sw, f[:n], js, mats[0:p], d, rss,
                  cut_t[n], cut_cook[n], q, resid[a:b], row, se[r])
         if not math.isfinite(row[_BP]) and n > 2:      # constant x: the single fit decides
