@@ -150,3 +150,20 @@ def test_misra1a_certified_values_through_the_batch():
             assert -math.log10(abs(mine - certified) / abs(certified)) >= 6
         for mine, certified in zip(batch.std_errors[row], cert["std_errors"], strict=True):
             assert -math.log10(abs(mine - certified) / abs(certified)) >= 6
+
+
+def test_weighted_series_equal_the_weighted_single_fit():
+    model, make = CASES["logistic4"]
+    rng = np.random.default_rng(31)
+    series = make(rng, 5)
+    weights = [rng.uniform(0.5, 2.0, x.size) for x, _ in series]
+    x, y, lengths = data.flat(series)
+    batch = fit_many_curves(x, y, lengths, np.concatenate(weights), model=model)
+    assert batch.compiled.all()
+    for i, ((xs, ys), w) in enumerate(zip(series, weights, strict=True)):
+        single = fit_series(xs, ys, w, model=model, options=SINGLE)
+        assert _rel(batch.estimates[i], [r.estimate for r in single.coefficients]) <= TOL
+        assert _rel(batch.std_errors[i], [r.std_error for r in single.coefficients]) <= TOL
+        assert _rel(batch.columns["lack_of_fit_p"][i],
+                    single.diagnostics.lack_of_fit.p_value) <= TEST_TOL
+        assert _rel(batch.columns["aic"][i], single.statistics.aic) <= TEST_TOL

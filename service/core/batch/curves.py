@@ -115,7 +115,7 @@ def fit_many_curves(x, y, lengths, weights=None, *, model: ModelSpec,
     model : ModelSpec
         A built-in nonlinear family or ``expression`` (its start values serve every series).
     options : FitOptions
-        ``level``, ``missing`` and ``weighting`` apply; there is no grid.
+        ``level``, ``missing`` and ``weighting`` apply; the grid only with ``detail="full"``.
     workers : int
         Threads fitting chunks of series in parallel.
     detail : {"summary", "full"}
@@ -153,7 +153,7 @@ def fit_many_curves(x, y, lengths, weights=None, *, model: ModelSpec,
     single = np.arange(G)
     if fid is not None:
         single = _compiled(out, fid, x, y, w, lengths, offsets, workers, always_grid)
-    plain = replace(options, grid=None)
+    plain = options if detail == "full" else replace(options, grid=None)
     for row in single.tolist():
         checkpoint()
         a, b = offsets[row], offsets[row + 1]
