@@ -90,34 +90,41 @@ def _dot(a, b):
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
 def normal_equations(jac, y, f, sw, p, a, g, d, r):
-    """Scaled ``Js'Js`` into ``a``, ``Js' r`` into ``g``, column norms into ``d``.
+    """Scaled ``Js'Js`` into ``a``, ``Js' r`` into ``g``, column norms of ``sqrt(W) J`` into
+    ``d`` (``Js = sqrt(W) J D^-1``), in one pass over the points.
 
-    ``jac`` (p x n) is overwritten by the scaled weighted Jacobian ``Js`` and ``r`` by
-    the weighted residuals. Returns the RSS (NaN when a column is zero), the rounding
-    floor of ``||Q1' r||`` and the rounding slack of the RSS (as
+    ``r`` receives the weighted residuals. Returns the RSS (NaN when a column is zero),
+    the rounding floor of ``||Q1' r||`` and the rounding slack of the RSS (as
     :func:`service.core.nonlinear.polish.assess`).
     """
     n = y.size
-    worst = slack = 0.0
-    for i in range(n):
-        r[i] = sw[i] * (y[i] - f[i])
-        rounding = 4.0 * EPS * sw[i] * (abs(y[i]) + abs(f[i]))
-        worst = max(worst, rounding)
-        slack += 2.0 * abs(r[i]) * rounding + rounding * rounding
-    rss = _dot(r, r)
+    worst = slack = rss = 0.0
     for j in range(p):
-        col = jac[j]
-        for i in range(n):
-            col[i] *= sw[i]
-        d[j] = math.sqrt(_dot(col, col))
+        g[j] = 0.0
+        for k in range(j + 1):
+            a[j, k] = 0.0
+    for i in range(n):
+        w = sw[i]
+        ri = w * (y[i] - f[i])
+        r[i] = ri
+        rss += ri * ri
+        rounding = 4.0 * EPS * w * (abs(y[i]) + abs(f[i]))
+        worst = max(worst, rounding)
+        slack += 2.0 * abs(ri) * rounding + rounding * rounding
+        ww = w * w
+        for j in range(p):
+            cj = jac[j, i] * ww
+            g[j] += jac[j, i] * w * ri
+            for k in range(j + 1):
+                a[j, k] += cj * jac[k, i]
+    for j in range(p):
+        d[j] = math.sqrt(a[j, j])
         if not d[j] > 0:
             return np.nan, 0.0, 0.0
-        inv = 1.0 / d[j]
-        for i in range(n):
-            col[i] *= inv
-        g[j] = _dot(col, r)
+    for j in range(p):
+        g[j] /= d[j]
         for k in range(j + 1):
-            a[j, k] = _dot(col, jac[k])
+            a[j, k] /= d[j] * d[k]
             a[k, j] = a[j, k]
     return rss, 2.0 * math.sqrt(p) * worst, slack
 
@@ -158,9 +165,7 @@ def solve(fid, theta, u, y, sw, f, ftrial, jac, jtrial, mats, max_iterations, pu
     of the points, at a third of the work for triplicates.
 
     Scratch: ``f``, ``ftrial`` (n), ``jac``, ``jtrial`` (p x n), ``mats`` ((5p + 7) x p).
-    On a converged return ``f`` holds the curve at ``theta`` and ``jac`` its scaled
-    weighted Jacobian ``Js`` (:func:`normal_equations`),
-    ``mats[0:p]`` the Cholesky factor of the scaled ``Js'Js`` there and
+    On a converged return ``mats[0:p]`` the Cholesky factor of the scaled ``Js'Js`` there and
     ``mats[4p + 2]`` the column norms ``D``.
 
     A step is accepted when it lowers the RSS; once the relative offset is below
@@ -215,8 +220,6 @@ def solve(fid, theta, u, y, sw, f, ftrial, jac, jtrial, mats, max_iterations, pu
                     if rt < rss or new[2] < offset:
                         code, rss, offset, slack = new
                         theta[:] = trial
-                        f[:] = ftrial
-                        jac[:, :] = jtrial
                         a[:, :] = m
                         low[:, :] = trial_low
                         g[:] = trial_g
