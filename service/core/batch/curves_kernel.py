@@ -35,7 +35,7 @@ from service.core.batch.curves_models import (
     N_PARAMETERS,
     evaluate,
 )
-from service.core.batch.curves_solver import SMALL_GRADIENT, solve
+from service.core.batch.curves_solver import SMALL_GRADIENT, factor_and_norms, solve
 from service.core.batch.curves_starts import grid_start, levels, project, shape_start
 from service.core.batch.residuals import design_sums
 from service.core.checks.kernels import chi2_tail, dw_p, dw_traces
@@ -56,7 +56,7 @@ _NOUT, _NINF, _NHIGH, _NBOTH, _NLEVER, _CORR = 14, 15, 16, 17, 18, 19
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
-def _attempt(fid, nl, u, y, sw, pooled, cols, coef, theta, f, ftrial, jac, jtrial, mats):
+def _attempt(fid, nl, u, y, sw, pooled, cols, coef, theta, mats):
     """Linear parameters at ``nl`` (from the points), then solve on the pooled data
     (``pooled``: distinct u, mean y, sqrt summed weights, pure-error SS, m);
     returns (converged, rss, offset, iters, code)."""
@@ -68,10 +68,8 @@ def _attempt(fid, nl, u, y, sw, pooled, cols, coef, theta, f, ftrial, jac, jtria
     for j in range(theta.size - lin):
         theta[lin + j] = nl[j]
     ul, yl, swl, pure, m = pooled
-    p = theta.size
-    code, rss, offset, iters = solve(fid, theta, ul[:m], yl[:m], swl[:m], f[:m], ftrial[:m],
-                                     jac[:p * m].reshape((p, m)), jtrial[:p * m].reshape((p, m)),
-                                     mats, 200, pure, u.size)
+    code, rss, offset, iters = solve(fid, theta, ul[:m], yl[:m], swl[:m], mats, 200, pure,
+                                     u.size)
     return code <= SMALL_GRADIENT, rss, offset, iters, code
 
 
@@ -195,9 +193,9 @@ def fit_rows(fid, x, y, w, offsets, rows, cut_t, cut_cook, always_grid, est, se,
     for r in rows:
         nmax = max(nmax, offsets[r + 1] - offsets[r])
     u_all, sw_all = np.empty(nmax), np.empty(nmax)
-    f, ftrial, v = np.empty(nmax), np.empty(nmax), np.empty(nmax)
+    f, v = np.empty(nmax), np.empty(nmax)
     lev, means = np.empty(nmax), np.empty(nmax)
-    jac, jtrial, mats = np.empty(p * nmax), np.empty(p * nmax), np.empty((5 * p + 7, p))
+    jac, mats = np.empty(p * nmax), np.empty((6 * p + 8, p))
     cols_all, q = np.empty((lin, nmax)), np.empty((p, nmax))
     coef, nl, theta, best = np.empty(lin), np.empty(2), np.empty(p), np.empty(p)
     ul_all, yl_all, swl_all = np.empty(nmax), np.empty(nmax), np.empty(nmax)
@@ -218,14 +216,14 @@ def fit_rows(fid, x, y, w, offsets, rows, cut_t, cut_cook, always_grid, est, se,
         code, offset = -1, np.nan
         if shape_start(fid, xs, u, ys, lev, means, m, nl, v[:n]):
             ok, rss, off, iters, c = _attempt(fid, nl, u, ys, sw, pooled, cols, coef, theta,
-                                              f[:n], ftrial[:n], jac, jtrial, mats)
+                                              mats)
             spent += iters
             if ok:
                 found, best_rss, current, code, offset = True, rss, True, c, off
                 best[:] = theta
         if (always_grid or not found) and grid_start(fid, xs, u, ys, sw, cols, coef, nl):
             ok, rss, off, iters, c = _attempt(fid, nl, u, ys, sw, pooled, cols, coef, theta,
-                                              f[:n], ftrial[:n], jac, jtrial, mats)
+                                              mats)
             spent += iters
             current = False
             if ok and (not found or rss < best_rss * (1.0 - SAME_RSS)):
@@ -239,15 +237,14 @@ def fit_rows(fid, x, y, w, offsets, rows, cut_t, cut_cook, always_grid, est, se,
             theta[0], theta[1], theta[2] = best[1], best[0], -best[2]
             current = False
         if not current:     # the solver's state (factor, column norms) at the kept estimates
-            code, rss, offset, _ = solve(fid, theta, ul_all[:k], yl_all[:k], swl_all[:k],
-                                         f[:k], ftrial[:k], jac[:p * k].reshape((p, k)),
-                                         jtrial[:p * k].reshape((p, k)), mats, 200, ss_pure, n)
+            code, rss, offset, _ = solve(fid, theta, ul_all[:k], yl_all[:k], swl_all[:k], mats,
+                                         200, ss_pure, n)
         zz = 0.0
         for i in range(n):
             zz += sw[i] * ys[i] * sw[i] * ys[i]
         if code > SMALL_GRADIENT or not rss > EXACT_RTOL * EXACT_RTOL * zz or n <= p + 1:
             continue
-        d = mats[4 * p + 2]
+        low, d = factor_and_norms(mats, p)
         js = jac[:p * n].reshape((p, n))
         if not evaluate(fid, theta, u, f[:n], js):
             continue
@@ -257,7 +254,7 @@ def fit_rows(fid, x, y, w, offsets, rows, cut_t, cut_cook, always_grid, est, se,
         row = stats[r]
         row[_RSS], row[_OFFSET], row[_ITER], row[_TERM], row[_START] = \
             rss, offset, spent, code, start
-        _summary(p, xs, ys, ws, sw, f[:n], js, mats[0:p], d, rss,
+        _summary(p, xs, ys, ws, sw, f[:n], js, low, d, rss,
                  cut_t[n], cut_cook[n], q, resid[a:b], row, se[r])
         if not math.isfinite(row[_BP]) and n > 2:      # constant x: the single fit decides
             continue

@@ -24,13 +24,12 @@ import math
 import numba
 import numpy as np
 
-from service.core.batch.curves_models import evaluate
+from service.core.batch.curves_models import constants, point, prepass
 
 TARGET_OFFSET = 1e-10
 ACCEPT_OFFSET = 1e-8       # the single fit's criterion (solver.DEFAULT_TOLERANCE)
 MAX_ITERATIONS = 200
 EPS = float(np.finfo(float).eps)
-_SUM = {"reassoc", "nsz"}  # vectorized sums only; no assumption about NaN or infinity
 FLAT_OFFSET = 1e-3         # as polish.FLAT_OFFSET
 PIVOT_FLOOR = 1e-24        # squared scaled pivot: below it the tangent plane is singular
 RELATIVE_OFFSET, SMALL_GRADIENT, STALLED, SINGULAR, LIMIT, NON_FINITE = 0, 1, 2, 3, 4, 5
@@ -80,82 +79,76 @@ def backward(low, p, z, out):
         out[i] = t / low[i, i]
 
 
-@numba.njit(cache=True, nogil=True, error_model="numpy", fastmath=_SUM)
-def _dot(a, b):
-    total = 0.0
-    for i in range(a.size):
-        total += a[i] * b[i]
-    return total
-
-
 @numba.njit(cache=True, nogil=True, error_model="numpy")
-def normal_equations(jac, y, f, sw, p, a, g, d, r):
-    """Scaled ``Js'Js`` into ``a``, ``Js' r`` into ``g``, column norms of ``sqrt(W) J`` into
-    ``d`` (``Js = sqrt(W) J D^-1``), in one pass over the points.
+def linearize(fid, theta, u, y, sw, p, a, g, d, row, buf):
+    """One pass over the points at ``theta``: scaled ``Js'Js`` into ``a``, ``Js' r`` into
+    ``g`` and the column norms of ``sqrt(W) J`` into ``d`` (``Js = sqrt(W) J D^-1``).
 
-    ``r`` receives the weighted residuals. Returns the RSS (NaN when a column is zero),
-    the rounding floor of ``||Q1' r||`` and the rounding slack of the RSS (as
-    :func:`service.core.nonlinear.polish.assess`).
+    Returns ``(finite, rss, floor, slack)``: False when the curve or a derivative is not
+    finite; the rounding floor of ``||Q1' r||`` and the rounding slack of the RSS are
+    those of :func:`service.core.nonlinear.polish.assess`.
     """
-    n = y.size
+    c0, c1 = constants(fid, theta)
+    prepass(fid, theta, c0, u, buf)
     worst = slack = rss = 0.0
     for j in range(p):
         g[j] = 0.0
         for k in range(j + 1):
             a[j, k] = 0.0
-    for i in range(n):
+    for i in range(y.size):
+        fi = point(fid, theta, c0, c1, u[i], buf[i], row)
         w = sw[i]
-        ri = w * (y[i] - f[i])
-        r[i] = ri
+        ri = w * (y[i] - fi)
         rss += ri * ri
-        rounding = 4.0 * EPS * w * (abs(y[i]) + abs(f[i]))
+        rounding = 4.0 * EPS * w * (abs(y[i]) + abs(fi))
         worst = max(worst, rounding)
         slack += 2.0 * abs(ri) * rounding + rounding * rounding
-        ww = w * w
         for j in range(p):
-            cj = jac[j, i] * ww
-            g[j] += jac[j, i] * w * ri
+            cj = row[j] * w
+            g[j] += cj * ri
             for k in range(j + 1):
-                a[j, k] += cj * jac[k, i]
+                a[j, k] += cj * row[k] * w
+    if not math.isfinite(rss):
+        return False, np.inf, 0.0, 0.0
     for j in range(p):
         d[j] = math.sqrt(a[j, j])
-        if not d[j] > 0:
-            return np.nan, 0.0, 0.0
+        if not math.isfinite(d[j]) or not math.isfinite(g[j]):
+            return False, np.inf, 0.0, 0.0
     for j in range(p):
-        g[j] /= d[j]
-        for k in range(j + 1):
-            a[j, k] /= d[j] * d[k]
-            a[k, j] = a[j, k]
-    return rss, 2.0 * math.sqrt(p) * worst, slack
+        if d[j] > 0:
+            g[j] /= d[j]
+            for k in range(j + 1):
+                a[j, k] /= d[j] * d[k]
+                a[k, j] = a[j, k]
+    return True, rss, 2.0 * math.sqrt(p) * worst, slack
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
-def check(jac, y, f, sw, p, a, g, d, low, z, pure, n, r):
-    """The convergence check at the current point: ``(code, rss, offset, slack)``.
-
-    ``pure`` is the RSS part no curve can change and ``n`` the number of points (see
-    :func:`solve`).
+def check(a, g, d, p, low, z, rss, floor, n):
+    """The convergence check at a linearized point: ``(code, offset)``.
 
     ``code`` is RELATIVE_OFFSET or SMALL_GRADIENT when met, SINGULAR for a singular
-    tangent plane, STALLED for a zero residual, else -1 (go on).
+    tangent plane (or a zero column), STALLED for a zero residual, else -1 (go on).
+    ``low`` receives the Cholesky factor of ``a``.
     """
-    rss, floor, slack = normal_equations(jac, y, f, sw, p, a, g, d, r)
-    rss += pure
-    if rss != rss or not cholesky(a, p, low):
-        return SINGULAR, rss, np.nan, 0.0
+    for j in range(p):
+        if not d[j] > 0:
+            return SINGULAR, np.nan
+    if not cholesky(a, p, low):
+        return SINGULAR, np.nan
     proj2 = forward(low, p, g, z)
     orth2 = rss - proj2
     if math.sqrt(proj2) <= floor:
-        offset = math.sqrt(proj2 / p) / math.sqrt(orth2 / (n - p)) if orth2 > 0 else 0.0
-        return SMALL_GRADIENT, rss, offset, slack
+        return SMALL_GRADIENT, (math.sqrt(proj2 / p) / math.sqrt(orth2 / (n - p))
+                                if orth2 > 0 else 0.0)
     if not orth2 > 0:
-        return STALLED, rss, np.inf, slack
+        return STALLED, np.inf
     offset = math.sqrt(proj2 / p) / math.sqrt(orth2 / (n - p))
-    return (RELATIVE_OFFSET if offset <= TARGET_OFFSET else -1), rss, offset, slack
+    return (RELATIVE_OFFSET if offset <= TARGET_OFFSET else -1), offset
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
-def solve(fid, theta, u, y, sw, f, ftrial, jac, jtrial, mats, max_iterations, pure, n):
+def solve(fid, theta, u, y, sw, mats, max_iterations, pure, n):
     """Levenberg-Marquardt from ``theta`` (updated in place) to the tight stop.
 
     The data may be pooled by distinct x (replicates): ``y`` the weighted mean response
@@ -164,9 +157,9 @@ def solve(fid, theta, u, y, sw, f, ftrial, jac, jtrial, mats, max_iterations, pu
     RSS) and ``n`` the number of points; the RSS, gradient and relative offset are those
     of the points, at a third of the work for triplicates.
 
-    Scratch: ``f``, ``ftrial`` (n), ``jac``, ``jtrial`` (p x n), ``mats`` ((5p + 7) x p).
-    On a converged return ``mats[0:p]`` the Cholesky factor of the scaled ``Js'Js`` there and
-    ``mats[4p + 2]`` the column norms ``D``.
+    ``mats`` is scratch of shape ``(6p + 8, p)``; on a converged return
+    :func:`factor_and_norms` reads the Cholesky factor of the scaled ``Js'Js`` at
+    ``theta`` and the column norms ``D`` from it.
 
     A step is accepted when it lowers the RSS; once the relative offset is below
     ``FLAT_OFFSET``, where the RSS is flat to first order and float64 cannot confirm
@@ -177,15 +170,18 @@ def solve(fid, theta, u, y, sw, f, ftrial, jac, jtrial, mats, max_iterations, pu
     -------
     code : int (:data:`CODES`), rss : float, offset : float, iterations : int
     """
-    m_points, p = y.size, theta.size
+    p = theta.size
     low, a, m, low_m = mats[0:p], mats[p:2 * p], mats[2 * p:3 * p], mats[3 * p:4 * p]
-    g, z, d, step = mats[4 * p], mats[4 * p + 1], mats[4 * p + 2], mats[4 * p + 3]
-    trial, trial_g, trial_d = mats[4 * p + 4], mats[4 * p + 5], mats[4 * p + 6]
-    trial_low = mats[4 * p + 7:5 * p + 7]
-    r = np.empty(m_points)
-    if not evaluate(fid, theta, u, f, jac):
+    trial_a, trial_low = mats[4 * p:5 * p], mats[5 * p:6 * p]
+    g, z, d, step = mats[6 * p], mats[6 * p + 1], mats[6 * p + 2], mats[6 * p + 3]
+    trial, trial_g, trial_d, row = mats[6 * p + 4], mats[6 * p + 5], mats[6 * p + 6], \
+        mats[6 * p + 7]
+    buf = np.empty(y.size)
+    ok, rss, floor, slack = linearize(fid, theta, u, y, sw, p, a, g, d, row, buf)
+    if not ok:
         return NON_FINITE, np.inf, np.nan, 0
-    code, rss, offset, slack = check(jac, y, f, sw, p, a, g, d, low, z, pure, n, r)
+    rss += pure
+    code, offset = check(a, g, d, p, low, z, rss, floor, n)
     lam = 1e-3
     for it in range(max_iterations):
         if code >= 0:
@@ -208,22 +204,20 @@ def solve(fid, theta, u, y, sw, f, ftrial, jac, jtrial, mats, max_iterations, pu
                 small &= abs(step[j]) <= 4.0 * EPS * abs(theta[j])
             if small:
                 break
-            if evaluate(fid, trial, u, ftrial, jtrial):
-                rt = pure
-                for i in range(m_points):
-                    e = sw[i] * (y[i] - ftrial[i])
-                    rt += e * e
+            ok, rt, floor_t, slack_t = linearize(fid, trial, u, y, sw, p, trial_a, trial_g,
+                                                 trial_d, row, buf)
+            rt += pure
+            if ok:
                 flat = offset <= FLAT_OFFSET and rt <= rss + slack
                 if rt < rss or flat:
-                    new = check(jtrial, y, ftrial, sw, p, m, trial_g, trial_d, trial_low, z,
-                                pure, n, r)
-                    if rt < rss or new[2] < offset:
-                        code, rss, offset, slack = new
-                        theta[:] = trial
-                        a[:, :] = m
-                        low[:, :] = trial_low
-                        g[:] = trial_g
-                        d[:] = trial_d
+                    code_t, offset_t = check(trial_a, trial_g, trial_d, p, trial_low, z, rt,
+                                             floor_t, n)
+                    if rt < rss or offset_t < offset:
+                        code, rss, offset, slack = code_t, rt, offset_t, slack_t
+                        for j in range(p):
+                            theta[j], g[j], d[j] = trial[j], trial_g[j], trial_d[j]
+                            for k in range(p):
+                                a[j, k], low[j, k] = trial_a[j, k], trial_low[j, k]
                         accepted = True
                         lam = max(lam * 0.1, 1e-12)
                         break
@@ -232,3 +226,10 @@ def solve(fid, theta, u, y, sw, f, ftrial, jac, jtrial, mats, max_iterations, pu
         if not accepted:
             return (RELATIVE_OFFSET if offset <= ACCEPT_OFFSET else STALLED), rss, offset, it
     return LIMIT, rss, offset, max_iterations
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def factor_and_norms(mats, p):
+    """The Cholesky factor of the scaled ``Js'Js`` and the column norms ``D`` that
+    :func:`solve` leaves in its scratch."""
+    return mats[0:p], mats[6 * p + 2]
