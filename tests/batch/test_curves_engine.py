@@ -89,12 +89,16 @@ def test_the_minimum_is_scipys(case):
         assert _rel(batch.estimates[i], ref.x) <= 1e-6, (batch.estimates[i], ref.x)
 
 
-def test_threads_and_grid_starts_give_the_same_fits():
-    model, make = CASES["logistic4"]
-    x, y, lengths = data.flat(make(np.random.default_rng(5), 40))
+@pytest.mark.parametrize("name", list(CASES))
+def test_threads_and_grid_starts_give_the_same_fits(name, monkeypatch):
+    from service.core.batch import curves
+    monkeypatch.setattr(curves, "CHUNK_SERIES", 7)          # several chunks: two threads
+    model, make = CASES[name]
+    x, y, lengths = data.flat(make(np.random.default_rng(5), 30))
     one = fit_many_curves(x, y, lengths, model=model)
     two = fit_many_curves(x, y, lengths, model=model, workers=2)
     grid = fit_many_curves(x, y, lengths, model=model, always_grid=True)
+    assert one.compiled.all() and grid.compiled.all()
     assert np.array_equal(one.estimates, two.estimates)
     assert _rel(grid.estimates, one.estimates) <= TOL
 

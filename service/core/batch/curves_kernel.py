@@ -108,7 +108,8 @@ def _summary(p, x, y, w, sw, f, js, low, d, rss, cut_t, cut_cook, q, e, out, est
     n = y.size
     df = n - p
     sigma2 = rss / df
-    inv = np.zeros((p, p))               # inverse of the Cholesky factor
+    inv = np.zeros((p, p))               # inverse of the Cholesky factor, then (Js'Js)^-1
+    cov = np.empty((p, p))
     for j in range(p):
         inv[j, j] = 1.0 / low[j, j]
         for i in range(j + 1, p):
@@ -116,7 +117,12 @@ def _summary(p, x, y, w, sw, f, js, low, d, rss, cut_t, cut_cook, q, e, out, est
             for k in range(j, i):
                 t -= low[i, k] * inv[k, j]
             inv[i, j] = t / low[i, i]
-    cov = inv.T @ inv                    # (Js'Js)^-1, scaled
+    for j in range(p):                   # (Js'Js)^-1 = inv' inv, scaled
+        for k in range(j + 1):
+            t = 0.0
+            for i in range(j, p):
+                t += inv[i, j] * inv[i, k]
+            cov[j, k] = cov[k, j] = t
     for j in range(p):
         est_se[j] = math.sqrt(sigma2 * cov[j, j]) / d[j]
     worst = 0.0
