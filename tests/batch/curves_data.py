@@ -57,6 +57,41 @@ def michaelis_menten(rng, count):
     return out
 
 
+def logistic_growth(rng, count):
+    """Growth curves to ~40 with the inflection near day 6 (14 days x 2 replicates)."""
+    x = np.repeat(np.arange(0.0, 14.0), 2)
+    out = []
+    for _ in range(count):
+        top, rate, mid = 40.0 * np.exp(rng.normal(0, 0.1)), 0.8 * np.exp(rng.normal(0, 0.2)), \
+            6.0 + rng.normal(0, 0.5)
+        y = top / (1.0 + np.exp(-rate * (x - mid)))
+        out.append((x, y + rng.normal(0, 0.8, x.size)))
+    return out
+
+
+def gompertz(rng, count):
+    """Gompertz growth to ~25 on the same design as :func:`logistic_growth`."""
+    x = np.repeat(np.arange(0.0, 14.0), 2)
+    out = []
+    for _ in range(count):
+        top, rate, mid = 25.0 * np.exp(rng.normal(0, 0.1)), 0.6 * np.exp(rng.normal(0, 0.2)), \
+            5.0 + rng.normal(0, 0.5)
+        y = top * np.exp(-np.exp(-rate * (x - mid)))
+        out.append((x, y + rng.normal(0, 0.5, x.size)))
+    return out
+
+
+def power(rng, count):
+    """Power laws y = c x^e with e ~0.75 over x 1..100 (10 levels x 2 replicates)."""
+    x = np.repeat(np.geomspace(1.0, 100.0, 10), 2)
+    out = []
+    for _ in range(count):
+        c, e = 3.0 * np.exp(rng.normal(0, 0.2)), 0.75 + rng.normal(0, 0.05)
+        y = c * x ** e
+        out.append((x, y + rng.normal(0, 0.02 * y.mean(), x.size)))
+    return out
+
+
 def flat(series):
     """Concatenated x, y and the lengths of ``series`` ((x, y) pairs)."""
     return (np.concatenate([s[0] for s in series]), np.concatenate([s[1] for s in series]),

@@ -33,7 +33,10 @@ CASES = {"logistic4": (ModelSpec(family="logistic4"), data.logistic4),
          "logistic4_linear": (ModelSpec(family="logistic4", scale="linear"),
                               data.logistic4_linear),
          "exponential": (ModelSpec(family="exponential"), data.exponential),
-         "michaelis_menten": (ModelSpec(family="michaelis_menten"), data.michaelis_menten)}
+         "michaelis_menten": (ModelSpec(family="michaelis_menten"), data.michaelis_menten),
+         "logistic_growth": (ModelSpec(family="logistic_growth"), data.logistic_growth),
+         "gompertz": (ModelSpec(family="gompertz"), data.gompertz),
+         "power": (ModelSpec(family="power"), data.power)}
 TOL = 1e-7           # the agreement target, relative
 TEST_TOL = 1e-6      # p-values and whole-fit measures (the same formulas, other rounding)
 

@@ -1,18 +1,24 @@
 """Compiled built-in curves of the nonlinear batch: values and exact Jacobians per family.
 
 Each compiled family has an integer id (:data:`COMPILED`, by family name and x
-scale) and a branch of :func:`evaluate`, which writes the curve and its
-analytic Jacobian at one parameter vector for one series. The equations and
-the parameter order are those of
-:mod:`service.core.nonlinear.builtin` (``tests/batch`` holds the two equal to
-rounding):
+scale). A curve is evaluated in two steps: :func:`prepass` computes its
+transcendental part at every point in one branch-free loop (which the compiler
+vectorizes), then :func:`point` the value and the gradient at one point from
+it. The equations and the parameter order are those of
+:mod:`service.core.nonlinear.builtin` (``tests/batch`` holds the batch to the single
+fit); the conditionally linear parameters come first in every order, and their
+Jacobian columns are the linear basis of the start search (:func:`basis`):
 
 * logistic4, log scale: ``y_right + (y_left - y_right)/(1 + z)``,
   ``z = (x/ec50)^slope = exp(slope (ln x - ln ec50))`` (``z = 0`` at x = 0 for
   slope > 0, with zero derivatives, as the compiled equation gives);
 * logistic4, linear scale: the same with ``z = exp(slope (x - ec50))``;
 * exponential: ``plateau + (y0 - plateau) exp(-k x)``;
-* michaelis_menten: ``vmax x/(km + x)``.
+* michaelis_menten: ``vmax x/(km + x)``;
+* logistic_growth: ``asymptote/(1 + exp(-rate (x - inflection)))``;
+* gompertz: ``asymptote exp(-exp(-rate (x - inflection)))``;
+* power: ``coefficient x^exponent`` (x >= 0; at x = 0 the derivative in the exponent is
+  0 for exponent > 0).
 
 The other built-in families are fitted series by series by the single-fit
 engine (:mod:`service.core.batch.curves`).
@@ -27,109 +33,19 @@ import numpy as np
 
 _SUM = {"reassoc", "nsz"}  # vectorized sums only; no assumption about NaN or infinity
 
-L4_LOG, L4_LINEAR, EXPONENTIAL, MICHAELIS_MENTEN = 0, 1, 2, 3
+L4_LOG, L4_LINEAR, EXPONENTIAL, MICHAELIS_MENTEN, LOGISTIC_GROWTH, GOMPERTZ, POWER = range(7)
 COMPILED = {("logistic4", "log"): L4_LOG, ("logistic4", "linear"): L4_LINEAR,
             ("exponential", "linear"): EXPONENTIAL,
-            ("michaelis_menten", "linear"): MICHAELIS_MENTEN}
+            ("michaelis_menten", "linear"): MICHAELIS_MENTEN,
+            ("logistic_growth", "linear"): LOGISTIC_GROWTH, ("gompertz", "linear"): GOMPERTZ,
+            ("power", "linear"): POWER}
 """Family id by ``(family name, x scale)``."""
 
-N_PARAMETERS = (4, 4, 3, 2)
+N_PARAMETERS = (4, 4, 3, 2, 3, 3, 2)
 """Parameters of each family id."""
 
-LINEAR_COLUMNS = (2, 2, 2, 1)
+LINEAR_COLUMNS = (2, 2, 2, 1, 1, 1, 1)
 """Conditionally linear parameters of each family id (the first ones of the order)."""
-
-
-@numba.njit(cache=True, nogil=True, error_model="numpy")
-def _logistic4(theta, u, log_scale, f, jac):
-    left, right, slope, mid = theta[0], theta[1], theta[2], theta[3]
-    span = left - right
-    centre = math.log(mid) if log_scale else mid
-    scale_mid = -slope / mid if log_scale else -slope
-    n = u.size
-    for i in range(n):                        # branch-free loops: they vectorize
-        f[i] = math.exp(slope * (u[i] - centre))
-    for i in range(n):
-        z = f[i]
-        g = 1.0 / (1.0 + z)
-        f[i] = right + span * g
-        dg = -g * g * span * z
-        jac[0, i], jac[1, i] = g, 1.0 - g
-        jac[2, i], jac[3, i] = dg * (u[i] - centre), dg * scale_mid
-    if log_scale:
-        for i in range(n):
-            if u[i] == -np.inf:               # x = 0 on the log scale: z = 0 for slope > 0
-                f[i] = left if slope > 0 else np.nan
-                jac[0, i], jac[1, i], jac[2, i], jac[3, i] = 1.0, 0.0, 0.0, 0.0
-
-
-@numba.njit(cache=True, nogil=True, error_model="numpy", fastmath=_SUM)
-def _all_finite(f, jac):
-    total = 0.0                     # NaN or inf anywhere makes the sum NaN
-    for i in range(f.size):
-        total += 0.0 * f[i]
-    for j in range(jac.shape[0]):
-        for i in range(jac.shape[1]):
-            total += 0.0 * jac[j, i]
-    return total == 0.0
-
-
-@numba.njit(cache=True, nogil=True, error_model="numpy")
-def evaluate(fid, theta, u, f, jac):
-    """Curve values ``f`` and Jacobian ``jac`` (p x n: one row per parameter) of family
-    ``fid`` at ``theta``.
-
-    ``u`` is the series' x on the family's scale (``ln x`` on the log scale, -inf at
-    x = 0). Returns False when a value or derivative is not finite.
-    """
-    n = u.size
-    if fid == L4_LOG or fid == L4_LINEAR:
-        _logistic4(theta, u, fid == L4_LOG, f, jac)
-    elif fid == EXPONENTIAL:
-        y0, plateau, k = theta[0], theta[1], theta[2]
-        for i in range(n):
-            e = math.exp(-k * u[i])
-            f[i] = plateau + (y0 - plateau) * e
-            jac[0, i], jac[1, i], jac[2, i] = e, 1.0 - e, -(y0 - plateau) * u[i] * e
-    else:
-        vmax, km = theta[0], theta[1]
-        for i in range(n):
-            g = u[i] / (km + u[i])
-            f[i] = vmax * g
-            jac[0, i], jac[1, i] = g, -vmax * g / (km + u[i])
-    return _all_finite(f, jac)
-
-
-@numba.njit(cache=True, nogil=True, error_model="numpy")
-def basis(fid, nonlinear, u, cols):
-    """The conditionally linear columns at the nonlinear values (start search).
-
-    ``nonlinear`` holds the nonlinear parameters in report order (logistic4:
-    slope, ec50; exponential: k; michaelis_menten: km); ``cols`` (m x n) receives
-    one column per linear parameter. False when a column is not finite.
-    """
-    n = u.size
-    for i in range(n):
-        if fid == L4_LOG or fid == L4_LINEAR:
-            slope, mid = nonlinear[0], nonlinear[1]
-            if fid == L4_LOG:
-                if u[i] == -np.inf:
-                    s = 1.0 if slope > 0 else np.nan
-                else:
-                    s = 1.0 / (1.0 + math.exp(slope * (u[i] - math.log(mid))))
-            else:
-                s = 1.0 / (1.0 + math.exp(slope * (u[i] - mid)))
-            cols[0, i], cols[1, i] = s, 1.0 - s
-        elif fid == EXPONENTIAL:
-            e = math.exp(-nonlinear[0] * u[i])
-            cols[0, i], cols[1, i] = e, 1.0 - e
-        else:
-            cols[0, i] = u[i] / (nonlinear[0] + u[i])
-    for k in range(cols.shape[0]):
-        for i in range(n):
-            if not math.isfinite(cols[k, i]):
-                return False
-    return True
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
@@ -145,21 +61,35 @@ def constants(fid, theta):
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
 def prepass(fid, theta, c0, u, buf):
-    """The transcendental part of the curve at every point, in one branch-free loop that
-    the compiler vectorizes: logistic4 ``1/(1 + z)``, exponential ``exp(-k u)``,
-    michaelis_menten ``1/(km + u)``."""
+    """The transcendental part of the curve at every point, in one branch-free loop:
+    logistic4 ``1/(1 + z)``, exponential ``exp(-k u)``, michaelis_menten ``1/(km + u)``,
+    logistic_growth ``1/(1 + exp(-rate (u - inflection)))``, gompertz
+    ``exp(-rate (u - inflection))``, power ``u^exponent``."""
+    n = u.size
     if fid == L4_LOG or fid == L4_LINEAR:
         slope = theta[2]
-        for i in range(u.size):
+        for i in range(n):
             buf[i] = 1.0 / (1.0 + math.exp(slope * (u[i] - c0)))
     elif fid == EXPONENTIAL:
         k = theta[2]
-        for i in range(u.size):
+        for i in range(n):
             buf[i] = math.exp(-k * u[i])
-    else:
+    elif fid == MICHAELIS_MENTEN:
         km = theta[1]
-        for i in range(u.size):
+        for i in range(n):
             buf[i] = 1.0 / (km + u[i])
+    elif fid == LOGISTIC_GROWTH:
+        rate, mid = theta[1], theta[2]
+        for i in range(n):
+            buf[i] = 1.0 / (1.0 + math.exp(-rate * (u[i] - mid)))
+    elif fid == GOMPERTZ:
+        rate, mid = theta[1], theta[2]
+        for i in range(n):
+            buf[i] = math.exp(-rate * (u[i] - mid))
+    else:
+        power = theta[1]
+        for i in range(n):
+            buf[i] = u[i] ** power
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
@@ -177,6 +107,66 @@ def point(fid, theta, c0, c1, ui, bi, row):
     if fid == EXPONENTIAL:
         row[0], row[1], row[2] = bi, 1.0 - bi, -(theta[0] - theta[1]) * ui * bi
         return theta[1] + (theta[0] - theta[1]) * bi
-    g = ui * bi
-    row[0], row[1] = g, -theta[0] * g * bi
-    return theta[0] * g
+    if fid == MICHAELIS_MENTEN:
+        g = ui * bi
+        row[0], row[1] = g, -theta[0] * g * bi
+        return theta[0] * g
+    if fid == LOGISTIC_GROWTH:
+        dg = theta[0] * bi * (1.0 - bi)
+        row[0], row[1], row[2] = bi, dg * (ui - theta[2]), -dg * theta[1]
+        return theta[0] * bi
+    if fid == GOMPERTZ:
+        e = math.exp(-bi)
+        de = theta[0] * e * bi
+        row[0], row[1], row[2] = e, de * (ui - theta[2]), -de * theta[1]
+        return theta[0] * e
+    row[0], row[1] = bi, theta[0] * bi * math.log(ui) if ui > 0 else 0.0
+    return theta[0] * bi
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy", fastmath=_SUM)
+def _all_finite(f, jac):
+    total = 0.0                     # NaN or inf anywhere makes the sum NaN
+    for i in range(f.size):
+        total += 0.0 * f[i]
+    for j in range(jac.shape[0]):
+        for i in range(jac.shape[1]):
+            total += 0.0 * jac[j, i]
+    return total == 0.0
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def evaluate(fid, theta, u, f, jac):
+    """Curve values ``f`` and Jacobian ``jac`` (p x n: one row per parameter) of family
+    ``fid`` at ``theta``; ``u`` is x on the family's scale (``ln x`` on the log scale,
+    -inf at x = 0). Returns False when a value or derivative is not finite."""
+    c0, c1 = constants(fid, theta)
+    prepass(fid, theta, c0, u, f)
+    row = np.empty(jac.shape[0])
+    for i in range(u.size):
+        f[i] = point(fid, theta, c0, c1, u[i], f[i], row)
+        for j in range(row.size):
+            jac[j, i] = row[j]
+    return _all_finite(f, jac)
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def basis(fid, nonlinear, u, cols):
+    """The conditionally linear columns at the nonlinear values (start search): the
+    Jacobian rows of the linear parameters, into ``cols`` (m x n). False when a column is
+    not finite."""
+    lin, p = cols.shape[0], N_PARAMETERS[fid]
+    theta = np.zeros(p)
+    for j in range(p - lin):
+        theta[lin + j] = nonlinear[j]
+    c0, c1 = constants(fid, theta)
+    buf = np.empty(u.size)
+    prepass(fid, theta, c0, u, buf)
+    row = np.empty(p)
+    total = 0.0
+    for i in range(u.size):
+        point(fid, theta, c0, c1, u[i], buf[i], row)
+        for k in range(lin):
+            cols[k, i] = row[k]
+            total += 0.0 * row[k]
+    return total == 0.0

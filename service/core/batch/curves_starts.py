@@ -22,13 +22,22 @@ import math
 import numba
 import numpy as np
 
-from service.core.batch.curves_models import EXPONENTIAL, L4_LINEAR, L4_LOG, basis
+from service.core.batch.curves_models import (
+    EXPONENTIAL,
+    GOMPERTZ,
+    L4_LINEAR,
+    L4_LOG,
+    LOGISTIC_GROWTH,
+    POWER,
+    basis,
+)
 
 END_FRACTION = 0.15                               # as builtin.shapes.END_FRACTION
 STEEPNESS = np.geomspace(0.5, 100.0, 10)           # as builtin.dose_response
 MID_POINTS = 17
 RATES = np.geomspace(0.05, 50.0, 20)               # as builtin.decay
 KM_POINTS = 40                                     # as builtin.saturation
+POWERS = np.linspace(-15.0, 15.0, 61)              # as builtin.saturation
 RANK_RTOL = 1e-10                                  # as builtin.starts.RANK_RTOL
 
 
@@ -108,8 +117,12 @@ def _line(u, v, keep):
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
 def shape_start(fid, x, u, y, lev, means, m, out, v):
-    """The nonlinear values read off the data's shape into ``out``; False when there is none."""
+    """The nonlinear values read off the data's shape into ``out``; False when there is none
+    (also for the families that start from the grid alone: logistic_growth, gompertz,
+    power)."""
     n = u.size
+    if fid == LOGISTIC_GROWTH or fid == GOMPERTZ or fid == POWER:
+        return False
     keep = np.empty(n, dtype=np.bool_)
     if fid == L4_LOG or fid == L4_LINEAR:
         left, right = _ends(means, m)
@@ -222,12 +235,36 @@ def grid_start(fid, x, u, y, sw, cols, coef, out):
             if rss < best:
                 best, out[0] = rss, trial[0]
         return best < np.inf
-    lo, hi = np.inf, 0.0                           # michaelis_menten: km over |x| > 0
+    if fid == LOGISTIC_GROWTH or fid == GOMPERTZ:   # meshgrid "ij" over (rate, inflection)
+        lo, hi, span = _span(u)
+        for a in range(2 * STEEPNESS.size):
+            r = STEEPNESS[a - STEEPNESS.size] if a >= STEEPNESS.size else \
+                -STEEPNESS[STEEPNESS.size - 1 - a]
+            trial[0] = r / span
+            for b in range(MID_POINTS):
+                trial[1] = lo - 0.25 * span + (1.5 * span) * b / (MID_POINTS - 1)
+                rss = project(fid, trial, u, y, sw, cols, coef)
+                if rss < best:
+                    best, out[0], out[1] = rss, trial[0], trial[1]
+        return best < np.inf
+    lo, hi = np.inf, 0.0                           # km or exponent: over |x| > 0
+    zero = False
     for v in x:
         if v != 0:
             lo, hi = min(lo, abs(v)), max(hi, abs(v))
+        zero |= v == 0
     if hi == 0.0:
         lo = hi = 1.0
+    if fid == POWER:
+        ratio = math.log(hi / lo) if hi > lo else 1.0
+        for a in range(POWERS.size):
+            trial[0] = POWERS[a] / ratio
+            if zero and not trial[0] > 0:         # 0^exponent is finite only for exponent > 0
+                continue
+            rss = project(fid, trial, u, y, sw, cols, coef)
+            if rss < best:
+                best, out[0] = rss, trial[0]
+        return best < np.inf
     for a in range(KM_POINTS):
         trial[0] = math.exp(math.log(lo / 100.0) + (math.log(100.0 * hi) - math.log(lo / 100.0))
                             * a / (KM_POINTS - 1))
