@@ -92,6 +92,30 @@ def power(rng, count):
     return out
 
 
+def gaussian_peak(rng, count):
+    """Peaks of height ~10 at x ~5, width ~1, on a baseline ~2 (31 points over 0..10)."""
+    x = np.linspace(0.0, 10.0, 31)
+    out = []
+    for _ in range(count):
+        base, height = 2.0 + rng.normal(0, 0.3), 10.0 * np.exp(rng.normal(0, 0.1))
+        centre, width = 5.0 + rng.normal(0, 0.5), 1.0 * np.exp(rng.normal(0, 0.1))
+        y = base + height * np.exp(-0.5 * ((x - centre) / width) ** 2)
+        out.append((x, y + rng.normal(0, 0.3, x.size)))
+    return out
+
+
+def weibull(rng, count):
+    """Weibull rises from ~2 to ~30, tau ~4, shape ~2 (x 0..12, 13 times x 2 replicates)."""
+    x = np.repeat(np.arange(0.0, 13.0), 2)
+    out = []
+    for _ in range(count):
+        y0, plateau = 2.0 + rng.normal(0, 0.3), 30.0 + rng.normal(0, 1.0)
+        tau, shape = 4.0 * np.exp(rng.normal(0, 0.1)), 2.0 * np.exp(rng.normal(0, 0.1))
+        y = plateau + (y0 - plateau) * np.exp(-(x / tau) ** shape)
+        out.append((x, y + rng.normal(0, 0.6, x.size)))
+    return out
+
+
 def flat(series):
     """Concatenated x, y and the lengths of ``series`` ((x, y) pairs)."""
     return (np.concatenate([s[0] for s in series]), np.concatenate([s[1] for s in series]),

@@ -14,7 +14,8 @@ are fitted.
 The compiled engine (:mod:`.curves_kernel`) takes the series of the families in
 :data:`~service.core.batch.curves_models.COMPILED` when the model holds no
 fixed values, bounds or start values and the weights are relative: finite
-data, weights > 0, at least p + 2 points and x >= 0 on the log scale and for power. Chunks
+data, weights > 0, at least p + 2 points and x >= 0 on the log scale, for power and
+for weibull. Chunks
 of series go to a thread pool (the kernel releases the GIL). Every other
 series, each series the kernel hands back (no converged start, a singular
 tangent plane, an exact fit), and every series with ``detail="full"`` goes
@@ -34,7 +35,7 @@ from functools import lru_cache
 import numpy as np
 
 from service.core.batch.curves_kernel import STATS, fit_rows
-from service.core.batch.curves_models import COMPILED, L4_LOG, N_PARAMETERS, POWER
+from service.core.batch.curves_models import COMPILED, L4_LOG, N_PARAMETERS, POWER, WEIBULL
 from service.core.batch.curves_post import finish
 from service.core.batch.curves_results import (
     CurveBatchResult,
@@ -92,7 +93,7 @@ def _screen(x, y, w, offsets, lengths, fid, p) -> np.ndarray:
     bad = ~(np.isfinite(x) & np.isfinite(y))
     if w is not None:
         bad |= ~(w > 0) | ~np.isfinite(w)
-    if fid == L4_LOG or fid == POWER:
+    if fid in (L4_LOG, POWER, WEIBULL):
         bad |= x < 0
     counts = np.add.reduceat(bad.astype(np.int64), offsets[:-1]) if x.size else \
         np.zeros(lengths.size, dtype=np.int64)

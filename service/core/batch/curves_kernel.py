@@ -29,11 +29,13 @@ import numba
 import numpy as np
 
 from service.core.batch.curves_models import (
+    GAUSSIAN_PEAK,
     L4_LINEAR,
     L4_LOG,
     LINEAR_COLUMNS,
     N_PARAMETERS,
     evaluate,
+    on_log_x,
 )
 from service.core.batch.curves_solver import SMALL_GRADIENT, factor_and_norms, solve
 from service.core.batch.curves_starts import grid_start, levels, project, shape_start
@@ -195,6 +197,7 @@ def fit_rows(fid, x, y, w, offsets, rows, cut_t, cut_cook, always_grid, est, se,
     """
     p = N_PARAMETERS[fid]
     lin = LINEAR_COLUMNS[fid]
+    log_x = on_log_x(fid)
     nmax = 1
     for r in rows:
         nmax = max(nmax, offsets[r + 1] - offsets[r])
@@ -212,7 +215,7 @@ def fit_rows(fid, x, y, w, offsets, rows, cut_t, cut_cook, always_grid, est, se,
         u, sw, cols = u_all[:n], sw_all[:n], cols_all[:, :n]
         status[r] = 1
         for i in range(n):
-            u[i] = (math.log(xs[i]) if xs[i] > 0 else -np.inf) if fid == L4_LOG else xs[i]
+            u[i] = (math.log(xs[i]) if xs[i] > 0 else -np.inf) if log_x else xs[i]
             sw[i] = math.sqrt(ws[i])
         order = np.argsort(u)
         m = levels(u, ys, order, lev, means)
@@ -241,6 +244,9 @@ def fit_rows(fid, x, y, w, offsets, rows, cut_t, cut_cook, always_grid, est, se,
         rss = best_rss
         if (fid == L4_LOG or fid == L4_LINEAR) and theta[2] < 0:   # the same curve, slope > 0
             theta[0], theta[1], theta[2] = best[1], best[0], -best[2]
+            current = False
+        if fid == GAUSSIAN_PEAK and theta[3] < 0:                  # the same curve, width > 0
+            theta[3] = -theta[3]
             current = False
         if not current:     # the solver's state (factor, column norms) at the kept estimates
             code, rss, offset, _ = solve(fid, theta, ul_all[:k], yl_all[:k], swl_all[:k], mats,

@@ -18,7 +18,10 @@ Jacobian columns are the linear basis of the start search (:func:`basis`):
 * logistic_growth: ``asymptote/(1 + exp(-rate (x - inflection)))``;
 * gompertz: ``asymptote exp(-exp(-rate (x - inflection)))``;
 * power: ``coefficient x^exponent`` (x >= 0; at x = 0 the derivative in the exponent is
-  0 for exponent > 0).
+  0 for exponent > 0);
+* gaussian_peak: ``baseline + height exp(-(x - centre)^2/(2 width^2))``;
+* weibull: ``plateau + (y0 - plateau) exp(-v)``, ``v = (x/tau)^shape`` computed on
+  ``u = ln x`` like logistic4's log scale (``v = 0`` at x = 0 for shape > 0).
 
 The other built-in families are fitted series by series by the single-fit
 engine (:mod:`service.core.batch.curves`).
@@ -33,19 +36,27 @@ import numpy as np
 
 _SUM = {"reassoc", "nsz"}  # vectorized sums only; no assumption about NaN or infinity
 
-L4_LOG, L4_LINEAR, EXPONENTIAL, MICHAELIS_MENTEN, LOGISTIC_GROWTH, GOMPERTZ, POWER = range(7)
+(L4_LOG, L4_LINEAR, EXPONENTIAL, MICHAELIS_MENTEN, LOGISTIC_GROWTH, GOMPERTZ, POWER,
+ GAUSSIAN_PEAK, WEIBULL) = range(9)
 COMPILED = {("logistic4", "log"): L4_LOG, ("logistic4", "linear"): L4_LINEAR,
             ("exponential", "linear"): EXPONENTIAL,
             ("michaelis_menten", "linear"): MICHAELIS_MENTEN,
             ("logistic_growth", "linear"): LOGISTIC_GROWTH, ("gompertz", "linear"): GOMPERTZ,
-            ("power", "linear"): POWER}
+            ("power", "linear"): POWER, ("gaussian_peak", "linear"): GAUSSIAN_PEAK,
+            ("weibull", "linear"): WEIBULL}
 """Family id by ``(family name, x scale)``."""
 
-N_PARAMETERS = (4, 4, 3, 2, 3, 3, 2)
+N_PARAMETERS = (4, 4, 3, 2, 3, 3, 2, 4, 4)
 """Parameters of each family id."""
 
-LINEAR_COLUMNS = (2, 2, 2, 1, 1, 1, 1)
+LINEAR_COLUMNS = (2, 2, 2, 1, 1, 1, 1, 2, 2)
 """Conditionally linear parameters of each family id (the first ones of the order)."""
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def on_log_x(fid):
+    """True when the family's ``u`` is ``ln x`` (-inf at x = 0)."""
+    return fid == L4_LOG or fid == WEIBULL
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
@@ -56,6 +67,8 @@ def constants(fid, theta):
         return math.log(theta[3]), -theta[2] / theta[3]
     if fid == L4_LINEAR:
         return theta[3], -theta[2]
+    if fid == WEIBULL:
+        return math.log(theta[2]), 0.0
     return 0.0, 0.0
 
 
@@ -64,7 +77,8 @@ def prepass(fid, theta, c0, u, buf):
     """The transcendental part of the curve at every point, in one branch-free loop:
     logistic4 ``1/(1 + z)``, exponential ``exp(-k u)``, michaelis_menten ``1/(km + u)``,
     logistic_growth ``1/(1 + exp(-rate (u - inflection)))``, gompertz
-    ``exp(-rate (u - inflection))``, power ``u^exponent``."""
+    ``exp(-rate (u - inflection))``, power ``u^exponent``, gaussian_peak the bell,
+    weibull ``v``."""
     n = u.size
     if fid == L4_LOG or fid == L4_LINEAR:
         slope = theta[2]
@@ -86,10 +100,19 @@ def prepass(fid, theta, c0, u, buf):
         rate, mid = theta[1], theta[2]
         for i in range(n):
             buf[i] = math.exp(-rate * (u[i] - mid))
-    else:
+    elif fid == POWER:
         power = theta[1]
         for i in range(n):
             buf[i] = u[i] ** power
+    elif fid == GAUSSIAN_PEAK:
+        centre, width = theta[2], theta[3]
+        for i in range(n):
+            t = (u[i] - centre) / width
+            buf[i] = math.exp(-0.5 * t * t)
+    else:
+        shape = theta[3]
+        for i in range(n):
+            buf[i] = math.exp(shape * (u[i] - c0))
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
@@ -120,8 +143,23 @@ def point(fid, theta, c0, c1, ui, bi, row):
         de = theta[0] * e * bi
         row[0], row[1], row[2] = e, de * (ui - theta[2]), -de * theta[1]
         return theta[0] * e
-    row[0], row[1] = bi, theta[0] * bi * math.log(ui) if ui > 0 else 0.0
-    return theta[0] * bi
+    if fid == POWER:
+        row[0], row[1] = bi, theta[0] * bi * math.log(ui) if ui > 0 else 0.0
+        return theta[0] * bi
+    if fid == GAUSSIAN_PEAK:
+        d = ui - theta[2]
+        w2 = theta[3] * theta[3]
+        hb = theta[1] * bi
+        row[0], row[1], row[2], row[3] = 1.0, bi, hb * d / w2, hb * d * d / (w2 * theta[3])
+        return theta[0] + hb
+    e = math.exp(-bi)                          # weibull, bi = v
+    span = theta[0] - theta[1]
+    d = ui - c0 if ui > -np.inf else 0.0
+    row[0], row[1] = e, 1.0 - e
+    row[2], row[3] = span * e * bi * theta[3] / theta[2], -span * e * bi * d
+    if ui == -np.inf and not theta[3] > 0:
+        return np.nan
+    return theta[1] + span * e
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy", fastmath=_SUM)

@@ -24,11 +24,13 @@ import numpy as np
 
 from service.core.batch.curves_models import (
     EXPONENTIAL,
+    GAUSSIAN_PEAK,
     GOMPERTZ,
     L4_LINEAR,
     L4_LOG,
     LOGISTIC_GROWTH,
     POWER,
+    WEIBULL,
     basis,
 )
 
@@ -38,6 +40,8 @@ MID_POINTS = 17
 RATES = np.geomspace(0.05, 50.0, 20)               # as builtin.decay
 KM_POINTS = 40                                     # as builtin.saturation
 POWERS = np.linspace(-15.0, 15.0, 61)              # as builtin.saturation
+CENTRES, WIDTHS = 25, 16                           # as builtin.peak
+TAUS, SHAPES = 20, np.geomspace(0.25, 8.0, 11)     # as builtin.decay
 RANK_RTOL = 1e-10                                  # as builtin.starts.RANK_RTOL
 
 
@@ -119,9 +123,9 @@ def _line(u, v, keep):
 def shape_start(fid, x, u, y, lev, means, m, out, v):
     """The nonlinear values read off the data's shape into ``out``; False when there is none
     (also for the families that start from the grid alone: logistic_growth, gompertz,
-    power)."""
+    power, gaussian_peak, weibull)."""
     n = u.size
-    if fid == LOGISTIC_GROWTH or fid == GOMPERTZ or fid == POWER:
+    if fid >= LOGISTIC_GROWTH:
         return False
     keep = np.empty(n, dtype=np.bool_)
     if fid == L4_LOG or fid == L4_LINEAR:
@@ -211,6 +215,12 @@ def _span(u):
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
+def _geom(lo, hi, k, count):
+    """The k-th of ``count`` geometrically spaced values from lo to hi (numpy.geomspace)."""
+    return math.exp(math.log(lo) + (math.log(hi) - math.log(lo)) * k / (count - 1))
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
 def grid_start(fid, x, u, y, sw, cols, coef, out):
     """The best point of the family's grid (nonlinear values into ``out``); False if none."""
     best = np.inf
@@ -247,6 +257,35 @@ def grid_start(fid, x, u, y, sw, cols, coef, out):
                 if rss < best:
                     best, out[0], out[1] = rss, trial[0], trial[1]
         return best < np.inf
+    if fid == GAUSSIAN_PEAK:                       # meshgrid "ij" over (centre, width)
+        lo, hi, span = _span(u)
+        distinct = np.unique(u)
+        finest = span / 100.0
+        if distinct.size > 1:
+            finest = np.min(distinct[1:] - distinct[:-1])
+        for a in range(CENTRES):
+            trial[0] = lo - 0.1 * span + (1.2 * span) * a / (CENTRES - 1)
+            for b in range(WIDTHS):
+                trial[1] = _geom(finest / 2.0, 2.0 * span, b, WIDTHS)
+                rss = project(fid, trial, u, y, sw, cols, coef)
+                if rss < best:
+                    best, out[0], out[1] = rss, trial[0], trial[1]
+        return best < np.inf
+    if fid == WEIBULL:                             # meshgrid "ij" over (tau, shape)
+        lo, hi = np.inf, -np.inf
+        for v in x:
+            if v > 0:
+                lo, hi = min(lo, v), max(hi, v)
+        if not hi > 0:
+            lo = hi = 1.0
+        for a in range(TAUS):
+            trial[0] = _geom(lo / 3.0, 3.0 * hi, a, TAUS)
+            for b in range(SHAPES.size):
+                trial[1] = SHAPES[b]
+                rss = project(fid, trial, u, y, sw, cols, coef)
+                if rss < best:
+                    best, out[0], out[1] = rss, trial[0], trial[1]
+        return best < np.inf
     lo, hi = np.inf, 0.0                           # km or exponent: over |x| > 0
     zero = False
     for v in x:
@@ -266,8 +305,7 @@ def grid_start(fid, x, u, y, sw, cols, coef, out):
                 best, out[0] = rss, trial[0]
         return best < np.inf
     for a in range(KM_POINTS):
-        trial[0] = math.exp(math.log(lo / 100.0) + (math.log(100.0 * hi) - math.log(lo / 100.0))
-                            * a / (KM_POINTS - 1))
+        trial[0] = _geom(lo / 100.0, 100.0 * hi, a, KM_POINTS)
         rss = project(fid, trial, u, y, sw, cols, coef)
         if rss < best:
             best, out[0] = rss, trial[0]
