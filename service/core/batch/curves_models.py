@@ -115,7 +115,7 @@ def prepass(fid, theta, c0, u, buf):
             buf[i] = math.exp(shape * (u[i] - c0))
 
 
-@numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
+@numba.njit(cache=True, nogil=True, error_model="numpy")
 def point(fid, theta, c0, c1, ui, bi, row):
     """The curve at one point (returned) and its gradient into ``row`` (p values), from
     the point's :func:`prepass` value ``bi``."""
