@@ -28,6 +28,7 @@ import math
 import numba
 import numpy as np
 
+from service.core.batch.curves_grid import grid_start
 from service.core.batch.curves_models import (
     GAUSSIAN_PEAK,
     L4_LINEAR,
@@ -38,7 +39,7 @@ from service.core.batch.curves_models import (
     on_log_x,
 )
 from service.core.batch.curves_solver import SMALL_GRADIENT, factor_and_norms, solve
-from service.core.batch.curves_starts import grid_start, levels, project, shape_start
+from service.core.batch.curves_starts import levels, project, shape_start
 from service.core.batch.residuals import design_sums
 from service.core.checks.kernels import chi2_tail, dw_p, dw_traces
 
