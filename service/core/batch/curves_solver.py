@@ -31,6 +31,7 @@ ACCEPT_OFFSET = 1e-8       # the single fit's criterion (solver.DEFAULT_TOLERANC
 MAX_ITERATIONS = 200
 EPS = float(np.finfo(float).eps)
 FLAT_OFFSET = 1e-3         # as polish.FLAT_OFFSET
+ACCELERATE_OFFSET = 0.05   # below this relative offset Gauss-Newton's linear rate is steady
 PIVOT_FLOOR = 1e-24        # squared scaled pivot: below it the tangent plane is singular
 RELATIVE_OFFSET, SMALL_GRADIENT, STALLED, SINGULAR, LIMIT, NON_FINITE = 0, 1, 2, 3, 4, 5
 CODES = ("relative_offset", "small_gradient", "stalled", "singular_jacobian", "iteration_limit",
@@ -148,6 +149,41 @@ def check(a, g, d, p, low, z, rss, floor, n):
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
+def _try(fid, trial, u, y, sw, p, pure, n, rss, offset, slack, mats, row, buf):
+    """Linearize at ``trial`` (into the trial rows of ``mats``) and judge it.
+
+    Returns ``(verdict, code, rss, offset, slack)``: verdict 1 accept, 0 reject (try a
+    shorter step), -1 a flat step that did not lower the relative offset (stop).
+    """
+    trial_a, trial_low = mats[4 * p:5 * p], mats[5 * p:6 * p]
+    z, trial_g, trial_d = mats[6 * p + 1], mats[6 * p + 5], mats[6 * p + 6]
+    ok, rt, floor_t, slack_t = linearize(fid, trial, u, y, sw, p, trial_a, trial_g, trial_d,
+                                         row, buf)
+    rt += pure
+    if not ok:
+        return 0, -1, rss, offset, slack
+    flat = offset <= FLAT_OFFSET and rt <= rss + slack
+    if not (rt < rss or flat):
+        return 0, -1, rss, offset, slack
+    code_t, offset_t = check(trial_a, trial_g, trial_d, p, trial_low, z, rt, floor_t, n)
+    if rt < rss or offset_t < offset:
+        return 1, code_t, rt, offset_t, slack_t
+    return -1, -1, rss, offset, slack
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def _commit(theta, trial, mats, p):
+    """Make the judged trial point the current one (estimates, factor, gradient, norms)."""
+    for j in range(p):
+        theta[j] = trial[j]
+        mats[6 * p, j] = mats[6 * p + 5, j]              # g
+        mats[6 * p + 2, j] = mats[6 * p + 6, j]          # d
+        for k in range(p):
+            mats[p + j, k] = mats[4 * p + j, k]          # a
+            mats[j, k] = mats[5 * p + j, k]              # low
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
 def solve(fid, theta, u, y, sw, mats, max_iterations, pure, n):
     """Levenberg-Marquardt from ``theta`` (updated in place) to the tight stop.
 
@@ -157,14 +193,17 @@ def solve(fid, theta, u, y, sw, mats, max_iterations, pure, n):
     RSS) and ``n`` the number of points; the RSS, gradient and relative offset are those
     of the points, at a third of the work for triplicates.
 
-    ``mats`` is scratch of shape ``(6p + 8, p)``; on a converged return
+    ``mats`` is scratch of shape ``(6p + 11, p)``; on a converged return
     :func:`factor_and_norms` reads the Cholesky factor of the scaled ``Js'Js`` at
     ``theta`` and the column norms ``D`` from it.
 
     A step is accepted when it lowers the RSS; once the relative offset is below
     ``FLAT_OFFSET``, where the RSS is flat to first order and float64 cannot confirm
     a step, also when the RSS stays within its rounding slack and the relative
-    offset falls (as the single fit's polish does).
+    offset falls (as the single fit's polish does). Gauss-Newton converges linearly on
+    noisy data; below :data:`ACCELERATE_OFFSET` each iteration first tries the step
+    extrapolated from the last two (Anderson acceleration of depth one, in the scaled
+    parameters), judged by the same rules, and falls back on the plain step.
 
     Returns
     -------
@@ -172,10 +211,9 @@ def solve(fid, theta, u, y, sw, mats, max_iterations, pure, n):
     """
     p = theta.size
     low, a, m, low_m = mats[0:p], mats[p:2 * p], mats[2 * p:3 * p], mats[3 * p:4 * p]
-    trial_a, trial_low = mats[4 * p:5 * p], mats[5 * p:6 * p]
     g, z, d, step = mats[6 * p], mats[6 * p + 1], mats[6 * p + 2], mats[6 * p + 3]
-    trial, trial_g, trial_d, row = mats[6 * p + 4], mats[6 * p + 5], mats[6 * p + 6], \
-        mats[6 * p + 7]
+    trial, row = mats[6 * p + 4], mats[6 * p + 7]
+    prev_theta, prev_step, extra = mats[6 * p + 8], mats[6 * p + 9], mats[6 * p + 10]
     buf = np.empty(y.size)
     ok, rss, floor, slack = linearize(fid, theta, u, y, sw, p, a, g, d, row, buf)
     if not ok:
@@ -183,6 +221,7 @@ def solve(fid, theta, u, y, sw, mats, max_iterations, pure, n):
     rss += pure
     code, offset = check(a, g, d, p, low, z, rss, floor, n)
     lam = 1e-3
+    have_prev = False
     for it in range(max_iterations):
         if code >= 0:
             return code, rss, offset, it
@@ -204,24 +243,40 @@ def solve(fid, theta, u, y, sw, mats, max_iterations, pure, n):
                 small &= abs(step[j]) <= 4.0 * EPS * abs(theta[j])
             if small:
                 break
-            ok, rt, floor_t, slack_t = linearize(fid, trial, u, y, sw, p, trial_a, trial_g,
-                                                 trial_d, row, buf)
-            rt += pure
-            if ok:
-                flat = offset <= FLAT_OFFSET and rt <= rss + slack
-                if rt < rss or flat:
-                    code_t, offset_t = check(trial_a, trial_g, trial_d, p, trial_low, z, rt,
-                                             floor_t, n)
-                    if rt < rss or offset_t < offset:
-                        code, rss, offset, slack = code_t, rt, offset_t, slack_t
+            if have_prev and offset <= ACCELERATE_OFFSET:
+                num = den = 0.0
+                for j in range(p):
+                    ds = (step[j] - prev_step[j]) * d[j]
+                    num += ds * step[j] * d[j]
+                    den += ds * ds
+                if den > 0:
+                    gamma = num / den
+                    for j in range(p):
+                        extra[j] = trial[j] - gamma * (theta[j] - prev_theta[j] + step[j]
+                                                       - prev_step[j])
+                    verdict, c, r, o, sl = _try(fid, extra, u, y, sw, p, pure, n, rss, offset,
+                                                slack, mats, row, buf)
+                    if verdict == 1:
                         for j in range(p):
-                            theta[j], g[j], d[j] = trial[j], trial_g[j], trial_d[j]
-                            for k in range(p):
-                                a[j, k], low[j, k] = trial_a[j, k], trial_low[j, k]
+                            prev_theta[j], prev_step[j] = theta[j], step[j]
+                        _commit(theta, extra, mats, p)
+                        code, rss, offset, slack = c, r, o, sl
                         accepted = True
                         lam = max(lam * 0.1, 1e-12)
                         break
-                    break                                # a flat step that did not help
+            verdict, c, r, o, sl = _try(fid, trial, u, y, sw, p, pure, n, rss, offset, slack,
+                                        mats, row, buf)
+            if verdict == 1:
+                for j in range(p):
+                    prev_theta[j], prev_step[j] = theta[j], step[j]
+                have_prev = True
+                _commit(theta, trial, mats, p)
+                code, rss, offset, slack = c, r, o, sl
+                accepted = True
+                lam = max(lam * 0.1, 1e-12)
+                break
+            if verdict < 0:
+                break                                # a flat step that did not help
             lam *= 10.0
         if not accepted:
             return (RELATIVE_OFFSET if offset <= ACCEPT_OFFSET else STALLED), rss, offset, it
