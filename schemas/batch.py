@@ -18,13 +18,13 @@ from marshmallow import Schema, ValidationError, fields, validate
 from schemas.common import MISSING_POLICIES, SECTIONS, UNKNOWN_FIELD, StrictSchema
 from schemas.fields import NumberArray, PassThroughArray, StrictFloat, StrictString, one_of_message
 from schemas.fit import GridSchema, ModelSchema
-from schemas.model_field import ModelField
+from schemas.model_field import ModelField, misplaced_model_options
 
 DETAILS = ("summary", "full")
 SERIES_FIELDS = ("id", "x", "y", "weights", "model")
-_X = NumberArray(allow_null_items=True)
-_Y = NumberArray(allow_null_items=True)
-_W = NumberArray(allow_null_items=True, allow_none=True)
+_X = NumberArray(allow_null_items=True, data=True)
+_Y = NumberArray(allow_null_items=True, data=True)
+_W = NumberArray(allow_null_items=True, allow_none=True, data=True)
 _MODEL = ModelSchema()
 _MODEL_FIELD = ModelField(comparisons=False)
 _CRITERION = {"sequential_f": "p_last", "aic": "aic", "aicc": "aicc", "bic": "bic",
@@ -87,6 +87,14 @@ class OptionsLineSchema(BatchRequestSchema):
         "description": "Not used in NDJSON: one series per line instead."})
 
 
+class BatchOptionsSchema(BatchRequestSchema):
+    """Arrow and Parquet bodies: the shared options (the JSON body without series), sent as
+    the ``options`` query parameter, a JSON object."""
+
+    class Meta(BatchRequestSchema.Meta):
+        exclude = ("series",)
+
+
 def valid_id(ident) -> bool:
     """A series id is a string or an integer (a JSON boolean is not)."""
     return not isinstance(ident, bool) and isinstance(ident, (str, int))
@@ -104,7 +112,8 @@ def load_series(obj, position: int):
         raise ValidationError({"_body": ["Each series must be a JSON object with x and y."]})
     unknown = [k for k in obj if k not in SERIES_FIELDS]
     if unknown:
-        raise ValidationError({k: [UNKNOWN_FIELD] for k in unknown})
+        misplaced = misplaced_model_options(obj, SERIES_FIELDS)
+        raise ValidationError({k: misplaced.get(k, [UNKNOWN_FIELD]) for k in unknown})
     ident = obj.get("id", position)
     if not valid_id(ident):
         raise ValidationError({"id": ["Must be a string or an integer."]})

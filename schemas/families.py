@@ -27,6 +27,24 @@ class ParameterSchema(Schema):
     constraint = text("Its admissible values, in words.", required=True)
 
 
+class ReadingSchema(Schema):
+    """What /v1/invert answers for this family's fitted models, and when."""
+
+    invertible = fields.Boolean(required=True, metadata={
+        "description": "/v1/invert reads x back from y with this family's documents."})
+    invert_condition = text("When a fit of the family can be read backwards.", required=True)
+    working_range = fields.Boolean(required=True, metadata={
+        "description": "/v1/invert reports working_range (precision profile at cv_limit) "
+                       "for this family's fits."})
+    working_range_condition = text("When the working range is reported (empty: never).",
+                                   required=True)
+    detection_limit = fields.Boolean(required=True, metadata={
+        "description": "/v1/invert's calibration section (decision and detection limits, "
+                       "ICH-style limits) can be available for this family."})
+    detection_limit_condition = text("When the limits are available (otherwise calibration."
+                                     "available is false with the reason).", required=True)
+
+
 class FamilySchema(Schema):
     """A model family."""
 
@@ -42,6 +60,8 @@ class FamilySchema(Schema):
                                  metadata={"description": "Values of model.select."})
     transforms = fields.List(fields.String(), required=True,
                              metadata={"description": "Values of transform_x / transform_y."})
+    reading = fields.Nested(ReadingSchema, required=True, metadata={
+        "description": "Reading x back from y: inverse, working range, detection limits."})
 
 
 class LimitsSchema(Schema):

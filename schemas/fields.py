@@ -29,6 +29,49 @@ REQUIRED_MESSAGE = "Missing required field. Add it; see /docs for its meaning."
 NULL_MESSAGE = "May not be null. Send a value, or leave the field out for its default."
 
 
+INDEX_LIST_CAP = 10  # offending indices named in one message; the rest are counted
+
+
+class CodedMessage(str):
+    """A validation message that names its problem code (e.g. ``invalid_data``).
+
+    The service answers with that code instead of ``validation_error`` when every
+    message of the answer carries the same one.
+    """
+
+    code: str
+
+    def __new__(cls, text: str, code: str):
+        message = super().__new__(cls, text)
+        message.code = code
+        return message
+
+
+def coded(messages, code: str):
+    """The same (nested) messages, each a :class:`CodedMessage` with ``code``."""
+    if isinstance(messages, dict):
+        return {key: coded(value, code) for key, value in messages.items()}
+    if isinstance(messages, list):
+        return [coded(value, code) for value in messages]
+    return CodedMessage(str(messages), code)
+
+
+def index_list(indices, cap: int = INDEX_LIST_CAP) -> str:
+    """``"3, 7, 12 and 40 more"``: the first ``cap`` indices, then how many are left."""
+    indices = [int(i) for i in indices]
+    shown = ", ".join(map(str, indices[:cap]))
+    rest = len(indices) - cap
+    return f"{shown} and {rest} more" if rest > 0 else shown
+
+
+def also_at(indices) -> str:
+    """A sentence naming the further offending indices after the first (empty if none)."""
+    more = list(indices)[1:]
+    if not more:
+        return ""
+    return f" The same goes for {'index' if len(more) == 1 else 'indices'} {index_list(more)}."
+
+
 def _messages(**extra: str) -> dict:
     base = {"required": REQUIRED_MESSAGE, "null": NULL_MESSAGE}
     base.update(extra)
@@ -139,9 +182,13 @@ class NumberArray(fields.Field):
     nullable_items_doc : bool
         Document items as ``number | null`` (for responses, where undefined
         values are ``null``).
+    data : bool
+        The array is data (x, y, weights): an empty one is ``invalid_data``
+        (a :class:`CodedMessage`), as the core says of empty arrays.
 
-    Errors name the first bad element: ``{17: ["..."]}`` under the field,
-    which the service reports as the path ``y[17]``.
+    Errors are keyed by the first bad element: ``{17: ["..."]}`` under the field,
+    which the service reports as the path ``y[17]``; the message names every other
+    bad element (up to :data:`INDEX_LIST_CAP`, then a count).
     """
 
     default_error_messages = _messages(
@@ -155,8 +202,9 @@ class NumberArray(fields.Field):
 
     def __init__(self, *, allow_null_items: bool = False, min_items: int = 1,
                  max_items: int | None = None, nullable_items_doc: bool | None = None,
-                 **kwargs):
+                 data: bool = False, **kwargs):
         self.allow_null_items = allow_null_items
+        self.data = data
         self.min_items = min_items
         self.max_items = max_items
         nullable = allow_null_items if nullable_items_doc is None else nullable_items_doc
@@ -177,6 +225,10 @@ class NumberArray(fields.Field):
             raise self.make_error("invalid")
         n = len(value)
         if n < self.min_items:
+            if self.data and n == 0:
+                raise ValidationError(CodedMessage(
+                    "Empty array: send at least one value (as many as the model has "
+                    "coefficients, and more to judge the fit).", "invalid_data"))
             raise self.make_error("too_few", min=self.min_items, n=n)
         if self.max_items is not None and n > self.max_items:
             raise self.make_error("too_many", max=self.max_items, n=n)
@@ -192,28 +244,40 @@ class NumberArray(fields.Field):
         if kinds <= {float, int}:
             # orjson refuses NaN/Infinity and out-of-range floats; huge ints can still overflow
             if int in kinds and not np.isfinite(array).all():
-                bad = int(np.flatnonzero(~np.isfinite(array))[0])
-                raise ValidationError({bad: [self.error_messages["item_range"]]})
+                bad = np.flatnonzero(~np.isfinite(array))
+                raise ValidationError({int(bad[0]): [self._out_of_range(also_at(bad))]})
         return array
 
     def _raise_first_bad(self, value, allowed):
-        for index, item in enumerate(value):
-            kind = type(item)
-            if allowed is not None and kind in allowed:
-                continue
-            if kind in _NUMBER_TYPES:
-                try:
-                    if math.isfinite(float(item)):
-                        continue
-                except OverflowError:
-                    pass
-                message = self.error_messages["item_range"]
-            elif item is None:
-                message = self.error_messages["item_null"]
-            else:
-                message = self.error_messages["item_type"].format(kind=_json_kind(item))
-            raise ValidationError({index: [message]})
-        raise self.make_error("invalid")  # pragma: no cover - a bad element always exists
+        """Raise for the first bad element, naming every other bad one in its message."""
+        bad = [index for index, item in enumerate(value) if self._bad(item, allowed)]
+        if not bad:  # pragma: no cover - a bad element always exists
+            raise self.make_error("invalid")
+        item = value[bad[0]]
+        if type(item) in _NUMBER_TYPES:
+            raise ValidationError({bad[0]: [self._out_of_range(also_at(bad))]})
+        if item is None:
+            message = self.error_messages["item_null"]
+        else:
+            message = self.error_messages["item_type"].format(kind=_json_kind(item))
+        raise ValidationError({bad[0]: [message + also_at(bad)]})
+
+    def _out_of_range(self, more: str) -> str:
+        """A number beyond float64: in a data array, ``invalid_data`` (a non-finite value)."""
+        message = self.error_messages["item_range"] + more
+        return CodedMessage(message, "invalid_data") if self.data else message
+
+    @staticmethod
+    def _bad(item, allowed) -> bool:
+        kind = type(item)
+        if allowed is not None and kind in allowed:
+            return False
+        if kind in _NUMBER_TYPES:
+            try:
+                return not math.isfinite(float(item))
+            except OverflowError:
+                return True
+        return True
 
 
 def _json_kind(item) -> str:

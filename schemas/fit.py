@@ -3,12 +3,19 @@
 from __future__ import annotations
 
 import numpy as np
-from marshmallow import ValidationError, fields, post_load, validate, validates_schema
+from marshmallow import ValidationError, fields, post_load, pre_load, validate, validates_schema
 
 from schemas.common import MISSING_POLICIES, SECTIONS, WEIGHTINGS, StrictSchema
-from schemas.fields import NumberArray, StrictFloat, StrictInteger, choice
+from schemas.fields import (
+    CodedMessage,
+    NumberArray,
+    StrictFloat,
+    StrictInteger,
+    also_at,
+    choice,
+)
 from schemas.fit_response import FitResponseSchema  # noqa: F401  (re-exported)
-from schemas.model_field import ModelField
+from schemas.model_field import ModelField, misplaced_model_options
 from schemas.polynomial import ModelSchema  # noqa: F401  (re-exported)
 
 _LEVEL = validate.Range(0, 1, min_inclusive=False, max_inclusive=False,
@@ -65,15 +72,16 @@ _GRID_DEFAULT = GridSchema()
 class FitRequestSchema(StrictSchema):
     """Fit one series: data, model, grid and options."""
 
-    x = NumberArray(required=True, allow_null_items=True, metadata={
+    x = NumberArray(required=True, allow_null_items=True, data=True, metadata={
         "description": "Predictor values, JSON numbers. null marks a missing value "
                        "(allowed only with missing=drop)."})
-    y = NumberArray(required=True, allow_null_items=True, metadata={
+    y = NumberArray(required=True, allow_null_items=True, data=True, metadata={
         "description": "Response values, same length as x. null marks a missing value "
                        "(allowed only with missing=drop)."})
-    weights = NumberArray(allow_none=True, load_default=None, allow_null_items=True, metadata={
-        "description": "Optional positive weights (inverse variances), same length as x; "
-                       "null for an unweighted fit."})
+    weights = NumberArray(
+        allow_none=True, load_default=None, allow_null_items=True, data=True, metadata={
+            "description": "Optional positive weights (inverse variances), same length as x; "
+                           "null for an unweighted fit."})
     model = ModelField(load_default=lambda: _MODEL_DEFAULT.load({}), metadata={
         "description": "The model to fit: a polynomial model object (the default family), or "
                        "the model object of the family it names. Default: a polynomial of "
@@ -91,8 +99,8 @@ class FitRequestSchema(StrictSchema):
                        "up to a common factor, sigma estimated from the residuals) or known_sd "
                        "(weights are 1/SD² of a known measurement error: sigma is not "
                        "rescaled, limits use the normal distribution and a chi-square "
-                       "goodness-of-fit test is reported). known_sd applies to the nonlinear "
-                       "families.", load_default="relative")
+                       "goodness-of-fit test is reported; weights are then required).",
+                       load_default="relative")
     include = fields.List(
         choice(SECTIONS, "A response section."),
         load_default=lambda: list(SECTIONS),
@@ -102,24 +110,36 @@ class FitRequestSchema(StrictSchema):
                                  "always rest on the full diagnostics (computed whether or "
                                  "not the diagnostics section is returned)."})
 
+    @pre_load
+    def _model_options_belong_in_model(self, data, **kwargs):
+        if isinstance(data, dict):
+            misplaced = misplaced_model_options(data, self.fields)
+            if misplaced:
+                raise ValidationError(misplaced)
+        return data
+
     @validates_schema
     def _consistent(self, data, **kwargs):
         x, y, weights = data.get("x"), data.get("y"), data.get("weights")
         if x is None or y is None:
             return
         errors: dict = {}
-        if len(y) != len(x):
-            errors["y"] = [f"Must have the same length as x ({len(x)}); got {len(y)}."]
+        if len(y) != len(x):  # invalid_data, as the core and /v1/batch say
+            errors["y"] = [CodedMessage(f"Must have the same length as x ({len(x)}); got "
+                                        f"{len(y)}. Send x and y paired by position.",
+                                        "invalid_data")]
         if weights is not None and len(weights) != len(x):
-            errors["weights"] = [f"Must have the same length as x ({len(x)}); "
-                                 f"got {len(weights)}."]
+            errors["weights"] = [CodedMessage(f"Must have the same length as x ({len(x)}); "
+                                              f"got {len(weights)}. Send one weight per "
+                                              "point, or none.", "invalid_data")]
         if data.get("missing", "error") != "drop":
             for name, values in (("x", x), ("y", y), ("weights", weights)):
                 if values is not None and name not in errors:
                     gaps = np.flatnonzero(np.isnan(values))
                     if gaps.size:
-                        errors[name] = {int(gaps[0]): [
+                        errors[name] = {int(gaps[0]): [CodedMessage(
                             "null is a missing value. Remove the point, or set "
-                            "\"missing\": \"drop\" to drop incomplete pairs."]}
+                            "\"missing\": \"drop\" to drop incomplete pairs."
+                            + also_at(gaps), "invalid_data")]}  # as the core says
         if errors:
             raise ValidationError(errors)

@@ -34,7 +34,7 @@ class FittedModelSummarySchema(Schema):
                        "parameter names for nonlinear families."})
     expression = text("The fitted equation in canonical form (nonlinear families; fixed "
                       "parameters of a built-in family appear as their numbers).")
-    weighting = text("How the weights were read: relative or known_sd (nonlinear families).")
+    weighting = text("How the weights were read: relative or known_sd.")
     transform_x = text("Transform applied to x before fitting.")
     transform_y = text("Transform applied to y before fitting.")
 

@@ -16,11 +16,13 @@ from schemas.curve_document import CurveDocumentSchema, WorkingRangeSchema
 from schemas.fields import (
     MAX_JSON_INTEGER,
     TOO_LARGE_INTEGER,
+    CodedMessage,
     NumberArray,
     StrictBoolean,
     StrictFloat,
     StrictInteger,
     StrictString,
+    coded,
     one_of_message,
 )
 
@@ -87,6 +89,10 @@ class FittedModelSchema(StrictSchema):
     weighted = StrictBoolean(required=True,
                              metadata={"description": "Fitted with weights." + _KEEP})
     level = _doc_float("Default confidence level for predictions and intervals.")
+    weighting = StrictString(validate=validate.OneOf(["known_sd"]), metadata={
+        "description": "Present only for fits with known measurement SDs (weighting "
+                       "known_sd): sigma is then 1 and limits use the normal distribution. "
+                       "Absent means relative weights." + _KEEP})
     checksum = StrictString(required=True, metadata={
         "description": "'sha256:' + hex SHA-256 of the canonical form of every other field "
                        "(docs/fitted-model.md). A changed document is refused with 422."})
@@ -113,9 +119,23 @@ class FittedModelField(fields.Field):
         if not isinstance(value, dict):
             raise ValidationError("Must be a JSON object. Send the fitted_model object exactly "
                                   "as /v1/fit returned it.")
+        if isinstance(value.get("fitted_model"), dict):  # the whole /v1/fit answer
+            raise ValidationError(CodedMessage(
+                "This is a whole /v1/fit answer, not its fitted-model document. Send its "
+                "`fitted_model` field: {\"fitted_model\": answer[\"fitted_model\"], ...}.",
+                "invalid_document"))
         version = value.get("schema_version")
+        if (isinstance(version, int) and not isinstance(version, bool)
+                and version not in DOCUMENT_SCHEMAS):
+            raise ValidationError({"schema_version": [CodedMessage(
+                f"Unsupported schema_version {version}; this service reads "
+                f"{' and '.join(map(str, DOCUMENT_SCHEMAS))}. Refit with this service to get "
+                "a current document.", "invalid_document")]})
         schema = DOCUMENT_SCHEMAS.get(2 if version == 2 and not isinstance(version, bool) else 1)
-        return schema().load(value)
+        try:
+            return schema().load(value)
+        except ValidationError as exc:  # a malformed document: invalid_document
+            raise ValidationError(coded(exc.messages, "invalid_document")) from None
 
 
 class PredictRequestSchema(StrictSchema):
@@ -123,7 +143,7 @@ class PredictRequestSchema(StrictSchema):
 
     fitted_model = FittedModelField(required=True, metadata={
         "description": "The fitted_model document from a /v1/fit response, unchanged."})
-    x = NumberArray(required=True, metadata={
+    x = NumberArray(required=True, data=True, metadata={
         "description": "Where to predict, on the original x scale."})
     level = StrictFloat(load_default=None, allow_none=True, validate=_LEVEL, metadata={
         "description": "Confidence level of the bands; default: the document's level."})
@@ -218,7 +238,7 @@ class InvertRequestSchema(StrictSchema):
 
     fitted_model = FittedModelField(required=True, metadata={
         "description": "The fitted_model document from a /v1/fit response, unchanged."})
-    y = NumberArray(required=True, metadata={
+    y = NumberArray(required=True, data=True, metadata={
         "description": "Observed readings (original y scale); each the mean of its replicates."})
     replicates = ReplicatesField(load_default=1)
     level = StrictFloat(load_default=None, allow_none=True, validate=_LEVEL, metadata={
@@ -285,6 +305,7 @@ class InvertResponseSchema(Schema):
     x_max = number("Calibrated range: largest x of the data.")
     calibration = fields.Nested(CalibrationSchema)
     working_range = fields.Nested(WorkingRangeSchema, allow_none=True, metadata={
-        "description": "logistic4/logistic5: the x range where the delta-method CV of a "
-                       "back-calculated x stays at or under cv_limit (precision profile; "
+        "description": "logistic4/logistic5: the x range where the CV of a back-calculated x "
+                       "(half its central 68.27% range over x) stays at or under cv_limit "
+                       "(precision profile; "
                        "docs/fitted-model.md); null for other families."})

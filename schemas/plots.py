@@ -14,6 +14,7 @@ from schemas.fit import FitRequestSchema
 
 PANELS = ("fit", "studentized_residuals", "influence", "spread", "half_normal", "selection")
 FORMATS = ("png", "svg")
+X_SCALES = ("linear", "log")
 MIN_PIXELS, MAX_PIXELS = 200, 4000
 MAX_AREA = 8_000_000
 MIN_DPI, MAX_DPI = 50, 300
@@ -31,7 +32,11 @@ _PANELS_DESCRIPTION = (
     "auxiliary fit and the test's p-value. half_normal: sorted |studentized residuals| "
     "against half-normal quantiles inside an envelope simulated from the fit (seeded). "
     "selection: AIC, AICc, BIC and the selection method's own criterion by candidate "
-    "degree. Layout: fit and studentized_residuals in one column at the top, the others "
+    "degree; for a comparison of models (model.candidates), every fitted candidate's curve "
+    "over the data, the chosen one bold, each with its criterion (a nonlinear fit without "
+    "candidates has no selection panel: 422). Every family is drawn; for nonlinear fits "
+    "the leverages and the half-normal envelope use the tangent plane (the Jacobian at the "
+    "estimates). Layout: fit and studentized_residuals in one column at the top, the others "
     "in rows of up to three in the order given, one legend strip above the panels.")
 
 
@@ -83,6 +88,16 @@ class PlotOptionsSchema(StrictSchema):
                                  "(image/png or image/svg+xml); otherwise png."})
     simultaneous = StrictBoolean(load_default=False, metadata={
         "description": "Also draw the simultaneous band for the whole curve on the fit panel."})
+    x_scale = StrictString(
+        load_default="linear",
+        validate=validate.OneOf(X_SCALES, error=one_of_message(X_SCALES)),
+        metadata={"enum": list(X_SCALES),
+                  "description": "linear (default) or log: the x axis of the panels drawn "
+                                 "against x (fit, studentized_residuals, spread, the candidates' "
+                                 "curves). Dose-response curves are read on log concentration. "
+                                 "log needs every x > 0 (a zero-dose blank is refused with a "
+                                 "422 naming plot.x_scale); curves are then evaluated on "
+                                 "geometrically spaced x."})
     title = _label("A title over the whole figure.")
     x_label = _label("Label of the x axis on the fit panel (default x).")
     y_label = _label("Label of the y axis on the fit panel (default y).")

@@ -8,6 +8,7 @@ curve, noise level and fixed seed, so anyone can regenerate it::
     python scripts/demo_data.py soil --probes 20    # a /v1/batch request body
     python scripts/demo_data.py enzyme              # a /v1/fit body with the user's equation
     python scripts/demo_data.py assay               # a /v1/fit body comparing 4PL and 5PL
+    python scripts/demo_data.py plate               # a /v1/fit body: a 4PL standard curve
     python scripts/demo_data.py greenhouse --degree 2 --include coefficients,statistics
 
 The output is strict JSON on stdout.
@@ -128,24 +129,54 @@ def assay(seed: int = SEED) -> dict:
     }
 
 
+def plate(seed: int = SEED) -> dict:
+    """Optical density of the eight standards of an invented ELISA plate, in duplicate.
+
+    Stated curve: a four-parameter logistic on log concentration, OD 0.08 at zero dose
+    rising to 2.9, half-way at 15 ng/mL, slope 1.3; standards 0.5 to 200 ng/mL in about
+    2.4-fold steps; noise sd 2% of the signal plus 0.01. Unknown samples are read back
+    through the stored curve (client_examples/: dose-response examples).
+    """
+    rng = np.random.default_rng(seed)
+    conc = np.repeat(np.round(np.geomspace(0.5, 200.0, 8), 3), 2)
+    od = 2.9 + (0.08 - 2.9) / (1 + (conc / 15.0) ** 1.3)
+    od = od + rng.normal(0.0, 1.0, conc.size) * (0.02 * od + 0.01)
+    return {
+        "x": conc.tolist(),
+        "y": np.round(od, 4).tolist(),
+        "model": {"family": "logistic4"},
+        "include": ["coefficients", "statistics", "fitted_model"],
+        "level": 0.95,
+    }
+
+
+def main_body(scenario: str, *, probes: int = 20, seed: int = SEED, degree: int | None = None,
+              include: str | None = None) -> dict:
+    """The body that ``demo_data.py <scenario> [options]`` prints."""
+    if scenario == "soil":
+        body = soil(probes, seed)
+    else:
+        body = {"greenhouse": greenhouse, "nitrate": nitrate,
+                "enzyme": enzyme, "assay": assay, "plate": plate}[scenario](seed)
+    if degree is not None:
+        body["model"] = {"family": "polynomial", "degree": degree}
+    if include:
+        body["include"] = [name.strip() for name in include.split(",") if name.strip()]
+    return body
+
+
 def main(argv: list[str] | None = None) -> int:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    parser.add_argument("scenario", choices=("greenhouse", "nitrate", "soil", "enzyme", "assay"))
+    parser.add_argument("scenario", choices=("greenhouse", "nitrate", "soil", "enzyme", "assay",
+                                             "plate"))
     parser.add_argument("--probes", type=int, default=20, help="soil: number of probes")
     parser.add_argument("--seed", type=int, default=SEED)
     parser.add_argument("--degree", type=int, help="fix the degree instead of selecting it")
     parser.add_argument("--include", help="comma-separated response sections, e.g. "
                                           "coefficients,statistics")
     args = parser.parse_args(argv)
-    if args.scenario == "soil":
-        body = soil(args.probes, args.seed)
-    else:
-        body = {"greenhouse": greenhouse, "nitrate": nitrate,
-                "enzyme": enzyme, "assay": assay}[args.scenario](args.seed)
-    if args.degree is not None:
-        body["model"] = {"family": "polynomial", "degree": args.degree}
-    if args.include:
-        body["include"] = [name.strip() for name in args.include.split(",") if name.strip()]
+    body = main_body(args.scenario, probes=args.probes, seed=args.seed, degree=args.degree,
+                     include=args.include)
     json.dump(body, sys.stdout, allow_nan=False)
     sys.stdout.write("\n")
     return 0

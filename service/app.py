@@ -7,10 +7,11 @@ from flask import Flask
 from schemas.model_field import DOCUMENTED_MODELS, component_name
 from schemas.models import DOCUMENT_SCHEMAS
 from service import __version__
-from service.api import BLUEPRINT_MODULES
+from service.api import BLUEPRINT_MODULES, doc_examples
 from service.http import errors as error_handling
+from service.http.examples import ExamplesPlugin
 from service.http.jsonio import OrjsonProvider
-from service.runtime import guard, observability, security
+from service.runtime import guard, observability, security, warming
 from service.runtime.config import Settings
 
 
@@ -28,10 +29,11 @@ def create_app(overrides: dict | None = None) -> Flask:
         OPENAPI_URL_PREFIX="/",
         OPENAPI_JSON_PATH="openapi.json",
     )
-    api = error_handling.CurvewiseApi(app)
+    api = error_handling.CurvewiseApi(app, spec_kwargs={"extra_plugins": [ExamplesPlugin()]})
     error_handling.register(app)
     for module in BLUEPRINT_MODULES:
         api.register_blueprint(module.blp)
+    app.register_blueprint(doc_examples.bp)  # the files /docs links (not API operations)
     for schema in DOCUMENTED_MODELS:  # the model objects that ModelField's oneOf names
         name = component_name(schema)
         if name not in api.spec.components.schemas:
@@ -44,4 +46,5 @@ def create_app(overrides: dict | None = None) -> Flask:
     observability.install(app)  # first: request id, timing and logs see every answer
     security.install(app)       # then tokens, CORS and headers
     guard.install(app)          # then the early 413 and the compute deadline
+    warming.install(app)        # then 503 while this process's kernels warm up
     return app

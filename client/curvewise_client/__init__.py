@@ -5,8 +5,8 @@
 >>> fit = client.fit(x, y, max_degree=4)                # doctest: +SKIP
 >>> fit.chosen_degree, [row.term for row in fit.anova]  # doctest: +SKIP
 
-Errors are described in :mod:`curvewise_client.errors`; results in
-:mod:`curvewise_client.results`; pandas helpers (``pip install
+Errors are described in :mod:`curvewise_client.errors`; results (each with
+``to_dict()`` / ``to_json()``) in :mod:`curvewise_client.results`; pandas helpers (``pip install
 curvewise-client[pandas]``) in :mod:`curvewise_client.frames`.
 """
 
@@ -20,6 +20,7 @@ from curvewise_client.errors import (  # noqa: E402
     ConnectError,
     CurvewiseError,
     Forbidden,
+    InputError,
     NotFound,
     PayloadTooLarge,
     Problem,
@@ -65,7 +66,7 @@ __all__ = [
     "AnovaRow", "ApiError", "BadRequest", "BatchItem", "BatchResult", "Candidate", "Client",
     "Coefficient", "ComputeTimeout", "ConnectError", "CurvewiseError", "Diagnostics", "Estimate",
     "Estimates", "Families", "Family", "FamilyOption", "Figure", "FitInfo", "FitResult",
-    "Forbidden", "Grid", "HTTPTransport", "Limits", "ModelInfo", "NotFound", "Notice",
+    "Forbidden", "Grid", "HTTPTransport", "InputError", "Limits", "ModelInfo", "NotFound", "Notice",
     "PayloadTooLarge",
     "PredictionRow", "Predictions", "Problem", "ProtocolError", "RequestTimeout", "Selection",
     "ServerError", "ServiceUnavailable", "Statistics", "TestResult", "TooManyRequests",

@@ -8,12 +8,23 @@ from collections.abc import Callable, Iterable, Iterator, Mapping, Sequence
 from typing import Any
 
 from curvewise_client import __version__
-from curvewise_client.bodies import document, drop_none, encode, fit_body, numbers, series_body
+from curvewise_client.bodies import (
+    document,
+    drop_none,
+    encode,
+    fit_body,
+    iterable_series,
+    numbers,
+    series_body,
+    shared_members,
+    strings,
+)
 from curvewise_client.errors import (
     ApiError,
     ComputeTimeout,
     ConnectError,
     CurvewiseError,
+    InputError,
     Problem,
     ProtocolError,
     RequestTimeout,
@@ -62,8 +73,16 @@ class Client:
     def __init__(self, base_url: str, token: str | None = None, *, timeout: float = 30.0,
                  retries: int = 2, backoff: float = 0.25, backoff_cap: float = 4.0,
                  transport: Any = None, sleep: Callable[[float], None] = time.sleep) -> None:
-        if retries < 0 or retries > 10:
-            raise ValueError("retries must be between 0 and 10")
+        if not isinstance(base_url, str) or not base_url.startswith(("http://", "https://")):
+            raise InputError(f"base_url must be an http(s) URL such as 'http://127.0.0.1:8000', "
+                             f"not {base_url!r}")
+        if isinstance(retries, bool) or not isinstance(retries, int) or not 0 <= retries <= 10:
+            raise InputError(f"retries must be an integer between 0 and 10, not {retries!r}")
+        _seconds("timeout", timeout, least=0.0, equal=False)
+        _seconds("backoff", backoff)
+        _seconds("backoff_cap", backoff_cap)
+        if token is not None and not isinstance(token, str):
+            raise InputError(f"token must be a string, not a {type(token).__name__}")
         self.base_url = base_url.rstrip("/")
         self.token = token
         self.timeout = timeout
@@ -73,17 +92,27 @@ class Client:
         self.transport = transport if transport is not None else HTTPTransport()
         self._sleep = sleep
 
-    # -- endpoints ---------------------------------------------------------------------------
+    def __repr__(self) -> str:
+        auth = ", token=***" if self.token else ""
+        return (f"Client({self.base_url!r}{auth}, timeout={self.timeout}, "
+                f"retries={self.retries}, transport={type(self.transport).__name__})")
+
+    # -- endpoints: every keyword is a wire member (a misspelt one is a TypeError, unsent) ---
 
     def fit(self, x: Sequence[float], y: Sequence[float], *, weights: Sequence[float] | None = None,
             model: Mapping[str, Any] | None = None, degree: int | None = None,
             max_degree: int | None = None, select: str | None = None,
             grid: Mapping[str, Any] | None = None, level: float | None = None,
-            **options: Any) -> FitResult:
-        """Fit one series (``POST /v1/fit``). Extra keyword arguments become body members."""
+            missing: str | None = None, weighting: str | None = None,
+            include: Sequence[str] | None = None) -> FitResult:
+        """Fit one series (``POST /v1/fit``).
+
+        ``degree``, ``max_degree`` and ``select`` are shortcuts merged into ``model``;
+        the other keywords are the request members of the same name.
+        """
         body = fit_body(x, y, weights=weights, model=model, degree=degree,
                         max_degree=max_degree, select=select, grid=grid, level=level,
-                        **options)
+                        missing=missing, weighting=weighting, include=include)
         return build(FitResult, self._json("POST", "/v1/fit", body))
 
     def plot(self, x: Sequence[float], y: Sequence[float], *,
@@ -91,19 +120,26 @@ class Client:
              width: int | None = None, height: int | None = None, dpi: int | None = None,
              simultaneous: bool | None = None, title: str | None = None,
              x_label: str | None = None, y_label: str | None = None,
-             **fit_options: Any) -> Figure:
-        """Render a figure of a fit (``POST /v1/plot``); ``fit_options`` as for :meth:`fit`.
+             x_scale: str | None = None,
+             weights: Sequence[float] | None = None, model: Mapping[str, Any] | None = None,
+             degree: int | None = None, max_degree: int | None = None,
+             select: str | None = None, grid: Mapping[str, Any] | None = None,
+             level: float | None = None, missing: str | None = None,
+             weighting: str | None = None, include: Sequence[str] | None = None) -> Figure:
+        """Render a figure of a fit (``POST /v1/plot``); the fit keywords as for :meth:`fit`.
 
         Panels: ``fit``, ``studentized_residuals``, ``influence``, ``spread``,
         ``half_normal``, ``selection`` (default ``["fit"]``); sizes in pixels (left out,
-        the figure grows to fit its panels).
+        the figure grows to fit its panels); ``x_scale="log"`` draws x on a log axis.
         """
         if format not in IMAGE_TYPES:
-            raise ValueError(f"format must be one of {sorted(IMAGE_TYPES)}")
-        plot = {"format": format, "panels": list(panels) if panels is not None else None,
+            raise InputError(f"format must be one of {sorted(IMAGE_TYPES)}, not {format!r}")
+        plot = {"format": format, "panels": strings(panels, "panels"),
                 "width": width, "height": height, "dpi": dpi, "simultaneous": simultaneous,
-                "title": title, "x_label": x_label, "y_label": y_label}
-        body = fit_body(x, y, **fit_options)
+                "title": title, "x_label": x_label, "y_label": y_label, "x_scale": x_scale}
+        body = fit_body(x, y, weights=weights, model=model, degree=degree,
+                        max_degree=max_degree, select=select, grid=grid, level=level,
+                        missing=missing, weighting=weighting, include=include)
         body["plot"] = {k: v for k, v in plot.items() if v is not None}
         response = self._request("POST", "/v1/plot", encode(body), accept=IMAGE_TYPES[format])
         data = response.read()
@@ -113,28 +149,40 @@ class Client:
 
     def batch(self, series: Iterable[Mapping[str, Any]], *,
               model: Mapping[str, Any] | None = None, detail: str | None = None,
-              **options: Any) -> BatchResult:
-        """Fit many series in one JSON call (``POST /v1/batch``), results in order."""
-        body = {"series": [series_body(s) for s in series], **drop_none(
-            model=dict(model) if model else None, detail=detail, **options)}
+              level: float | None = None, missing: str | None = None,
+              include: Sequence[str] | None = None,
+              grid: Mapping[str, Any] | None = None) -> BatchResult:
+        """Fit many series in one JSON call (``POST /v1/batch``), results in order.
+
+        Each series is a mapping with ``id``, ``x``, ``y`` and optionally ``weights`` and
+        ``model``; the keywords are the shared request members of the same name.
+        """
+        body = {"series": [series_body(s, i) for i, s in enumerate(iterable_series(series))],
+                **shared_members(model=model, detail=detail, level=level, missing=missing,
+                          include=include, grid=grid)}
         return build(BatchResult, self._json("POST", "/v1/batch", body))
 
     def batch_stream(self, series: Iterable[Mapping[str, Any]], *,
                      model: Mapping[str, Any] | None = None, detail: str | None = None,
-                     **options: Any) -> BatchStream:
+                     level: float | None = None, missing: str | None = None,
+                     include: Sequence[str] | None = None,
+                     grid: Mapping[str, Any] | None = None) -> BatchStream:
         """Stream series as NDJSON and yield each result as it arrives (never retried).
 
         ``series`` may be any iterator (a generator reading a huge file): it is
         consumed lazily while results come back. Shared options (``model``,
         ``detail``...) travel in the first line as ``{"options": {...}}``.
         """
-        shared = drop_none(model=dict(model) if model else None, detail=detail, **options)
+        shared = shared_members(model=model, detail=detail, level=level, missing=missing,
+                         include=include, grid=grid)
+        series = iterable_series(series)
+        first_line = encode({"options": shared}) + b"\n" if shared else b""
 
         def lines() -> Iterator[bytes]:
-            if shared:
-                yield encode({"options": shared}) + b"\n"
-            for item in series:
-                yield encode(series_body(item)) + b"\n"
+            if first_line:
+                yield first_line
+            for position, item in enumerate(series):
+                yield encode(series_body(item, position)) + b"\n"
 
         response = self._request("POST", "/v1/batch", lines(), content_type=NDJSON,
                                  accept=NDJSON, retry=False)
@@ -143,24 +191,58 @@ class Client:
             raise ProtocolError(f"/v1/batch answered {response.content_type!r}, not NDJSON")
         return BatchStream(response)
 
+    def batch_frame(self, data: Any, *, id: str = "id", x: str = "x", y: str = "y",  # noqa: A002
+                    weight: str | None = None, model: Mapping[str, Any] | None = None,
+                    options: Mapping[str, Any] | None = None):
+        """Fit one curve per ``id`` of a long table, sent as Arrow; a tidy DataFrame back.
+
+        ``data`` is a pandas DataFrame or a pyarrow Table with one row per point; ``id``,
+        ``x``, ``y`` and ``weight`` name its columns (ids strings or integers; rows in any
+        order, the points of a series in their row order). ``model`` and ``options``
+        (``level``, ``missing``) are the JSON batch's shared members. Returns one row per
+        series, in order of each id's first row, one scalar per cell (``coef_0``,
+        ``se_0``, ..., ``flag_codes``, ``error_code``...: see
+        :mod:`curvewise_client.arrow`); a series that cannot be fitted is a row with
+        ``status == "error"``, never an exception. Needs the ``arrow`` extra.
+        """
+        from curvewise_client import arrow
+
+        body = arrow.encode_long(data, id=id, x=x, y=y, weight=weight)
+        path = "/v1/batch" + arrow.options_query(model, options)
+        response = self._request("POST", path, body, content_type=arrow.ARROW_STREAM,
+                                 accept=arrow.ARROW_STREAM)
+        payload = response.read()
+        if response.content_type != arrow.ARROW_STREAM:
+            raise ProtocolError(f"/v1/batch answered {response.content_type!r}, not Arrow")
+        return arrow.decode_tidy(payload, id=id)
+
     def predict(self, fitted_model: Mapping[str, Any] | FitResult, x: Sequence[float], *,
-                level: float | None = None, replicates: int | None = None,
-                **options: Any) -> Predictions:
+                level: float | None = None, replicates: int | None = None) -> Predictions:
         """Predict at new x with a stored fitted-model document (``POST /v1/predict``).
 
-        ``replicates`` = m widens the observation band to cover the mean of m
-        future observations (default 1).
+        ``fitted_model`` is a :class:`FitResult` or its ``fitted_model`` (as stored, e.g.
+        after ``json.loads``). ``replicates`` = m widens the observation band to cover the
+        mean of m future observations (default 1).
         """
-        body = {"fitted_model": document(fitted_model), "x": numbers(x),
-                **drop_none(level=level, replicates=replicates, **options)}
+        body = {"fitted_model": document(fitted_model), "x": numbers(x, "x"),
+                **drop_none(level=level, replicates=replicates)}
         return build(Predictions, self._json("POST", "/v1/predict", body))
 
     def invert(self, fitted_model: Mapping[str, Any] | FitResult, y: Sequence[float], *,
-               replicates: int | None = None, level: float | None = None,
-               **options: Any) -> Estimates:
-        """Read x back from observed y (``POST /v1/invert``)."""
-        body = {"fitted_model": document(fitted_model), "y": numbers(y),
-                **drop_none(replicates=replicates, level=level, **options)}
+               replicates: int | Sequence[int] | None = None, level: float | None = None,
+               detection_alpha: float | None = None, detection_beta: float | None = None,
+               cv_limit: float | None = None) -> Estimates:
+        """Read x back from observed y (``POST /v1/invert``).
+
+        ``replicates`` is one count for every reading or one per reading; the detection
+        and working-range keywords are the request members of the same name.
+        """
+        if replicates is not None and not isinstance(replicates, int):
+            replicates = numbers(replicates, "replicates")
+        body = {"fitted_model": document(fitted_model), "y": numbers(y, "y"),
+                **drop_none(replicates=replicates, level=level,
+                            detection_alpha=detection_alpha, detection_beta=detection_beta,
+                            cv_limit=cv_limit)}
         return build(Estimates, self._json("POST", "/v1/invert", body))
 
     def families(self) -> Families:
@@ -221,6 +303,13 @@ class Client:
             pause = min(max(pause, float(retry_after)), self.backoff_cap)
         return pause
 
+
+
+def _seconds(name: str, value: Any, least: float = 0.0, equal: bool = True) -> None:
+    if isinstance(value, bool) or not isinstance(value, (int, float)) or not (
+            value >= least if equal else value > least):
+        raise InputError(f"{name} must be a number of seconds {'>=' if equal else '>'} {least:g},"
+                         f" not {value!r}")
 
 
 def _api_error(response: Response) -> ApiError:

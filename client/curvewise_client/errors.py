@@ -1,8 +1,14 @@
 """Everything the client raises, in one tree.
 
 Catch :class:`CurvewiseError` to handle every failure of a call. Below it
-there are two kinds, and the difference matters for what you do next:
+there are three kinds, and the difference matters for what you do next:
 
+* an :class:`InputError` means *the client refused an argument before sending
+  anything* (infinity in ``y``, a string where an array belongs, a fit result
+  without a ``fitted_model``). It is also a builtin :class:`ValueError`, so code
+  written for ``except ValueError`` keeps working. A misspelt keyword argument
+  is Python's own :class:`TypeError`, raised before any request (every method
+  lists the wire members it accepts).
 * a :class:`TransportError` means *no usable answer came back* — the server
   could not be reached, the call timed out, or the reply was not what HTTP and
   the contract promise. The input may be perfectly fine; trying again later
@@ -16,6 +22,7 @@ there are two kinds, and the difference matters for what you do next:
 Hierarchy::
 
     CurvewiseError(Exception)
+    ├── InputError                    refused before sending (also a builtin ValueError)
     ├── TransportError                no usable HTTP answer
     │   ├── ConnectError              could not connect (refused, unreachable, DNS)
     │   ├── RequestTimeout            no answer within the client's timeout
@@ -61,6 +68,10 @@ class CurvewiseError(Exception):
     """Base class of every error raised by :mod:`curvewise_client`."""
 
     attempts: int = 1
+
+
+class InputError(CurvewiseError, ValueError):
+    """An argument the client cannot send; nothing was sent (also a :class:`ValueError`)."""
 
 
 class TransportError(CurvewiseError):

@@ -4,7 +4,7 @@ Needs the ``pandas`` extra (``pip install "curvewise-client[pandas]"``); the res
 of the client never imports pandas.
 
     frames.anova_frame(fit)                    # one row per term
-    frames.batch_frame(client.batch(series))   # one row per series
+    frames.batch_frame(client.batch(series))   # one row per series, tidy
     frames.fit_long_frame(client, df, id="probe", x="reference", y="reading",
                           model={"max_degree": 3, "select": "bic"})
 """
@@ -66,28 +66,81 @@ def estimates_frame(result: Estimates):
     return _pandas().DataFrame(_records(result.estimates))
 
 
-def batch_frame(results: BatchResult | Iterable[BatchItem]):
-    """One row per series: id, status, the summary fit's scalar members, or the error detail.
+_SCALARS = ("n", "degree", "df_residual", "sigma", "r_squared", "adj_r_squared", "rss", "aic",
+            "aicc", "bic", "press")
+_TESTS = ("shapiro_wilk_p", "breusch_pagan_p", "durbin_watson", "durbin_watson_p",
+          "lack_of_fit_p")
+_FLAGS = ("flag_codes", "flag_severities", "severity")
+_ERRORS = ("error_code", "error_field", "error")
+_WORST_FIRST = ("serious", "caution", "info")
 
-    List-valued members (coefficients...) stay in cells as tuples.
+
+def batch_frame(results: BatchResult | Iterable[BatchItem]):
+    """One row per series, one scalar per cell (as :meth:`Client.batch_frame` answers).
+
+    Columns: ``id``, ``status``; the fit's numbers (``n``, ``degree``, ``df_residual``,
+    ``sigma``, ``r_squared``, ``adj_r_squared``, and with ``detail="full"`` also ``rss``,
+    ``aic``, ``aicc``, ``bic``, ``press``); the residual tests (``shapiro_wilk_p``,
+    ``breusch_pagan_p``, ``durbin_watson``, ``durbin_watson_p``, ``lack_of_fit_p``);
+    ``n_outliers``; ``coef_k`` and ``se_k`` for each power ``k`` of x; ``flag_codes`` and
+    ``flag_severities`` (``;``-joined, same order) and ``severity`` (the most severe, or
+    ``none``); ``error_code``, ``error_field`` (``;``-joined field paths) and ``error``.
+    Missing values are None/NaN.
     """
     items = results.results if isinstance(results, BatchResult) else list(results)
-    rows = []
-    for item in items:
-        row: dict[str, Any] = {"id": item.id, "status": item.status}
-        if item.fit is not None:
-            row.update({k: _cell(v) for k, v in item.fit.items()})
-        if item.error is not None:
-            row["error"] = item.error.get("detail")
-            row["error_code"] = item.error.get("code")
-        rows.append(row)
-    return _pandas().DataFrame(rows)
+    rows = [_tidy_row(item) for item in items]
+    powers = sorted({int(k[5:]) for row in rows for k in row if k.startswith("coef_")})
+    present = {k for row in rows for k in row}
+    order = (["id", "status"] + [c for c in (*_SCALARS, *_TESTS, "n_outliers") if c in present]
+             + [f"coef_{k}" for k in powers] + [f"se_{k}" for k in powers]
+             + [*_FLAGS, *_ERRORS])
+    return _pandas().DataFrame(rows, columns=order)
 
 
-def _cell(value: Any) -> Any:
-    if isinstance(value, Mapping):
-        return dict(value)
-    return value
+def _power(term: str) -> int:
+    return 0 if term == "intercept" else 1 if term == "x" else int(term.split("^", 1)[1])
+
+
+def _tidy_row(item: BatchItem) -> dict[str, Any]:
+    row: dict[str, Any] = {"id": item.id, "status": item.status}
+    fit = item.fit
+    if fit is not None:
+        if "coefficients" in fit:                       # detail="full": a /v1/fit report
+            stats = fit.get("statistics") or {}
+            row.update(n=fit.get("n"), degree=(fit.get("model") or {}).get("degree"))
+            row.update({k: stats.get(k) for k in _SCALARS if k in stats})
+            diagnostics = fit.get("diagnostics") or {}
+            row.update(dict.fromkeys(_TESTS))
+            for test in diagnostics.get("tests") or ():
+                if test["name"] == "durbin_watson":
+                    row["durbin_watson"] = test.get("statistic")
+                row[f"{test['name']}_p"] = test.get("p_value")
+            lack = diagnostics.get("lack_of_fit")
+            if isinstance(lack, Mapping):
+                row["lack_of_fit_p"] = lack.get("p_value")
+            if "outliers" in diagnostics:
+                row["n_outliers"] = len(diagnostics["outliers"] or ())
+            terms = [(c["term"], c["estimate"], c["std_error"]) for c in fit["coefficients"]]
+        else:                                           # the compact summary
+            row.update({k: fit.get(k) for k in _SCALARS if k in fit})
+            row.update({k: (fit.get("tests") or {}).get(k) for k in _TESTS})
+            row["n_outliers"] = len(fit.get("outliers") or ())
+            terms = list(zip(fit.get("terms") or (), fit.get("estimate") or (),
+                             fit.get("std_error") or (), strict=False))
+        for term, estimate, std_error in terms:
+            row[f"coef_{_power(term)}"] = estimate
+            row[f"se_{_power(term)}"] = std_error
+        flags = fit.get("flags") or ()
+        row["flag_codes"] = ";".join(f["code"] for f in flags)
+        row["flag_severities"] = ";".join(f["severity"] for f in flags)
+        found = {f["severity"] for f in flags}
+        row["severity"] = next((s for s in _WORST_FIRST if s in found), "none")
+    if item.error is not None:
+        fields_named = [k for k in (item.error.get("errors") or {}) if k != "_body"]
+        row["error_code"] = item.error.get("code")
+        row["error_field"] = ";".join(fields_named) or None
+        row["error"] = item.error.get("detail")
+    return row
 
 
 def series_from_long_frame(frame, *, id: str = "id", x: str = "x", y: str = "y",

@@ -1,9 +1,10 @@
 """How bytes reach the service: over HTTP (standard library) or straight into a WSGI app.
 
 A transport has one method, ``send(method, url, headers, body, timeout)``,
-returning a :class:`Response`. ``body`` is ``None``, ``bytes``, or an iterable
-of ``bytes`` chunks (sent with chunked transfer encoding while the answer is
-read, so a long NDJSON stream never deadlocks on full socket buffers).
+returning a :class:`Response`. ``body`` is ``None``, ``bytes`` (or a ``bytearray`` or
+``memoryview``), or an iterable of ``bytes`` chunks (sent with chunked transfer
+encoding while the answer is read, so a long NDJSON stream never deadlocks on full
+socket buffers).
 Transports raise only :mod:`curvewise_client.errors` transport errors; HTTP
 error statuses are returned, not raised — the client decides what they mean.
 """
@@ -20,7 +21,7 @@ from urllib.parse import unquote, urlsplit
 
 from curvewise_client.errors import ConnectError, ProtocolError, RequestTimeout
 
-Body = bytes | Iterable[bytes] | None
+Body = bytes | bytearray | memoryview | Iterable[bytes] | None
 
 
 class Response:
@@ -94,7 +95,7 @@ class HTTPTransport:
         target = (parts.path or "/") + (f"?{parts.query}" if parts.query else "")
         writer: threading.Thread | None = None
         try:
-            if body is None or isinstance(body, (bytes, bytearray)):
+            if body is None or isinstance(body, (bytes, bytearray, memoryview)):
                 conn.request(method, target, body=body, headers=headers)
             else:
                 conn.putrequest(method, target, skip_accept_encoding=True)
@@ -224,7 +225,7 @@ class WSGITransport:
     def send(self, method: str, url: str, headers: dict[str, str], body: Body,
              timeout: float | None) -> Response:
         parts = urlsplit(url)
-        streamed = body is not None and not isinstance(body, (bytes, bytearray))
+        streamed = body is not None and not isinstance(body, (bytes, bytearray, memoryview))
         source = _IterReader(iter(body)) if streamed else None
         stream = io.BufferedReader(source) if source is not None else io.BytesIO(body or b"")
         environ = {

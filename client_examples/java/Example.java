@@ -7,6 +7,13 @@
 // sequential table and a prediction at EC 3.5 dS/m made from the returned
 // fitted-model document, which is sent back byte for byte as the service wrote it.
 // JSON is read by the small parser at the end of this file. Set API_TOKEN if auth is on.
+//
+//   BASE_URL=http://127.0.0.1:8000 java client_examples/java/Example.java dose-response
+//
+// fits a four-parameter logistic to the standards of an invented ELISA plate
+// (client_examples/data/plate.json), keeps the fitted-model document and reads unknown
+// samples' readings (each the mean of 2 wells) back to concentrations with intervals,
+// statuses and the curve's working range.
 
 import java.net.URI;
 import java.net.http.HttpClient;
@@ -24,13 +31,19 @@ import java.util.Map;
 
 public class Example {
     static final double NEW_EC = 3.5;
+    static final String UNKNOWNS = "[0.2, 0.6, 1.4, 2.3, 3.2]"; // optical densities of samples
+    static final int REPLICATES = 2; // each reading is the mean of 2 wells
 
     public static void main(String[] args) throws Exception {
         String baseUrl = System.getenv().getOrDefault("BASE_URL", "http://127.0.0.1:8000")
                 .replaceAll("/+$", "");
-        Path data = dataFile();
-        String body = Files.readString(data, StandardCharsets.UTF_8);
         HttpClient http = HttpClient.newBuilder().connectTimeout(Duration.ofSeconds(10)).build();
+        if (args.length == 1 && args[0].equals("dose-response")) {
+            doseResponse(http, baseUrl);
+            return;
+        }
+        Path data = dataFile("greenhouse.json");
+        String body = Files.readString(data, StandardCharsets.UTF_8);
 
         String fitText = post(http, baseUrl + "/v1/fit", body);
         Map<String, Object> fit = Json.object(fitText);
@@ -63,13 +76,49 @@ public class Example {
                 g(p.get("obs_upper"), 6));
     }
 
-    static Path dataFile() {
-        for (String candidate : new String[] {"client_examples/data/greenhouse.json", "../data/greenhouse.json",
-                "data/greenhouse.json"}) {
+    /** The ELISA plate: fit the 4PL, keep the document, read the unknowns back through it. */
+    static void doseResponse(HttpClient http, String baseUrl) throws Exception {
+        String body = Files.readString(dataFile("plate.json"), StandardCharsets.UTF_8);
+        String fitText = post(http, baseUrl + "/v1/fit", body);
+        Map<String, Object> fit = Json.object(fitText);
+        String document = Json.rawMember(fitText, "fitted_model"); // store it as written
+        String invertBody = "{\"fitted_model\":" + document + ",\"y\":" + UNKNOWNS
+                + ",\"replicates\":" + REPLICATES + "}";
+        Map<String, Object> result = Json.object(post(http, baseUrl + "/v1/invert", invertBody));
+        long level = Math.round(100 * (Double) Json.object(body).get("level"));
+        Map<?, ?> ec50 = null;
+        for (Object item : (List<?>) fit.get("coefficients")) {
+            if ("ec50".equals(((Map<?, ?>) item).get("term"))) ec50 = (Map<?, ?>) item;
+        }
+        Map<?, ?> span = (Map<?, ?>) result.get("working_range");
+        System.out.printf("ELISA plate (invented demo data): %d standards, %s%n",
+                ((Double) fit.get("n")).intValue(), ((Map<?, ?>) fit.get("model")).get("family"));
+        System.out.printf("ec50 %s, %d%% interval %s to %s%n", g(ec50.get("estimate"), 6), level,
+                g(ec50.get("lower"), 6), g(ec50.get("upper"), 6));
+        System.out.printf("working range (CV <= %s%%, %d replicates): %s to %s%n",
+                g(100 * (Double) span.get("cv_limit"), 6), ((Double) span.get("replicates")).intValue(),
+                g(span.get("lower"), 6), g(span.get("upper"), 6));
+        for (Object item : (List<?>) result.get("estimates")) {
+            Map<?, ?> e = (Map<?, ?>) item;
+            if (e.get("x") == null) {
+                System.out.printf("reading %s: no concentration (%s)%n", g(e.get("y"), 6), e.get("status"));
+                continue;
+            }
+            String lower = e.get("lower") == null ? "unbounded" : g(e.get("lower"), 6);
+            String upper = e.get("upper") == null ? "unbounded" : g(e.get("upper"), 6);
+            System.out.printf("reading %s: x %s, %d%% interval %s to %s (%s)%n", g(e.get("y"), 6),
+                    g(e.get("x"), 6), level, lower, upper, e.get("status"));
+        }
+        System.out.println("back-calculated values support, never replace, a validated assay procedure");
+    }
+
+    static Path dataFile(String name) {
+        for (String candidate : new String[] {"client_examples/data/" + name, "../data/" + name,
+                "data/" + name}) {
             Path path = Path.of(candidate);
             if (Files.exists(path)) return path;
         }
-        throw new IllegalStateException("run from the repository root: greenhouse.json not found");
+        throw new IllegalStateException("run from the repository root: " + name + " not found");
     }
 
     static String post(HttpClient http, String url, String json) throws Exception {
@@ -99,8 +148,10 @@ public class Example {
     static String g(Object value, int digits) {
         double v = (Double) value;
         if (v == 0.0) return "0";
-        String text = new java.math.BigDecimal(v).round(new java.math.MathContext(digits)).stripTrailingZeros()
-                .toString();
+        java.math.BigDecimal rounded = new java.math.BigDecimal(v)
+                .round(new java.math.MathContext(digits)).stripTrailingZeros();
+        int exponent = rounded.precision() - rounded.scale() - 1; // as %g decides: plain or not
+        String text = exponent >= -4 && exponent < digits ? rounded.toPlainString() : rounded.toString();
         return text.replace("E", "e");
     }
 

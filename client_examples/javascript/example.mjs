@@ -6,11 +6,20 @@
 // lets the service choose the degree, prints the chosen degree, the sequential
 // table and a prediction at EC 3.5 dS/m made from the returned fitted-model document.
 // Set API_TOKEN if the service has auth on.
+//
+//   BASE_URL=http://127.0.0.1:8000 node client_examples/javascript/example.mjs dose-response
+//
+// fits a four-parameter logistic to the standards of an invented ELISA plate
+// (../data/plate.json), keeps the fitted-model document and reads unknown samples' readings
+// (each the mean of 2 wells) back to concentrations with intervals, statuses and the
+// curve's working range.
 
 import { readFile } from "node:fs/promises";
 
 const BASE_URL = (process.env.BASE_URL ?? "http://127.0.0.1:8000").replace(/\/+$/, "");
 const NEW_EC = 3.5;
+const UNKNOWNS = [0.2, 0.6, 1.4, 2.3, 3.2]; // optical densities of unknown samples
+const REPLICATES = 2; // each reading is the mean of 2 wells
 
 async function post(path, body) {
   const headers = { "Content-Type": "application/json", Accept: "application/json" };
@@ -59,7 +68,32 @@ async function main() {
               `${g(p.obs_lower)} to ${g(p.obs_upper)}`);
 }
 
-main().catch((error) => {
+async function doseResponse() {
+  const body = JSON.parse(await readFile(new URL("../data/plate.json", import.meta.url), "utf8"));
+  const fit = await post("/v1/fit", body);
+  const document = fit.fitted_model; // a JSON object: store it, read samples through it later
+  const result = await post("/v1/invert", { fitted_model: document, y: UNKNOWNS,
+                                            replicates: REPLICATES });
+  const level = Math.round(100 * body.level);
+  const ec50 = fit.coefficients.find((c) => c.term === "ec50");
+  const span = result.working_range;
+  console.log(`ELISA plate (invented demo data): ${fit.n} standards, ${fit.model.family}`);
+  console.log(`ec50 ${g(ec50.estimate)}, ${level}% interval ${g(ec50.lower)} to ${g(ec50.upper)}`);
+  console.log(`working range (CV <= ${g(100 * span.cv_limit)}%, ${span.replicates} replicates): ` +
+              `${g(span.lower)} to ${g(span.upper)}`);
+  for (const e of result.estimates) {
+    if (e.x === null || e.x === undefined) {
+      console.log(`reading ${g(e.y)}: no concentration (${e.status})`);
+      continue;
+    }
+    const ends = [e.lower, e.upper].map((v) => (v === null || v === undefined ? "unbounded" : g(v)));
+    console.log(`reading ${g(e.y)}: x ${g(e.x)}, ${level}% interval ${ends[0]} to ${ends[1]} ` +
+                `(${e.status})`);
+  }
+  console.log("back-calculated values support, never replace, a validated assay procedure");
+}
+
+(process.argv[2] === "dose-response" ? doseResponse() : main()).catch((error) => {
   console.error(error.message);
   process.exit(1);
 });

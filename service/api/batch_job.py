@@ -14,11 +14,21 @@ import numpy as np
 from marshmallow import ValidationError
 
 from schemas.batch import load_series, summary_rows, valid_id
+from schemas.batch_curves import curve_summary_rows
 from service.api.batch_curves import curve_results, is_nonlinear, mixed_results
+from service.core.batch.columnar import FlatSeries, fit_flat
+from service.core.batch.curves_results import CurveBatchResult
 from service.core.batch.driver import fit_batch, fit_many
 from service.core.polynomial.design import term_names
 from service.core.spec import HARD_MAX_DEGREE, FitOptions
-from service.http.errors import ServiceLimitError, fit_error_body, flatten_errors, problem_body
+from service.http.errors import (
+    ServiceLimitError,
+    agreed_code,
+    coded_detail,
+    fit_error_body,
+    flatten_errors,
+    problem_body,
+)
 from service.http.limits import check_degree, check_grid
 from service.http.reporting import fit_response
 from service.http.requests import grid_spec, model_spec
@@ -83,6 +93,19 @@ class BatchJob:
                          detail=self.detail)
         return self._assemble([(ident, ()) for ident in ids], range(len(ids)), batch)
 
+    def fit_flat(self, flat: FlatSeries):
+        """The columnar result of series held in flat arrays: the one call the Arrow and
+        Parquet bodies make (:func:`service.core.batch.columnar.fit_flat`)."""
+        return fit_flat(flat, model=self.model, options=self.options, detail=self.detail)
+
+    def flat_results(self, ids, flat: FlatSeries, refused=None):
+        """Result dicts for ``ids`` in order: the series of ``flat`` fitted, and the
+        ``refused`` ones (position -> problem body, not in ``flat``) as errors."""
+        refused = refused or {}
+        items = [(ident, refused.get(i, ())) for i, ident in enumerate(ids)]
+        fit_idx = [i for i in range(len(ids)) if i not in refused]
+        return self._assemble(items, fit_idx, self.fit_flat(flat))
+
     def _assemble(self, items, fit_idx, batch):
         ok_rows = np.flatnonzero(batch.ok).tolist()
         bodies = dict(zip(ok_rows, self._fits(batch, ok_rows), strict=True))
@@ -117,6 +140,8 @@ class BatchJob:
     def _fits(self, batch, rows):
         if self.detail == "full":
             return [fit_response(batch.reports[j], self.include) for j in rows]
+        if isinstance(batch, CurveBatchResult):   # a nonlinear model (Arrow and Parquet bodies)
+            return curve_summary_rows(batch, rows)
         return summary_rows(batch, rows, term_names)
 
     def series(self, obj, position: int):
@@ -127,10 +152,11 @@ class BatchJob:
         try:
             ident, x, y, w, model = load_series(obj, position)
         except ValidationError as exc:
-            return ident, problem_body(422, None, "This series is not valid; see errors for "
-                                       "each field and its fix.",
-                                       errors=flatten_errors(exc.messages),
-                                       code="validation_error")
+            errors, agreed = flatten_errors(exc.messages), agreed_code(exc.messages)
+            return ident, problem_body(422, None, coded_detail(errors) if agreed else
+                                       "This series is not valid; see errors for each field "
+                                       "and its fix.", errors=errors,
+                                       code=agreed or "validation_error")
         if x.size > self.settings.max_points:
             return ident, problem_body(413, None, f"The series has {x.size} points; the limit "
                                        f"is {self.settings.max_points}. Split the series.",

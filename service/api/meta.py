@@ -8,7 +8,9 @@ from flask_smorest import Blueprint, abort
 from schemas.common import MISSING_POLICIES, SECTIONS
 from schemas.families import MODEL_SCHEMAS, FamiliesResponseSchema, describe_options
 from service.core import families as registry
-from service.http.docs_page import render_catalogue, render_openapi, render_problem
+from service.core.models.capabilities import capabilities
+from service.http.docs_page import render_openapi
+from service.http.problem_pages import render_catalogue, render_problem
 from service.http.problems import CATALOGUE
 
 blp = Blueprint("meta", __name__, description="Families and documentation.")
@@ -31,6 +33,7 @@ def families():
             "options": describe_options(MODEL_SCHEMAS[entry.name]()),
             "select_methods": list(entry.select_methods),
             "transforms": list(entry.transforms),
+            "reading": capabilities(entry)._asdict(),
         } for entry in registry.FAMILIES.values()],
         "missing_policies": list(MISSING_POLICIES),
         "sections": list(SECTIONS),

@@ -8,10 +8,11 @@ from flask_smorest import Blueprint
 from schemas.plots import PlotRequestSchema
 from service.api.error_docs import error_responses
 from service.core import fit_series
+from service.core.compare import compare
 from service.core.errors import SpecError
 from service.http.limits import check_series
 from service.http.requests import fit_options, model_spec
-from service.plots import MAX_POINTS, MEDIA_TYPES, PlotOptions, render
+from service.plots import MAX_POINTS, MEDIA_TYPES, PlotOptions, check_log_x, render
 
 blp = Blueprint("plots", __name__, description="Figures.")
 
@@ -19,8 +20,9 @@ ERRORS = {400: "Unparsable body (not strict JSON: e.g. NaN or Infinity tokens)."
           413: "Body or number of points over the limit.",
           415: "Body not sent as application/json.",
           422: "Invalid or unfittable input, a figure size, dpi or panel list out of range, "
-               "or a size too small for the panels' least plotting area; errors names each "
-               "field and its fix."}
+               "a size too small for the panels' least plotting area, x_scale log with an x "
+               "that is not positive, or the selection panel of a nonlinear fit that "
+               "compared nothing; errors names each field and its fix."}
 _BINARY = {"schema": {"type": "string", "format": "binary"}}
 _IMAGE_DOC = {"responses": {"200": {"description": "The figure (PNG or SVG); the same body "
                                                    "always gives the same bytes.",
@@ -53,21 +55,28 @@ def plot(body):
                           height=asked["height"], dpi=asked["dpi"],
                           format=chosen_format(asked["format"]),
                           simultaneous=asked["simultaneous"], title=asked["title"],
-                          x_label=asked["x_label"], y_label=asked["y_label"])
+                          x_label=asked["x_label"], y_label=asked["y_label"],
+                          x_scale=asked["x_scale"])
     limit = MAX_POINTS[options.format]
     if len(body["x"]) > limit:
         raise SpecError(f"{len(body['x'])} points are too many to draw as {options.format} "
                         f"(limit {limit}).", field="x", code="limit_exceeded",
                         fix="Fit the full series with /v1/fit and plot a sample of it"
                             + (", or ask for png." if options.format == "svg" else "."))
-    if body["model"]["family"] != "polynomial":
-        raise SpecError(f"Figures of {body['model']['family']} fits are not drawn yet.",
-                        field="model.family", fix="Fit with /v1/fit and draw its grid section, "
-                        "or plot a polynomial fit.")
-    fit_body = {**body, "include": sorted(_NEEDED)}
-    report = fit_series(body["x"], body["y"], body["weights"], model=model_spec(body["model"]),
-                        options=fit_options(fit_body, settings))
-    image = render(report, body["x"], body["y"], body["weights"], options)
+    if options.log_x:
+        check_log_x(body["x"])
+    model, fit_body = body["model"], {**body, "include": sorted(_NEEDED)}
+    options_fit = fit_options(fit_body, settings)
+    comparison = None
+    if "candidates" in model:
+        comparison = compare(body["x"], body["y"], body["weights"],
+                             candidates=tuple(model_spec(m) for m in model["candidates"]),
+                             select=model["select"], alpha=model["alpha"], options=options_fit)
+        report = comparison.report
+    else:
+        report = fit_series(body["x"], body["y"], body["weights"], model=model_spec(model),
+                            options=options_fit)
+    image = render(report, body["x"], body["y"], body["weights"], options, comparison)
     response = Response(image, mimetype=MEDIA_TYPES[options.format])
     response.headers["Vary"] = "Accept"
     return response

@@ -75,6 +75,7 @@ class Comparison:
     chosen: int
     reason: str
     report: Any  # the chosen candidate's full report
+    reports: tuple[Any, ...] = ()  # every candidate's report, None where it failed (figures)
 
 
 _OPTIONS = FitOptions()
@@ -115,14 +116,12 @@ def compare(x, y, weights=None, *, candidates: tuple[ModelSpec, ...], select: st
     crit = _crit(select)
     usable = [i for i, r in enumerate(rows) if r.converged and math.isfinite(getattr(r, crit))]
     if not usable:
-        first = next((r for r in rows if r.error), rows[0])
-        raise FitError(f"No candidate could be fitted: {first.label}: {first.error}",
-                       field="model.candidates", fix="Check the data and the candidates.")
+        raise _nothing_to_compare(rows, crit)
     rows = _unique_labels(rows)
     tests = _nested_tests(candidates, rows, usable)
     chosen, reason = _choose(select, alpha, rows, usable, tests)
     return Comparison(select, alpha, tuple(rows), tuple(tests), chosen, reason,
-                      reports[chosen])
+                      reports[chosen], tuple(reports))
 
 
 def _check(candidates, select, alpha) -> None:
@@ -147,6 +146,22 @@ def _label(spec: ModelSpec, i: int) -> str:
     if spec.family == "polynomial" and spec.degree is not None:
         return f"polynomial degree {spec.degree}"
     return f"{spec.family} #{i}" if spec.family == "expression" else spec.family
+
+
+def _nothing_to_compare(rows: list[CandidateRow], crit: str) -> FitError:
+    """Why no candidate can be ranked: the first fitting error, or no finite criterion."""
+    failed = next((r for r in rows if r.error), None)
+    if failed is not None:
+        return FitError(f"No candidate could be fitted: {failed.label}: {failed.error}",
+                        field="model.candidates", fix="Check the data and the candidates.")
+    if all(r.rss == 0.0 for r in rows):
+        why = ("every candidate passes through every point (zero residuals), so "
+               f"{crit} is not finite")
+    else:
+        why = f"no candidate converged with a finite {crit}"
+    return FitError(f"No candidate can be ranked: {why}.", field="model.candidates",
+                    fix="Compare on data with noise and more points than parameters, or fit "
+                        "one model without candidates.")
 
 
 def _unique_labels(rows: list[CandidateRow]) -> list[CandidateRow]:

@@ -19,6 +19,24 @@ Hierarchy::
 
 from __future__ import annotations
 
+INDEX_LIST_CAP = 10  # offending indices named in one message; the rest are counted
+
+
+def also_at(indices) -> str:
+    """A sentence naming the offending indices after the first (empty when there is one).
+
+    ``"The same goes for indices 3, 7, 12 and 40 more."`` (at most :data:`INDEX_LIST_CAP`
+    named). The request schemas word their messages the same way (``schemas.fields``; the
+    layers share no code).
+    """
+    more = [int(i) for i in list(indices)[1:]]
+    if not more:
+        return ""
+    shown = ", ".join(map(str, more[:INDEX_LIST_CAP]))
+    rest = len(more) - INDEX_LIST_CAP
+    listed = f"{shown} and {rest} more" if rest > 0 else shown
+    return f" The same goes for {'index' if len(more) == 1 else 'indices'} {listed}."
+
 
 class FitError(ValueError):
     """Base class: this input cannot be fitted as asked.

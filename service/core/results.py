@@ -219,6 +219,9 @@ class FittedPolynomial:
     are on the caller's original x scale (extrapolation checks). ``sigma``
     is 0.0 for an exact fit and NaN when ``df_residual`` is 0. Weights are
     inverse variances; new observations in bands are taken at unit weight.
+    ``weighting`` is ``"relative"`` (sigma estimated; limits on Student's t) or
+    ``"known_sd"`` (weights are 1/SD²: ``sigma`` is 1 and limits use the
+    normal distribution, :mod:`service.core.checks.known_sd`).
     """
 
     degree: int
@@ -239,6 +242,7 @@ class FittedPolynomial:
     x_max: float
     weighted: bool
     level: float
+    weighting: str = "relative"
 
 
 @dataclass(frozen=True, slots=True)

@@ -10,6 +10,7 @@ validation errors from the schemas keep their status; limits and timeouts
 from __future__ import annotations
 
 import logging
+from types import FunctionType
 
 from flask import Flask, Response, request
 from flask_smorest import Api
@@ -74,8 +75,24 @@ def fit_error_body(error: FitError) -> dict:
                         code=error.code)
 
 
+MAX_REMEMBERED_FUNCTIONS = 1000
+
+
 class CurvewiseFlask(Flask):
     """Flask app whose unhandled exceptions are logged once, by the 500 handler below."""
+
+    def ensure_sync(self, func):
+        """Flask's answer per plain function, remembered: Flask asks it for every hook and
+        view wrapper of every request (a dozen ``inspect`` calls per request otherwise)."""
+        if type(func) is not FunctionType:  # bound methods are new objects on every call
+            return super().ensure_sync(func)
+        known = self.__dict__.setdefault("_sync_functions", {})
+        sync = known.get(func)
+        if sync is None:
+            sync = super().ensure_sync(func)
+            if len(known) < MAX_REMEMBERED_FUNCTIONS:  # hooks and views: a few dozen
+                known[func] = sync
+        return sync
 
     def log_exception(self, exc_info) -> None:
         """Skip Flask's own ERROR line: ``CurvewiseApi`` logs the 500 with its traceback."""
@@ -103,9 +120,12 @@ class CurvewiseApi(Api):
         prepare_response(response, self.spec, PROBLEM_MIME)
         self.spec.components.response("DEFAULT_ERROR", response, lazy=True)
 
+    def _register_pagination_header(self):
+        """No pagination here: leave flask-smorest's pagination schema out of the document."""
+
     def handle_http_exception(self, error: HTTPException):
         data = getattr(error, "data", None) or {}
-        errors = data.get("errors") or data.get("messages")
+        errors = raw_errors = data.get("errors") or data.get("messages")
         if isinstance(errors, dict):
             errors = flatten_errors(errors)
         headers = dict(data.get("headers") or {})
@@ -132,10 +152,11 @@ class CurvewiseApi(Api):
             return problem(500, None, "An unexpected error occurred; this is a bug.",
                            code="internal_error")
         status = error.code or 500
-        kind = kind_for(data.get("code"), status)
+        agreed = agreed_code(raw_errors) if status == 422 else None
+        kind = kind_for(data.get("code") or agreed, status)
         detail = data.get("message") or _detail(status, error)
         if status == 422 and errors and not data.get("message"):
-            detail = VALIDATION_DETAIL
+            detail = coded_detail(errors) if agreed else VALIDATION_DETAIL
         if errors is None and status == 413:
             errors = {"_body": [kind.fix]}
         return problem(status, kind.title if kind.when else error.name, detail, errors=errors,
@@ -149,6 +170,37 @@ def _detail(status: int, error: HTTPException) -> str:
     if kind.when:
         return f"{kind.when} {kind.fix}"
     return error.description or error.name
+
+
+def agreed_code(messages) -> str | None:
+    """The problem code every message carries (``schemas.fields.CodedMessage``), else None.
+
+    Schema checks of the data (arrays of different lengths, empty arrays) and of a
+    fitted-model document name ``invalid_data`` and ``invalid_document`` this way, as the
+    core does; a request with other complaints too stays a ``validation_error``.
+    """
+    codes: set = set()
+
+    def walk(node) -> None:
+        if isinstance(node, dict):
+            for value in node.values():
+                walk(value)
+        elif isinstance(node, (list, tuple)):
+            for value in node:
+                walk(value)
+        else:
+            codes.add(getattr(node, "code", None))
+
+    walk(messages)
+    return next(iter(codes)) if len(codes) == 1 and None not in codes else None
+
+
+def coded_detail(errors: dict, shown: int = 3) -> str:
+    """The ``detail`` of a coded schema problem: the first paths with their messages."""
+    parts = [f"{path}: {' '.join(messages)}" for path, messages in list(errors.items())[:shown]]
+    if len(errors) > shown:
+        parts.append(f"({len(errors) - shown} more fields in errors.)")
+    return " ".join(parts)
 
 
 def flatten_errors(nested: dict, prefix: str = "") -> dict:

@@ -67,8 +67,10 @@ CATALOGUE: dict[str, ProblemKind] = {kind.code: kind for kind in (
                 "The degree is over CURVEWISE_MAX_DEGREE or the grid has more points than "
                 "CURVEWISE_MAX_GRID_POINTS.", "Ask for less, or raise the limit."),
     ProblemKind("invalid_data", 422, "Unusable data",
-                "Arrays of different lengths, empty arrays, non-finite values, weights <= 0, "
-                "or weights whose largest / smallest ratio is over 1e16.",
+                "Arrays of different lengths, empty arrays, missing values (null) without "
+                "\"missing\": \"drop\", values too large in magnitude, weights <= 0, or "
+                "weights whose largest / smallest ratio is over 1e16; messages name every "
+                "offending index.",
                 "Fix the array named in errors."),
     ProblemKind("transform_domain", 422, "Value outside the transform's domain",
                 "A value is outside the domain of the requested transform (e.g. log of x <= 0).",
@@ -85,8 +87,9 @@ CATALOGUE: dict[str, ProblemKind] = {kind.code: kind for kind in (
                 "Use numbers, + - * /, ^ for powers, parentheses and exp, log, log10, sqrt, sin, "
                 "cos, tan, arctan, abs, pi; declare every parameter in model.parameters."),
     ProblemKind("invalid_document", 422, "Invalid fitted-model document",
-                "A fitted-model document is malformed, of an unknown version, or fails its "
-                "checksum.", "Send the document back exactly as /v1/fit returned it."),
+                "A fitted-model document is malformed, of an unknown version, fails its "
+                "checksum, or is a whole /v1/fit answer instead of its fitted_model field.",
+                "Send the document back exactly as /v1/fit returned it."),
     ProblemKind("unfittable_input", 422, "Unfittable input",
                 "The input cannot be fitted as asked.", "Follow the fix given in detail."),
     ProblemKind("internal_error", 500, "Internal error",

@@ -39,7 +39,7 @@ def fit_response(report: FitReport | NonlinearReport, include) -> dict:
     body = {
         "model": {"family": "polynomial", "degree": fitted.degree, "intercept": fitted.intercept,
                   "terms": list(fitted.terms), "transform_x": fitted.transform_x,
-                  "transform_y": fitted.transform_y},
+                  "transform_y": fitted.transform_y, "weighting": fitted.weighting},
         "n": stats.n,
         "n_input": report.n_input,
         "dropped": list(report.dropped),

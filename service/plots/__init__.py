@@ -11,9 +11,11 @@ the fit panel on its x axis, with the Bonferroni outlier limits); ``influence``
 Cook's distance, outlier limits); ``spread`` (squared residuals against x with
 the Breusch-Pagan auxiliary fit and its p-value); ``half_normal``
 (|studentized residuals| in a simulated envelope) and ``selection`` (criteria
-by candidate degree). Layout: :mod:`service.plots.layout`. Output is
-reproducible byte for byte: fixed SVG id salt, seeded simulations, no dates
-in metadata.
+by candidate degree; for a comparison of models, every candidate's curve over the
+data). Any family is drawn (nonlinear fits: the tangent-plane leverages and
+Jacobian stand for the design), on a linear or log x axis. Layout:
+:mod:`service.plots.layout`. Output is reproducible byte for byte: fixed SVG id
+salt, seeded simulations, no dates in metadata.
 """
 
 from service.plots.figure import build_figure, render  # noqa: F401
@@ -29,5 +31,7 @@ from service.plots.options import (  # noqa: F401
     MIN_DPI,
     MIN_PIXELS,
     PANELS,
+    X_SCALES,
     PlotOptions,
+    check_log_x,
 )

@@ -1,5 +1,10 @@
 """The fitted polynomial's x on the scale its powers are taken (``t``), and its design.
 
+For a nonlinear family the "design" is the weighted Jacobian at the estimates (the
+tangent plane, whose hat matrix gives the core's leverages) and the Breusch-Pagan
+auxiliary regression is on raw x (``1, x``), as in
+:func:`service.core.nonlinear.analysis.report`.
+
 ``t = (u - x_shift) / x_scale`` with ``u`` the x values after ``transform_x``
 (see :class:`service.core.results.FittedPolynomial`). Two panels need it: the
 spread panel redraws the Breusch-Pagan auxiliary regression (the squared
@@ -14,8 +19,16 @@ import numpy as np
 from service.core.data import transforms
 
 
+def is_polynomial(model) -> bool:
+    """True for a fitted polynomial (it has a degree); False for a nonlinear curve."""
+    return hasattr(model, "degree")
+
+
 def scaled_x(model, x: np.ndarray) -> np.ndarray:
-    """``t`` of the original x values ``x`` (inside the fitted range's domain)."""
+    """``t`` of the original x values ``x`` (inside the fitted range's domain); for a
+    nonlinear curve x itself (its Breusch-Pagan regressors)."""
+    if not is_polynomial(model):
+        return np.asarray(x, dtype=float)
     u = transforms.apply(model.transform_x, np.asarray(x, dtype=float), field="x")
     return (u - model.x_shift) / model.x_scale
 
@@ -34,6 +47,12 @@ def weighted_design(model, x: np.ndarray, weights: np.ndarray | None) -> np.ndar
 
 def residual_basis(model, x: np.ndarray, weights: np.ndarray | None) -> np.ndarray:
     """An orthonormal basis ``Q`` of the weighted design's columns: ``H = Q Q'``."""
+    if not is_polynomial(model):
+        with np.errstate(all="ignore"):
+            jacobian = np.asarray(model.model.values_and_jacobian(
+                np.asarray(x, dtype=float), model.estimates)[1], dtype=float)
+        design = jacobian if weights is None else jacobian * np.sqrt(weights)[:, None]
+        return np.linalg.qr(design)[0]
     design = weighted_design(model, x, weights)
     if design.shape[1] == 0:
         return design

@@ -1,4 +1,11 @@
-"""The numbers a figure needs, gathered once from a core ``FitReport`` and the caller's data."""
+"""The numbers a figure needs, gathered once from a core report and the caller's data.
+
+Any family's report: a polynomial ``FitReport`` or a nonlinear family's report (its
+``model`` a ``FittedCurve``: no degree selection, parameters by name). With a
+comparison (``model.candidates``) the chosen candidate's report is drawn and
+``candidates`` holds every fitted candidate's curve for the selection panel. On a log x
+axis the curve is evaluated on geometrically spaced x so it is smooth on that axis.
+"""
 
 from __future__ import annotations
 
@@ -7,11 +14,22 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from service.core import FitReport, Prediction, Selection, predict
+from service.core import Prediction, Selection, predict
 from service.core.results import TestResult
 
 DEFAULT_GRID_POINTS = 200
 FLAG_KINDS = ("outlier", "high_leverage", "influential")  # the diagnostics' three point flags
+
+
+@dataclass(frozen=True, slots=True)
+class CandidateCurve:
+    """One candidate of a comparison: its label, criterion value and curve on the grid."""
+
+    label: str
+    criterion: float
+    chosen: bool
+    x: np.ndarray
+    fit: np.ndarray
 
 
 @dataclass(frozen=True, slots=True)
@@ -37,13 +55,17 @@ class PlotData:
     thresholds: Mapping[str, float]
     breusch_pagan: TestResult | None
     grid: Prediction
-    selection: Selection
+    selection: Selection | None
     model: object
-    degree: int
+    degree: int | None
     n_parameters: int
     weighted: bool
     x_min: float
     x_max: float
+    family: str = "polynomial"
+    candidates: tuple[CandidateCurve, ...] = ()
+    criterion_name: str = ""
+    log_x: bool = False
 
     @property
     def n(self) -> int:
@@ -60,15 +82,34 @@ class PlotData:
         return float(self.thresholds.get(name, np.nan))
 
 
-def gather(report: FitReport, x, y, weights=None) -> PlotData:
+def describe(data: PlotData) -> str:
+    """A short name of the fitted model: ``polynomial of degree 2``, ``logistic4``..."""
+    if data.family == "polynomial":
+        return f"polynomial of degree {data.degree}"
+    return "the caller's equation" if data.family == "expression" else data.family
+
+
+def curve_x(x_min: float, x_max: float, log_x: bool, points: int = DEFAULT_GRID_POINTS):
+    """Where a curve is drawn: equally spaced, or geometrically on a log x axis."""
+    if log_x and x_min > 0:
+        return np.geomspace(x_min, x_max, points)
+    return np.linspace(x_min, x_max, points)
+
+
+def gather(report, x, y, weights=None, *, log_x: bool = False, comparison=None) -> PlotData:
     """Collect what the panels draw.
 
     Parameters
     ----------
-    report : FitReport
-        The core's analysis of ``x``, ``y`` (and ``weights``).
+    report : FitReport or NonlinearReport
+        The core's analysis of ``x``, ``y`` (and ``weights``); with a comparison, the
+        chosen candidate's.
     x, y, weights : array_like
         The arrays the report was computed from (original positions).
+    log_x : bool
+        The x axis is logarithmic (every x > 0): curves on a geometric grid.
+    comparison : Comparison, optional
+        :func:`service.core.compare.compare`'s result, for the selection panel.
     """
     x_all, y_all = np.asarray(x, dtype=float), np.asarray(y, dtype=float)
     model, diag = report.model, report.diagnostics
@@ -76,8 +117,12 @@ def gather(report: FitReport, x, y, weights=None) -> PlotData:
         index = np.asarray(diag.index, dtype=int)
     else:
         index = np.setdiff1d(np.arange(report.n_input), np.asarray(report.dropped, dtype=int))
-    grid = report.grid if report.grid is not None and report.grid.x.size else predict(
-        model, np.linspace(model.x_min, model.x_max, DEFAULT_GRID_POINTS))
+    if log_x:
+        grid = predict(model, curve_x(model.x_min, model.x_max, True))
+    elif report.grid is not None and report.grid.x.size:
+        grid = report.grid
+    else:
+        grid = predict(model, curve_x(model.x_min, model.x_max, False))
     used_weights = None
     if weights is not None and model.weighted:
         used_weights = np.asarray(weights, dtype=float)[index]
@@ -99,6 +144,35 @@ def gather(report: FitReport, x, y, weights=None) -> PlotData:
     return PlotData(index=index, x=x_all[index], y=y_all[index], residual=residual,
                     studentized=studentized, leverage=leverage, weights=used_weights,
                     flags=flags, thresholds=thresholds, breusch_pagan=breusch_pagan,
-                    grid=grid, selection=report.selection, model=model,
-                    degree=model.degree, n_parameters=len(model.terms),
-                    weighted=model.weighted, x_min=model.x_min, x_max=model.x_max)
+                    grid=grid, selection=getattr(report, "selection", None), model=model,
+                    degree=getattr(model, "degree", None),
+                    n_parameters=int(report.statistics.n_parameters),
+                    weighted=model.weighted, x_min=model.x_min, x_max=model.x_max,
+                    family=getattr(model, "family", None) or "polynomial",
+                    candidates=_candidates(comparison, log_x),
+                    criterion_name=_criterion(comparison), log_x=log_x)
+
+
+def _criterion(comparison) -> str:
+    """The criterion the comparison ranks by (the F-test walk ends by AICc)."""
+    if comparison is None:
+        return ""
+    return {"aic": "AIC", "bic": "BIC"}.get(comparison.select, "AICc")
+
+
+def _candidates(comparison, log_x: bool) -> tuple[CandidateCurve, ...]:
+    """Every fitted candidate's curve over the x range of all of them."""
+    if comparison is None:
+        return ()
+    key = "aicc" if comparison.select == "f_test" else comparison.select
+    fitted = [(row, r) for row, r in zip(comparison.candidates, comparison.reports,
+                                         strict=True) if r is not None]
+    if not fitted:
+        return ()
+    lo = min(r.model.x_min for _, r in fitted)
+    hi = max(r.model.x_max for _, r in fitted)
+    xs = curve_x(lo, hi, log_x)
+    chosen = comparison.candidates[comparison.chosen].label
+    return tuple(CandidateCurve(row.label, float(getattr(row, key)), row.label == chosen, xs,
+                                np.asarray(predict(r.model, xs).fit, dtype=float))
+                 for row, r in fitted)

@@ -8,18 +8,25 @@ from matplotlib.backends.backend_agg import FigureCanvasAgg
 from matplotlib.figure import Figure
 
 from service.core import FitReport
+from service.core.errors import SpecError
 from service.plots import layout, legend, style
+from service.plots.basis import is_polynomial
 from service.plots.data import gather
-from service.plots.options import PlotOptions
+from service.plots.options import PlotOptions, check_log_x
 from service.plots.panels import DRAW
 
 DEFAULT_OPTIONS = PlotOptions()
+ALONG_X = ("fit", "studentized_residuals", "spread")  # panels drawn against x
 _SVG_SIZE = re.compile(rb'<svg([^>]*?) width="[^"]*" height="[^"]*"')
 
 
 def build_figure(report: FitReport, x, y, weights=None,
-                 options: PlotOptions = DEFAULT_OPTIONS) -> Figure:
+                 options: PlotOptions = DEFAULT_OPTIONS, comparison=None) -> Figure:
     """A figure with the requested panels of ``report`` (x, y, weights as fitted).
+
+    ``report`` is any family's report; with ``comparison``
+    (:func:`service.core.compare.compare`) it is the chosen candidate's, and the
+    selection panel overlays every candidate's curve.
 
     The width is fixed first (as asked, or grown to the widest row); the panels are drawn,
     the legend strip is measured at that width, and then the height is fixed (as asked,
@@ -28,11 +35,22 @@ def build_figure(report: FitReport, x, y, weights=None,
     Raises
     ------
     SpecError
-        When the asked height leaves a panel less than the minimum plotting area once
+        A log x axis with an x that is not positive (``plot.x_scale``); the selection
+        panel of a nonlinear fit that compared nothing (``plot.panels``). When the asked
+        height leaves a panel less than the minimum plotting area once
         the legend strip is known (``plot.height``), or no size within the limits fits
         the panels at this dpi (``plot.dpi``).
     """
-    data = gather(report, x, y, weights)
+    if options.log_x:
+        check_log_x(x)
+    compared = comparison is not None and any(r is not None for r in comparison.reports)
+    if "selection" in options.panels and not compared and not is_polynomial(report.model):
+        raise SpecError("The selection panel shows a choice: a polynomial's degree selection "
+                        "or a comparison of candidate models; this fit chose nothing.",
+                        field="plot.panels", fix="Leave selection out, or send "
+                        "model.candidates to compare models.")
+    data = gather(report, x, y, weights, log_x=options.log_x,
+                  comparison=comparison if compared else None)
     grid, titled, dpi = layout.rows(options.panels), bool(options.title), options.dpi
     width_px = options.pixel_width()
     first_height = options.height or options.pixel_height(width_px, layout.LEGEND_LINE)
@@ -44,6 +62,8 @@ def build_figure(report: FitReport, x, y, weights=None,
             shared = axes.get("fit") if name == "studentized_residuals" else None
             axes[name] = figure.add_axes((0.0, 0.0, 1.0, 1.0), sharex=shared)
             DRAW[name](axes[name], data, options)
+            if options.log_x and (name in ALONG_X or (name == "selection" and data.candidates)):
+                style.log_x_axis(axes[name], data.x_min, data.x_max)
     if "fit" in axes and "studentized_residuals" in axes:  # one x axis for the column
         axes["fit"].tick_params(labelbottom=False)
         axes["fit"].set_xlabel("")
@@ -61,13 +81,14 @@ def build_figure(report: FitReport, x, y, weights=None,
     return figure
 
 
-def render(report: FitReport, x, y, weights=None, options: PlotOptions = DEFAULT_OPTIONS) -> bytes:
+def render(report: FitReport, x, y, weights=None, options: PlotOptions = DEFAULT_OPTIONS,
+           comparison=None) -> bytes:
     """PNG or SVG bytes of the figure; the same input gives the same bytes.
 
     An SVG states its size in pixels (``width="800px"``) with matplotlib's
     point-based ``viewBox`` kept, so it scales exactly like the PNG.
     """
-    figure = build_figure(report, x, y, weights, options)
+    figure = build_figure(report, x, y, weights, options, comparison)
     data = style.to_bytes(figure, options.format, options.dpi)
     if options.format == "svg":
         width, height = (round(v * options.dpi) for v in figure.get_size_inches())

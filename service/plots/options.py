@@ -9,6 +9,8 @@ from __future__ import annotations
 import math
 from dataclasses import dataclass
 
+import numpy as np
+
 from service.core.errors import SpecError
 from service.plots import layout
 
@@ -21,6 +23,8 @@ PANEL_TITLES = {
     "half_normal": "Half-normal plot",
     "selection": "Degree selection",
 }
+COMPARISON_TITLE = "Candidate models"  # the selection panel of a comparison
+X_SCALES = ("linear", "log")
 FORMATS = ("png", "svg")
 MEDIA_TYPES = {"png": "image/png", "svg": "image/svg+xml"}
 
@@ -51,6 +55,10 @@ class PlotOptions:
         Also draw the simultaneous (whole-curve) band on the ``fit`` panel.
     title, x_label, y_label : str or None
         Plain labels; default ``x`` and ``y``.
+    x_scale : str
+        ``"linear"`` or ``"log"``: the x axis of the panels drawn along x (dose-response
+        curves are read on log concentration); log needs every x > 0
+        (:func:`check_log_x`).
 
     Raises
     ------
@@ -70,8 +78,12 @@ class PlotOptions:
     title: str | None = None
     x_label: str | None = None
     y_label: str | None = None
+    x_scale: str = "linear"
 
     def __post_init__(self) -> None:
+        if self.x_scale not in X_SCALES:
+            raise SpecError(f"Unknown x_scale {self.x_scale!r}.", field="plot.x_scale",
+                            fix="Use linear or log.")
         unknown = [p for p in self.panels if p not in PANELS]
         if unknown or not self.panels or len(set(self.panels)) != len(self.panels):
             raise SpecError(f"Unknown or repeated panels: {list(self.panels)}.",
@@ -130,6 +142,11 @@ class PlotOptions:
         return min(max(base, math.ceil(roomy * self.dpi - 1e-9)), limit)
 
     @property
+    def log_x(self) -> bool:
+        """True when the x axis is logarithmic."""
+        return self.x_scale == "log"
+
+    @property
     def media_type(self) -> str:
         """The response media type for :attr:`format`."""
         return MEDIA_TYPES[self.format]
@@ -138,3 +155,14 @@ class PlotOptions:
     def needs_diagnostics(self) -> bool:
         """True when a residual panel is asked for."""
         return any(p not in ("fit", "selection") for p in self.panels)
+
+
+def check_log_x(x) -> None:
+    """Refuse a log x axis when some x is not positive (naming ``plot.x_scale``)."""
+    values = np.asarray(x, dtype=float)
+    bad = np.flatnonzero(~(values > 0))
+    if bad.size:
+        raise SpecError(f"x[{int(bad[0])}] = {values[bad[0]]:g} cannot be drawn on a log x axis "
+                        f"({bad.size} of {values.size} x are zero or negative).",
+                        field="plot.x_scale", fix="Use x_scale linear, or leave out the x "
+                        "that are not positive (e.g. a zero-dose blank).")

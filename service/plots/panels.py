@@ -11,8 +11,8 @@ import numpy as np
 from matplotlib import ticker
 
 from service.plots import marks, style
-from service.plots.data import PlotData
-from service.plots.options import PANEL_TITLES, PlotOptions
+from service.plots.data import PlotData, describe
+from service.plots.options import COMPARISON_TITLE, PANEL_TITLES, PlotOptions
 from service.plots.panels_checks import (
     draw_half_normal,
     draw_influence,
@@ -39,18 +39,25 @@ def draw_fit(ax, data: PlotData, options: PlotOptions) -> None:
         ax.plot(grid.x, grid.band_lower, label=f"{level} simultaneous band, whole curve",
                 **style.SIM_BAND)
         ax.plot(grid.x, grid.band_upper, **style.SIM_BAND)
-    ax.plot(grid.x, grid.fit, label=f"fitted polynomial, degree {data.degree}", **style.CURVE)
+    curve = (f"fitted polynomial, degree {data.degree}" if data.family == "polynomial"
+             else f"fitted {describe(data)}")
+    ax.plot(grid.x, grid.fit, label=curve, **style.CURVE)
     ax.plot(data.x, data.y, label="data", **style.DATA)
     marks.flags(ax, data, data.x, data.y)
     if grid.x.size and (grid.x.min() < data.x_min or grid.x.max() > data.x_max):
         for edge in (data.x_min, data.x_max):
             ax.axvline(edge, **style.REFERENCE)
-    marks.finish(ax, PANEL_TITLES["fit"], f"polynomial of degree {data.degree}, "
-                 f"{data.n} points", options.x_label or "x", options.y_label or "y")
+    marks.finish(ax, PANEL_TITLES["fit"], f"{describe(data)}, {data.n} points, "
+                 f"{data.n_parameters} parameters", options.x_label or "x",
+                 options.y_label or "y")
 
 
 def draw_selection(ax, data: PlotData, options: PlotOptions) -> None:
-    """AIC, AICc and BIC by candidate degree, plus the method's own criterion if different."""
+    """AIC, AICc and BIC by candidate degree, plus the method's own criterion if different;
+    for a comparison of candidate models, their curves over the data."""
+    if data.candidates:
+        draw_candidates(ax, data, options)
+        return
     selection = data.selection
     degrees = np.array([c.degree for c in selection.candidates], dtype=float)
     for key, label, colour, marker in style.CRITERIA:
@@ -64,6 +71,20 @@ def draw_selection(ax, data: PlotData, options: PlotOptions) -> None:
     method = "fixed by the caller" if selection.method == "fixed" else (
         f"chosen by {METHOD_NAMES.get(selection.method, selection.method)}")
     marks.finish(ax, PANEL_TITLES["selection"], method, "degree", "information criterion")
+
+
+def draw_candidates(ax, data: PlotData, options: PlotOptions) -> None:
+    """Every fitted candidate's curve over the data, the chosen one solid and thick, each
+    labelled with the criterion the comparison ranked by."""
+    ax.plot(data.x, data.y, label="data", **style.DATA)
+    others = iter(style.CANDIDATES)
+    for curve in data.candidates:
+        look = style.CHOSEN_CANDIDATE if curve.chosen else next(others, style.CANDIDATES[-1])
+        look = {**look, "zorder": 2.0 if curve.chosen else 2.5}  # the others stay visible
+        ax.plot(curve.x, curve.fit, label=f"{'chosen: ' if curve.chosen else ''}{curve.label}, "
+                f"{data.criterion_name} {curve.criterion:.4g}", **look)
+    note = f"{len(data.candidates)} candidates fitted, ranked by {data.criterion_name}"
+    marks.finish(ax, COMPARISON_TITLE, note, options.x_label or "x", options.y_label or "y")
 
 
 def _method_axis(ax, selection, degrees):

@@ -111,8 +111,8 @@ def draw_half_normal(ax, data: PlotData, options: PlotOptions) -> None:
     """Sorted |studentized residuals| at half-normal positions, in a simulated envelope."""
     found = None
     if np.isfinite(data.studentized).sum() >= 2:
-        found = envelope(data.studentized,
-                         basis.residual_basis(data.model, data.x, data.weights))
+        q = basis.residual_basis(data.model, data.x, data.weights)
+        found = envelope(data.studentized, q) if np.isfinite(q).all() else None
     note = UNDEFINED
     if found is not None:
         ax.fill_between(found.positions, found.lower, found.upper,

@@ -5,7 +5,8 @@ test: ``LM = n R²`` of the squared weighted residuals regressed on
 ``1, t, ..., t^d`` (the powers of x the polynomial uses, unweighted; see
 :mod:`service.core.polynomial.diagnostics`). The panel shows exactly that
 regression: ``e² / mean(e²)`` at each x and the auxiliary fit through them
-(both scaled by the mean, which leaves ``R²`` and the test unchanged). A flat
+(both scaled by the mean, which leaves ``R²`` and the test unchanged). For a nonlinear
+family the regressors are ``1, x`` (raw x), as the core tests it. A flat
 curve at 1 is constant spread; the test's p-value says how far from flat.
 """
 
@@ -16,6 +17,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from service.plots import basis
+from service.plots.data import curve_x as curve_points
 
 CURVE_POINTS = 200
 
@@ -44,7 +46,7 @@ def spread(data) -> Spread:
     if test is None or not np.isfinite(test.p_value) or not test.df:
         return Spread(scaled, none, none, np.nan, np.nan, 0)
     degree = int(test.df[0])
-    curve_x = np.linspace(data.x_min, data.x_max, CURVE_POINTS)
+    curve_x = curve_points(data.x_min, data.x_max, data.log_x, CURVE_POINTS)
     coef = np.linalg.lstsq(basis.powers(basis.scaled_x(data.model, data.x), degree), scaled,
                            rcond=None)[0]
     curve_y = basis.powers(basis.scaled_x(data.model, curve_x), degree) @ coef

@@ -8,8 +8,10 @@ bands also differ by line style and fill, so a figure reads in grey scale too.
 from __future__ import annotations
 
 import io
+import math
 
 import matplotlib
+from matplotlib import ticker
 
 # Fixed salt for the ids in SVG output (clip paths, glyphs): the same figure gives the same
 # bytes in every process. Set once at import; nothing else in the service writes SVG.
@@ -57,6 +59,14 @@ REFERENCE = {"color": "#777777", "linestyle": "-", "linewidth": 0.8}
 CRITERIA = (("aic", "AIC", OKABE_ITO["blue"], "o"),
             ("aicc", "AICc", OKABE_ITO["bluish_green"], "s"),
             ("bic", "BIC", OKABE_ITO["orange"], "^"))
+CHOSEN_CANDIDATE = {"color": OKABE_ITO["blue"], "linewidth": 2.2}
+CANDIDATES = (  # the other candidates of a comparison: colour and line style both differ
+    {"color": OKABE_ITO["vermillion"], "linestyle": "--", "linewidth": 1.3},
+    {"color": OKABE_ITO["bluish_green"], "linestyle": "-.", "linewidth": 1.3},
+    {"color": OKABE_ITO["orange"], "linestyle": ":", "linewidth": 1.6},
+    {"color": OKABE_ITO["reddish_purple"], "linestyle": (0, (5, 1, 1, 1)), "linewidth": 1.3},
+    {"color": "#777777", "linestyle": (0, (1, 2)), "linewidth": 1.3},
+)
 CHOSEN = {"color": OKABE_ITO["vermillion"], "linestyle": ":", "linewidth": 1.2}
 
 PNG_COMPRESS_LEVEL = 3  # zlib level: ~25% faster than the default 6 for ~10% larger files
@@ -80,6 +90,17 @@ def style_axes(ax) -> None:
     ax.set_axisbelow(True)
     for side in ("top", "right"):
         ax.spines[side].set_visible(False)
+
+
+def log_x_axis(ax, x_min: float, x_max: float) -> None:
+    """A logarithmic x axis with plain tick labels (0.01, 1, 100: never mathtext, which
+    the service does not parse); decades, or 1-2-5 steps over less than two decades."""
+    ax.set_xscale("log")
+    decades = math.log10(x_max / x_min) if x_min > 0 and x_max > x_min else 0.0
+    subs = (1.0,) if decades >= 2 else (1.0, 2.0, 5.0)
+    ax.xaxis.set_major_locator(ticker.LogLocator(base=10, subs=subs, numticks=9))
+    ax.xaxis.set_major_formatter(ticker.FuncFormatter(lambda v, _: f"{v:g}"))
+    ax.xaxis.set_minor_formatter(ticker.NullFormatter())
 
 
 def to_bytes(figure, fmt: str, dpi: int) -> bytes:

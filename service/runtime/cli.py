@@ -50,10 +50,24 @@ def resolve(args: argparse.Namespace, environ: dict | None = None) -> tuple[str,
     return host, port, workers
 
 
+def announce(host: str, port: int, workers: int | None) -> str:
+    """The lines a starting server prints: where it serves and what it does first."""
+    from service.runtime.kernel_cache import startup_message
+
+    who = "the development server" if workers is None else f"{workers} gunicorn workers"
+    return (f"curvewise: serving http://{host}:{port}/ ({who}; API reference at /docs)\n"
+            f"curvewise: {startup_message()}; until then every request gets 503 with "
+            "Retry-After, and GET /readyz answers 200 once ready")
+
+
 def _serve_dev(host: str, port: int) -> int:
     from service.app import create_app
+    from service.runtime import warming
 
-    create_app().run(host=host, port=port, debug=True, use_reloader=False)
+    print(announce(host, port, None), file=sys.stderr, flush=True)
+    app = create_app()
+    warming.start(freeze=False)
+    app.run(host=host, port=port, debug=True, use_reloader=False)
     return 0
 
 
@@ -75,6 +89,7 @@ def _serve_gunicorn(host: str, port: int, workers: int) -> int:
             return create_app()
 
     os.environ.setdefault("CURVEWISE_WORKERS", str(workers))
+    print(announce(host, port, workers), file=sys.stderr, flush=True)
     _Server().run()
     return 0
 

@@ -228,14 +228,17 @@ def install(app: Flask) -> None:
 
     @app.before_request
     def _start() -> None:
-        g.request_id = incoming_request_id()
-        g.request_started = time.perf_counter()
+        ctx = g._get_current_object()  # one proxy lookup, not one per attribute
+        ctx.request_id = incoming_request_id()
+        ctx.request_started = time.perf_counter()
         m.in_progress.inc()
 
     @app.after_request
     def _finish(response: Response) -> Response:
-        started = g.pop("request_started", None)
-        response.headers[REQUEST_ID_HEADER] = g.get("request_id") or incoming_request_id()
+        ctx = g._get_current_object()
+        started = ctx.pop("request_started", None)
+        request_id = ctx.get("request_id")
+        response.headers[REQUEST_ID_HEADER] = request_id or incoming_request_id()
         if started is None:  # a before_request hook ahead of ours answered
             return response
         m.in_progress.dec()
@@ -257,7 +260,7 @@ def install(app: Flask) -> None:
             # built directly: Logger.info would walk the stack for a caller nobody reads
             record = logging.LogRecord(access_log.name, logging.INFO, __file__, 0, "request",
                                        None, None)
-            record.request_id = g.get("request_id")
+            record.request_id = request_id
             record.fields = {
                 "method": method, "route": route, "path": req.path, "status": status,
                 "duration_ms": round(elapsed * 1000, 3), "bytes_in": req.content_length,

@@ -170,10 +170,14 @@ def test_unusable_specs_are_refused_naming_the_field(client, model, extra, field
     assert_problem(res, 422, code, field)
 
 
-def test_polynomials_refuse_known_sd_weighting(client):
-    res = post_json(client, "/v1/fit", {"x": [1, 2, 3, 4], "y": [1, 3, 2, 5],
-                                        "weighting": "known_sd"})
-    assert_problem(res, 422, "invalid_spec", "weighting")
+@pytest.mark.parametrize("model", [{"max_degree": 2}, {"family": "michaelis_menten"},
+                                   {"family": "expression", "expression": "a*x/(b+x)",
+                                    "parameters": {"a": 3, "b": 2}}])
+def test_known_sd_weighting_needs_the_sds(client, model):
+    # without weights there are no known SDs to use: refused naming weights, for every family
+    res = post_json(client, "/v1/fit", {"x": [1, 2, 3, 4, 5, 6], "y": [1, 1.8, 2.5, 2.9, 3.2, 3.4],
+                                        "model": model, "weighting": "known_sd"})
+    assert_problem(res, 422, "invalid_spec", "weights")
 
 
 def test_families_describes_the_expression_family(client):

@@ -132,7 +132,7 @@ def test_no_intercept_uses_uncentred_r_squared(client):
 
 
 # fields the schema documents for the nonlinear families only (and their model summary)
-NONLINEAR_ONLY = {"fit_info", "correlation", "expression", "weighting", "comparison",
+NONLINEAR_ONLY = {"fit_info", "correlation", "expression", "comparison",
                   "derived"}
 
 

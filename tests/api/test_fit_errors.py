@@ -80,14 +80,9 @@ def test_points_over_limit_is_413():
     ({"y": [1.0, 2.0, 3.0, True, 5.0, 6.0]}, "y[3]", "boolean"),
     ({"x": [1.0, [2.0], 3.0, 4.0, 5.0, 6.0]}, "x[1]", "nested array"),
     ({"x": [1.0, 2.0, {"v": 3}, 4.0, 5.0, 6.0]}, "x[2]", "object"),
-    ({"y": [1.0, 2.0, 3.0, 4.0, None, 6.0]}, "y[4]", "missing"),
-    ({"weights": [1.0, 1.0, None, 1.0, 1.0, 1.0]}, "weights[2]", "missing"),
     ({"x": "1,2,3"}, "x", "array of numbers"),
-    ({"x": []}, "x", "at least 1"),
     ({"x": ...}, "x", "Missing required field"),
     ({"y": ...}, "y", "Missing required field"),
-    ({"y": [1.0, 2.0, 3.0]}, "y", "same length"),
-    ({"weights": [1.0, 2.0]}, "weights", "same length"),
     ({"colour": "red"}, "colour", "Unknown field"),
     ({"model": {"degree": 2, "shape": "u"}}, "model.shape", "Unknown field"),
     ({"model": {"degree": 2.5}}, "model.degree", "integer"),
@@ -124,6 +119,24 @@ def test_invalid_fields_are_422_naming_the_field(client, changes, field, words):
     problem = assert_problem(post_json(client, "/v1/fit", body(**changes)), 422,
                              "validation_error", field)
     assert any(words.lower() in m.lower() for m in problem["errors"][field]), problem["errors"]
+
+
+@pytest.mark.parametrize("changes, field, words", [
+    ({"y": [1.0, 2.0, 3.0, 4.0, None, 6.0]}, "y[4]", "missing"),
+    ({"weights": [1.0, 1.0, None, 1.0, 1.0, 1.0]}, "weights[2]", "missing"),
+    ({"x": []}, "x", "Empty array"),
+    ({"x": [], "y": []}, "y", "Empty array"),
+    ({"y": [1.0, 2.0, 3.0]}, "y", "same length"),
+    ({"weights": [1.0, 2.0]}, "weights", "same length"),
+])
+def test_data_that_cannot_be_paired_is_invalid_data_as_in_batch(client, changes, field, words):
+    # the README's catalogue: arrays of different lengths, empty arrays and missing values
+    # are invalid_data; /v1/batch says so of the same series (tests/batch)
+    problem = assert_problem(post_json(client, "/v1/fit", body(**changes)), 422,
+                             "invalid_data", field)
+    assert any(words.lower() in m.lower() for m in problem["errors"][field]), problem["errors"]
+    batch = post_json(client, "/v1/batch", {"series": [body(**changes)]}).get_json()
+    assert batch["results"][0]["error"]["code"] == "invalid_data", batch["results"][0]
 
 
 def test_not_an_object_is_422(client):

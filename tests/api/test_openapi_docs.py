@@ -68,8 +68,11 @@ def test_fit_documents_request_response_and_problem_errors(spec):
         "/FitRequest")
     for status in ("200", "400", "413", "415", "422"):
         assert status in operation["responses"], status
-    problem = spec["components"]["responses"]["UNPROCESSABLE_ENTITY"]["content"]
-    assert "application/problem+json" in problem
+    for path in ("/v1/fit", "/v1/batch", "/v1/predict", "/v1/invert", "/v1/plot"):
+        problem = spec["paths"][path]["post"]["responses"]["422"]
+        assert problem["content"]["application/problem+json"]["schema"]["$ref"].endswith(
+            "/Problem"), path
+        assert problem["description"].startswith("Unprocessable Entity: "), path
     x = spec["components"]["schemas"]["FitRequest"]["properties"]["x"]
     assert x["type"] == "array" and "number" in x["items"]["type"]
 

@@ -112,3 +112,33 @@ def test_fit_frame_is_tidy_and_fit_dask_agrees(dose_series):
     got = lazy.compute().sort_values("plate").reset_index(drop=True)
     assert np.array_equal(got["est_ec50"].to_numpy(), out["est_ec50"].to_numpy())
     assert list(got.columns) == list(out.columns)
+
+
+def test_arrow_body_with_a_nonlinear_model(client, dose_series):
+    import io
+    from urllib.parse import quote
+
+    pa = pytest.importorskip("pyarrow")
+    rows = [(f"p{i}", a, b) for i, (x, y) in enumerate(dose_series)
+            for a, b in zip(x, y, strict=True)]
+    rows += [("short", 0.1, 50.0), ("short", 1.0, 10.0)]
+    table = pa.table({"id": [r[0] for r in rows], "x": [r[1] for r in rows],
+                      "y": [r[2] for r in rows]})
+    sink = io.BytesIO()
+    with pa.ipc.new_stream(sink, table.schema) as writer:
+        writer.write_table(table)
+    url = "/v1/batch?options=" + quote(orjson.dumps({"model": {"family": "logistic4"}}).decode())
+    arrow = "application/vnd.apache.arrow.stream"
+    answer = client.post(url, data=sink.getvalue(), content_type=arrow,
+                         headers={"Accept": arrow})
+    assert answer.status_code == 200, answer.data[:300]
+    got = pa.ipc.open_stream(answer.data).read_all().to_pylist()
+    assert [r["id"] for r in got] == [f"p{i}" for i in range(len(dose_series))] + ["short"]
+    for row, (x, y) in zip(got[:-1], dose_series, strict=True):
+        est, se = _single(client, x, y, {"family": "logistic4"})
+        assert _close([row[f"est_{n}"] for n in ("y_left", "y_right", "slope", "ec50")], est)
+        assert _close([row[f"se_{n}"] for n in ("y_left", "y_right", "slope", "ec50")], se)
+    assert got[-1]["status"] == "error" and got[-1]["error_code"] == "insufficient_design"
+    as_json = client.post(url, data=sink.getvalue(), content_type=arrow).get_json()
+    assert as_json["results"][0]["fit"]["family"] == "logistic4"
+    assert as_json["summary"]["ok"] == len(dose_series) and as_json["summary"]["error"] == 1

@@ -38,18 +38,38 @@ def test_pandas_entry_equals_in_process_batch():
     assert got.loc[5, "status"] == "error" and got.loc[5, "error_code"] == "invalid_data"
     assert got.loc[5, "error_field"] == "y[2]"
     ok = ref.ok
-    np.testing.assert_array_equal(got["coef_x"].to_numpy()[ok], ref.coefficients[ok, 1])
-    np.testing.assert_array_equal(got["se_intercept"].to_numpy()[ok], ref.std_errors[ok, 0])
+    np.testing.assert_array_equal(got["coef_1"].to_numpy()[ok], ref.coefficients[ok, 1])
+    np.testing.assert_array_equal(got["se_0"].to_numpy()[ok], ref.std_errors[ok, 0])
     np.testing.assert_array_equal(got["sigma"].to_numpy()[ok], ref.columns["sigma"][ok])
-    assert [tuple(f) for f in got["flags"][ok]] == [ref.flag_codes(i) for i in np.flatnonzero(ok)]
-    pairs = [tuple(zip(f, s, strict=True)) for f, s in zip(got["flags"][ok],
-                                                          got["flag_severities"][ok], strict=True)]
+    codes = [tuple(c.split(";")) if c else () for c in got["flag_codes"][ok]]
+    assert codes == [ref.flag_codes(i) for i in np.flatnonzero(ok)]
+    levels = [tuple(s.split(";")) if s else () for s in got["flag_severities"][ok]]
+    pairs = [tuple(zip(c, s, strict=True)) for c, s in zip(codes, levels, strict=True)]
     assert pairs == [ref.flag_severities(i) for i in np.flatnonzero(ok)]
-    for i in np.flatnonzero(ok):   # the most severe flag, or none
-        levels = set(got.loc[i, "flag_severities"])
+    for i, found in zip(np.flatnonzero(ok), levels, strict=True):   # the most severe, or none
         assert got.loc[i, "severity"] == next(
-            (s for s in ("serious", "caution", "info") if s in levels), "none")
-    assert got.loc[5, "severity"] is None   # the error row
+            (s for s in ("serious", "caution", "info") if s in found), "none")
+    assert pd.isna(got.loc[5, "severity"])   # the error row
+
+
+def test_frames_are_tidy_one_scalar_per_cell():
+    frame = _long_frame(30)
+    got = fit_frame(frame, model=MODEL)
+    assert "flags" not in got.columns      # pandas' DataFrame.flags would shadow it
+    powers = [f"coef_{k}" for k in range(4)] + [f"se_{k}" for k in range(4)]
+    assert set(powers) <= set(got.columns)
+    assert {"shapiro_wilk_p", "breusch_pagan_p", "durbin_watson_p", "lack_of_fit_p"} <= set(
+        got.columns)
+    for name in got.columns:
+        assert not any(isinstance(v, (tuple, list, dict, np.ndarray)) for v in got[name]), name
+    # coef_k multiplies x^k: beyond a row's degree it is missing, up to it present
+    ok = (got["status"] == "ok").to_numpy()
+    degree = got["degree"].to_numpy(dtype=float, na_value=np.nan)
+    for k in range(4):
+        have = got[f"coef_{k}"].notna().to_numpy()
+        np.testing.assert_array_equal(have[ok], (k <= degree)[ok])
+    no_intercept = fit_frame(frame, model=ModelSpec(degree=2, intercept=False))
+    assert no_intercept["coef_0"].isna().all() and no_intercept["coef_2"].notna().any()
 
 
 def test_pandas_entry_with_weights_and_text_values():
@@ -79,3 +99,55 @@ def test_dask_on_a_local_cluster_equals_in_process():
     got = got.sort_values("id").reset_index(drop=True)
     ref = ref.sort_values("id").reset_index(drop=True)
     pd.testing.assert_frame_equal(got, ref, check_dtype=False)
+
+
+@pytest.mark.timeout(60)
+def test_dask_results_write_to_parquet_as_the_docs_show(tmp_path):
+    # docs/scaling.md, "Large offline jobs: Dask": read points from Parquet, fit_dask,
+    # results.to_parquet; here on dask's synchronous scheduler instead of a cluster
+    dd = pytest.importorskip("dask.dataframe")
+    dask = pytest.importorskip("dask")
+    from service.core.batch.dask_support import fit_dask
+
+    frame = _long_frame(60, seed=14)
+    (tmp_path / "points").mkdir()
+    frame.iloc[: len(frame) // 2].to_parquet(tmp_path / "points" / "part-0.parquet")
+    frame.iloc[len(frame) // 2:].to_parquet(tmp_path / "points" / "part-1.parquet")
+    with dask.config.set(scheduler="synchronous"):
+        points = dd.read_parquet(str(tmp_path / "points" / "*.parquet"))
+        results = fit_dask(points, id="id", x="x", y="y", model=ModelSpec(max_degree=4))
+        results.to_parquet(str(tmp_path / "fits"))
+    back = pd.read_parquet(tmp_path / "fits").sort_values("id").reset_index(drop=True)
+    ref = fit_frame(frame, model=ModelSpec(max_degree=4)).sort_values("id").reset_index(
+        drop=True)
+    assert len(back) == 60 and (back["status"] == "error").sum() == 1   # lot-0005 has a NaN
+    pd.testing.assert_frame_equal(back, ref, check_dtype=False)
+
+
+def test_arrow_stream_in_chunks_equals_fit_frame(tmp_path):
+    # docs/scaling.md, "Streaming a long Arrow stream or file": an IPC stream on disk fitted
+    # chunk by chunk into a Parquet file; series cut across record batches and chunks
+    pa = pytest.importorskip("pyarrow")
+    import pyarrow.parquet as pq
+
+    from service.core.batch.arrow_stream import fit_arrow_stream
+
+    frame = _long_frame(45, seed=15)
+    table = pa.Table.from_pandas(frame, preserve_index=False)
+    with pa.OSFile(str(tmp_path / "points.arrows"), "wb") as sink, \
+            pa.ipc.new_stream(sink, table.schema) as writer:
+        writer.write_table(table, max_chunksize=113)     # record batches cut series apart
+    with pa.memory_map(str(tmp_path / "points.arrows")) as source:
+        reader = pa.ipc.open_stream(source)
+        writer, chunks = None, 0
+        for results in fit_arrow_stream(reader, model=MODEL, chunk_series=7):
+            # 7 series, plus at most the runs of one record batch (113 rows, series >= 20)
+            assert results.num_rows <= 7 + 113 // 20 + 1
+            chunks += 1
+            writer = writer or pq.ParquetWriter(str(tmp_path / "fits.parquet"), results.schema)
+            writer.write_table(results)
+        writer.close()
+    assert chunks >= 4
+    back = pq.read_table(tmp_path / "fits.parquet").to_pandas(
+        types_mapper={pa.int64(): pd.Int64Dtype()}.get)
+    pd.testing.assert_frame_equal(back, fit_frame(frame, model=MODEL))

@@ -15,6 +15,7 @@ import curvewise_client
 from curvewise_client import Client, WSGITransport
 assert curvewise_client.__file__.startswith({target!r}), curvewise_client.__file__
 heavy = sorted(m for m in ("numpy", "flask", "werkzeug", "scipy", "statsmodels", "pandas",
+                           "pyarrow",
                            "marshmallow", "service", "schemas") if m in sys.modules)
 print("loaded:", heavy)
 sys.exit(1 if heavy else 0)
@@ -42,4 +43,4 @@ def test_client_dependencies_are_declared_empty():
 
     meta = tomllib.loads((ROOT / "client" / "pyproject.toml").read_text())["project"]
     assert meta["dependencies"] == []
-    assert set(meta["optional-dependencies"]) == {"pandas"}
+    assert set(meta["optional-dependencies"]) == {"pandas", "arrow"}

@@ -37,11 +37,11 @@ def test_production_defaults():
 
 
 def test_worker_start_hook_loads_the_kernels_and_freezes_start_up_objects():
-    # In a fresh interpreter, as in a new gunicorn worker: after the hook the compiled
-    # kernels are loaded (a batch and a single fit ran) and the start-up objects are
-    # frozen (gc.freeze).
-    code = ("import gc; from service.runtime import gunicorn_conf; "
-            "gunicorn_conf.post_worker_init(None); "
+    # In a fresh interpreter, as in a new gunicorn worker: once the hook's warm-up has
+    # finished (in the background) the compiled kernels are loaded (a batch and a single
+    # fit ran) and the start-up objects are frozen (gc.freeze).
+    code = ("import gc; from service.runtime import gunicorn_conf, warming; "
+            "gunicorn_conf.post_worker_init(None); assert warming.wait(240); "
             "from service.core.batch import kernel as k; "
             "print(gc.get_freeze_count() > 10000, len(k.fit_rows.signatures) > 0)")
     out = subprocess.run([sys.executable, "-c", code], cwd=ROOT, capture_output=True, text=True,

@@ -191,3 +191,25 @@ def test_forged_curve_documents_get_answers_never_server_errors(api, logistic, f
                        ("/v1/invert", {"y": [0.0, 1.0, 1e300, -1e300, 2.0], "replicates": 3})):
         answer = post_json(api, path, {"fitted_model": doc, **body})
         assert answer.status_code in (200, 422), answer.data[:300]
+
+
+@pytest.mark.parametrize("slope", [0.7, 2.5])  # dy/dx at a zero dose: infinite, or zero
+def test_a_log_dose_logistic_with_a_zero_dose_blank_is_monotone(slope):
+    # the curve is strictly monotone on [0, x_max] (numpy: its values strictly increase on a
+    # dense grid) although its slope is infinite or zero at x = 0; a reading on the curve
+    # reads back to the x that produced it
+    from service.core import ModelSpec, fit_series
+    from service.core.models.curve_inverse import invert_curve
+    from tests.core.nonlinear.builtin_designs import log4
+
+    rng = np.random.default_rng(41)
+    x = np.repeat(np.concatenate([[0.0], np.geomspace(0.01, 100, 9)]), 2)
+    y = log4(x, 0.1, 2.0, slope, 1.0) + rng.normal(0, 0.02, x.size)
+    fitted = fit_series(x, y, model=ModelSpec(family="logistic4", scale="log")).model
+    dense = np.concatenate([[0.0], np.geomspace(0.01, 100, 4001)])
+    assert np.all(np.diff(log4(dense, *fitted.estimates)) > 0)
+    x0 = np.array([0.5, 1.0, 1.5])  # away from both plateaus: bounded intervals
+    out = invert_curve(fitted, log4(x0, *fitted.estimates))
+    assert out.monotone is True and out.turning_points == ()
+    assert [e.status for e in out.estimates] == ["ok"] * 3
+    np.testing.assert_allclose([e.x for e in out.estimates], x0, rtol=1e-9)

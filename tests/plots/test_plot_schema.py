@@ -13,6 +13,7 @@ from service.plots.options import BASE_SIZE
 def test_names_and_limits_are_the_same_on_both_sides():
     assert wire.PANELS == figures.PANELS
     assert wire.FORMATS == figures.FORMATS
+    assert wire.X_SCALES == figures.X_SCALES
     assert (wire.MIN_PIXELS, wire.MAX_PIXELS, wire.MAX_AREA) == (
         figures.MIN_PIXELS, figures.MAX_PIXELS, figures.MAX_AREA)
     assert (wire.MIN_DPI, wire.MAX_DPI, wire.MAX_LABEL) == (

@@ -7,7 +7,36 @@ from dataclasses import MISSING, fields
 from types import MappingProxyType
 from typing import Any
 
-EMPTY: Mapping[str, Any] = MappingProxyType({})
+from curvewise_client.errors import ProtocolError
+
+
+class FrozenDict(dict):
+    """A read-only ``dict``: ``json.dumps`` and pandas take it as it is; changing it raises.
+
+    Decoded JSON objects inside results are ``FrozenDict`` and arrays are tuples, so a
+    result cannot be changed after it is built and still serializes with ``json.dumps``.
+    ``dict(value)`` (or :func:`thaw` for a deep copy) gives an ordinary, editable dict.
+    """
+
+    __slots__ = ()
+
+    def _read_only(self, *args: Any, **kwargs: Any) -> Any:
+        raise TypeError("results are read-only: copy with dict(value) or thaw(value) to edit")
+
+    __setitem__ = __delitem__ = __ior__ = _read_only
+    clear = pop = popitem = setdefault = update = _read_only
+
+    def __reduce__(self) -> tuple:  # pickle and copy rebuild it whole, never item by item
+        return (FrozenDict, (dict(self),))
+
+    def __copy__(self) -> FrozenDict:
+        return self
+
+    def __deepcopy__(self, memo: dict) -> FrozenDict:
+        return self
+
+
+EMPTY: Mapping[str, Any] = FrozenDict()
 
 
 def empty_mapping() -> Mapping[str, Any]:
@@ -19,16 +48,16 @@ _CONTAINERS = (dict, list, tuple, MappingProxyType)
 
 
 def freeze(value: Any) -> Any:
-    """Deep read-only copy of decoded JSON (dict -> mapping proxy, list -> tuple).
+    """Deep read-only copy of decoded JSON (dict -> :class:`FrozenDict`, list -> tuple).
 
     Already-frozen mappings are returned as they are; arrays of plain values
     (the common case: numbers) become tuples without visiting each element twice.
     """
-    if isinstance(value, MappingProxyType):
+    if type(value) is FrozenDict:
         return value
     if isinstance(value, Mapping):
-        return MappingProxyType({k: freeze(v) if isinstance(v, _CONTAINERS) else v
-                                 for k, v in value.items()})
+        return FrozenDict({k: freeze(v) if isinstance(v, _CONTAINERS) else v
+                           for k, v in value.items()})
     if isinstance(value, (list, tuple)):
         if any(isinstance(v, _CONTAINERS) for v in value):
             return tuple(freeze(v) for v in value)
@@ -69,7 +98,7 @@ def build(cls: type, data: Mapping[str, Any] | None) -> Any:
     if data is None:
         return None
     if not isinstance(data, Mapping):
-        raise TypeError(f"{cls.__name__}: expected a JSON object, got {type(data).__name__}")
+        raise ProtocolError(f"{cls.__name__}: expected a JSON object, got {type(data).__name__}")
     data = freeze(data)
     converters = CONVERT.get(cls, {})
     kwargs: dict[str, Any] = {}
@@ -85,6 +114,7 @@ def build(cls: type, data: Mapping[str, Any] | None) -> Any:
         convert = converters.get(f.name)
         kwargs[f.name] = convert(value) if (convert and value is not None) else value
     return cls(**kwargs)
+
 
 def of(cls: type) -> Callable[[Any], Any]:
     """A converter building ``cls`` from one JSON object."""

@@ -9,10 +9,11 @@ from typing import Any
 from curvewise_client.errors import Problem
 from curvewise_client.results.base import build, empty_mapping, items, of, register
 from curvewise_client.results.fit import FitResult
+from curvewise_client.results.plain import Result
 
 
-@dataclass(frozen=True, slots=True)
-class BatchItem:
+@dataclass(frozen=True, slots=True, repr=False)
+class BatchItem(Result):
     """One series of a batch: ``status`` ``"ok"`` with ``fit``, or ``"error"`` with ``error``."""
 
     id: Any = None
@@ -39,8 +40,8 @@ class BatchItem:
         return None if self.fit is None else build(FitResult, self.fit)
 
 
-@dataclass(frozen=True, slots=True)
-class BatchResult:
+@dataclass(frozen=True, slots=True, repr=False)
+class BatchResult(Result):
     """The answer of ``POST /v1/batch`` (JSON form), results in request order."""
 
     results: tuple[BatchItem, ...] = ()

@@ -7,10 +7,11 @@ from dataclasses import dataclass, field
 from typing import Any
 
 from curvewise_client.results.base import empty_mapping, items, of, register
+from curvewise_client.results.plain import Result
 
 
-@dataclass(frozen=True, slots=True)
-class ModelInfo:
+@dataclass(frozen=True, slots=True, repr=False)
+class ModelInfo(Result):
     """The fitted model: family, degree and term names in order."""
 
     family: str | None = None
@@ -23,8 +24,8 @@ class ModelInfo:
     weighting: str | None = None
 
 
-@dataclass(frozen=True, slots=True)
-class Coefficient:
+@dataclass(frozen=True, slots=True, repr=False)
+class Coefficient(Result):
     """One coefficient in the raw x scale (or a nonlinear parameter by name), with its
     confidence limits; nonlinear fits add profile-likelihood limits and their status."""
 
@@ -41,8 +42,8 @@ class Coefficient:
     profile_upper_status: str | None = None
 
 
-@dataclass(frozen=True, slots=True)
-class FitInfo:
+@dataclass(frozen=True, slots=True, repr=False)
+class FitInfo(Result):
     """How a nonlinear fit was started, how it converged and why it stopped."""
 
     started_from: str | None = None
@@ -61,8 +62,8 @@ class FitInfo:
     condition_number: float | None = None
 
 
-@dataclass(frozen=True, slots=True)
-class AnovaRow:
+@dataclass(frozen=True, slots=True, repr=False)
+class AnovaRow(Result):
     """One row of the sequential table; the residual row has no ``f``/``p_value``."""
 
     term: str
@@ -73,8 +74,8 @@ class AnovaRow:
     p_value: float | None = None
 
 
-@dataclass(frozen=True, slots=True)
-class Statistics:
+@dataclass(frozen=True, slots=True, repr=False)
+class Statistics(Result):
     """Whole-fit statistics (``None`` where undefined or not sent)."""
 
     n: int | None = None
@@ -98,8 +99,8 @@ class Statistics:
     condition_number: float | None = None
 
 
-@dataclass(frozen=True, slots=True)
-class Candidate:
+@dataclass(frozen=True, slots=True, repr=False)
+class Candidate(Result):
     """One candidate degree in the selection trail, with every criterion."""
 
     degree: int
@@ -116,8 +117,8 @@ class Candidate:
     p_last: float | None = None
 
 
-@dataclass(frozen=True, slots=True)
-class Selection:
+@dataclass(frozen=True, slots=True, repr=False)
+class Selection(Result):
     """How the degree was chosen, with the candidate trail."""
 
     method: str | None = None
@@ -127,8 +128,8 @@ class Selection:
     alpha: float | None = None
 
 
-@dataclass(frozen=True, slots=True)
-class Grid:
+@dataclass(frozen=True, slots=True, repr=False)
+class Grid(Result):
     """The fitted curve and its bands on the requested grid (aligned tuples)."""
 
     x: tuple[float, ...] = ()
@@ -145,16 +146,16 @@ class Grid:
     level: float | None = None
 
 
-@dataclass(frozen=True, slots=True)
-class Notice:
+@dataclass(frozen=True, slots=True, repr=False)
+class Notice(Result):
     """A warning about the data or the numerics (``code`` is stable snake_case)."""
 
     code: str
     message: str = ""
 
 
-@dataclass(frozen=True, slots=True)
-class TrustFlag:
+@dataclass(frozen=True, slots=True, repr=False)
+class TrustFlag(Result):
     """A plain-language reason to be careful with this fit, with the numbers behind it."""
 
     code: str
@@ -163,8 +164,8 @@ class TrustFlag:
     evidence: Mapping[str, Any] = field(default_factory=empty_mapping)
 
 
-@dataclass(frozen=True, slots=True)
-class TestResult:
+@dataclass(frozen=True, slots=True, repr=False)
+class TestResult(Result):
     """A formal assumption test (e.g. ``shapiro_wilk``)."""
 
     name: str
@@ -174,8 +175,8 @@ class TestResult:
     note: str = ""
 
 
-@dataclass(frozen=True, slots=True)
-class Diagnostics:
+@dataclass(frozen=True, slots=True, repr=False)
+class Diagnostics(Result):
     """Per-point residual forms and influence (aligned with ``index``), tests, flagged points."""
 
     index: tuple[int, ...] = ()
@@ -194,7 +195,50 @@ class Diagnostics:
 
 
 @dataclass(frozen=True, slots=True)
-class FitResult:
+class ComparedModel:
+    """One candidate of a comparison of model families (NaN/None where it failed)."""
+
+    label: str
+    family: str | None = None
+    n_parameters: int | None = None
+    rss: float | None = None
+    df_residual: int | None = None
+    sigma: float | None = None
+    aic: float | None = None
+    aicc: float | None = None
+    bic: float | None = None
+    converged: bool | None = None
+    flags: tuple[str, ...] = ()
+    error: str | None = None
+
+
+@dataclass(frozen=True, slots=True)
+class NestedTest:
+    """Extra-sum-of-squares F test of a candidate against a richer one containing it."""
+
+    simpler: str
+    richer: str
+    f: float | None = None
+    df_numerator: int | None = None
+    df_denominator: int | None = None
+    p_value: float | None = None
+
+
+@dataclass(frozen=True, slots=True)
+class Comparison:
+    """How ``model.candidates`` were compared, and which one the report is about."""
+
+    select: str | None = None
+    alpha: float | None = None
+    chosen: str | None = None
+    chosen_index: int | None = None
+    reason: str = ""
+    candidates: tuple[ComparedModel, ...] = ()
+    nested_tests: tuple[NestedTest, ...] = ()
+
+
+@dataclass(frozen=True, slots=True, repr=False)
+class FitResult(Result):
     """The answer of ``POST /v1/fit``.
 
     ``fitted_model`` is the portable document: store it as it is and hand it
@@ -216,6 +260,7 @@ class FitResult:
     warnings: tuple[Notice, ...] = ()
     flags: tuple[TrustFlag, ...] = ()
     fitted_model: Mapping[str, Any] | None = None
+    comparison: Comparison | None = None
     raw: Mapping[str, Any] = field(default_factory=empty_mapping)
 
     @property
@@ -230,6 +275,7 @@ class FitResult:
 register(FitResult, model=of(ModelInfo), coefficients=items(of(Coefficient)),
          anova=items(of(AnovaRow)), statistics=of(Statistics), selection=of(Selection),
          grid=of(Grid), diagnostics=of(Diagnostics), warnings=items(of(Notice)),
-         flags=items(of(TrustFlag)), fit_info=of(FitInfo))
+         flags=items(of(TrustFlag)), fit_info=of(FitInfo), comparison=of(Comparison))
+register(Comparison, candidates=items(of(ComparedModel)), nested_tests=items(of(NestedTest)))
 register(Selection, candidates=items(of(Candidate)))
 register(Diagnostics, tests=items(of(TestResult)))

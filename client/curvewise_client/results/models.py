@@ -7,10 +7,11 @@ from dataclasses import dataclass, field
 from typing import Any
 
 from curvewise_client.results.base import empty_mapping, of, register, rows
+from curvewise_client.results.plain import Result
 
 
-@dataclass(frozen=True, slots=True)
-class PredictionRow:
+@dataclass(frozen=True, slots=True, repr=False)
+class PredictionRow(Result):
     """Fitted value and bands at one new x."""
 
     x: float | None = None
@@ -26,8 +27,8 @@ class PredictionRow:
     unbounded: bool | None = None
 
 
-@dataclass(frozen=True, slots=True)
-class Predictions:
+@dataclass(frozen=True, slots=True, repr=False)
+class Predictions(Result):
     """The answer of ``POST /v1/predict``."""
 
     predictions: tuple[PredictionRow, ...] = ()
@@ -37,8 +38,8 @@ class Predictions:
     raw: Mapping[str, Any] = field(default_factory=empty_mapping)
 
 
-@dataclass(frozen=True, slots=True)
-class Estimate:
+@dataclass(frozen=True, slots=True, repr=False)
+class Estimate(Result):
     """An x read back from one observed y (``status`` is ``"ok"`` or why not)."""
 
     y: float | None = None
@@ -57,7 +58,18 @@ class Estimate:
 
 
 @dataclass(frozen=True, slots=True)
-class Estimates:
+class WorkingRange:
+    """The x range where the CV of a back-calculated x stays at or under ``cv_limit``
+    (logistic4/logistic5 calibrations; a computed guide, not a validated limit)."""
+
+    cv_limit: float | None = None
+    replicates: int | None = None
+    lower: float | None = None
+    upper: float | None = None
+
+
+@dataclass(frozen=True, slots=True, repr=False)
+class Estimates(Result):
     """The answer of ``POST /v1/invert``."""
 
     estimates: tuple[Estimate, ...] = ()
@@ -67,9 +79,10 @@ class Estimates:
     x_min: float | None = None
     x_max: float | None = None
     calibration: Mapping[str, Any] | None = None
+    working_range: WorkingRange | None = None
     raw: Mapping[str, Any] = field(default_factory=empty_mapping)
 
 
 
 register(Predictions, predictions=rows(of(PredictionRow)))
-register(Estimates, estimates=rows(of(Estimate)))
+register(Estimates, estimates=rows(of(Estimate)), working_range=of(WorkingRange))

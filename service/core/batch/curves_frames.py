@@ -10,16 +10,19 @@ are the groups of ``df[id]`` in order of first appearance, points in row order.
 The result is tidy (one scalar per cell, Parquet-ready): ``id``, ``status``,
 ``est_<parameter>`` and ``se_<parameter>`` by parameter name, the columns of
 :data:`~service.core.batch.curves_results.CURVE_SCALARS` (without the flag bit
-masks), ``severity`` (the most severe flag: serious, caution, info, or none),
-``flag_codes`` (the flag codes joined by commas, "" without flags), and the error
-columns ``error_code``, ``error_field``, ``error`` (message and fix). Error rows
-hold missing values elsewhere.
+masks), then as in :mod:`service.core.batch.tidy`: ``flag_codes`` (``;``-joined, ""
+without flags), ``flag_severities`` (their severities in the same order), ``severity``
+(the most severe: serious, caution, info, or none) and the error columns
+``error_code``, ``error_field``, ``error`` (message and fix). Error rows hold missing
+values elsewhere. :func:`curve_result_table` gives the same columns as an Arrow table
+(the Arrow answers of ``/v1/batch``).
 """
 
 from __future__ import annotations
 
 import numpy as np
 import pandas as pd
+import pyarrow as pa
 
 from service.core.batch.curves import fit_many_curves
 from service.core.batch.curves_results import CURVE_SCALARS, CurveBatchResult
@@ -76,19 +79,36 @@ def curve_result_frame(result: CurveBatchResult, ids) -> pd.DataFrame:
             out[name] = pd.Series([v if k else None for v, k in zip(col, ok, strict=True)],
                                   dtype=object)
     flagged = [result.flag_severities(i) if ok[i] else () for i in range(G)]
-    out["severity"] = [_worst(f) if ok[i] else None for i, f in enumerate(flagged)]
-    out["flag_codes"] = [",".join(code for code, _ in f) if ok[i] else None
+    out["flag_codes"] = [";".join(code for code, _ in f) if ok[i] else None
                          for i, f in enumerate(flagged)]
+    out["flag_severities"] = [";".join(level for _, level in f) if ok[i] else None
+                              for i, f in enumerate(flagged)]
+    out["severity"] = [_worst(f) if ok[i] else None for i, f in enumerate(flagged)]
     errors = result.errors
     out["error_code"] = [errors[i].code if i in errors else None for i in range(G)]
     out["error_field"] = [errors[i].field if i in errors else None for i in range(G)]
     out["error"] = [(errors[i].message + (f" Fix: {errors[i].fix}" if errors[i].fix else ""))
                     if i in errors else None for i in range(G)]
     frame = pd.DataFrame({k: (list(v) if isinstance(v, pd.Series) else v) for k, v in out.items()})
-    for name in (id_name, "status", "termination", "start_strategy", "severity", "flag_codes",
-                 "error_code", "error_field", "error"):
+    for name in (id_name, "status", "termination", "start_strategy", "flag_codes",
+                 "flag_severities", "severity", "error_code", "error_field", "error"):
         frame[name] = pd.Series(list(out[name]), dtype=object, index=frame.index)
     return frame
+
+
+def curve_result_table(result: CurveBatchResult, ids=None, id_name: str = "id") -> pa.Table:
+    """The tidy columns of :func:`curve_result_frame` as an Arrow table (no id column when
+    ``ids`` is None)."""
+    G = len(result)
+    frame = curve_result_frame(result, pd.Index(np.zeros(G) if ids is None else
+                                                (ids.to_pylist() if isinstance(ids, pa.Array)
+                                                 else list(ids)), name=id_name))
+    if ids is None:
+        frame = frame.drop(columns=[id_name])
+    table = pa.Table.from_pandas(frame, preserve_index=False)
+    if isinstance(ids, pa.Array):
+        table = table.set_column(0, id_name, ids)
+    return table
 
 
 def _worst(flags) -> str:

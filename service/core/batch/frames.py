@@ -10,7 +10,8 @@ their row order within a series (Durbin-Watson reads them in that order).
 Values that are not numbers become missing values and follow
 ``options.missing``. The result has one row per series, in that order, with
 ``status`` "ok" or "error"; error rows carry ``error_code``,
-``error_field`` and ``error`` (message and fix) and NaN elsewhere.
+``error_field`` and ``error`` (message and fix) and NaN elsewhere. The columns are those
+of :mod:`service.core.batch.tidy`, as the Arrow answer of ``/v1/batch`` has them.
 """
 
 from __future__ import annotations
@@ -21,16 +22,12 @@ import pandas as pd
 from service.core.batch.curves_frames import fit_curve_frame
 from service.core.batch.driver import fit_many
 from service.core.batch.results import BatchResult
-from service.core.polynomial.design import term_names
+from service.core.batch.tidy import RESULT_SCALARS, result_table, table_frame
 from service.core.spec import FitOptions, ModelSpec
 
+__all__ = ["RESULT_SCALARS", "fit_frame", "result_frame"]
 _MODEL = ModelSpec()
 _OPTIONS = FitOptions()
-RESULT_SCALARS = ("n", "degree", "df_residual", "sigma", "r_squared", "adj_r_squared", "rss",
-                  "aic", "aicc", "bic", "press", "shapiro_wilk_p", "breusch_pagan_p",
-                  "durbin_watson", "durbin_watson_p", "lack_of_fit_p", "n_outliers",
-                  "n_influential", "n_high_leverage")
-SEVERITY_ORDER = ("serious", "caution", "info")
 
 
 def _numeric(series: pd.Series) -> np.ndarray:
@@ -57,17 +54,18 @@ def fit_frame(df: pd.DataFrame, id: str = "id", x: str = "x", y: str = "y",  # n
     Returns
     -------
     pandas.DataFrame
-        One row per series: ``id``, ``status``, the columns of :data:`RESULT_SCALARS`,
-        ``coef_<term>`` and ``se_<term>`` for every term up to the largest degree
-        (NaN beyond a row's degree), ``flags`` (tuple of codes), ``flag_severities`` (their
-        severities, in the same order), ``severity`` (the most severe: serious, caution,
-        info, or none without flags; None on error rows), and the error columns.
+        Tidy, one scalar per cell (:mod:`service.core.batch.tidy`): ``id``, ``status``,
+        the columns of :data:`RESULT_SCALARS`, ``coef_k`` and ``se_k`` (``k`` the power of
+        x, up to the model's largest degree; NaN where ``x^k`` is not in a row's model),
+        ``flag_codes`` and ``flag_severities`` (``;``-joined, same order), ``severity``
+        (the most severe: serious, caution, info, or none), and ``error_code``,
+        ``error_field``, ``error``.
     """
     if model.family != "polynomial":  # nonlinear families: tidy per-parameter columns
         return fit_curve_frame(df, id, x, y, weight, model=model, options=options, workers=workers)
-    codes, uniques = pd.factorize(df[id], sort=False) if len(df) else (np.empty(0, int), [])
+    codes, uniques = pd.factorize(df[id], sort=False)
     order = np.argsort(codes, kind="stable")
-    lengths = np.bincount(codes, minlength=len(uniques)) if len(df) else np.empty(0, int)
+    lengths = np.bincount(codes, minlength=len(uniques))
     xs = _numeric(df[x])[order]
     ys = _numeric(df[y])[order]
     ws = None if weight is None else _numeric(df[weight])[order]
@@ -76,39 +74,8 @@ def fit_frame(df: pd.DataFrame, id: str = "id", x: str = "x", y: str = "y",  # n
 
 
 def result_frame(result: BatchResult, ids, model: ModelSpec = _MODEL) -> pd.DataFrame:
-    """The columnar :class:`BatchResult` as a DataFrame (see :func:`fit_frame`)."""
-    G = len(result)
+    """The columnar :class:`BatchResult` as a tidy DataFrame (see :func:`fit_frame`)."""
     id_name = getattr(ids, "name", None) or "id"
-    out = {id_name: np.asarray(ids, dtype=object) if G else np.empty(0, dtype=object),
-           "status": np.where(result.ok, "ok", "error").astype(object)}
-    for name in RESULT_SCALARS:
-        col = result.columns[name]
-        if col.dtype.kind == "f":
-            out[name] = np.where(result.ok, col, np.nan)
-        else:
-            out[name] = pd.arrays.IntegerArray(np.where(result.ok, col, 0), ~result.ok)
-    top = model.degree if model.degree is not None else (model.max_degree or 3)
-    terms = term_names(max(top, 0), model.intercept)
-    width = min(len(terms), result.coefficients.shape[1])
-    for j, term in enumerate(terms[:width]):
-        out[f"coef_{term}"] = result.coefficients[:, j]
-        out[f"se_{term}"] = result.std_errors[:, j]
-    flagged = [result.flag_severities(i) if result.ok[i] else () for i in range(G)]
-    out["flags"] = [tuple(code for code, _ in f) for f in flagged]
-    out["flag_severities"] = [tuple(level for _, level in f) for f in flagged]
-    out["severity"] = [_worst(f) if result.ok[i] else None for i, f in enumerate(flagged)]
-    errors = result.errors
-    out["error_code"] = [errors[i].code if i in errors else None for i in range(G)]
-    out["error_field"] = [errors[i].field if i in errors else None for i in range(G)]
-    out["error"] = [(errors[i].message + (f" Fix: {errors[i].fix}" if errors[i].fix else ""))
-                    if i in errors else None for i in range(G)]
-    frame = pd.DataFrame(out)
-    for name in (id_name, "status", "flags", "flag_severities", "severity", "error_code",
-                 "error_field", "error"):
-        frame[name] = pd.Series(list(out[name]), dtype=object, index=frame.index)
+    frame = table_frame(result_table(result, None, model))
+    frame.insert(0, id_name, pd.Index(ids))
     return frame
-
-
-def _worst(flags) -> str:
-    found = {level for _, level in flags}
-    return next((level for level in SEVERITY_ORDER if level in found), "none")

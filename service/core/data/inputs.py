@@ -12,8 +12,8 @@ from typing import NamedTuple
 import numpy as np
 
 from service.core.data.pair_summary import pair_summary
-from service.core.errors import DataError, SpecError
-from service.core.spec import MISSING_POLICIES, SECTIONS, FitOptions
+from service.core.errors import DataError, SpecError, also_at
+from service.core.spec import MISSING_POLICIES, SECTIONS, WEIGHTINGS, FitOptions
 
 
 class CleanData(NamedTuple):
@@ -82,8 +82,9 @@ def clean_data(x, y, weights, missing: str) -> CleanData:
     for name, arr in arrays:
         bad = np.isinf(arr)
         if bad.any():
-            i = int(np.flatnonzero(bad)[0])
-            raise DataError(f"{name}[{i}] is infinite.", field=f"{name}[{i}]",
+            where = np.flatnonzero(bad)
+            i = int(where[0])
+            raise DataError(f"{name}[{i}] is infinite.{also_at(where)}", field=f"{name}[{i}]",
                             fix="Replace it with a finite number, or with null to mark it missing.")
     isnan = np.isnan(xa) | np.isnan(ya)
     if wa is not None:
@@ -92,9 +93,11 @@ def clean_data(x, y, weights, missing: str) -> CleanData:
     dropped: tuple[int, ...] = ()
     if isnan.any():
         if missing == "error":
-            i = int(np.flatnonzero(isnan)[0])  # first incomplete pair; x before y before weights
+            where = np.flatnonzero(isnan)  # incomplete pairs; x before y before weights
+            i = int(where[0])
             name = next(name for name, arr in arrays if np.isnan(arr[i]))
-            raise DataError(f"{name}[{i}] is missing (null or NaN).", field=f"{name}[{i}]",
+            raise DataError(f"{name}[{i}] is missing (null or NaN).{also_at(where)}",
+                            field=f"{name}[{i}]",
                             fix='Supply the value, remove the pair, or set missing = "drop" '
                                 "to drop incomplete pairs (their indices are reported).")
         keep = ~isnan
@@ -132,8 +135,9 @@ def check_weight_ratio(w: np.ndarray) -> None:
 
 
 def _bad_weight(wa: np.ndarray, index: np.ndarray, weights) -> None:
-    i = int(index[np.flatnonzero(wa <= 0)[0]])
-    raise DataError(f"weights[{i}] = {float(weights[i])!r} is not positive.",
+    where = index[np.flatnonzero(wa <= 0)]
+    i = int(where[0])
+    raise DataError(f"weights[{i}] = {float(weights[i])!r} is not positive.{also_at(where)}",
                     field=f"weights[{i}]",
                     fix="Weights are inverse variances (1/sd^2) and must be > 0; drop the "
                         "point instead of giving it weight 0.")
@@ -177,10 +181,12 @@ def check_magnitude(values: np.ndarray, field: str, index: np.ndarray, what: str
     mags = np.abs(values)
     big = mags > limit
     if big.any():
-        i = int(np.flatnonzero(big)[0])
+        positions = np.flatnonzero(big)
+        i = int(positions[0])
         where = f" {what}" if what else ""
         raise DataError(f"{field}[{int(index[i])}] = {values[i]:g} is too large in magnitude"
-                        f"{where} (limit {limit:.3g} for {values.size} points).",
+                        f"{where} (limit {limit:.3g} for {values.size} points)."
+                        f"{also_at(index[positions])}",
                         field=f"{field}[{int(index[i])}]",
                         fix=f"Rescale {field} (change its units) so its values are moderate.")
     if 0.0 < top < TINY_LIMIT:
@@ -209,3 +215,6 @@ def check_options(options: FitOptions) -> None:
     if unknown:
         raise SpecError(f"Unknown section(s) in include: {sorted(unknown)}.", field="include",
                         fix=f"Use names from {', '.join(SECTIONS)}.")
+    if options.weighting not in WEIGHTINGS:
+        raise SpecError(f"Unknown weighting {options.weighting!r}.", field="weighting",
+                        fix=f"Use one of {', '.join(WEIGHTINGS)}.")

@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from service.core.errors import TransformError
+from service.core.errors import TransformError, also_at
 
 # name -> (forward, inverse, domain test, domain in words, increasing?)
 _FORWARD = {
@@ -80,10 +80,12 @@ def apply(name: str, values: np.ndarray, *, field: str,
     pos = first_outside(name, values)
     if pos is not None:
         words = domain_words(name)
-        orig = int(index[pos]) if index is not None else pos
+        outside = np.flatnonzero(~_DOMAIN[name][0](values))
+        originals = index[outside] if index is not None else outside
+        orig = int(originals[0])
         raise TransformError(
             f"{field}[{orig}] = {float(values[pos])!r} is outside the domain of the {name} "
-            f"transform (values must be {words}).",
+            f"transform (values must be {words}).{also_at(originals)}",
             field=f"{field}[{orig}]",
             fix=f"Remove or correct that value, or choose transform_{field} = \"none\" "
                 f"or another transform whose domain covers your data.")

@@ -20,20 +20,30 @@ import numpy as np
 CHECKSUM_PREFIX = "sha256:"
 
 
-def checksum(body: Mapping[str, Any]) -> str:
-    """The ``sha256:<hex>`` checksum of a document's canonical form (``checksum`` excluded)."""
-    return CHECKSUM_PREFIX + hashlib.sha256(canonical_bytes(body)).hexdigest()
+def checksum(body: Mapping[str, Any], *, written: bool = False) -> str:
+    """The ``sha256:<hex>`` checksum of a document's canonical form (``checksum`` excluded).
+
+    ``written=True``: every float of ``body`` came from :func:`to_float`, :func:`to_vector`
+    or :func:`to_matrix` (a writer's own body), so negative zeros are gone already.
+    """
+    return CHECKSUM_PREFIX + hashlib.sha256(canonical_bytes(body, written=written)).hexdigest()
 
 
-def canonical_bytes(body: Mapping[str, Any]) -> bytes:
+def canonical_bytes(body: Mapping[str, Any], *, written: bool = False) -> bytes:
     """Canonical JSON of every field but ``checksum``: sorted keys, no spaces, float repr.
 
     Negative zero is written as ``0.0`` (many JSON tools drop the sign of zero).
     """
-    payload = {key: _unsigned_zero(value) for key, value in body.items() if key != "checksum"}
-    text = json.dumps(payload, sort_keys=True, separators=(",", ":"), ensure_ascii=True,
-                      allow_nan=False)
-    return text.encode("ascii")
+    if written:
+        payload = {key: value for key, value in body.items() if key != "checksum"}
+    else:
+        payload = {key: _unsigned_zero(value) for key, value in body.items()
+                   if key != "checksum"}
+    return _CANONICAL.encode(payload).encode("ascii")
+
+
+_CANONICAL = json.JSONEncoder(sort_keys=True, separators=(",", ":"), ensure_ascii=True,
+                              allow_nan=False)
 
 
 def to_float(value) -> float | None:
@@ -45,16 +55,28 @@ def to_float(value) -> float | None:
 def _unsigned_zero(value):
     if isinstance(value, float):
         return value + 0.0
-    if isinstance(value, list):
-        return [_unsigned_zero(item) for item in value]
+    if isinstance(value, list):  # floats inline: a document holds a few hundred of them
+        return [item + 0.0 if type(item) is float else _unsigned_zero(item) for item in value]
     return value
 
 
 def to_vector(values) -> list:
     """A flat list of :func:`to_float` values."""
-    return [to_float(v) for v in np.asarray(values, dtype=float).ravel()]
+    array = np.asarray(values, dtype=float).ravel() + 0.0  # + 0.0 turns -0.0 into 0.0
+    return _with_none(array)
 
 
 def to_matrix(values) -> list:
     """A list of rows of :func:`to_float` values (at least 2-D)."""
-    return [to_vector(row) for row in np.atleast_2d(np.asarray(values, dtype=float))]
+    array = np.atleast_2d(np.asarray(values, dtype=float))
+    if array.ndim > 2:  # each row flattened, as to_vector does
+        array = array.reshape(array.shape[0], int(np.prod(array.shape[1:])))
+    return _with_none(array + 0.0)  # + 0.0 turns -0.0 into 0.0
+
+
+def _with_none(array: np.ndarray) -> list:
+    """``array.tolist()`` (Python floats, nested for 2-D) with NaN and infinities as ``None``."""
+    if np.isfinite(array).all():
+        return array.tolist()
+    return [_with_none(row) if np.ndim(row) else (float(row) if np.isfinite(row) else None)
+            for row in array]

@@ -144,6 +144,7 @@ class CurveReader(DocumentReader):
     """Field-by-field validation of a schema_version 2 document, naming the field."""
 
     fields = CURVE_FIELDS
+    optional_fields = {}
 
     def read(self) -> dict:
         doc = self.doc

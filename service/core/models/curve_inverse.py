@@ -27,11 +27,12 @@ from __future__ import annotations
 import math
 
 import numpy as np
-from scipy import optimize
+from scipy import optimize, special
 
 from service.core.errors import DataError, SpecError
 from service.core.models.inverse import InverseEstimate, Inversion, _replicates
 from service.core.nonlinear.analysis import predict
+from service.core.nonlinear.problem import MODEL_FAILURES
 from service.core.nonlinear.report import FittedCurve
 
 GRID_POINTS = 2049
@@ -103,11 +104,17 @@ class _CurveReader:
         self.grid = _grid(self.lo, self.hi)
         self.values = self.f(self.grid)
         slope = sensitivity(fitted, self.grid)
-        finite = np.all(np.isfinite(self.values)) and np.all(np.isfinite(slope))
-        signs = np.sign(slope)
-        self.monotone = bool(finite and (np.all(signs > 0) or np.all(signs < 0)))
+        # the slope may vanish or be unbounded at an end of the range without the curve
+        # ceasing to be strictly monotone there (a log-dose logistic at a zero dose: 0 for
+        # slope > 1, infinite for slope < 1); the inner grid must keep one strict sign
+        finite = np.all(np.isfinite(self.values)) and np.all(np.isfinite(slope[1:-1]))
+        inner = np.sign(slope[1:-1])
+        ends = np.nan_to_num(np.sign(slope[[0, -1]]), nan=0.0)
+        self.monotone = bool(finite and ((np.all(inner > 0) and np.all(ends >= 0))
+                                         or (np.all(inner < 0) and np.all(ends <= 0))))
         self.turning_points = self._turning(slope) if finite else ()
         self._bands: dict[int, tuple[np.ndarray, np.ndarray]] = {}
+        self.crit = _critical_value(fitted, level)
 
     def f(self, x) -> np.ndarray:
         return self.fitted.model.values(np.atleast_1d(np.asarray(x, dtype=float)),
@@ -139,7 +146,7 @@ class _CurveReader:
     def _outside_root(self, y0: float) -> float | None:
         """The nearest x beyond the range where the curve reaches ``y0``, or None."""
         for end, ladder in ((self.lo, self._ladder(-1)), (self.hi, self._ladder(+1))):
-            found = _first_crossing(end, ladder, lambda x: float(self.f([x])[0] - y0))
+            found = _first_crossing(end, ladder, lambda x: self.f(x) - y0)
             if found is not None:
                 return found
         return None
@@ -163,11 +170,27 @@ class _CurveReader:
             self._bands[m] = (np.asarray(band.obs_lower), np.asarray(band.obs_upper))
         return self._bands[m]
 
-    def outside_band(self, x: float, y0: float, m: int) -> float:
-        """``max(lower - y0, y0 - upper)`` of the band for the mean of m readings at x:
-        negative where the band contains y0."""
-        band = predict(self.fitted, [x], level=self.level, m=m)
-        return float(max(band.obs_lower[0] - y0, y0 - band.obs_upper[0]))
+    def outside_band(self, x, y0: float, m: int) -> np.ndarray:
+        """``max(lower - y0, y0 - upper)`` of the band for the mean of m readings at each x:
+        negative where the band contains y0. The band of
+        :func:`~service.core.nonlinear.analysis.predict` (same formula, same critical value),
+        evaluated without its bookkeeping: the interval search calls this dozens of times
+        per reading."""
+        xs = np.atleast_1d(np.asarray(x, dtype=float))
+        fitted = self.fitted
+        try:
+            fit, grad = fitted.model.values_and_jacobian(xs, fitted.estimates)
+            fit, grad = np.array(fit, dtype=float), np.array(grad, dtype=float)
+        except MODEL_FAILURES:
+            return np.full(xs.shape, np.nan)
+        if fit.shape != xs.shape or grad.shape != (xs.size, fitted.estimates.size):
+            return np.full(xs.shape, np.nan)
+        se_fit = np.sqrt(np.maximum(np.einsum("ij,jk,ik->i", grad, fitted.covariance, grad),
+                                    0.0))
+        spread = self.crit * np.sqrt(se_fit ** 2 + fitted.noise_variance / m)
+        out = np.maximum((fit - spread) - y0, y0 - (fit + spread))
+        out[~(np.isfinite(fit) & np.isfinite(grad).all(axis=1))] = np.nan
+        return out
 
     def _interval(self, x_hat: float, y0: float, m: int) -> tuple[float, float, str]:
         lower, upper = self._band(m)
@@ -177,6 +200,9 @@ class _CurveReader:
 
         def h_at(x):
             return self.outside_band(x, y0, m)
+
+        def h_scalar(x: float) -> float:
+            return float(h_at(x)[0])
 
         limits = []
         for direction in (-1, +1):
@@ -188,7 +214,7 @@ class _CurveReader:
             if out.size:
                 k = int(out[0])
                 near = x_hat if k == 0 else float(xs[k - 1])
-                limits.append(_brent(h_at, *sorted((near, float(xs[k])))))
+                limits.append(_brent(h_scalar, *sorted((near, float(xs[k])))))
             else:
                 end = self.lo if direction < 0 else self.hi
                 limits.append(_first_crossing(end, self._ladder(direction), h_at))
@@ -227,21 +253,33 @@ def _crossings(grid: np.ndarray, gap: np.ndarray, fn) -> list[float]:
 
 def _first_crossing(start: float, ladder: np.ndarray, fn) -> float | None:
     """The first sign change of ``fn`` walking from ``start`` along ``ladder`` (outward),
-    skipping points where fn is not finite; refined by Brent's method."""
-    previous, value = start, fn(start)
+    skipping points where fn is not finite; refined by Brent's method. ``fn`` takes an
+    array of x (the whole ladder is evaluated in one call)."""
+    value = float(fn(np.array([start]))[0])
     if not math.isfinite(value):
         return None
-    for x in ladder:
-        current = fn(float(x))
+    previous = start
+    steps = np.asarray(ladder, dtype=float)
+    values = np.asarray(fn(steps), dtype=float)
+    for x, current in zip(steps.tolist(), values.tolist(), strict=True):
         if not math.isfinite(current):
             continue
         if current == 0.0:
             return float(x)
         if (current > 0) != (value > 0):
             a, b = sorted((previous, float(x)))
-            return _brent(fn, a, b)
+            return _brent(lambda t: float(fn(np.array([t]))[0]), a, b)
         previous, value = float(x), current
     return None
+
+
+def _critical_value(fitted: FittedCurve, level: float) -> float:
+    """The two-sided critical value of the bands at ``level`` (as in ``predict``)."""
+    if fitted.distribution == "normal":
+        return float(-special.ndtri(0.5 * (1.0 - level)))
+    if fitted.df_residual > 0:
+        return float(-special.stdtrit(fitted.df_residual, 0.5 * (1.0 - level)))
+    return math.nan
 
 
 def _brent(fn, a: float, b: float) -> float:

@@ -76,7 +76,9 @@ def to_document(fitted: FittedPolynomial) -> dict:
         "weighted": bool(fitted.weighted),
         "level": to_float(fitted.level),
     }
-    body["checksum"] = checksum(body)
+    if fitted.weighting != "relative":  # relative documents stay exactly as before
+        body["weighting"] = str(fitted.weighting)
+    body["checksum"] = checksum(body, written=True)  # every float above went through to_float
     return body
 
 
@@ -118,5 +120,5 @@ def from_document(doc: Mapping[str, Any], *, field_prefix: str = "") -> FittedPo
         raw_coefficients=frozen_array(raw), raw_covariance=frozen_array(covariance),
         sigma=values["sigma"], df_residual=values["df_residual"], n=values["n"],
         x_min=values["x_min"], x_max=values["x_max"], weighted=values["weighted"],
-        level=values["level"],
+        level=values["level"], weighting=values.get("weighting", "relative"),
     )

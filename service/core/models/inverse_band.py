@@ -15,6 +15,7 @@ import numpy as np
 from numpy.polynomial import polynomial as P
 from scipy import optimize, special
 
+from service.core.checks.known_sd import KNOWN_SD, normal_quantile
 from service.core.data import transforms
 from service.core.models.inverse_roots import changes_sign, real_roots
 from service.core.results import FittedPolynomial
@@ -38,7 +39,10 @@ class CalibrationCurve:
         self.dw = P.polyder(self.w)
         df = int(fitted.df_residual)
         # the upper tail from 1 - level (exact); 0.5 + level / 2 rounds to 1 near level 1
-        q = -float(special.stdtrit(df, (1.0 - level) / 2)) if df > 0 else math.nan
+        if fitted.weighting == KNOWN_SD:  # known SDs: sigma is 1, the normal quantile
+            q = normal_quantile(level)
+        else:
+            q = -float(special.stdtrit(df, (1.0 - level) / 2)) if df > 0 else math.nan
         self.qs = np.float64(q) * np.float64(fitted.sigma)  # half-width per sqrt(1/m + w)
         u_ends = transforms.apply(fitted.transform_x, np.array([fitted.x_min, fitted.x_max]),
                                   field="fitted_model.x_min")

@@ -50,12 +50,15 @@ FIELDS: dict[str, str] = {
     "level": "float",
     "checksum": "str",
 }
+# written only when it says something: known-SD fits (absent means "relative")
+OPTIONAL_FIELDS: dict[str, str] = {"weighting": "str"}
 
 
 class DocumentReader:
     """Field-by-field validation with errors that name the field."""
 
     fields: Mapping[str, str] = FIELDS  # the layout read: field name -> typed reader
+    optional_fields: Mapping[str, str] = OPTIONAL_FIELDS  # read when present
 
     def __init__(self, doc, prefix: str) -> None:
         self.doc = doc
@@ -87,7 +90,8 @@ class DocumentReader:
         """Every field of :attr:`fields`, read by its typed reader; unknown or missing
         fields are refused naming them."""
         doc = self.doc
-        unknown = sorted(str(key) for key in doc if key not in self.fields)
+        known = {**self.fields, **self.optional_fields}
+        unknown = sorted(str(key) for key in doc if key not in known)
         if unknown:
             self.fail(unknown[0], f"Unknown field {unknown[0]!r} in a schema_version "
                       f"{version} document.", "Remove fields that /v1/fit did not write.")
@@ -96,7 +100,7 @@ class DocumentReader:
                 self.fail(name, f"The document is missing the required field {name!r}.",
                           "Send the fitted_model object unchanged, with every field.")
         return {name: getattr(self, "_" + kind)(name, doc[name])
-                for name, kind in self.fields.items()}
+                for name, kind in known.items() if name in doc}
 
     # --- typed readers
     def _int(self, name, value):
@@ -193,6 +197,14 @@ class DocumentReader:
             self.fail("x_min", "x_min must not exceed x_max.", keep)
         if not 0 < v["level"] < 1:
             self.fail("level", "level must lie strictly between 0 and 1.", keep)
+        if "weighting" in v:
+            if v["weighting"] != "known_sd":
+                self.fail("weighting", "weighting is written only as \"known_sd\" (a "
+                          "relative fit leaves it out).", keep)
+            if not v["weighted"]:
+                self.fail("weighted", "Known standard deviations imply weighted = true.", keep)
+            if v["sigma"] != 1.0:
+                self.fail("sigma", "With known standard deviations sigma is 1.", keep)
 
     def check_consistency(self, v, basis, raw, r_factor, covariance, p) -> None:
         """Catch hand edits that break the document's internal arithmetic, naming the field."""

@@ -16,6 +16,12 @@ from scipy import special
 
 from service.core.checks.diagnostics import residual_diagnostics
 from service.core.checks.flags import TEST_ALPHA, trust_flags
+from service.core.checks.known_sd import (
+    chi_square_fit,
+    normal_quantile,
+    require_weights,
+    simultaneous_normal_factor,
+)
 from service.core.checks.lack_of_fit import distinct_count
 from service.core.data.grid import grid_points
 from service.core.data.inputs import clean_data
@@ -61,6 +67,7 @@ def analyse(equation, names: tuple[str, ...], family: str, expression: str, x, y
     DataError, DesignError, SpecError
         Each names the offending field and how to fix it.
     """
+    require_weights(options.weighting, weights)
     with np.errstate(all="ignore"):
         data = clean_data(x, y, weights, options.missing)
         n, p = data.x.size, len(names)
@@ -87,6 +94,7 @@ def report(solution, data, equation, names: tuple[str, ...], family: str, expres
     """
     n, p = data.x.size, len(names)
     mode, level = options.weighting, float(options.level)
+    require_weights(mode, data.w)
     inference = infer(solution, weight_mode=mode, level=level, alpha=GOF_ALPHA)
     profile = profile_limits(solution, level=level, weight_mode=mode)
     rows = tuple(ParameterRow(r.name, r.estimate, r.std_error, r.statistic, r.p_value, r.lower,
@@ -136,8 +144,7 @@ def predict(fitted: FittedCurve, x, *, level: float | None = None, m: int = 1) -
     xs = np.array(x, dtype=float).reshape(-1)
     p, df = len(fitted.parameter_names), fitted.df_residual
     if fitted.distribution == "normal":
-        crit = float(-special.ndtri(0.5 * (1.0 - level)))  # upper tail: exact near level 1
-        wide = float(np.sqrt(special.chdtri(p, 1.0 - level)))
+        crit, wide = normal_quantile(level), simultaneous_normal_factor(p, level)
     else:
         crit = float(-special.stdtrit(df, 0.5 * (1.0 - level))) if df > 0 else NAN
         wide = float(np.sqrt(p * special.fdtri(p, df, level))) if df > 0 else NAN
@@ -167,11 +174,7 @@ def _tangent_basis(solution, inference) -> np.ndarray | None:
 
 def _goodness_of_fit(inference) -> TestResult | None:
     gof = inference.goodness_of_fit
-    if gof is None:
-        return None
-    return TestResult("chi_square_fit", gof.statistic, gof.p_value, (float(gof.df),),
-                      "weighted RSS against chi-square(n - p): with known SDs it should "
-                      "be about n - p")
+    return None if gof is None else chi_square_fit(gof.statistic, gof.df)
 
 
 def _fit_info(solution, start: np.ndarray, started_from: str, start_strategy: str,

@@ -22,6 +22,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from service.core.checks.known_sd import chi_square_flag
 from service.core.nonlinear.report import FitInfo, ParameterRow
 from service.core.results import TestResult, TrustFlag
 
@@ -65,12 +66,9 @@ def nonlinear_flags(info: FitInfo, rows: tuple[ParameterRow, ...], correlation: 
                              f"{RELATIVE_SE_CUT:.0%} or a profile limit that does not exist; "
                              "the data barely constrain it.",
                              {"parameters": tuple(poor), "relative_se": RELATIVE_SE_CUT}))
-    if gof is not None and gof.p_value < alpha:
-        out.append(TrustFlag("chi_square_fit_failed", "serious",
-                             "With the measurement SDs you gave, the residuals are larger than "
-                             "chance allows: the model or the stated SDs are wrong.",
-                             {"statistic": gof.statistic, "p_value": gof.p_value,
-                              "df": gof.df, "alpha": alpha}))
+    failed = chi_square_flag(gof, alpha)
+    if failed is not None:
+        out.append(failed)
     return out
 
 

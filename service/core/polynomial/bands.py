@@ -21,6 +21,11 @@ decreasing ``reciprocal``). The back-transformed fit estimates the *median*
 of y rather than its mean when the errors are symmetric on the fitting
 scale (retransformation bias; for ``log`` the mean is larger by about
 ``exp(sigma²/2)``). ``se_mean`` stays on the fitting scale.
+
+With known measurement SDs (``fitted.weighting == "known_sd"``) sigma is 1,
+``t`` is the normal quantile and the simultaneous factor Scheffé's
+``sqrt(chi²_p(level))``; the observation band is for new observations of
+SD 1 on the weight scale (weight 1).
 """
 
 from __future__ import annotations
@@ -29,6 +34,7 @@ import math
 
 import numpy as np
 
+from service.core.checks.known_sd import KNOWN_SD, normal_quantile, simultaneous_normal_factor
 from service.core.checks.quantiles import f_quantile, t_quantile
 from service.core.data import transforms
 from service.core.errors import DataError, SpecError
@@ -101,7 +107,9 @@ def _evaluate(fitted: FittedPolynomial, xs: np.ndarray, u: np.ndarray, level: fl
               coef: np.ndarray, r_factor: np.ndarray) -> Prediction:
     df = fitted.df_residual
     p = fitted.basis_coefficients.size
-    if df > 0:  # upper tails from 1 - level (exact), never from 0.5 + level / 2 (rounds to 1)
+    if fitted.weighting == KNOWN_SD:  # sigma is 1: normal and chi-square (Scheffé) factors
+        tq, wh = normal_quantile(level), simultaneous_normal_factor(p, level)
+    elif df > 0:  # upper tails from 1 - level (exact), never from 0.5 + level / 2 (rounds to 1)
         tq = -t_quantile(df, (1.0 - level) / 2)
         wh = math.sqrt(p * f_quantile(p, df, level))
     else:

@@ -8,10 +8,17 @@ precisely (half the standard deviation) gets four times the weight.
 from __future__ import annotations
 
 import math
+from dataclasses import replace
 
 import numpy as np
 
-from service.core.checks.flags import trust_flags
+from service.core.checks.flags import TEST_ALPHA, trust_flags
+from service.core.checks.known_sd import (
+    KNOWN_SD,
+    chi_square_fit,
+    chi_square_flag,
+    require_weights,
+)
 from service.core.checks.lack_of_fit import distinct_count
 from service.core.checks.shapiro import MAX_N as SHAPIRO_MAX_N
 from service.core.data import transforms
@@ -27,7 +34,7 @@ from service.core.polynomial.decomposition import decompose
 from service.core.polynomial.diagnostics import diagnose
 from service.core.polynomial.selection import candidate_row, choose
 from service.core.polynomial.spec_check import check_spec
-from service.core.polynomial.summary import candidate_measures
+from service.core.polynomial.summary import candidate_measures, with_known_variance
 from service.core.polynomial.tables import fit_tables
 from service.core.results import (
     FitReport,
@@ -89,6 +96,8 @@ def fit_series(x, y, weights=None, *, model: ModelSpec = _DEFAULT_MODEL,
 
 def _fit(x, y, weights, model: ModelSpec, options: FitOptions) -> FitReport:
     dmin, dmax, selects = check_spec(model, options)
+    require_weights(options.weighting, weights)
+    known = options.weighting == KNOWN_SD
     data = clean_data(x, y, weights, options.missing)
     intercept = model.intercept
     u = transforms.apply(model.transform_x, data.x, field="x", index=data.index)
@@ -101,23 +110,23 @@ def _fit(x, y, weights, model: ModelSpec, options: FitOptions) -> FitReport:
         check_magnitude(data.w, "weights", data.index, "")
     notices: list[Notice] = []
     distinct = data.distinct if data.distinct is not None else distinct_count(data.x)
-    dmax = _supported_max(distinct, intercept, dmin, dmax, selects, notices)
+    dmax = _supported_max(distinct, intercept, dmin, dmax, selects, notices, n=data.x.size)
     n = u.size
     sum_log_w = 0.0 if data.w is None else float(np.sum(np.log(data.w)))
     degrees = list(range(dmin, dmax + 1))
     field = "model.max_degree" if selects else "model.degree"
     dec, cands, degree, reason, method = _select(u, z, data.w, degrees, model, selects,
-                                                 sum_log_w, field, u_bounds, False)
+                                                 sum_log_w, field, u_bounds, False, known)
     checkpoint()  # a caller's budget is checked between the phases of a fit
     m = cands[degree - dmin]
-    sigma2 = _residual_mean_square(m)
+    sigma2 = 1.0 if known else _residual_mean_square(m)
     readout = _float64_readout(dec, m, degree, sigma2)
     if (readout is None and not dec.extended and n <= qr.EXTENDED_MAX_ROWS
             and qr.EXTENDED_IS_WIDER):
         dec, cands, degree, reason, method = _select(u, z, data.w, degrees, model, selects,
-                                                     sum_log_w, field, u_bounds, True)
+                                                     sum_log_w, field, u_bounds, True, known)
         m = cands[degree - dmin]
-        sigma2 = _residual_mean_square(m)
+        sigma2 = 1.0 if known else _residual_mean_square(m)
     p = m.p
     selection = Selection(method, degree, reason, float(model.alpha),
                           tuple(candidate_row(c) for c in cands))
@@ -130,7 +139,7 @@ def _fit(x, y, weights, model: ModelSpec, options: FitOptions) -> FitReport:
                                                  coef_b, (rinv @ rinv.T) * np.longdouble(sigma2))
         r64 = np.ascontiguousarray(dec.r[:p, :p], dtype=float)
         cond, raw_cond = _conditions(r64, dec.shift, dec.scale, degree, intercept)
-    sigma = 0.0 if m.exact else m.sigma
+    sigma = 0.0 if m.exact else m.sigma  # the estimate (about 1 with known SDs)
     terms = design.term_names(degree, intercept)
     if lost:
         notices.append(Notice("raw_coefficients_overflow",
@@ -167,10 +176,10 @@ def _fit(x, y, weights, model: ModelSpec, options: FitOptions) -> FitReport:
     fitted = FittedPolynomial(
         degree, intercept, model.transform_x, model.transform_y, terms, dec.shift, dec.scale,
         frozen_array(np.asarray(coef_b, dtype=float)), frozen_array(r64), frozen_array(raw),
-        frozen_array(cov), float(sigma), m.df_residual, n, xmin, xmax, data.w is not None,
-        float(options.level))
+        frozen_array(cov), 1.0 if known else float(sigma), m.df_residual, n, xmin, xmax,
+        data.w is not None, float(options.level), options.weighting)
     coefficients, anova = fit_tables(terms, raw, cov, dec.effects, degree, intercept, m.rss,
-                                     m.df_residual, options.level)
+                                     m.df_residual, options.level, known)
     statistics = FitStatistics(
         n, p, m.df_model, m.df_residual, m.rss, m.tss, intercept, m.r_squared, m.adj_r_squared,
         float(sigma), m.f, m.f_p_value, m.log_likelihood, m.aic, m.aicc, m.bic, m.press,
@@ -178,6 +187,9 @@ def _fit(x, y, weights, model: ModelSpec, options: FitOptions) -> FitReport:
     checkpoint()
     # always diagnosed: the trust flags rest on these tests, whatever include returns
     diagnostics = diagnose(data.index, data.x, dec, degree, m.rss, m.exact, distinct)
+    chi_square = chi_square_fit(m.rss, m.df_residual) if known else None
+    if chi_square is not None:
+        diagnostics = replace(diagnostics, tests=diagnostics.tests + (chi_square,))
     grid = None
     checkpoint()
     if "grid" in options.include and options.grid is not None:
@@ -186,6 +198,9 @@ def _fit(x, y, weights, model: ModelSpec, options: FitOptions) -> FitReport:
         grid = grid_prediction(fitted, gx)
     flags = trust_flags(n=n, p=p, exact=m.exact, condition=cond, diagnostics=diagnostics,
                         grid=grid)
+    failed = chi_square_flag(chi_square, TEST_ALPHA)
+    if failed is not None:
+        flags = (failed, *flags)
     if "diagnostics" not in options.include:
         diagnostics = None
     return FitReport(fitted, data.n_input, data.dropped, coefficients, anova, statistics,
@@ -193,10 +208,12 @@ def _fit(x, y, weights, model: ModelSpec, options: FitOptions) -> FitReport:
 
 
 def _select(u, z, w, degrees, model: ModelSpec, selects: bool, sum_log_w: float, field: str,
-            bounds, extended: bool):
+            bounds, extended: bool, known: bool):
     """Factor the design, measure every candidate and choose the degree."""
     dec = decompose(u, z, w, degrees, model.intercept, field, bounds, extended)
     cands = candidate_measures(dec, degrees, sum_log_w)
+    if known:  # criteria from the likelihood at the known variances
+        cands = with_known_variance(cands, sum_log_w)
     if selects:
         degree, reason = choose(model.select, cands, model.alpha)
         return dec, cands, degree, reason, model.select
@@ -238,11 +255,23 @@ def _after(transform: str) -> str:
     return "" if transform == "none" else f"after the {transform} transform"
 
 
-def _supported_max(distinct, intercept, dmin, dmax, selects, notices) -> int:
-    """Largest degree the distinct x values support; error or notice when it binds."""
+def _supported_max(distinct, intercept, dmin, dmax, selects, notices, *, n: int) -> int:
+    """Largest degree the distinct x values support; error or notice when it binds.
+
+    Data at a single x value support no curve at all: when the degree is being selected
+    (the caller did not ask for one) or there is a single point, that is said of the data
+    (field ``x``), not of ``model.min_degree``; a degree the caller fixed is named as such.
+    """
     cap = distinct - (1 if intercept else 0)
     if dmin > cap or (not selects and dmax > cap):
         need = dmin + (1 if intercept else 0)
+        if distinct <= 1 and dmin >= 1 and (selects or n == 1):
+            what = "a single data point" if n == 1 else f"{n} points, all at the same x"
+            raise DesignError(
+                f"Too few data to fit a curve: {what}; a degree-{dmin} curve needs points at "
+                f"{need} or more distinct x values.", field="x",
+                fix=f"Send points at {need} or more distinct x values (more to judge the "
+                    "fit).")
         raise DesignError(
             f"Degree {dmin} needs at least {need} distinct x values; the data have {distinct}.",
             field="model.degree" if not selects else "model.min_degree",

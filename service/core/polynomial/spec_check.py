@@ -30,10 +30,6 @@ def check_spec(model: ModelSpec, options: FitOptions) -> tuple[int, int, bool]:
         raise _spec_error(f"Unknown transform_y {model.transform_y!r}.", "model.transform_y",
                           f"Use one of {', '.join(TRANSFORMS)}.")
     check_options(options)
-    if options.weighting != "relative":
-        raise SpecError(f"weighting = {options.weighting!r} is not available for polynomials.",
-                        field="weighting", fix='Use "relative" for polynomial fits; known_sd '
-                        "applies to the nonlinear families.")
     lowest = 0 if model.intercept else 1
     top = max(1, min(int(options.max_degree), HARD_MAX_DEGREE))  # the caller's limit
     if model.degree is not None:

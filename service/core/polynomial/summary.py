@@ -11,12 +11,17 @@ Conventions (documented for callers):
   + k log n and AICc = AIC + 2k(k+1)/(n-k-1) with k = number of
   coefficients (the error variance is not counted; the same constant for
   every candidate, so choices are unaffected except through AICc).
+* With known measurement SDs (``weighting = "known_sd"``, weights ``1/SD²``) the
+  log-likelihood is the Gaussian one at the known variances,
+  ``-0.5 (n log 2 pi - sum(log w) + RSS)`` (:func:`with_known_variance`); the
+  criteria follow from it with the same k.
 * PRESS = sum of squared leave-one-out residuals e_i / (1 - h_i);
   predicted R² = 1 - PRESS / total SS.
 """
 
 from __future__ import annotations
 
+import math
 from typing import NamedTuple
 
 import numpy as np
@@ -28,6 +33,8 @@ from service.core.polynomial.decomposition import (  # noqa: F401  (LEVERAGE_ONE
     LEVERAGE_ONE,
     Decomposition,
 )
+
+LOG_2PI = math.log(2.0 * math.pi)
 
 
 class Measures(NamedTuple):
@@ -82,3 +89,25 @@ def candidate_measures(dec: Decomposition, degrees: list[int], sum_log_w: float
                      r[8], r[9], r[10], r[11], r[12], r[13], lp, r[0] == 0.0 and df > 0)
             for d, p, df, r, fp, lp in zip(degrees, ps, df_res, rows, probs[:k], probs[k:],
                                            strict=True)]
+
+
+def with_known_variance(cands: list[Measures], sum_log_w: float) -> list[Measures]:
+    """The candidates' log-likelihood, AIC, AICc and BIC at known variances ``1/w``.
+
+    Parameters
+    ----------
+    cands : list of Measures
+        From :func:`candidate_measures`.
+    sum_log_w : float
+        ``sum(log w)`` of the weights ``1/SD²``.
+    """
+    out = []
+    for m in cands:
+        llf = -0.5 * (m.n * LOG_2PI - sum_log_w + m.rss)
+        aic = -2.0 * llf + 2.0 * m.p
+        gap = m.n - m.p - 1
+        aicc = aic + 2.0 * m.p * (m.p + 1) / gap if gap > 0 else math.nan
+        out.append(m._replace(log_likelihood=llf, aic=aic, aicc=aicc,
+                              bic=-2.0 * llf + m.p * math.log(m.n)))
+    return out
+

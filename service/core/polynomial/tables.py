@@ -19,6 +19,7 @@ import math
 import numpy as np
 from scipy import special
 
+from service.core.checks.known_sd import normal_quantile
 from service.core.checks.quantiles import t_quantile
 from service.core.polynomial.selection import term
 from service.core.results import AnovaRow, Coefficient
@@ -27,8 +28,8 @@ NAN = float("nan")
 
 
 def fit_tables(terms: tuple[str, ...], raw: np.ndarray, cov: np.ndarray, effects: np.ndarray,
-               degree: int, intercept: bool, rss: float, df: int, level: float
-               ) -> tuple[tuple[Coefficient, ...], tuple[AnovaRow, ...]]:
+               degree: int, intercept: bool, rss: float, df: int, level: float,
+               known_sd: bool = False) -> tuple[tuple[Coefficient, ...], tuple[AnovaRow, ...]]:
     """Coefficient rows (estimate, std error, t, p, confidence limits at ``level``) and the
     sequential ANOVA rows (one per power in entry order, then the residual row with nan f/p).
 
@@ -38,6 +39,9 @@ def fit_tables(terms: tuple[str, ...], raw: np.ndarray, cov: np.ndarray, effects
     raw, cov : raw-power coefficients and their covariance (NaN where undefined).
     effects : ``Q'zw`` of the fit (float64 or longdouble); the powers' entries are used.
     rss, df : residual SS and df of the chosen fit (``rss`` 0.0 for an exact fit).
+    known_sd : the weights are ``1/SD²`` of known errors: ``cov`` is unscaled and the
+        coefficient tests and limits use the standard normal (the ANOVA F tests still use
+        the residual mean square, which is valid either way).
     """
     est = raw.tolist()
     se = [math.sqrt(v) if v > 0 else (v if math.isnan(v) else 0.0)
@@ -47,7 +51,12 @@ def fit_tables(terms: tuple[str, ...], raw: np.ndarray, cov: np.ndarray, effects
     ss = [v * v for v in np.asarray(effects[c:degree + c], dtype=float).tolist()]
     mse = rss / df if df > 0 else NAN
     f = [v / mse if rss > 0 else NAN for v in ss]
-    if df > 0:
+    if known_sd:  # P(|Z| > |z|) is the chi-square(1) upper tail at z²
+        zq = normal_quantile(level)
+        half = [zq * s if s > 0 else 0.0 for s in se]
+        probs = special.chdtrc(1, [t * t for t in tval]).tolist()
+        probs += special.fdtrc(1, df, f).tolist() if df > 0 else [NAN] * degree
+    elif df > 0:
         tq = -t_quantile(df, (1.0 - level) / 2)  # upper tail from 1 - level (exact)
         half = [tq * s if s > 0 else 0.0 for s in se]
         probs = special.fdtrc(1, df, [t * t for t in tval] + f).tolist()

@@ -23,6 +23,7 @@ from typing import NamedTuple
 
 import numpy as np
 
+from service.core.checks.known_sd import require_weights
 from service.core.data.inputs import clean_data
 from service.core.errors import DataError, DesignError, SpecError
 from service.core.nonlinear.analysis import report
@@ -62,6 +63,7 @@ def fit_series(family: Builtin, x, y, weights=None, *, model: ModelSpec,
         Each names the offending field and how to fix it.
     """
     check_spec(family, model, options)
+    require_weights(options.weighting, weights)
     scale = scale_of(family, model)
     fixed = tuple(model.fixed or ())
     compiled = equation(family.name, scale, fixed)
