@@ -37,7 +37,8 @@ def _numeric(series: pd.Series) -> np.ndarray:
 def fit_frame(df: pd.DataFrame, id: str = "id", x: str = "x", y: str = "y",  # noqa: A002
               weight: str | None = None, *, model: ModelSpec = _MODEL,
               options: FitOptions = _OPTIONS, workers: int = 1) -> pd.DataFrame:
-    """Fit one polynomial per ``id`` group of a long-format DataFrame.
+    """Fit one curve (a polynomial, or the nonlinear family the model names) per ``id`` group
+    of a long-format DataFrame (nonlinear families: :mod:`.curves_frames`).
 
     Parameters
     ----------
