@@ -18,7 +18,7 @@ from marshmallow import Schema, ValidationError, fields, validate
 from schemas.common import MISSING_POLICIES, SECTIONS, UNKNOWN_FIELD, StrictSchema
 from schemas.fields import NumberArray, PassThroughArray, StrictFloat, StrictString, one_of_message
 from schemas.fit import GridSchema, ModelSchema
-from schemas.model_field import misplaced_model_options
+from schemas.model_field import ModelField, misplaced_model_options
 
 DETAILS = ("summary", "full")
 SERIES_FIELDS = ("id", "x", "y", "weights", "model")
@@ -26,6 +26,7 @@ _X = NumberArray(allow_null_items=True, data=True)
 _Y = NumberArray(allow_null_items=True, data=True)
 _W = NumberArray(allow_null_items=True, allow_none=True, data=True)
 _MODEL = ModelSchema()
+_MODEL_FIELD = ModelField(comparisons=False)
 _CRITERION = {"sequential_f": "p_last", "aic": "aic", "aicc": "aicc", "bic": "bic",
               "press": "press", "adj_r2": "adj_r_squared", "fixed": None}
 
@@ -42,8 +43,9 @@ class SeriesSchema(StrictSchema):
                     metadata={"description": "Response values, same length as x."})
     weights = NumberArray(allow_none=True, allow_null_items=True, metadata={
         "description": "Optional inverse variances (1/sd^2), same length as x."})
-    model = fields.Nested(ModelSchema, metadata={
-        "description": "This series' own model; overrides the shared model."})
+    model = ModelField(comparisons=False, metadata={
+        "description": "This series' own model (any family /v1/fit accepts); overrides the "
+                       "shared model."})
 
 
 class BatchRequestSchema(StrictSchema):
@@ -53,9 +55,11 @@ class BatchRequestSchema(StrictSchema):
         "description": "The series (see Series). Each is checked on its own: a bad series "
                        "gets an error result, the others are fitted.",
         "items": {"$ref": "#/components/schemas/Series"}})
-    model = fields.Nested(ModelSchema, load_default=lambda: _MODEL.load({}), metadata={
-        "description": "The shared model (as in /v1/fit). Default: degree chosen from 1..3 "
-                       "by sequential F."})
+    model = ModelField(comparisons=False, load_default=lambda: _MODEL.load({}), metadata={
+        "description": "The shared model (as in /v1/fit: a polynomial, a built-in nonlinear "
+                       "family with automatic start values for every series, or an expression "
+                       "with its start values). Default: degree chosen from 1..3 by "
+                       "sequential F."})
     level = StrictFloat(load_default=0.95, validate=validate.Range(
         0, 1, min_inclusive=False, max_inclusive=False,
         error="Must be strictly between 0 and 1, e.g. 0.95."),
@@ -132,7 +136,7 @@ def load_series(obj, position: int):
     model = None
     if obj.get("model") is not None:
         try:
-            model = _MODEL.load(obj["model"])
+            model = _MODEL_FIELD.deserialize(obj["model"])
         except ValidationError as exc:
             errors.update(_prefixed("model", exc.messages))
     if errors:
@@ -295,7 +299,8 @@ class BatchResultSchema(Schema):
 
     id = fields.Raw(metadata={"type": ["string", "integer"]})
     status = fields.String(metadata={"enum": ["ok", "error"]})
-    fit = fields.Dict(metadata={"description": "SummarySchema (detail=summary) or the whole "
+    fit = fields.Dict(metadata={"description": "SummarySchema, or CurveSummarySchema for a "
+                                               "nonlinear family (detail=summary), or the whole "
                                                "/v1/fit response (detail=full)."})
     error = fields.Dict(metadata={"description": "Problem details for this series alone "
                                                  "(status 422, or 413 over the point limit)."})

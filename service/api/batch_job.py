@@ -14,7 +14,10 @@ import numpy as np
 from marshmallow import ValidationError
 
 from schemas.batch import load_series, summary_rows, valid_id
+from schemas.batch_curves import curve_summary_rows
+from service.api.batch_curves import curve_results, is_nonlinear, mixed_results
 from service.core.batch.columnar import FlatSeries, fit_flat
+from service.core.batch.curves_results import CurveBatchResult
 from service.core.batch.driver import fit_batch, fit_many
 from service.core.polynomial.design import term_names
 from service.core.spec import HARD_MAX_DEGREE, FitOptions
@@ -61,6 +64,13 @@ class BatchJob:
 
     def results(self, items):
         """``items``: (id, series tuple or error body). Returns result dicts in order."""
+        if is_nonlinear(self.model) or any(isinstance(s, tuple) and s[3] is not None and
+                                           is_nonlinear(s[3]) for _, s in items):
+            return mixed_results(self, items)   # nonlinear models: service.api.batch_curves
+        return self.polynomial_results(items)
+
+    def polynomial_results(self, items):
+        """:meth:`results` for items whose models are all polynomial."""
         fit_idx = [i for i, (_, s) in enumerate(items) if isinstance(s, tuple)]
         batch = fit_batch([items[i][1] for i in fit_idx], model=self.model,
                           models=[items[i][1][3] for i in fit_idx], options=self.options,
@@ -77,6 +87,8 @@ class BatchJob:
 
     def plain_results(self, ids, x, y, lengths):
         """Results for series already in flat arrays (:func:`schemas.batch.load_plain_series`)."""
+        if is_nonlinear(self.model):     # service.api.batch_curves
+            return curve_results(self, ids, x, y, lengths, None, self.model)
         batch = fit_many(x, y, lengths, model=self.model, options=self.options,
                          detail=self.detail)
         return self._assemble([(ident, ()) for ident in ids], range(len(ids)), batch)
@@ -105,7 +117,7 @@ class BatchJob:
                 out.append({"id": ident, "status": "error", "error": series})
             elif j in bodies:
                 fit = bodies[j]
-                self._count_flags(fit.get("flags") or ())
+                self.count_flags(fit.get("flags") or ())
                 out.append({"id": ident, "status": "ok", "fit": fit})
             else:
                 out.append({"id": ident, "status": "error",
@@ -117,7 +129,7 @@ class BatchJob:
             record_fit_failure(code, count)
         return out
 
-    def _count_flags(self, flags) -> None:
+    def count_flags(self, flags) -> None:
         """Count one fitted series by its most severe flag (caution or serious: flagged)."""
         found = {flag["severity"] for flag in flags}
         worst = next((s for s in SEVERITY_ORDER if s in found), None)
@@ -128,6 +140,8 @@ class BatchJob:
     def _fits(self, batch, rows):
         if self.detail == "full":
             return [fit_response(batch.reports[j], self.include) for j in rows]
+        if isinstance(batch, CurveBatchResult):   # a nonlinear model (Arrow and Parquet bodies)
+            return curve_summary_rows(batch, rows)
         return summary_rows(batch, rows, term_names)
 
     def series(self, obj, position: int):

@@ -30,6 +30,7 @@ import numpy as np
 import pyarrow as pa
 import pyarrow.compute as pc
 
+from service.core.batch.curves import fit_many_curves
 from service.core.batch.driver import fit_many
 from service.core.batch.results import BatchResult
 from service.core.errors import DataError
@@ -123,9 +124,13 @@ def fit_flat(flat: FlatSeries, *, model: ModelSpec = _MODEL, options: FitOptions
              detail: str = "summary", workers: int = 1) -> BatchResult:
     """Fit every series of ``flat`` with one shared model; one result row per series.
 
-    The single entry point of the columnar paths (see the module docstring); today
-    :func:`service.core.batch.driver.fit_many`.
+    The single entry point of the columnar paths (see the module docstring):
+    :func:`service.core.batch.driver.fit_many`, or
+    :func:`service.core.batch.curves.fit_many_curves` for a nonlinear model.
     """
+    if model.family != "polynomial":  # nonlinear families: a CurveBatchResult
+        return fit_many_curves(flat.x, flat.y, flat.lengths, flat.weights, model=model,
+                               options=options, detail=detail, workers=workers)
     return fit_many(flat.x, flat.y, flat.lengths, flat.weights, model=model, options=options,
                     detail=detail, workers=workers)
 

@@ -37,7 +37,8 @@ def _fit_partition(part: pd.DataFrame, *, id, x, y, weight, model, options,  # n
 def fit_dask(ddf, id: str = "id", x: str = "x", y: str = "y",  # noqa: A002
              weight: str | None = None, *, model: ModelSpec = _MODEL,
              options: FitOptions = _OPTIONS, presorted: bool = False):
-    """Fit one polynomial per ``id`` of a dask DataFrame; lazy, one result row per series.
+    """Fit one curve (any family the model names) per ``id`` of a dask DataFrame; lazy, one
+    result row per series.
 
     Parameters
     ----------

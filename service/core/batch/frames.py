@@ -19,6 +19,7 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
+from service.core.batch.curves_frames import fit_curve_frame
 from service.core.batch.driver import fit_many
 from service.core.batch.results import BatchResult
 from service.core.batch.tidy import RESULT_SCALARS, result_table, table_frame
@@ -36,7 +37,8 @@ def _numeric(series: pd.Series) -> np.ndarray:
 def fit_frame(df: pd.DataFrame, id: str = "id", x: str = "x", y: str = "y",  # noqa: A002
               weight: str | None = None, *, model: ModelSpec = _MODEL,
               options: FitOptions = _OPTIONS, workers: int = 1) -> pd.DataFrame:
-    """Fit one polynomial per ``id`` group of a long-format DataFrame.
+    """Fit one curve (a polynomial, or the nonlinear family the model names) per ``id`` group
+    of a long-format DataFrame (nonlinear families: :mod:`.curves_frames`).
 
     Parameters
     ----------
@@ -60,6 +62,8 @@ def fit_frame(df: pd.DataFrame, id: str = "id", x: str = "x", y: str = "y",  # n
         (the most severe: serious, caution, info, or none), and ``error_code``,
         ``error_field``, ``error``.
     """
+    if model.family != "polynomial":  # nonlinear families: tidy per-parameter columns
+        return fit_curve_frame(df, id, x, y, weight, model=model, options=options, workers=workers)
     codes, uniques = pd.factorize(df[id], sort=False)
     order = np.argsort(codes, kind="stable")
     lengths = np.bincount(codes, minlength=len(uniques))

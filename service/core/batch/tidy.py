@@ -34,6 +34,8 @@ import pandas as pd
 import pyarrow as pa
 import pyarrow.compute as pc
 
+from service.core.batch.curves_frames import curve_result_table
+from service.core.batch.curves_results import CurveBatchResult
 from service.core.batch.engine import FLAG_CODES
 from service.core.batch.results import BatchResult
 from service.core.spec import ModelSpec
@@ -77,6 +79,8 @@ def result_table(result: BatchResult, ids=None, model: ModelSpec = _MODEL,
     model : ModelSpec
         The shared model: its largest degree sets the ``coef_k`` columns.
     """
+    if isinstance(result, CurveBatchResult):   # nonlinear families: service.core.batch.curves
+        return curve_result_table(result, ids, id_name)
     ok = np.asarray(result.ok, dtype=bool)
     bad = ~ok
     columns: dict[str, pa.Array] = {}

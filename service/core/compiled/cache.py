@@ -16,8 +16,10 @@ import hashlib
 import importlib
 from pathlib import Path
 
-KERNEL_MODULES = ("batch.basis", "batch.ftail", "batch.kernel", "batch.kernel_steps",
-                  "batch.residuals", "checks.kernels", "data.pair_summary",
+KERNEL_MODULES = ("batch.basis", "batch.curves_grid", "batch.curves_kernel", "batch.curves_models",
+                  "batch.curves_post", "batch.curves_solver", "batch.curves_starts",
+                  "batch.ftail", "batch.kernel", "batch.kernel_steps", "batch.residuals",
+                  "checks.kernels", "data.pair_summary",
                   "polynomial.compiled.bands",
                   "polynomial.compiled.checks", "polynomial.compiled.points",
                   "polynomial.compiled.qr", "polynomial.compiled.raw",

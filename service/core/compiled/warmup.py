@@ -13,6 +13,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from service.core.batch.curves import fit_many_curves
 from service.core.batch.driver import fit_many
 from service.core.checks import durbin_watson
 from service.core.polynomial.bands import predict
@@ -38,5 +39,10 @@ def warm_up() -> None:
     x2, y2 = np.tile(x[:8], 2), np.tile(y[:8], 2)
     fit_many(x2, y2, [8, 8], model=ModelSpec(max_degree=2))
     fit_many(x2, y2, [8, 8], np.ones(16), model=ModelSpec(max_degree=2, intercept=False))
+    # the nonlinear batch engine: one call compiles every family's branch of its kernels
+    dose = np.repeat(np.geomspace(0.01, 10.0, 6), 2)
+    curve = 2.0 + 8.0 / (1.0 + dose) + 0.05 * np.sin(7.0 * dose)
+    fit_many_curves(np.tile(dose, 2), np.tile(curve, 2), [12, 12],
+                    model=ModelSpec(family="logistic4"))
     # the shared diagnostics' Durbin-Watson p-value, called from Python by any family
     durbin_watson.p_value_one(1.5, 10.0, *durbin_watson.bound_traces(13, 3))

@@ -1,0 +1,91 @@
+"""Batch requests with nonlinear models: series grouped by model, fitted by the curve engine.
+
+:class:`service.api.batch_job.BatchJob` hands a batch here as soon as the shared
+model or one series' own model is nonlinear. Polynomial series keep their own
+path (``BatchJob.polynomial_results``); the nonlinear ones are grouped by model
+and each group is fitted by
+:func:`service.core.batch.curves.fit_many_curves` (every series on its own: a bad
+one gets its error result). Results come back in request order.
+"""
+
+from __future__ import annotations
+
+from collections import Counter
+
+import numpy as np
+
+from schemas.batch_curves import curve_summary_rows
+from service.core.batch.curves import fit_many_curves
+from service.http.errors import fit_error_body
+from service.http.reporting import fit_response
+from service.runtime.observability import record_fit_failure
+
+
+def is_nonlinear(model) -> bool:
+    """True for a model the curve engine fits (anything but a polynomial)."""
+    return model.family != "polynomial"
+
+
+def mixed_results(job, items) -> list[dict]:
+    """Result dicts in order for ``items`` ((id, series tuple or error body)) of ``job``."""
+    out: list[dict | None] = [None] * len(items)
+    polynomial, groups = [], {}
+    for i, (_, series) in enumerate(items):
+        if not isinstance(series, tuple):
+            polynomial.append(i)          # an error body: the polynomial path reports it
+            continue
+        model = series[3] if series[3] is not None else job.model
+        if is_nonlinear(model):
+            groups.setdefault(model, []).append(i)
+        else:
+            polynomial.append(i)
+    if polynomial:
+        done = job.polynomial_results([items[i] for i in polynomial])
+        for i, result in zip(polynomial, done, strict=True):
+            out[i] = result
+    for model, rows in groups.items():
+        series = [items[i][1] for i in rows]
+        for i, result in zip(rows, group_results(job, [items[i][0] for i in rows], series,
+                                                  model), strict=True):
+            out[i] = result
+    return out
+
+
+def group_results(job, ids, series, model) -> list[dict]:
+    """Fit series ``(x, y, w, _)`` of one nonlinear model; result dicts in their order."""
+    lengths = np.array([s[0].size for s in series], dtype=np.int64)
+    def cat(parts):
+        return np.concatenate(parts) if parts else np.empty(0)
+
+    x, y = cat([s[0] for s in series]), cat([s[1] for s in series])
+    weights = None
+    if any(s[2] is not None for s in series):
+        weights = cat([np.ones(s[0].size) if s[2] is None else s[2] for s in series])
+    return curve_results(job, ids, x, y, lengths, weights, model)
+
+
+def curve_results(job, ids, x, y, lengths, weights, model) -> list[dict]:
+    """Fit flat series with one nonlinear model and write their result dicts."""
+    result = fit_many_curves(x, y, lengths, weights, model=model, options=job.options,
+                             detail=job.detail)
+    ok_rows = np.flatnonzero(result.ok).tolist()
+    if job.detail == "full":
+        fits = [fit_response(result.reports[j], job.include) for j in ok_rows]
+    else:
+        fits = curve_summary_rows(result, ok_rows)
+    bodies = dict(zip(ok_rows, fits, strict=True))
+    out = []
+    for j, ident in enumerate(ids):
+        fit = bodies.get(j)
+        if fit is not None:
+            job.count_flags(fit.get("flags") or ())
+            out.append({"id": ident, "status": "ok", "fit": fit})
+        else:
+            out.append({"id": ident, "status": "error",
+                        "error": fit_error_body(result.errors[j])})
+    job.counts["ok"] += len(bodies)
+    job.counts["error"] += len(ids) - len(bodies)
+    reasons = Counter(r["error"].get("code") for r in out if r["status"] == "error")
+    for code, count in reasons.items():
+        record_fit_failure(code, count)
+    return out

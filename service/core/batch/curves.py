@@ -1,0 +1,207 @@
+"""Many series, one nonlinear family: the compiled engine, and the single fit where it must.
+
+Entry point::
+
+    fit_many_curves(x, y, lengths, weights=None, *, model, options=FitOptions(),
+                    workers=1, detail="summary", always_grid=False) -> CurveBatchResult
+
+Series arrive concatenated like :func:`service.core.batch.driver.fit_many`'s.
+Every series is fitted with automatic start values (a built-in family) or with
+the model's start values (the ``expression`` family), on its own: a series that
+cannot be fitted gets its typed error (code, field, message) and the others
+are fitted.
+
+The compiled engine (:mod:`.curves_kernel`) takes the series of the families in
+:data:`~service.core.batch.curves_models.COMPILED` when the model holds no
+fixed values, bounds or start values and the weights are relative: finite
+data, weights > 0, at least p + 2 points and x >= 0 on the log scale, for power and
+for weibull. Chunks
+of series go to a thread pool (the kernel releases the GIL). Every other
+series, each series the kernel hands back (no converged start, a singular
+tangent plane, an exact fit), and every series with ``detail="full"`` goes
+through the family's single fit (:func:`service.core.families.fit_series`,
+without a grid), so it gets exactly the single-series answer or error.
+
+A caller's budget (:mod:`service.core.interrupt`) is checked between chunks and
+between series fitted one by one.
+"""
+
+from __future__ import annotations
+
+from concurrent.futures import ThreadPoolExecutor
+from dataclasses import replace
+from functools import lru_cache
+
+import numpy as np
+
+from service.core.batch.curves_kernel import STATS, fit_rows
+from service.core.batch.curves_models import COMPILED, L4_LOG, N_PARAMETERS, POWER, WEIBULL
+from service.core.batch.curves_post import finish
+from service.core.batch.curves_results import (
+    CurveBatchResult,
+    empty_curve_columns,
+    fill_from_report,
+)
+from service.core.checks.diagnostics import cut_offs
+from service.core.errors import FitError
+from service.core.families import family
+from service.core.interrupt import checkpoint
+from service.core.nonlinear.builtin.catalogue import BUILTINS
+from service.core.nonlinear.builtin.spec_check import equation, scale_of
+from service.core.spec import FitOptions, ModelSpec
+
+DETAILS = ("summary", "full")
+CHUNK_SERIES = 1024
+_OPTIONS = FitOptions()
+
+
+def parameter_names(model: ModelSpec) -> tuple[str, ...]:
+    """The fitted parameters of a nonlinear model, in report order (typed error if invalid)."""
+    entry = family(model.family)
+    if model.family == "expression":
+        return tuple(name for name, _ in model.parameters or ())
+    if model.family not in BUILTINS:
+        raise ValueError(f"{entry.name} is not a nonlinear family")
+    builtin = BUILTINS[model.family]
+    return equation(builtin.name, scale_of(builtin, model), tuple(model.fixed or ())
+                    ).parameter_names
+
+
+def compiled_family(model: ModelSpec, options: FitOptions) -> int | None:
+    """The compiled family id for this model and options, or None (single-fit engine)."""
+    builtin = BUILTINS.get(model.family)
+    if builtin is None or model.fixed or model.lower or model.upper or model.parameters \
+            or options.weighting != "relative":
+        return None
+    return COMPILED.get((builtin.name, scale_of(builtin, model)))
+
+
+@lru_cache(maxsize=64)
+def _cut_tables(p: int, top: int) -> tuple[np.ndarray, np.ndarray]:
+    """Outlier t and Cook's distance cut-offs for every n up to ``top`` (NaN below p + 2)."""
+    t, cook = np.full(top + 1, np.nan), np.full(top + 1, np.nan)
+    for n in range(p + 2, top + 1):
+        bonf, _, cook_cut = cut_offs(n, p, n - p)
+        t[n], cook[n] = bonf, cook_cut
+    t.setflags(write=False)
+    cook.setflags(write=False)
+    return t, cook
+
+
+def _screen(x, y, w, offsets, lengths, fid, p) -> np.ndarray:
+    """Rows the compiled engine may take: finite, weights > 0, n >= p + 2, domain."""
+    bad = ~(np.isfinite(x) & np.isfinite(y))
+    if w is not None:
+        bad |= ~(w > 0) | ~np.isfinite(w)
+    if fid in (L4_LOG, POWER, WEIBULL):
+        bad |= x < 0
+    counts = np.add.reduceat(bad.astype(np.int64), offsets[:-1]) if x.size else \
+        np.zeros(lengths.size, dtype=np.int64)
+    counts = np.where(lengths > 0, counts, 1)
+    return (counts == 0) & (lengths >= p + 2)
+
+
+def fit_many_curves(x, y, lengths, weights=None, *, model: ModelSpec,
+                    options: FitOptions = _OPTIONS, workers: int = 1, detail: str = "summary",
+                    always_grid: bool = False) -> CurveBatchResult:
+    """Fit ``len(lengths)`` series held back to back with the nonlinear ``model``.
+
+    Parameters
+    ----------
+    x, y : array_like, 1-D
+        All series concatenated; series ``i`` has ``lengths[i]`` points.
+    lengths : array_like of int
+    weights : array_like or None
+        Inverse variances, concatenated like ``x``; None for equal weights.
+    model : ModelSpec
+        A built-in nonlinear family or ``expression`` (its start values serve every series).
+    options : FitOptions
+        ``level``, ``missing`` and ``weighting`` apply; the grid only with ``detail="full"``.
+    workers : int
+        Threads fitting chunks of series in parallel.
+    detail : {"summary", "full"}
+        ``"full"`` fits every series with the single fit and keeps its report.
+    always_grid : bool
+        Solve from the grid's best point as well as the shape start (the single fit's
+        two main starts) even when the shape start converged: slower, for checking.
+
+    Returns
+    -------
+    CurveBatchResult
+    """
+    x = np.ascontiguousarray(x, dtype=float)
+    y = np.ascontiguousarray(y, dtype=float)
+    lengths = np.asarray(lengths, dtype=np.int64)
+    w = None if weights is None else np.ascontiguousarray(weights, dtype=float)
+    if detail not in DETAILS:
+        raise ValueError(f"detail must be one of {DETAILS}, not {detail!r}")
+    G = lengths.size
+    offsets = np.zeros(G + 1, dtype=np.int64)
+    np.cumsum(lengths, out=offsets[1:])
+    if offsets[-1] != x.size or y.size != x.size or (w is not None and w.size != x.size):
+        raise ValueError("x, y (and weights) must hold sum(lengths) values each")
+    try:
+        entry = family(model.family)
+        entry.check_spec(model, options)
+        names = parameter_names(model)
+    except FitError as exc:
+        out = empty_curve_columns(G, 0)
+        out["errors"] = dict.fromkeys(range(G), exc)
+        return CurveBatchResult(model.family, (), **out)
+    out = empty_curve_columns(G, len(names))
+    out["names"] = names
+    fid = compiled_family(model, options) if detail == "summary" else None
+    single = np.arange(G)
+    if fid is not None:
+        single = _compiled(out, fid, x, y, w, lengths, offsets, workers, always_grid)
+    plain = options if detail == "full" else replace(options, grid=None)
+    for row in single.tolist():
+        checkpoint()
+        a, b = offsets[row], offsets[row + 1]
+        try:
+            with np.errstate(all="ignore"):
+                report = entry.fit(x[a:b], y[a:b], None if w is None else w[a:b],
+                                   model=model, options=plain)
+        except FitError as exc:
+            out["errors"][row] = exc
+            continue
+        fill_from_report(out, row, report)
+        if detail == "full":
+            out["reports"][row] = report
+    del out["names"]
+    return CurveBatchResult(model.family, names, **out)
+
+
+def _compiled(out, fid, x, y, w, lengths, offsets, workers, always_grid) -> np.ndarray:
+    """Fit the rows the kernel may take; return the rows left for the single fit."""
+    p = N_PARAMETERS[fid]
+    G = lengths.size
+    take = np.flatnonzero(_screen(x, y, w, offsets, lengths, fid, p))
+    if take.size == 0:
+        return np.arange(G)
+    cut_t, cut_cook = _cut_tables(p, int(lengths[take].max()))
+    wk = np.ones_like(x) if w is None else w
+    status = np.ones(G, dtype=np.int8)
+    stats = np.full((G, len(STATS)), np.nan)
+    resid = np.zeros(x.size)
+    est, se = out["estimates"], out["std_errors"]
+
+    def run(chunk):
+        checkpoint()  # a caller's budget is checked between chunks, never inside the kernel
+        with np.errstate(all="ignore"):
+            fit_rows(fid, x, y, wk, offsets, chunk, cut_t, cut_cook, always_grid, est, se,
+                     stats, status, resid)
+
+    chunks = [take[i:i + CHUNK_SERIES] for i in range(0, take.size, CHUNK_SERIES)]
+    if workers > 1 and len(chunks) > 1:
+        with ThreadPoolExecutor(workers) as pool:
+            list(pool.map(run, chunks))
+    else:
+        for chunk in chunks:
+            run(chunk)
+    done = np.flatnonzero(status == 0)
+    if done.size:
+        finish(out, done, stats[done], lengths[done], p, resid, offsets)
+    est[status != 0] = np.nan
+    se[status != 0] = np.nan
+    return np.flatnonzero(status != 0)

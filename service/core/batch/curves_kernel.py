@@ -1,0 +1,289 @@
+"""Compiled per-series kernel of the nonlinear batch: starts, solve, inference and checks.
+
+:func:`fit_rows` fits every series of a chunk with one compiled family
+(:mod:`.curves_models`) and writes, per series, the estimates, their
+standard errors and the columns of :data:`STATS`, or marks the series for the
+single-fit engine (``status`` 1). A series is handed over when the kernel
+cannot promise the single fit's answer: no start converged, a singular
+tangent plane, an exact fit, or constant x.
+
+Per series: the shape start (:func:`.curves_starts.shape_start`) is solved first
+(:func:`.curves_solver.solve`); the grid's best point too when the shape
+start did not converge, or always with ``always_grid`` (the single fit solves
+both and keeps the lowest converged). logistic4 is written with slope > 0
+(the mirror of a falling curve, as the single fit reports it). Then, at the
+estimates, with ``e`` the weighted residuals and the tangent plane
+``Q = sqrt(W) J R^-1``: standard errors ``sigma sqrt(diag (J'WJ)^-1)``,
+leverages ``h = rowsums(Q²)``, Durbin-Watson's d and its p-value from Q's
+moments (:func:`service.core.checks.kernels.dw_p`), Koenker's Breusch-Pagan
+against x, the outlier/influence counts with the single fit's cut-offs, and the
+lack-of-fit F against pure error (conventions of
+:mod:`service.core.checks.diagnostics`).
+"""
+
+from __future__ import annotations
+
+import math
+
+import numba
+import numpy as np
+
+from service.core.batch.curves_grid import grid_start
+from service.core.batch.curves_models import (
+    GAUSSIAN_PEAK,
+    L4_LINEAR,
+    L4_LOG,
+    LINEAR_COLUMNS,
+    N_PARAMETERS,
+    evaluate,
+    on_log_x,
+)
+from service.core.batch.curves_solver import SMALL_GRADIENT, factor_and_norms, solve
+from service.core.batch.curves_starts import levels, project, shape_start
+from service.core.batch.residuals import design_sums
+from service.core.checks.kernels import chi2_tail, dw_p, dw_traces
+
+STATS = ("rss", "tss", "sum_log_w", "relative_offset", "iterations", "termination", "start",
+         "durbin_watson", "durbin_watson_p", "breusch_pagan", "breusch_pagan_p",
+         "lack_of_fit_f", "lack_of_fit_df", "pure_error_df", "n_outliers", "n_influential",
+         "n_high_leverage", "n_influential_outliers", "n_high_leverage_influential_outliers",
+         "max_correlation")
+"""Columns of the ``stats`` output, in order."""
+S = {name: i for i, name in enumerate(STATS)}
+SHAPE, GRID = 0, 1          # the start a series' fit came from
+SAME_RSS = 1e-9             # as builtin.fit.SAME_RSS
+EXACT_RTOL = 1e-13          # as nonlinear.analysis.EXACT_RTOL
+_RSS, _TSS, _LOGW, _OFFSET, _ITER, _TERM, _START = 0, 1, 2, 3, 4, 5, 6
+_DW, _DWP, _BP, _BPP, _LOF, _LOFDF, _PUREDF = 7, 8, 9, 10, 11, 12, 13
+_NOUT, _NINF, _NHIGH, _NBOTH, _NLEVER, _CORR = 14, 15, 16, 17, 18, 19
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def _attempt(fid, nl, u, y, sw, pooled, cols, coef, theta, mats):
+    """Linear parameters at ``nl`` (from the points), then solve on the pooled data
+    (``pooled``: distinct u, mean y, sqrt summed weights, pure-error SS, m);
+    returns (converged, rss, offset, iters, code)."""
+    lin = cols.shape[0]
+    if project(fid, nl, u, y, sw, cols, coef) == np.inf:
+        return False, np.inf, np.nan, 0, -1
+    for j in range(lin):
+        theta[j] = coef[j]
+    for j in range(theta.size - lin):
+        theta[lin + j] = nl[j]
+    ul, yl, swl, pure, m = pooled
+    code, rss, offset, iters = solve(fid, theta, ul[:m], yl[:m], swl[:m], mats, 200, pure,
+                                     u.size)
+    return code <= SMALL_GRADIENT, rss, offset, iters, code
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def _pool(u, y, w, order, ul, yl, swl):
+    """Pool the points by distinct u (in ``order``): the distinct u, weighted mean y and
+    square root of the summed weights of each; returns their count and the weighted
+    scatter of y about the means (the pure-error sum of squares)."""
+    n = u.size
+    k = 0
+    ss = 0.0
+    j = 0
+    while j < n:
+        stop = j
+        sw = swy = 0.0
+        while stop < n and u[order[stop]] == u[order[j]]:
+            sw += w[order[stop]]
+            swy += w[order[stop]] * y[order[stop]]
+            stop += 1
+        mean = swy / sw
+        for t in range(j, stop):
+            dev = y[order[t]] - mean
+            ss += w[order[t]] * dev * dev
+        ul[k], yl[k], swl[k] = u[order[j]], mean, math.sqrt(sw)
+        k += 1
+        j = stop
+    return k, ss
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def _summary(p, x, y, w, sw, f, js, low, d, rss, cut_t, cut_cook, q, e, out, est_se):
+    """Inference and residual checks at the estimates into ``out`` (stats row) and ``est_se``.
+
+    ``js`` is the scaled weighted Jacobian (p x n), ``low`` the Cholesky factor of ``js'js`` and
+    ``d`` the column norms (as :func:`.curves_solver.solve` leaves them)."""
+    n = y.size
+    df = n - p
+    sigma2 = rss / df
+    inv = np.zeros((p, p))               # inverse of the Cholesky factor, then (Js'Js)^-1
+    cov = np.empty((p, p))
+    for j in range(p):
+        inv[j, j] = 1.0 / low[j, j]
+        for i in range(j + 1, p):
+            t = 0.0
+            for k in range(j, i):
+                t -= low[i, k] * inv[k, j]
+            inv[i, j] = t / low[i, i]
+    for j in range(p):                   # (Js'Js)^-1 = inv' inv, scaled
+        for k in range(j + 1):
+            t = 0.0
+            for i in range(j, p):
+                t += inv[i, j] * inv[i, k]
+            cov[j, k] = cov[k, j] = t
+    for j in range(p):
+        est_se[j] = math.sqrt(sigma2 * cov[j, j]) / d[j]
+    worst = 0.0
+    for j in range(p):
+        for k in range(j):
+            worst = max(worst, abs(cov[j, k]) / math.sqrt(cov[j, j] * cov[k, k]))
+    out[_CORR] = worst
+    for i in range(n):
+        e[i] = sw[i] * (y[i] - f[i])
+        for k in range(p):
+            t = 0.0
+            for j in range(k + 1):
+                t += inv[k, j] * js[j, i]
+            q[k, i] = t
+    dd = ss = 0.0
+    xbar = 0.0
+    for i in range(n):
+        ss += e[i] * e[i]
+        xbar += x[i]
+        if i > 0:
+            dd += (e[i] - e[i - 1]) * (e[i] - e[i - 1])
+    xbar /= n
+    out[_DW] = dd / ss if ss > 0 else np.nan
+    tg, fg, faq = design_sums(q, p, n)
+    tr1, tr2 = dw_traces(n, tg, fg, faq)
+    out[_DWP] = dw_p(out[_DW], n - p, tr1, tr2)
+    sxx = szx = sz = szz = 0.0
+    for i in range(n):
+        sxx += (x[i] - xbar) * (x[i] - xbar)
+    for i in range(n):
+        zc = e[i] * e[i] - ss / n
+        sz += zc
+        szx += zc * (x[i] - xbar)
+        szz += zc * zc
+    lm = n * (sz * sz / n + szx * szx / sxx) / szz if szz > 0 else np.nan
+    out[_BP] = lm
+    out[_BPP] = chi2_tail(1, lm) if n > 2 and szz > 0 else np.nan
+    n_out = n_inf = n_high = n_both = n_lever = 0
+    sigma = math.sqrt(sigma2)
+    for i in range(n):
+        h = 0.0
+        for k in range(p):
+            h += q[k, i] * q[k, i]
+        one_h = 1.0 - h
+        std = e[i] / (math.sqrt(one_h) * sigma)
+        cook = std * std * h / (p * one_h)
+        stud = e[i] / math.sqrt((rss - e[i] * e[i] / one_h) / (df - 1) * one_h) \
+            if df > 1 else np.nan
+        outlier = abs(stud) > cut_t
+        influential = cook > cut_cook
+        high = h > 2.0 * p / n
+        n_out += outlier
+        n_inf += influential
+        n_high += high
+        n_both += outlier and influential
+        n_lever += outlier and influential and high
+    out[_NOUT], out[_NINF], out[_NHIGH] = n_out, n_inf, n_high
+    out[_NBOTH], out[_NLEVER] = n_both, n_lever
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def fit_rows(fid, x, y, w, offsets, rows, cut_t, cut_cook, always_grid, est, se, stats,
+             status, resid):
+    """Fit the series ``rows`` (indices into ``offsets``) with family ``fid``.
+
+    ``w`` holds the weights (ones when none); ``cut_t[n]`` and ``cut_cook[n]`` the
+    outlier and Cook's distance cut-offs for ``n`` points. Writes row ``r`` of ``est``,
+    ``se`` (G x p), ``stats`` (G x len(STATS)) and ``resid`` (the weighted residuals, flat
+    like ``x``), and ``status[r]``: 0 fitted here, 1 for the single-fit engine.
+    """
+    p = N_PARAMETERS[fid]
+    lin = LINEAR_COLUMNS[fid]
+    log_x = on_log_x(fid)
+    nmax = 1
+    for r in rows:
+        nmax = max(nmax, offsets[r + 1] - offsets[r])
+    u_all, sw_all = np.empty(nmax), np.empty(nmax)
+    f, v = np.empty(nmax), np.empty(nmax)
+    lev, means = np.empty(nmax), np.empty(nmax)
+    jac, mats = np.empty(p * nmax), np.empty((6 * p + 11, p))
+    cols_all, q = np.empty((lin, nmax)), np.empty((p, nmax))
+    coef, nl, theta, best = np.empty(lin), np.empty(2), np.empty(p), np.empty(p)
+    ul_all, yl_all, swl_all = np.empty(nmax), np.empty(nmax), np.empty(nmax)
+    for r in rows:
+        a, b = offsets[r], offsets[r + 1]
+        n = b - a
+        xs, ys, ws = x[a:b], y[a:b], w[a:b]
+        u, sw, cols = u_all[:n], sw_all[:n], cols_all[:, :n]
+        status[r] = 1
+        for i in range(n):
+            u[i] = (math.log(xs[i]) if xs[i] > 0 else -np.inf) if log_x else xs[i]
+            sw[i] = math.sqrt(ws[i])
+        order = np.argsort(u)
+        m = levels(u, ys, order, lev, means)
+        k, ss_pure = _pool(u, ys, ws, order, ul_all, yl_all, swl_all)
+        pooled = (ul_all, yl_all, swl_all, ss_pure, k)
+        found, best_rss, start, spent, current = False, np.inf, SHAPE, 0, False
+        code, offset = -1, np.nan
+        if shape_start(fid, xs, u, ys, lev, means, m, nl, v[:n]):
+            ok, rss, off, iters, c = _attempt(fid, nl, u, ys, sw, pooled, cols, coef, theta,
+                                              mats)
+            spent += iters
+            if ok:
+                found, best_rss, current, code, offset = True, rss, True, c, off
+                best[:] = theta
+        if (always_grid or not found) and grid_start(fid, xs, u, ys, sw, cols, coef, nl):
+            ok, rss, off, iters, c = _attempt(fid, nl, u, ys, sw, pooled, cols, coef, theta,
+                                              mats)
+            spent += iters
+            current = False
+            if ok and (not found or rss < best_rss * (1.0 - SAME_RSS)):
+                found, best_rss, start, current, code, offset = True, rss, GRID, True, c, off
+                best[:] = theta
+        if not found:
+            continue
+        theta[:] = best
+        rss = best_rss
+        if (fid == L4_LOG or fid == L4_LINEAR) and theta[2] < 0:   # the same curve, slope > 0
+            theta[0], theta[1], theta[2] = best[1], best[0], -best[2]
+            current = False
+        if fid == GAUSSIAN_PEAK and theta[3] < 0:                  # the same curve, width > 0
+            theta[3] = -theta[3]
+            current = False
+        if not current:     # the solver's state (factor, column norms) at the kept estimates
+            code, rss, offset, _ = solve(fid, theta, ul_all[:k], yl_all[:k], swl_all[:k], mats,
+                                         200, ss_pure, n)
+        zz = 0.0
+        for i in range(n):
+            zz += sw[i] * ys[i] * sw[i] * ys[i]
+        if code > SMALL_GRADIENT or not rss > EXACT_RTOL * EXACT_RTOL * zz or n <= p + 1:
+            continue
+        low, d = factor_and_norms(mats, p)
+        js = jac[:p * n].reshape((p, n))
+        if not evaluate(fid, theta, u, f[:n], js):
+            continue
+        for j in range(p):                   # the scaled weighted Jacobian of the points
+            for i in range(n):
+                js[j, i] *= sw[i] / d[j]
+        row = stats[r]
+        row[_RSS], row[_OFFSET], row[_ITER], row[_TERM], row[_START] = \
+            rss, offset, spent, code, start
+        _summary(p, xs, ys, ws, sw, f[:n], js, low, d, rss,
+                 cut_t[n], cut_cook[n], q, resid[a:b], row, se[r])
+        if not math.isfinite(row[_BP]) and n > 2:      # constant x: the single fit decides
+            continue
+        row[_LOF] = row[_LOFDF] = row[_PUREDF] = np.nan
+        if k < n:
+            row[_LOFDF], row[_PUREDF] = k - p, n - k
+            if k - p > 0 and ss_pure > 0:
+                row[_LOF] = (max(rss - ss_pure, 0.0) / (k - p)) / (ss_pure / (n - k))
+        sw_total = swy = logw = 0.0
+        for i in range(n):
+            sw_total += ws[i]
+            swy += ws[i] * ys[i]
+            logw += math.log(ws[i])
+        tss = 0.0
+        for i in range(n):
+            tss += ws[i] * (ys[i] - swy / sw_total) ** 2
+        row[_TSS], row[_LOGW] = tss, logw
+        est[r] = theta
+        status[r] = 0

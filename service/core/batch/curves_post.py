@@ -1,0 +1,134 @@
+"""Finishing the compiled rows of a nonlinear batch: whole-fit measures, tests and flags.
+
+Vectorized over the rows the kernel fitted (:mod:`.curves_kernel`), with the
+conventions of the single fit (:mod:`service.core.nonlinear.inference`,
+:mod:`service.core.checks.diagnostics`, :mod:`service.core.checks.flags`,
+:mod:`service.core.nonlinear.flags`):
+
+* sigma ``sqrt(RSS/df)``, R² about the weighted mean, adjusted R², the Gaussian
+  log-likelihood at the ML variance plus ``0.5 sum(log w)``, AIC, AICc, BIC with
+  k = number of parameters;
+* Shapiro-Wilk of the weighted residuals (Royston's AS R94 weights, the compiled
+  p-value shared with the single fit), lack-of-fit p from ``F(k - p, n - k)``;
+* flags at the per-test level ``TEST_ALPHA``; influence and leverage are info
+  unless one of their points is also an outlier. ``poorly_determined_parameter``
+  rests on the relative standard error alone: profile limits (the single fit's
+  other evidence for it) are not computed in a batch summary.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numba
+import numpy as np
+from scipy import special
+
+from service.core.batch.curves_kernel import S
+from service.core.batch.curves_results import CURVE_FLAG_CODES
+from service.core.batch.curves_solver import CODES
+from service.core.checks.flags import POINTS_PER_PARAMETER, TEST_ALPHA
+from service.core.checks.kernels import shapiro_p
+from service.core.checks.shapiro_tables import SHAPIRO_MAX_N, shapiro_weights
+from service.core.nonlinear.flags import CORRELATION_CUT, RELATIVE_SE_CUT
+
+LOG_2PI = math.log(2 * math.pi)
+STARTS = ("shape", "grid_best")
+_BIT = {code: i for i, code in enumerate(CURVE_FLAG_CODES)}
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def _shapiro_many(srt, coef):
+    """W and p of each row of sorted residuals (all of one length) with the AS R94 weights."""
+    g, n = srt.shape
+    w, p = np.full(g, np.nan), np.full(g, np.nan)
+    for r in range(g):
+        if srt[r, 0] == srt[r, n - 1]:
+            continue
+        mean = 0.0
+        for i in range(n):
+            mean += srt[r, i]
+        mean /= n
+        spread = acc = 0.0
+        for i in range(n):
+            spread += (srt[r, i] - mean) * (srt[r, i] - mean)
+            acc += coef[i] * srt[r, i]
+        w[r] = min(acc * acc / spread, 1.0)
+        p[r] = shapiro_p(w[r], n)
+    return w, p
+
+
+def finish(out: dict, rows: np.ndarray, stats: np.ndarray, n: np.ndarray, p: int,
+           resid: np.ndarray, offsets: np.ndarray) -> None:
+    """Write the columns of the compiled ``rows`` (``stats``: their kernel rows)."""
+    cols = out["columns"]
+    df = n - p
+    rss, tss = stats[:, S["rss"]], stats[:, S["tss"]]
+    with np.errstate(all="ignore"):
+        r2 = np.where(tss > 0, 1.0 - rss / tss, np.nan)
+        llf = -0.5 * n * (LOG_2PI + np.log(rss / n) + 1.0) + 0.5 * stats[:, S["sum_log_w"]]
+        aic = -2.0 * llf + 2.0 * p
+        lof_f = stats[:, S["lack_of_fit_f"]]
+        lof_p = np.where(np.isfinite(lof_f), special.fdtrc(stats[:, S["lack_of_fit_df"]],
+                                                            stats[:, S["pure_error_df"]], lof_f),
+                         np.nan)
+        cols["aicc"][rows] = np.where(n - p - 1 > 0, aic + 2.0 * p * (p + 1) / (n - p - 1),
+                                      np.nan)
+    cols["n"][rows], cols["df_residual"][rows] = n, df
+    cols["rss"][rows], cols["sigma"][rows] = rss, np.sqrt(rss / df)
+    cols["r_squared"][rows] = r2
+    cols["adj_r_squared"][rows] = 1.0 - (1.0 - r2) * (n - 1) / df
+    cols["aic"][rows], cols["bic"][rows] = aic, -2.0 * llf + p * np.log(n)
+    cols["converged"][rows] = True
+    cols["termination"][rows] = np.asarray(CODES, dtype=object)[
+        stats[:, S["termination"]].astype(np.int64)]
+    cols["start_strategy"][rows] = np.asarray(STARTS, dtype=object)[
+        stats[:, S["start"]].astype(np.int64)]
+    cols["iterations"][rows] = stats[:, S["iterations"]].astype(np.int64)
+    cols["relative_offset"][rows] = stats[:, S["relative_offset"]]
+    for name in ("durbin_watson", "durbin_watson_p", "breusch_pagan", "breusch_pagan_p",
+                 "lack_of_fit_f"):
+        cols[name][rows] = stats[:, S[name]]
+    cols["lack_of_fit_p"][rows] = lof_p
+    for name in ("n_outliers", "n_influential", "n_high_leverage"):
+        cols[name][rows] = stats[:, S[name]].astype(np.int64)
+    _shapiro(cols, rows, n, resid, offsets)
+    _flags(out, rows, stats, n, p)
+    out["ok"][rows] = True
+    out["compiled"][rows] = True
+
+
+def _shapiro(cols, rows, n, resid, offsets) -> None:
+    for length in np.unique(n).tolist():
+        if not 3 <= length <= SHAPIRO_MAX_N:
+            continue
+        pick = rows[n == length]
+        srt = np.sort(resid[offsets[pick][:, None] + np.arange(length)], axis=1)
+        w, pv = _shapiro_many(srt, shapiro_weights(length))
+        cols["shapiro_wilk"][pick], cols["shapiro_wilk_p"][pick] = w, pv
+
+
+def _flags(out, rows, stats, n, p) -> None:
+    cols = out["columns"]
+    est, se = out["estimates"][rows], out["std_errors"][rows]
+    with np.errstate(all="ignore"):
+        relative = np.where(est != 0, np.abs(se / est), np.inf)
+    both = stats[:, S["n_influential_outliers"]] > 0
+    lever = stats[:, S["n_high_leverage_influential_outliers"]] > 0
+    rules = (("parameters_nearly_redundant", stats[:, S["max_correlation"]] > CORRELATION_CUT, 1),
+             ("poorly_determined_parameter", ~(relative <= RELATIVE_SE_CUT).all(axis=1), 1),
+             ("few_points_per_parameter", n < POINTS_PER_PARAMETER * p, 0),
+             ("lack_of_fit", cols["lack_of_fit_p"][rows] < TEST_ALPHA, 2),
+             ("non_normal_residuals", cols["shapiro_wilk_p"][rows] < TEST_ALPHA, 1),
+             ("non_constant_variance", cols["breusch_pagan_p"][rows] < TEST_ALPHA, 1),
+             ("serial_correlation", cols["durbin_watson_p"][rows] < TEST_ALPHA, 1),
+             ("outliers", stats[:, S["n_outliers"]] > 0, 1),
+             ("influential_points", stats[:, S["n_influential"]] > 0, both.astype(int)),
+             ("high_leverage", stats[:, S["n_high_leverage"]] > 0, lever.astype(int)))
+    mask = np.zeros(rows.size, dtype=np.int64)
+    levels = np.zeros(rows.size, dtype=np.int64)
+    for code, fired, level in rules:
+        i = _BIT[code]
+        mask |= fired.astype(np.int64) << i
+        levels |= np.where(fired, np.asarray(level, dtype=np.int64), 0) << 2 * i
+    cols["flags"][rows], cols["flag_levels"][rows] = mask, levels

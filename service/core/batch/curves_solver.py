@@ -1,0 +1,290 @@
+"""Compiled Levenberg-Marquardt for one series of the nonlinear batch, with a tight stop.
+
+Method: Levenberg-Marquardt on the normal equations of the column-scaled
+weighted Jacobian ``Js = sqrt(W) J D^-1`` (``D``: column norms, so the damping
+``lambda I`` is Marquardt's scaling), Cholesky factors of the small p x p
+systems. Convergence is judged at a point with the single fit's criterion,
+the Bates & Watts (1981) relative offset
+``(||Q1' r|| / sqrt(p)) / (||r - Q1 Q1' r|| / sqrt(n - p))``, where
+``||Q1' r||² = g' (Js'Js)^-1 g`` with ``g = Js' r``; the batch asks for
+:data:`TARGET_OFFSET`, a hundred times tighter than the single fit's 1e-8
+(:mod:`service.core.nonlinear.polish`), so that both stop within a tiny
+fraction of a standard error of the same minimum. When rounding stops the
+descent first, the single fit's own 1e-8 is accepted; ``small_gradient``
+(``||Q1' r||`` at the rounding level of the data) is the same floor as there.
+Anything else (a singular Jacobian, a stall, the iteration limit, a
+non-finite curve) is reported, and the driver hands the series to the
+single-fit engine.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numba
+import numpy as np
+
+from service.core.batch.curves_models import constants, point, prepass
+
+TARGET_OFFSET = 1e-10
+ACCEPT_OFFSET = 1e-8       # the single fit's criterion (solver.DEFAULT_TOLERANCE)
+MAX_ITERATIONS = 200
+EPS = float(np.finfo(float).eps)
+FLAT_OFFSET = 1e-3         # as polish.FLAT_OFFSET
+ACCELERATE_OFFSET = 0.05   # below this relative offset Gauss-Newton's linear rate is steady
+PIVOT_FLOOR = 1e-24        # squared scaled pivot: below it the tangent plane is singular
+RELATIVE_OFFSET, SMALL_GRADIENT, STALLED, SINGULAR, LIMIT, NON_FINITE = 0, 1, 2, 3, 4, 5
+CODES = ("relative_offset", "small_gradient", "stalled", "singular_jacobian", "iteration_limit",
+         "non_finite_model")
+"""Termination codes (the first two mean converged, as in the single fit)."""
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def cholesky(a, p, low):
+    """Lower Cholesky factor of ``a[:p, :p]`` into ``low``; False when not positive definite."""
+    for j in range(p):
+        s = a[j, j]
+        for k in range(j):
+            s -= low[j, k] * low[j, k]
+        if not s > PIVOT_FLOOR:
+            return False
+        low[j, j] = math.sqrt(s)
+        for i in range(j + 1, p):
+            t = a[i, j]
+            for k in range(j):
+                t -= low[i, k] * low[j, k]
+            low[i, j] = t / low[j, j]
+    return True
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def forward(low, p, b, out):
+    """Solve ``low z = b``; returns ``||z||²``."""
+    total = 0.0
+    for i in range(p):
+        t = b[i]
+        for k in range(i):
+            t -= low[i, k] * out[k]
+        out[i] = t / low[i, i]
+        total += out[i] * out[i]
+    return total
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def backward(low, p, z, out):
+    """Solve ``low' x = z``."""
+    for i in range(p - 1, -1, -1):
+        t = z[i]
+        for k in range(i + 1, p):
+            t -= low[k, i] * out[k]
+        out[i] = t / low[i, i]
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def linearize(fid, theta, u, y, sw, p, a, g, d, row, buf):
+    """One pass over the points at ``theta``: scaled ``Js'Js`` into ``a``, ``Js' r`` into
+    ``g`` and the column norms of ``sqrt(W) J`` into ``d`` (``Js = sqrt(W) J D^-1``).
+
+    Returns ``(finite, rss, floor, slack)``: False when the curve or a derivative is not
+    finite; the rounding floor of ``||Q1' r||`` and the rounding slack of the RSS are
+    those of :func:`service.core.nonlinear.polish.assess`.
+    """
+    c0, c1 = constants(fid, theta)
+    prepass(fid, theta, c0, u, buf)
+    worst = slack = rss = 0.0
+    for j in range(p):
+        g[j] = 0.0
+        for k in range(j + 1):
+            a[j, k] = 0.0
+    for i in range(y.size):
+        fi = point(fid, theta, c0, c1, u[i], buf[i], row)
+        w = sw[i]
+        ri = w * (y[i] - fi)
+        rss += ri * ri
+        rounding = 4.0 * EPS * w * (abs(y[i]) + abs(fi))
+        worst = max(worst, rounding)
+        slack += 2.0 * abs(ri) * rounding + rounding * rounding
+        for j in range(p):
+            cj = row[j] * w
+            g[j] += cj * ri
+            for k in range(j + 1):
+                a[j, k] += cj * row[k] * w
+    if not math.isfinite(rss):
+        return False, np.inf, 0.0, 0.0
+    for j in range(p):
+        d[j] = math.sqrt(a[j, j])
+        if not math.isfinite(d[j]) or not math.isfinite(g[j]):
+            return False, np.inf, 0.0, 0.0
+    for j in range(p):
+        if d[j] > 0:
+            g[j] /= d[j]
+            for k in range(j + 1):
+                a[j, k] /= d[j] * d[k]
+                a[k, j] = a[j, k]
+    return True, rss, 2.0 * math.sqrt(p) * worst, slack
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def check(a, g, d, p, low, z, rss, floor, n):
+    """The convergence check at a linearized point: ``(code, offset)``.
+
+    ``code`` is RELATIVE_OFFSET or SMALL_GRADIENT when met, SINGULAR for a singular
+    tangent plane (or a zero column), STALLED for a zero residual, else -1 (go on).
+    ``low`` receives the Cholesky factor of ``a``.
+    """
+    for j in range(p):
+        if not d[j] > 0:
+            return SINGULAR, np.nan
+    if not cholesky(a, p, low):
+        return SINGULAR, np.nan
+    proj2 = forward(low, p, g, z)
+    orth2 = rss - proj2
+    if math.sqrt(proj2) <= floor:
+        return SMALL_GRADIENT, (math.sqrt(proj2 / p) / math.sqrt(orth2 / (n - p))
+                                if orth2 > 0 else 0.0)
+    if not orth2 > 0:
+        return STALLED, np.inf
+    offset = math.sqrt(proj2 / p) / math.sqrt(orth2 / (n - p))
+    return (RELATIVE_OFFSET if offset <= TARGET_OFFSET else -1), offset
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def _try(fid, trial, u, y, sw, p, pure, n, rss, offset, slack, mats, row, buf):
+    """Linearize at ``trial`` (into the trial rows of ``mats``) and judge it.
+
+    Returns ``(verdict, code, rss, offset, slack)``: verdict 1 accept, 0 reject (try a
+    shorter step), -1 a flat step that did not lower the relative offset (stop).
+    """
+    trial_a, trial_low = mats[4 * p:5 * p], mats[5 * p:6 * p]
+    z, trial_g, trial_d = mats[6 * p + 1], mats[6 * p + 5], mats[6 * p + 6]
+    ok, rt, floor_t, slack_t = linearize(fid, trial, u, y, sw, p, trial_a, trial_g, trial_d,
+                                         row, buf)
+    rt += pure
+    if not ok:
+        return 0, -1, rss, offset, slack
+    flat = offset <= FLAT_OFFSET and rt <= rss + slack
+    if not (rt < rss or flat):
+        return 0, -1, rss, offset, slack
+    code_t, offset_t = check(trial_a, trial_g, trial_d, p, trial_low, z, rt, floor_t, n)
+    if rt < rss or offset_t < offset:
+        return 1, code_t, rt, offset_t, slack_t
+    return -1, -1, rss, offset, slack
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def _commit(theta, trial, mats, p):
+    """Make the judged trial point the current one (estimates, factor, gradient, norms)."""
+    for j in range(p):
+        theta[j] = trial[j]
+        mats[6 * p, j] = mats[6 * p + 5, j]              # g
+        mats[6 * p + 2, j] = mats[6 * p + 6, j]          # d
+        for k in range(p):
+            mats[p + j, k] = mats[4 * p + j, k]          # a
+            mats[j, k] = mats[5 * p + j, k]              # low
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def solve(fid, theta, u, y, sw, mats, max_iterations, pure, n):
+    """Levenberg-Marquardt from ``theta`` (updated in place) to the tight stop.
+
+    The data may be pooled by distinct x (replicates): ``y`` the weighted mean response
+    at each ``u``, ``sw`` the square roots of the summed weights, ``pure`` the weighted
+    scatter about those means (the pure-error sum of squares, a constant part of the
+    RSS) and ``n`` the number of points; the RSS, gradient and relative offset are those
+    of the points, at a third of the work for triplicates.
+
+    ``mats`` is scratch of shape ``(6p + 11, p)``; on a converged return
+    :func:`factor_and_norms` reads the Cholesky factor of the scaled ``Js'Js`` at
+    ``theta`` and the column norms ``D`` from it.
+
+    A step is accepted when it lowers the RSS; once the relative offset is below
+    ``FLAT_OFFSET``, where the RSS is flat to first order and float64 cannot confirm
+    a step, also when the RSS stays within its rounding slack and the relative
+    offset falls (as the single fit's polish does). Gauss-Newton converges linearly on
+    noisy data; below :data:`ACCELERATE_OFFSET` each iteration first tries the step
+    extrapolated from the last two (Anderson acceleration of depth one, in the scaled
+    parameters), judged by the same rules, and falls back on the plain step.
+
+    Returns
+    -------
+    code : int (:data:`CODES`), rss : float, offset : float, iterations : int
+    """
+    p = theta.size
+    low, a, m, low_m = mats[0:p], mats[p:2 * p], mats[2 * p:3 * p], mats[3 * p:4 * p]
+    g, z, d, step = mats[6 * p], mats[6 * p + 1], mats[6 * p + 2], mats[6 * p + 3]
+    trial, row = mats[6 * p + 4], mats[6 * p + 7]
+    prev_theta, prev_step, extra = mats[6 * p + 8], mats[6 * p + 9], mats[6 * p + 10]
+    buf = np.empty(y.size)
+    ok, rss, floor, slack = linearize(fid, theta, u, y, sw, p, a, g, d, row, buf)
+    if not ok:
+        return NON_FINITE, np.inf, np.nan, 0
+    rss += pure
+    code, offset = check(a, g, d, p, low, z, rss, floor, n)
+    lam = 1e-3
+    have_prev = False
+    for it in range(max_iterations):
+        if code >= 0:
+            return code, rss, offset, it
+        accepted = False
+        while lam < 1e16:
+            for j in range(p):
+                for k in range(p):
+                    m[j, k] = a[j, k]
+                m[j, j] += lam
+            if not cholesky(m, p, low_m):
+                lam *= 10.0
+                continue
+            forward(low_m, p, g, trial)
+            backward(low_m, p, trial, step)
+            small = True
+            for j in range(p):
+                step[j] /= d[j]
+                trial[j] = theta[j] + step[j]
+                small &= abs(step[j]) <= 4.0 * EPS * abs(theta[j])
+            if small:
+                break
+            if have_prev and offset <= ACCELERATE_OFFSET:
+                num = den = 0.0
+                for j in range(p):
+                    ds = (step[j] - prev_step[j]) * d[j]
+                    num += ds * step[j] * d[j]
+                    den += ds * ds
+                if den > 0:
+                    gamma = num / den
+                    for j in range(p):
+                        extra[j] = trial[j] - gamma * (theta[j] - prev_theta[j] + step[j]
+                                                       - prev_step[j])
+                    verdict, c, r, o, sl = _try(fid, extra, u, y, sw, p, pure, n, rss, offset,
+                                                slack, mats, row, buf)
+                    if verdict == 1:
+                        for j in range(p):
+                            prev_theta[j], prev_step[j] = theta[j], step[j]
+                        _commit(theta, extra, mats, p)
+                        code, rss, offset, slack = c, r, o, sl
+                        accepted = True
+                        lam = max(lam * 0.1, 1e-12)
+                        break
+            verdict, c, r, o, sl = _try(fid, trial, u, y, sw, p, pure, n, rss, offset, slack,
+                                        mats, row, buf)
+            if verdict == 1:
+                for j in range(p):
+                    prev_theta[j], prev_step[j] = theta[j], step[j]
+                have_prev = True
+                _commit(theta, trial, mats, p)
+                code, rss, offset, slack = c, r, o, sl
+                accepted = True
+                lam = max(lam * 0.1, 1e-12)
+                break
+            if verdict < 0:
+                break                                # a flat step that did not help
+            lam *= 10.0
+        if not accepted:
+            return (RELATIVE_OFFSET if offset <= ACCEPT_OFFSET else STALLED), rss, offset, it
+    return LIMIT, rss, offset, max_iterations
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def factor_and_norms(mats, p):
+    """The Cholesky factor of the scaled ``Js'Js`` and the column norms ``D`` that
+    :func:`solve` leaves in its scratch."""
+    return mats[0:p], mats[6 * p + 2]
