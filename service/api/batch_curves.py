@@ -16,6 +16,8 @@ import numpy as np
 
 from schemas.batch_curves import curve_summary_rows
 from service.core.batch.curves import fit_many_curves
+from service.core.data.inputs import check_pairs
+from service.core.errors import DataError
 from service.http.errors import fit_error_body
 from service.http.reporting import fit_response
 from service.runtime.observability import record_fit_failure
@@ -36,6 +38,11 @@ def mixed_results(job, items) -> list[dict]:
             continue
         model = series[3] if series[3] is not None else job.model
         if is_nonlinear(model):
+            try:   # the curve engine takes series back to back: their pairs must match
+                check_pairs(*series[:3])
+            except DataError as exc:
+                out[i] = _error_result(job, items[i][0], exc)
+                continue
             groups.setdefault(model, []).append(i)
         else:
             polynomial.append(i)
@@ -49,6 +56,12 @@ def mixed_results(job, items) -> list[dict]:
                                                   model), strict=True):
             out[i] = result
     return out
+
+
+def _error_result(job, ident, exc: DataError) -> dict:
+    job.counts["error"] += 1
+    record_fit_failure(exc.code, 1)
+    return {"id": ident, "status": "error", "error": fit_error_body(exc)}
 
 
 def group_results(job, ids, series, model) -> list[dict]:

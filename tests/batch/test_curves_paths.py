@@ -142,3 +142,25 @@ def test_arrow_body_with_a_nonlinear_model(client, dose_series):
     as_json = client.post(url, data=sink.getvalue(), content_type=arrow).get_json()
     assert as_json["results"][0]["fit"]["family"] == "logistic4"
     assert as_json["summary"]["ok"] == len(dose_series) and as_json["summary"]["error"] == 1
+
+
+@pytest.mark.parametrize("detail", ["summary", "full"])
+@pytest.mark.parametrize("bad, field", [({"x": [1.0], "y": [1.0, 2.0]}, "y"),
+                                        ({"x": [None], "y": [None, None]}, "y"),
+                                        ({"x": [1.0, 2.0], "y": [1.0, 2.0], "weights": [1.0]},
+                                         "weights")])
+def test_unpaired_arrays_are_an_error_row_not_a_server_error(client, dose_series, detail, bad,
+                                                             field):
+    # found by the live fuzz test: a nonlinear series whose y (or weights) length differed
+    # from x's reached the curve engine and answered 500; now the row says which array
+    x, y = dose_series[0]
+    res = _post(client, {"series": [{"id": "bad", **bad}, {"id": "good", "x": x.tolist(),
+                                                          "y": y.tolist()}],
+                         "model": {"family": "logistic4"}, "detail": detail})
+    assert res.status_code == 200, res.data[:300]
+    out = res.get_json()
+    first, second = out["results"]
+    assert first["status"] == "error" and first["error"]["code"] == "invalid_data"
+    assert field in first["error"]["errors"]
+    assert second["status"] == "ok"
+    assert out["summary"]["error"] == 1 and out["summary"]["ok"] == 1

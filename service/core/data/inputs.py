@@ -49,6 +49,23 @@ def _as_vector(values, name: str) -> np.ndarray:
     return arr
 
 
+def check_pairs(x: np.ndarray, y: np.ndarray, weights: np.ndarray | None) -> None:
+    """Refuse ``y`` (or ``weights``) of another length than ``x``.
+
+    Raises
+    ------
+    DataError
+        Naming ``y`` or ``weights``, with the two lengths.
+    """
+    n = x.size
+    if y.size != n:
+        raise DataError(f"x has {n} values but y has {y.size}.", field="y",
+                        fix="Send x and y with the same number of values, paired by position.")
+    if weights is not None and weights.size != n:
+        raise DataError(f"x has {n} values but weights has {weights.size}.", field="weights",
+                        fix="Send one weight per point, or no weights at all.")
+
+
 def clean_data(x, y, weights, missing: str) -> CleanData:
     """Validate lengths, finiteness, weights and the missing-value policy.
 
@@ -60,13 +77,8 @@ def clean_data(x, y, weights, missing: str) -> CleanData:
     """
     xa, ya = _as_vector(x, "x"), _as_vector(y, "y")
     wa = None if weights is None else _as_vector(weights, "weights")
+    check_pairs(xa, ya, wa)
     n = xa.size
-    if ya.size != n:
-        raise DataError(f"x has {n} values but y has {ya.size}.", field="y",
-                        fix="Send x and y with the same number of values, paired by position.")
-    if wa is not None and wa.size != n:
-        raise DataError(f"x has {n} values but weights has {wa.size}.", field="weights",
-                        fix="Send one weight per point, or no weights at all.")
     if n == 0:
         raise DataError("No data points were given.", field="x",
                         fix="Send at least as many points as the model has coefficients.")
