@@ -88,11 +88,12 @@ def fast_body(loader):
                     data = orjson.loads(json_text(req))
                 except orjson.JSONDecodeError:
                     data = None
-                body = loader(data)
+                body = fast.loader(data)
                 if body is not None:
                     return view(body, *args, **kwargs)
             return decorated(*args, **kwargs)
 
+        fast.loader = loader  # looked up per request (a test may swap it)
         return fast
 
     return decorator
