@@ -178,3 +178,14 @@ def test_the_fast_path_answers_byte_for_byte_what_the_schema_path_answers(app, b
     slow = client.post("/v1/fit", json=body)
     assert (fast.status_code, fast.get_data()) == (slow.status_code, slow.get_data())
     assert fast.headers["Content-Type"] == slow.headers["Content-Type"]
+
+
+def test_the_fast_loader_knows_every_field_of_the_schemas_it_stands_in_for():
+    # A field added to a schema but not to the loader would be missing from its result.
+    from schemas import fit_fast
+    from schemas.fit import GridSchema
+    from schemas.polynomial import ModelSchema
+
+    assert set(FitRequestSchema().fields) == fit_fast._TOP
+    assert set(ModelSchema().fields) == fit_fast._MODEL
+    assert set(GridSchema().fields) == fit_fast._GRID
