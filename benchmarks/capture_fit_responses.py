@@ -7,7 +7,8 @@ missing values, nonlinear and expression families, comparisons, grids, and many 
 bodies) to the in-process app of one checkout and writes what came back to a JSON file;
 ``--compare A B`` then lists every difference between two such files.
 
-Run, say, with the commit before a change exported to /tmp/base (``git archive``)::
+Run, say, with the commit before a change exported to /tmp/base (``git archive``); each
+capture runs in a fresh interpreter with that checkout first on ``sys.path``::
 
     .venv/bin/python benchmarks/capture_fit_responses.py --root /tmp/base --out /tmp/before.json
     .venv/bin/python benchmarks/capture_fit_responses.py --out /tmp/after.json
@@ -157,8 +158,10 @@ def capture(out_path: Path) -> None:
     """Send every case to this checkout's in-process app and write the answers."""
     import orjson
 
+    import service
     from service.app import create_app
 
+    print(f"capturing the app of {Path(service.__file__).parent.parent}")
     client = create_app().test_client()
     answers = {}
     for name, body, content_type in cases():
@@ -200,20 +203,16 @@ def main() -> int:
     if args.out is None:
         parser.error("give --out (capture) or --compare BEFORE AFTER")
     root = args.root.resolve()
-    if root != ROOT:  # capture that checkout in a fresh interpreter, with its own code
-        env = {**os.environ, "PYTHONPATH": str(root)}
-        return subprocess.call([sys.executable, str(Path(__file__).resolve()), "--root",
-                                str(root), "--out", str(args.out.resolve()), "--inner"],
-                               cwd=root, env=env)
-    capture(args.out)
-    return 0
+    # a fresh interpreter with that checkout first on sys.path (an editable install of
+    # another checkout in the virtualenv must not answer instead)
+    env = {**os.environ, "PYTHONPATH": str(root)}
+    return subprocess.call([sys.executable, str(Path(__file__).resolve()), "--out",
+                            str(args.out.resolve()), "--inner"], cwd=root, env=env)
 
 
 if __name__ == "__main__":
-    if "--inner" in sys.argv:  # the child run of another checkout (its code first on sys.path)
-        sys.argv.remove("--inner")
+    if "--inner" in sys.argv:  # the child run: the checkout's own code first on sys.path
         sys.path.insert(0, os.environ["PYTHONPATH"])
-        out = Path(sys.argv[sys.argv.index("--out") + 1])
-        capture(out)
+        capture(Path(sys.argv[sys.argv.index("--out") + 1]))
         sys.exit(0)
     sys.exit(main())
