@@ -10,7 +10,11 @@ itself is read by :mod:`service.api.body` (limits, framing, Content-Encoding).
 
 from __future__ import annotations
 
+import functools
+import inspect
+
 import orjson
+from flask import request
 from flask_smorest import abort
 from webargs import core
 from webargs.flaskparser import FlaskParser
@@ -60,6 +64,39 @@ class OrjsonParser(FlaskParser):
 
 
 PARSER = OrjsonParser()
+
+
+def fast_body(loader):
+    """A view decorator (above ``@blp.arguments``): bodies that ``loader`` takes skip the
+    webargs/marshmallow layers and reach the undecorated view directly.
+
+    ``loader(data)`` returns exactly what the view's schema would load from the decoded
+    JSON ``data``, or None to decline. A declined body (any unusual or invalid one: the
+    loader never answers errors) and every body that is not plain JSON (wrong media type,
+    empty, not decodable) take the decorated path unchanged, so every error answer is the
+    schema's and the parser's own. The decorated view's OpenAPI documentation is kept.
+    """
+
+    def decorator(decorated):
+        view = inspect.unwrap(decorated)  # the function under every smorest/webargs wrapper
+
+        @functools.wraps(decorated)
+        def fast(*args, **kwargs):
+            req = request._get_current_object()
+            if core.is_json(req.mimetype):
+                try:
+                    data = orjson.loads(json_text(req))
+                except orjson.JSONDecodeError:
+                    data = None
+                body = fast.loader(data)
+                if body is not None:
+                    return view(body, *args, **kwargs)
+            return decorated(*args, **kwargs)
+
+        fast.loader = loader  # looked up per request (a test may swap it)
+        return fast
+
+    return decorator
 
 
 def install() -> None:

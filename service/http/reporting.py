@@ -8,6 +8,7 @@ by the JSON layer (orjson), numpy arrays go to it unconverted.
 from __future__ import annotations
 
 from dataclasses import fields
+from operator import attrgetter
 
 from service.core.compare import Comparison
 from service.core.families import family_of
@@ -15,19 +16,28 @@ from service.core.nonlinear.report import NonlinearReport
 from service.core.results import FitReport, Prediction
 
 ALWAYS = ("model", "n", "n_input", "dropped", "warnings", "flags")
-_FIELD_NAMES: dict[type, tuple[str, ...]] = {}
+_READERS: dict[type, tuple] = {}
 
 
-def _names(obj) -> tuple[str, ...]:
-    cls = type(obj)
-    if cls not in _FIELD_NAMES:  # a named tuple (table rows) or a dataclass
-        _FIELD_NAMES[cls] = getattr(cls, "_fields", None) or tuple(f.name for f in fields(cls))
-    return _FIELD_NAMES[cls]
+def _reader(cls) -> tuple:
+    """(field names, None) for a named tuple (its values are the tuple itself), or
+    (field names, one attrgetter of them all) for a dataclass; built once per class."""
+    names = getattr(cls, "_fields", None)
+    if names is not None:
+        reader = _READERS[cls] = (names, None)
+        return reader
+    names = tuple(f.name for f in fields(cls))
+    get = attrgetter(*names)
+    if len(names) == 1:  # attrgetter of one name returns the value, not a 1-tuple
+        get = (lambda one: lambda obj: (one(obj),))(get)
+    reader = _READERS[cls] = (names, get)
+    return reader
 
 
 def plain(obj) -> dict:
     """A flat result object as a dict (no deep copy: arrays are passed through)."""
-    return {name: getattr(obj, name) for name in _names(obj)}
+    names, get = _READERS.get(type(obj)) or _reader(type(obj))
+    return dict(zip(names, obj if get is None else get(obj), strict=True))
 
 
 def fit_response(report: FitReport | NonlinearReport, include) -> dict:
