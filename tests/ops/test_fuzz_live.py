@@ -26,7 +26,19 @@ from tests.ops.harness import request, server
 
 pytestmark = [pytest.mark.live, pytest.mark.slow]
 TOKEN = "fuzz-token-0123456789abcdef"
-CHECKS = [not_a_server_error, status_code_conformance, content_type_conformance,
+REQUEST_LINE_LIMIT = 414  # gunicorn's own answer to a request line over limit_request_line
+
+
+def content_type_unless_gunicorn_refused(ctx, response, case):
+    """content_type_conformance, except gunicorn's own 414 (HTML) for a request line over
+    8190 bytes (a long options query): it never reaches the app, and the proxy in front
+    answers it as problem+json uri_too_long (tests/ops/test_proxy_framing.py)."""
+    if response.status_code == REQUEST_LINE_LIMIT:
+        return None
+    return content_type_conformance(ctx, response, case)
+
+
+CHECKS = [not_a_server_error, status_code_conformance, content_type_unless_gunicorn_refused,
           response_schema_conformance]
 HEADERS = {"Authorization": f"Bearer {TOKEN}"}
 
