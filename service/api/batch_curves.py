@@ -10,8 +10,6 @@ one gets its error result). Results come back in request order.
 
 from __future__ import annotations
 
-from collections import Counter
-
 import numpy as np
 
 from schemas.batch_curves import curve_summary_rows
@@ -87,18 +85,5 @@ def curve_results(job, ids, x, y, lengths, weights, model) -> list[dict]:
     else:
         fits = curve_summary_rows(result, ok_rows)
     bodies = dict(zip(ok_rows, fits, strict=True))
-    out = []
-    for j, ident in enumerate(ids):
-        fit = bodies.get(j)
-        if fit is not None:
-            job.count_flags(fit.get("flags") or ())
-            out.append({"id": ident, "status": "ok", "fit": fit})
-        else:
-            out.append({"id": ident, "status": "error",
-                        "error": fit_error_body(result.errors[j])})
-    job.counts["ok"] += len(bodies)
-    job.counts["error"] += len(ids) - len(bodies)
-    reasons = Counter(r["error"].get("code") for r in out if r["status"] == "error")
-    for code, count in reasons.items():
-        record_fit_failure(code, count)
-    return out
+    return job.assemble([(ident, None) for ident in ids], range(len(ids)), bodies,
+                        result.errors)

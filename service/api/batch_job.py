@@ -109,6 +109,12 @@ class BatchJob:
     def _assemble(self, items, fit_idx, batch):
         ok_rows = np.flatnonzero(batch.ok).tolist()
         bodies = dict(zip(ok_rows, self._fits(batch, ok_rows), strict=True))
+        return self.assemble(items, fit_idx, bodies, batch.errors)
+
+    def assemble(self, items, fit_idx, bodies, errors):
+        """Result dicts in order: ``items`` ((id, problem body or anything)) whose position
+        is not in ``fit_idx`` are those errors; fitted row ``j`` is ``bodies[j]`` or its error
+        ``errors[j]``. Counts, flag counts and failure metrics are updated."""
         out = []
         pos = {i: j for j, i in enumerate(fit_idx)}
         for i, (ident, series) in enumerate(items):
@@ -121,7 +127,7 @@ class BatchJob:
                 out.append({"id": ident, "status": "ok", "fit": fit})
             else:
                 out.append({"id": ident, "status": "error",
-                            "error": fit_error_body(batch.errors[j])})
+                            "error": fit_error_body(errors[j])})
         self.counts["ok"] += len(bodies)
         self.counts["error"] += len(items) - len(bodies)
         reasons = Counter(r["error"].get("code") for r in out if r["status"] == "error")

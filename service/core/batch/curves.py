@@ -34,6 +34,7 @@ from functools import lru_cache
 
 import numpy as np
 
+from service.core.batch import layout
 from service.core.batch.curves_kernel import STATS, fit_rows
 from service.core.batch.curves_models import COMPILED, L4_LOG, N_PARAMETERS, POWER, WEIBULL
 from service.core.batch.curves_post import finish
@@ -129,17 +130,10 @@ def fit_many_curves(x, y, lengths, weights=None, *, model: ModelSpec,
     -------
     CurveBatchResult
     """
-    x = np.ascontiguousarray(x, dtype=float)
-    y = np.ascontiguousarray(y, dtype=float)
-    lengths = np.asarray(lengths, dtype=np.int64)
-    w = None if weights is None else np.ascontiguousarray(weights, dtype=float)
     if detail not in DETAILS:
         raise ValueError(f"detail must be one of {DETAILS}, not {detail!r}")
+    x, y, w, lengths, offsets = layout.flat_series(x, y, weights, lengths)
     G = lengths.size
-    offsets = np.zeros(G + 1, dtype=np.int64)
-    np.cumsum(lengths, out=offsets[1:])
-    if offsets[-1] != x.size or y.size != x.size or (w is not None and w.size != x.size):
-        raise ValueError("x, y (and weights) must hold sum(lengths) values each")
     try:
         entry = family(model.family)
         entry.check_spec(model, options)

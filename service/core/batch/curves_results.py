@@ -11,10 +11,11 @@ from __future__ import annotations
 
 from collections.abc import Mapping
 from dataclasses import dataclass, field
-from functools import lru_cache
 
 import numpy as np
 
+from service.core.batch.engine import SEVERITIES  # noqa: F401  (re-exported)
+from service.core.batch.results import flags_of, levels_of
 from service.core.errors import FitError
 from service.core.results import Notice
 
@@ -24,7 +25,6 @@ CURVE_FLAG_CODES = ("not_converged", "parameters_not_identifiable", "parameter_a
                     "few_points_per_parameter", "lack_of_fit", "non_normal_residuals",
                     "non_constant_variance", "serial_correlation", "outliers",
                     "influential_points", "high_leverage")
-SEVERITIES = ("info", "caution", "serious")
 FLOAT_SCALARS = ("rss", "sigma", "r_squared", "adj_r_squared", "aic", "aicc", "bic",
                  "relative_offset", "shapiro_wilk", "shapiro_wilk_p", "durbin_watson",
                  "durbin_watson_p", "breusch_pagan", "breusch_pagan_p", "lack_of_fit_f",
@@ -41,22 +41,14 @@ CURVE_SCALARS = ("n", "df_residual", "rss", "sigma", "r_squared", "adj_r_squared
 """Every per-series column, in the order the frames list them."""
 
 
-@lru_cache(maxsize=4096)
 def curve_flags_of(mask: int, levels: int) -> tuple[tuple[str, str], ...]:
     """``(code, severity)`` of each flag of a bit mask over :data:`CURVE_FLAG_CODES`."""
-    return tuple((code, SEVERITIES[levels >> 2 * i & 3])
-                 for i, code in enumerate(CURVE_FLAG_CODES) if mask >> i & 1)
+    return flags_of(mask, levels, CURVE_FLAG_CODES)
 
 
 def curve_levels_of(flags) -> tuple[int, int]:
     """Bit mask and severity levels of a report's :class:`TrustFlag` tuple."""
-    mask = levels = 0
-    for flag in flags:
-        if flag.code in CURVE_FLAG_CODES:
-            i = CURVE_FLAG_CODES.index(flag.code)
-            mask |= 1 << i
-            levels |= SEVERITIES.index(flag.severity) << 2 * i
-    return mask, levels
+    return levels_of(flags, CURVE_FLAG_CODES)
 
 
 @dataclass(frozen=True)

@@ -123,17 +123,10 @@ def fit_many(x, y, lengths, weights=None, *, model: ModelSpec = _MODEL, models=N
     BatchResult
         One row per series in input order.
     """
-    x = np.ascontiguousarray(x, dtype=float)
-    y = np.ascontiguousarray(y, dtype=float)
-    lengths = np.asarray(lengths, dtype=np.int64)
-    w = None if weights is None else np.ascontiguousarray(weights, dtype=float)
     if detail not in DETAILS:
         raise ValueError(f"detail must be one of {DETAILS}, not {detail!r}")
+    x, y, w, lengths, offsets = layout.flat_series(x, y, weights, lengths)
     G = lengths.size
-    offsets = np.zeros(G + 1, dtype=np.int64)
-    np.cumsum(lengths, out=offsets[1:])
-    if offsets[-1] != x.size or y.size != x.size or (w is not None and w.size != x.size):
-        raise ValueError("x, y (and weights) must hold sum(lengths) values each")
     raw = _raw or {}
     groups: dict[ModelSpec, list[int]] = {}
     if models is None:

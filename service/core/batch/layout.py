@@ -15,6 +15,30 @@ from service.core.data.inputs import MAX_WEIGHT_RATIO
 CHUNK_POINTS = 131_072   # points per kernel call: bounds scratch memory, feeds the threads
 
 
+def flat_series(x, y, weights, lengths):
+    """Series held back to back as contiguous float arrays, with their ``offsets``.
+
+    Returns
+    -------
+    x, y, w, lengths, offsets
+        ``w`` is None without weights; series ``i`` is ``offsets[i]:offsets[i + 1]``.
+
+    Raises
+    ------
+    ValueError
+        ``x``, ``y`` (or the weights) do not hold ``sum(lengths)`` values each.
+    """
+    x = np.ascontiguousarray(x, dtype=float)
+    y = np.ascontiguousarray(y, dtype=float)
+    lengths = np.asarray(lengths, dtype=np.int64)
+    w = None if weights is None else np.ascontiguousarray(weights, dtype=float)
+    offsets = np.zeros(lengths.size + 1, dtype=np.int64)
+    np.cumsum(lengths, out=offsets[1:])
+    if offsets[-1] != x.size or y.size != x.size or (w is not None and w.size != x.size):
+        raise ValueError("x, y (and weights) must hold sum(lengths) values each")
+    return x, y, w, lengths, offsets
+
+
 def screen(x, y, w, offsets, rows, model, raw):
     """Split rows into those the engine takes and those for the single-series path.
 

@@ -33,19 +33,20 @@ def codes_of(mask: int) -> tuple[str, ...]:
 
 
 @lru_cache(maxsize=4096)
-def flags_of(mask: int, levels: int) -> tuple[tuple[str, str], ...]:
-    """``(code, severity)`` of each flag of a bit mask, severities from ``levels`` (two bits
-    per code, :data:`~service.core.batch.engine.SEVERITIES`)."""
+def flags_of(mask: int, levels: int, codes: tuple[str, ...] = FLAG_CODES
+             ) -> tuple[tuple[str, str], ...]:
+    """``(code, severity)`` of each flag of a bit mask over ``codes``, severities from
+    ``levels`` (two bits per code, :data:`~service.core.batch.engine.SEVERITIES`)."""
     return tuple((code, SEVERITIES[levels >> 2 * i & 3])
-                 for i, code in enumerate(FLAG_CODES) if mask >> i & 1)
+                 for i, code in enumerate(codes) if mask >> i & 1)
 
 
-def levels_of(flags) -> tuple[int, int]:
-    """Bit mask and severity levels of a report's :class:`TrustFlag` tuple."""
+def levels_of(flags, codes: tuple[str, ...] = FLAG_CODES) -> tuple[int, int]:
+    """Bit mask and severity levels over ``codes`` of a report's :class:`TrustFlag` tuple."""
     mask = levels = 0
     for flag in flags:
-        if flag.code in FLAG_CODES:
-            i = FLAG_CODES.index(flag.code)
+        if flag.code in codes:
+            i = codes.index(flag.code)
             mask |= 1 << i
             levels |= SEVERITIES.index(flag.severity) << 2 * i
     return mask, levels
