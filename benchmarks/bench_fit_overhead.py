@@ -66,16 +66,11 @@ def echo_app():
 
 
 def request_body() -> bytes:
-    """n = 50 seeded points, degree chosen from 1..4 (sequential F), 200-point grid."""
-    import numpy as np
-    import orjson
+    """n = 50 seeded points, degree chosen from 1..4 (sequential F), 200-point grid: the
+    same /v1/fit body as bench_http's (one definition for both benchmarks)."""
+    from benchmarks.bench_http import small_body
 
-    rng = np.random.default_rng(20261201)
-    x = np.linspace(0.0, 10.0, 50)
-    y = 1.0 + 0.8 * x - 0.06 * x**2 + rng.normal(0.0, 0.3, x.size)
-    return orjson.dumps({"x": x.tolist(), "y": y.tolist(),
-                         "model": {"max_degree": 4, "min_degree": 1, "select": "sequential_f"},
-                         "grid": {"count": 200}})
+    return small_body()
 
 
 def free_port() -> int:
