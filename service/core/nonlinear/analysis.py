@@ -94,7 +94,6 @@ def report(solution, data, equation, names: tuple[str, ...], family: str, expres
     """
     n, p = data.x.size, len(names)
     mode, level = options.weighting, float(options.level)
-    require_weights(mode, data.w)
     inference = infer(solution, weight_mode=mode, level=level, alpha=GOF_ALPHA)
     profile = profile_limits(solution, level=level, weight_mode=mode)
     rows = tuple(ParameterRow(r.name, r.estimate, r.std_error, r.statistic, r.p_value, r.lower,
