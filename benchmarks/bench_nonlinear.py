@@ -41,32 +41,10 @@ from service.core.nonlinear.bands import predict  # noqa: E402
 from service.core.nonlinear.inference import infer  # noqa: E402
 from service.core.nonlinear.profile import profile_limits  # noqa: E402
 from service.core.nonlinear.solver import solve  # noqa: E402
+from tests.core.nonlinear.models import Logistic4  # noqa: E402  (the tests' exact model)
 
 START = np.array([0.0, 1.0, 3.0, 1.5])
 LEVEL = 0.95
-
-
-class Logistic4:
-    """``d + (a - d) / (1 + (x / c)^b)`` with its analytic Jacobian."""
-
-    parameter_names = ("a", "b", "c", "d")
-
-    def values(self, x, theta):
-        a, b, c, d = theta
-        return d + (a - d) / (1.0 + (x / c) ** b)
-
-    def values_and_jacobian(self, x, theta):
-        a, b, c, d = theta
-        u = (x / c) ** b
-        den = 1.0 + u
-        g = (a - d) * u / den ** 2
-        jac = np.empty((np.size(x), 4))
-        jac[:, 0], jac[:, 1], jac[:, 2], jac[:, 3] = 1.0 / den, -g * np.log(x / c), g * b / c, \
-            u / den
-        return d + (a - d) / den, jac
-
-    def jacobian(self, x, theta):
-        return self.values_and_jacobian(x, theta)[1]
 
 
 def data(seed: int = 20261204):
