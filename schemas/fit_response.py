@@ -9,8 +9,8 @@ from __future__ import annotations
 from marshmallow import Schema, fields
 
 from schemas.common import NoticeSchema, TrustFlagSchema, integer, number, text
+from schemas.document import FittedModelField
 from schemas.fields import NumberArray, StrictBoolean
-from schemas.models import FittedModelField
 
 
 def _array(description: str) -> NumberArray:

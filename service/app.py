@@ -4,8 +4,8 @@ from __future__ import annotations
 
 from flask import Flask
 
+from schemas.document import DOCUMENT_SCHEMAS
 from schemas.model_field import DOCUMENTED_MODELS, component_name
-from schemas.models import DOCUMENT_SCHEMAS
 from service import __version__
 from service.api import BLUEPRINT_MODULES, doc_examples
 from service.http import errors as error_handling
