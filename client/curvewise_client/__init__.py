@@ -60,7 +60,8 @@ from curvewise_client.results import (  # noqa: E402
     TestResult,
     TrustFlag,
 )
-from curvewise_client.transport import HTTPTransport, WSGITransport  # noqa: E402
+from curvewise_client.transport import HTTPTransport  # noqa: E402
+from curvewise_client.wsgi import WSGITransport  # noqa: E402
 
 __all__ = [
     "AnovaRow", "ApiError", "BadRequest", "BatchItem", "BatchResult", "Candidate", "Client",
