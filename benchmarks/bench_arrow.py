@@ -78,7 +78,7 @@ def _worker_cpu(master: int) -> float:
 def _server(port: int) -> subprocess.Popen:
     env = dict(os.environ, CURVEWISE_LOG_LEVEL="warning", PYTHONPATH=str(ROOT))
     process = subprocess.Popen(
-        [sys.executable, "-m", "service.runtime.cli", "serve", "--host", "127.0.0.1",
+        [sys.executable, "-m", "service.cli", "serve", "--host", "127.0.0.1",
          "--port", str(port), "--workers", "1"], cwd=ROOT, env=env,
         stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL, start_new_session=True)
     deadline = time.time() + 300   # the first start may compile the kernels

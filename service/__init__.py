@@ -1,3 +1,3 @@
-"""Curvewise: a stateless HTTP service that fits, explains and inverts polynomial curves."""
+"""Curvewise: a stateless HTTP service that fits, explains and inverts curves of every family."""
 
 __version__ = "0.1.0"

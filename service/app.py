@@ -8,11 +8,11 @@ from schemas.document import DOCUMENT_SCHEMAS
 from schemas.model_field import DOCUMENTED_MODELS, component_name
 from service import __version__
 from service.api import BLUEPRINT_MODULES, doc_examples
+from service.config import Settings
 from service.http import errors as error_handling
 from service.http.examples import ExamplesPlugin
 from service.http.jsonio import OrjsonProvider
 from service.runtime import guard, observability, security, warming
-from service.runtime.config import Settings
 
 
 def create_app(overrides: dict | None = None) -> Flask:

@@ -1,6 +1,6 @@
 """A real gunicorn server for tests: ``with live_server() as base_url: ...``.
 
-Starts ``python -m service.runtime.cli serve`` on a free loopback port, waits (bounded)
+Starts ``python -m service.cli serve`` on a free loopback port, waits (bounded)
 until ``/readyz`` answers 200, yields the base URL and always stops the
 server (SIGTERM to its process group, then SIGKILL after a grace period).
 ``tests/conftest.py`` exposes it as the session fixture ``live_url``.
@@ -49,7 +49,7 @@ def live_server(*, workers: int = 2, env: dict | None = None, startup_timeout: f
     """
     port = free_port()
     base_url = f"http://127.0.0.1:{port}"
-    command = [sys.executable, "-m", "service.runtime.cli", "serve", "--host", "127.0.0.1",
+    command = [sys.executable, "-m", "service.cli", "serve", "--host", "127.0.0.1",
                "--port", str(port), "--workers", str(workers), *extra_args]
     child_env = {**os.environ, "PYTHONUNBUFFERED": "1", **(env or {})}
     log = tempfile.TemporaryFile(mode="w+b") if log_path is None else open(log_path, "w+b")

@@ -108,3 +108,46 @@ def test_core_imports_point_down_its_floors():
                 if _floor(room) > _floor(here) or sibling:
                     wrong.append(f"{name} imports {there}")
     assert not wrong, "imports that point up (or across family folders):\n" + "\n".join(wrong)
+
+
+# Around the core, the service's own floors from bottom to top: settings, then the plumbing
+# and figures, the process (guards, metrics, logs), the views, the app factory, the command.
+SERVICE_FLOORS = (
+    {"core"},
+    {"config"},
+    {"http", "plots"},
+    {"runtime"},
+    {"api"},
+    {"app"},
+    {"cli"},
+)
+
+
+def _service_floor(module: str) -> int:
+    """The floor of ``service.<room>...`` (its first component), by SERVICE_FLOORS."""
+    room = module.split(".")[0]
+    return next(i for i, floor in enumerate(SERVICE_FLOORS) if room in floor)
+
+
+def test_service_imports_point_down_its_floors():
+    service = ROOT / "service"
+    wrong = []
+    for path in service.rglob("*.py"):
+        parts = path.relative_to(service).with_suffix("").parts
+        if parts == ("__init__",):
+            continue
+        here = _service_floor(parts[0])
+        tree = ast.parse(path.read_text(), filename=str(path))
+        for node in ast.walk(tree):
+            targets = []
+            if isinstance(node, ast.ImportFrom) and node.module == "service":
+                targets = [f"service.{a.name}" for a in node.names if a.name != "__version__"]
+            elif isinstance(node, ast.ImportFrom) and node.module and node.level == 0:
+                targets = [node.module]
+            elif isinstance(node, ast.Import):
+                targets = [a.name for a in node.names]
+            for target in targets:
+                if target.startswith("service.") and _service_floor(
+                        target.removeprefix("service.")) > here:
+                    wrong.append(f"{'/'.join(parts)} imports {target}")
+    assert not wrong, "imports that point up the service's floors:\n" + "\n".join(wrong)

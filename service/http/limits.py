@@ -1,4 +1,4 @@
-"""The service's limits (from :class:`service.runtime.config.Settings`) applied to a loaded request.
+"""The service's limits (from :class:`service.config.Settings`) applied to a loaded request.
 
 The schemas check shape and types; these checks need the configured limits:
 points per series (413), degree and grid size (422). (The compute-time
@@ -9,8 +9,8 @@ from __future__ import annotations
 
 import math
 
+from service.config import Settings
 from service.http.errors import ServiceLimitError
-from service.runtime.config import Settings
 
 
 def check_series(body: dict, settings: Settings, prefix: str = "") -> None:

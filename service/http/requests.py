@@ -2,8 +2,8 @@
 
 from __future__ import annotations
 
+from service.config import Settings
 from service.core.spec import HARD_MAX_DEGREE, FitOptions, GridSpec, ModelSpec
-from service.runtime.config import Settings
 
 
 def model_spec(model: dict) -> ModelSpec:

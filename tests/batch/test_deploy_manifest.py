@@ -21,7 +21,7 @@ def test_manifest_deployment_probes_and_autoscaler_fit_together(app):
     assert hpa["spec"]["scaleTargetRef"]["name"] == deployment["metadata"]["name"]
     assert hpa["spec"]["metrics"][0]["resource"]["name"] == "cpu"
     env = {e["name"]: e["value"] for e in container["env"]}
-    from service.runtime.config import Settings
+    from service.config import Settings
 
     names = {f"CURVEWISE_{f.upper()}" for f in Settings.__dataclass_fields__}
     assert set(env) <= names  # every variable is one the service reads

@@ -18,7 +18,7 @@ BLAS = ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS")
 
 def test_importing_the_cli_pins_blas_threads_before_numpy():
     env = {k: v for k, v in os.environ.items() if k not in BLAS}
-    code = ("import sys, os, service.runtime.cli; assert 'numpy' not in sys.modules; "
+    code = ("import sys, os, service.cli; assert 'numpy' not in sys.modules; "
             f"print([os.environ[k] for k in {BLAS!r}])")
     out = subprocess.run([sys.executable, "-c", code], cwd=ROOT, env=env, capture_output=True,
                          text=True, timeout=60)
@@ -51,7 +51,7 @@ def test_worker_start_hook_loads_the_kernels_and_freezes_start_up_objects():
 
 
 def test_help_lists_the_flags():
-    out = subprocess.run([sys.executable, "-m", "service.runtime.cli", "serve", "--help"], cwd=ROOT,
+    out = subprocess.run([sys.executable, "-m", "service.cli", "serve", "--help"], cwd=ROOT,
                          capture_output=True, text=True, timeout=60)
     assert out.returncode == 0
     for flag in ("--host", "--port", "--workers", "--dev"):
@@ -59,7 +59,7 @@ def test_help_lists_the_flags():
 
 
 def test_flags_win_over_environment_over_defaults():
-    from service.runtime.cli import build_parser, resolve
+    from service.cli import build_parser, resolve
     from service.runtime.gunicorn_conf import default_workers
 
     env = {"CURVEWISE_HOST": "127.0.0.2", "CURVEWISE_PORT": "9001", "CURVEWISE_WORKERS": "5"}

@@ -1,4 +1,4 @@
-"""A real gunicorn (``python -m service.runtime.cli serve``) on a loopback port, over HTTP
+"""A real gunicorn (``python -m service.cli serve``) on a loopback port, over HTTP
 with httpx."""
 
 from __future__ import annotations

@@ -48,7 +48,7 @@ def test_a_warming_server_answers_503_with_retry_after_then_200(tmp_path):
     env = {**os.environ, "PYTHONUNBUFFERED": "1", "CURVEWISE_TEST_WARMUP_DELAY": "4"}
     with open(log_path, "w+b") as log:
         process = subprocess.Popen(
-            [sys.executable, "-m", "service.runtime.cli", "serve", "--host", "127.0.0.1",
+            [sys.executable, "-m", "service.cli", "serve", "--host", "127.0.0.1",
              "--port", str(port), "--workers", "1"],
             cwd=ROOT, env=env, stdout=log, stderr=subprocess.STDOUT, stdin=subprocess.DEVNULL,
             start_new_session=True)
@@ -95,7 +95,7 @@ def test_two_servers_have_their_own_control_sockets(tmp_path):
 
 
 def test_serve_says_when_it_compiles_the_kernels(tmp_path, monkeypatch):
-    from service.runtime.cli import announce
+    from service.cli import announce
 
     monkeypatch.delenv("CURVEWISE_KERNELS_CACHED", raising=False)  # as before gunicorn starts
     monkeypatch.setenv("NUMBA_CACHE_DIR", str(tmp_path))  # an empty cache: a cold start

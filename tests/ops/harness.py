@@ -41,7 +41,7 @@ def _find_master(port: int) -> int:
                 cmdline = (entry / "cmdline").read_bytes()
             except OSError:
                 continue
-            if b"service.runtime.cli" in cmdline and needle in cmdline:
+            if b"service.cli" in cmdline and needle in cmdline:
                 return int(entry.name)
     raise LookupError(f"no gunicorn master serving port {port}")
 

@@ -22,6 +22,7 @@ from marshmallow import ValidationError
 
 from schemas.fit import FitRequestSchema
 from schemas.models import PredictRequestSchema
+from service.config import Settings
 from service.core import fit_series, predict
 from service.core.errors import FitError
 from service.core.models.document import from_document
@@ -31,7 +32,6 @@ from service.http.jsonio import dumps_bytes
 from service.http.limits import check_series
 from service.http.reporting import fit_response
 from service.http.requests import fit_options, model_spec
-from service.runtime.config import Settings
 
 SETTINGS = Settings.load({"max_points": 400, "max_grid_points": 500})
 PROPERTY = settings(max_examples=250, deadline=None, database=None, derandomize=True,

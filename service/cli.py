@@ -42,7 +42,7 @@ def main(argv: list[str] | None = None) -> int:
 
 def resolve(args: argparse.Namespace, environ: dict | None = None) -> tuple[str, int, int]:
     """Host, port and worker count: defaults, then CURVEWISE_* variables, then flags."""
-    from service.runtime.config import Settings
+    from service.config import Settings
 
     settings = Settings.load(environ=environ)
     host = args.host or settings.host
