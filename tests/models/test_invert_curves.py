@@ -178,6 +178,7 @@ FORGED = [  # well-formed v2 documents with a freshly computed checksum (a forge
 ]
 
 
+@pytest.mark.filterwarnings("error::RuntimeWarning")  # numerical trouble is data, never a warning
 @pytest.mark.parametrize("forge", range(len(FORGED)))
 def test_forged_curve_documents_get_answers_never_server_errors(api, logistic, forge):
     import copy

@@ -114,10 +114,11 @@ def precision_profile(fitted: FittedCurve, *, cv_limit: float = DEFAULT_CV_LIMIT
         return PrecisionProfile(False, "The precision profile is computed for logistic4 and "
                                 "logistic5 calibrations.", cv_limit, replicates, empty, empty,
                                 math.nan, math.nan)
-    if not fitted.x_max > 0 or not math.isfinite(fitted.noise_variance):
-        return PrecisionProfile(False, "The calibrated range has no positive x, or sigma is "
-                                "undefined.", cv_limit, replicates, empty, empty, math.nan,
-                                math.nan)
+    if not fitted.x_max > 0 or not math.isfinite(fitted.noise_variance) \
+            or not math.isfinite(fitted.x_max - fitted.x_min):
+        return PrecisionProfile(False, "The calibrated range has no positive x or is wider "
+                                "than the double range, or sigma is undefined.", cv_limit,
+                                replicates, empty, empty, math.nan, math.nan)
     start = fitted.x_min if fitted.x_min > 0 else fitted.x_max * 1e-6
     grid = np.union1d(np.linspace(start, fitted.x_max, GRID_POINTS),
                       np.geomspace(start, fitted.x_max, GRID_POINTS))
