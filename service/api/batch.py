@@ -6,13 +6,9 @@ from flask import Response, current_app, request, stream_with_context
 from flask_smorest import Blueprint, abort
 from webargs import core
 
-from schemas.batch import (
-    BatchOptionsSchema,
-    BatchRequestSchema,
-    BatchResponseSchema,
-    SeriesSchema,
-    load_plain_series,
-)
+from schemas.batch import BatchOptionsSchema, BatchRequestSchema
+from schemas.batch_series import SeriesSchema, load_plain_series
+from schemas.batch_summary import BatchResponseSchema
 from service.api.batch_arrow import (
     ARROW_FILE,
     ARROW_STREAM,

@@ -13,8 +13,9 @@ from contextlib import contextmanager
 import numpy as np
 from marshmallow import ValidationError
 
-from schemas.batch import load_series, summary_rows, valid_id
 from schemas.batch_curves import curve_summary_rows
+from schemas.batch_series import load_series, valid_id
+from schemas.batch_summary import summary_rows
 from service.api.batch_curves import curve_results, is_nonlinear, mixed_results
 from service.core.batch.columnar import FlatSeries, fit_flat
 from service.core.batch.curves_results import CurveBatchResult
@@ -86,7 +87,8 @@ class BatchJob:
         return out
 
     def plain_results(self, ids, x, y, lengths):
-        """Results for series already in flat arrays (:func:`schemas.batch.load_plain_series`)."""
+        """Results for series already in flat arrays
+        (:func:`schemas.batch_series.load_plain_series`)."""
         if is_nonlinear(self.model):     # service.api.batch_curves
             return curve_results(self, ids, x, y, lengths, None, self.model)
         batch = fit_many(x, y, lengths, model=self.model, options=self.options,
