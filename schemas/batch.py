@@ -10,7 +10,7 @@ from __future__ import annotations
 
 from marshmallow import fields, validate
 
-from schemas.common import MISSING_POLICIES, SECTIONS, StrictSchema
+from schemas.common import MISSING_POLICIES, SECTIONS, WEIGHTINGS, StrictSchema
 from schemas.fields import PassThroughArray, StrictFloat, StrictString, one_of_message
 from schemas.fit import GridSchema, ModelSchema
 from schemas.model_field import ModelField
@@ -39,6 +39,16 @@ class BatchRequestSchema(StrictSchema):
     missing = StrictString(load_default="error", validate=validate.OneOf(
         MISSING_POLICIES, error=one_of_message(MISSING_POLICIES)), metadata={
         "description": "What null means in x, y or weights: error (default) or drop."})
+    weighting = StrictString(load_default="relative", validate=validate.OneOf(
+        WEIGHTINGS, error=one_of_message(WEIGHTINGS)), metadata={
+        "description": "How to read each series' weights, as in /v1/fit: relative (default; "
+                       "sigma estimated from the residuals) or known_sd (weights are 1/SD² "
+                       "of a known measurement error: standard errors from the unscaled "
+                       "covariance, normal-based tests, AIC/AICc/BIC at the known "
+                       "variances, and the chi-square goodness-of-fit test chi_square_fit "
+                       "in each summary's tests). With known_sd every series needs weights: "
+                       "one without them gets an error result naming weights (an Arrow or "
+                       "Parquet table without a weight column is refused, 422)."})
     detail = StrictString(load_default="summary", validate=validate.OneOf(
         DETAILS, error=one_of_message(DETAILS)), metadata={
         "description": "summary (default): compact result per series from the batch "

@@ -14,12 +14,13 @@ _CRITERION = {"sequential_f": "p_last", "aic": "aic", "aicc": "aicc", "bic": "bi
               "press": "press", "adj_r2": "adj_r_squared", "fixed": None}
 
 
-def summary_rows(result, rows, terms_of) -> list[dict]:
+def summary_rows(result, rows, terms_of, *, known_sd: bool = False) -> list[dict]:
     """Compact summaries of the fitted rows ``rows`` of a columnar batch result.
 
     ``result`` has ``columns``, ``coefficients``, ``std_errors``, ``candidates``,
     ``select``, ``outliers`` and ``flags_of(mask, levels)`` (the core's BatchResult);
-    ``terms_of(degree, intercept)`` names the coefficients.
+    ``terms_of(degree, intercept)`` names the coefficients. ``known_sd`` (weighting
+    ``known_sd``) adds the chi-square goodness-of-fit test to ``tests``.
     """
     rows = np.asarray(rows, dtype=np.int64)
     if rows.size == 0:
@@ -62,6 +63,7 @@ def summary_rows(result, rows, terms_of) -> list[dict]:
                   c["lack_of_fit_p"][rows].tolist(), c["flags"][rows].tolist(),
                   c["flag_levels"][rows].tolist(), strict=True)
     flags_of, outliers = result.flags_of, result.outliers
+    chi, chi_p = (c[name][rows].tolist() for name in ("chi_square_fit", "chi_square_fit_p"))
     for i, (row, n, deg, kk, icpt, method, est, se, sigma, r2, adj, df, sw, bp, dw, dw_p, lof,
             mask, levels) in enumerate(columns):
         terms = terms_cache.get((deg, icpt))
@@ -74,6 +76,8 @@ def summary_rows(result, rows, terms_of) -> list[dict]:
                           "durbin_watson_p": dw_p, "lack_of_fit_p": lof},
                 "flags": [{"code": code, "severity": severity}
                           for code, severity in flags_of(mask, levels)]}
+        if known_sd:
+            body["tests"].update(chi_square_fit=chi[i], chi_square_fit_p=chi_p[i])
         if row in outliers:
             body["outliers"] = list(outliers[row])
         out.append(body)
@@ -89,7 +93,8 @@ class SummarySchema(Schema):
     estimate = fields.List(fields.Float(allow_none=True), metadata={
         "description": "Coefficients on raw x (after transform_x), in the order of terms."})
     std_error = fields.List(fields.Float(allow_none=True), metadata={
-        "description": "Their standard errors."})
+        "description": "Their standard errors (with weighting known_sd from the unscaled "
+                       "covariance: sigma is not rescaled)."})
     sigma = fields.Float(allow_none=True, metadata={"description": "Residual standard deviation."})
     r_squared = fields.Float(allow_none=True)
     adj_r_squared = fields.Float(allow_none=True)
@@ -103,7 +108,10 @@ class SummarySchema(Schema):
     tests = fields.Dict(metadata={"description": "shapiro_wilk_p, breusch_pagan_p, "
                                                  "durbin_watson, durbin_watson_p (one-sided, "
                                                  "positive serial correlation), lack_of_fit_p "
-                                                 "(null if not computed)."})
+                                                 "(null if not computed); with weighting "
+                                                 "known_sd also chi_square_fit (the weighted "
+                                                 "RSS) and chi_square_fit_p (against "
+                                                 "chi-square on df_residual)."})
     flags = fields.List(fields.Dict(), metadata={
         "description": "Trust flags as {code, severity} (as in /v1/fit flags, without the "
                        "message and evidence; see /docs). Triage on severity: caution and "

@@ -20,6 +20,8 @@ from service.api.batch_curves import curve_results, is_nonlinear, mixed_results
 from service.core.batch.columnar import FlatSeries, fit_flat
 from service.core.batch.curves_results import CurveBatchResult
 from service.core.batch.driver import fit_batch, fit_many
+from service.core.checks.known_sd import KNOWN_SD, require_weights
+from service.core.errors import FitError
 from service.core.polynomial.design import term_names
 from service.core.spec import HARD_MAX_DEGREE, FitOptions
 from service.http.errors import (
@@ -58,7 +60,9 @@ class BatchJob:
             grid=grid_spec(grid) if grid is not None else None,
             include=frozenset(include) | ({"grid"} if grid is not None else set()),
             max_grid_points=settings.max_grid_points,
-            max_degree=min(settings.max_degree, HARD_MAX_DEGREE))
+            max_degree=min(settings.max_degree, HARD_MAX_DEGREE),
+            weighting=envelope["weighting"])
+        self.known_sd = envelope["weighting"] == KNOWN_SD
         # flat (the metrics reader takes the summary as one flat object): the series by
         # their most severe flag; flagged = serious + caution
         self.counts = {"ok": 0, "error": 0, "flagged": 0, "serious": 0, "caution": 0, "info": 0}
@@ -149,8 +153,8 @@ class BatchJob:
         if self.detail == "full":
             return [fit_response(batch.reports[j], self.include) for j in rows]
         if isinstance(batch, CurveBatchResult):   # a nonlinear model (Arrow and Parquet bodies)
-            return curve_summary_rows(batch, rows)
-        return summary_rows(batch, rows, term_names)
+            return curve_summary_rows(batch, rows, known_sd=self.known_sd)
+        return summary_rows(batch, rows, term_names, known_sd=self.known_sd)
 
     def series(self, obj, position: int):
         """(id, (x, y, w, ModelSpec|None)) or (id, problem body) for one series object."""
@@ -165,6 +169,10 @@ class BatchJob:
                                        "This series is not valid; see errors for each field "
                                        "and its fix.", errors=errors,
                                        code=agreed or "validation_error")
+        try:   # known SDs without weights: this series' error, as /v1/fit gives it
+            require_weights(self.options.weighting, w)
+        except FitError as exc:
+            return ident, fit_error_body(exc)
         if x.size > self.settings.max_points:
             return ident, problem_body(413, None, f"The series has {x.size} points; the limit "
                                        f"is {self.settings.max_points}. Split the series.",
