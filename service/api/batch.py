@@ -76,8 +76,9 @@ ERRORS = {400: "Unparsable JSON body, or an unreadable Arrow or Parquet table "
           415: "Body sent as none of application/json, application/x-ndjson, "
                f"{ARROW_STREAM}, {ARROW_FILE}, {PARQUET}.",
           422: "Invalid shared options, also on the NDJSON options line or in the options "
-               "query parameter; a table with a missing, unknown or mistyped column (a bad "
-               "series only gets an error result)."}
+               "query parameter; a table with a missing, unknown or mistyped column, or "
+               "without a weight column under weighting known_sd (a bad series only gets an "
+               "error result)."}
 MEDIA_TYPES = ("application/json", NDJSON, *COLUMNAR)
 
 

@@ -16,13 +16,16 @@ third series states its SDs three times too small, so the chi-square test must f
 from __future__ import annotations
 
 import numpy as np
+import pandas as pd
 import pytest
 import statsmodels.api as sm
 from scipy import stats
 
 from service.core import FitOptions, ModelSpec, fit_series
 from service.core.batch.driver import fit_batch, fit_many
+from service.core.batch.frames import fit_frame
 from service.core.errors import FitError
+from service.core.families import fit_series as family_fit
 from tests.batch.conftest import rel
 
 KNOWN = FitOptions(weighting="known_sd", grid=None)
@@ -119,3 +122,35 @@ def test_series_without_weights_get_the_single_fit_error_naming_weights():
     none = fit_many(flat([s[0] for s in series]), flat([s[1] for s in series]),
                     [s[0].size for s in series], None, model=ModelSpec(degree=1), options=KNOWN)
     assert not none.ok.any() and {e.field for e in none.errors.values()} == {"weights"}
+
+
+def test_frames_fill_the_chi_square_columns_for_every_family():
+    series = known_sd_series(5, seed=21)
+    frame = pd.DataFrame({"id": np.repeat(np.arange(5), [s[0].size for s in series]),
+                          "x": np.concatenate([s[0] for s in series]),
+                          "y": np.concatenate([s[1] for s in series]),
+                          "w": np.concatenate([s[2] for s in series])})
+    tidy = fit_frame(frame, weight="w", model=ModelSpec(degree=1), options=KNOWN)
+    batch = fit_batch(series, model=ModelSpec(degree=1), options=KNOWN)   # oracle: the engine
+    np.testing.assert_array_equal(tidy["chi_square_fit_p"], batch.columns["chi_square_fit_p"])
+    np.testing.assert_array_equal(tidy["se_1"], batch.std_errors[:, 1])
+    # a nonlinear family with known SDs: the single fit per series (oracle: fit_series of
+    # the family), its chi-square test in the tidy columns
+    curve = ModelSpec(family="exponential")
+    rng = np.random.default_rng(22)
+    decays = [(x, 8.0 + 40.0 * np.exp(-0.4 * x) + rng.normal(0.0, 1.0 / np.sqrt(w)), w)
+              for x, _, w in series]
+    frame = pd.DataFrame({"id": np.repeat(np.arange(len(decays)),
+                                          [s[0].size for s in decays]),
+                          "x": np.concatenate([s[0] for s in decays]),
+                          "y": np.concatenate([s[1] for s in decays]),
+                          "w": np.concatenate([s[2] for s in decays])})
+    tidy = fit_frame(frame, weight="w", model=curve, options=KNOWN)
+    assert (tidy["status"] == "ok").all()
+    for g, (x, y, w) in enumerate(decays):
+        ref = family_fit(x, y, w, model=curve, options=KNOWN)
+        chi = next(t for t in ref.diagnostics.tests if t.name == "chi_square_fit")
+        assert tidy["chi_square_fit"][g] == chi.statistic
+        assert tidy["chi_square_fit_p"][g] == chi.p_value
+        np.testing.assert_array_equal(tidy.filter(like="se_").iloc[g],
+                                      [c.std_error for c in ref.coefficients])

@@ -153,6 +153,18 @@ def test_nonlinear_batches_equal_single_fits_in_every_body_form(client):
         r["fit"]["tests"]["chi_square_fit_p"] for r in results]
 
 
+def test_full_detail_reports_are_the_single_known_sd_fits(client):
+    series = _poly_series(2, seed=14)
+    body = {"series": series, "model": POLY, "weighting": "known_sd", "detail": "full",
+            "include": ["coefficients", "statistics", "diagnostics"]}
+    results = _json(client, body).get_json()["results"]
+    for s, result in zip(series, results, strict=True):
+        report, one = result["fit"], _single(client, s, POLY)   # oracle: /v1/fit
+        assert report["model"]["weighting"] == "known_sd"
+        assert report["coefficients"] == one["coefficients"]   # normal-based p and limits
+        assert _chi(report) == _chi(one)
+
+
 def test_relative_summaries_keep_their_tests(client):
     series = _poly_series(2)
     fit = _json(client, {"series": series, "model": POLY}).get_json()["results"][0]["fit"]
