@@ -169,10 +169,6 @@ class BatchJob:
                                        "This series is not valid; see errors for each field "
                                        "and its fix.", errors=errors,
                                        code=agreed or "validation_error")
-        try:   # known SDs without weights: this series' error, as /v1/fit gives it
-            require_weights(self.options.weighting, w)
-        except FitError as exc:
-            return ident, fit_error_body(exc)
         if x.size > self.settings.max_points:
             return ident, problem_body(413, None, f"The series has {x.size} points; the limit "
                                        f"is {self.settings.max_points}. Split the series.",
@@ -185,6 +181,10 @@ class BatchJob:
                 return ident, problem_body(exc.status, None, exc.message,
                                            errors={exc.field: [exc.message]}, code=exc.code)
             model = model_spec(model)
+        try:   # known SDs without weights: this series' error, as /v1/fit gives it
+            require_weights(self.options.weighting, w)
+        except FitError as exc:
+            return ident, fit_error_body(exc)
         return ident, (x, y, w, model)
 
 
