@@ -112,6 +112,30 @@ def polyfit_loop(count: int) -> float:
     return count / (time.perf_counter() - t0), count / (time.process_time() - c0)
 
 
+def known_sd_rates(G: int, singles: int) -> str:
+    """Known measurement SDs (weighting "known_sd") in the kernel vs relative weights on the
+    same weighted series, and vs the single fit per series (the path the kernel spares)."""
+    from service.core import FitOptions, fit_series
+
+    x, y, lengths = data(G, seed=4)
+    w = np.random.default_rng(4).uniform(0.5, 2.0, x.size)
+    known, grid_free = FitOptions(weighting="known_sd"), FitOptions(weighting="known_sd",
+                                                                   grid=None)
+    rel_wall, rel_cpu, _ = timed(lambda: fit_many(x, y, lengths, w, model=MODEL), 2)
+    k_wall, k_cpu, res = timed(lambda: fit_many(x, y, lengths, w, model=MODEL, options=known),
+                               2)
+    assert res.n_ok == G and not res.reports
+    xs, ys, ws = (a.reshape(G, -1) for a in (x, y, w))
+    one_wall, one_cpu, _ = timed(lambda: [fit_series(xs[g], ys[g], ws[g], model=MODEL,
+                                                     options=grid_free)
+                                          for g in range(singles)])
+    return (f"known_sd G={G}: {G / k_wall:,.0f} series/s vs relative weights {G / rel_wall:,.0f}"
+            f" -> known/relative time = {k_wall / rel_wall:.2f} wall, {k_cpu / rel_cpu:.2f} CPU "
+            f"(target ~1); single fit per series (timed on {singles}): "
+            f"{singles / one_wall:,.0f} series/s -> kernel/single = "
+            f"{(G / k_cpu) / (singles / one_cpu):,.0f}x CPU")
+
+
 def streaming_peak(G: int) -> int:
     rng = np.random.default_rng(3)
 
@@ -229,6 +253,7 @@ def main() -> None:
     print(f"ragged 20..80 (mean 50): {ragged:,.0f} series/s vs regular {r1:,.0f} (1 thread) "
           f"-> ragged/regular time = {r1 / ragged:.2f} wall, {c1 / ragged_cpu:.2f} CPU "
           "(target <= 1.3)")
+    print(known_sd_rates(big // 5, 300 if QUICK else 1000))
     xb, yb, lb = data(big)
     xs, ys, ls = data(big // 10)
     per_big, per_small = [], []

@@ -12,15 +12,18 @@ from marshmallow import Schema, fields
 
 _TESTS = ("shapiro_wilk_p", "breusch_pagan_p", "durbin_watson", "durbin_watson_p",
           "lack_of_fit_p")
+_KNOWN_SD_TESTS = ("chi_square_fit", "chi_square_fit_p")
 _WHOLE_FIT = ("sigma", "r_squared", "adj_r_squared", "rss", "aic", "aicc", "bic",
               "relative_offset")
 
 
-def curve_summary_rows(result, rows) -> list[dict]:
+def curve_summary_rows(result, rows, *, known_sd: bool = False) -> list[dict]:
     """Compact summaries of the fitted rows ``rows`` of a columnar curve result.
 
     ``result`` has ``family``, ``parameter_names``, ``estimates``, ``std_errors``,
     ``columns`` and ``flags_of(mask, levels)`` (the core's CurveBatchResult).
+    ``known_sd`` (weighting ``known_sd``) adds the chi-square goodness-of-fit test to
+    ``tests``.
     """
     rows = np.asarray(rows, dtype=np.int64)
     if rows.size == 0:
@@ -28,7 +31,7 @@ def curve_summary_rows(result, rows) -> list[dict]:
     c = result.columns
     names = list(result.parameter_names)
     whole = {name: c[name][rows].tolist() for name in _WHOLE_FIT}
-    tests = {name: c[name][rows].tolist() for name in _TESTS}
+    tests = {name: c[name][rows].tolist() for name in _TESTS + _KNOWN_SD_TESTS * known_sd}
     columns = zip(c["n"][rows].tolist(), c["df_residual"][rows].tolist(),
                   result.estimates[rows].tolist(), result.std_errors[rows].tolist(),
                   c["converged"][rows].tolist(), c["termination"][rows].tolist(),
@@ -78,7 +81,9 @@ class CurveSummarySchema(Schema):
                                                    "(shape, grid_best, ...), or given."})
     tests = fields.Dict(metadata={"description": "shapiro_wilk_p, breusch_pagan_p, "
                                                  "durbin_watson, durbin_watson_p, lack_of_fit_p "
-                                                 "(null if not computed)."})
+                                                 "(null if not computed); with weighting "
+                                                 "known_sd also chi_square_fit (the weighted "
+                                                 "RSS) and chi_square_fit_p."})
     flags = fields.List(fields.Dict(), metadata={
         "description": "Trust flags as {code, severity}. A batch summary does not compute "
                        "profile limits, so poorly_determined_parameter rests on the relative "

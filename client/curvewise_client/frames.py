@@ -69,7 +69,7 @@ def estimates_frame(result: Estimates):
 _SCALARS = ("n", "degree", "df_residual", "sigma", "r_squared", "adj_r_squared", "rss", "aic",
             "aicc", "bic", "press")
 _TESTS = ("shapiro_wilk_p", "breusch_pagan_p", "durbin_watson", "durbin_watson_p",
-          "lack_of_fit_p")
+          "lack_of_fit_p", "chi_square_fit_p")
 _FLAGS = ("flag_codes", "flag_severities", "severity")
 _ERRORS = ("error_code", "error_field", "error")
 _WORST_FIRST = ("serious", "caution", "info")
@@ -81,7 +81,8 @@ def batch_frame(results: BatchResult | Iterable[BatchItem]):
     Columns: ``id``, ``status``; the fit's numbers (``n``, ``degree``, ``df_residual``,
     ``sigma``, ``r_squared``, ``adj_r_squared``, and with ``detail="full"`` also ``rss``,
     ``aic``, ``aicc``, ``bic``, ``press``); the residual tests (``shapiro_wilk_p``,
-    ``breusch_pagan_p``, ``durbin_watson``, ``durbin_watson_p``, ``lack_of_fit_p``);
+    ``breusch_pagan_p``, ``durbin_watson``, ``durbin_watson_p``, ``lack_of_fit_p``,
+    ``chi_square_fit_p``: the goodness-of-fit test with weighting ``known_sd``, else None);
     ``n_outliers``; ``coef_k`` and ``se_k`` for each power ``k`` of x; ``flag_codes`` and
     ``flag_severities`` (``;``-joined, same order) and ``severity`` (the most severe, or
     ``none``); ``error_code``, ``error_field`` (``;``-joined field paths) and ``error``.

@@ -6,13 +6,9 @@ from flask import Response, current_app, request, stream_with_context
 from flask_smorest import Blueprint, abort
 from webargs import core
 
-from schemas.batch import (
-    BatchOptionsSchema,
-    BatchRequestSchema,
-    BatchResponseSchema,
-    SeriesSchema,
-    load_plain_series,
-)
+from schemas.batch import BatchOptionsSchema, BatchRequestSchema
+from schemas.batch_series import SeriesSchema, load_plain_series
+from schemas.batch_summary import BatchResponseSchema
 from service.api.batch_arrow import (
     ARROW_FILE,
     ARROW_STREAM,
@@ -80,8 +76,9 @@ ERRORS = {400: "Unparsable JSON body, or an unreadable Arrow or Parquet table "
           415: "Body sent as none of application/json, application/x-ndjson, "
                f"{ARROW_STREAM}, {ARROW_FILE}, {PARQUET}.",
           422: "Invalid shared options, also on the NDJSON options line or in the options "
-               "query parameter; a table with a missing, unknown or mistyped column (a bad "
-               "series only gets an error result)."}
+               "query parameter; a table with a missing, unknown or mistyped column, or "
+               "without a weight column under weighting known_sd (a bad series only gets an "
+               "error result)."}
 MEDIA_TYPES = ("application/json", NDJSON, *COLUMNAR)
 
 

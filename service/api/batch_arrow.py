@@ -68,6 +68,13 @@ def columnar_batch(request, settings, too_large) -> Response:
               errors={"options.detail": ["Use \"summary\" with an Arrow answer."]},
               code="validation_error")
     table = _read_table(request, settings.max_total_points, too_large)
+    if job.known_sd and "weight" not in table.column_names:
+        abort(422, message="options.weighting is \"known_sd\", which reads each point's "
+                           "weight as 1/SD² of a known measurement error, but the table has "
+                           "no weight column. Add a weight column (1/SD² for every point), "
+                           "or use weighting \"relative\".",
+              errors={"weight": ["Missing column: add weight = 1/SD² (weighting known_sd)."]},
+              code="validation_error")
     flat = _flatten(table)
     if len(flat) > settings.max_series:
         raise too_large(f"The table has {len(flat)} series (distinct ids); the limit is "

@@ -83,7 +83,7 @@ def curve_results(job, ids, x, y, lengths, weights, model) -> list[dict]:
     if job.detail == "full":
         fits = [fit_response(result.reports[j], job.include) for j in ok_rows]
     else:
-        fits = curve_summary_rows(result, ok_rows)
+        fits = curve_summary_rows(result, ok_rows, known_sd=job.known_sd)
     bodies = dict(zip(ok_rows, fits, strict=True))
     return job.assemble([(ident, None) for ident in ids], range(len(ids)), bodies,
                         result.errors)

@@ -13,12 +13,15 @@ from contextlib import contextmanager
 import numpy as np
 from marshmallow import ValidationError
 
-from schemas.batch import load_series, summary_rows, valid_id
 from schemas.batch_curves import curve_summary_rows
+from schemas.batch_series import load_series, valid_id
+from schemas.batch_summary import summary_rows
 from service.api.batch_curves import curve_results, is_nonlinear, mixed_results
 from service.core.batch.columnar import FlatSeries, fit_flat
 from service.core.batch.curves_results import CurveBatchResult
 from service.core.batch.driver import fit_batch, fit_many
+from service.core.checks.known_sd import KNOWN_SD, require_weights
+from service.core.errors import FitError
 from service.core.polynomial.design import term_names
 from service.core.spec import HARD_MAX_DEGREE, FitOptions
 from service.http.errors import (
@@ -57,7 +60,9 @@ class BatchJob:
             grid=grid_spec(grid) if grid is not None else None,
             include=frozenset(include) | ({"grid"} if grid is not None else set()),
             max_grid_points=settings.max_grid_points,
-            max_degree=min(settings.max_degree, HARD_MAX_DEGREE))
+            max_degree=min(settings.max_degree, HARD_MAX_DEGREE),
+            weighting=envelope["weighting"])
+        self.known_sd = envelope["weighting"] == KNOWN_SD
         # flat (the metrics reader takes the summary as one flat object): the series by
         # their most severe flag; flagged = serious + caution
         self.counts = {"ok": 0, "error": 0, "flagged": 0, "serious": 0, "caution": 0, "info": 0}
@@ -86,7 +91,8 @@ class BatchJob:
         return out
 
     def plain_results(self, ids, x, y, lengths):
-        """Results for series already in flat arrays (:func:`schemas.batch.load_plain_series`)."""
+        """Results for series already in flat arrays
+        (:func:`schemas.batch_series.load_plain_series`)."""
         if is_nonlinear(self.model):     # service.api.batch_curves
             return curve_results(self, ids, x, y, lengths, None, self.model)
         batch = fit_many(x, y, lengths, model=self.model, options=self.options,
@@ -147,8 +153,8 @@ class BatchJob:
         if self.detail == "full":
             return [fit_response(batch.reports[j], self.include) for j in rows]
         if isinstance(batch, CurveBatchResult):   # a nonlinear model (Arrow and Parquet bodies)
-            return curve_summary_rows(batch, rows)
-        return summary_rows(batch, rows, term_names)
+            return curve_summary_rows(batch, rows, known_sd=self.known_sd)
+        return summary_rows(batch, rows, term_names, known_sd=self.known_sd)
 
     def series(self, obj, position: int):
         """(id, (x, y, w, ModelSpec|None)) or (id, problem body) for one series object."""
@@ -175,6 +181,10 @@ class BatchJob:
                 return ident, problem_body(exc.status, None, exc.message,
                                            errors={exc.field: [exc.message]}, code=exc.code)
             model = model_spec(model)
+        try:   # known SDs without weights: this series' error, as /v1/fit gives it
+            require_weights(self.options.weighting, w)
+        except FitError as exc:
+            return ident, fit_error_body(exc)
         return ident, (x, y, w, model)
 
 

@@ -28,7 +28,7 @@ CURVE_FLAG_CODES = ("not_converged", "parameters_not_identifiable", "parameter_a
 FLOAT_SCALARS = ("rss", "sigma", "r_squared", "adj_r_squared", "aic", "aicc", "bic",
                  "relative_offset", "shapiro_wilk", "shapiro_wilk_p", "durbin_watson",
                  "durbin_watson_p", "breusch_pagan", "breusch_pagan_p", "lack_of_fit_f",
-                 "lack_of_fit_p")
+                 "lack_of_fit_p", "chi_square_fit", "chi_square_fit_p")
 INT_SCALARS = ("n", "df_residual", "iterations", "n_outliers", "n_influential",
                "n_high_leverage", "flags", "flag_levels")
 TEXT_SCALARS = ("termination", "start_strategy")
@@ -36,9 +36,10 @@ CURVE_SCALARS = ("n", "df_residual", "rss", "sigma", "r_squared", "adj_r_squared
                  "bic", "converged", "termination", "iterations", "relative_offset",
                  "start_strategy", "shapiro_wilk", "shapiro_wilk_p", "durbin_watson",
                  "durbin_watson_p", "breusch_pagan", "breusch_pagan_p", "lack_of_fit_f",
-                 "lack_of_fit_p", "n_outliers", "n_influential", "n_high_leverage", "flags",
-                 "flag_levels")
-"""Every per-series column, in the order the frames list them."""
+                 "lack_of_fit_p", "chi_square_fit", "chi_square_fit_p", "n_outliers",
+                 "n_influential", "n_high_leverage", "flags", "flag_levels")
+"""Every per-series column, in the order the frames list them (``chi_square_fit`` and its
+``_p``: the goodness-of-fit test with known SDs, NaN with relative weights)."""
 
 
 def curve_flags_of(mask: int, levels: int) -> tuple[tuple[str, str], ...]:
@@ -124,7 +125,7 @@ def fill_from_report(out: dict, row: int, report) -> None:
     cols["start_strategy"][row] = info.start_strategy
     if d is not None:
         tests = {t.name: t for t in d.tests}
-        for name in ("shapiro_wilk", "breusch_pagan", "durbin_watson"):
+        for name in ("shapiro_wilk", "breusch_pagan", "durbin_watson", "chi_square_fit"):
             if name in tests:
                 cols[name][row] = tests[name].statistic
                 cols[name + "_p"][row] = tests[name].p_value

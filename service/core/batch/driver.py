@@ -40,6 +40,7 @@ from service.core.batch.results import (
     reset_rows,
     write_chunk,
 )
+from service.core.checks.known_sd import KNOWN_SD
 from service.core.data import transforms
 from service.core.errors import FitError
 from service.core.families import family, fit_series
@@ -67,6 +68,8 @@ def fit_batch(series, *, model: ModelSpec = _MODEL, models=None,
     any_w = False
     for i, item in enumerate(series):
         x, y, w = (tuple(item) + (None,))[:3]
+        if w is None and options.weighting == KNOWN_SD:
+            pre[i] = (x, y, None)   # the single fit refuses it, naming weights
         try:
             xa = np.asarray(x, dtype=float).ravel()
             ya = np.asarray(y, dtype=float).ravel()
@@ -111,7 +114,9 @@ def fit_many(x, y, lengths, weights=None, *, model: ModelSpec = _MODEL, models=N
         Shared model; ``models`` (a sequence of ModelSpec or None per series)
         overrides it series by series.
     options : FitOptions
-        ``level`` and ``missing`` apply; the summary has no grid.
+        ``level``, ``missing`` and ``weighting`` apply; the summary has no grid. With
+        ``weighting="known_sd"`` a series without weights gets the single fit's error
+        (field ``weights``).
     detail : {"summary", "full"}
         ``"full"`` fits every series with :func:`fit_series` (with ``options``
         as given) and keeps each report in ``BatchResult.reports``.
@@ -128,6 +133,7 @@ def fit_many(x, y, lengths, weights=None, *, model: ModelSpec = _MODEL, models=N
     x, y, w, lengths, offsets = layout.flat_series(x, y, weights, lengths)
     G = lengths.size
     raw = _raw or {}
+    known = options.weighting == KNOWN_SD
     groups: dict[ModelSpec, list[int]] = {}
     if models is None:
         groups[model] = list(range(G))
@@ -149,13 +155,14 @@ def fit_many(x, y, lengths, weights=None, *, model: ModelSpec = _MODEL, models=N
             for r in rows:
                 out["errors"][int(r)] = exc
             continue
-        if detail == "full":
+        if detail == "full" or (known and w is None):  # no SDs: the single fit's error
             fallback.extend((int(r), spec_model) for r in rows)
             continue
         bspec = batch_engine.BlockSpec(dmin, dmax, spec_model.intercept,
                                       spec_model.select if selects else "fixed",
                                       float(spec_model.alpha),
-                                      need_press=selects and spec_model.select == "press")
+                                      need_press=selects and spec_model.select == "press",
+                                      known=known)
         good, bad = layout.screen(x, y, w, offsets, rows, spec_model, raw)
         fallback.extend((int(r), spec_model) for r in bad)
         if good.size:

@@ -8,7 +8,8 @@ magnitudes). Conventions, thresholds and flag rules are those of
 :mod:`service.core.polynomial.summary`, :mod:`service.core.polynomial.diagnostics` and
 :mod:`service.core.checks.flags` (tests at the per-test level ``TEST_ALPHA``: the
 Bonferroni outlier limit, lack of fit, Shapiro-Wilk, Breusch-Pagan and the one-sided
-Durbin-Watson p-value of :mod:`service.core.checks.durbin_watson`; ``h > 2p/n`` and
+Durbin-Watson p-value of :mod:`service.core.checks.durbin_watson`, and with known SDs the
+chi-square goodness-of-fit test of :mod:`service.core.checks.known_sd`; ``h > 2p/n`` and
 Cook's distance above the median of ``F(p, n - p)`` are info unless one of their points
 is also an outlier). Each flag carries its severity (:data:`SEVERITIES`, two bits per
 code in the ``flag_levels`` column).
@@ -34,7 +35,7 @@ from service.core.data.inputs import TINY_LIMIT, magnitude_limit
 from service.core.polynomial.decomposition import EXACT_FIT_RTOL  # the one exact-fit cut-off
 from service.core.polynomial.summary import LEVERAGE_ONE  # leave-one-out residual undefined above
 
-FLAG_CODES = ("exact_fit", "no_residual_df", "few_points_per_parameter",
+FLAG_CODES = ("chi_square_fit_failed", "exact_fit", "no_residual_df", "few_points_per_parameter",
               "ill_conditioned_design", "lack_of_fit", "non_normal_residuals",
               "non_constant_variance", "serial_correlation", "outliers",
               "influential_points", "high_leverage", "extrapolation")
@@ -53,6 +54,7 @@ class BlockSpec:
     select: str          # one of SELECT_METHODS, or "fixed"
     alpha: float
     need_press: bool
+    known: bool = False  # weights are 1/SD² of known errors (weighting "known_sd")
 
     @property
     def c(self) -> int:
@@ -145,7 +147,8 @@ def fit_chunk(u, z, w, offsets, rows, spec: BlockSpec, tabs, marks, resid):
     crit, log_beta = _crit(spec.alpha, size), _log_beta(size)
     kern.fit_rows(u, z, np.empty(1) if w is None else w, w is None, offsets, rows,
                   spec.min_degree, spec.max_degree, spec.intercept,
-                  kern.SELECT_CODES[spec.select], spec.need_press, crit, log_beta, *tabs[:4],
+                  kern.SELECT_CODES[spec.select], spec.need_press, spec.known, crit, log_beta,
+                  *tabs[:4],
                   _binomials(P, 1 - spec.c), EXACT_FIT_RTOL ** 2, LEVERAGE_ONE,
                   single.COND_CAUTION, TINY_LIMIT, sc, cand, coef, se, marks, resid, status)
     ok = status == kern.OK
@@ -167,6 +170,8 @@ def fit_chunk(u, z, w, offsets, rows, spec: BlockSpec, tabs, marks, resid):
                                                           cols["breusch_pagan"]))
     cols["lack_of_fit_f"], cols["lack_of_fit_p"] = _lack_of_fit(
         u, z, w, offsets, fitted, sc[:, SC["repeats"]] > 0, cols["rss"], sc[:, SC["p"]])
+    cols["chi_square_fit"], cols["chi_square_fit_p"] = _chi_square(
+        cols["rss"], cols["df_residual"], spec.known)
     p = sc[:, SC["p"]]
     cols["durbin_watson_p"] = durbin_watson.p_value(
         cols["durbin_watson"], n - p, *durbin_watson.traces(
@@ -175,6 +180,17 @@ def fit_chunk(u, z, w, offsets, rows, spec: BlockSpec, tabs, marks, resid):
                                                 sc[:, SC["condition_number"]])
     outliers, influential = _points(marks, offsets, fitted, cols)
     return (ChunkResult(fitted, cols, coef, se, cands, outliers, influential), rows[~ok])
+
+
+def _chi_square(rss, df, known: bool) -> tuple[np.ndarray, np.ndarray]:
+    """Weighted RSS against chi-square(n - p) with known SDs
+    (:func:`service.core.checks.known_sd.chi_square_fit`); NaN without them or without df."""
+    if not known:
+        return np.full(rss.shape, np.nan), np.full(rss.shape, np.nan)
+    tested = (df >= 1) & np.isfinite(rss)
+    with np.errstate(all="ignore"):
+        return (np.where(tested, rss, np.nan),
+                np.where(tested, special.chdtrc(np.maximum(df, 1), rss), np.nan))
 
 
 def _lack_of_fit(u, z, w, offsets, rows, repeats, rss, p):
@@ -200,6 +216,7 @@ def _flags(cols, sc, p, exact, cond) -> tuple[np.ndarray, np.ndarray]:
     info, caution, serious = range(3)
     with np.errstate(invalid="ignore"):
         for code, hit, level in (
+                ("chi_square_fit_failed", cols["chi_square_fit_p"] < alpha, serious),
                 ("exact_fit", exact, caution),
                 ("no_residual_df", n == p, serious),
                 ("few_points_per_parameter", (n != p) & (n < single.POINTS_PER_PARAMETER * p),

@@ -48,7 +48,8 @@ def fit_frame(df: pd.DataFrame, id: str = "id", x: str = "x", y: str = "y",  # n
         Column names.
     model : ModelSpec
     options : FitOptions
-        ``level`` and ``missing`` apply.
+        ``level``, ``missing`` and ``weighting`` apply (``"known_sd"``: the weights are
+        1/SD² of known errors, and the ``chi_square_fit_p`` column is filled).
     workers : int
         Threads for the engine.
 

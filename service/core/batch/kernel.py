@@ -50,7 +50,7 @@ _TWO_PI_LOG = math.log(2.0 * math.pi)
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
-def fit_rows(u, z, w, unit, offsets, rows, dmin, dmax, intercept, code, need_press,
+def fit_rows(u, z, w, unit, offsets, rows, dmin, dmax, intercept, code, need_press, known,
              crit, log_beta, slot, bonf, cook, magnitude, binom, rtol2, lev_one, cond_caution, tiny,
              sc, cand, coef, se, marks, resid, status):
     """Fit, select and diagnose each series ``rows[g]``; results go to row ``g`` of the outputs.
@@ -62,6 +62,9 @@ def fit_rows(u, z, w, unit, offsets, rows, dmin, dmax, intercept, code, need_pre
         series ``r`` is ``offsets[r]:offsets[r + 1]``.
     dmin, dmax, intercept, code, need_press
         Candidate degrees, intercept, :data:`SELECT_CODES` value, whether PRESS is wanted.
+    known : bool
+        Weights are ``1/SD²`` of known errors: unscaled standard errors, and AIC, AICc, BIC
+        (and choices on them) at the known variances (``summary.with_known_variance``).
     crit, log_beta : ndarray
         ``F(1, df; 1 - alpha)`` and ``ln B(df/2, 1/2)`` by residual df.
     slot, bonf, cook, magnitude
@@ -183,7 +186,9 @@ def fit_rows(u, z, w, unit, offsets, rows, dmin, dmax, intercept, code, need_pre
             cc[2, j] = math.sqrt(rss / df) if df > 0 else np.nan
             cc[3, j] = r2
             cc[4, j] = 1 - (1 - r2) * (n - c) / df if df > 0 and tss > 0 else np.nan
-            if rss > 0:
+            if known:   # -2 log-likelihood at the known variances 1/w
+                m2llf = n * _TWO_PI_LOG - sum_log_w + rss
+            elif rss > 0:
                 m2llf = n * (_TWO_PI_LOG + math.log(rss / n) + 1) - sum_log_w
             else:
                 m2llf = np.nan
@@ -207,7 +212,8 @@ def fit_rows(u, z, w, unit, offsets, rows, dmin, dmax, intercept, code, need_pre
         p = dmin + pick + c
         df = n - p
         sigma = 0.0 if exact[pick] else cc[2, pick]
-        # raw-x coefficients: a_raw = T R^-1 b, cov = sigma^2 (T R^-1)(T R^-1)'
+        scale_se = 1.0 if known else sigma   # known SDs: the covariance is not rescaled
+        # raw-x coefficients: a_raw = T R^-1 b, cov = scale^2 (T R^-1)(T R^-1)'
         negp[0], invs[0] = 1.0, 1.0
         for k in range(1, P + 1):
             negp[k] = negp[k - 1] * -shift
@@ -226,13 +232,13 @@ def fit_rows(u, z, w, unit, offsets, rows, dmin, dmax, intercept, code, need_pre
                 for k in range(p):
                     est += half[i, k] * b[k]
                     var += half[i, k] * half[i, k]
-                sd = math.sqrt(var) * sigma
+                sd = math.sqrt(var) * scale_se
                 coef[g, i], se[g, i] = est, sd
                 for v in (est, sd):
                     av = abs(v)
                     if av > 1e150 or (0 < av < 1e-150):
                         moderate = False
-                if sd == 0 and sigma > 0:
+                if sd == 0 and scale_se > 0:
                     moderate = False
             else:
                 coef[g, i], se[g, i] = np.nan, np.nan

@@ -20,8 +20,8 @@ from service.core.results import FitReport, Notice
 SCALARS = ("n", "degree", "min_degree", "df_residual", "rss", "sigma", "r_squared",
            "adj_r_squared", "aic", "aicc", "bic", "press", "shapiro_wilk", "shapiro_wilk_p",
            "durbin_watson", "durbin_watson_p", "breusch_pagan", "breusch_pagan_p",
-           "lack_of_fit_f", "lack_of_fit_p", "n_outliers", "n_influential", "n_high_leverage",
-           "flags", "flag_levels")
+           "lack_of_fit_f", "lack_of_fit_p", "chi_square_fit", "chi_square_fit_p", "n_outliers",
+           "n_influential", "n_high_leverage", "flags", "flag_levels")
 CANDIDATE_MEASURES = ("df_residual", "rss", "sigma", "r_squared", "adj_r_squared", "aic", "aicc",
                       "bic", "press", "f_last", "p_last")
 
@@ -160,6 +160,9 @@ def fill_from_report(out: dict, row: int, report: FitReport) -> None:
         if "durbin_watson" in tests:
             cols["durbin_watson"][row] = tests["durbin_watson"].statistic
             cols["durbin_watson_p"][row] = tests["durbin_watson"].p_value
+        if "chi_square_fit" in tests:   # known SDs only
+            cols["chi_square_fit"][row] = tests["chi_square_fit"].statistic
+            cols["chi_square_fit_p"][row] = tests["chi_square_fit"].p_value
         if d.lack_of_fit is not None:
             cols["lack_of_fit_f"][row] = d.lack_of_fit.f
             cols["lack_of_fit_p"][row] = d.lack_of_fit.p_value

@@ -11,7 +11,8 @@ Columns, in this order (:func:`column_names`):
 - ``id`` (when ids are given), ``status`` (``"ok"`` or ``"error"``);
 - the scalars of :data:`RESULT_SCALARS` (``n``, ``degree``, ``sigma``..., the residual
   tests' p-values ``shapiro_wilk_p``, ``breusch_pagan_p``, ``durbin_watson_p``,
-  ``lack_of_fit_p``, and the counts of outlying, influential and high-leverage points);
+  ``lack_of_fit_p``, ``chi_square_fit_p`` (the goodness-of-fit test with weighting
+  ``known_sd``; null otherwise), and the counts of outlying, influential and high-leverage points);
 - ``coef_0`` ... ``coef_K`` and ``se_0`` ... ``se_K``: the coefficient of ``x^k`` (raw x,
   after ``transform_x``) and its standard error, ``K`` the model's largest degree; null
   where ``x^k`` is not in that row's model (above its degree, or ``coef_0`` without an
@@ -43,8 +44,8 @@ from service.core.spec import ModelSpec
 _MODEL = ModelSpec()
 RESULT_SCALARS = ("n", "degree", "df_residual", "sigma", "r_squared", "adj_r_squared", "rss",
                   "aic", "aicc", "bic", "press", "shapiro_wilk_p", "breusch_pagan_p",
-                  "durbin_watson", "durbin_watson_p", "lack_of_fit_p", "n_outliers",
-                  "n_influential", "n_high_leverage")
+                  "durbin_watson", "durbin_watson_p", "lack_of_fit_p", "chi_square_fit_p",
+                  "n_outliers", "n_influential", "n_high_leverage")
 FLAG_COLUMNS = ("flag_codes", "flag_severities", "severity")
 ERROR_COLUMNS = ("error_code", "error_field", "error")
 WORST_FIRST = ("serious", "caution", "info")
