@@ -113,7 +113,7 @@ class Client(Caller):
     def batch(self, series: Iterable[Mapping[str, Any]], *,
               model: Mapping[str, Any] | None = None, detail: str | None = None,
               level: float | None = None, missing: str | None = None,
-              include: Sequence[str] | None = None,
+              weighting: str | None = None, include: Sequence[str] | None = None,
               grid: Mapping[str, Any] | None = None) -> BatchResult:
         """Fit many series in one JSON call (``POST /v1/batch``), results in order.
 
@@ -122,13 +122,13 @@ class Client(Caller):
         """
         body = {"series": [series_body(s, i) for i, s in enumerate(iterable_series(series))],
                 **shared_members(model=model, detail=detail, level=level, missing=missing,
-                          include=include, grid=grid)}
+                                 weighting=weighting, include=include, grid=grid)}
         return build(BatchResult, self._json("POST", "/v1/batch", body))
 
     def batch_stream(self, series: Iterable[Mapping[str, Any]], *,
                      model: Mapping[str, Any] | None = None, detail: str | None = None,
                      level: float | None = None, missing: str | None = None,
-                     include: Sequence[str] | None = None,
+                     weighting: str | None = None, include: Sequence[str] | None = None,
                      grid: Mapping[str, Any] | None = None) -> BatchStream:
         """Stream series as NDJSON and yield each result as it arrives (never retried).
 
@@ -137,7 +137,7 @@ class Client(Caller):
         ``detail``...) travel in the first line as ``{"options": {...}}``.
         """
         shared = shared_members(model=model, detail=detail, level=level, missing=missing,
-                         include=include, grid=grid)
+                                weighting=weighting, include=include, grid=grid)
         series = iterable_series(series)
         first_line = encode({"options": shared}) + b"\n" if shared else b""
 
@@ -162,9 +162,9 @@ class Client(Caller):
         ``data`` is a pandas DataFrame or a pyarrow Table with one row per point; ``id``,
         ``x``, ``y`` and ``weight`` name its columns (ids strings or integers; rows in any
         order, the points of a series in their row order). ``model`` and ``options``
-        (``level``, ``missing``) are the JSON batch's shared members. Returns one row per
-        series, in order of each id's first row, one scalar per cell (``coef_0``,
-        ``se_0``, ..., ``flag_codes``, ``error_code``...: see
+        (``level``, ``missing``, ``weighting``) are the JSON batch's shared members.
+        Returns one row per series, in order of each id's first row, one scalar per cell
+        (``coef_0``, ``se_0``, ..., ``flag_codes``, ``error_code``...: see
         :mod:`curvewise_client.arrow`); a series that cannot be fitted is a row with
         ``status == "error"``, never an exception. Needs the ``arrow`` extra.
         """

@@ -13,8 +13,6 @@ import pandas as pd
 import pytest
 import statsmodels.api as sm
 from curvewise_client import frames
-from curvewise_client.results.base import build
-from curvewise_client.results.batch import BatchResult
 from scipy import stats
 
 
@@ -55,11 +53,8 @@ def test_tidy_frames_of_json_batches_carry_the_chi_square_test(inprocess_client)
     arrow = inprocess_client.batch_frame(frame, id="probe", x="ref", y="reading", weight="w",
                                          model={"degree": 1}, options={"weighting": "known_sd"})
     for detail in ("summary", "full"):
-        # Client.batch has no weighting keyword yet: the JSON body is sent as the service
-        # documents it, through the client's own transport
-        answer = inprocess_client._json("POST", "/v1/batch", {
-            "series": series, "model": {"degree": 1}, "weighting": "known_sd",
-            "detail": detail})
-        tidy = frames.batch_frame(build(BatchResult, answer))
+        answer = inprocess_client.batch(series, model={"degree": 1}, weighting="known_sd",
+                                        detail=detail)
+        tidy = frames.batch_frame(answer)
         np.testing.assert_allclose(tidy["chi_square_fit_p"].to_numpy(dtype=float),
                                    arrow["chi_square_fit_p"].to_numpy(dtype=float), rtol=1e-10)
