@@ -43,6 +43,7 @@ they are read (:mod:`service.api.body`): one byte over the limit is a 413 proble
 
 from __future__ import annotations
 
+import _signal
 import os
 import signal
 import sys
@@ -63,6 +64,10 @@ from service.http.errors import (
 from service.http.jsonio import dumps_bytes
 
 REPEAT_SECONDS = 1.0
+# signal.signal without its enum conversions (``_signal`` is the C module that ``signal`` wraps;
+# the wrapper's two IntEnum look-ups cost a few microseconds per request). It takes and
+# returns handlers as ints or callables; signal.getsignal still reads them back as enums.
+_set_handler = _signal.signal
 RETRY_SECONDS = 0.01  # the timer fired inside compiled machinery: try again this soon
 ENVIRON_KEY = DEADLINE_KEY
 PRODUCED_KEY = "curvewise.answer_produced"  # a non-streamed answer: nothing left to compute
@@ -169,7 +174,7 @@ class DeadlineMiddleware:
                 raise ComputeTimeout(self.limit)
             raise DeadlinePassed  # a timeout was raised before and swallowed
 
-        previous = _Previous(signal.signal(signal.SIGALRM, on_alarm),
+        previous = _Previous(_set_handler(signal.SIGALRM, on_alarm),
                              signal.setitimer(signal.ITIMER_REAL, self.limit, REPEAT_SECONDS),
                              interrupt.install(deadline.check))
         retire = environ.get("SERVER_SOFTWARE", "").startswith("gunicorn")
@@ -229,7 +234,7 @@ class _Previous:
 
 def _disarm(previous: _Previous) -> None:
     signal.setitimer(signal.ITIMER_REAL, 0)
-    signal.signal(signal.SIGALRM, previous.handler)
+    _set_handler(signal.SIGALRM, previous.handler)
     interrupt.restore(previous.check)
     if previous.delay > 0:  # an earlier timer keeps running; overdue ones fire at once
         left = previous.delay - (time.monotonic() - previous.armed_at)

@@ -43,7 +43,12 @@ from flask import Flask, Response, g, request
 from flask_smorest import Blueprint
 
 from service.core.errors import FitError
-from service.runtime.logs import REQUEST_ID_HEADER, configure_logging, incoming_request_id
+from service.runtime.logs import (
+    REQUEST_ID_HEADER,
+    configure_logging,
+    incoming_request_id,
+    info_record,
+)
 
 _METHODS = frozenset({"GET", "HEAD", "POST", "PUT", "PATCH", "DELETE", "OPTIONS"})
 MULTIPROC_ENV = "PROMETHEUS_MULTIPROC_DIR"
@@ -257,15 +262,15 @@ def install(app: Flask) -> None:
             else:
                 _record_summary(response.get_data()[-1024:])
         if access_log.isEnabledFor(logging.INFO):
-            # built directly: Logger.info would walk the stack for a caller nobody reads
-            record = logging.LogRecord(access_log.name, logging.INFO, __file__, 0, "request",
-                                       None, None)
+            environ = req.environ
+            record = info_record(access_log.name, "request", __file__)
             record.request_id = request_id
             record.fields = {
                 "method": method, "route": route, "path": req.path, "status": status,
                 "duration_ms": round(elapsed * 1000, 3), "bytes_in": req.content_length,
-                "bytes_out": response.content_length, "remote_addr": req.remote_addr,
-                "forwarded_for": req.headers.get("X-Forwarded-For"),  # set by the proxy
+                "bytes_out": response.content_length, "remote_addr": environ.get("REMOTE_ADDR"),
+                # set by the proxy; the header's WSGI variable (what req.headers.get reads)
+                "forwarded_for": environ.get("HTTP_X_FORWARDED_FOR"),
             }
             access_log.handle(record)
         return response

@@ -174,8 +174,7 @@ def install(app: Flask) -> None:
             headers.add("Content-Security-Policy", API_CSP)
         if request.path.startswith("/v1/") or mimetype == PROBLEM_MIME:
             headers["Cache-Control"] = "no-store"
-        origin = request.headers.get("Origin")
-        if origins and origin_allowed(origin):
+        if origins and origin_allowed(origin := request.headers.get("Origin")):
             headers["Access-Control-Allow-Origin"] = "*" if any_origin else origin
             headers["Access-Control-Expose-Headers"] = CORS_EXPOSE
             if _is_preflight():

@@ -218,3 +218,25 @@ def test_failed_series_in_a_batch_are_counted_by_reason_code(client):
     after = samples(client)
     for code in before:
         assert value(after, name, reason=code) == before[code] + 1
+
+
+def test_access_records_carry_what_a_log_record_built_normally_carries():
+    # logs.info_record copies the per-process attributes of a first LogRecord and sets the
+    # clock fields again: every attribute must match a LogRecord built now (clock ones close)
+    import time
+
+    from service.runtime.logs import info_record
+
+    first = info_record("curvewise.test", "request", __file__)  # builds the template
+    time.sleep(0.002)
+    copied = info_record("curvewise.test", "request", __file__)
+    normal = logging.LogRecord("curvewise.test", logging.INFO, __file__, 0, "request", None,
+                               None)
+    clock = {"created", "msecs", "relativeCreated"}
+    assert copied is not first and set(vars(copied)) == set(vars(normal))
+    assert {k: v for k, v in vars(copied).items() if k not in clock} == {
+        k: v for k, v in vars(normal).items() if k not in clock}
+    assert first.created < copied.created <= normal.created
+    assert abs(copied.created - normal.created) < 1.0
+    assert copied.msecs == int((copied.created - int(copied.created)) * 1000)
+    assert copied.getMessage() == "request" and copied.levelname == "INFO"

@@ -76,7 +76,10 @@ def to_matrix(values) -> list:
 
 def _with_none(array: np.ndarray) -> list:
     """``array.tolist()`` (Python floats, nested for 2-D) with NaN and infinities as ``None``."""
-    if np.isfinite(array).all():
-        return array.tolist()
+    values = array.tolist()
+    # a finite sum means every value is finite (NaN and infinities make it NaN or infinite); a
+    # sum that overflows although every value is finite only takes the element-wise path
+    if math.isfinite(sum(values) if array.ndim == 1 else sum(map(sum, values))):
+        return values
     return [_with_none(row) if np.ndim(row) else (float(row) if np.isfinite(row) else None)
             for row in array]
