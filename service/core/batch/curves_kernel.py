@@ -38,7 +38,7 @@ from service.core.batch.curves_models import (
     evaluate,
     on_log_x,
 )
-from service.core.batch.curves_solver import SMALL_GRADIENT, factor_and_norms, solve
+from service.core.batch.curves_solver import SMALL_GRADIENT, factor_and_norms, scratch_rows, solve
 from service.core.batch.curves_starts import levels, project, shape_start
 from service.core.batch.residuals import design_sums
 from service.core.checks.kernels import chi2_tail, dw_p, dw_traces
@@ -205,7 +205,7 @@ def fit_rows(fid, x, y, w, offsets, rows, cut_t, cut_cook, always_grid, est, se,
     u_all, sw_all = np.empty(nmax), np.empty(nmax)
     f, v = np.empty(nmax), np.empty(nmax)
     lev, means = np.empty(nmax), np.empty(nmax)
-    jac, mats = np.empty(p * nmax), np.empty((6 * p + 11, p))
+    jac, mats = np.empty(p * nmax), np.empty((scratch_rows(p), p))
     cols_all, q = np.empty((lin, nmax)), np.empty((p, nmax))
     coef, nl, theta, best = np.empty(lin), np.empty(2), np.empty(p), np.empty(p)
     ul_all, yl_all, swl_all = np.empty(nmax), np.empty(nmax), np.empty(nmax)

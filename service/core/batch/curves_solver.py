@@ -24,7 +24,7 @@ import math
 import numba
 import numpy as np
 
-from service.core.batch.curves_models import constants, point, prepass
+from service.core.batch.curves_models import constants, curvature, has_curvature, point, prepass
 
 TARGET_OFFSET = 1e-10
 ACCEPT_OFFSET = 1e-8       # the single fit's criterion (solver.DEFAULT_TOLERANCE)
@@ -32,6 +32,7 @@ MAX_ITERATIONS = 200
 EPS = float(np.finfo(float).eps)
 FLAT_OFFSET = 1e-3         # as polish.FLAT_OFFSET
 ACCELERATE_OFFSET = 0.05   # below this relative offset Gauss-Newton's linear rate is steady
+NEWTON_OFFSET = 0.05       # below it, with second derivatives, a full Newton step is tried first
 PIVOT_FLOOR = 1e-24        # squared scaled pivot: below it the tangent plane is singular
 RELATIVE_OFFSET, SMALL_GRADIENT, STALLED, SINGULAR, LIMIT, NON_FINITE = 0, 1, 2, 3, 4, 5
 CODES = ("relative_offset", "small_gradient", "stalled", "singular_jacobian", "iteration_limit",
@@ -81,9 +82,12 @@ def backward(low, p, z, out):
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
-def linearize(fid, theta, u, y, sw, p, a, g, d, row, buf):
+def linearize(fid, theta, u, y, sw, p, a, g, d, row, buf, second, cm, hess):
     """One pass over the points at ``theta``: scaled ``Js'Js`` into ``a``, ``Js' r`` into
-    ``g`` and the column norms of ``sqrt(W) J`` into ``d`` (``Js = sqrt(W) J D^-1``).
+    ``g`` and the column norms of ``sqrt(W) J`` into ``d`` (``Js = sqrt(W) J D^-1``);
+    with ``second``, the scaled curvature term ``D^-1 (sum w r H) D^-1`` of the Hessian
+    (``H`` the curve's second derivatives, :func:`.curves_models.curvature`) into ``cm``
+    (``hess`` p x p scratch).
 
     Returns ``(finite, rss, floor, slack)``: False when the curve or a derivative is not
     finite; the rounding floor of ``||Q1' r||`` and the rounding slack of the RSS are
@@ -96,6 +100,7 @@ def linearize(fid, theta, u, y, sw, p, a, g, d, row, buf):
         g[j] = 0.0
         for k in range(j + 1):
             a[j, k] = 0.0
+            cm[j, k] = 0.0
     for i in range(y.size):
         fi = point(fid, theta, c0, c1, u[i], buf[i], row)
         w = sw[i]
@@ -109,6 +114,11 @@ def linearize(fid, theta, u, y, sw, p, a, g, d, row, buf):
             g[j] += cj * ri
             for k in range(j + 1):
                 a[j, k] += cj * row[k] * w
+        if second:
+            curvature(fid, theta, c0, c1, u[i], buf[i], hess)
+            for j in range(p):
+                for k in range(j + 1):
+                    cm[j, k] += w * ri * hess[j, k]
     if not math.isfinite(rss):
         return False, np.inf, 0.0, 0.0
     for j in range(p):
@@ -121,10 +131,12 @@ def linearize(fid, theta, u, y, sw, p, a, g, d, row, buf):
             for k in range(j + 1):
                 a[j, k] /= d[j] * d[k]
                 a[k, j] = a[j, k]
+                cm[j, k] /= d[j] * d[k]
+                cm[k, j] = cm[j, k]
     return True, rss, 2.0 * math.sqrt(p) * worst, slack
 
 
-@numba.njit(cache=True, nogil=True, error_model="numpy")
+@numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
 def check(a, g, d, p, low, z, rss, floor, n):
     """The convergence check at a linearized point: ``(code, offset)``.
 
@@ -148,7 +160,7 @@ def check(a, g, d, p, low, z, rss, floor, n):
     return (RELATIVE_OFFSET if offset <= TARGET_OFFSET else -1), offset
 
 
-@numba.njit(cache=True, nogil=True, error_model="numpy")
+@numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
 def _try(fid, trial, u, y, sw, p, pure, n, rss, offset, slack, mats, row, buf):
     """Linearize at ``trial`` (into the trial rows of ``mats``) and judge it.
 
@@ -157,8 +169,9 @@ def _try(fid, trial, u, y, sw, p, pure, n, rss, offset, slack, mats, row, buf):
     """
     trial_a, trial_low = mats[4 * p:5 * p], mats[5 * p:6 * p]
     z, trial_g, trial_d = mats[6 * p + 1], mats[6 * p + 5], mats[6 * p + 6]
+    trial_c, hess = mats[7 * p + 11:8 * p + 11], mats[8 * p + 11:9 * p + 11]
     ok, rt, floor_t, slack_t = linearize(fid, trial, u, y, sw, p, trial_a, trial_g, trial_d,
-                                         row, buf)
+                                         row, buf, has_curvature(fid), trial_c, hess)
     rt += pure
     if not ok:
         return 0, -1, rss, offset, slack
@@ -171,7 +184,7 @@ def _try(fid, trial, u, y, sw, p, pure, n, rss, offset, slack, mats, row, buf):
     return -1, -1, rss, offset, slack
 
 
-@numba.njit(cache=True, nogil=True, error_model="numpy")
+@numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
 def _commit(theta, trial, mats, p):
     """Make the judged trial point the current one (estimates, factor, gradient, norms)."""
     for j in range(p):
@@ -181,6 +194,33 @@ def _commit(theta, trial, mats, p):
         for k in range(p):
             mats[p + j, k] = mats[4 * p + j, k]          # a
             mats[j, k] = mats[5 * p + j, k]              # low
+            mats[6 * p + 11 + j, k] = mats[7 * p + 11 + j, k]    # curvature term
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def _newton_step(theta, a, cm, g, d, lam, p, m, low_m, step, trial):
+    """The damped Newton point ``theta + D^-1 (Js'Js - C + lambda I)^-1 g`` into ``trial``;
+    False when that matrix is not positive definite or the step is at rounding level."""
+    for j in range(p):
+        for k in range(p):
+            m[j, k] = a[j, k] - cm[j, k]
+        m[j, j] += lam
+    if not cholesky(m, p, low_m):
+        return False
+    forward(low_m, p, g, trial)
+    backward(low_m, p, trial, step)
+    small = True
+    for j in range(p):
+        step[j] /= d[j]
+        trial[j] = theta[j] + step[j]
+        small &= abs(step[j]) <= 4.0 * EPS * abs(theta[j])
+    return not small
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def scratch_rows(p):
+    """Rows of :func:`solve`'s scratch ``mats`` (``p`` columns)."""
+    return 9 * p + 11
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
@@ -193,7 +233,7 @@ def solve(fid, theta, u, y, sw, mats, max_iterations, pure, n):
     RSS) and ``n`` the number of points; the RSS, gradient and relative offset are those
     of the points, at a third of the work for triplicates.
 
-    ``mats`` is scratch of shape ``(6p + 11, p)``; on a converged return
+    ``mats`` is scratch of shape ``(scratch_rows(p), p)``; on a converged return
     :func:`factor_and_norms` reads the Cholesky factor of the scaled ``Js'Js`` at
     ``theta`` and the column norms ``D`` from it.
 
@@ -201,9 +241,13 @@ def solve(fid, theta, u, y, sw, mats, max_iterations, pure, n):
     ``FLAT_OFFSET``, where the RSS is flat to first order and float64 cannot confirm
     a step, also when the RSS stays within its rounding slack and the relative
     offset falls (as the single fit's polish does). Gauss-Newton converges linearly on
-    noisy data; below :data:`ACCELERATE_OFFSET` each iteration first tries the step
-    extrapolated from the last two (Anderson acceleration of depth one, in the scaled
-    parameters), judged by the same rules, and falls back on the plain step.
+    noisy data. For a family with second derivatives (logistic4), below
+    :data:`NEWTON_OFFSET` each iteration first tries the Newton step of the full Hessian
+    ``Js'Js - D^-1 (sum w r H) D^-1`` (damped by the current lambda; converges
+    quadratically), judged by the same rules; when it fails, and for the other families
+    below :data:`ACCELERATE_OFFSET`, the step extrapolated from the last two (Anderson
+    acceleration of depth one, in the scaled parameters) is tried, then the plain step.
+    The stop is the same relative offset whichever step led there.
 
     Returns
     -------
@@ -214,8 +258,11 @@ def solve(fid, theta, u, y, sw, mats, max_iterations, pure, n):
     g, z, d, step = mats[6 * p], mats[6 * p + 1], mats[6 * p + 2], mats[6 * p + 3]
     trial, row = mats[6 * p + 4], mats[6 * p + 7]
     prev_theta, prev_step, extra = mats[6 * p + 8], mats[6 * p + 9], mats[6 * p + 10]
+    cm, hess = mats[6 * p + 11:7 * p + 11], mats[8 * p + 11:9 * p + 11]
+    newton = has_curvature(fid)
     buf = np.empty(y.size)
-    ok, rss, floor, slack = linearize(fid, theta, u, y, sw, p, a, g, d, row, buf)
+    ok, rss, floor, slack = linearize(fid, theta, u, y, sw, p, a, g, d, row, buf, newton, cm,
+                                      hess)
     if not ok:
         return NON_FINITE, np.inf, np.nan, 0
     rss += pure
@@ -225,6 +272,16 @@ def solve(fid, theta, u, y, sw, mats, max_iterations, pure, n):
     for it in range(max_iterations):
         if code >= 0:
             return code, rss, offset, it
+        if newton and offset <= NEWTON_OFFSET and _newton_step(theta, a, cm, g, d, lam, p,
+                                                                m, low_m, step, extra):
+            verdict, c, r, o, sl = _try(fid, extra, u, y, sw, p, pure, n, rss, offset, slack,
+                                        mats, row, buf)
+            if verdict == 1:
+                have_prev = False
+                _commit(theta, extra, mats, p)
+                code, rss, offset, slack = c, r, o, sl
+                lam = max(lam * 0.1, 1e-12)
+                continue
         accepted = False
         while lam < 1e16:
             for j in range(p):
