@@ -44,6 +44,7 @@ from service.core.batch.curves_results import (
     fill_from_report,
 )
 from service.core.checks.diagnostics import cut_offs
+from service.core.checks.shapiro_tables import SHAPIRO_MAX_N, shapiro_weights
 from service.core.errors import FitError
 from service.core.families import family
 from service.core.interrupt import checkpoint
@@ -87,6 +88,20 @@ def _cut_tables(p: int, top: int) -> tuple[np.ndarray, np.ndarray]:
     t.setflags(write=False)
     cook.setflags(write=False)
     return t, cook
+
+
+def _shapiro_table(lengths: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Shapiro-Wilk weights of every length in ``lengths``, back to back: ``(start, coef)``
+    with ``coef[start[n]:start[n] + n]`` the weights for n points (``start[n]`` -1 outside
+    3..SHAPIRO_MAX_N)."""
+    start = np.full(int(lengths.max()) + 1, -1, dtype=np.int64)
+    parts, at = [], 0
+    for n in np.unique(lengths).tolist():
+        if 3 <= n <= SHAPIRO_MAX_N:
+            start[n] = at
+            parts.append(shapiro_weights(n))
+            at += n
+    return start, (np.concatenate(parts) if parts else np.empty(0))
 
 
 def _screen(x, y, w, offsets, lengths, fid, p) -> np.ndarray:
@@ -174,17 +189,17 @@ def _compiled(out, fid, x, y, w, lengths, offsets, workers, always_grid) -> np.n
     if take.size == 0:
         return np.arange(G)
     cut_t, cut_cook = _cut_tables(p, int(lengths[take].max()))
+    sw_start, sw_coef = _shapiro_table(lengths[take])
     wk = np.ones_like(x) if w is None else w
     status = np.ones(G, dtype=np.int8)
     stats = np.full((G, len(STATS)), np.nan)
-    resid = np.zeros(x.size)
     est, se = out["estimates"], out["std_errors"]
 
     def run(chunk):
         checkpoint()  # a caller's budget is checked between chunks, never inside the kernel
         with np.errstate(all="ignore"):
-            fit_rows(fid, x, y, wk, offsets, chunk, cut_t, cut_cook, always_grid, est, se,
-                     stats, status, resid)
+            fit_rows(fid, x, y, wk, offsets, chunk, cut_t, cut_cook, sw_start, sw_coef,
+                     always_grid, est, se, stats, status)
 
     chunks = [take[i:i + CHUNK_SERIES] for i in range(0, take.size, CHUNK_SERIES)]
     if workers > 1 and len(chunks) > 1:
@@ -195,7 +210,7 @@ def _compiled(out, fid, x, y, w, lengths, offsets, workers, always_grid) -> np.n
             run(chunk)
     done = np.flatnonzero(status == 0)
     if done.size:
-        finish(out, done, stats[done], lengths[done], p, resid, offsets)
+        finish(out, done, stats[done], lengths[done], p)
     est[status != 0] = np.nan
     se[status != 0] = np.nan
     return np.flatnonzero(status != 0)

@@ -1,0 +1,106 @@
+"""Per-point helpers of the nonlinear batch kernel: ordering, pooling and Shapiro-Wilk.
+
+Written for short series (tens of points) with no allocation per series:
+
+* :func:`sort_order`: the ascending order of ``u`` (a stable insertion sort up to
+  :data:`INSERTION_MAX` points, numpy's merge sort above);
+* :func:`pool`: the points pooled by distinct ``u`` (weighted means, square roots of the
+  summed weights, the pure-error sum of squares) and the pool of each point;
+* :func:`shapiro_w_p`: Shapiro-Wilk's ``W = (c . e_sorted)² / sum (e - mean)²`` with
+  Royston's AS R94 weights ``c`` and its p-value (the single fit's formula and
+  :func:`service.core.checks.kernels.shapiro_p`).
+"""
+
+from __future__ import annotations
+
+import math
+
+import numba
+import numpy as np
+
+from service.core.checks.kernels import shapiro_p
+
+INSERTION_MAX = 64
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def sort_order(u, order):
+    """Indices putting ``u`` in ascending order (stable) into ``order[:u.size]``."""
+    n = u.size
+    if n > INSERTION_MAX:
+        order[:n] = np.argsort(u, kind="mergesort")
+        return
+    for i in range(n):
+        j = i
+        while j > 0 and u[order[j - 1]] > u[i]:
+            order[j] = order[j - 1]
+            j -= 1
+        order[j] = i
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def sort_values(values, out):
+    """``values`` in ascending order into ``out[:values.size]`` (insertion sort for short
+    series, numpy's sort above :data:`INSERTION_MAX`)."""
+    n = values.size
+    if n > INSERTION_MAX:
+        out[:n] = np.sort(values)
+        return
+    for i in range(n):
+        v = values[i]
+        j = i
+        while j > 0 and out[j - 1] > v:
+            out[j] = out[j - 1]
+            j -= 1
+        out[j] = v
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def pool(u, y, w, order, ul, yl, swl, which):
+    """Pool the points by distinct u (in ``order``): the distinct u, weighted mean y and
+    square root of the summed weights of each into ``ul``, ``yl``, ``swl``, and the pool
+    of each point into ``which``; returns the number of pools and the weighted scatter of
+    y about the means (the pure-error sum of squares)."""
+    n = u.size
+    k = 0
+    ss = 0.0
+    j = 0
+    while j < n:
+        stop = j
+        sw = swy = 0.0
+        while stop < n and u[order[stop]] == u[order[j]]:
+            sw += w[order[stop]]
+            swy += w[order[stop]] * y[order[stop]]
+            which[order[stop]] = k
+            stop += 1
+        mean = swy / sw
+        for t in range(j, stop):
+            dev = y[order[t]] - mean
+            ss += w[order[t]] * dev * dev
+        ul[k], yl[k], swl[k] = u[order[j]], mean, math.sqrt(sw)
+        k += 1
+        j = stop
+    return k, ss
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def shapiro_w_p(e, coef, srt):
+    """Shapiro-Wilk's W of the residuals ``e`` and its p-value, with the AS R94 weights
+    ``coef`` for ``e.size`` points (``srt``: scratch of that length); NaNs when all the
+    residuals are equal or the weights are not given (empty ``coef``)."""
+    n = e.size
+    if coef.size != n:
+        return np.nan, np.nan
+    sort_values(e, srt)
+    if srt[0] == srt[n - 1]:
+        return np.nan, np.nan
+    mean = 0.0
+    for i in range(n):
+        mean += srt[i]
+    mean /= n
+    spread = acc = 0.0
+    for i in range(n):
+        spread += (srt[i] - mean) * (srt[i] - mean)
+        acc += coef[i] * srt[i]
+    w = min(acc * acc / spread, 1.0)
+    return w, shapiro_p(w, n)
