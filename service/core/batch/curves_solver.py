@@ -24,7 +24,8 @@ import math
 import numba
 import numpy as np
 
-from service.core.batch.curves_models import constants, curvature, has_curvature, point, prepass
+from service.core.batch.curves_linearize import linearize
+from service.core.batch.curves_models import has_curvature
 
 TARGET_OFFSET = 1e-10
 ACCEPT_OFFSET = 1e-8       # the single fit's criterion (solver.DEFAULT_TOLERANCE)
@@ -79,61 +80,6 @@ def backward(low, p, z, out):
         for k in range(i + 1, p):
             t -= low[k, i] * out[k]
         out[i] = t / low[i, i]
-
-
-@numba.njit(cache=True, nogil=True, error_model="numpy")
-def linearize(fid, theta, u, y, sw, p, a, g, d, row, buf, second, cm, hess):
-    """One pass over the points at ``theta``: scaled ``Js'Js`` into ``a``, ``Js' r`` into
-    ``g`` and the column norms of ``sqrt(W) J`` into ``d`` (``Js = sqrt(W) J D^-1``);
-    with ``second``, the scaled curvature term ``D^-1 (sum w r H) D^-1`` of the Hessian
-    (``H`` the curve's second derivatives, :func:`.curves_models.curvature`) into ``cm``
-    (``hess`` p x p scratch).
-
-    Returns ``(finite, rss, floor, slack)``: False when the curve or a derivative is not
-    finite; the rounding floor of ``||Q1' r||`` and the rounding slack of the RSS are
-    those of :func:`service.core.nonlinear.polish.assess`.
-    """
-    c0, c1 = constants(fid, theta)
-    prepass(fid, theta, c0, u, buf)
-    worst = slack = rss = 0.0
-    for j in range(p):
-        g[j] = 0.0
-        for k in range(j + 1):
-            a[j, k] = 0.0
-            cm[j, k] = 0.0
-    for i in range(y.size):
-        fi = point(fid, theta, c0, c1, u[i], buf[i], row)
-        w = sw[i]
-        ri = w * (y[i] - fi)
-        rss += ri * ri
-        rounding = 4.0 * EPS * w * (abs(y[i]) + abs(fi))
-        worst = max(worst, rounding)
-        slack += 2.0 * abs(ri) * rounding + rounding * rounding
-        for j in range(p):
-            cj = row[j] * w
-            g[j] += cj * ri
-            for k in range(j + 1):
-                a[j, k] += cj * row[k] * w
-        if second:
-            curvature(fid, theta, c0, c1, u[i], buf[i], hess)
-            for j in range(p):
-                for k in range(j + 1):
-                    cm[j, k] += w * ri * hess[j, k]
-    if not math.isfinite(rss):
-        return False, np.inf, 0.0, 0.0
-    for j in range(p):
-        d[j] = math.sqrt(a[j, j])
-        if not math.isfinite(d[j]) or not math.isfinite(g[j]):
-            return False, np.inf, 0.0, 0.0
-    for j in range(p):
-        if d[j] > 0:
-            g[j] /= d[j]
-            for k in range(j + 1):
-                a[j, k] /= d[j] * d[k]
-                a[k, j] = a[j, k]
-                cm[j, k] /= d[j] * d[k]
-                cm[k, j] = cm[j, k]
-    return True, rss, 2.0 * math.sqrt(p) * worst, slack
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
