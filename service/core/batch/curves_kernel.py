@@ -38,7 +38,7 @@ from service.core.batch.curves_models import (
     evaluate,
     on_log_x,
 )
-from service.core.batch.curves_points import pool, shapiro_w_p, sort_order
+from service.core.batch.curves_points import pool, shapiro_w_p, sort_order, tangent_sums
 from service.core.batch.curves_solver import (
     SMALL_GRADIENT,
     factor_and_norms,
@@ -46,7 +46,6 @@ from service.core.batch.curves_solver import (
     solve,
 )
 from service.core.batch.curves_starts import levels, project, shape_start
-from service.core.batch.residuals import design_sums
 from service.core.checks.kernels import chi2_tail, dw_p, dw_traces
 
 STATS = ("rss", "tss", "sum_log_w", "relative_offset", "iterations", "termination", "start",
@@ -84,16 +83,18 @@ def _attempt(fid, nl, n, pooled, cols, coef, theta, mats):
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
 def _summary(p, x, y, w, sw, f, js, low, d, rss, cut_t, cut_cook, q, e, out, est_se,
-             sw_coef, srt):
+             sw_coef, srt, work):
     """Inference and residual checks at the estimates into ``out`` (stats row) and ``est_se``.
 
     ``js`` is the scaled weighted Jacobian (p x n), ``low`` the Cholesky factor of ``js'js`` and
-    ``d`` the column norms (as :func:`.curves_solver.solve` leaves them)."""
+    ``d`` the column norms (as :func:`.curves_solver.solve` leaves them); ``work`` is scratch
+    of shape (3p + 1, p)."""
     n = y.size
     df = n - p
     sigma2 = rss / df
-    inv = np.zeros((p, p))               # inverse of the Cholesky factor, then (Js'Js)^-1
-    cov = np.empty((p, p))
+    inv, cov = work[:p], work[p:2 * p]   # inverse of the Cholesky factor, (Js'Js)^-1
+    gram, dq = work[2 * p:3 * p], work[3 * p]
+    inv[:, :] = 0.0
     for j in range(p):
         inv[j, j] = 1.0 / low[j, j]
         for i in range(j + 1, p):
@@ -131,7 +132,7 @@ def _summary(p, x, y, w, sw, f, js, low, d, rss, cut_t, cut_cook, q, e, out, est
     xbar /= n
     out[_DW] = dd / ss if ss > 0 else np.nan
     out[_SW], out[_SWP] = shapiro_w_p(e, sw_coef, srt)
-    tg, fg, faq = design_sums(q, p, n)
+    tg, fg, faq = tangent_sums(q, p, n, gram, dq)
     tr1, tr2 = dw_traces(n, tg, fg, faq)
     out[_DWP] = dw_p(out[_DW], n - p, tr1, tr2)
     sxx = szx = sz = szz = 0.0
@@ -146,17 +147,16 @@ def _summary(p, x, y, w, sw, f, js, low, d, rss, cut_t, cut_cook, q, e, out, est
     out[_BP] = lm
     out[_BPP] = chi2_tail(1, lm) if n > 2 and szz > 0 else np.nan
     n_out = n_inf = n_high = n_both = n_lever = 0
-    sigma = math.sqrt(sigma2)
-    for i in range(n):
+    cut_t2 = cut_t * cut_t
+    for i in range(n):       # the single fit's tests on squares (no square roots)
         h = 0.0
         for k in range(p):
             h += q[k, i] * q[k, i]
         one_h = 1.0 - h
-        std = e[i] / (math.sqrt(one_h) * sigma)
-        cook = std * std * h / (p * one_h)
-        stud = e[i] / math.sqrt((rss - e[i] * e[i] / one_h) / (df - 1) * one_h) \
-            if df > 1 else np.nan
-        outlier = abs(stud) > cut_t
+        e2 = e[i] * e[i]
+        cook = e2 / (one_h * sigma2) * h / (p * one_h)
+        scale = (rss - e2 / one_h) / (df - 1) * one_h     # studentized: e / sqrt(scale)
+        outlier = df > 1 and scale >= 0 and e2 > cut_t2 * scale
         influential = cook > cut_cook
         high = h > 2.0 * p / n
         n_out += outlier
@@ -192,6 +192,7 @@ def fit_rows(fid, x, y, w, offsets, rows, cut_t, cut_cook, sw_start, sw_coef, al
     order_all, which_all = np.empty(nmax, dtype=np.int64), np.empty(nmax, dtype=np.int64)
     f_pool, jac_pool = np.empty(nmax), np.empty(p * nmax)
     jac, mats = np.empty(p * nmax), np.empty((scratch_rows(p), p))
+    work = np.empty((3 * p + 1, p))
     cols_all, q = np.empty((lin, nmax)), np.empty((p, nmax))
     coef, nl, theta, best = np.empty(lin), np.empty(2), np.empty(p), np.empty(p)
     ul_all, yl_all, swl_all = np.empty(nmax), np.empty(nmax), np.empty(nmax)
@@ -250,15 +251,16 @@ def fit_rows(fid, x, y, w, offsets, rows, cut_t, cut_cook, sw_start, sw_coef, al
         for i in range(n):
             f[i] = f_pool[which[i]]
         for j in range(p):                   # the scaled weighted Jacobian of the points
+            inv_d = 1.0 / d[j]
             for i in range(n):
-                js[j, i] = jl[j, which[i]] * (sw[i] / d[j])
+                js[j, i] = jl[j, which[i]] * (sw[i] * inv_d)
         row = stats[r]
         row[_RSS], row[_OFFSET], row[_ITER], row[_TERM], row[_START] = \
             rss, offset, spent, code, start
         at = sw_start[n]
         _summary(p, xs, ys, ws, sw, f[:n], js, low, d, rss, cut_t[n], cut_cook[n], q,
                  e_all[:n], row, se[r], sw_coef[max(at, 0):at + n if at >= 0 else 0],
-                 srt_all[:n])
+                 srt_all[:n], work)
         if not math.isfinite(row[_BP]) and n > 2:      # constant x: the single fit decides
             continue
         row[_LOF] = row[_LOFDF] = row[_PUREDF] = np.nan

@@ -104,3 +104,38 @@ def shapiro_w_p(e, coef, srt):
         acc += coef[i] * srt[i]
     w = min(acc * acc / spread, 1.0)
     return w, shapiro_p(w, n)
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def tangent_sums(q, p, n, gram, dq):
+    """``tr(G)``, ``||G||_F²`` and ``||AQ||_F²`` of the orthonormal tangent basis rows
+    ``q[:p, :n]`` (the moments of Durbin-Watson's d, as
+    :func:`service.core.batch.residuals.design_sums`), in one pass over the points.
+
+    ``G = sum_i d_i d_i'`` over the differences ``d_i = q_i - q_(i-1)`` and
+    ``||AQ||² = d_1² + sum_(i>=2) (d_i - d_(i-1))² + d_(n-1)²``; ``gram`` (p x p) and
+    ``dq`` (p) are scratch.
+    """
+    if n < 2:
+        return 0.0, 0.0, 0.0
+    frob_aq = 0.0
+    for k in range(p):
+        dq[k] = 0.0
+        for j in range(k + 1):
+            gram[k, j] = 0.0
+    for i in range(1, n):
+        for k in range(p):
+            dk = q[k, i] - q[k, i - 1]
+            step = dk - dq[k]
+            frob_aq += step * step
+            dq[k] = dk
+            for j in range(k + 1):
+                gram[k, j] += dk * dq[j]
+    trace_g = frob_g = 0.0
+    for k in range(p):
+        frob_aq += dq[k] * dq[k]
+        trace_g += gram[k, k]
+        frob_g += gram[k, k] * gram[k, k]
+        for j in range(k):
+            frob_g += 2.0 * gram[k, j] * gram[k, j]
+    return trace_g, frob_g, frob_aq
