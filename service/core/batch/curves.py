@@ -37,6 +37,7 @@ import numpy as np
 from service.core.batch import layout
 from service.core.batch.curves_kernel import STATS, fit_rows
 from service.core.batch.curves_models import COMPILED, L4_LOG, N_PARAMETERS, POWER, WEIBULL
+from service.core.batch.curves_points import screen
 from service.core.batch.curves_post import finish
 from service.core.batch.curves_results import (
     CurveBatchResult,
@@ -102,19 +103,6 @@ def _shapiro_table(lengths: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
             parts.append(shapiro_weights(n))
             at += n
     return start, (np.concatenate(parts) if parts else np.empty(0))
-
-
-def _screen(x, y, w, offsets, lengths, fid, p) -> np.ndarray:
-    """Rows the compiled engine may take: finite, weights > 0, n >= p + 2, domain."""
-    bad = ~(np.isfinite(x) & np.isfinite(y))
-    if w is not None:
-        bad |= ~(w > 0) | ~np.isfinite(w)
-    if fid in (L4_LOG, POWER, WEIBULL):
-        bad |= x < 0
-    counts = np.add.reduceat(bad.astype(np.int64), offsets[:-1]) if x.size else \
-        np.zeros(lengths.size, dtype=np.int64)
-    counts = np.where(lengths > 0, counts, 1)
-    return (counts == 0) & (lengths >= p + 2)
 
 
 def fit_many_curves(x, y, lengths, weights=None, *, model: ModelSpec,
@@ -185,7 +173,8 @@ def _compiled(out, fid, x, y, w, lengths, offsets, workers, always_grid) -> np.n
     """Fit the rows the kernel may take; return the rows left for the single fit."""
     p = N_PARAMETERS[fid]
     G = lengths.size
-    take = np.flatnonzero(_screen(x, y, w, offsets, lengths, fid, p))
+    take = np.flatnonzero(screen(x, y, np.empty(0) if w is None else w, offsets,
+                                 fid in (L4_LOG, POWER, WEIBULL), p + 2))
     if take.size == 0:
         return np.arange(G)
     cut_t, cut_cook = _cut_tables(p, int(lengths[take].max()))
@@ -209,8 +198,12 @@ def _compiled(out, fid, x, y, w, lengths, offsets, workers, always_grid) -> np.n
         for chunk in chunks:
             run(chunk)
     done = np.flatnonzero(status == 0)
+    if done.size == G:                    # every row: slices, no gathering
+        finish(out, slice(None), stats, lengths, p)
+        return np.empty(0, dtype=np.int64)
     if done.size:
         finish(out, done, stats[done], lengths[done], p)
-    est[status != 0] = np.nan
-    se[status != 0] = np.nan
-    return np.flatnonzero(status != 0)
+    left = np.flatnonzero(status != 0)
+    est[left] = np.nan
+    se[left] = np.nan
+    return left

@@ -139,3 +139,24 @@ def tangent_sums(q, p, n, gram, dq):
         for j in range(k):
             frob_g += 2.0 * gram[k, j] * gram[k, j]
     return trace_g, frob_g, frob_aq
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def screen(x, y, w, offsets, log_domain, least):
+    """Series the compiled engine may take: at least ``least`` points, all finite, weights
+    finite and > 0 (``w`` empty: none given), and x >= 0 when ``log_domain``."""
+    G = offsets.size - 1
+    take = np.zeros(G, dtype=np.bool_)
+    weighted = w.size > 0
+    for r in range(G):
+        a, b = offsets[r], offsets[r + 1]
+        if b - a < least:
+            continue
+        ok = True
+        for i in range(a, b):
+            if not (math.isfinite(x[i]) and math.isfinite(y[i])) or (log_domain and x[i] < 0) \
+                    or (weighted and not (w[i] > 0 and math.isfinite(w[i]))):
+                ok = False
+                break
+        take[r] = ok
+    return take

@@ -34,8 +34,9 @@ STARTS = ("shape", "grid_best")
 _BIT = {code: i for i, code in enumerate(CURVE_FLAG_CODES)}
 
 
-def finish(out: dict, rows: np.ndarray, stats: np.ndarray, n: np.ndarray, p: int) -> None:
-    """Write the columns of the compiled ``rows`` (``stats``: their kernel rows)."""
+def finish(out: dict, rows, stats: np.ndarray, n: np.ndarray, p: int) -> None:
+    """Write the columns of the compiled ``rows`` (an index array or a slice; ``stats``
+    and ``n``: their kernel rows and lengths)."""
     cols = out["columns"]
     df = n - p
     rss, tss = stats[:, S["rss"]], stats[:, S["tss"]]
@@ -89,8 +90,8 @@ def _flags(out, rows, stats, n, p) -> None:
              ("outliers", stats[:, S["n_outliers"]] > 0, 1),
              ("influential_points", stats[:, S["n_influential"]] > 0, both.astype(int)),
              ("high_leverage", stats[:, S["n_high_leverage"]] > 0, lever.astype(int)))
-    mask = np.zeros(rows.size, dtype=np.int64)
-    levels = np.zeros(rows.size, dtype=np.int64)
+    mask = np.zeros(n.size, dtype=np.int64)
+    levels = np.zeros(n.size, dtype=np.int64)
     for code, fired, level in rules:
         i = _BIT[code]
         mask |= fired.astype(np.int64) << i
