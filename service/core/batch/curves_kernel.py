@@ -217,8 +217,11 @@ def fit_family_rows(fid, x, y, w, offsets, rows, cut_t, cut_cook, sw_start, sw_c
         u, sw, cols = u_all[:n], sw_all[:n], cols_all[:, :n]
         status[r] = 1
         for i in range(n):
-            u[i] = (math.log(xs[i]) if xs[i] > 0 else -np.inf) if log_x else xs[i]
-            sw[i] = math.sqrt(ws[i])
+            if i > 0 and xs[i] == xs[i - 1]:           # a replicate: the same u
+                u[i] = u[i - 1]
+            else:
+                u[i] = (math.log(xs[i]) if xs[i] > 0 else -np.inf) if log_x else xs[i]
+            sw[i] = math.sqrt(ws[i]) if ws[i] != 1.0 else 1.0
         order, which = order_all[:n], which_all[:n]
         sort_order(u, order)
         m = levels(u, ys, order, lev, means)
@@ -286,7 +289,7 @@ def fit_family_rows(fid, x, y, w, offsets, rows, cut_t, cut_cook, sw_start, sw_c
         for i in range(n):
             sw_total += ws[i]
             swy += ws[i] * ys[i]
-            logw += math.log(ws[i])
+            logw += math.log(ws[i]) if ws[i] != 1.0 else 0.0
         tss = 0.0
         for i in range(n):
             tss += ws[i] * (ys[i] - swy / sw_total) ** 2

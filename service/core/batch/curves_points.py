@@ -40,19 +40,19 @@ def sort_order(u, order):
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
 def sort_values(values, out):
-    """``values`` in ascending order into ``out[:values.size]`` (insertion sort for short
-    series, numpy's sort above :data:`INSERTION_MAX`)."""
+    """``values`` (no NaN) in ascending order into ``out[:values.size]``: each placed at its
+    rank, counted without branches, for short series; numpy's sort above
+    :data:`INSERTION_MAX`."""
     n = values.size
     if n > INSERTION_MAX:
         out[:n] = np.sort(values)
         return
     for i in range(n):
         v = values[i]
-        j = i
-        while j > 0 and out[j - 1] > v:
-            out[j] = out[j - 1]
-            j -= 1
-        out[j] = v
+        rank = 0
+        for j in range(n):
+            rank += (values[j] < v) | ((values[j] == v) & (j < i))
+        out[rank] = v
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
@@ -118,6 +118,8 @@ def tangent_sums(q, p, n, gram, dq):
     """
     if n < 2:
         return 0.0, 0.0, 0.0
+    if p == 4:
+        return _tangent_sums4(q, n)
     frob_aq = 0.0
     for k in range(p):
         dq[k] = 0.0
@@ -160,3 +162,30 @@ def screen(x, y, w, offsets, log_domain, least):
                 break
         take[r] = ok
     return take
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def _tangent_sums4(q, n):
+    """:func:`tangent_sums` for four rows, the sums held in registers."""
+    d0 = d1 = d2 = d3 = 0.0
+    g00 = g10 = g11 = g20 = g21 = g22 = g30 = g31 = g32 = g33 = 0.0
+    frob_aq = 0.0
+    for i in range(1, n):
+        e0, e1 = q[0, i] - q[0, i - 1], q[1, i] - q[1, i - 1]
+        e2, e3 = q[2, i] - q[2, i - 1], q[3, i] - q[3, i - 1]
+        frob_aq += (e0 - d0) ** 2 + (e1 - d1) ** 2 + (e2 - d2) ** 2 + (e3 - d3) ** 2
+        g00 += e0 * e0
+        g10 += e1 * e0
+        g11 += e1 * e1
+        g20 += e2 * e0
+        g21 += e2 * e1
+        g22 += e2 * e2
+        g30 += e3 * e0
+        g31 += e3 * e1
+        g32 += e3 * e2
+        g33 += e3 * e3
+        d0, d1, d2, d3 = e0, e1, e2, e3
+    frob_aq += d0 * d0 + d1 * d1 + d2 * d2 + d3 * d3
+    off = g10 * g10 + g20 * g20 + g21 * g21 + g30 * g30 + g31 * g31 + g32 * g32
+    return (g00 + g11 + g22 + g33, g00 * g00 + g11 * g11 + g22 * g22 + g33 * g33 + 2.0 * off,
+            frob_aq)
