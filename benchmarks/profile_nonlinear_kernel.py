@@ -1,6 +1,6 @@
 """Per-stage cost of the nonlinear batch kernel on the 4PL benchmark's data.
 
-The kernel's own source (``curves_kernel.fit_family_rows``) is compiled again with a ``stop``
+The kernel's own source (``curves_kernel.fit_rows``) is compiled again with a ``stop``
 argument: stage k ends every series after its k-th step (``continue``). The cost of a
 stage is the CPU time of stopping after it minus that of stopping before it (best of
 ``--repeat`` runs of ``time.process_time``, all series of ``bench_nonlinear_batch``'s data).
@@ -44,11 +44,10 @@ STAGES = (("        order, which = order_all[:n]", "read: ln x, sqrt w"),
 
 
 def staged_kernel():
-    """``fit_family_rows`` with a leading ``stop`` argument, for logistic4 on log x (the
-    family a constant, as ``fit_rows`` builds it; compiled here, not cached)."""
-    src = textwrap.dedent(inspect.getsource(curves_kernel.fit_family_rows.py_func))
+    """``fit_rows`` with a leading ``stop`` argument (compiled here, not cached)."""
+    src = textwrap.dedent(inspect.getsource(curves_kernel.fit_rows.py_func))
     src = src.split("\n", 1)[1]                                 # drop the decorator
-    src = src.replace("def fit_family_rows(fid,", "def fit_rows_staged(stop, fid,", 1)
+    src = src.replace("def fit_rows(fid,", "def fit_rows_staged(stop, fid,", 1)
     shape = "        if shape_start(fid, xs, u, ys, lev, means, m, nl, v[:n]):"
     assert shape in src
     src = src.replace(shape, "        shape_ok = shape_start(fid, xs, u, ys, lev, means, m, nl, "
@@ -58,12 +57,7 @@ def staged_kernel():
         src = src.replace(anchor, f"        if stop <= {k}:\n            continue\n{anchor}", 1)
     space = dict(vars(curves_kernel))
     exec(compile(src, "<staged fit_rows>", "exec"), space)
-    staged = numba.njit(error_model="numpy")(space["fit_rows_staged"])
-
-    @numba.njit(error_model="numpy")
-    def logistic4_log(stop, *args):
-        return staged(stop, curves_kernel.L4_LOG, *args)
-    return logistic4_log
+    return numba.njit(error_model="numpy")(space["fit_rows_staged"])
 
 
 def main() -> None:
@@ -87,8 +81,8 @@ def main() -> None:
         stats = np.full((G, len(curves_kernel.STATS)), np.nan)
         status = np.ones(G, dtype=np.int8)
         t = time.process_time()
-        kernel(stop, x, flat, np.ones_like(x), offsets, rows, cut_t, cut_cook, sw_start,
-               sw_coef, False, est, se, stats, status)
+        kernel(stop, curves_kernel.L4_LOG, x, flat, np.ones_like(x), offsets, rows, cut_t,
+               cut_cook, sw_start, sw_coef, False, est, se, stats, status)
         return time.process_time() - t, stats
 
     last = len(STAGES) - 1                                      # no stop: the whole kernel

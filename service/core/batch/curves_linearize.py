@@ -19,7 +19,7 @@ from service.core.batch.curves_models import constants, curvature, point, prepas
 EPS = float(np.finfo(float).eps)
 
 
-@numba.njit(cache=True, nogil=True, error_model="numpy")
+@numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
 def linearize(fid, theta, u, y, sw, p, a, g, d, row, buf, second, cm, hess):
     """One pass over the points at ``theta``: scaled ``Js'Js`` into ``a``, ``Js' r`` into
     ``g`` and the column norms of ``sqrt(W) J`` into ``d`` (``Js = sqrt(W) J D^-1``);

@@ -26,7 +26,7 @@ import numba
 import numpy as np
 
 from service.core.batch.curves_linearize import linearize
-from service.core.batch.curves_models import has_curvature
+from service.core.batch.curves_models import L4_LOG, has_curvature
 
 TARGET_OFFSET = 1e-8        # the single fit's criterion, met at a linearized point
 ACCEPT_OFFSET = 1e-8       # the single fit's criterion (solver.DEFAULT_TOLERANCE)
@@ -42,7 +42,7 @@ CODES = ("relative_offset", "small_gradient", "stalled", "singular_jacobian", "i
 """Termination codes (the first two mean converged, as in the single fit)."""
 
 
-@numba.njit(cache=True, nogil=True, error_model="numpy")
+@numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
 def cholesky(a, p, low):
     """Lower Cholesky factor of ``a[:p, :p]`` into ``low``; False when not positive definite."""
     for j in range(p):
@@ -60,7 +60,7 @@ def cholesky(a, p, low):
     return True
 
 
-@numba.njit(cache=True, nogil=True, error_model="numpy")
+@numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
 def forward(low, p, b, out):
     """Solve ``low z = b``; returns ``||z||²``."""
     total = 0.0
@@ -73,7 +73,7 @@ def forward(low, p, b, out):
     return total
 
 
-@numba.njit(cache=True, nogil=True, error_model="numpy")
+@numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
 def backward(low, p, z, out):
     """Solve ``low' x = z``."""
     for i in range(p - 1, -1, -1):
@@ -107,16 +107,15 @@ def check(a, g, d, p, low, z, rss, floor, n):
     return (RELATIVE_OFFSET if offset <= TARGET_OFFSET else -1), offset
 
 
-@numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
-def _try(fid, trial, u, y, sw, p, pure, n, rss, offset, slack, mats, row, buf):
-    """Linearize at ``trial`` (into the trial rows of ``mats``) and judge it.
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def _try(fid, trial, u, y, sw, p, pure, n, rss, offset, slack, trial_a, trial_low, z, trial_g,
+         trial_d, trial_c, hess, row, buf):
+    """Linearize at ``trial`` (into the trial arrays, views of :func:`solve`'s scratch made
+    once per solve: views made per call cost two atomic reference counts each) and judge it.
 
     Returns ``(verdict, code, rss, offset, slack)``: verdict 1 accept, 0 reject (try a
     shorter step), -1 a flat step that did not lower the relative offset (stop).
     """
-    trial_a, trial_low = mats[4 * p:5 * p], mats[5 * p:6 * p]
-    z, trial_g, trial_d = mats[6 * p + 1], mats[6 * p + 5], mats[6 * p + 6]
-    trial_c, hess = mats[7 * p + 11:8 * p + 11], mats[8 * p + 11:9 * p + 11]
     ok, rt, floor_t, slack_t = linearize(fid, trial, u, y, sw, p, trial_a, trial_g, trial_d,
                                          row, buf, has_curvature(fid), trial_c, hess)
     rt += pure
@@ -144,7 +143,7 @@ def _commit(theta, trial, mats, p):
             mats[6 * p + 11 + j, k] = mats[7 * p + 11 + j, k]    # curvature term
 
 
-@numba.njit(cache=True, nogil=True, error_model="numpy")
+@numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
 def _newton_step(theta, a, cm, g, d, lam, p, m, low_m, step, trial):
     """The damped Newton point ``theta + D^-1 (Js'Js - C + lambda I)^-1 g`` into ``trial``;
     False when that matrix is not positive definite or the step is at rounding level."""
@@ -172,7 +171,17 @@ def scratch_rows(p):
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
 def solve(fid, theta, u, y, sw, mats, max_iterations, pure, n):
-    """Levenberg-Marquardt from ``theta`` (updated in place) to the tight stop.
+    """Levenberg-Marquardt from ``theta`` (updated in place) to the stop: see
+    :func:`solve_family`. logistic4 on log x has a build of its own (the family a
+    constant, its branches folded away: the same operations, about 10% less time)."""
+    if fid == L4_LOG:
+        return solve_family(L4_LOG, theta, u, y, sw, mats, max_iterations, pure, n)
+    return solve_family(fid, theta, u, y, sw, mats, max_iterations, pure, n)
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def solve_family(fid, theta, u, y, sw, mats, max_iterations, pure, n):
+    """Levenberg-Marquardt from ``theta`` (updated in place) to the stop.
 
     The data may be pooled by distinct x (replicates): ``y`` the weighted mean response
     at each ``u``, ``sw`` the square roots of the summed weights, ``pure`` the weighted
@@ -206,6 +215,8 @@ def solve(fid, theta, u, y, sw, mats, max_iterations, pure, n):
     trial, row = mats[6 * p + 4], mats[6 * p + 7]
     prev_theta, prev_step, extra = mats[6 * p + 8], mats[6 * p + 9], mats[6 * p + 10]
     cm, hess = mats[6 * p + 11:7 * p + 11], mats[8 * p + 11:9 * p + 11]
+    trial_a, trial_low = mats[4 * p:5 * p], mats[5 * p:6 * p]
+    trial_g, trial_d, trial_c = mats[6 * p + 5], mats[6 * p + 6], mats[7 * p + 11:8 * p + 11]
     newton = has_curvature(fid)
     buf = np.empty(y.size)
     ok, rss, floor, slack = linearize(fid, theta, u, y, sw, p, a, g, d, row, buf, newton, cm,
@@ -222,7 +233,8 @@ def solve(fid, theta, u, y, sw, mats, max_iterations, pure, n):
         if newton and offset <= NEWTON_OFFSET and _newton_step(theta, a, cm, g, d, lam, p,
                                                                 m, low_m, step, extra):
             verdict, c, r, o, sl = _try(fid, extra, u, y, sw, p, pure, n, rss, offset, slack,
-                                        mats, row, buf)
+                                        trial_a, trial_low, z, trial_g, trial_d, trial_c, hess,
+                                        row, buf)
             if verdict == 1:
                 have_prev = False
                 _commit(theta, extra, mats, p)
@@ -259,7 +271,8 @@ def solve(fid, theta, u, y, sw, mats, max_iterations, pure, n):
                         extra[j] = trial[j] - gamma * (theta[j] - prev_theta[j] + step[j]
                                                        - prev_step[j])
                     verdict, c, r, o, sl = _try(fid, extra, u, y, sw, p, pure, n, rss, offset,
-                                                slack, mats, row, buf)
+                                                slack, trial_a, trial_low, z, trial_g, trial_d,
+                                                trial_c, hess, row, buf)
                     if verdict == 1:
                         for j in range(p):
                             prev_theta[j], prev_step[j] = theta[j], step[j]
@@ -269,7 +282,8 @@ def solve(fid, theta, u, y, sw, mats, max_iterations, pure, n):
                         lam = max(lam * 0.1, 1e-12)
                         break
             verdict, c, r, o, sl = _try(fid, trial, u, y, sw, p, pure, n, rss, offset, slack,
-                                        mats, row, buf)
+                                        trial_a, trial_low, z, trial_g, trial_d, trial_c, hess,
+                                        row, buf)
             if verdict == 1:
                 for j in range(p):
                     prev_theta[j], prev_step[j] = theta[j], step[j]
