@@ -81,7 +81,7 @@ def main() -> None:
         stats = np.full((G, len(curves_kernel.STATS)), np.nan)
         status = np.ones(G, dtype=np.int8)
         t = time.process_time()
-        kernel(stop, curves_kernel.L4_LOG, x, flat, np.ones_like(x), offsets, rows, cut_t,
+        kernel(stop, curves_kernel.L4_LOG, x, flat, np.empty(0), offsets, rows, cut_t,
                cut_cook, sw_start, sw_coef, False, est, se, stats, status)
         return time.process_time() - t, stats
 

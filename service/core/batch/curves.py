@@ -179,7 +179,7 @@ def _compiled(out, fid, x, y, w, lengths, offsets, workers, always_grid) -> np.n
         return np.arange(G)
     cut_t, cut_cook = _cut_tables(p, int(lengths[take].max()))
     sw_start, sw_coef = _shapiro_table(lengths[take])
-    wk = np.ones_like(x) if w is None else w
+    wk = np.empty(0) if w is None else w
     status = np.ones(G, dtype=np.int8)
     stats = np.full((G, len(STATS)), np.nan)
     est, se = out["estimates"], out["std_errors"]

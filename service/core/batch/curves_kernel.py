@@ -173,7 +173,7 @@ def fit_rows(fid, x, y, w, offsets, rows, cut_t, cut_cook, sw_start, sw_coef, al
              est, se, stats, status):
     """Fit the series ``rows`` (indices into ``offsets``) with family ``fid``.
 
-    ``w`` holds the weights (ones when none); ``cut_t[n]`` and ``cut_cook[n]`` the
+    ``w`` holds the weights (empty when none: all ones); ``cut_t[n]`` and ``cut_cook[n]`` the
     outlier and Cook's distance cut-offs for ``n`` points, ``sw_coef[sw_start[n]:][:n]``
     the Shapiro-Wilk weights (``sw_start[n]`` -1: not tested). Writes row ``r`` of
     ``est``, ``se`` (G x p) and ``stats`` (G x len(STATS)), and ``status[r]``: 0 fitted
@@ -186,6 +186,7 @@ def fit_rows(fid, x, y, w, offsets, rows, cut_t, cut_cook, sw_start, sw_coef, al
     for r in rows:
         nmax = max(nmax, offsets[r + 1] - offsets[r])
     u_all, sw_all = np.empty(nmax), np.empty(nmax)
+    weighted, ones = w.size > 0, np.ones(nmax)
     f, v = np.empty(nmax), np.empty(nmax)
     lev, means = np.empty(nmax), np.empty(nmax)
     e_all, srt_all = np.empty(nmax), np.empty(nmax)
@@ -199,7 +200,7 @@ def fit_rows(fid, x, y, w, offsets, rows, cut_t, cut_cook, sw_start, sw_coef, al
     for r in rows:
         a, b = offsets[r], offsets[r + 1]
         n = b - a
-        xs, ys, ws = x[a:b], y[a:b], w[a:b]
+        xs, ys, ws = x[a:b], y[a:b], (w[a:b] if weighted else ones[:n])
         u, sw, cols = u_all[:n], sw_all[:n], cols_all[:, :n]
         status[r] = 1
         for i in range(n):
