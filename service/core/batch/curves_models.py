@@ -59,7 +59,7 @@ def on_log_x(fid):
     return fid == L4_LOG or fid == WEIBULL
 
 
-@numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
+@numba.njit(cache=True, nogil=True, error_model="numpy")
 def constants(fid, theta):
     """Per-call constants of :func:`prepass` and :func:`point` (logistic4: the centre on
     the u scale and ``d z / d ec50`` over z)."""
@@ -72,7 +72,7 @@ def constants(fid, theta):
     return 0.0, 0.0
 
 
-@numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
+@numba.njit(cache=True, nogil=True, error_model="numpy")
 def prepass(fid, theta, c0, u, buf):
     """The transcendental part of the curve at every point, in one branch-free loop:
     logistic4 ``1/(1 + z)``, exponential ``exp(-k u)``, michaelis_menten ``1/(km + u)``,
@@ -115,7 +115,7 @@ def prepass(fid, theta, c0, u, buf):
             buf[i] = math.exp(shape * (u[i] - c0))
 
 
-@numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
+@numba.njit(cache=True, nogil=True, error_model="numpy")
 def point(fid, theta, c0, c1, ui, bi, row):
     """The curve at one point (returned) and its gradient into ``row`` (p values), from
     the point's :func:`prepass` value ``bi``."""
@@ -168,7 +168,7 @@ def has_curvature(fid):
     return fid == L4_LOG or fid == L4_LINEAR
 
 
-@numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
+@numba.njit(cache=True, nogil=True, error_model="numpy")
 def curvature(fid, theta, c0, c1, ui, bi, hess):
     """Second derivatives of the curve at one point into ``hess`` (p x p, lower triangle),
     from the point's :func:`prepass` value ``bi``; logistic4 only (:func:`has_curvature`).
