@@ -16,9 +16,10 @@ Measured in one run, side by side:
 * the agreement of the batch with the single fit (the engine of /v1/fit) on the first
   ``--check`` series: largest relative difference of estimates and standard errors, and
   of the estimates relative to max(|estimate|, standard error) (an asymptote near 0 makes
-  the plain relative difference of that estimate large while both fits sit within 1e-8
-  standard errors of each other: the single fit stops at a relative offset of 1e-8, the
-  batch at 1e-10).
+  the plain relative difference of that estimate large while both fits sit within a few
+  1e-8 standard errors of each other: both stop at a relative offset of 1e-8).
+
+``benchmarks/profile_nonlinear_kernel.py`` splits the batch's time into the kernel's stages.
 
 Nothing is asserted (speed targets are printed, never tested). Target of issue 17: the
 batch at least 50x curve_fit per CPU-second.

@@ -37,6 +37,7 @@ import numpy as np
 from service.core.batch import layout
 from service.core.batch.curves_kernel import STATS, fit_rows
 from service.core.batch.curves_models import COMPILED, L4_LOG, N_PARAMETERS, POWER, WEIBULL
+from service.core.batch.curves_points import screen
 from service.core.batch.curves_post import finish
 from service.core.batch.curves_results import (
     CurveBatchResult,
@@ -44,6 +45,7 @@ from service.core.batch.curves_results import (
     fill_from_report,
 )
 from service.core.checks.diagnostics import cut_offs
+from service.core.checks.shapiro_tables import SHAPIRO_MAX_N, shapiro_weights
 from service.core.errors import FitError
 from service.core.families import family
 from service.core.interrupt import checkpoint
@@ -89,17 +91,18 @@ def _cut_tables(p: int, top: int) -> tuple[np.ndarray, np.ndarray]:
     return t, cook
 
 
-def _screen(x, y, w, offsets, lengths, fid, p) -> np.ndarray:
-    """Rows the compiled engine may take: finite, weights > 0, n >= p + 2, domain."""
-    bad = ~(np.isfinite(x) & np.isfinite(y))
-    if w is not None:
-        bad |= ~(w > 0) | ~np.isfinite(w)
-    if fid in (L4_LOG, POWER, WEIBULL):
-        bad |= x < 0
-    counts = np.add.reduceat(bad.astype(np.int64), offsets[:-1]) if x.size else \
-        np.zeros(lengths.size, dtype=np.int64)
-    counts = np.where(lengths > 0, counts, 1)
-    return (counts == 0) & (lengths >= p + 2)
+def _shapiro_table(lengths: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Shapiro-Wilk weights of every length in ``lengths``, back to back: ``(start, coef)``
+    with ``coef[start[n]:start[n] + n]`` the weights for n points (``start[n]`` -1 outside
+    3..SHAPIRO_MAX_N)."""
+    start = np.full(int(lengths.max()) + 1, -1, dtype=np.int64)
+    parts, at = [], 0
+    for n in np.unique(lengths).tolist():
+        if 3 <= n <= SHAPIRO_MAX_N:
+            start[n] = at
+            parts.append(shapiro_weights(n))
+            at += n
+    return start, (np.concatenate(parts) if parts else np.empty(0))
 
 
 def fit_many_curves(x, y, lengths, weights=None, *, model: ModelSpec,
@@ -170,21 +173,22 @@ def _compiled(out, fid, x, y, w, lengths, offsets, workers, always_grid) -> np.n
     """Fit the rows the kernel may take; return the rows left for the single fit."""
     p = N_PARAMETERS[fid]
     G = lengths.size
-    take = np.flatnonzero(_screen(x, y, w, offsets, lengths, fid, p))
+    take = np.flatnonzero(screen(x, y, np.empty(0) if w is None else w, offsets,
+                                 fid in (L4_LOG, POWER, WEIBULL), p + 2))
     if take.size == 0:
         return np.arange(G)
     cut_t, cut_cook = _cut_tables(p, int(lengths[take].max()))
-    wk = np.ones_like(x) if w is None else w
+    sw_start, sw_coef = _shapiro_table(lengths[take])
+    wk = np.empty(0) if w is None else w
     status = np.ones(G, dtype=np.int8)
     stats = np.full((G, len(STATS)), np.nan)
-    resid = np.zeros(x.size)
     est, se = out["estimates"], out["std_errors"]
 
     def run(chunk):
         checkpoint()  # a caller's budget is checked between chunks, never inside the kernel
         with np.errstate(all="ignore"):
-            fit_rows(fid, x, y, wk, offsets, chunk, cut_t, cut_cook, always_grid, est, se,
-                     stats, status, resid)
+            fit_rows(fid, x, y, wk, offsets, chunk, cut_t, cut_cook, sw_start, sw_coef,
+                     always_grid, est, se, stats, status)
 
     chunks = [take[i:i + CHUNK_SERIES] for i in range(0, take.size, CHUNK_SERIES)]
     if workers > 1 and len(chunks) > 1:
@@ -194,8 +198,12 @@ def _compiled(out, fid, x, y, w, lengths, offsets, workers, always_grid) -> np.n
         for chunk in chunks:
             run(chunk)
     done = np.flatnonzero(status == 0)
+    if done.size == G:                    # every row: slices, no gathering
+        finish(out, slice(None), stats, lengths, p)
+        return np.empty(0, dtype=np.int64)
     if done.size:
-        finish(out, done, stats[done], lengths[done], p, resid, offsets)
-    est[status != 0] = np.nan
-    se[status != 0] = np.nan
-    return np.flatnonzero(status != 0)
+        finish(out, done, stats[done], lengths[done], p)
+    left = np.flatnonzero(status != 0)
+    est[left] = np.nan
+    se[left] = np.nan
+    return left

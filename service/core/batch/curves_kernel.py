@@ -38,16 +38,21 @@ from service.core.batch.curves_models import (
     evaluate,
     on_log_x,
 )
-from service.core.batch.curves_solver import SMALL_GRADIENT, factor_and_norms, solve
+from service.core.batch.curves_points import pool, shapiro_w_p, sort_order, tangent_sums
+from service.core.batch.curves_solver import (
+    SMALL_GRADIENT,
+    factor_and_norms,
+    scratch_rows,
+    solve,
+)
 from service.core.batch.curves_starts import levels, project, shape_start
-from service.core.batch.residuals import design_sums
 from service.core.checks.kernels import chi2_tail, dw_p, dw_traces
 
 STATS = ("rss", "tss", "sum_log_w", "relative_offset", "iterations", "termination", "start",
          "durbin_watson", "durbin_watson_p", "breusch_pagan", "breusch_pagan_p",
          "lack_of_fit_f", "lack_of_fit_df", "pure_error_df", "n_outliers", "n_influential",
          "n_high_leverage", "n_influential_outliers", "n_high_leverage_influential_outliers",
-         "max_correlation")
+         "max_correlation", "shapiro_wilk", "shapiro_wilk_p")
 """Columns of the ``stats`` output, in order."""
 S = {name: i for i, name in enumerate(STATS)}
 SHAPE, GRID = 0, 1          # the start a series' fit came from
@@ -55,64 +60,41 @@ SAME_RSS = 1e-9             # as builtin.fit.SAME_RSS
 EXACT_RTOL = 1e-13          # as nonlinear.analysis.EXACT_RTOL
 _RSS, _TSS, _LOGW, _OFFSET, _ITER, _TERM, _START = 0, 1, 2, 3, 4, 5, 6
 _DW, _DWP, _BP, _BPP, _LOF, _LOFDF, _PUREDF = 7, 8, 9, 10, 11, 12, 13
-_NOUT, _NINF, _NHIGH, _NBOTH, _NLEVER, _CORR = 14, 15, 16, 17, 18, 19
+_NOUT, _NINF, _NHIGH, _NBOTH, _NLEVER, _CORR, _SW, _SWP = 14, 15, 16, 17, 18, 19, 20, 21
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
-def _attempt(fid, nl, u, y, sw, pooled, cols, coef, theta, mats):
-    """Linear parameters at ``nl`` (from the points), then solve on the pooled data
-    (``pooled``: distinct u, mean y, sqrt summed weights, pure-error SS, m);
-    returns (converged, rss, offset, iters, code)."""
+def _attempt(fid, nl, n, pooled, cols, coef, theta, mats):
+    """Linear parameters at ``nl``, then solve, both on the pooled data (``pooled``:
+    distinct u, mean y, sqrt summed weights, pure-error SS, m; the linear least squares
+    of the points and of their pools have the same solution); ``n`` points.
+    Returns (converged, rss, offset, iters, code)."""
     lin = cols.shape[0]
-    if project(fid, nl, u, y, sw, cols, coef) == np.inf:
+    ul, yl, swl, pure, m = pooled
+    if project(fid, nl, ul[:m], yl[:m], swl[:m], cols[:, :m], coef) == np.inf:
         return False, np.inf, np.nan, 0, -1
     for j in range(lin):
         theta[j] = coef[j]
     for j in range(theta.size - lin):
         theta[lin + j] = nl[j]
-    ul, yl, swl, pure, m = pooled
-    code, rss, offset, iters = solve(fid, theta, ul[:m], yl[:m], swl[:m], mats, 200, pure,
-                                     u.size)
+    code, rss, offset, iters = solve(fid, theta, ul[:m], yl[:m], swl[:m], mats, 200, pure, n)
     return code <= SMALL_GRADIENT, rss, offset, iters, code
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
-def _pool(u, y, w, order, ul, yl, swl):
-    """Pool the points by distinct u (in ``order``): the distinct u, weighted mean y and
-    square root of the summed weights of each; returns their count and the weighted
-    scatter of y about the means (the pure-error sum of squares)."""
-    n = u.size
-    k = 0
-    ss = 0.0
-    j = 0
-    while j < n:
-        stop = j
-        sw = swy = 0.0
-        while stop < n and u[order[stop]] == u[order[j]]:
-            sw += w[order[stop]]
-            swy += w[order[stop]] * y[order[stop]]
-            stop += 1
-        mean = swy / sw
-        for t in range(j, stop):
-            dev = y[order[t]] - mean
-            ss += w[order[t]] * dev * dev
-        ul[k], yl[k], swl[k] = u[order[j]], mean, math.sqrt(sw)
-        k += 1
-        j = stop
-    return k, ss
-
-
-@numba.njit(cache=True, nogil=True, error_model="numpy")
-def _summary(p, x, y, w, sw, f, js, low, d, rss, cut_t, cut_cook, q, e, out, est_se):
+def _summary(p, x, y, w, sw, f, js, low, d, rss, cut_t, cut_cook, q, e, out, est_se,
+             sw_coef, srt, work):
     """Inference and residual checks at the estimates into ``out`` (stats row) and ``est_se``.
 
     ``js`` is the scaled weighted Jacobian (p x n), ``low`` the Cholesky factor of ``js'js`` and
-    ``d`` the column norms (as :func:`.curves_solver.solve` leaves them)."""
+    ``d`` the column norms (as :func:`.curves_solver.solve` leaves them); ``work`` is scratch
+    of shape (3p + 1, p)."""
     n = y.size
     df = n - p
     sigma2 = rss / df
-    inv = np.zeros((p, p))               # inverse of the Cholesky factor, then (Js'Js)^-1
-    cov = np.empty((p, p))
+    inv, cov = work[:p], work[p:2 * p]   # inverse of the Cholesky factor, (Js'Js)^-1
+    gram, dq = work[2 * p:3 * p], work[3 * p]
+    inv[:, :] = 0.0
     for j in range(p):
         inv[j, j] = 1.0 / low[j, j]
         for i in range(j + 1, p):
@@ -149,7 +131,8 @@ def _summary(p, x, y, w, sw, f, js, low, d, rss, cut_t, cut_cook, q, e, out, est
             dd += (e[i] - e[i - 1]) * (e[i] - e[i - 1])
     xbar /= n
     out[_DW] = dd / ss if ss > 0 else np.nan
-    tg, fg, faq = design_sums(q, p, n)
+    out[_SW], out[_SWP] = shapiro_w_p(e, sw_coef, srt)
+    tg, fg, faq = tangent_sums(q, p, n, gram, dq)
     tr1, tr2 = dw_traces(n, tg, fg, faq)
     out[_DWP] = dw_p(out[_DW], n - p, tr1, tr2)
     sxx = szx = sz = szz = 0.0
@@ -164,17 +147,16 @@ def _summary(p, x, y, w, sw, f, js, low, d, rss, cut_t, cut_cook, q, e, out, est
     out[_BP] = lm
     out[_BPP] = chi2_tail(1, lm) if n > 2 and szz > 0 else np.nan
     n_out = n_inf = n_high = n_both = n_lever = 0
-    sigma = math.sqrt(sigma2)
-    for i in range(n):
+    cut_t2 = cut_t * cut_t
+    for i in range(n):       # the single fit's tests on squares (no square roots)
         h = 0.0
         for k in range(p):
             h += q[k, i] * q[k, i]
         one_h = 1.0 - h
-        std = e[i] / (math.sqrt(one_h) * sigma)
-        cook = std * std * h / (p * one_h)
-        stud = e[i] / math.sqrt((rss - e[i] * e[i] / one_h) / (df - 1) * one_h) \
-            if df > 1 else np.nan
-        outlier = abs(stud) > cut_t
+        e2 = e[i] * e[i]
+        cook = e2 / (one_h * sigma2) * h / (p * one_h)
+        scale = (rss - e2 / one_h) / (df - 1) * one_h     # studentized: e / sqrt(scale)
+        outlier = df > 1 and scale >= 0 and e2 > cut_t2 * scale
         influential = cook > cut_cook
         high = h > 2.0 * p / n
         n_out += outlier
@@ -187,14 +169,15 @@ def _summary(p, x, y, w, sw, f, js, low, d, rss, cut_t, cut_cook, q, e, out, est
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
-def fit_rows(fid, x, y, w, offsets, rows, cut_t, cut_cook, always_grid, est, se, stats,
-             status, resid):
+def fit_rows(fid, x, y, w, offsets, rows, cut_t, cut_cook, sw_start, sw_coef, always_grid,
+             est, se, stats, status):
     """Fit the series ``rows`` (indices into ``offsets``) with family ``fid``.
 
-    ``w`` holds the weights (ones when none); ``cut_t[n]`` and ``cut_cook[n]`` the
-    outlier and Cook's distance cut-offs for ``n`` points. Writes row ``r`` of ``est``,
-    ``se`` (G x p), ``stats`` (G x len(STATS)) and ``resid`` (the weighted residuals, flat
-    like ``x``), and ``status[r]``: 0 fitted here, 1 for the single-fit engine.
+    ``w`` holds the weights (empty when none: all ones); ``cut_t[n]`` and ``cut_cook[n]`` the
+    outlier and Cook's distance cut-offs for ``n`` points, ``sw_coef[sw_start[n]:][:n]``
+    the Shapiro-Wilk weights (``sw_start[n]`` -1: not tested). Writes row ``r`` of
+    ``est``, ``se`` (G x p) and ``stats`` (G x len(STATS)), and ``status[r]``: 0 fitted
+    here, 1 for the single-fit engine.
     """
     p = N_PARAMETERS[fid]
     lin = LINEAR_COLUMNS[fid]
@@ -203,37 +186,44 @@ def fit_rows(fid, x, y, w, offsets, rows, cut_t, cut_cook, always_grid, est, se,
     for r in rows:
         nmax = max(nmax, offsets[r + 1] - offsets[r])
     u_all, sw_all = np.empty(nmax), np.empty(nmax)
+    weighted, ones = w.size > 0, np.ones(nmax)
     f, v = np.empty(nmax), np.empty(nmax)
     lev, means = np.empty(nmax), np.empty(nmax)
-    jac, mats = np.empty(p * nmax), np.empty((6 * p + 11, p))
+    e_all, srt_all = np.empty(nmax), np.empty(nmax)
+    order_all, which_all = np.empty(nmax, dtype=np.int64), np.empty(nmax, dtype=np.int64)
+    f_pool, jac_pool = np.empty(nmax), np.empty(p * nmax)
+    jac, mats = np.empty(p * nmax), np.empty((scratch_rows(p), p))
+    work = np.empty((3 * p + 1, p))
     cols_all, q = np.empty((lin, nmax)), np.empty((p, nmax))
     coef, nl, theta, best = np.empty(lin), np.empty(2), np.empty(p), np.empty(p)
     ul_all, yl_all, swl_all = np.empty(nmax), np.empty(nmax), np.empty(nmax)
     for r in rows:
         a, b = offsets[r], offsets[r + 1]
         n = b - a
-        xs, ys, ws = x[a:b], y[a:b], w[a:b]
+        xs, ys, ws = x[a:b], y[a:b], (w[a:b] if weighted else ones[:n])
         u, sw, cols = u_all[:n], sw_all[:n], cols_all[:, :n]
         status[r] = 1
         for i in range(n):
-            u[i] = (math.log(xs[i]) if xs[i] > 0 else -np.inf) if log_x else xs[i]
-            sw[i] = math.sqrt(ws[i])
-        order = np.argsort(u)
+            if i > 0 and xs[i] == xs[i - 1]:           # a replicate: the same u
+                u[i] = u[i - 1]
+            else:
+                u[i] = (math.log(xs[i]) if xs[i] > 0 else -np.inf) if log_x else xs[i]
+            sw[i] = math.sqrt(ws[i]) if ws[i] != 1.0 else 1.0
+        order, which = order_all[:n], which_all[:n]
+        sort_order(u, order)
         m = levels(u, ys, order, lev, means)
-        k, ss_pure = _pool(u, ys, ws, order, ul_all, yl_all, swl_all)
+        k, ss_pure = pool(u, ys, ws, order, ul_all, yl_all, swl_all, which)
         pooled = (ul_all, yl_all, swl_all, ss_pure, k)
         found, best_rss, start, spent, current = False, np.inf, SHAPE, 0, False
         code, offset = -1, np.nan
         if shape_start(fid, xs, u, ys, lev, means, m, nl, v[:n]):
-            ok, rss, off, iters, c = _attempt(fid, nl, u, ys, sw, pooled, cols, coef, theta,
-                                              mats)
+            ok, rss, off, iters, c = _attempt(fid, nl, n, pooled, cols, coef, theta, mats)
             spent += iters
             if ok:
                 found, best_rss, current, code, offset = True, rss, True, c, off
                 best[:] = theta
         if (always_grid or not found) and grid_start(fid, xs, u, ys, sw, cols, coef, nl):
-            ok, rss, off, iters, c = _attempt(fid, nl, u, ys, sw, pooled, cols, coef, theta,
-                                              mats)
+            ok, rss, off, iters, c = _attempt(fid, nl, n, pooled, cols, coef, theta, mats)
             spent += iters
             current = False
             if ok and (not found or rss < best_rss * (1.0 - SAME_RSS)):
@@ -259,16 +249,22 @@ def fit_rows(fid, x, y, w, offsets, rows, cut_t, cut_cook, always_grid, est, se,
             continue
         low, d = factor_and_norms(mats, p)
         js = jac[:p * n].reshape((p, n))
-        if not evaluate(fid, theta, u, f[:n], js):
+        jl = jac_pool[:p * k].reshape((p, k))
+        if not evaluate(fid, theta, ul_all[:k], f_pool[:k], jl):    # once per distinct u
             continue
+        for i in range(n):
+            f[i] = f_pool[which[i]]
         for j in range(p):                   # the scaled weighted Jacobian of the points
+            inv_d = 1.0 / d[j]
             for i in range(n):
-                js[j, i] *= sw[i] / d[j]
+                js[j, i] = jl[j, which[i]] * (sw[i] * inv_d)
         row = stats[r]
         row[_RSS], row[_OFFSET], row[_ITER], row[_TERM], row[_START] = \
             rss, offset, spent, code, start
-        _summary(p, xs, ys, ws, sw, f[:n], js, low, d, rss,
-                 cut_t[n], cut_cook[n], q, resid[a:b], row, se[r])
+        at = sw_start[n]
+        _summary(p, xs, ys, ws, sw, f[:n], js, low, d, rss, cut_t[n], cut_cook[n], q,
+                 e_all[:n], row, se[r], sw_coef[max(at, 0):at + n if at >= 0 else 0],
+                 srt_all[:n], work)
         if not math.isfinite(row[_BP]) and n > 2:      # constant x: the single fit decides
             continue
         row[_LOF] = row[_LOFDF] = row[_PUREDF] = np.nan
@@ -280,7 +276,7 @@ def fit_rows(fid, x, y, w, offsets, rows, cut_t, cut_cook, always_grid, est, se,
         for i in range(n):
             sw_total += ws[i]
             swy += ws[i] * ys[i]
-            logw += math.log(ws[i])
+            logw += math.log(ws[i]) if ws[i] != 1.0 else 0.0
         tss = 0.0
         for i in range(n):
             tss += ws[i] * (ys[i] - swy / sw_total) ** 2

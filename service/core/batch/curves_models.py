@@ -162,6 +162,38 @@ def point(fid, theta, c0, c1, ui, bi, row):
     return theta[1] + span * e
 
 
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def has_curvature(fid):
+    """True when :func:`curvature` gives the family's second derivatives (logistic4)."""
+    return fid == L4_LOG or fid == L4_LINEAR
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def curvature(fid, theta, c0, c1, ui, bi, hess):
+    """Second derivatives of the curve at one point into ``hess`` (p x p, lower triangle),
+    from the point's :func:`prepass` value ``bi``; logistic4 only (:func:`has_curvature`).
+
+    With ``eta = slope (u - c)``, ``c = ln ec50`` (log scale) or ``ec50``, and
+    ``g = 1/(1 + exp eta)``: ``g' = -g (1 - g)``, ``g'' = g' (2g - 1)``; the curve is
+    ``y_right + span g`` and ``eta``'s derivatives are ``u - c`` (slope), ``c1`` (ec50),
+    ``-c'`` (slope, ec50) and ``-slope c''`` (ec50 twice).
+    """
+    span = theta[0] - theta[1]
+    g1 = -bi * (1.0 - bi)
+    g2 = g1 * (2.0 * bi - 1.0)
+    d = ui - c0 if ui > -np.inf else 0.0
+    if fid == L4_LOG:
+        dc, eta_ee = 1.0 / theta[3], theta[2] / (theta[3] * theta[3])
+    else:
+        dc, eta_ee = 1.0, 0.0
+    hess[0, 0] = hess[1, 0] = hess[1, 1] = 0.0
+    hess[2, 0], hess[3, 0] = g1 * d, g1 * c1
+    hess[2, 1], hess[3, 1] = -g1 * d, -g1 * c1
+    hess[2, 2] = span * g2 * d * d
+    hess[3, 2] = span * (g2 * d * c1 - g1 * dc)
+    hess[3, 3] = span * (g2 * c1 * c1 + g1 * eta_ee)
+
+
 @numba.njit(cache=True, nogil=True, error_model="numpy", fastmath=_SUM)
 def _all_finite(f, jac):
     total = 0.0                     # NaN or inf anywhere makes the sum NaN

@@ -8,8 +8,8 @@ conventions of the single fit (:mod:`service.core.nonlinear.inference`,
 * sigma ``sqrt(RSS/df)``, R² about the weighted mean, adjusted R², the Gaussian
   log-likelihood at the ML variance plus ``0.5 sum(log w)``, AIC, AICc, BIC with
   k = number of parameters;
-* Shapiro-Wilk of the weighted residuals (Royston's AS R94 weights, the compiled
-  p-value shared with the single fit), lack-of-fit p from ``F(k - p, n - k)``;
+* lack-of-fit p from ``F(k - p, n - k)`` (Shapiro-Wilk of the weighted residuals comes
+  from the kernel, :func:`.curves_points.shapiro_w_p`);
 * flags at the per-test level ``TEST_ALPHA``; influence and leverage are info
   unless one of their points is also an outlier. ``poorly_determined_parameter``
   rests on the relative standard error alone: profile limits (the single fit's
@@ -20,7 +20,6 @@ from __future__ import annotations
 
 import math
 
-import numba
 import numpy as np
 from scipy import special
 
@@ -28,8 +27,6 @@ from service.core.batch.curves_kernel import S
 from service.core.batch.curves_results import CURVE_FLAG_CODES
 from service.core.batch.curves_solver import CODES
 from service.core.checks.flags import POINTS_PER_PARAMETER, TEST_ALPHA
-from service.core.checks.kernels import shapiro_p
-from service.core.checks.shapiro_tables import SHAPIRO_MAX_N, shapiro_weights
 from service.core.nonlinear.flags import CORRELATION_CUT, RELATIVE_SE_CUT
 
 LOG_2PI = math.log(2 * math.pi)
@@ -37,30 +34,9 @@ STARTS = ("shape", "grid_best")
 _BIT = {code: i for i, code in enumerate(CURVE_FLAG_CODES)}
 
 
-@numba.njit(cache=True, nogil=True, error_model="numpy")
-def _shapiro_many(srt, coef):
-    """W and p of each row of sorted residuals (all of one length) with the AS R94 weights."""
-    g, n = srt.shape
-    w, p = np.full(g, np.nan), np.full(g, np.nan)
-    for r in range(g):
-        if srt[r, 0] == srt[r, n - 1]:
-            continue
-        mean = 0.0
-        for i in range(n):
-            mean += srt[r, i]
-        mean /= n
-        spread = acc = 0.0
-        for i in range(n):
-            spread += (srt[r, i] - mean) * (srt[r, i] - mean)
-            acc += coef[i] * srt[r, i]
-        w[r] = min(acc * acc / spread, 1.0)
-        p[r] = shapiro_p(w[r], n)
-    return w, p
-
-
-def finish(out: dict, rows: np.ndarray, stats: np.ndarray, n: np.ndarray, p: int,
-           resid: np.ndarray, offsets: np.ndarray) -> None:
-    """Write the columns of the compiled ``rows`` (``stats``: their kernel rows)."""
+def finish(out: dict, rows, stats: np.ndarray, n: np.ndarray, p: int) -> None:
+    """Write the columns of the compiled ``rows`` (an index array or a slice; ``stats``
+    and ``n``: their kernel rows and lengths)."""
     cols = out["columns"]
     df = n - p
     rss, tss = stats[:, S["rss"]], stats[:, S["tss"]]
@@ -87,25 +63,14 @@ def finish(out: dict, rows: np.ndarray, stats: np.ndarray, n: np.ndarray, p: int
     cols["iterations"][rows] = stats[:, S["iterations"]].astype(np.int64)
     cols["relative_offset"][rows] = stats[:, S["relative_offset"]]
     for name in ("durbin_watson", "durbin_watson_p", "breusch_pagan", "breusch_pagan_p",
-                 "lack_of_fit_f"):
+                 "lack_of_fit_f", "shapiro_wilk", "shapiro_wilk_p"):
         cols[name][rows] = stats[:, S[name]]
     cols["lack_of_fit_p"][rows] = lof_p
     for name in ("n_outliers", "n_influential", "n_high_leverage"):
         cols[name][rows] = stats[:, S[name]].astype(np.int64)
-    _shapiro(cols, rows, n, resid, offsets)
     _flags(out, rows, stats, n, p)
     out["ok"][rows] = True
     out["compiled"][rows] = True
-
-
-def _shapiro(cols, rows, n, resid, offsets) -> None:
-    for length in np.unique(n).tolist():
-        if not 3 <= length <= SHAPIRO_MAX_N:
-            continue
-        pick = rows[n == length]
-        srt = np.sort(resid[offsets[pick][:, None] + np.arange(length)], axis=1)
-        w, pv = _shapiro_many(srt, shapiro_weights(length))
-        cols["shapiro_wilk"][pick], cols["shapiro_wilk_p"][pick] = w, pv
 
 
 def _flags(out, rows, stats, n, p) -> None:
@@ -125,8 +90,8 @@ def _flags(out, rows, stats, n, p) -> None:
              ("outliers", stats[:, S["n_outliers"]] > 0, 1),
              ("influential_points", stats[:, S["n_influential"]] > 0, both.astype(int)),
              ("high_leverage", stats[:, S["n_high_leverage"]] > 0, lever.astype(int)))
-    mask = np.zeros(rows.size, dtype=np.int64)
-    levels = np.zeros(rows.size, dtype=np.int64)
+    mask = np.zeros(n.size, dtype=np.int64)
+    levels = np.zeros(n.size, dtype=np.int64)
     for code, fired, level in rules:
         i = _BIT[code]
         mask |= fired.astype(np.int64) << i

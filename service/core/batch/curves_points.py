@@ -1,0 +1,191 @@
+"""Per-point helpers of the nonlinear batch kernel: ordering, pooling and Shapiro-Wilk.
+
+Written for short series (tens of points) with no allocation per series:
+
+* :func:`sort_order`: the ascending order of ``u`` (a stable insertion sort up to
+  :data:`INSERTION_MAX` points, numpy's merge sort above);
+* :func:`pool`: the points pooled by distinct ``u`` (weighted means, square roots of the
+  summed weights, the pure-error sum of squares) and the pool of each point;
+* :func:`shapiro_w_p`: Shapiro-Wilk's ``W = (c . e_sorted)² / sum (e - mean)²`` with
+  Royston's AS R94 weights ``c`` and its p-value (the single fit's formula and
+  :func:`service.core.checks.kernels.shapiro_p`).
+"""
+
+from __future__ import annotations
+
+import math
+
+import numba
+import numpy as np
+
+from service.core.checks.kernels import shapiro_p
+
+INSERTION_MAX = 64
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def sort_order(u, order):
+    """Indices putting ``u`` in ascending order (stable) into ``order[:u.size]``."""
+    n = u.size
+    if n > INSERTION_MAX:
+        order[:n] = np.argsort(u, kind="mergesort")
+        return
+    for i in range(n):
+        j = i
+        while j > 0 and u[order[j - 1]] > u[i]:
+            order[j] = order[j - 1]
+            j -= 1
+        order[j] = i
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def sort_values(values, out):
+    """``values`` (no NaN) in ascending order into ``out[:values.size]``: each placed at its
+    rank, counted without branches, for short series; numpy's sort above
+    :data:`INSERTION_MAX`."""
+    n = values.size
+    if n > INSERTION_MAX:
+        out[:n] = np.sort(values)
+        return
+    for i in range(n):
+        v = values[i]
+        rank = 0
+        for j in range(n):
+            rank += (values[j] < v) | ((values[j] == v) & (j < i))
+        out[rank] = v
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def pool(u, y, w, order, ul, yl, swl, which):
+    """Pool the points by distinct u (in ``order``): the distinct u, weighted mean y and
+    square root of the summed weights of each into ``ul``, ``yl``, ``swl``, and the pool
+    of each point into ``which``; returns the number of pools and the weighted scatter of
+    y about the means (the pure-error sum of squares)."""
+    n = u.size
+    k = 0
+    ss = 0.0
+    j = 0
+    while j < n:
+        stop = j
+        sw = swy = 0.0
+        while stop < n and u[order[stop]] == u[order[j]]:
+            sw += w[order[stop]]
+            swy += w[order[stop]] * y[order[stop]]
+            which[order[stop]] = k
+            stop += 1
+        mean = swy / sw
+        for t in range(j, stop):
+            dev = y[order[t]] - mean
+            ss += w[order[t]] * dev * dev
+        ul[k], yl[k], swl[k] = u[order[j]], mean, math.sqrt(sw)
+        k += 1
+        j = stop
+    return k, ss
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def shapiro_w_p(e, coef, srt):
+    """Shapiro-Wilk's W of the residuals ``e`` and its p-value, with the AS R94 weights
+    ``coef`` for ``e.size`` points (``srt``: scratch of that length); NaNs when all the
+    residuals are equal or the weights are not given (empty ``coef``)."""
+    n = e.size
+    if coef.size != n:
+        return np.nan, np.nan
+    sort_values(e, srt)
+    if srt[0] == srt[n - 1]:
+        return np.nan, np.nan
+    mean = 0.0
+    for i in range(n):
+        mean += srt[i]
+    mean /= n
+    spread = acc = 0.0
+    for i in range(n):
+        spread += (srt[i] - mean) * (srt[i] - mean)
+        acc += coef[i] * srt[i]
+    w = min(acc * acc / spread, 1.0)
+    return w, shapiro_p(w, n)
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def tangent_sums(q, p, n, gram, dq):
+    """``tr(G)``, ``||G||_F²`` and ``||AQ||_F²`` of the orthonormal tangent basis rows
+    ``q[:p, :n]`` (the moments of Durbin-Watson's d, as
+    :func:`service.core.batch.residuals.design_sums`), in one pass over the points.
+
+    ``G = sum_i d_i d_i'`` over the differences ``d_i = q_i - q_(i-1)`` and
+    ``||AQ||² = d_1² + sum_(i>=2) (d_i - d_(i-1))² + d_(n-1)²``; ``gram`` (p x p) and
+    ``dq`` (p) are scratch.
+    """
+    if n < 2:
+        return 0.0, 0.0, 0.0
+    if p == 4:
+        return _tangent_sums4(q, n)
+    frob_aq = 0.0
+    for k in range(p):
+        dq[k] = 0.0
+        for j in range(k + 1):
+            gram[k, j] = 0.0
+    for i in range(1, n):
+        for k in range(p):
+            dk = q[k, i] - q[k, i - 1]
+            step = dk - dq[k]
+            frob_aq += step * step
+            dq[k] = dk
+            for j in range(k + 1):
+                gram[k, j] += dk * dq[j]
+    trace_g = frob_g = 0.0
+    for k in range(p):
+        frob_aq += dq[k] * dq[k]
+        trace_g += gram[k, k]
+        frob_g += gram[k, k] * gram[k, k]
+        for j in range(k):
+            frob_g += 2.0 * gram[k, j] * gram[k, j]
+    return trace_g, frob_g, frob_aq
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def screen(x, y, w, offsets, log_domain, least):
+    """Series the compiled engine may take: at least ``least`` points, all finite, weights
+    finite and > 0 (``w`` empty: none given), and x >= 0 when ``log_domain``."""
+    G = offsets.size - 1
+    take = np.zeros(G, dtype=np.bool_)
+    weighted = w.size > 0
+    for r in range(G):
+        a, b = offsets[r], offsets[r + 1]
+        if b - a < least:
+            continue
+        ok = True
+        for i in range(a, b):
+            if not (math.isfinite(x[i]) and math.isfinite(y[i])) or (log_domain and x[i] < 0) \
+                    or (weighted and not (w[i] > 0 and math.isfinite(w[i]))):
+                ok = False
+                break
+        take[r] = ok
+    return take
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def _tangent_sums4(q, n):
+    """:func:`tangent_sums` for four rows, the sums held in registers."""
+    d0 = d1 = d2 = d3 = 0.0
+    g00 = g10 = g11 = g20 = g21 = g22 = g30 = g31 = g32 = g33 = 0.0
+    frob_aq = 0.0
+    for i in range(1, n):
+        e0, e1 = q[0, i] - q[0, i - 1], q[1, i] - q[1, i - 1]
+        e2, e3 = q[2, i] - q[2, i - 1], q[3, i] - q[3, i - 1]
+        frob_aq += (e0 - d0) ** 2 + (e1 - d1) ** 2 + (e2 - d2) ** 2 + (e3 - d3) ** 2
+        g00 += e0 * e0
+        g10 += e1 * e0
+        g11 += e1 * e1
+        g20 += e2 * e0
+        g21 += e2 * e1
+        g22 += e2 * e2
+        g30 += e3 * e0
+        g31 += e3 * e1
+        g32 += e3 * e2
+        g33 += e3 * e3
+        d0, d1, d2, d3 = e0, e1, e2, e3
+    frob_aq += d0 * d0 + d1 * d1 + d2 * d2 + d3 * d3
+    off = g10 * g10 + g20 * g20 + g21 * g21 + g30 * g30 + g31 * g31 + g32 * g32
+    return (g00 + g11 + g22 + g33, g00 * g00 + g11 * g11 + g22 * g22 + g33 * g33 + 2.0 * off,
+            frob_aq)
