@@ -151,8 +151,21 @@ def _newton_step(theta, a, cm, g, d, lam, p, m, low_m, step, trial):
         for k in range(p):
             m[j, k] = a[j, k] - cm[j, k]
         m[j, j] += lam
+    return _step(theta, m, g, d, p, low_m, step, trial) == STEP_TAKEN
+
+
+STEP_NOT_DEFINITE, STEP_AT_ROUNDING, STEP_TAKEN = 0, 1, 2
+"""What :func:`_step` found."""
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
+def _step(theta, m, g, d, p, low_m, step, trial):
+    """Solve ``m step = g`` (``m`` the damped scaled system), unscale by ``d`` and put
+    ``theta + step`` into ``trial``; returns :data:`STEP_NOT_DEFINITE` when ``m`` is not
+    positive definite, :data:`STEP_AT_ROUNDING` when every component of the step is at
+    rounding level, else :data:`STEP_TAKEN`."""
     if not cholesky(m, p, low_m):
-        return False
+        return STEP_NOT_DEFINITE
     forward(low_m, p, g, trial)
     backward(low_m, p, trial, step)
     small = True
@@ -160,7 +173,7 @@ def _newton_step(theta, a, cm, g, d, lam, p, m, low_m, step, trial):
         step[j] /= d[j]
         trial[j] = theta[j] + step[j]
         small &= abs(step[j]) <= 4.0 * EPS * abs(theta[j])
-    return not small
+    return STEP_AT_ROUNDING if small else STEP_TAKEN
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
@@ -247,17 +260,11 @@ def solve_family(fid, theta, u, y, sw, mats, max_iterations, pure, n):
                 for k in range(p):
                     m[j, k] = a[j, k]
                 m[j, j] += lam
-            if not cholesky(m, p, low_m):
+            outcome = _step(theta, m, g, d, p, low_m, step, trial)
+            if outcome == STEP_NOT_DEFINITE:
                 lam *= 10.0
                 continue
-            forward(low_m, p, g, trial)
-            backward(low_m, p, trial, step)
-            small = True
-            for j in range(p):
-                step[j] /= d[j]
-                trial[j] = theta[j] + step[j]
-                small &= abs(step[j]) <= 4.0 * EPS * abs(theta[j])
-            if small:
+            if outcome == STEP_AT_ROUNDING:
                 break
             if have_prev and offset <= ACCELERATE_OFFSET:
                 num = den = 0.0
