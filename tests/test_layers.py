@@ -78,6 +78,16 @@ def _room(module: str) -> str:
     raise AssertionError(f"service.core.{module} is on no floor of CORE_FLOORS")
 
 
+def _targets(node: ast.AST) -> list[str]:
+    """Every dotted name an import statement reaches (``from a import b`` gives ``a`` and
+    ``a.b``; ``from service import config`` gives ``service.config``)."""
+    if isinstance(node, ast.ImportFrom) and node.module and node.level == 0:
+        return [node.module] + [f"{node.module}.{a.name}" for a in node.names]
+    if isinstance(node, ast.Import):
+        return [a.name for a in node.names]
+    return []
+
+
 def _floor(room: str) -> int:
     return next(i for i, floor in enumerate(CORE_FLOORS) if room in floor)
 
@@ -91,12 +101,7 @@ def test_core_imports_point_down_its_floors():
         here = _room(name)
         tree = ast.parse(path.read_text(), filename=str(path))
         for node in ast.walk(tree):
-            targets = []
-            if isinstance(node, ast.ImportFrom) and node.module and node.level == 0:
-                targets = [node.module] + [f"{node.module}.{a.name}" for a in node.names]
-            elif isinstance(node, ast.Import):
-                targets = [a.name for a in node.names]
-            for target in targets:
+            for target in _targets(node):
                 if not target.startswith("service.core."):
                     continue
                 there = target.removeprefix("service.core.")
@@ -139,15 +144,8 @@ def test_service_imports_point_down_its_floors():
         here = _service_floor(parts[0])
         tree = ast.parse(path.read_text(), filename=str(path))
         for node in ast.walk(tree):
-            targets = []
-            if isinstance(node, ast.ImportFrom) and node.module == "service":
-                targets = [f"service.{a.name}" for a in node.names if a.name != "__version__"]
-            elif isinstance(node, ast.ImportFrom) and node.module and node.level == 0:
-                targets = [node.module]
-            elif isinstance(node, ast.Import):
-                targets = [a.name for a in node.names]
-            for target in targets:
-                if target.startswith("service.") and _service_floor(
-                        target.removeprefix("service.")) > here:
+            for target in _targets(node):
+                if target.startswith("service.") and target != "service.__version__" \
+                        and _service_floor(target.removeprefix("service.")) > here:
                     wrong.append(f"{'/'.join(parts)} imports {target}")
     assert not wrong, "imports that point up the service's floors:\n" + "\n".join(wrong)
