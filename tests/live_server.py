@@ -4,6 +4,11 @@ Starts ``python -m service.cli serve`` on a free loopback port, waits (bounded)
 until ``/readyz`` answers 200, yields the base URL and always stops the
 server (SIGTERM to its process group, then SIGKILL after a grace period).
 ``tests/conftest.py`` exposes it as the session fixture ``live_url``.
+
+Before the first server starts, :func:`fill_kernel_cache` compiles the numerical kernels
+once in the test process (numba writes them to its on-disk cache): otherwise on a fresh
+clone every server in the run would compile them itself on start, two workers at once,
+which takes over a minute on two cores and can outlast any reasonable startup bound.
 """
 
 from __future__ import annotations
@@ -18,6 +23,7 @@ import time
 import urllib.error
 import urllib.request
 from contextlib import contextmanager
+from functools import cache
 from pathlib import Path
 
 ROOT = Path(__file__).resolve().parent.parent
@@ -28,6 +34,14 @@ def free_port() -> int:
     with socket.socket(socket.AF_INET, socket.SOCK_STREAM) as sock:
         sock.bind(("127.0.0.1", 0))
         return sock.getsockname()[1]
+
+
+@cache
+def fill_kernel_cache() -> None:
+    """Compile (or load) every compiled kernel once in this process, filling numba's cache."""
+    from service.core.compiled.warmup import warm_up
+
+    warm_up()
 
 
 def _ready(url: str) -> bool:
@@ -47,6 +61,7 @@ def live_server(*, workers: int = 2, env: dict | None = None, startup_timeout: f
     The server's combined output is kept in a temporary file (``log_path``, when given, for
     the test to read) and shown if startup fails.
     """
+    fill_kernel_cache()
     port = free_port()
     base_url = f"http://127.0.0.1:{port}"
     command = [sys.executable, "-m", "service.cli", "serve", "--host", "127.0.0.1",

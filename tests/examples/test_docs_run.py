@@ -31,7 +31,7 @@ from pathlib import Path
 
 import pytest
 
-from tests.live_server import _ready, _stop, free_port
+from tests.live_server import _ready, _stop, fill_kernel_cache, free_port
 
 ROOT = Path(__file__).resolve().parents[2]
 DOCS = ["README.md", "client/README.md", "client_examples/README.md",
@@ -127,6 +127,7 @@ def make_run_command() -> tuple[str, int]:
 def docs_server(make_run_command, tmp_path_factory):
     """``make run``'s own command on a free port, started and stopped here (bounded)."""
     line, port = make_run_command
+    fill_kernel_cache()
     root = _mirror(tmp_path_factory.mktemp("server-root"))
     url = f"http://127.0.0.1:{port}"
     log = open(root / "server.log", "w+b")  # noqa: SIM115 - closed below
