@@ -11,7 +11,7 @@ Two gunicorn servers run at once on 127.0.0.1, each with the project's gunicorn 
 The load generator keeps 8 connections busy on one server at a time, alternating rounds
 (echo, curvewise, echo, ...) so drift on a shared machine affects both alike. It is ``wrk``
 (Debian: ``apt-get install -y wrk``) when on PATH, else this repository's one-thread
-event-loop client (``benchmarks/bench_http.py:load``); the first line printed says which.
+event-loop client (``benchmarks/http_load.py:load``); the first line printed says which.
 The request body is the same for both: n = 50 seeded points, degree chosen from 1..4 by
 sequential F, a 200-point grid.
 
@@ -191,8 +191,8 @@ def wrk_load(port: int, path: str, script: Path, seconds: float) -> dict:
 
 
 def python_load(port: int, path: str, body: bytes, seconds: float) -> dict:
-    """The fallback: bench_http's one-thread event-loop client, 8 connections."""
-    from benchmarks.bench_http import load, raw_request
+    """The fallback: the one-thread event-loop client of benchmarks/http_load.py, 8 connections."""
+    from benchmarks.http_load import load, raw_request
 
     result = load(port, raw_request(path, body), CONNECTIONS, seconds)
     return {"rps": result["rps"], "p99": result["p99"], "errors": result["errors"],
@@ -218,7 +218,7 @@ def main(argv=None) -> int:
     body = request_body()
     use_wrk = shutil.which("wrk") is not None and not args.python_load
     print("load generator: " + ("wrk (1 thread)" if use_wrk else
-                                "Python event-loop client (benchmarks/bench_http.py:load)")
+                                "Python event-loop client (benchmarks/http_load.py:load)")
           + f", {CONNECTIONS} connections; gunicorn: {WORKERS} workers, settings of "
           "service/runtime/gunicorn_conf.py for every app")
     print(f"cores: {os.cpu_count()}  load average before: {os.getloadavg()[0]:.2f} "
