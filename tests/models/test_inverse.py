@@ -19,7 +19,6 @@ from service.core.models.inverse import STATUSES, invert
 from tests.conftest import load_nist
 from tests.models.calibration_helpers import fieller_interval, fit_model, nist_fit
 
-
 # --- NIST/SEMATECH e-Handbook, section 4.6.1.10 (load cell calibration, Pontius data) ----------
 
 def test_load_cell_deflection_reads_back_as_the_published_load():

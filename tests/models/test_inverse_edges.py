@@ -14,7 +14,6 @@ from service.core.models.inverse import STATUSES, invert
 from tests.conftest import load_nist
 from tests.models.calibration_helpers import LEAN, fieller_interval, fit_model, nist_fit
 
-
 # --- robustness: any finite reading gets an answer or a typed error, never a crash -------------
 
 _MODELS = [(2, {}), (3, {}), (1, {"intercept": False}), (2, {"transform_x": "log"}),
