@@ -55,6 +55,7 @@ PARTS = (
     ("service.api.fits", "fit_response", "response dict"),
     ("service.core.models.document", "checksum", "  document checksum"),
     ("service.http.reporting", "plain", "  rows as dicts (all calls)"),
+    ("service.http.reporting", "plain_rows", "  row tables as dicts"),
     ("service.http.jsonio", "dumps_bytes", "orjson of the response"),
 )
 

@@ -42,6 +42,22 @@ def plain(obj) -> dict:
     return dict(zip(names, obj if get is None else get(obj), strict=False))
 
 
+def plain_rows(rows) -> list[dict]:
+    """A tuple of result rows as a list of dicts, as ``[plain(r) for r in rows]`` returns it.
+
+    Rows of one named-tuple class (every table of a report) are converted inline, without a
+    call of :func:`plain` per row (a few microseconds of every answer, over ~15 rows).
+    """
+    if not rows:
+        return []
+    cls = type(rows[0])
+    names = getattr(cls, "_fields", None)
+    if names is None:
+        return [plain(row) for row in rows]
+    return [dict(zip(names, row, strict=False)) if type(row) is cls else plain(row)
+            for row in rows]
+
+
 def fit_response(report: FitReport | NonlinearReport, include) -> dict:
     """The response for one fit, with the sections in ``include`` (an iterable of names)."""
     if isinstance(report, NonlinearReport):
@@ -58,9 +74,9 @@ def fit_response(report: FitReport | NonlinearReport, include) -> dict:
     }
     wanted = set(include)
     if "coefficients" in wanted:
-        body["coefficients"] = [plain(c) for c in report.coefficients]
+        body["coefficients"] = plain_rows(report.coefficients)
     if "anova" in wanted:
-        body["anova"] = [_anova_row(row) for row in report.anova]
+        body["anova"] = _anova_rows(report.anova)
     if "statistics" in wanted:
         body["statistics"] = plain(stats)
     if "selection" in wanted:
@@ -68,23 +84,24 @@ def fit_response(report: FitReport | NonlinearReport, include) -> dict:
         body["selection"] = {"method": selection.method,
                              "chosen_degree": selection.chosen_degree,
                              "reason": selection.reason, "alpha": selection.alpha,
-                             "candidates": [plain(c) for c in selection.candidates]}
+                             "candidates": plain_rows(selection.candidates)}
     if "diagnostics" in wanted and report.diagnostics is not None:
         body["diagnostics"] = diagnostics_section(report.diagnostics)
     if "grid" in wanted:
         body["grid"] = None if report.grid is None else prediction_section(report.grid)
-    body["warnings"] = [plain(w) for w in report.warnings]
-    body["flags"] = [plain(f) for f in report.flags]
+    body["warnings"] = plain_rows(report.warnings)
+    body["flags"] = plain_rows(report.flags)
     if "fitted_model" in wanted:
         body["fitted_model"] = family_of(fitted).write_document(fitted)
     return body
 
 
-def _anova_row(row) -> dict:
-    out = plain(row)
-    if row.term == "residual":  # no F test on the residual row
-        out.pop("f", None)
-        out.pop("p_value", None)
+def _anova_rows(rows) -> list[dict]:
+    out = plain_rows(rows)
+    for row in out:
+        if row["term"] == "residual":  # no F test on the residual row
+            row.pop("f", None)
+            row.pop("p_value", None)
     return out
 
 
@@ -100,7 +117,7 @@ def prediction_section(prediction: Prediction) -> dict:
 def diagnostics_section(diagnostics) -> dict:
     """Diagnostics with nested tests and lack of fit as plain dicts."""
     out = plain(diagnostics)
-    out["tests"] = [plain(t) for t in diagnostics.tests]
+    out["tests"] = plain_rows(diagnostics.tests)
     out["lack_of_fit"] = None if diagnostics.lack_of_fit is None else plain(
         diagnostics.lack_of_fit)
     out["thresholds"] = dict(diagnostics.thresholds)
@@ -123,7 +140,7 @@ def nonlinear_response(report: NonlinearReport, include) -> dict:
     }
     wanted = set(include)
     if "coefficients" in wanted:
-        body["coefficients"] = [plain(c) for c in report.coefficients]
+        body["coefficients"] = plain_rows(report.coefficients)
         body["correlation"] = report.correlation
         if report.derived:
             body["derived"] = [plain(d) for d in report.derived]
@@ -134,8 +151,8 @@ def nonlinear_response(report: NonlinearReport, include) -> dict:
         body["diagnostics"] = diagnostics_section(report.diagnostics)
     if "grid" in wanted:
         body["grid"] = None if report.grid is None else prediction_section(report.grid)
-    body["warnings"] = [plain(w) for w in report.warnings]
-    body["flags"] = [plain(f) for f in report.flags]
+    body["warnings"] = plain_rows(report.warnings)
+    body["flags"] = plain_rows(report.flags)
     if "fitted_model" in wanted:
         body["fitted_model"] = family_of(fitted).write_document(fitted)
     return body
@@ -148,6 +165,6 @@ def comparison_response(comparison: Comparison, include) -> dict:
         "select": comparison.select, "alpha": comparison.alpha,
         "chosen": comparison.candidates[comparison.chosen].label,
         "chosen_index": comparison.chosen, "reason": comparison.reason,
-        "candidates": [plain(row) for row in comparison.candidates],
-        "nested_tests": [plain(t) for t in comparison.nested_tests]}
+        "candidates": plain_rows(comparison.candidates),
+        "nested_tests": plain_rows(comparison.nested_tests)}
     return body
