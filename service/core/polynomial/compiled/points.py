@@ -23,6 +23,12 @@ from service.core.checks.kernels import point_forms
 CHUNK = 256
 _SUM = {"reassoc", "nsz"}  # vectorized sums only; no assumption about NaN or infinity
 # error_model="numpy": x / 0 gives inf or NaN as in numpy (the callers ignore FP exceptions)
+# Reproducible sums: a kernel with reassociated sums that another kernel calls is either small
+# enough to be inlined by LLVM (design_rows, _add_column) or inlined by numba
+# (inline="always"); otherwise the calling process ran the callee's own compiled body while a
+# process that loaded the caller from numba's cache ran the caller's copy of it, whose sums
+# could round differently (PRESS and Breusch-Pagan changed in their last digits between
+# processes). PRESS and the per-point measures are called from Python for the same reason.
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy", fastmath=_SUM)
@@ -181,7 +187,7 @@ def point_measures(t, sw, zw, first, rinv, effects, p, rss, df, bp_rinv, out):
     return ss, ss_diff, proj, ss_zc, dw_sums
 
 
-@numba.njit(cache=True, nogil=True, error_model="numpy", fastmath=_SUM)
+@numba.njit(cache=True, nogil=True, error_model="numpy", fastmath=_SUM, inline="always")
 def _difference_sums(q, dq, m, p, first, carry, gram):
     """Add one chunk's consecutive basis differences ``d_i = q_i - q_(i-1)`` to ``gram``
     (``G = sum d d'``); return its share of ``||AQ||² = sum_i (d_i - d_(i+1))²``.
@@ -214,7 +220,7 @@ def _difference_sums(q, dq, m, p, first, carry, gram):
     return frob_aq
 
 
-@numba.njit(cache=True, nogil=True, error_model="numpy", fastmath=_SUM)
+@numba.njit(cache=True, nogil=True, error_model="numpy", fastmath=_SUM, inline="always")
 def _projection(t, e, rinv, mean):
     """``(Q'zc, ||zc||²)`` for ``zc = e² - mean`` and ``Q = V R^-1`` of the unweighted powers."""
     n, d = t.size, rinv.shape[0]
