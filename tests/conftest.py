@@ -40,6 +40,21 @@ def load_nist(name: str) -> dict:
     return json.loads(reference_file(f"nist-strd/{name}.json").read_text())
 
 
+def pytest_configure(config):
+    """On a cold kernel cache, compile the batch kernels on another core meanwhile
+    (tests/kernel_prefill.py); not in a run that only lists the tests."""
+    if not (config.option.collectonly or config.option.help or config.option.version):
+        from tests import kernel_prefill
+
+        kernel_prefill.start()
+
+
+def pytest_unconfigure(config):
+    from tests import kernel_prefill
+
+    kernel_prefill.stop()
+
+
 @pytest.hookimpl(wrapper=True)
 def pytest_runtest_makereport(item, call):
     """Give every missing-reference skip the helper's location, so ``-ra`` folds them into one line.

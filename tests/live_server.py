@@ -38,9 +38,12 @@ def free_port() -> int:
 
 @cache
 def fill_kernel_cache() -> None:
-    """Compile (or load) every compiled kernel once in this process, filling numba's cache."""
+    """Compile (or load) every compiled kernel once in this process, filling numba's cache
+    (after the session's warm-up process, if one runs: its kernels then load)."""
     from service.core.compiled.warmup import warm_up
+    from tests import kernel_prefill
 
+    kernel_prefill.wait()
     warm_up()
 
 

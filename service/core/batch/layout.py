@@ -28,15 +28,23 @@ def flat_series(x, y, weights, lengths):
     ValueError
         ``x``, ``y`` (or the weights) do not hold ``sum(lengths)`` values each.
     """
-    x = np.ascontiguousarray(x, dtype=float)
-    y = np.ascontiguousarray(y, dtype=float)
+    x, y = _kernel_floats(x), _kernel_floats(y)
     lengths = np.asarray(lengths, dtype=np.int64)
-    w = None if weights is None else np.ascontiguousarray(weights, dtype=float)
+    w = None if weights is None else _kernel_floats(weights)
     offsets = np.zeros(lengths.size + 1, dtype=np.int64)
     np.cumsum(lengths, out=offsets[1:])
     if offsets[-1] != x.size or y.size != x.size or (w is not None and w.size != x.size):
         raise ValueError("x, y (and weights) must hold sum(lengths) values each")
     return x, y, w, lengths, offsets
+
+
+def _kernel_floats(values) -> np.ndarray:
+    """Contiguous, writeable float64. numba compiles every kernel again for read-only
+    arrays (another type), and an Arrow column read in place is read-only: such input is
+    copied (one pass over the values, small beside the fits) instead of paying that compile
+    in the first Arrow request of every fresh install."""
+    array = np.ascontiguousarray(values, dtype=float)
+    return array if array.flags.writeable else array.copy()
 
 
 def screen(x, y, w, offsets, rows, model, raw):

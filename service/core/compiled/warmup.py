@@ -23,6 +23,12 @@ from service.core.spec import FitOptions, GridSpec, ModelSpec
 
 def warm_up() -> None:
     """Run each code path with compiled loops once, on tiny seeded-free inputs."""
+    warm_up_series()
+    warm_up_batch()
+
+
+def warm_up_series() -> None:
+    """The loops of one series: the polynomial fit, its bands, the shared diagnostics."""
     x = np.arange(1.0, 13.0)
     y = 1.0 + 0.5 * x + 0.1 * np.sin(3.0 * x)
     weights = np.linspace(0.5, 2.0, x.size)
@@ -36,6 +42,14 @@ def warm_up() -> None:
     long_x = np.arange(1.0, 5002.0)
     fit_series(long_x, np.sqrt(long_x), model=ModelSpec(max_degree=3))
     fit_series(x, 2.0 + 3.0 * x, model=ModelSpec(degree=1))
+    # the shared diagnostics' Durbin-Watson p-value, called from Python by any family
+    durbin_watson.p_value_one(1.5, 10.0, *durbin_watson.bound_traces(13, 3))
+
+
+def warm_up_batch() -> None:
+    """The batch engines' loops: polynomial and nonlinear (every family's branch)."""
+    x = np.arange(1.0, 13.0)
+    y = 1.0 + 0.5 * x + 0.1 * np.sin(3.0 * x)
     x2, y2 = np.tile(x[:8], 2), np.tile(y[:8], 2)
     fit_many(x2, y2, [8, 8], model=ModelSpec(max_degree=2))
     fit_many(x2, y2, [8, 8], np.ones(16), model=ModelSpec(max_degree=2, intercept=False))
@@ -44,5 +58,3 @@ def warm_up() -> None:
     curve = 2.0 + 8.0 / (1.0 + dose) + 0.05 * np.sin(7.0 * dose)
     fit_many_curves(np.tile(dose, 2), np.tile(curve, 2), [12, 12],
                     model=ModelSpec(family="logistic4"))
-    # the shared diagnostics' Durbin-Watson p-value, called from Python by any family
-    durbin_watson.p_value_one(1.5, 10.0, *durbin_watson.bound_traces(13, 3))

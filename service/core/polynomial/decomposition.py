@@ -95,10 +95,12 @@ def decompose(u: np.ndarray, z: np.ndarray, w: np.ndarray | None, degrees: list[
     ps = np.array(degrees, dtype=np.int64) + (1 if intercept else 0)  # coefficients
     try:
         if n <= qr.EXTENDED_MAX_ROWS and not (extended and qr.EXTENDED_IS_WIDER):
-            t64, zw, r, r_inv, effects, rss, column, press, sum_zw2 = kernels_qr.factor_short(
-                u, shift, scale, sw, z, first, p, RANK_TOL, ps, LEVERAGE_ONE)
+            t64, zw, r, r_inv, effects, rss, column, sum_zw2 = kernels_qr.factor_short(
+                u, shift, scale, sw, z, first, p, RANK_TOL)
             if column >= 0:
                 raise qr.RankDeficient(column)
+            press = kernels_points.candidate_sums(t64, sw, zw, first, r_inv, effects, ps,
+                                                  LEVERAGE_ONE)[0]
             return Decomposition(intercept, max_degree, shift, scale, t64, sqrt_w, zw, r, r_inv,
                                  r_inv, effects, effects, float(rss), float(sum_zw2),
                                  press, False)

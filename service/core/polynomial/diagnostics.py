@@ -1,4 +1,4 @@
-"""Diagnostics of the chosen polynomial fit, in one compiled call over its basis.
+"""Diagnostics of the chosen polynomial fit, in two compiled calls over its basis.
 
 The residuals and leverages come from the fit's orthonormal basis
 (:func:`service.core.polynomial.compiled.points.point_measures`); the
@@ -23,6 +23,7 @@ from service.core.checks.diagnostics import (
 )
 from service.core.checks.lack_of_fit import lack_of_fit
 from service.core.polynomial.compiled import checks as kernels_checks
+from service.core.polynomial.compiled import points as kernels_points
 from service.core.polynomial.decomposition import Decomposition
 from service.core.polynomial.qr import triangular_inverse
 from service.core.results import Diagnostics, TestResult
@@ -58,10 +59,11 @@ def diagnose(index: np.ndarray, x: np.ndarray, dec: Decomposition, degree: int, 
     tested = not exact and df >= 1
     bp_rinv = _bp_basis(dec, degree) if tested and 1 <= degree < n - 1 else _NO_BASIS
     cuts = cut_offs(n, p, df)
+    sums = kernels_points.point_measures(dec.t, dec.weights, dec.zw, dec.first,
+                                         np.ascontiguousarray(dec.r_inv64[:p, :p]),
+                                         dec.effects64, p, rss, df, bp_rinv, out)
     status, w, w_p, lm, lm_p, dw, outliers, high, infl, dw_p = kernels_checks.fit_checks(
-        dec.t, dec.weights, dec.zw, dec.first, np.ascontiguousarray(dec.r_inv64[:p, :p]),
-        dec.effects64, p, rss, df, bp_rinv, out, tested, shapiro_coefficients(n, tested),
-        index, cuts)
+        out, sums, p, bp_rinv, tested, shapiro_coefficients(n, tested), index, cuts)
     dw_row = durbin_watson_result(dw, dw_p) if tested else None
     tests = formal_tests(tested, exact, n, (status, w, w_p), _breusch_pagan(n, degree, lm, lm_p),
                          dw_row)

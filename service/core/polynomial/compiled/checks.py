@@ -1,10 +1,10 @@
 """Compiled diagnostics of one polynomial fit in one call: per-point forms, the three formal
 tests (Durbin-Watson with its p-value) and the flagged points.
 
-:func:`fit_checks` runs ``points.point_measures`` (residuals and leverages from
-the fit's basis, then the shared per-point forms) and the shared tests of
-:mod:`service.core.checks.kernels` on its residuals; the Breusch-Pagan
-regressors are the unweighted powers of ``t``.
+:func:`fit_checks` runs the shared tests of :mod:`service.core.checks.kernels` on
+the residuals and sums of ``points.point_measures`` (residuals and leverages from the
+fit's basis, then the shared per-point forms), which the caller runs first; the
+Breusch-Pagan regressors are the unweighted powers of ``t``.
 """
 
 from __future__ import annotations
@@ -13,16 +13,18 @@ import numba
 import numpy as np
 
 from service.core.checks.kernels import dw_p, dw_traces, positions, residual_tests
-from service.core.polynomial.compiled.points import point_measures
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
-def fit_checks(t, sw, zw, first, rinv, effects, p, rss, df, bp_rinv, out, tested,
-               sw_coef, index, cuts):
-    """Per-point forms into ``out`` (``point_measures``), then the tests and flagged points.
+def fit_checks(out, sums, p, bp_rinv, tested, sw_coef, index, cuts):
+    """The tests and flagged points from ``out`` and the sums of ``points.point_measures``.
 
-    ``tested`` False (exact fit or no residual df) leaves the studentized rows
-    of ``out`` NaN and the tests NaN. ``sw_coef`` holds the Shapiro-Wilk weights
+    ``out`` (6 x n) holds the per-point forms and ``sums`` what ``point_measures``
+    returned for them, ``(ss, ss_diff, proj, ss_zc, dw_sums)``; the caller runs that
+    kernel from Python (compiled into this one, its reassociated sums ran with other
+    roundings once this kernel was loaded from numba's cache than when it was compiled in
+    the process). ``tested`` False (exact fit or no residual df) leaves the studentized
+    rows of ``out`` NaN and the tests NaN. ``sw_coef`` holds the Shapiro-Wilk weights
     for ``n`` points, or is empty to skip the test. ``cuts`` = (outlier t,
     leverage, Cook's distance); ``index`` maps positions to the caller's.
 
@@ -37,9 +39,8 @@ def fit_checks(t, sw, zw, first, rinv, effects, p, rss, df, bp_rinv, out, tested
         One-sided p-value of Durbin-Watson's d for positive serial correlation, from
         the design's moments (``point_measures``' sums, ``kernels.dw_p``).
     """
-    n = t.size
-    ss, ss_diff, proj, ss_zc, dw_sums = point_measures(t, sw, zw, first, rinv, effects, p,
-                                                       rss, df, bp_rinv, out)
+    n = out.shape[1]
+    ss, ss_diff, proj, ss_zc, dw_sums = sums
     if not tested:
         out[2:] = np.nan
     status, w, w_p, lm, lm_p, dw = residual_tests(out[0], ss, ss_diff, proj, ss_zc,

@@ -4,7 +4,7 @@
   in one pass, or of ``[V R1^-1, zw]`` for CholeskyQR2's second pass; the
   design is never stored.
 * :func:`factor_short` — a short series in one call: scaled x, weighted
-  response, :func:`householder` and the candidates' sums.
+  response and :func:`householder`.
 * :func:`householder` — Householder QR of the transposed design ``[V, zw]'``
   column by column, as ``service.core.polynomial.qr.householder`` does in extended
   precision (the same reflections, in float64), with ``R^-1``.
@@ -17,7 +17,7 @@ from __future__ import annotations
 import numba
 import numpy as np
 
-from service.core.polynomial.compiled.points import CHUNK, _basis_row, candidate_sums, design_rows
+from service.core.polynomial.compiled.points import CHUNK, _basis_row, design_rows
 
 _SUM = {"reassoc", "nsz"}
 
@@ -52,12 +52,15 @@ def gram(t, sw, zw, first, p, rinv):
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
-def factor_short(u, shift, scale, sw, z, first, p, tol, ps, leverage_one):
-    """``t = (u - shift) / scale``, ``zw = sw z``, the QR of :func:`householder`, the
-    candidates' PRESS (``kernels_points.candidate_sums``) and ``sum zw²``.
+def factor_short(u, shift, scale, sw, z, first, p, tol):
+    """``t = (u - shift) / scale``, ``zw = sw z``, the QR of :func:`householder` and ``sum zw²``.
 
-    Returns ``(t, zw, r, r_inv, effects, rss, column, press, sum_zw2)``; ``column``
-    as in :func:`householder` (``press`` is NaN when it is not -1).
+    Returns ``(t, zw, r, r_inv, effects, rss, column, sum_zw2)``; ``column`` as in
+    :func:`householder`. The candidates' PRESS is left to the caller
+    (``points.candidate_sums``, called from Python): a kernel with reassociated sums
+    compiled into another kernel ran with other roundings once that caller was loaded
+    from numba's cache than when it was compiled in the process, so PRESS changed in its
+    last digits between processes.
     """
     n = u.size
     t = np.empty(n)
@@ -65,13 +68,10 @@ def factor_short(u, shift, scale, sw, z, first, p, tol, ps, leverage_one):
         t[i] = (u[i] - shift) / scale
     zw = z if sw.size == 0 else z * sw
     r, r_inv, effects, rss, column = householder(t, sw, zw, first, p, tol)
-    press = np.full(ps.size, np.nan)
-    if column < 0:
-        press = candidate_sums(t, sw, zw, first, r_inv, effects, ps, leverage_one)[0]
     total = 0.0
     for i in range(n):
         total += zw[i] * zw[i]
-    return t, zw, r, r_inv, effects, rss, column, press, total
+    return t, zw, r, r_inv, effects, rss, column, total
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
