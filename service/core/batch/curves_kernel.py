@@ -8,7 +8,7 @@ cannot promise the single fit's answer: no start converged, a singular
 tangent plane, an exact fit, or constant x.
 
 Per series: the shape start (:func:`.curves_starts.shape_start`) is solved first
-(:func:`.curves_solver.solve`); the grid's best point too when the shape
+(:func:`.curves_solver4.solve`); the grid's best point too when the shape
 start did not converge, or always with ``always_grid`` (the single fit solves
 both and keeps the lowest converged). logistic4 is written with slope > 0
 (the mirror of a falling curve, as the single fit reports it). Then, at the
@@ -39,12 +39,8 @@ from service.core.batch.curves_models import (
     on_log_x,
 )
 from service.core.batch.curves_points import pool, shapiro_w_p, sort_order, tangent_sums
-from service.core.batch.curves_solver import (
-    SMALL_GRADIENT,
-    factor_and_norms,
-    scratch_rows,
-    solve,
-)
+from service.core.batch.curves_solver import SMALL_GRADIENT, factor_and_norms, scratch_rows
+from service.core.batch.curves_solver4 import solve
 from service.core.batch.curves_starts import levels, project, shape_start
 from service.core.checks.kernels import chi2_tail, dw_p, dw_traces
 
@@ -87,7 +83,7 @@ def _summary(p, x, y, w, sw, f, js, low, d, rss, cut_t, cut_cook, q, e, out, est
     """Inference and residual checks at the estimates into ``out`` (stats row) and ``est_se``.
 
     ``js`` is the scaled weighted Jacobian (p x n), ``low`` the Cholesky factor of ``js'js`` and
-    ``d`` the column norms (as :func:`.curves_solver.solve` leaves them); ``work`` is scratch
+    ``d`` the column norms (as :func:`.curves_solver4.solve` leaves them); ``work`` is scratch
     of shape (3p + 1, p)."""
     n = y.size
     df = n - p
