@@ -60,21 +60,23 @@ _NOUT, _NINF, _NHIGH, _NBOTH, _NLEVER, _CORR, _SW, _SWP = 14, 15, 16, 17, 18, 19
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
-def _attempt(fid, nl, n, pooled, cols, coef, theta, mats):
+def _attempt(fid, nl, n, pooled, cols, coef, theta, mats, fj):
     """Linear parameters at ``nl``, then solve, both on the pooled data (``pooled``:
     distinct u, mean y, sqrt summed weights, pure-error SS, m; the linear least squares
     of the points and of their pools have the same solution); ``n`` points.
-    Returns (converged, rss, offset, iters, code)."""
+    Returns (converged, rss, offset, iters, code, fresh) (``fresh``: as
+    :func:`.curves_solver4.solve`)."""
     lin = cols.shape[0]
     ul, yl, swl, pure, m = pooled
     if project(fid, nl, ul[:m], yl[:m], swl[:m], cols[:, :m], coef) == np.inf:
-        return False, np.inf, np.nan, 0, -1
+        return False, np.inf, np.nan, 0, -1, False
     for j in range(lin):
         theta[j] = coef[j]
     for j in range(theta.size - lin):
         theta[lin + j] = nl[j]
-    code, rss, offset, iters = solve(fid, theta, ul[:m], yl[:m], swl[:m], mats, 200, pure, n)
-    return code <= SMALL_GRADIENT, rss, offset, iters, code
+    code, rss, offset, iters, fresh = solve(fid, theta, ul[:m], yl[:m], swl[:m], mats, 200,
+                                            pure, n, fj)
+    return code <= SMALL_GRADIENT, rss, offset, iters, code, fresh
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
@@ -187,7 +189,7 @@ def fit_rows(fid, x, y, w, offsets, rows, cut_t, cut_cook, sw_start, sw_coef, al
     lev, means = np.empty(nmax), np.empty(nmax)
     e_all, srt_all = np.empty(nmax), np.empty(nmax)
     order_all, which_all = np.empty(nmax, dtype=np.int64), np.empty(nmax, dtype=np.int64)
-    f_pool, jac_pool = np.empty(nmax), np.empty(p * nmax)
+    fj = np.empty((p + 1) * nmax)           # the curve and its gradient at the pooled u
     jac, mats = np.empty(p * nmax), np.empty((scratch_rows(p), p))
     work = np.empty((3 * p + 1, p))
     cols_all, q = np.empty((lin, nmax)), np.empty((p, nmax))
@@ -211,15 +213,17 @@ def fit_rows(fid, x, y, w, offsets, rows, cut_t, cut_cook, sw_start, sw_coef, al
         k, ss_pure = pool(u, ys, ws, order, ul_all, yl_all, swl_all, which)
         pooled = (ul_all, yl_all, swl_all, ss_pure, k)
         found, best_rss, start, spent, current = False, np.inf, SHAPE, 0, False
-        code, offset = -1, np.nan
+        code, offset, fresh = -1, np.nan, False
         if shape_start(fid, xs, u, ys, lev, means, m, nl, v[:n]):
-            ok, rss, off, iters, c = _attempt(fid, nl, n, pooled, cols, coef, theta, mats)
+            ok, rss, off, iters, c, fresh = _attempt(fid, nl, n, pooled, cols, coef, theta,
+                                                     mats, fj)
             spent += iters
             if ok:
                 found, best_rss, current, code, offset = True, rss, True, c, off
                 best[:] = theta
         if (always_grid or not found) and grid_start(fid, xs, u, ys, sw, cols, coef, nl):
-            ok, rss, off, iters, c = _attempt(fid, nl, n, pooled, cols, coef, theta, mats)
+            ok, rss, off, iters, c, fresh = _attempt(fid, nl, n, pooled, cols, coef, theta,
+                                                     mats, fj)
             spent += iters
             current = False
             if ok and (not found or rss < best_rss * (1.0 - SAME_RSS)):
@@ -236,8 +240,8 @@ def fit_rows(fid, x, y, w, offsets, rows, cut_t, cut_cook, sw_start, sw_coef, al
             theta[3] = -theta[3]
             current = False
         if not current:     # the solver's state (factor, column norms) at the kept estimates
-            code, rss, offset, _ = solve(fid, theta, ul_all[:k], yl_all[:k], swl_all[:k], mats,
-                                         200, ss_pure, n)
+            code, rss, offset, _, fresh = solve(fid, theta, ul_all[:k], yl_all[:k],
+                                                swl_all[:k], mats, 200, ss_pure, n, fj)
         zz = 0.0
         for i in range(n):
             zz += sw[i] * ys[i] * sw[i] * ys[i]
@@ -245,8 +249,8 @@ def fit_rows(fid, x, y, w, offsets, rows, cut_t, cut_cook, sw_start, sw_coef, al
             continue
         low, d = factor_and_norms(mats, p)
         js = jac[:p * n].reshape((p, n))
-        jl = jac_pool[:p * k].reshape((p, k))
-        if not evaluate(fid, theta, ul_all[:k], f_pool[:k], jl):    # once per distinct u
+        f_pool, jl = fj[:k], fj[k:(p + 1) * k].reshape((p, k))
+        if not fresh and not evaluate(fid, theta, ul_all[:k], f_pool, jl):  # per distinct u
             continue
         for i in range(n):
             f[i] = f_pool[which[i]]

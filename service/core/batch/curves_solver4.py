@@ -40,11 +40,13 @@ _FAIL = (np.nan,) * 10
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
-def _linearize(log_x, t, u, y, sw, pure):
+def _linearize(log_x, t, u, y, sw, pure, fj):
     """One pass over the (pooled) points at ``t`` (a 4-tuple), as
     :func:`.curves_linearize.linearize` with second derivatives: returns
     ``(finite, rss + pure, floor, slack, a, g, d, cm)``, ``a`` and ``cm`` the lower
-    triangles (row by row) of the scaled ``Js'Js`` and curvature term."""
+    triangles (row by row) of the scaled ``Js'Js`` and curvature term. The curve at the
+    ``m`` points goes to ``fj[:m]`` and its gradient to ``fj[m:5m]`` (one row of m values
+    per parameter), for the inference at the estimates."""
     left, right, slope, ec50 = t
     if log_x:
         c0, c1 = math.log(ec50), -slope / ec50
@@ -57,7 +59,8 @@ def _linearize(log_x, t, u, y, sw, pure):
     g0 = g1 = g2 = g3 = 0.0
     a00 = a10 = a11 = a20 = a21 = a22 = a30 = a31 = a32 = a33 = 0.0
     h20 = h21 = h22 = h30 = h31 = h32 = h33 = 0.0
-    for i in range(y.size):
+    m = y.size
+    for i in range(m):
         ui = u[i]
         bi = 1.0 / (1.0 + math.exp(slope * (ui - c0)))
         dg = -bi * (1.0 - bi) * span
@@ -66,6 +69,7 @@ def _linearize(log_x, t, u, y, sw, pure):
         fi = right + span * bi
         if ui == -np.inf and not slope > 0:
             fi = np.nan
+        fj[i], fj[m + i], fj[2 * m + i], fj[3 * m + i], fj[4 * m + i] = fi, r0, r1, r2, r3
         w = sw[i]
         ri = w * (y[i] - fi)
         rss += ri * ri
@@ -228,10 +232,10 @@ def _damped(a, lam, cm, newton):
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
-def _try(log_x, trial, u, y, sw, pure, n, rss, offset, slack):
+def _try(log_x, trial, u, y, sw, pure, n, rss, offset, slack, fj):
     """:func:`.curves_solver._try`: ``(verdict, code, rss, offset, slack, floor-free state)``
     with the trial point's ``(a, g, d, cm, low)`` when accepted (verdict 1)."""
-    ok, rt, floor_t, slack_t, a, g, d, cm = _linearize(log_x, trial, u, y, sw, pure)
+    ok, rt, floor_t, slack_t, a, g, d, cm = _linearize(log_x, trial, u, y, sw, pure, fj)
     if not ok:
         return 0, -1, rss, offset, slack, a, g, d, cm, _FAIL
     flat = offset <= FLAT_OFFSET and rt <= rss + slack
@@ -244,17 +248,23 @@ def _try(log_x, trial, u, y, sw, pure, n, rss, offset, slack):
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
-def solve4(fid, theta, u, y, sw, mats, max_iterations, pure, n):
+def solve4(fid, theta, u, y, sw, mats, max_iterations, pure, n, fj):
     """:func:`.curves_solver.solve_family` for logistic4 (``fid`` L4_LOG or L4_LINEAR):
-    the same arguments, steps, stop and return value; on return the Cholesky factor of
-    the scaled ``Js'Js`` at ``theta`` and the column norms are in ``mats`` where
-    :func:`.curves_solver.factor_and_norms` finds them."""
+    the same arguments (and ``fj``, scratch of 5 values per point), steps and stop; on
+    return the Cholesky factor of the scaled ``Js'Js`` at ``theta`` and the column norms
+    are in ``mats`` where :func:`.curves_solver.factor_and_norms` finds them.
+
+    Returns ``(code, rss, offset, iterations, fresh)``: ``fresh`` True when ``fj`` holds
+    the curve and its gradient at the returned ``theta`` (the last pass over the points
+    was there: every stop met at a point, not after a rejected trial).
+    """
     log_x = fid == L4_LOG
     t = (theta[0], theta[1], theta[2], theta[3])
-    ok, rss, floor, slack, a, g, d, cm = _linearize(log_x, t, u, y, sw, pure)
+    ok, rss, floor, slack, a, g, d, cm = _linearize(log_x, t, u, y, sw, pure, fj)
     if not ok:
-        return NON_FINITE, np.inf, np.nan, 0
+        return NON_FINITE, np.inf, np.nan, 0, False
     code, offset, low = _check(a, g, d, rss, floor, n)
+    fresh = True
     lam = 1e-3
     have_prev = False
     prev_t = prev_s = (0.0, 0.0, 0.0, 0.0)
@@ -263,12 +273,14 @@ def solve4(fid, theta, u, y, sw, mats, max_iterations, pure, n):
         if code >= 0:
             iterations, finished = it, True
             break
+        fresh = False
         if offset <= NEWTON_OFFSET:
             outcome, _, extra = _step(t, _damped(a, lam, cm, True), g, d)
             if outcome == 2:
                 verdict, c, r, o, sl, a2, g2, d2, cm2, low2 = _try(
-                    log_x, extra, u, y, sw, pure, n, rss, offset, slack)
+                    log_x, extra, u, y, sw, pure, n, rss, offset, slack, fj)
                 if verdict == 1:
+                    fresh = True
                     have_prev = False
                     t, a, g, d, cm, low = extra, a2, g2, d2, cm2, low2
                     code, rss, offset, slack = c, r, o, sl
@@ -295,8 +307,9 @@ def solve4(fid, theta, u, y, sw, mats, max_iterations, pure, n):
                              trial[2] - gamma * (t[2] - prev_t[2] + s[2] - prev_s[2]),
                              trial[3] - gamma * (t[3] - prev_t[3] + s[3] - prev_s[3]))
                     verdict, c, r, o, sl, a2, g2, d2, cm2, low2 = _try(
-                        log_x, extra, u, y, sw, pure, n, rss, offset, slack)
+                        log_x, extra, u, y, sw, pure, n, rss, offset, slack, fj)
                     if verdict == 1:
+                        fresh = True
                         prev_t, prev_s = t, s
                         t, a, g, d, cm, low = extra, a2, g2, d2, cm2, low2
                         code, rss, offset, slack = c, r, o, sl
@@ -304,8 +317,9 @@ def solve4(fid, theta, u, y, sw, mats, max_iterations, pure, n):
                         lam = max(lam * 0.1, 1e-12)
                         break
             verdict, c, r, o, sl, a2, g2, d2, cm2, low2 = _try(
-                log_x, trial, u, y, sw, pure, n, rss, offset, slack)
+                log_x, trial, u, y, sw, pure, n, rss, offset, slack, fj)
             if verdict == 1:
+                fresh = True
                 prev_t, prev_s = t, s
                 have_prev = True
                 t, a, g, d, cm, low = trial, a2, g2, d2, cm2, low2
@@ -325,7 +339,7 @@ def solve4(fid, theta, u, y, sw, mats, max_iterations, pure, n):
     for j in range(4):
         theta[j] = t[j]
     _store(mats, low, d)
-    return code, rss, offset, iterations
+    return code, rss, offset, iterations, fresh
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
@@ -341,9 +355,12 @@ def _store(mats, low, d):
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
-def solve(fid, theta, u, y, sw, mats, max_iterations, pure, n):
+def solve(fid, theta, u, y, sw, mats, max_iterations, pure, n, fj):
     """Levenberg-Marquardt from ``theta`` (updated in place) to the stop:
-    :func:`solve4` for logistic4, :func:`.curves_solver.solve_family` for the others."""
+    :func:`solve4` for logistic4, :func:`.curves_solver.solve_family` for the others
+    (``fresh`` always False: ``fj`` is not written)."""
     if has_curvature(fid):
-        return solve4(fid, theta, u, y, sw, mats, max_iterations, pure, n)
-    return solve_family(fid, theta, u, y, sw, mats, max_iterations, pure, n)
+        return solve4(fid, theta, u, y, sw, mats, max_iterations, pure, n, fj)
+    code, rss, offset, iterations = solve_family(fid, theta, u, y, sw, mats, max_iterations,
+                                                 pure, n)
+    return code, rss, offset, iterations, False
