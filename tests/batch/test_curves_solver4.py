@@ -23,15 +23,15 @@ def pooled_series(seed: int, fid: int):
     rng = np.random.default_rng(seed)
     left, right = 100.0 + rng.normal(0, 5), 5.0 + rng.normal(0, 3)
     slope, ec50 = 1.2 * np.exp(rng.normal(0, 0.25)), 0.1 * np.exp(rng.normal(0, 0.8))
-    x = DOSES if fid == L4_LOG else np.linspace(0.0, 1.0, 8)
+    x = DOSES if fid == L4_LOG else np.linspace(0.0, 10.0, 8)
     u = np.log(x) if fid == L4_LOG else x
-    centre = np.log(ec50) if fid == L4_LOG else 0.5
+    centre = np.log(ec50) if fid == L4_LOG else 5.0
     curve = right + (left - right) / (1.0 + np.exp(slope * (u - centre)))
     y = curve[:, None] + rng.normal(0, 3.0, (8, 3))
     pure = float(np.sum((y - y.mean(axis=1, keepdims=True)) ** 2))
     scale = np.exp(rng.normal(0, 0.3, 4))
     start = np.array([left, right, slope * scale[2],
-                      ec50 * scale[3] if fid == L4_LOG else 0.5 + 0.1 * rng.normal()])
+                      ec50 * scale[3] if fid == L4_LOG else 5.0 + rng.normal()])
     start[:2] += rng.normal(0, 4, 2)
     return u, y.mean(axis=1), np.full(8, np.sqrt(3.0)), pure, start
 
