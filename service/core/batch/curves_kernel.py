@@ -60,7 +60,7 @@ _NOUT, _NINF, _NHIGH, _NBOTH, _NLEVER, _CORR, _SW, _SWP = 14, 15, 16, 17, 18, 19
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
-def _attempt(fid, nl, n, pooled, cols, coef, theta, mats, fj):
+def _attempt(fid, nl, n, pooled, cols, coef, theta, mats, fj, work):
     """Linear parameters at ``nl``, then solve, both on the pooled data (``pooled``:
     distinct u, mean y, sqrt summed weights, pure-error SS, m; the linear least squares
     of the points and of their pools have the same solution); ``n`` points.
@@ -68,7 +68,7 @@ def _attempt(fid, nl, n, pooled, cols, coef, theta, mats, fj):
     :func:`.curves_solver4.solve`)."""
     lin = cols.shape[0]
     ul, yl, swl, pure, m = pooled
-    if project(fid, nl, ul[:m], yl[:m], swl[:m], cols[:, :m], coef) == np.inf:
+    if project(fid, nl, ul[:m], yl[:m], swl[:m], cols[:, :m], coef, work) == np.inf:
         return False, np.inf, np.nan, 0, -1, False
     for j in range(lin):
         theta[j] = coef[j]
@@ -190,6 +190,7 @@ def fit_rows(fid, x, y, w, offsets, rows, cut_t, cut_cook, sw_start, sw_coef, al
     e_all, srt_all = np.empty(nmax), np.empty(nmax)
     order_all, which_all = np.empty(nmax, dtype=np.int64), np.empty(nmax, dtype=np.int64)
     fj = np.empty((p + 1) * nmax)           # the curve and its gradient at the pooled u
+    basis_work = np.empty(2 * p + nmax)     # scratch of the linear columns (basis)
     jac, mats = np.empty(p * nmax), np.empty((scratch_rows(p), p))
     work = np.empty((3 * p + 1, p))
     cols_all, q = np.empty((lin, nmax)), np.empty((p, nmax))
@@ -216,14 +217,15 @@ def fit_rows(fid, x, y, w, offsets, rows, cut_t, cut_cook, sw_start, sw_coef, al
         code, offset, fresh = -1, np.nan, False
         if shape_start(fid, xs, u, ys, lev, means, m, nl, v[:n]):
             ok, rss, off, iters, c, fresh = _attempt(fid, nl, n, pooled, cols, coef, theta,
-                                                     mats, fj)
+                                                     mats, fj, basis_work)
             spent += iters
             if ok:
                 found, best_rss, current, code, offset = True, rss, True, c, off
                 best[:] = theta
-        if (always_grid or not found) and grid_start(fid, xs, u, ys, sw, cols, coef, nl):
+        if (always_grid or not found) and grid_start(fid, xs, u, ys, sw, cols, coef, nl,
+                                                       basis_work):
             ok, rss, off, iters, c, fresh = _attempt(fid, nl, n, pooled, cols, coef, theta,
-                                                     mats, fj)
+                                                     mats, fj, basis_work)
             spent += iters
             current = False
             if ok and (not found or rss < best_rss * (1.0 - SAME_RSS)):

@@ -154,10 +154,11 @@ def shape_start(fid, x, u, y, lev, means, m, out, v):
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
-def project(fid, nonlinear, u, y, sw, cols, coef):
+def project(fid, nonlinear, u, y, sw, cols, coef, work):
     """Weighted least-squares linear parameters at ``nonlinear`` into ``coef``; their RSS
-    (inf where the columns are not finite or the linear design is singular)."""
-    if not basis(fid, nonlinear, u, cols):
+    (inf where the columns are not finite or the linear design is singular); ``work``:
+    scratch for :func:`.curves_models.basis`."""
+    if not basis(fid, nonlinear, u, cols, work):
         return np.inf
     m, n = cols.shape[0], u.size
     a11 = a12 = a22 = b1 = b2 = yy = 0.0
