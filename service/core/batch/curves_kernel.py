@@ -59,7 +59,7 @@ _DW, _DWP, _BP, _BPP, _LOF, _LOFDF, _PUREDF = 7, 8, 9, 10, 11, 12, 13
 _NOUT, _NINF, _NHIGH, _NBOTH, _NLEVER, _CORR, _SW, _SWP = 14, 15, 16, 17, 18, 19, 20, 21
 
 
-@numba.njit(cache=True, nogil=True, error_model="numpy")
+@numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
 def _attempt(fid, nl, n, pooled, cols, coef, theta, mats, fj, work):
     """Linear parameters at ``nl``, then solve, both on the pooled data (``pooled``:
     distinct u, mean y, sqrt summed weights, pure-error SS, m; the linear least squares
@@ -79,7 +79,7 @@ def _attempt(fid, nl, n, pooled, cols, coef, theta, mats, fj, work):
     return code <= SMALL_GRADIENT, rss, offset, iters, code, fresh
 
 
-@numba.njit(cache=True, nogil=True, error_model="numpy")
+@numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
 def _summary(p, x, y, w, sw, f, js, low, d, rss, cut_t, cut_cook, q, e, out, est_se,
              sw_coef, srt, work):
     """Inference and residual checks at the estimates into ``out`` (stats row) and ``est_se``.
