@@ -51,8 +51,9 @@ def _geom(lo, hi, k, count):
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
-def grid_start(fid, x, u, y, sw, cols, coef, out):
-    """The best point of the family's grid (nonlinear values into ``out``); False if none."""
+def grid_start(fid, x, u, y, sw, cols, coef, out, work):
+    """The best point of the family's grid (nonlinear values into ``out``); False if none.
+    ``work``: scratch for :func:`.curves_starts.project`."""
     best = np.inf
     trial = np.empty(2)
     if fid == L4_LOG or fid == L4_LINEAR:
@@ -62,7 +63,7 @@ def grid_start(fid, x, u, y, sw, cols, coef, out):
             for b in range(MID_POINTS):
                 mid = lo - 0.25 * span + (1.5 * span) * b / (MID_POINTS - 1)
                 trial[1] = math.exp(mid) if fid == L4_LOG else mid
-                rss = project(fid, trial, u, y, sw, cols, coef)
+                rss = project(fid, trial, u, y, sw, cols, coef, work)
                 if rss < best:
                     best, out[0], out[1] = rss, trial[0], trial[1]
         return best < np.inf
@@ -71,7 +72,7 @@ def grid_start(fid, x, u, y, sw, cols, coef, out):
         for a in range(2 * RATES.size):
             r = RATES[a - RATES.size] if a >= RATES.size else -RATES[RATES.size - 1 - a]
             trial[0] = r / span
-            rss = project(fid, trial, u, y, sw, cols, coef)
+            rss = project(fid, trial, u, y, sw, cols, coef, work)
             if rss < best:
                 best, out[0] = rss, trial[0]
         return best < np.inf
@@ -83,7 +84,7 @@ def grid_start(fid, x, u, y, sw, cols, coef, out):
             trial[0] = r / span
             for b in range(MID_POINTS):
                 trial[1] = lo - 0.25 * span + (1.5 * span) * b / (MID_POINTS - 1)
-                rss = project(fid, trial, u, y, sw, cols, coef)
+                rss = project(fid, trial, u, y, sw, cols, coef, work)
                 if rss < best:
                     best, out[0], out[1] = rss, trial[0], trial[1]
         return best < np.inf
@@ -97,7 +98,7 @@ def grid_start(fid, x, u, y, sw, cols, coef, out):
             trial[0] = lo - 0.1 * span + (1.2 * span) * a / (CENTRES - 1)
             for b in range(WIDTHS):
                 trial[1] = _geom(finest / 2.0, 2.0 * span, b, WIDTHS)
-                rss = project(fid, trial, u, y, sw, cols, coef)
+                rss = project(fid, trial, u, y, sw, cols, coef, work)
                 if rss < best:
                     best, out[0], out[1] = rss, trial[0], trial[1]
         return best < np.inf
@@ -112,7 +113,7 @@ def grid_start(fid, x, u, y, sw, cols, coef, out):
             trial[0] = _geom(lo / 3.0, 3.0 * hi, a, TAUS)
             for b in range(SHAPES.size):
                 trial[1] = SHAPES[b]
-                rss = project(fid, trial, u, y, sw, cols, coef)
+                rss = project(fid, trial, u, y, sw, cols, coef, work)
                 if rss < best:
                     best, out[0], out[1] = rss, trial[0], trial[1]
         return best < np.inf
@@ -130,13 +131,13 @@ def grid_start(fid, x, u, y, sw, cols, coef, out):
             trial[0] = POWERS[a] / ratio
             if zero and not trial[0] > 0:         # 0^exponent is finite only for exponent > 0
                 continue
-            rss = project(fid, trial, u, y, sw, cols, coef)
+            rss = project(fid, trial, u, y, sw, cols, coef, work)
             if rss < best:
                 best, out[0] = rss, trial[0]
         return best < np.inf
     for a in range(KM_POINTS):
         trial[0] = _geom(lo / 100.0, 100.0 * hi, a, KM_POINTS)
-        rss = project(fid, trial, u, y, sw, cols, coef)
+        rss = project(fid, trial, u, y, sw, cols, coef, work)
         if rss < best:
             best, out[0] = rss, trial[0]
     return best < np.inf

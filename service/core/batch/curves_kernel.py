@@ -8,7 +8,7 @@ cannot promise the single fit's answer: no start converged, a singular
 tangent plane, an exact fit, or constant x.
 
 Per series: the shape start (:func:`.curves_starts.shape_start`) is solved first
-(:func:`.curves_solver.solve`); the grid's best point too when the shape
+(:func:`.curves_solver4.solve`); the grid's best point too when the shape
 start did not converge, or always with ``always_grid`` (the single fit solves
 both and keeps the lowest converged). logistic4 is written with slope > 0
 (the mirror of a falling curve, as the single fit reports it). Then, at the
@@ -39,12 +39,8 @@ from service.core.batch.curves_models import (
     on_log_x,
 )
 from service.core.batch.curves_points import pool, shapiro_w_p, sort_order, tangent_sums
-from service.core.batch.curves_solver import (
-    SMALL_GRADIENT,
-    factor_and_norms,
-    scratch_rows,
-    solve,
-)
+from service.core.batch.curves_solver import SMALL_GRADIENT, factor_and_norms, scratch_rows
+from service.core.batch.curves_solver4 import solve
 from service.core.batch.curves_starts import levels, project, shape_start
 from service.core.checks.kernels import chi2_tail, dw_p, dw_traces
 
@@ -63,31 +59,33 @@ _DW, _DWP, _BP, _BPP, _LOF, _LOFDF, _PUREDF = 7, 8, 9, 10, 11, 12, 13
 _NOUT, _NINF, _NHIGH, _NBOTH, _NLEVER, _CORR, _SW, _SWP = 14, 15, 16, 17, 18, 19, 20, 21
 
 
-@numba.njit(cache=True, nogil=True, error_model="numpy")
-def _attempt(fid, nl, n, pooled, cols, coef, theta, mats):
+@numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
+def _attempt(fid, nl, n, pooled, cols, coef, theta, mats, fj, work):
     """Linear parameters at ``nl``, then solve, both on the pooled data (``pooled``:
     distinct u, mean y, sqrt summed weights, pure-error SS, m; the linear least squares
     of the points and of their pools have the same solution); ``n`` points.
-    Returns (converged, rss, offset, iters, code)."""
+    Returns (converged, rss, offset, iters, code, fresh) (``fresh``: as
+    :func:`.curves_solver4.solve`)."""
     lin = cols.shape[0]
     ul, yl, swl, pure, m = pooled
-    if project(fid, nl, ul[:m], yl[:m], swl[:m], cols[:, :m], coef) == np.inf:
-        return False, np.inf, np.nan, 0, -1
+    if project(fid, nl, ul[:m], yl[:m], swl[:m], cols[:, :m], coef, work) == np.inf:
+        return False, np.inf, np.nan, 0, -1, False
     for j in range(lin):
         theta[j] = coef[j]
     for j in range(theta.size - lin):
         theta[lin + j] = nl[j]
-    code, rss, offset, iters = solve(fid, theta, ul[:m], yl[:m], swl[:m], mats, 200, pure, n)
-    return code <= SMALL_GRADIENT, rss, offset, iters, code
+    code, rss, offset, iters, fresh = solve(fid, theta, ul[:m], yl[:m], swl[:m], mats, 200,
+                                            pure, n, fj)
+    return code <= SMALL_GRADIENT, rss, offset, iters, code, fresh
 
 
-@numba.njit(cache=True, nogil=True, error_model="numpy")
+@numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
 def _summary(p, x, y, w, sw, f, js, low, d, rss, cut_t, cut_cook, q, e, out, est_se,
              sw_coef, srt, work):
     """Inference and residual checks at the estimates into ``out`` (stats row) and ``est_se``.
 
     ``js`` is the scaled weighted Jacobian (p x n), ``low`` the Cholesky factor of ``js'js`` and
-    ``d`` the column norms (as :func:`.curves_solver.solve` leaves them); ``work`` is scratch
+    ``d`` the column norms (as :func:`.curves_solver4.solve` leaves them); ``work`` is scratch
     of shape (3p + 1, p)."""
     n = y.size
     df = n - p
@@ -191,7 +189,8 @@ def fit_rows(fid, x, y, w, offsets, rows, cut_t, cut_cook, sw_start, sw_coef, al
     lev, means = np.empty(nmax), np.empty(nmax)
     e_all, srt_all = np.empty(nmax), np.empty(nmax)
     order_all, which_all = np.empty(nmax, dtype=np.int64), np.empty(nmax, dtype=np.int64)
-    f_pool, jac_pool = np.empty(nmax), np.empty(p * nmax)
+    fj = np.empty((p + 1) * nmax)           # the curve and its gradient at the pooled u
+    basis_work = np.empty(2 * p + nmax)     # scratch of the linear columns (basis)
     jac, mats = np.empty(p * nmax), np.empty((scratch_rows(p), p))
     work = np.empty((3 * p + 1, p))
     cols_all, q = np.empty((lin, nmax)), np.empty((p, nmax))
@@ -215,15 +214,18 @@ def fit_rows(fid, x, y, w, offsets, rows, cut_t, cut_cook, sw_start, sw_coef, al
         k, ss_pure = pool(u, ys, ws, order, ul_all, yl_all, swl_all, which)
         pooled = (ul_all, yl_all, swl_all, ss_pure, k)
         found, best_rss, start, spent, current = False, np.inf, SHAPE, 0, False
-        code, offset = -1, np.nan
+        code, offset, fresh = -1, np.nan, False
         if shape_start(fid, xs, u, ys, lev, means, m, nl, v[:n]):
-            ok, rss, off, iters, c = _attempt(fid, nl, n, pooled, cols, coef, theta, mats)
+            ok, rss, off, iters, c, fresh = _attempt(fid, nl, n, pooled, cols, coef, theta,
+                                                     mats, fj, basis_work)
             spent += iters
             if ok:
                 found, best_rss, current, code, offset = True, rss, True, c, off
                 best[:] = theta
-        if (always_grid or not found) and grid_start(fid, xs, u, ys, sw, cols, coef, nl):
-            ok, rss, off, iters, c = _attempt(fid, nl, n, pooled, cols, coef, theta, mats)
+        if (always_grid or not found) and grid_start(fid, xs, u, ys, sw, cols, coef, nl,
+                                                       basis_work):
+            ok, rss, off, iters, c, fresh = _attempt(fid, nl, n, pooled, cols, coef, theta,
+                                                     mats, fj, basis_work)
             spent += iters
             current = False
             if ok and (not found or rss < best_rss * (1.0 - SAME_RSS)):
@@ -240,8 +242,8 @@ def fit_rows(fid, x, y, w, offsets, rows, cut_t, cut_cook, sw_start, sw_coef, al
             theta[3] = -theta[3]
             current = False
         if not current:     # the solver's state (factor, column norms) at the kept estimates
-            code, rss, offset, _ = solve(fid, theta, ul_all[:k], yl_all[:k], swl_all[:k], mats,
-                                         200, ss_pure, n)
+            code, rss, offset, _, fresh = solve(fid, theta, ul_all[:k], yl_all[:k],
+                                                swl_all[:k], mats, 200, ss_pure, n, fj)
         zz = 0.0
         for i in range(n):
             zz += sw[i] * ys[i] * sw[i] * ys[i]
@@ -249,8 +251,8 @@ def fit_rows(fid, x, y, w, offsets, rows, cut_t, cut_cook, sw_start, sw_coef, al
             continue
         low, d = factor_and_norms(mats, p)
         js = jac[:p * n].reshape((p, n))
-        jl = jac_pool[:p * k].reshape((p, k))
-        if not evaluate(fid, theta, ul_all[:k], f_pool[:k], jl):    # once per distinct u
+        f_pool, jl = fj[:k], fj[k:(p + 1) * k].reshape((p, k))
+        if not fresh and not evaluate(fid, theta, ul_all[:k], f_pool, jl):  # per distinct u
             continue
         for i in range(n):
             f[i] = f_pool[which[i]]

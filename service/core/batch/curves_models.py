@@ -221,18 +221,18 @@ def evaluate(fid, theta, u, f, jac):
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
-def basis(fid, nonlinear, u, cols):
+def basis(fid, nonlinear, u, cols, work):
     """The conditionally linear columns at the nonlinear values (start search): the
     Jacobian rows of the linear parameters, into ``cols`` (m x n). False when a column is
-    not finite."""
+    not finite. ``work``: scratch of at least ``2 p + n`` values (no allocation per call)."""
     lin, p = cols.shape[0], N_PARAMETERS[fid]
-    theta = np.zeros(p)
+    theta, row, buf = work[:p], work[p:2 * p], work[2 * p:2 * p + u.size]
+    for j in range(lin):
+        theta[j] = 0.0
     for j in range(p - lin):
         theta[lin + j] = nonlinear[j]
     c0, c1 = constants(fid, theta)
-    buf = np.empty(u.size)
     prepass(fid, theta, c0, u, buf)
-    row = np.empty(p)
     total = 0.0
     for i in range(u.size):
         point(fid, theta, c0, c1, u[i], buf[i], row)

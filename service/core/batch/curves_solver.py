@@ -26,7 +26,7 @@ import numba
 import numpy as np
 
 from service.core.batch.curves_linearize import linearize
-from service.core.batch.curves_models import L4_LOG, has_curvature
+from service.core.batch.curves_models import has_curvature
 
 TARGET_OFFSET = 1e-8        # the single fit's criterion, met at a linearized point
 ACCEPT_OFFSET = 1e-8       # the single fit's criterion (solver.DEFAULT_TOLERANCE)
@@ -110,7 +110,7 @@ def check(a, g, d, p, low, z, rss, floor, n):
 @numba.njit(cache=True, nogil=True, error_model="numpy")
 def _try(fid, trial, u, y, sw, p, pure, n, rss, offset, slack, trial_a, trial_low, z, trial_g,
          trial_d, trial_c, hess, row, buf):
-    """Linearize at ``trial`` (into the trial arrays, views of :func:`solve`'s scratch made
+    """Linearize at ``trial`` (into the trial arrays, views of :func:`solve_family`'s scratch made
     once per solve: views made per call cost two atomic reference counts each) and judge it.
 
     Returns ``(verdict, code, rss, offset, slack)``: verdict 1 accept, 0 reject (try a
@@ -178,18 +178,8 @@ def _step(theta, m, g, d, p, low_m, step, trial):
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
 def scratch_rows(p):
-    """Rows of :func:`solve`'s scratch ``mats`` (``p`` columns)."""
+    """Rows of :func:`solve_family`'s scratch ``mats`` (``p`` columns)."""
     return 9 * p + 11
-
-
-@numba.njit(cache=True, nogil=True, error_model="numpy")
-def solve(fid, theta, u, y, sw, mats, max_iterations, pure, n):
-    """Levenberg-Marquardt from ``theta`` (updated in place) to the stop: see
-    :func:`solve_family`. logistic4 on log x has a build of its own (the family a
-    constant, its branches folded away: the same operations, about 10% less time)."""
-    if fid == L4_LOG:
-        return solve_family(L4_LOG, theta, u, y, sw, mats, max_iterations, pure, n)
-    return solve_family(fid, theta, u, y, sw, mats, max_iterations, pure, n)
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
@@ -311,5 +301,5 @@ def solve_family(fid, theta, u, y, sw, mats, max_iterations, pure, n):
 @numba.njit(cache=True, nogil=True, error_model="numpy")
 def factor_and_norms(mats, p):
     """The Cholesky factor of the scaled ``Js'Js`` and the column norms ``D`` that
-    :func:`solve` leaves in its scratch."""
+    :func:`solve_family` and :func:`.curves_solver4.solve4` leave in the scratch."""
     return mats[0:p], mats[6 * p + 2]

@@ -79,14 +79,15 @@ def _crossing(lev, means, m, level):
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
-def _line(u, v, keep):
-    """Least-squares (intercept, slope) of v on u over ``keep`` & finite; NaNs if < 2 distinct u."""
+def _line(u, v):
+    """Least-squares (intercept, slope) of v on u over the points where both are finite (the
+    callers mark a point left out by a NaN v); NaNs if < 2 distinct u."""
     n = 0
     su = sv = 0.0
     first = np.nan
     distinct = False
     for i in range(u.size):
-        if keep[i] and math.isfinite(u[i]) and math.isfinite(v[i]):
+        if math.isfinite(u[i]) and math.isfinite(v[i]):
             if n == 0:
                 first = u[i]
             elif u[i] != first:
@@ -99,7 +100,7 @@ def _line(u, v, keep):
     mu, mv = su / n, sv / n
     suu = suv = 0.0
     for i in range(u.size):
-        if keep[i] and math.isfinite(u[i]) and math.isfinite(v[i]):
+        if math.isfinite(u[i]) and math.isfinite(v[i]):
             du = u[i] - mu
             suu += du * du
             suv += du * (v[i] - mv)
@@ -115,7 +116,6 @@ def shape_start(fid, x, u, y, lev, means, m, out, v):
     n = u.size
     if fid >= LOGISTIC_GROWTH:
         return False
-    keep = np.empty(n, dtype=np.bool_)
     if fid == L4_LOG or fid == L4_LINEAR:
         left, right = _ends(means, m)
         mid = _crossing(lev, means, m, 0.5 * (left + right))
@@ -123,9 +123,9 @@ def shape_start(fid, x, u, y, lev, means, m, out, v):
             return False
         for i in range(n):
             p = (y[i] - left) / (right - left)
-            keep[i] = p > 0.05 and p < 0.95 and math.isfinite(u[i])
-            v[i] = math.log(p / (1.0 - p)) if keep[i] else 0.0
-        _, slope = _line(u, v, keep)
+            keep = p > 0.05 and p < 0.95 and math.isfinite(u[i])
+            v[i] = math.log(p / (1.0 - p)) if keep else np.nan
+        _, slope = _line(u, v)
         if not slope > 0:
             return False
         out[0], out[1] = slope, (math.exp(mid) if fid == L4_LOG else mid)
@@ -138,17 +138,15 @@ def shape_start(fid, x, u, y, lev, means, m, out, v):
         sign = 1.0 if change > 0 else -1.0
         for i in range(n):
             distance = sign * (y[i] - right)
-            keep[i] = distance > 0.05 * abs(change)
-            v[i] = math.log(distance) if keep[i] else 0.0
-        _, slope = _line(u, v, keep)
+            v[i] = math.log(distance) if distance > 0.05 * abs(change) else np.nan
+        _, slope = _line(u, v)
         if slope != slope or slope == 0:
             return False
         out[0] = -slope
         return True
     for i in range(n):                 # michaelis_menten: Hanes-Woolf line x/y on x
-        keep[i] = y[i] != 0 and x[i] != 0
-        v[i] = x[i] / y[i] if keep[i] else 0.0
-    intercept, slope = _line(x, v, keep)
+        v[i] = x[i] / y[i] if y[i] != 0 and x[i] != 0 else np.nan
+    intercept, slope = _line(x, v)
     if slope != slope or slope == 0 or not intercept / slope > 0:
         return False
     out[0] = intercept / slope
@@ -156,10 +154,11 @@ def shape_start(fid, x, u, y, lev, means, m, out, v):
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
-def project(fid, nonlinear, u, y, sw, cols, coef):
+def project(fid, nonlinear, u, y, sw, cols, coef, work):
     """Weighted least-squares linear parameters at ``nonlinear`` into ``coef``; their RSS
-    (inf where the columns are not finite or the linear design is singular)."""
-    if not basis(fid, nonlinear, u, cols):
+    (inf where the columns are not finite or the linear design is singular); ``work``:
+    scratch for :func:`.curves_models.basis`."""
+    if not basis(fid, nonlinear, u, cols, work):
         return np.inf
     m, n = cols.shape[0], u.size
     a11 = a12 = a22 = b1 = b2 = yy = 0.0
