@@ -13,9 +13,13 @@ are fitted.
 
 The compiled engine (:mod:`.curves_kernel`) takes the series of the families in
 :data:`~service.core.batch.curves_models.COMPILED` when the model holds no
-fixed values, bounds or start values and the weights are relative: finite
-data, weights > 0, at least p + 2 points and x >= 0 on the log scale, for power and
-for weibull. Chunks
+fixed values, bounds or start values: finite data, weights > 0, at least
+p + 2 points and x >= 0 on the log scale, for power and for weibull. With
+``weighting="known_sd"`` the least-squares fit is the same and only the
+inference differs (unscaled standard errors, the likelihood at the known
+variances, the chi-square goodness-of-fit test: :mod:`.curves_post`); a
+known-SD batch without weights goes through the single fit, which refuses every
+series naming ``weights``. Chunks
 of series go to a thread pool (the kernel releases the GIL). Every other
 series, each series the kernel hands back (no converged start, a singular
 tangent plane, an exact fit), and every series with ``detail="full"`` goes
@@ -45,13 +49,14 @@ from service.core.batch.curves_results import (
     fill_from_report,
 )
 from service.core.checks.diagnostics import cut_offs
+from service.core.checks.known_sd import KNOWN_SD
 from service.core.checks.shapiro_tables import SHAPIRO_MAX_N, shapiro_weights
 from service.core.errors import FitError
 from service.core.families import family
 from service.core.interrupt import checkpoint
 from service.core.nonlinear.builtin.catalogue import BUILTINS
 from service.core.nonlinear.builtin.spec_check import equation, scale_of
-from service.core.spec import FitOptions, ModelSpec
+from service.core.spec import WEIGHTINGS, FitOptions, ModelSpec
 
 DETAILS = ("summary", "full")
 CHUNK_SERIES = 1024
@@ -71,10 +76,12 @@ def parameter_names(model: ModelSpec) -> tuple[str, ...]:
 
 
 def compiled_family(model: ModelSpec, options: FitOptions) -> int | None:
-    """The compiled family id for this model and options, or None (single-fit engine)."""
+    """The compiled family id for this model and options, or None (single-fit engine).
+
+    Either weighting qualifies (relative or known SDs: the same least-squares fit)."""
     builtin = BUILTINS.get(model.family)
     if builtin is None or model.fixed or model.lower or model.upper or model.parameters \
-            or options.weighting != "relative":
+            or options.weighting not in WEIGHTINGS:
         return None
     return COMPILED.get((builtin.name, scale_of(builtin, model)))
 
@@ -147,10 +154,13 @@ def fit_many_curves(x, y, lengths, weights=None, *, model: ModelSpec,
         return CurveBatchResult(model.family, (), **out)
     out = empty_curve_columns(G, len(names))
     out["names"] = names
+    known = options.weighting == KNOWN_SD
     fid = compiled_family(model, options) if detail == "summary" else None
+    if known and w is None:   # no SDs: the single fit's error for every series
+        fid = None
     single = np.arange(G)
     if fid is not None:
-        single = _compiled(out, fid, x, y, w, lengths, offsets, workers, always_grid)
+        single = _compiled(out, fid, x, y, w, lengths, offsets, workers, always_grid, known)
     plain = options if detail == "full" else replace(options, grid=None)
     for row in single.tolist():
         checkpoint()
@@ -169,7 +179,8 @@ def fit_many_curves(x, y, lengths, weights=None, *, model: ModelSpec,
     return CurveBatchResult(model.family, names, **out)
 
 
-def _compiled(out, fid, x, y, w, lengths, offsets, workers, always_grid) -> np.ndarray:
+def _compiled(out, fid, x, y, w, lengths, offsets, workers, always_grid,
+              known=False) -> np.ndarray:
     """Fit the rows the kernel may take; return the rows left for the single fit."""
     p = N_PARAMETERS[fid]
     G = lengths.size
@@ -199,10 +210,10 @@ def _compiled(out, fid, x, y, w, lengths, offsets, workers, always_grid) -> np.n
             run(chunk)
     done = np.flatnonzero(status == 0)
     if done.size == G:                    # every row: slices, no gathering
-        finish(out, slice(None), stats, lengths, p)
+        finish(out, slice(None), stats, lengths, p, known)
         return np.empty(0, dtype=np.int64)
     if done.size:
-        finish(out, done, stats[done], lengths[done], p)
+        finish(out, done, stats[done], lengths[done], p, known)
     left = np.flatnonzero(status != 0)
     est[left] = np.nan
     se[left] = np.nan

@@ -8,6 +8,12 @@ conventions of the single fit (:mod:`service.core.nonlinear.inference`,
 * sigma ``sqrt(RSS/df)``, R² about the weighted mean, adjusted R², the Gaussian
   log-likelihood at the ML variance plus ``0.5 sum(log w)``, AIC, AICc, BIC with
   k = number of parameters;
+* with known SDs (``known``, weights ``1/SD²``: :mod:`service.core.checks.known_sd`) the
+  same fit read otherwise: standard errors from ``(J'WJ)^-1`` unscaled (the kernel's,
+  which carry the factor sigma, divided by it), the log-likelihood at the known
+  variances ``-0.5 (n log 2 pi - sum(log w) + RSS)``, and the chi-square
+  goodness-of-fit test of the weighted RSS on ``n - p`` df (``chi_square_fit_failed``,
+  serious, below ``TEST_ALPHA``); the summary carries no limits, so no critical value;
 * lack-of-fit p from ``F(k - p, n - k)`` (Shapiro-Wilk of the weighted residuals comes
   from the kernel, :func:`.curves_points.shapiro_w_p`);
 * flags at the per-test level ``TEST_ALPHA``; influence and leverage are info
@@ -34,15 +40,22 @@ STARTS = ("shape", "grid_best")
 _BIT = {code: i for i, code in enumerate(CURVE_FLAG_CODES)}
 
 
-def finish(out: dict, rows, stats: np.ndarray, n: np.ndarray, p: int) -> None:
+def finish(out: dict, rows, stats: np.ndarray, n: np.ndarray, p: int,
+           known: bool = False) -> None:
     """Write the columns of the compiled ``rows`` (an index array or a slice; ``stats``
-    and ``n``: their kernel rows and lengths)."""
+    and ``n``: their kernel rows and lengths; ``known``: weights are 1/SD² of known
+    errors)."""
     cols = out["columns"]
     df = n - p
     rss, tss = stats[:, S["rss"]], stats[:, S["tss"]]
+    sigma = np.sqrt(rss / df)
     with np.errstate(all="ignore"):
         r2 = np.where(tss > 0, 1.0 - rss / tss, np.nan)
-        llf = -0.5 * n * (LOG_2PI + np.log(rss / n) + 1.0) + 0.5 * stats[:, S["sum_log_w"]]
+        if known:
+            llf = -0.5 * (n * LOG_2PI - stats[:, S["sum_log_w"]] + rss)
+            _known_sd(out, rows, sigma, rss, df)
+        else:
+            llf = -0.5 * n * (LOG_2PI + np.log(rss / n) + 1.0) + 0.5 * stats[:, S["sum_log_w"]]
         aic = -2.0 * llf + 2.0 * p
         lof_f = stats[:, S["lack_of_fit_f"]]
         lof_p = np.where(np.isfinite(lof_f), special.fdtrc(stats[:, S["lack_of_fit_df"]],
@@ -51,7 +64,7 @@ def finish(out: dict, rows, stats: np.ndarray, n: np.ndarray, p: int) -> None:
         cols["aicc"][rows] = np.where(n - p - 1 > 0, aic + 2.0 * p * (p + 1) / (n - p - 1),
                                       np.nan)
     cols["n"][rows], cols["df_residual"][rows] = n, df
-    cols["rss"][rows], cols["sigma"][rows] = rss, np.sqrt(rss / df)
+    cols["rss"][rows], cols["sigma"][rows] = rss, sigma
     cols["r_squared"][rows] = r2
     cols["adj_r_squared"][rows] = 1.0 - (1.0 - r2) * (n - 1) / df
     cols["aic"][rows], cols["bic"][rows] = aic, -2.0 * llf + p * np.log(n)
@@ -73,6 +86,17 @@ def finish(out: dict, rows, stats: np.ndarray, n: np.ndarray, p: int) -> None:
     out["compiled"][rows] = True
 
 
+def _known_sd(out, rows, sigma, rss, df) -> None:
+    """Unscaled standard errors and the chi-square test of the rows (known SDs)."""
+    se = out["std_errors"]
+    se[rows] = se[rows] / sigma[:, None]
+    tested = (df >= 1) & np.isfinite(rss)
+    cols = out["columns"]
+    cols["chi_square_fit"][rows] = np.where(tested, rss, np.nan)
+    cols["chi_square_fit_p"][rows] = np.where(tested, special.chdtrc(np.maximum(df, 1), rss),
+                                              np.nan)
+
+
 def _flags(out, rows, stats, n, p) -> None:
     cols = out["columns"]
     est, se = out["estimates"][rows], out["std_errors"][rows]
@@ -82,6 +106,7 @@ def _flags(out, rows, stats, n, p) -> None:
     lever = stats[:, S["n_high_leverage_influential_outliers"]] > 0
     rules = (("parameters_nearly_redundant", stats[:, S["max_correlation"]] > CORRELATION_CUT, 1),
              ("poorly_determined_parameter", ~(relative <= RELATIVE_SE_CUT).all(axis=1), 1),
+             ("chi_square_fit_failed", cols["chi_square_fit_p"][rows] < TEST_ALPHA, 2),
              ("few_points_per_parameter", n < POINTS_PER_PARAMETER * p, 0),
              ("lack_of_fit", cols["lack_of_fit_p"][rows] < TEST_ALPHA, 2),
              ("non_normal_residuals", cols["shapiro_wilk_p"][rows] < TEST_ALPHA, 1),
