@@ -41,3 +41,25 @@ def rel(a, b) -> float:
         return 0.0
     scale = np.maximum(np.abs(b[keep]), 1e-300)
     return float(np.max(np.abs(a[keep] - b[keep]) / scale))
+
+
+class _NoSingleFit:
+    """A family whose single fit fails: any row the compiled engine leaves is an error."""
+
+    def __init__(self, entry):
+        self._entry = entry
+
+    def __getattr__(self, name):
+        return getattr(self._entry, name)
+
+    def fit(self, *args, **kwargs):
+        raise AssertionError("the batch fell back to the single fit")
+
+
+@pytest.fixture
+def compiled_only(monkeypatch):
+    """Nonlinear batches may not fall back to the single fit (it raises inside the batch);
+    other callers of the single fit are untouched."""
+    from service.core.batch import curves
+    real = curves.family
+    monkeypatch.setattr(curves, "family", lambda name, **kw: _NoSingleFit(real(name, **kw)))

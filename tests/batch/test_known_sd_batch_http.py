@@ -33,15 +33,18 @@ def _poly_series(count=8, seed=11):
             for i, (x, y, w) in enumerate(known_sd_series(count, seed))]
 
 
-def _curve_series(count=4, seed=12):
+def _curve_series(count=4, seed=12, *, understate=False):
+    """Seeded Michaelis-Menten series; with ``understate`` every third states its SDs three
+    times too small (the chi-square test must fail there)."""
     rng = np.random.default_rng(seed)
     sd = 0.1 + 0.02 * SUBSTRATE
     out = []
     for i in range(count):
         vmax, km = 12.0 * np.exp(rng.normal(0, 0.1)), 5.0 * np.exp(rng.normal(0, 0.3))
         y = vmax * SUBSTRATE / (km + SUBSTRATE) + rng.normal(0, sd)
+        stated = sd / 3 if understate and i % 3 == 2 else sd
         out.append({"id": i, "x": SUBSTRATE.tolist(), "y": y.tolist(),
-                    "weights": (1 / sd ** 2).tolist()})
+                    "weights": (1 / stated ** 2).tolist()})
     return out
 
 
@@ -127,21 +130,27 @@ def test_arrow_polynomial_batch_equals_single_fits(client):
         assert row["flag_codes"] == ";".join(f["code"] for f in one["flags"])
 
 
-def test_nonlinear_batches_equal_single_fits_in_every_body_form(client):
-    series = _curve_series()
+def test_nonlinear_batches_equal_single_fits_in_every_body_form(client, compiled_only):
+    # compiled_only: the batch may not fall back to the single fit (/v1/fit still uses it)
+    series = _curve_series(6, understate=True)
     options = {"model": CURVE, "weighting": "known_sd"}
     answer = _json(client, {"series": series, **options})
     assert answer.status_code == 200, answer.data[:300]
     results = answer.get_json()["results"]
+    flagged = 0
     for s, result in zip(series, results, strict=True):
         fit, one = result["fit"], _single(client, s, CURVE)
         assert result["status"] == "ok", result
         assert rel(fit["estimate"], [c["estimate"] for c in one["coefficients"]]) < 1e-7
         assert rel(fit["std_error"], [c["std_error"] for c in one["coefficients"]]) < 1e-7
-        for name in ("aic", "bic", "rss"):
+        for name in ("aic", "aicc", "bic", "rss", "sigma"):
             assert rel(fit[name], one["statistics"][name]) < 1e-7
+        assert rel(fit["tests"]["chi_square_fit"], _chi(one)["statistic"]) < 1e-7
         assert rel(fit["tests"]["chi_square_fit_p"], _chi(one)["p_value"]) < 1e-7
-        assert [f["code"] for f in fit["flags"]] == [f["code"] for f in one["flags"]]
+        assert fit["flags"] == [{"code": f["code"], "severity": f["severity"]}
+                                for f in one["flags"]]
+        flagged += "chi_square_fit_failed" in {f["code"] for f in fit["flags"]}
+    assert flagged >= 2   # the series with understated SDs are caught
     streamed = _ndjson(client, options, series)
     lines = [orjson.loads(line) for line in streamed.data.splitlines()]
     assert [line["fit"] for line in lines[:-1]] == [r["fit"] for r in results]

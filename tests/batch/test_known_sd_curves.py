@@ -24,7 +24,6 @@ import numpy as np
 import pytest
 from scipy import stats
 
-from service.core.batch import curves
 from service.core.batch.curves import fit_many_curves
 from service.core.errors import FitError
 from service.core.families import fit_series as family_fit
@@ -47,25 +46,6 @@ def known_sd_curves(name: str, count: int, seed: int):
     series = make(np.random.default_rng(seed), count)
     return [(x, y, np.full(x.size, (3.0 if i % 3 == 2 else 1.0) ** 2 / sd ** 2))
             for i, (x, y) in enumerate(series)]
-
-
-class _NoSingleFit:
-    """A family whose single fit fails: any row the compiled engine leaves is an error."""
-
-    def __init__(self, entry):
-        self._entry = entry
-
-    def __getattr__(self, name):
-        return getattr(self._entry, name)
-
-    def fit(self, *args, **kwargs):
-        raise AssertionError("the batch fell back to the single fit")
-
-
-@pytest.fixture
-def compiled_only(monkeypatch):
-    real = curves.family
-    monkeypatch.setattr(curves, "family", lambda name, **kw: _NoSingleFit(real(name, **kw)))
 
 
 def _flat(series):
