@@ -14,6 +14,7 @@ import pytest
 from service.core import ModelSpec
 from service.core.batch.driver import fit_batch
 from service.core.batch.frames import fit_frame
+from service.core.errors import DataError
 from tests.batch.conftest import ragged_series
 
 MODEL = ModelSpec(max_degree=3, select="bic")
@@ -151,3 +152,16 @@ def test_arrow_stream_in_chunks_equals_fit_frame(tmp_path):
     back = pq.read_table(tmp_path / "fits.parquet").to_pandas(
         types_mapper={pa.int64(): pd.Int64Dtype()}.get)
     pd.testing.assert_frame_equal(back, fit_frame(frame, model=MODEL))
+
+
+@pytest.mark.parametrize("model", [MODEL, ModelSpec(family="exponential")])
+def test_a_row_without_id_is_named_not_a_numpy_error(model):
+    # Expected behaviour from the Arrow body of /v1/batch (service.core.batch.columnar), which
+    # refuses a null id the same way: a DataError naming the id column and the first such row.
+    frame = _long_frame(6)
+    frame["id"] = frame["id"].astype(object)
+    frame.loc[7, "id"] = None
+    with pytest.raises(DataError) as caught:
+        fit_frame(frame, model=model)
+    assert caught.value.field == "id"
+    assert "Row 7" in caught.value.message and "non-null id" in caught.value.fix

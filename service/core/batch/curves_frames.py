@@ -24,8 +24,10 @@ import numpy as np
 import pandas as pd
 import pyarrow as pa
 
+from service.core.batch.columnar import ID_FIX
 from service.core.batch.curves import fit_many_curves
 from service.core.batch.curves_results import CURVE_SCALARS, CurveBatchResult
+from service.core.errors import DataError
 from service.core.spec import FitOptions
 
 _OPTIONS = FitOptions()
@@ -37,6 +39,21 @@ def _numeric(series: pd.Series) -> np.ndarray:
     return pd.to_numeric(series, errors="coerce").to_numpy(dtype=float, na_value=np.nan)
 
 
+def group_codes(column: pd.Series, name: str) -> tuple[np.ndarray, pd.Index]:
+    """The series number of each row and the ids in order of first appearance.
+
+    Raises
+    ------
+    DataError
+        A row has no id (None, NaN): named with its row position, as the Arrow bodies are.
+    """
+    codes, uniques = pd.factorize(column, sort=False)
+    if len(codes) and codes.min() < 0:
+        row = int(np.flatnonzero(codes < 0)[0])
+        raise DataError(f"Row {row} has no id (null).", field=name, fix=ID_FIX)
+    return codes, uniques
+
+
 def fit_curve_frame(df: pd.DataFrame, id: str = "id", x: str = "x", y: str = "y",  # noqa: A002
                     weight: str | None = None, *, model, options: FitOptions = _OPTIONS,
                     workers: int = 1) -> pd.DataFrame:
@@ -45,7 +62,7 @@ def fit_curve_frame(df: pd.DataFrame, id: str = "id", x: str = "x", y: str = "y"
     See the module docstring for the columns; :func:`~service.core.batch.curves.fit_many_curves`
     for the fitting.
     """
-    codes, uniques = pd.factorize(df[id], sort=False) if len(df) else (np.empty(0, int), [])
+    codes, uniques = group_codes(df[id], id) if len(df) else (np.empty(0, int), [])
     order = np.argsort(codes, kind="stable")
     lengths = np.bincount(codes, minlength=len(uniques)) if len(df) else np.empty(0, int)
     xs = _numeric(df[x])[order]

@@ -19,7 +19,7 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
-from service.core.batch.curves_frames import fit_curve_frame
+from service.core.batch.curves_frames import fit_curve_frame, group_codes
 from service.core.batch.driver import fit_many
 from service.core.batch.results import BatchResult
 from service.core.batch.tidy import RESULT_SCALARS, result_table, table_frame
@@ -65,7 +65,7 @@ def fit_frame(df: pd.DataFrame, id: str = "id", x: str = "x", y: str = "y",  # n
     """
     if model.family != "polynomial":  # nonlinear families: tidy per-parameter columns
         return fit_curve_frame(df, id, x, y, weight, model=model, options=options, workers=workers)
-    codes, uniques = pd.factorize(df[id], sort=False)
+    codes, uniques = group_codes(df[id], id)
     order = np.argsort(codes, kind="stable")
     lengths = np.bincount(codes, minlength=len(uniques))
     xs = _numeric(df[x])[order]
