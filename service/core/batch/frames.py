@@ -62,6 +62,11 @@ def fit_frame(df: pd.DataFrame, id: str = "id", x: str = "x", y: str = "y",  # n
         ``flag_codes`` and ``flag_severities`` (``;``-joined, same order), ``severity``
         (the most severe: serious, caution, info, or none), and ``error_code``,
         ``error_field``, ``error``.
+
+    Raises
+    ------
+    DataError
+        A row has no id (None or NaN in ``df[id]``), named by its position.
     """
     if model.family != "polynomial":  # nonlinear families: tidy per-parameter columns
         return fit_curve_frame(df, id, x, y, weight, model=model, options=options, workers=workers)
