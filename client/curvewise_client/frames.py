@@ -83,7 +83,8 @@ def batch_frame(results: BatchResult | Iterable[BatchItem]):
     ``aic``, ``aicc``, ``bic``, ``press``); the residual tests (``shapiro_wilk_p``,
     ``breusch_pagan_p``, ``durbin_watson``, ``durbin_watson_p``, ``lack_of_fit_p``,
     ``chi_square_fit_p``: the goodness-of-fit test with weighting ``known_sd``, else None);
-    ``n_outliers``; ``coef_k`` and ``se_k`` for each power ``k`` of x; ``flag_codes`` and
+    ``n_outliers``; ``coef_k`` and ``se_k`` for each power ``k`` of x (nonlinear families:
+    ``est_<parameter>`` and ``se_<parameter>``, as the service's tidy tables); ``flag_codes`` and
     ``flag_severities`` (``;``-joined, same order) and ``severity`` (the most severe, or
     ``none``); ``error_code``, ``error_field`` (``;``-joined field paths) and ``error``.
     Missing values are None/NaN.
@@ -91,9 +92,11 @@ def batch_frame(results: BatchResult | Iterable[BatchItem]):
     items = results.results if isinstance(results, BatchResult) else list(results)
     rows = [_tidy_row(item) for item in items]
     powers = sorted({int(k[5:]) for row in rows for k in row if k.startswith("coef_")})
+    names = list(dict.fromkeys(k[4:] for row in rows for k in row if k.startswith("est_")))
     present = {k for row in rows for k in row}
     order = (["id", "status"] + [c for c in (*_SCALARS, *_TESTS, "n_outliers") if c in present]
              + [f"coef_{k}" for k in powers] + [f"se_{k}" for k in powers]
+             + [f"est_{name}" for name in names] + [f"se_{name}" for name in names]
              + [*_FLAGS, *_ERRORS])
     return _pandas().DataFrame(rows, columns=order)
 
@@ -122,15 +125,19 @@ def _tidy_row(item: BatchItem) -> dict[str, Any]:
             if "outliers" in diagnostics:
                 row["n_outliers"] = len(diagnostics["outliers"] or ())
             terms = [(c["term"], c["estimate"], c["std_error"]) for c in fit["coefficients"]]
+            polynomial = (fit.get("model") or {}).get("family", "polynomial") == "polynomial"
         else:                                           # the compact summary
             row.update({k: fit.get(k) for k in _SCALARS if k in fit})
             row.update({k: (fit.get("tests") or {}).get(k) for k in _TESTS})
             row["n_outliers"] = len(fit.get("outliers") or ())
-            terms = list(zip(fit.get("terms") or (), fit.get("estimate") or (),
-                             fit.get("std_error") or (), strict=False))
+            polynomial = "parameters" not in fit          # nonlinear: named parameters
+            terms = list(zip(fit.get("terms") or fit.get("parameters") or (),
+                             fit.get("estimate") or (), fit.get("std_error") or (),
+                             strict=False))
         for term, estimate, std_error in terms:
-            row[f"coef_{_power(term)}"] = estimate
-            row[f"se_{_power(term)}"] = std_error
+            key = _power(term) if polynomial else term
+            row[f"{'coef' if polynomial else 'est'}_{key}"] = estimate
+            row[f"se_{key}"] = std_error
         flags = fit.get("flags") or ()
         row["flag_codes"] = ";".join(f["code"] for f in flags)
         row["flag_severities"] = ";".join(f["severity"] for f in flags)

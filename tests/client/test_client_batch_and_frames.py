@@ -103,3 +103,42 @@ def test_an_error_in_the_callers_iterator_surfaces_as_itself(api):
     with pytest.raises(_Boom):
         with api.batch_stream(series(), model={"degree": 1}) as stream:
             list(stream)
+
+
+def _decay_series(count: int, seed: int = 21):
+    rng = np.random.default_rng(seed)
+    out = []
+    for i in range(count):
+        x = np.linspace(0.0, 6.0, 15)
+        y = 1.0 + (5.0 + i) * np.exp(-(0.6 + 0.1 * i) * x) + rng.normal(0, 0.05, x.size)
+        out.append({"id": f"d{i}", "x": x, "y": y})
+    return out
+
+
+def _decay_oracle(item):
+    """scipy's curve_fit (an outside least-squares solver) on y0, plateau, k."""
+    from scipy.optimize import curve_fit
+
+    def curve(x, y0, plateau, k):
+        return plateau + (y0 - plateau) * np.exp(-k * x)
+
+    params, cov = curve_fit(curve, item["x"], item["y"], p0=[5.0, 1.0, 0.5])
+    return params, np.sqrt(np.diag(cov))
+
+
+@pytest.mark.parametrize("detail", ["summary", "full"])
+def test_long_frame_of_a_nonlinear_family_has_its_parameters(api, detail):
+    # The tidy columns of a nonlinear batch are est_<parameter> and se_<parameter>, as the
+    # service's own frames name them (service/core/batch/curves_frames.py, docs/scaling.md).
+    series = _decay_series(3)
+    long = pd.DataFrame([{"id": s["id"], "x": xi, "y": yi}
+                         for s in series for xi, yi in zip(s["x"], s["y"], strict=True)])
+    out = frames.fit_long_frame(api, long, model={"family": "exponential"}, detail=detail)
+    assert (out["status"] == "ok").all()
+    for row, item in zip(out.itertuples(), series, strict=True):
+        estimates, errors = _decay_oracle(item)
+        got = [getattr(row, f"est_{name}") for name in ("y0", "plateau", "k")]
+        np.testing.assert_allclose(got, estimates, rtol=1e-5)
+        got = [getattr(row, f"se_{name}") for name in ("y0", "plateau", "k")]
+        np.testing.assert_allclose(got, errors, rtol=1e-4)
+
