@@ -15,6 +15,7 @@ from collections.abc import Iterable, Mapping
 from dataclasses import asdict, fields
 from typing import Any
 
+from curvewise_client.errors import InputError
 from curvewise_client.results import BatchItem, BatchResult, Estimates, FitResult, Predictions
 
 
@@ -153,7 +154,15 @@ def _tidy_row(item: BatchItem) -> dict[str, Any]:
 
 def series_from_long_frame(frame, *, id: str = "id", x: str = "x", y: str = "y",
                            weight: str | None = None) -> list[dict[str, Any]]:
-    """Series objects for :meth:`Client.batch` from a long frame (one row per point)."""
+    """Series objects for :meth:`Client.batch` from a long frame (one row per point).
+
+    Raises :class:`InputError` when a row has no id (None or NaN): it belongs to no series.
+    """
+    missing = frame[id].isna().to_numpy()
+    if missing.any():
+        row = int(missing.argmax())
+        raise InputError(f"row {row} of the frame has no {id!r} (null): every row needs the id "
+                         "of its series; fill or drop it before sending")
     series = []
     for key, group in frame.groupby(id, sort=False):
         item = {"id": key.item() if hasattr(key, "item") else key,

@@ -142,3 +142,14 @@ def test_long_frame_of_a_nonlinear_family_has_its_parameters(api, detail):
         got = [getattr(row, f"se_{name}") for name in ("y0", "plateau", "k")]
         np.testing.assert_allclose(got, errors, rtol=1e-4)
 
+
+def test_long_frame_rows_without_id_are_refused_before_sending(api):
+    # A row without an id has no series to go to: the service's own frame and table entries
+    # refuse it naming the row (service.core.batch.columnar), so the client does too.
+    from curvewise_client import InputError
+
+    long = pd.DataFrame({"id": ["a"] * 4 + [None] + ["b"] * 4,
+                         "x": [1.0, 2, 3, 4, 5] + [1, 2, 3, 4],
+                         "y": [1.0, 2, 3, 5, 9] + [2, 3, 5, 6]})
+    with pytest.raises(InputError, match="row 4"):
+        frames.fit_long_frame(api, long, model={"degree": 1})
