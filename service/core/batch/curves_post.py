@@ -77,7 +77,7 @@ def finish(out: dict, rows, stats: np.ndarray, n: np.ndarray, p: int,
     cols["relative_offset"][rows] = stats[:, S["relative_offset"]]
     for name in ("durbin_watson", "durbin_watson_p", "breusch_pagan", "breusch_pagan_p",
                  "lack_of_fit_f", "shapiro_wilk", "shapiro_wilk_p"):
-        cols[name][rows] = stats[:, S[name]]
+        cols[name][rows] = np.where((df >= 2) | ("lack" in name), stats[:, S[name]], np.nan)
     cols["lack_of_fit_p"][rows] = lof_p
     for name in ("n_outliers", "n_influential", "n_high_leverage"):
         cols[name][rows] = stats[:, S[name]].astype(np.int64)

@@ -56,16 +56,23 @@ def shapiro_coefficients(n: int, tested: bool) -> np.ndarray:
     return shapiro_weights(n) if tested and 3 <= n <= SHAPIRO_MAX_N else NO_WEIGHTS
 
 
+ONE_DF = ("one residual degree of freedom: the residuals are one fixed vector times a scale, "
+          "so the test would judge the x design, not the data")
+
+
 def formal_tests(tested: bool, exact: bool, n: int, sw: tuple, bp: TestResult,
-                 dw: TestResult) -> tuple[TestResult, ...]:
+                 dw: TestResult, df: int = 2) -> tuple[TestResult, ...]:
     """Shapiro-Wilk, Breusch-Pagan and Durbin-Watson results, or why they were not run.
 
     ``sw`` is ``(status, w, p)`` from :func:`service.core.checks.kernels.residual_tests`;
-    ``dw`` comes from :func:`durbin_watson_result`.
+    ``dw`` comes from :func:`durbin_watson_result`. With ``df`` = 1 residual degree of
+    freedom the tests are not run: every scale-free statistic of the residuals is then fixed
+    by the design (three evenly spaced points always give Shapiro-Wilk's smallest W, 0.75).
     """
-    if tested:
+    if tested and df >= 2:
         return (shapiro_result(*sw, n), bp, dw)
-    why = "exact fit: residuals are rounding noise" if exact else "no residual df"
+    why = ("exact fit: residuals are rounding noise" if exact else ONE_DF if tested
+           else "no residual df")
     return tuple(TestResult(name, NAN, NAN, None, f"not computed ({why})")
                  for name in ("shapiro_wilk", "breusch_pagan", "durbin_watson"))
 
@@ -166,7 +173,7 @@ def residual_diagnostics(index: np.ndarray, x: np.ndarray, e: np.ndarray, h: np.
     else:
         dw_row = durbin_watson_result(dw, durbin_watson.p_value_one(
             dw, n - p, *durbin_watson.bound_traces(n, p)), note=durbin_watson.NOTE_BOUND)
-    tests = formal_tests(tested, exact, n, (status, w, w_p), bp, dw_row)
+    tests = formal_tests(tested, exact, n, (status, w, w_p), bp, dw_row, df)
     cuts = cut_offs(n, p, df)
     flagged = (checks_kernels.positions(index, out[3], cuts[0], True),
                checks_kernels.positions(index, out[1], cuts[1], False) if n > p else index[:0],

@@ -66,7 +66,7 @@ def diagnose(index: np.ndarray, x: np.ndarray, dec: Decomposition, degree: int, 
         out, sums, p, bp_rinv, tested, shapiro_coefficients(n, tested), index, cuts)
     dw_row = durbin_watson_result(dw, dw_p) if tested else None
     tests = formal_tests(tested, exact, n, (status, w, w_p), _breusch_pagan(n, degree, lm, lm_p),
-                         dw_row)
+                         dw_row, df)
     lof = lack_of_fit(x, dec.zw, dec.sqrt_w, rss, p, distinct)
     return assemble(index, out, dec.sqrt_w, tests, lof, (outliers, high, infl), cuts, n, p)
 
