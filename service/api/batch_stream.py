@@ -130,7 +130,13 @@ class _Stream:
             yield from self._truncate(line_no)
             return
         self.points += points
-        if obj is not None:
+        if isinstance(obj, dict) and set(obj) == {"options"}:   # only the first line's is read
+            message = (f"Line {line_no} is an options line, but options are read only from the "
+                       "first line: these were not applied. Move the line to the top.")
+            item = (self.lines - 1, problem_body(422, None, message,
+                                                 errors={"options": [message]},
+                                                 code="validation_error"))
+        elif obj is not None:
             item = self.job.series(obj, self.lines - 1)
         if isinstance(item[1], dict) and not self.series_pending:
             yield _line({"line": line_no, **self.job.error_results([item])[0]})

@@ -112,6 +112,17 @@ def test_ndjson_survives_a_broken_line_and_keeps_order(client):
     assert [r["fit"] for r in ok] == [r["fit"] for r in json_body["results"]]
 
 
+
+def test_ndjson_options_line_after_a_series_is_named_as_such(client):
+    # docs/scaling.md: "an optional first line {"options": {...}}"; one further down is not
+    # read, and its answer says so (not "Unknown field"), the other lines still fitted
+    series = _series(2)
+    out = _ndjson(client, [series[0], {"options": {"model": {"degree": 1}}}, series[1]])
+    assert [r["status"] for r in out[:-1]] == ["ok", "error", "ok"]
+    error = out[1]["error"]
+    assert error["status"] == 422 and list(error["errors"]) == ["options"]
+    assert "first line" in error["detail"] and "not applied" in error["detail"]
+
 def test_summary_counts_series_by_their_most_severe_flag(client):
     # seeded invented series: two clean quadratics (at most info flags expected), one with
     # an absurd spike (outliers: caution), one interpolated exactly (no_residual_df: serious)
