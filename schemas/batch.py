@@ -13,7 +13,7 @@ from marshmallow import fields, validate
 from schemas.common import MISSING_POLICIES, SECTIONS, WEIGHTINGS, StrictSchema
 from schemas.fields import PassThroughArray, StrictFloat, StrictString, one_of_message
 from schemas.fit import GridSchema, ModelSchema
-from schemas.model_field import ModelField
+from schemas.model_field import BATCH_COMPARISON, ModelField
 
 DETAILS = ("summary", "full")
 _MODEL = ModelSchema()
@@ -26,7 +26,8 @@ class BatchRequestSchema(StrictSchema):
         "description": "The series (see Series). Each is checked on its own: a bad series "
                        "gets an error result, the others are fitted.",
         "items": {"$ref": "#/components/schemas/Series"}})
-    model = ModelField(comparisons=False, load_default=lambda: _MODEL.load({}), metadata={
+    model = ModelField(comparisons=False, refusal=BATCH_COMPARISON,
+                       load_default=lambda: _MODEL.load({}), metadata={
         "description": "The shared model (as in /v1/fit: a polynomial, a built-in nonlinear "
                        "family with automatic start values for every series, or an expression "
                        "with its start values). Default: degree chosen from 1..3 by "

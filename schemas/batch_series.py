@@ -15,13 +15,13 @@ from marshmallow import ValidationError, fields
 
 from schemas.common import UNKNOWN_FIELD, StrictSchema
 from schemas.fields import NumberArray
-from schemas.model_field import ModelField, misplaced_model_options
+from schemas.model_field import BATCH_COMPARISON, ModelField, misplaced_model_options
 
 SERIES_FIELDS = ("id", "x", "y", "weights", "model")
 _X = NumberArray(allow_null_items=True, data=True)
 _Y = NumberArray(allow_null_items=True, data=True)
 _W = NumberArray(allow_null_items=True, allow_none=True, data=True)
-_MODEL_FIELD = ModelField(comparisons=False)
+_MODEL_FIELD = ModelField(comparisons=False, refusal=BATCH_COMPARISON)
 
 
 class SeriesSchema(StrictSchema):
@@ -36,7 +36,7 @@ class SeriesSchema(StrictSchema):
                     metadata={"description": "Response values, same length as x."})
     weights = NumberArray(allow_none=True, allow_null_items=True, metadata={
         "description": "Optional inverse variances (1/sd^2), same length as x."})
-    model = ModelField(comparisons=False, metadata={
+    model = ModelField(comparisons=False, refusal=BATCH_COMPARISON, metadata={
         "description": "This series' own model (any family /v1/fit accepts); overrides the "
                        "shared model."})
 

@@ -26,6 +26,10 @@ COMPARE_RULES = ("aicc", "aic", "bic", "f_test")
 MAX_CANDIDATES = 8
 
 
+NESTED_COMPARISON = "A candidate cannot hold candidates. List plain model objects."
+BATCH_COMPARISON = ("A batch fits one model per series and does not compare candidates. Give "
+                    "one model object here, or compare candidates series by series with /v1/fit.")
+
 _LOADERS: dict[type[Schema], Schema] = {}
 
 
@@ -47,8 +51,9 @@ class ModelField(fields.Field):
     """A model object, loaded by the schema its ``family`` names (default: polynomial);
     with ``candidates`` (and ``comparisons`` allowed), a comparison of several."""
 
-    def __init__(self, *, comparisons: bool = True, **kwargs):
+    def __init__(self, *, comparisons: bool = True, refusal: str = NESTED_COMPARISON, **kwargs):
         metadata = dict(kwargs.pop("metadata", {}))
+        self.refusal = refusal   # the answer to candidates where comparisons are not allowed
         refs = list(MODEL_SCHEMAS.values()) + ([CandidatesSchema] if comparisons else [])
         metadata["oneOf"] = [{"$ref": f"#/components/schemas/{component_name(s)}"}
                              for s in refs]
@@ -60,8 +65,7 @@ class ModelField(fields.Field):
             raise ValidationError("Must be a JSON object.")
         if "candidates" in value:
             if not self.comparisons:
-                raise ValidationError({"candidates": ["A candidate cannot hold candidates. "
-                                                      "List plain model objects."]})
+                raise ValidationError({"candidates": [self.refusal]})
             return _loader(CandidatesSchema).load(value)
         family = value.get("family", "polynomial")
         schema = MODEL_SCHEMAS.get(family) if isinstance(family, str) else None

@@ -259,3 +259,17 @@ def test_a_series_with_an_invalid_id_gets_its_position_as_id(client):
     body = _post(client, {"series": series, "model": MODEL}).get_json()
     assert body["results"][1]["id"] == 1
     assert body["results"][1]["error"]["errors"] == {"id": ["Must be a string or an integer."]}
+
+
+def test_a_comparison_in_a_batch_is_refused_as_a_batch_limit(client):
+    # README: a batch model is "any model /v1/fit accepts" but one per series (docs/scaling.md);
+    # the refusal must say that, not call the batch's model a candidate
+    compare = {"candidates": [{"degree": 1}, {"degree": 2}]}
+    series = _series(2)
+    shared = _post(client, {"series": series, "model": compare})
+    assert shared.status_code == 422
+    own = _post(client, {"series": [{**series[0], "model": compare}, series[1]]}).get_json()
+    assert [r["status"] for r in own["results"]] == ["error", "ok"]
+    for errors in (shared.get_json()["errors"], own["results"][0]["error"]["errors"]):
+        (message,) = errors["model.candidates"]
+        assert "candidate cannot hold" not in message and "/v1/fit" in message
