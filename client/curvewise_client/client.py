@@ -201,7 +201,9 @@ class Client(Caller):
         and working-range keywords are the request members of the same name.
         """
         if replicates is not None and not isinstance(replicates, int):
-            replicates = numbers(replicates, "replicates")
+            replicates = (numbers([replicates], "replicates")[0]   # one numpy count for all
+                          if getattr(replicates, "ndim", None) == 0
+                          else numbers(replicates, "replicates"))
         body = {"fitted_model": document(fitted_model), "y": numbers(y, "y"),
                 **drop_none(replicates=replicates, level=level,
                             detection_alpha=detection_alpha, detection_beta=detection_beta,

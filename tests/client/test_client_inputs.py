@@ -60,6 +60,16 @@ def test_array_likes_are_sent_as_plain_numbers_with_missing_as_null(values, expe
     assert _sent(values) == expected
 
 
+
+@pytest.mark.parametrize("count", [np.int64(3), np.int32(3), np.array(3)])
+def test_one_numpy_count_for_every_reading_is_sent_as_a_number(count):
+    # /v1/invert takes replicates as "one integer for all" (docs/fitted-model.md); the
+    # README says numpy scalars are sent as plain numbers
+    app = RecordingApp()
+    _client(app).invert({"n": 1}, [1.0, 2.0], replicates=count)
+    assert json.loads(app.bodies[0])["replicates"] == 3
+
+
 def test_numpy_scalars_in_options_and_documents_are_sent_as_numbers():
     app = RecordingApp()
     _client(app).invert({"n": np.int64(3)}, np.array([1.0]),
