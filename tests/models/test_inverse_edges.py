@@ -111,3 +111,21 @@ def test_exact_fit_without_residual_df_gives_x_but_no_interval():
     roots = np.roots(np.polyfit(x, y, 2) - [0, 0, 2.5]).real
     np.testing.assert_allclose(estimate.x, roots[(roots >= 1) & (roots <= 4)][0], rtol=1e-12)
     assert estimate.status == "interval_undefined" and np.isnan(estimate.lower)
+
+
+def test_a_reading_outside_a_stored_transform_says_what_to_send():
+    # The transform of a stored model is fixed: the fix may not tell the caller to "choose
+    # transform_y" (a /v1/fit option) but what readings the model can take (invented data).
+    from service.core import TransformError, predict
+
+    x = np.linspace(1.0, 8.0, 8)
+    model = fit_model(x, np.exp(0.5 * x) * (1 + 0.01 * np.sin(7 * x)), 1,
+                      transform_x="log", transform_y="log")
+    with pytest.raises(TransformError) as caught:
+        invert(model, [5.0, -1.0])
+    assert caught.value.field == "y[1]"
+    assert "transform_y" not in caught.value.fix and "log" in caught.value.fix
+    with pytest.raises(TransformError) as caught:
+        predict(model, [2.0, 0.0])
+    assert caught.value.field == "x[1]"
+    assert "transform_x" not in caught.value.fix and "log" in caught.value.fix

@@ -55,7 +55,7 @@ def domain_words(name: str) -> str:
 
 
 def apply(name: str, values: np.ndarray, *, field: str,
-          index: np.ndarray | None = None) -> np.ndarray:
+          index: np.ndarray | None = None, stored: bool = False) -> np.ndarray:
     """Apply transform ``name`` to ``values`` after checking its domain.
 
     Parameters
@@ -69,6 +69,9 @@ def apply(name: str, values: np.ndarray, *, field: str,
     index : ndarray of int, optional
         Original positions of ``values`` (after dropping), so an error names
         the caller's index.
+    stored : bool
+        The transform is a stored model's (predict, invert): the fix then says which
+        values that model takes, not to choose another transform.
 
     Raises
     ------
@@ -87,8 +90,10 @@ def apply(name: str, values: np.ndarray, *, field: str,
             f"{field}[{orig}] = {float(values[pos])!r} is outside the domain of the {name} "
             f"transform (values must be {words}).{also_at(originals)}",
             field=f"{field}[{orig}]",
-            fix=f"Remove or correct that value, or choose transform_{field} = \"none\" "
-                f"or another transform whose domain covers your data.")
+            fix=(f"The stored model was fitted on the {name} of {field}: send only values "
+                 f"that are {words}, or refit with another transform." if stored else
+                 f"Remove or correct that value, or choose transform_{field} = \"none\" "
+                 f"or another transform whose domain covers your data."))
     with np.errstate(all="ignore"):
         return _FORWARD[name](values)
 

@@ -125,7 +125,7 @@ def invert(fitted: FittedPolynomial, y, *, replicates=1, level: float | None = N
 
 def _invert(fitted: FittedPolynomial, y: np.ndarray, m: np.ndarray, level: float) -> Inversion:
     curve = CalibrationCurve(fitted, level)
-    y_fit = transforms.apply(fitted.transform_y, y, field="y")
+    y_fit = transforms.apply(fitted.transform_y, y, field="y", stored=True)
     if not np.all(np.isfinite(y_fit)):
         bad = int(np.flatnonzero(~np.isfinite(y_fit))[0])
         raise DataError(f"y[{bad}] = {float(y[bad])!r} is not finite after the "

@@ -98,7 +98,7 @@ def _predict(fitted: FittedPolynomial, x, level: float | None, m: int) -> Predic
         i = int(np.flatnonzero(~np.isfinite(xs))[0])
         raise DataError(f"x[{i}] is not a finite number.", field=f"x[{i}]",
                         fix="Predict only at finite x values.")
-    u = transforms.apply(fitted.transform_x, xs, field="x")
+    u = transforms.apply(fitted.transform_x, xs, field="x", stored=True)
     return _evaluate(fitted, xs, u, level, m, np.array(fitted.basis_coefficients, dtype=float),
                      np.array(fitted.r_factor, dtype=float))
 
