@@ -8,7 +8,7 @@ per-series summary is written by :mod:`schemas.batch_summary`.
 
 from __future__ import annotations
 
-from marshmallow import fields, validate
+from marshmallow import ValidationError, fields, validate, validates_schema
 
 from schemas.common import MISSING_POLICIES, SECTIONS, WEIGHTINGS, StrictSchema
 from schemas.fields import PassThroughArray, StrictFloat, StrictString, one_of_message
@@ -60,6 +60,17 @@ class BatchRequestSchema(StrictSchema):
                        "grid)."})
     grid = fields.Nested(GridSchema, allow_none=True, load_default=None, metadata={
         "description": "Grid of each full report (detail=full only; default none)."})
+
+    @validates_schema
+    def _full_only(self, data, **kwargs):
+        """include and grid shape the full report; a summary has neither, so sending them
+        without detail "full" would be silently ignored."""
+        if data.get("detail", "summary") == "full":
+            return
+        for name in ("include", "grid"):
+            if data.get(name) is not None:
+                raise ValidationError(f"{name} applies only to the full report of each series. "
+                                      f"Add \"detail\": \"full\", or remove {name}.", name)
 
 
 class OptionsLineSchema(BatchRequestSchema):

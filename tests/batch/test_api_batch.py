@@ -273,3 +273,15 @@ def test_a_comparison_in_a_batch_is_refused_as_a_batch_limit(client):
     for errors in (shared.get_json()["errors"], own["results"][0]["error"]["errors"]):
         (message,) = errors["model.candidates"]
         assert "candidate cannot hold" not in message and "/v1/fit" in message
+
+
+@pytest.mark.parametrize("member", [{"include": ["coefficients"]}, {"grid": {"count": 5}}])
+def test_full_report_options_without_full_detail_are_refused(client, member):
+    # /v1/batch documents include and grid as "detail=full only"; a summary has neither, so
+    # sending them with the default detail was silently ignored: a 422 naming the member
+    (name,) = member
+    answer = _post(client, {"series": _series(2), **member})
+    assert answer.status_code == 422
+    (message,) = answer.get_json()["errors"][name]
+    assert '"detail": "full"' in message
+    assert _post(client, {"series": _series(2), "detail": "full", **member}).status_code == 200
