@@ -120,7 +120,7 @@ class _Stream:
         try:
             obj = orjson.loads(raw)
         except orjson.JSONDecodeError as exc:
-            obj, item = None, (None, problem_body(
+            obj, item = None, (self.lines - 1, problem_body(   # id: its position, the default
                 400, None, f"Line {line_no} is not valid JSON: {exc}. Send one JSON object "
                 "per line.", errors={"_body": ["Send one JSON object per line."]},
                 code="invalid_json"))

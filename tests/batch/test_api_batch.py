@@ -285,3 +285,12 @@ def test_full_report_options_without_full_detail_are_refused(client, member):
     (message,) = answer.get_json()["errors"][name]
     assert '"detail": "full"' in message
     assert _post(client, {"series": _series(2), "detail": "full", **member}).status_code == 200
+
+
+def test_an_unreadable_ndjson_line_gets_its_position_as_id(client):
+    # Series documentation (schemas/batch_series.py): id defaults to "the series' position";
+    # a line that is not JSON, or not an object, has no id of its own, so both get that default
+    series = _series(3)
+    out = _ndjson(client, [series[0], b'{"id": "oops", "x": [1, 2', b"[1, 2]", series[1]])
+    assert [(r["line"], r["id"], r["status"]) for r in out[:-1]] == [
+        (1, series[0]["id"], "ok"), (2, 1, "error"), (3, 2, "error"), (4, series[1]["id"], "ok")]
