@@ -107,3 +107,22 @@ def test_a_degree_the_caller_fixed_is_still_named(client):
         "x": [2.0, 2.0, 2.0], "y": [1.0, 2.0, 3.0], "model": {"degree": 1}}), 422,
         "insufficient_design", "model.degree")
     assert "at most 0" in problem["detail"]
+
+
+@pytest.mark.parametrize("model, key", [
+    ({"family": "expression", "expression": "a*x^b", "parameters": {"a": 1, "b": 1e308}},
+     "model.parameters"),
+    ({"family": "expression", "expression": "a*log(x - b)", "parameters": {"a": 1, "b": 5}},
+     "model.parameters"),
+    ({"family": "expression", "expression": "a*sqrt(x - b)", "parameters": {"a": 1, "b": 1}},
+     "model.parameters"),
+])
+def test_start_value_refusals_read_as_sentences(client, model, key):
+    # the detail is "<message> Fix: <fix>": the message must end its sentence and the fix
+    # start one (it read "... makes it finite Fix: change the start value of b ...")
+    problem = assert_problem(post_json(client, "/v1/fit", {"x": X[:8], "y": Y[:8],
+                                                          "model": model}),
+                             422, "invalid_spec", key)
+    message, fix = problem["detail"].split(" Fix: ")
+    assert message[0].isupper() and message.endswith("."), message
+    assert fix[0].isupper() and fix.endswith("."), fix

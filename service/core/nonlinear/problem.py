@@ -92,8 +92,8 @@ def make_problem(model, x, y, *, weights=None, lower=None, upper=None) -> Proble
     """Validate the data, weights and bounds; raise typed errors naming the field."""
     names = tuple(getattr(model, "parameter_names", ()))
     if not names or len(set(names)) != len(names) or not all(isinstance(s, str) for s in names):
-        raise SpecError("the model needs at least one parameter, with distinct names",
-                        field="model.parameters", fix="name every parameter once")
+        raise SpecError("The model needs at least one parameter, with distinct names.",
+                        field="model.parameters", fix="Name every parameter once.")
     p = len(names)
     y_arr = _vector(y, "y", "y")
     n = y_arr.size
@@ -131,9 +131,9 @@ def make_problem(model, x, y, *, weights=None, lower=None, upper=None) -> Proble
     clash = np.flatnonzero(~(lo < hi))
     if clash.size:
         j = clash[0]
-        raise SpecError(f"the lower bound of {names[j]} ({lo[j]}) is not below its upper "
-                        f"bound ({hi[j]})", field="model.lower",
-                        fix=f"give {names[j]} a lower bound below its upper bound")
+        raise SpecError(f"The lower bound of {names[j]} ({lo[j]}) is not below its upper "
+                        f"bound ({hi[j]}).", field="model.lower",
+                        fix=f"Give {names[j]} a lower bound below its upper bound.")
     with np.errstate(all="ignore"):
         sw = np.sqrt(w)
     x_arr.setflags(write=False)
@@ -162,30 +162,30 @@ def check_start(problem: Problem, start) -> tuple[np.ndarray, np.ndarray, np.nda
     names = problem.parameter_names
     theta = _vector(start, "start values", "model.parameters", SpecError)
     if theta.size != problem.p or not np.isfinite(theta).all():
-        raise SpecError(f"need {problem.p} finite start values for {', '.join(names)}",
-                        field="model.parameters", fix="give every parameter a finite start value")
+        raise SpecError(f"Need {problem.p} finite start values for {', '.join(names)}.",
+                        field="model.parameters", fix="Give every parameter a finite start value.")
     for side, bound, outside in (("lower", problem.lower, theta < problem.lower),
                                  ("upper", problem.upper, theta > problem.upper)):
         if outside.any():
             j = int(np.flatnonzero(outside)[0])
-            raise SpecError(f"the start value of {names[j]} ({theta[j]:.6g}) is outside its "
-                            f"{side} bound ({bound[j]:.6g})", field=f"model.{side}",
-                            fix=f"move the start value of {names[j]} inside its bounds")
+            raise SpecError(f"The start value of {names[j]} ({theta[j]:.6g}) is outside its "
+                            f"{side} bound ({bound[j]:.6g}).", field=f"model.{side}",
+                            fix=f"Move the start value of {names[j]} inside its bounds.")
     f, jac = problem.values_and_jacobian(theta)
     shown = ", ".join(f"{s}={v:.6g}" for s, v in zip(names, theta, strict=True))
     if f is None:
         hint = _single_changes(problem, theta)
-        raise SpecError(f"the model is not finite at the start values ({shown}) for some x"
-                        + (f"; changing {hint} alone makes it finite" if hint else ""),
+        raise SpecError(f"The model is not finite at the start values ({shown}) for some x"
+                        + (f"; changing {hint} alone makes it finite." if hint else "."),
                         field="model.parameters",
-                        fix=f"change the start value of {hint}" if hint else
-                        "change the start values so the model is finite at every x")
+                        fix=f"Change the start value of {hint}." if hint else
+                        "Change the start values so the model is finite at every x.")
     if jac is None:
         bad = _bad_columns(problem, theta)
         which = ", ".join(bad) if bad else ", ".join(names)
-        raise SpecError(f"the model's derivatives with respect to {which} are not finite at "
-                        f"the start values ({shown})", field="model.parameters",
-                        fix=f"change the start value of {which}")
+        raise SpecError(f"The model's derivatives with respect to {which} are not finite at "
+                        f"the start values ({shown}).", field="model.parameters",
+                        fix=f"Change the start value of {which}.")
     return theta, f, jac
 
 
