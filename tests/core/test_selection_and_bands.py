@@ -117,3 +117,17 @@ def test_prediction_overflow_far_outside_the_data_is_nan_not_inf():
     pr = predict(fitted, [1.0, 1e120])
     assert np.isfinite(pr.fit[0]) and np.isnan(pr.fit[1]) and np.isnan(pr.obs_upper[1])
     assert pr.extrapolated.tolist() == [False, True]
+
+
+@pytest.mark.parametrize("start, stop, step", [(0.1, 0.7, 0.2), (0.0, 0.3, 0.1),
+                                               (1.0, 2.1, 0.1), (-0.7, -0.1, 0.2)])
+def test_a_step_grid_ending_on_the_data_ends_exactly_there(start, stop, step):
+    # start + 3 * 0.2 is 0.7000000000000001 in doubles (Python's own arithmetic): the last
+    # grid point must be the stop asked for, not past the data, which flagged it extrapolated
+    x = np.linspace(start, stop, 7)
+    y = 1.0 + 2.0 * x + np.random.default_rng(3).normal(0.0, 0.1, 7)
+    report = fit_series(x, y, model=ModelSpec(degree=1),
+                        options=FitOptions(grid=GridSpec(start=start, stop=stop, step=step)))
+    assert report.grid.x[-1] == stop
+    assert not report.grid.extrapolated.any()
+    assert "extrapolation" not in {f.code for f in report.flags}

@@ -57,7 +57,10 @@ def grid_points(spec: GridSpec, x_min: float, x_max: float, max_points: int) -> 
         if span + 1 > max_points:
             _check_size(math.floor(span) + 1, max_points, "grid.step")
         count = int(math.floor(span * (1 + 1e-12) + 1e-9)) + 1
-        return start + step * np.arange(count)
+        xs = start + step * np.arange(count)
+        if count > 1 and abs(span - (count - 1)) <= 1e-9 * max(span, 1.0):
+            xs[-1] = stop   # stop falls on the step: exactly stop, never a rounding past it
+        return xs
     count = DEFAULT_COUNT if spec.count is None else spec.count
     if isinstance(count, bool) or int(count) != count or count < 1:
         raise SpecError(f"grid.count = {count!r} is not a positive whole number.",
