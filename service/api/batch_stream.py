@@ -31,7 +31,7 @@ from marshmallow import ValidationError
 from schemas.batch import OptionsLineSchema
 from service.api.batch_job import BatchJob, gc_paused
 from service.api.body import spool_body
-from service.api.parsing import BOM
+from service.api.parsing import BOM, non_json_number_hint
 from service.core.interrupt import checkpoint
 from service.http.errors import ServiceLimitError, flatten_errors, problem_body, timeout_message
 from service.http.jsonio import dumps_bytes
@@ -121,8 +121,9 @@ class _Stream:
             obj = orjson.loads(raw)
         except orjson.JSONDecodeError as exc:
             obj, item = None, (self.lines - 1, problem_body(   # id: its position, the default
-                400, None, f"Line {line_no} is not valid JSON: {exc}. Send one JSON object "
-                "per line.", errors={"_body": ["Send one JSON object per line."]},
+                400, None, f"Line {line_no} is not valid JSON: {exc}."
+                f"{non_json_number_hint(exc, raw)} Send one JSON object per line.",
+                errors={"_body": ["Send one JSON object per line."]},
                 code="invalid_json"))
         points = len(obj["x"]) if isinstance(obj, dict) and isinstance(obj.get("x"), list) else 0
         if (self.lines > self.settings.max_series

@@ -31,6 +31,16 @@ def json_text(req) -> bytes:
     return data[len(BOM):] if data.startswith(BOM) else data
 
 
+def non_json_number_hint(error, data: bytes) -> str:
+    """What to send instead, when ``error`` stopped at a NaN or Infinity token, else ""."""
+    position = getattr(error, "pos", None)
+    near = data[position:position + 9] if isinstance(position, int) else b""
+    if near.startswith(_NON_JSON_TOKENS) or near.lstrip(b"-").startswith(_NON_JSON_TOKENS):
+        return (" NaN and Infinity are not JSON numbers: send null for a missing value "
+                "(with \"missing\": \"drop\"), or remove the point.")
+    return ""
+
+
 class OrjsonParser(FlaskParser):
     """webargs' Flask parser with orjson decoding and media-type checks."""
 
@@ -52,12 +62,9 @@ class OrjsonParser(FlaskParser):
 
     def _handle_invalid_json_error(self, error, req, *args, **kwargs):
         message = f"The body is not valid JSON: {error}."
-        data = json_text(req)
-        position = getattr(error, "pos", None)
-        near = data[position:position + 9] if isinstance(position, int) else b""
-        if near.startswith(_NON_JSON_TOKENS) or near.lstrip(b"-").startswith(_NON_JSON_TOKENS):
-            message += (" NaN and Infinity are not JSON numbers: send null for a missing value "
-                        "(with \"missing\": \"drop\"), or remove the point.")
+        hint = non_json_number_hint(error, json_text(req))
+        if hint:
+            message += hint
         elif isinstance(error, UnicodeDecodeError) or "UTF-8" in str(error):
             message = "The body is not valid UTF-8 text. Encode the JSON as UTF-8."
         abort(400, message=message, errors={"_body": [message]}, code="invalid_json")

@@ -294,3 +294,12 @@ def test_an_unreadable_ndjson_line_gets_its_position_as_id(client):
     out = _ndjson(client, [series[0], b'{"id": "oops", "x": [1, 2', b"[1, 2]", series[1]])
     assert [(r["line"], r["id"], r["status"]) for r in out[:-1]] == [
         (1, series[0]["id"], "ok"), (2, 1, "error"), (3, 2, "error"), (4, series[1]["id"], "ok")]
+
+
+def test_an_ndjson_line_with_nan_is_told_what_to_send(client):
+    # as /v1/fit answers a NaN token (README, error catalogue: invalid_json), so does a line
+    out = _ndjson(client, [b'{"x": [1, 2, 3], "y": [1, NaN, 3]}',
+                          b'{"x": [1, 2], "y": [-Infinity, 1]}'])
+    for result in out[:-1]:
+        assert result["error"]["code"] == "invalid_json"
+        assert "NaN and Infinity are not JSON numbers" in result["error"]["detail"]
