@@ -174,7 +174,7 @@ def _polynomial(value: dict) -> dict:
         raise Declined
     transform_x = _choice(value.get("transform_x", "none"), _TRANSFORMS)
     transform_y = _choice(value.get("transform_y", "none"), _TRANSFORMS)
-    if degree is not None and (top is not None or select is not None):
+    if degree is not None and (top is not None or select is not None or "min_degree" in value):
         raise Declined
     if top is not None and low > top:
         raise Declined

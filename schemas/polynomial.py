@@ -45,14 +45,17 @@ class ModelSchema(StrictSchema):
                           "and bands are reported back on the original y scale.",
                           load_default="none")
 
-    @validates_schema
-    def _degree_or_selection(self, data, **kwargs):
+    @validates_schema(pass_original=True)
+    def _degree_or_selection(self, data, original, **kwargs):
         if data.get("degree") is not None and data.get("max_degree") is not None:
             raise ValidationError("Give degree (fixed) or max_degree (selection), not both.",
                                   "degree")
         if data.get("degree") is not None and data.get("select") is not None:
             raise ValidationError("select only applies with max_degree. Remove select, or "
                                   "replace degree by max_degree.", "select")
+        if data.get("degree") is not None and "min_degree" in original:  # else ignored
+            raise ValidationError("min_degree only applies with max_degree. Remove min_degree, "
+                                  "or replace degree by max_degree.", "min_degree")
         top = data.get("max_degree")
         if top is not None and data.get("min_degree", 1) > top:
             raise ValidationError("Must not exceed max_degree.", "min_degree")

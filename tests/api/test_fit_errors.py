@@ -91,6 +91,7 @@ def test_points_over_limit_is_413():
     ({"model": {"degree": -1}}, "model.degree", "0 or more"),
     ({"model": {"degree": 2, "max_degree": 3}}, "model.degree", "not both"),
     ({"model": {"degree": 2, "select": "aic"}}, "model.select", "max_degree"),
+    ({"model": {"degree": 2, "min_degree": 3}}, "model.min_degree", "max_degree"),  # was ignored
     ({"model": {"max_degree": 3, "min_degree": 4}}, "model.min_degree", "max_degree"),
     ({"model": {"family": "spline"}}, "model.family", "polynomial"),
     ({"model": {"max_degree": 3, "select": "best"}}, "model.select", "sequential_f"),
