@@ -62,6 +62,9 @@ def load_series(obj, position: int):
         raise ValidationError({k: misplaced.get(k, [UNKNOWN_FIELD]) for k in unknown})
     ident = obj.get("id", position)
     if not valid_id(ident):
+        if isinstance(ident, float) and ident.is_integer() and abs(ident) >= 2.0 ** 63:
+            raise ValidationError({"id": ["An integer beyond 64 bits (read as a float): send "
+                                          "this id as a string."]})
         raise ValidationError({"id": ["Must be a string or an integer."]})
     errors: dict = {}
     arrays = {}

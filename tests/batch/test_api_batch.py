@@ -303,3 +303,12 @@ def test_an_ndjson_line_with_nan_is_told_what_to_send(client):
     for result in out[:-1]:
         assert result["error"]["code"] == "invalid_json"
         assert "NaN and Infinity are not JSON numbers" in result["error"]["detail"]
+
+
+def test_an_id_beyond_64_bits_is_told_to_be_a_string(client):
+    # the JSON reader (orjson) reads integers beyond 64 bits as floats; the refusal must not
+    # say "Must be a string or an integer" of what the caller sent as an integer
+    body = b'{"series": [{"id": 18446744073709551616, "x": [1, 2, 3, 4], "y": [1, 2, 3, 5]}]}'
+    answer = client.post("/v1/batch", data=body, content_type="application/json").get_json()
+    (message,) = answer["results"][0]["error"]["errors"]["id"]
+    assert "64" in message and "string" in message
