@@ -19,7 +19,7 @@ from service.plots.spread import spread
 
 CONTOUR_POINTS = 400
 H_END = 0.999  # the contour meets zero at leverage one, where Cook's distance is undefined
-UNDEFINED = "not defined for this fit (no residual df)"
+UNDEFINED = "not defined for this fit (an exact fit, or fewer than 2 residual df)"
 
 
 def draw_studentized_residuals(ax, data: PlotData, options: PlotOptions) -> None:

@@ -207,3 +207,16 @@ def test_panels_say_so_when_residual_forms_are_undefined():
         assert not [ln.get_label() for ln in ax.get_lines()  # no cut-offs of nothing
                     if not ln.get_label().startswith("_")], name
     assert "not computed" in _note(_axes(figure, "spread"))
+
+
+@pytest.mark.parametrize("x, y, degree", [
+    (np.arange(8.0), np.arange(8.0) ** 2, 2),          # exact fit: 5 residual df, all zero
+    (np.array([1.0, 2.0, 3.0]), np.array([1.0, 2.5, 2.9]), 1)])  # one residual df
+def test_the_undefined_note_gives_the_right_reason(x, y, degree):
+    # externally studentized residuals need two residual df (s_(i) divides by df - 1) and a
+    # residual that is not rounding noise; the note said "no residual df" in both cases
+    report = fit_series(x, y, model=ModelSpec(degree=degree))
+    figure = build_figure(report, x, y, options=PlotOptions(panels=DIAGNOSTIC))
+    note = _note(_axes(figure, "studentized_residuals"))
+    assert "no residual df" not in note and "not defined" in note
+    assert ("exact fit" in note) and ("fewer than 2 residual df" in note)
