@@ -40,9 +40,11 @@ def linearize4(log_x, t, u, y, sw, pure, fj):
     a00 = a10 = a11 = a20 = a21 = a22 = a30 = a31 = a32 = a33 = 0.0
     h20 = h21 = h22 = h30 = h31 = h32 = h33 = 0.0
     m = y.size
+    for i in range(m):              # the exponentials first, apart from the sums
+        fj[m + i] = 1.0 / (1.0 + math.exp(slope * (u[i] - c0)))
     for i in range(m):
         ui = u[i]
-        bi = 1.0 / (1.0 + math.exp(slope * (ui - c0)))
+        bi = fj[m + i]
         dg = -bi * (1.0 - bi) * span
         dd = ui - c0 if ui > -np.inf else 0.0
         r0, r1, r2, r3 = bi, 1.0 - bi, dg * dd, dg * c1
