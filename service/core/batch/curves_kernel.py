@@ -38,7 +38,13 @@ from service.core.batch.curves_models import (
     evaluate,
     on_log_x,
 )
-from service.core.batch.curves_points import pool, shapiro_w_p, sort_order, tangent_sums
+from service.core.batch.curves_points import (
+    pool,
+    shapiro_w_p,
+    sort_order,
+    tangent_basis4,
+    tangent_sums,
+)
 from service.core.batch.curves_solver import SMALL_GRADIENT, factor_and_norms, scratch_rows
 from service.core.batch.curves_solver4 import solve
 from service.core.batch.curves_starts import levels, project, shape_start
@@ -80,20 +86,6 @@ def _attempt(fid, nl, n, pooled, cols, coef, theta, mats, fj, work):
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
-def _tangent_basis4(inv, js, q, n):
-    """``q = inv js`` for p = 4 (``inv`` lower triangular), each sum in the general
-    loop's order."""
-    i00, i10, i11, i20, i21, i22 = inv[0, 0], inv[1, 0], inv[1, 1], inv[2, 0], inv[2, 1], inv[2, 2]
-    i30, i31, i32, i33 = inv[3, 0], inv[3, 1], inv[3, 2], inv[3, 3]
-    for i in range(n):
-        j0, j1, j2, j3 = js[0, i], js[1, i], js[2, i], js[3, i]
-        q[0, i] = i00 * j0
-        q[1, i] = i10 * j0 + i11 * j1
-        q[2, i] = i20 * j0 + i21 * j1 + i22 * j2
-        q[3, i] = i30 * j0 + i31 * j1 + i32 * j2 + i33 * j3
-
-
-@numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
 def _summary(p, x, y, w, sw, f, js, low, d, rss, cut_t, cut_cook, q, e, out, est_se,
              sw_coef, srt, work):
     """Inference and residual checks at the estimates into ``out`` (stats row) and ``est_se``.
@@ -130,7 +122,7 @@ def _summary(p, x, y, w, sw, f, js, low, d, rss, cut_t, cut_cook, q, e, out, est
     for i in range(n):
         e[i] = sw[i] * (y[i] - f[i])
     if p == 4:                           # the same sums unrolled: a loop LLVM vectorizes
-        _tangent_basis4(inv, js, q, n)
+        tangent_basis4(inv, js, q, n)
     for i in range(n if p != 4 else 0):
         for k in range(p):
             t = 0.0
