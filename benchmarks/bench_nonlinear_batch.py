@@ -28,12 +28,21 @@ fits, standard errors not rescaled by the residual SD, the chi-square test.
 Nothing is asserted (speed targets are printed, never tested). Target of issue 17: the
 batch at least 50x curve_fit per CPU-second.
 
-Run: ``.venv/bin/python benchmarks/bench_nonlinear_batch.py [--series 10000] [--known-sd]``.
+``--baseline DIR`` then times another checkout of the repository (e.g. ``git archive
+<commit> | tar -x -C DIR``; run its benchmark once first to fill its numba cache) against
+this one, alternately, ``--rounds`` times: each round starts one process per tree that
+times the batch (best of ``--repeat``) and, in the same process, the curve_fit loop, and
+prints both trees' series per CPU-second, their ratio, and each one's ratio to curve_fit.
+
+Run: ``.venv/bin/python benchmarks/bench_nonlinear_batch.py [--series 10000] [--known-sd]
+[--baseline DIR [--rounds 3]]``.
 """
 
 from __future__ import annotations
 
 import argparse
+import json
+import subprocess
 import sys
 import time
 import warnings
@@ -42,7 +51,10 @@ from pathlib import Path
 import numpy as np
 from scipy.optimize import curve_fit
 
-sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
+HERE = Path(__file__).resolve().parent.parent
+# a worker process (``--root``) imports the service package of the tree it times
+ROOT = Path(sys.argv[sys.argv.index("--root") + 1]).resolve() if "--root" in sys.argv else HERE
+sys.path.insert(0, str(ROOT))
 from service.core.batch.curves import fit_many_curves  # noqa: E402
 from service.core.families import fit_series  # noqa: E402
 from service.core.spec import FitOptions, ModelSpec  # noqa: E402
@@ -81,7 +93,14 @@ def main() -> None:
     parser.add_argument("--check", type=int, default=200, help="series checked against /v1/fit")
     parser.add_argument("--known-sd", action="store_true",
                         help="weights 1/SD² of the known noise SD, weighting known_sd")
+    parser.add_argument("--baseline", type=Path, help="another checkout to time against")
+    parser.add_argument("--rounds", type=int, default=3, help="alternations with --baseline")
+    parser.add_argument("--repeat", type=int, default=3, help="batch runs per process (best)")
+    parser.add_argument("--root", type=Path, help=argparse.SUPPRESS)   # worker: time one tree
     args = parser.parse_args()
+    if args.root is not None:
+        _worker(args)
+        return
     known = args.known_sd
     options = FitOptions(grid=None, weighting="known_sd" if known else "relative")
     sd_kw = {"sigma": np.full(DOSES.size, NOISE_SD), "absolute_sigma": True} if known else {}
@@ -135,6 +154,57 @@ def main() -> None:
     print(f"agreement with the single fit ({min(args.check, G)} series): estimates "
           f"{worst_est:.1e}, standard errors {worst_se:.1e} (largest relative difference); "
           f"estimates relative to max(|estimate|, standard error) {worst_scaled:.1e}")
+    if args.baseline is not None:
+        _compare(args)
+
+
+def _worker(args) -> None:
+    """Time the batch of this process's tree (best of ``--repeat``) and the curve_fit loop;
+    print them as one JSON line."""
+    known = args.known_sd
+    options = FitOptions(grid=None, weighting="known_sd" if known else "relative")
+    sd_kw = {"sigma": np.full(DOSES.size, NOISE_SD), "absolute_sigma": True} if known else {}
+    truth, y = make(args.series)
+    G = args.series
+    x, flat, lengths = np.tile(DOSES, G), y.reshape(-1), np.full(G, DOSES.size)
+    w = np.full(x.size, NOISE_SD ** -2) if known else None
+    fit_many_curves(x[:240], flat[:240], lengths[:10], None if w is None else w[:240],
+                    model=MODEL, options=options)
+    cpu = min(timed(lambda: fit_many_curves(x, flat, lengths, w, model=MODEL,
+                                            options=options))[1] for _ in range(args.repeat))
+    n_sp = min(args.scipy, G)
+
+    def loop():
+        with warnings.catch_warnings(), np.errstate(all="ignore"):
+            warnings.simplefilter("ignore")
+            for i in range(n_sp):
+                curve_fit(logistic4, DOSES, y[i], p0=truth[i], **sd_kw)
+    print(json.dumps({"batch_cpu": cpu, "series": G, "scipy_cpu": timed(loop)[1],
+                      "scipy_series": n_sp}))
+
+
+def _compare(args) -> None:
+    """``--rounds`` alternations of a worker process on the baseline and on this tree."""
+    trees = (("baseline", args.baseline.resolve()), ("this tree", HERE))
+    rates = {name: [] for name, _ in trees}
+    print(f"alternating runs, {args.series} series, best of {args.repeat} batch runs per "
+          f"process; baseline {trees[0][1]}")
+    for r in range(args.rounds):
+        for name, root in trees:
+            cmd = [sys.executable, str(Path(__file__).resolve()), "--root", str(root),
+                   "--series", str(args.series), "--scipy", str(args.scipy),
+                   "--repeat", str(args.repeat)] + (["--known-sd"] if args.known_sd else [])
+            out = json.loads(subprocess.run(cmd, check=True, capture_output=True,
+                                            text=True).stdout.strip().splitlines()[-1])
+            batch = out["series"] / out["batch_cpu"]
+            scipy = out["scipy_series"] / out["scipy_cpu"]
+            rates[name].append(batch)
+            print(f"  round {r + 1} {name:9s}: {batch:8.0f} series per CPU-second "
+                  f"({1e6 / batch:.2f} us each); curve_fit {scipy:5.0f} per CPU-second; "
+                  f"ratio {batch / scipy:.1f}x")
+    ratios = [new / old for new, old in zip(rates["this tree"], rates["baseline"], strict=True)]
+    print(f"this tree / baseline per CPU-second, by round: "
+          f"{', '.join(f'{q:.3f}' for q in ratios)}")
 
 
 if __name__ == "__main__":

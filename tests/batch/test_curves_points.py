@@ -17,6 +17,7 @@ from service.core.batch.curves_points import (
     shapiro_w_p,
     sort_order,
     sort_values,
+    tangent_basis4,
     tangent_sums,
 )
 from service.core.checks.shapiro_tables import shapiro_weights
@@ -61,6 +62,21 @@ def test_tangent_sums_equal_the_numpy_design_sums(n, p):
     want = (np.trace(g), np.sum(g * g), np.sum(aq * aq))
     got = tangent_sums(np.ascontiguousarray(basis.T), p, n, np.empty((p, p)), np.empty(p))
     np.testing.assert_allclose(got, want, rtol=1e-12)
+
+
+@pytest.mark.parametrize("n", [1, 9, 24])
+def test_tangent_basis4_is_the_triangular_product(n):
+    # reference: numpy's matrix product (to rounding), and the kernel's general loop for
+    # other p (each sum from 0.0 in the order j = 0..k, in Python floats: bit for bit)
+    rng = np.random.default_rng(n)
+    inv, js = np.tril(rng.normal(size=(4, 4))), rng.normal(size=(4, n))
+    q = np.full((4, n + 2), np.nan)
+    tangent_basis4(inv, js, q, n)
+    np.testing.assert_allclose(q[:, :n], inv @ js, rtol=1e-12, atol=1e-14)
+    loop = [[sum((float(inv[k, j] * js[j, i]) for j in range(k + 1)), 0.0) for i in range(n)]
+            for k in range(4)]
+    assert np.array_equal(q[:, :n], np.array(loop).reshape(4, n))
+    assert np.isnan(q[:, n:]).all()                          # nothing past n is written
 
 
 @pytest.mark.parametrize("n", [3, 10, 24, 120])

@@ -72,14 +72,15 @@ def _scale(p, a, g, d, cm, rss, worst, slack):
         d[j] = math.sqrt(a[j, j])
         if not math.isfinite(d[j]) or not math.isfinite(g[j]):
             return False, np.inf, 0.0, 0.0
-    for j in range(p):
-        if d[j] > 0:
-            g[j] /= d[j]
-            for k in range(j + 1):
-                a[j, k] /= d[j] * d[k]
-                a[k, j] = a[j, k]
-                cm[j, k] /= d[j] * d[k]
-                cm[k, j] = cm[j, k]
+    for j in range(p):       # by the reciprocals of the norms (a norm of 0 counts as 1)
+        inv_j = 1.0 / d[j] if d[j] > 0 else 1.0
+        g[j] *= inv_j
+        for k in range(j + 1):
+            inv_jk = inv_j * (1.0 / d[k] if d[k] > 0 else 1.0)
+            a[j, k] *= inv_jk
+            a[k, j] = a[j, k]
+            cm[j, k] *= inv_jk
+            cm[k, j] = cm[j, k]
     return True, rss, 2.0 * math.sqrt(p) * worst, slack
 
 

@@ -40,9 +40,11 @@ def linearize4(log_x, t, u, y, sw, pure, fj):
     a00 = a10 = a11 = a20 = a21 = a22 = a30 = a31 = a32 = a33 = 0.0
     h20 = h21 = h22 = h30 = h31 = h32 = h33 = 0.0
     m = y.size
+    for i in range(m):              # the exponentials first, apart from the sums
+        fj[m + i] = 1.0 / (1.0 + math.exp(slope * (u[i] - c0)))
     for i in range(m):
         ui = u[i]
-        bi = 1.0 / (1.0 + math.exp(slope * (ui - c0)))
+        bi = fj[m + i]
         dg = -bi * (1.0 - bi) * span
         dd = ui - c0 if ui > -np.inf else 0.0
         r0, r1, r2, r3 = bi, 1.0 - bi, dg * dd, dg * c1
@@ -88,31 +90,18 @@ def linearize4(log_x, t, u, y, sw, pure, fj):
             and math.isfinite(d3) and math.isfinite(g0) and math.isfinite(g1)
             and math.isfinite(g2) and math.isfinite(g3)):
         return False, np.inf, 0.0, 0.0, FAIL, FAIL[:4], FAIL[:4], FAIL
-    if d0 > 0:
-        g0 /= d0
-        a00 /= d0 * d0
-    if d1 > 0:
-        g1 /= d1
-        a10 /= d1 * d0
-        a11 /= d1 * d1
-    if d2 > 0:
-        g2 /= d2
-        a20 /= d2 * d0
-        a21 /= d2 * d1
-        a22 /= d2 * d2
-        h20 /= d2 * d0
-        h21 /= d2 * d1
-        h22 /= d2 * d2
-    if d3 > 0:
-        g3 /= d3
-        a30 /= d3 * d0
-        a31 /= d3 * d1
-        a32 /= d3 * d2
-        a33 /= d3 * d3
-        h30 /= d3 * d0
-        h31 /= d3 * d1
-        h32 /= d3 * d2
-        h33 /= d3 * d3
+    # scaled by the reciprocals of the norms, as curves_linearize._scale: 4 divisions rather
+    # than 24 (a norm of 0 counts as 1; the check then stops as singular)
+    i0 = 1.0 / d0 if d0 > 0 else 1.0
+    i1 = 1.0 / d1 if d1 > 0 else 1.0
+    i2 = 1.0 / d2 if d2 > 0 else 1.0
+    i3 = 1.0 / d3 if d3 > 0 else 1.0
+    g0, g1, g2, g3 = g0 * i0, g1 * i1, g2 * i2, g3 * i3
+    a00, a11, a22, a33 = a00 * (i0 * i0), a11 * (i1 * i1), a22 * (i2 * i2), a33 * (i3 * i3)
+    a10, a20, a21 = a10 * (i1 * i0), a20 * (i2 * i0), a21 * (i2 * i1)
+    a30, a31, a32 = a30 * (i3 * i0), a31 * (i3 * i1), a32 * (i3 * i2)
+    h20, h21, h22 = h20 * (i2 * i0), h21 * (i2 * i1), h22 * (i2 * i2)
+    h30, h31, h32, h33 = h30 * (i3 * i0), h31 * (i3 * i1), h32 * (i3 * i2), h33 * (i3 * i3)
     return (True, rss + pure, 4.0 * worst, slack,
             (a00, a10, a11, a20, a21, a22, a30, a31, a32, a33), (g0, g1, g2, g3),
             (d0, d1, d2, d3), (0.0, 0.0, 0.0, h20, h21, h22, h30, h31, h32, h33))

@@ -6,6 +6,7 @@ Written for short series (tens of points) with no allocation per series:
   :data:`INSERTION_MAX` points, numpy's merge sort above);
 * :func:`pool`: the points pooled by distinct ``u`` (weighted means, square roots of the
   summed weights, the pure-error sum of squares) and the pool of each point;
+* :func:`tangent_basis4`: the orthonormal tangent basis of a four-parameter fit;
 * :func:`shapiro_w_p`: Shapiro-Wilk's ``W = (c . e_sorted)² / sum (e - mean)²`` with
   Royston's AS R94 weights ``c`` and its p-value (the single fit's formula and
   :func:`service.core.checks.kernels.shapiro_p`).
@@ -104,6 +105,21 @@ def shapiro_w_p(e, coef, srt):
         acc += coef[i] * srt[i]
     w = min(acc * acc / spread, 1.0)
     return w, shapiro_p(w, n)
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
+def tangent_basis4(inv, js, q, n):
+    """The tangent basis rows ``q = inv js`` for p = 4 (``inv`` lower triangular, ``js``
+    4 x n), each sum in the order of the kernel's loop for other p; unrolled, the loop
+    over the points has no reduction and LLVM vectorizes it."""
+    i00, i10, i11, i20, i21, i22 = inv[0, 0], inv[1, 0], inv[1, 1], inv[2, 0], inv[2, 1], inv[2, 2]
+    i30, i31, i32, i33 = inv[3, 0], inv[3, 1], inv[3, 2], inv[3, 3]
+    for i in range(n):
+        j0, j1, j2, j3 = js[0, i], js[1, i], js[2, i], js[3, i]
+        q[0, i] = i00 * j0
+        q[1, i] = i10 * j0 + i11 * j1
+        q[2, i] = i20 * j0 + i21 * j1 + i22 * j2
+        q[3, i] = i30 * j0 + i31 * j1 + i32 * j2 + i33 * j3
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")

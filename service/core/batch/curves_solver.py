@@ -62,25 +62,26 @@ def cholesky(a, p, low):
 
 @numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
 def forward(low, p, b, out):
-    """Solve ``low z = b``; returns ``||z||²``."""
+    """Solve ``low z = b``; returns ``||z||²``. By the reciprocals of the diagonal, which
+    depend on ``low`` alone: the divisions leave the chain from ``b`` to ``z``."""
     total = 0.0
     for i in range(p):
         t = b[i]
         for k in range(i):
             t -= low[i, k] * out[k]
-        out[i] = t / low[i, i]
+        out[i] = t * (1.0 / low[i, i])
         total += out[i] * out[i]
     return total
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
 def backward(low, p, z, out):
-    """Solve ``low' x = z``."""
+    """Solve ``low' x = z`` (by the reciprocals of the diagonal, as :func:`forward`)."""
     for i in range(p - 1, -1, -1):
         t = z[i]
         for k in range(i + 1, p):
             t -= low[k, i] * out[k]
-        out[i] = t / low[i, i]
+        out[i] = t * (1.0 / low[i, i])
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")

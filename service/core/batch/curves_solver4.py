@@ -67,23 +67,24 @@ def _cholesky(a):
 
 @numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
 def _forward(low, b):
-    """Solve ``low z = b``: ``(z, ||z||²)``."""
+    """Solve ``low z = b``: ``(z, ||z||²)``. The reciprocals of the diagonal depend on
+    ``low`` alone, so the divisions leave the chain from ``b`` to ``z`` (multiplications)."""
     l00, l10, l11, l20, l21, l22, l30, l31, l32, l33 = low
-    z0 = b[0] / l00
-    z1 = (b[1] - l10 * z0) / l11
-    z2 = (b[2] - l20 * z0 - l21 * z1) / l22
-    z3 = (b[3] - l30 * z0 - l31 * z1 - l32 * z2) / l33
+    z0 = b[0] * (1.0 / l00)
+    z1 = (b[1] - l10 * z0) * (1.0 / l11)
+    z2 = (b[2] - l20 * z0 - l21 * z1) * (1.0 / l22)
+    z3 = (b[3] - l30 * z0 - l31 * z1 - l32 * z2) * (1.0 / l33)
     return (z0, z1, z2, z3), z0 * z0 + z1 * z1 + z2 * z2 + z3 * z3
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
 def _backward(low, z):
-    """Solve ``low' x = z``."""
+    """Solve ``low' x = z`` (by the reciprocals of the diagonal, as :func:`_forward`)."""
     l00, l10, l11, l20, l21, l22, l30, l31, l32, l33 = low
-    x3 = z[3] / l33
-    x2 = (z[2] - l32 * x3) / l22
-    x1 = (z[1] - l21 * x2 - l31 * x3) / l11
-    x0 = (z[0] - l10 * x1 - l20 * x2 - l30 * x3) / l00
+    x3 = z[3] * (1.0 / l33)
+    x2 = (z[2] - l32 * x3) * (1.0 / l22)
+    x1 = (z[1] - l21 * x2 - l31 * x3) * (1.0 / l11)
+    x0 = (z[0] - l10 * x1 - l20 * x2 - l30 * x3) * (1.0 / l00)
     return x0, x1, x2, x3
 
 
