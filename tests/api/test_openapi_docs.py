@@ -90,6 +90,21 @@ def test_docs_page_is_offline_and_covers_every_operation(client, spec):
         assert f"<code>{field}</code>" in html
 
 
+@pytest.mark.parametrize("base", ["http://curves.example:9123", "https://10.1.2.3",
+                                  "http://[::1]:8771"])
+def test_docs_curl_lines_name_the_server_that_serves_the_page(client, base):
+    html = client.get("/docs", base_url=base).get_data(as_text=True)
+    assert f"curl -s -X POST {base}/v1/fit " in html
+    assert f"curl -s {base}/docs/examples/" in html  # the long bodies are fetched from it
+    assert "127.0.0.1:8000" not in html
+
+
+def test_docs_keep_the_placeholder_for_a_host_that_is_not_plain(client):
+    """A forged Host header never reaches the page (HTML) or its curl lines (shell)."""
+    html = client.get("/docs", headers={"Host": "x.example;rm$IFS-rf"}).get_data(as_text=True)
+    assert "curl -s -X POST http://127.0.0.1:8000/v1/fit " in html and "rm$IFS" not in html
+
+
 def test_readme_error_catalogue_matches_the_server():
     from service.http.problems import CATALOGUE
 
