@@ -53,6 +53,19 @@ def test_openapi_is_3_1_and_lists_the_paths(spec):
         assert path in spec["paths"], path
 
 
+def test_every_path_of_the_readme_endpoint_table_is_in_the_document(spec):
+    """The README's "## Endpoints" table and /openapi.json list the same public paths
+    (/openapi.json itself is the document, not a path in it)."""
+    text = (ROOT / "README.md").read_text(encoding="utf-8")
+    table = text.split("## Endpoints", 1)[1].split("\n\n", 2)[1]
+    listed = {path.strip() for row in table.splitlines() if row.startswith(("| GET", "| POST"))
+              for path in row.split("|")[2].split(",")}
+    assert "/docs/examples/{file}" in listed
+    assert listed - {"/openapi.json"} <= set(spec["paths"]), listed - set(spec["paths"])
+    operation = spec["paths"]["/docs/examples/{file}"]["get"]
+    assert {"200", "404"} <= set(operation["responses"]), operation["responses"]
+
+
 def test_every_field_of_the_contract_has_a_description(spec):
     schemas = spec["components"]["schemas"]
     missing = [f"{name}.{field}" for name in sorted(_reachable(spec, MY_PATHS))
