@@ -82,6 +82,10 @@ def build_requests(client) -> dict[str, dict]:
                                  "url": "/problems/invalid_data",
                                  "parameters": {"code": "invalid_data"},
                                  "summary": "The page of one problem code."},
+        "get /docs/examples/{file}": {"name": "fit_request", "url": "/docs/examples/v1-fit.json",
+                                      "parameters": {"file": "v1-fit.json"},
+                                      "summary": "The request of the /v1/fit example, as its "
+                                                 "curl line fetches it."},
     }
 
 

@@ -33,7 +33,7 @@ def create_app(overrides: dict | None = None) -> Flask:
     error_handling.register(app)
     for module in BLUEPRINT_MODULES:
         api.register_blueprint(module.blp)
-    app.register_blueprint(doc_examples.bp)  # the files /docs links (not API operations)
+    api.register_blueprint(doc_examples.blp)  # the files /docs links (documented beside it)
     for schema in DOCUMENTED_MODELS:  # the model objects that ModelField's oneOf names
         name = component_name(schema)
         if name not in api.spec.components.schemas:

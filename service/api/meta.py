@@ -2,14 +2,15 @@
 
 from __future__ import annotations
 
-from flask import Response, current_app
+from flask import Response, current_app, request
 from flask_smorest import Blueprint, abort
 
 from schemas.common import MISSING_POLICIES, SECTIONS
 from schemas.families import MODEL_SCHEMAS, FamiliesResponseSchema, describe_options
 from service.core import families as registry
 from service.core.models.capabilities import capabilities
-from service.http.docs_page import render_openapi
+from service.http.docs_page import render_openapi, with_base_url
+from service.http.examples import BASE_URL
 from service.http.problem_pages import render_catalogue, render_problem
 from service.http.problems import CATALOGUE
 
@@ -48,12 +49,13 @@ def families():
 @blp.route("/docs", methods=["GET"])
 @blp.doc(responses={"200": _HTML})
 def docs():
-    """The API reference as one HTML page, generated from the OpenAPI document."""
+    """The API reference as one HTML page, generated from the OpenAPI document; its curl
+    lines name the server the page is served from."""
     page = current_app.extensions.get("curvewise-docs-page")
     if page is None:
         page = render_openapi(current_app.extensions["curvewise-api"].spec.to_dict())
         current_app.extensions["curvewise-docs-page"] = page
-    return Response(page, mimetype="text/html")
+    return Response(with_base_url(page, BASE_URL, request.url_root), mimetype="text/html")
 
 
 @blp.route("/problems/", methods=["GET"])

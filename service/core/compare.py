@@ -101,12 +101,13 @@ def compare(x, y, weights=None, *, candidates: tuple[ModelSpec, ...], select: st
             if field.startswith("model"):
                 field = f"model.candidates[{i}]{field.removeprefix('model')}"
             raise SpecError(exc.message, field=field, fix=exc.fix, code=exc.code) from exc
-    reports, rows = [], []
+    reports, rows, failures = [], [], []
     for i, spec in enumerate(candidates):
         label = _label(spec, i)
         try:
             report = families.fit_series(x, y, weights, model=spec, options=options)
         except FitError as exc:  # this series cannot be fitted by this candidate: reported
+            failures.append((i, label, exc))
             reports.append(None)
             rows.append(CandidateRow(label, spec.family, 0, NAN, 0, NAN, NAN, NAN, NAN, False,
                                      (), exc.message))
@@ -116,7 +117,7 @@ def compare(x, y, weights=None, *, candidates: tuple[ModelSpec, ...], select: st
     crit = _crit(select)
     usable = [i for i, r in enumerate(rows) if r.converged and math.isfinite(getattr(r, crit))]
     if not usable:
-        raise _nothing_to_compare(rows, crit)
+        raise _nothing_to_compare(rows, crit, failures)
     rows = _unique_labels(rows)
     tests = _nested_tests(candidates, rows, usable)
     chosen, reason = _choose(select, alpha, rows, usable, tests)
@@ -148,12 +149,18 @@ def _label(spec: ModelSpec, i: int) -> str:
     return f"{spec.family} #{i}" if spec.family == "expression" else spec.family
 
 
-def _nothing_to_compare(rows: list[CandidateRow], crit: str) -> FitError:
-    """Why no candidate can be ranked: the first fitting error, or no finite criterion."""
-    failed = next((r for r in rows if r.error), None)
-    if failed is not None:
-        return FitError(f"No candidate could be fitted: {failed.label}: {failed.error}",
-                        field="model.candidates", fix="Check the data and the candidates.")
+def _nothing_to_compare(rows: list[CandidateRow], crit: str,
+                       failures: list[tuple[int, str, FitError]]) -> FitError:
+    """Why no candidate can be ranked: every candidate's fitting error (each also under
+    ``model.candidates[i]`` in ``details``), or no finite criterion."""
+    if failures:
+        causes = [(i, f"{label}{_field(exc)}: {_cause(exc)}") for i, label, exc in failures]
+        listed = " ".join(f"Candidate {i}, {why}" for i, why in causes)
+        return FitError(f"No candidate could be fitted. {listed}", field="model.candidates",
+                        fix="Follow each candidate's fix (errors names each under "
+                            "model.candidates[i]), or drop the candidates the data cannot "
+                            "support.",
+                        details=tuple((f"model.candidates[{i}]", why) for i, why in causes))
     if all(r.rss == 0.0 for r in rows):
         why = ("every candidate passes through every point (zero residuals), so "
                f"{crit} is not finite")
@@ -162,6 +169,15 @@ def _nothing_to_compare(rows: list[CandidateRow], crit: str) -> FitError:
     return FitError(f"No candidate can be ranked: {why}.", field="model.candidates",
                     fix="Compare on data with noise and more points than parameters, or fit "
                         "one model without candidates.")
+
+
+def _field(exc: FitError) -> str:
+    return f", field {exc.field}" if exc.field else ""
+
+
+def _cause(exc: FitError) -> str:
+    """One candidate's error in words: its message and its fix."""
+    return exc.message + (f" To fix: {exc.fix}" if exc.fix else "")
 
 
 def _unique_labels(rows: list[CandidateRow]) -> list[CandidateRow]:

@@ -52,25 +52,30 @@ class FitError(ValueError):
         What the caller should do about it.
     code : str
         Stable machine-readable reason (snake_case), used in metrics and problem ``type``.
+    details : tuple of (str, str)
+        Further ``(field, message)`` pairs when one error has several causes (each
+        candidate of a comparison that could not be fitted); empty otherwise.
     """
 
     code = "unfittable_input"
 
     def __init__(self, message: str, *, field: str | None = None, fix: str = "",
-                 code: str | None = None) -> None:
+                 code: str | None = None, details: tuple[tuple[str, str], ...] = ()) -> None:
         super().__init__(message)
         self.message = message
         self.field = field
         self.fix = fix
+        self.details = tuple(details)
         if code is not None:
             self.code = code
 
     def __reduce__(self):  # keep pickling (multiprocessing, Dask) lossless
-        return (_rebuild, (type(self), self.message, self.field, self.fix, self.code))
+        return (_rebuild, (type(self), self.message, self.field, self.fix, self.code,
+                           self.details))
 
 
-def _rebuild(cls, message, field, fix, code):
-    return cls(message, field=field, fix=fix, code=code)
+def _rebuild(cls, message, field, fix, code, details=()):
+    return cls(message, field=field, fix=fix, code=code, details=details)
 
 
 class DataError(FitError):

@@ -30,6 +30,7 @@ from service.core.models import (
 )
 from service.core.nonlinear import analysis as nonlinear_analysis
 from service.core.nonlinear import expression_family
+from service.core.nonlinear.builtin import domain as builtin_domain
 from service.core.nonlinear.builtin import fit as builtin_fit
 from service.core.nonlinear.builtin import spec_check as builtin_spec
 from service.core.nonlinear.builtin.catalogue import BUILTINS
@@ -142,7 +143,8 @@ def _builtin(entry: Builtin) -> Family:
         name=entry.name, description=entry.description, fitted_type=FittedCurve,
         fit=partial(builtin_fit.fit_series, entry), check_spec=partial(builtin_spec.check_spec,
                                                                        entry),
-        predict=nonlinear_analysis.predict, write_document=curve_document.to_curve_document,
+        predict=partial(builtin_domain.predict, entry),
+        write_document=curve_document.to_curve_document,
         read_document=curve_document.from_curve_document, equation=entry.equation_text(),
         parameters=entry.parameters, **_CURVE_INVERSE,
         generalizes=NESTED_IN.get(entry.name, ()),

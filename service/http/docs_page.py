@@ -26,6 +26,20 @@ img{max-width:100%;border:1px solid #ccc}"""
 FIRST_OPERATIONS = ("/v1/fit", "/v1/batch", "/v1/predict", "/v1/invert", "/v1/plot")
 METHODS = ("post", "get", "put", "patch", "delete")
 OPEN_LINES = 30  # examples up to this many lines are shown unfolded
+PLAIN_BASE_URL = re.compile(r"https?://(?:[A-Za-z0-9.-]+|\[[0-9A-Fa-f:.]+\])(?::[0-9]{1,5})?"
+                            r"(?:/[A-Za-z0-9._~-]+)*")
+"""A base URL safe to write into a curl line and into HTML as it is (no quote, space or
+shell character); any other (a forged Host header) keeps the examples' placeholder."""
+
+
+def with_base_url(page: str, placeholder: str, base_url: str) -> str:
+    """The page with the examples' ``placeholder`` server (``http://127.0.0.1:8000``)
+    replaced by ``base_url``, the URL the page is served from, so its curl lines run as
+    shown; unchanged when ``base_url`` is not a plain http(s) URL."""
+    base_url = base_url.rstrip("/")
+    if not PLAIN_BASE_URL.fullmatch(base_url):
+        return page
+    return page.replace(placeholder, base_url)
 
 
 def page(title: str, body: str) -> str:

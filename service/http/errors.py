@@ -71,8 +71,10 @@ def problem(status: int, title: str | None, detail: str, *, errors: dict | None 
 def fit_error_body(error: FitError) -> dict:
     """Problem body (422) for a typed core error, naming the field and the fix."""
     message = error.message + (f" Fix: {error.fix}" if error.fix else "")
-    return problem_body(422, None, message, errors={error.field or "_body": [message]},
-                        code=error.code)
+    errors = {error.field or "_body": [message]}
+    for field, detail in getattr(error, "details", ()):  # one entry per further cause
+        errors.setdefault(field, []).append(detail)
+    return problem_body(422, None, message, errors=errors, code=error.code)
 
 
 MAX_REMEMBERED_FUNCTIONS = 1000

@@ -91,7 +91,9 @@ CATALOGUE: dict[str, ProblemKind] = {kind.code: kind for kind in (
                 "checksum, or is a whole /v1/fit answer instead of its fitted_model field.",
                 "Send the document back exactly as /v1/fit returned it."),
     ProblemKind("unfittable_input", 422, "Unfittable input",
-                "The input cannot be fitted as asked.", "Follow the fix given in detail."),
+                "The input cannot be fitted as asked. When no candidate of a comparison can "
+                "be fitted, errors also names each candidate's own error and fix under "
+                "model.candidates[i].", "Follow the fix given in detail (or in errors)."),
     ProblemKind("internal_error", 500, "Internal error",
                 "A bug in Curvewise: no input should cause this.",
                 "Report it, with the request if you can."),

@@ -88,3 +88,16 @@ def test_bad_comparisons_are_refused_naming_the_field(client, kinetics, model, f
     assert res.status_code == 422, res.data[:300]
     body = assert_problem(res, 422, res.get_json()["code"])
     assert any(key.startswith(field) for key in body["errors"]), body["errors"]
+
+
+def test_when_no_candidate_fits_every_candidates_error_is_named(client):
+    """3 points cannot determine logistic4's 4 or logistic5's 5 parameters (a count, no
+    reference needed): the problem names both, each under model.candidates[i] with its fix."""
+    res = post_json(client, "/v1/fit", {"x": [1, 2, 3], "y": [1, 2, 4], "model": {
+        "candidates": [{"family": "logistic4"}, {"family": "logistic5"}]}})
+    body = assert_problem(res, 422, "unfittable_input", "model.candidates")
+    for i, (family, p) in enumerate((("logistic4", 4), ("logistic5", 5))):
+        (entry,) = body["errors"][f"model.candidates[{i}]"]
+        assert entry.startswith(f"{family}, field x:"), entry
+        assert f"cannot determine {p} parameters" in entry and "To fix:" in entry, entry
+        assert f"Candidate {i}, {family}" in body["detail"], body["detail"]

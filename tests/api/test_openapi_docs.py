@@ -53,6 +53,19 @@ def test_openapi_is_3_1_and_lists_the_paths(spec):
         assert path in spec["paths"], path
 
 
+def test_every_path_of_the_readme_endpoint_table_is_in_the_document(spec):
+    """The README's "## Endpoints" table and /openapi.json list the same public paths
+    (/openapi.json itself is the document, not a path in it)."""
+    text = (ROOT / "README.md").read_text(encoding="utf-8")
+    table = text.split("## Endpoints", 1)[1].split("\n\n", 2)[1]
+    listed = {path.strip() for row in table.splitlines() if row.startswith(("| GET", "| POST"))
+              for path in row.split("|")[2].split(",")}
+    assert "/docs/examples/{file}" in listed
+    assert listed - {"/openapi.json"} <= set(spec["paths"]), listed - set(spec["paths"])
+    operation = spec["paths"]["/docs/examples/{file}"]["get"]
+    assert {"200", "404"} <= set(operation["responses"]), operation["responses"]
+
+
 def test_every_field_of_the_contract_has_a_description(spec):
     schemas = spec["components"]["schemas"]
     missing = [f"{name}.{field}" for name in sorted(_reachable(spec, MY_PATHS))
@@ -88,6 +101,21 @@ def test_docs_page_is_offline_and_covers_every_operation(client, spec):
             assert f"{method.upper()}</span> <code>{path}</code>" in html, (method, path)
     for field in spec["components"]["schemas"]["FitRequest"]["properties"]:
         assert f"<code>{field}</code>" in html
+
+
+@pytest.mark.parametrize("base", ["http://curves.example:9123", "https://10.1.2.3",
+                                  "http://[::1]:8771"])
+def test_docs_curl_lines_name_the_server_that_serves_the_page(client, base):
+    html = client.get("/docs", base_url=base).get_data(as_text=True)
+    assert f"curl -s -X POST {base}/v1/fit " in html
+    assert f"curl -s {base}/docs/examples/" in html  # the long bodies are fetched from it
+    assert "127.0.0.1:8000" not in html
+
+
+def test_docs_keep_the_placeholder_for_a_host_that_is_not_plain(client):
+    """A forged Host header never reaches the page (HTML) or its curl lines (shell)."""
+    html = client.get("/docs", headers={"Host": "x.example;rm$IFS-rf"}).get_data(as_text=True)
+    assert "curl -s -X POST http://127.0.0.1:8000/v1/fit " in html and "rm$IFS" not in html
 
 
 def test_readme_error_catalogue_matches_the_server():

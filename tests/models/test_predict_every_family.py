@@ -122,3 +122,27 @@ def test_openapi_documents_both_layouts(client):
         field = components[name]["properties"]["fitted_model"]
         assert {r["$ref"] for r in field["oneOf"]} == {"#/components/schemas/FittedModel",
                                                        "#/components/schemas/CurveDocument"}
+
+
+def _cubic_body():
+    rng = np.random.default_rng(418)
+    x = np.linspace(0.0, 5.0, 20)
+    y = 1.0 + 0.5 * x - 0.05 * x**3 + 0.01 * rng.standard_normal(x.size)
+    return {"x": x.tolist(), "y": y.tolist(), "model": {"degree": 3}}
+
+
+@pytest.mark.parametrize("body", [_builtin_body, _expression_body, _cubic_body])
+def test_a_vanishing_level_gives_bands_equal_to_the_fit(client, body):
+    """At level -> 0 every band's width -> 0 (its critical value is a quantile at a
+    vanishing probability: t -> 0, sqrt(p F_{p,df}) -> 0; for p = 4, level 1e-300, the F
+    quantile is about 1e-150, mpmath-checked in tests/core/test_quantiles.py): each band is
+    the fit, for every family alike. Was: null simultaneous bands with p > 2 (scipy's fdtri
+    gives NaN at such a level)."""
+    doc = _fit(client, body())["fitted_model"]
+    res = post_json(client, "/v1/predict", {"fitted_model": doc, "level": 1e-300,
+                                            "x": [0.5 * (doc["x_min"] + doc["x_max"])]})
+    assert res.status_code == 200, res.data[:500]
+    (row,) = res.get_json()["predictions"]
+    for name in COLUMNS:
+        if name not in ("fit", "se_mean"):
+            assert row[name] == pytest.approx(row["fit"], rel=1e-12, abs=0.0), (name, row)

@@ -93,16 +93,22 @@ def check_domain(spec: GridSpec, xs: np.ndarray, transform: str) -> None:
     bad = transforms.first_outside(transform, xs)
     if bad is None:
         return
-    if spec.x is not None:
-        field = f"grid.x[{bad}]"
-    elif bad == 0:
-        field = "grid.start"
-    elif bad == xs.size - 1:
-        field = "grid.stop"
-    else:
-        field = "grid"
     raise TransformError(
         f"Grid point {bad} (x = {float(xs[bad])!r}) is outside the domain of the {transform} "
-        f"transform of x (values must be {transforms.domain_words(transform)}).", field=field,
+        f"transform of x (values must be {transforms.domain_words(transform)}).",
+        field=grid_field(spec, xs, bad),
         fix="Give grid points inside that domain (grid.x, or grid.start and grid.stop on one "
             "side of it), or omit the grid to use the data range.")
+
+
+def grid_field(spec: GridSpec, xs: np.ndarray, bad: int) -> str:
+    """The field to name for grid point ``bad`` of ``xs`` (:func:`grid_points` of ``spec``):
+    ``grid.x[i]`` for an explicit grid, ``grid.start`` or ``grid.stop`` for an end, else
+    ``grid``."""
+    if spec.x is not None:
+        return f"grid.x[{bad}]"
+    if bad == 0:
+        return "grid.start"
+    if bad == xs.size - 1:
+        return "grid.stop"
+    return "grid"

@@ -23,6 +23,7 @@ from service.core.checks.known_sd import (
     simultaneous_normal_factor,
 )
 from service.core.checks.lack_of_fit import distinct_count
+from service.core.checks.quantiles import f_quantile
 from service.core.data.grid import grid_points
 from service.core.data.inputs import clean_data
 from service.core.errors import DesignError, SpecError
@@ -146,7 +147,7 @@ def predict(fitted: FittedCurve, x, *, level: float | None = None, m: int = 1) -
         crit, wide = normal_quantile(level), simultaneous_normal_factor(p, level)
     else:
         crit = float(-special.stdtrit(df, 0.5 * (1.0 - level))) if df > 0 else NAN
-        wide = float(np.sqrt(p * special.fdtri(p, df, level))) if df > 0 else NAN
+        wide = float(np.sqrt(p * f_quantile(p, df, level))) if df > 0 else NAN
     with np.errstate(all="ignore"):
         bands = band_values(fitted.model, xs, fitted.estimates, fitted.covariance,
                             fitted.noise_variance, crit, level, int(m),

@@ -24,11 +24,13 @@ from typing import NamedTuple
 import numpy as np
 
 from service.core.checks.known_sd import require_weights
+from service.core.data.grid import grid_points
 from service.core.data.inputs import clean_data
 from service.core.errors import DataError, DesignError, SpecError
 from service.core.nonlinear.analysis import report
 from service.core.nonlinear.builtin.definition import LOG, Builtin, series_of
 from service.core.nonlinear.builtin.derived import derived_rows
+from service.core.nonlinear.builtin.domain import check_grid
 from service.core.nonlinear.builtin.spec_check import check_spec, equation, scale_of
 from service.core.nonlinear.builtin.starts import Held, Start, automatic_starts
 from service.core.nonlinear.polish import CONVERGED
@@ -73,6 +75,9 @@ def fit_series(family: Builtin, x, y, weights=None, *, model: ModelSpec,
     with np.errstate(all="ignore"):
         data = clean_data(x, y, weights, options.missing)
         _check_data(family, scale, data.x, len(free))
+        if options.grid is not None:  # before the solve: a grid outside the domain is refused
+            check_grid(family, scale, options.grid, grid_points(
+                options.grid, float(data.x.min()), float(data.x.max()), options.max_grid_points))
         kept = best_fit(family, compiled, data, scale, held)
         kept = _canonical(family, compiled, data, held, kept)
         start = np.array([kept.start.values[name] for name in free])

@@ -1,0 +1,104 @@
+"""Where a built-in curve is defined in x, and refusing grid or prediction x outside it.
+
+A log-scale dose-response curve (``x^slope``) and the families raising x to a
+parameter (``power``, ``weibull``: :attr:`Builtin.x_domain` ``"nonnegative"``)
+are defined for x >= 0 only; their fit refuses data x < 0
+(:func:`service.core.nonlinear.builtin.fit.fit_series`). The same rule refuses a
+fit's grid and the x of ``/v1/predict`` (NaN there would be a silent null), with
+the field named and the fix in words, as the polynomial path does for its x
+transform (:func:`service.core.data.grid.check_domain`).
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from service.core.data.grid import grid_field
+from service.core.errors import DataError
+from service.core.nonlinear import analysis
+from service.core.nonlinear.builtin.definition import LINEAR, LOG, Builtin
+from service.core.spec import GridSpec
+
+LOG_MARK = "x^"
+"""The log-scale equations write ``(x/ec50)^slope`` as ``x^slope/ec50^slope``; the
+linear-scale ones ``exp(slope*(x - ec50))`` (a test holds every built-in to this)."""
+
+
+def nonnegative_x(family: Builtin, scale: str) -> bool:
+    """Whether the curve on ``scale`` needs x >= 0."""
+    return scale == LOG or family.x_domain == "nonnegative"
+
+
+def scale_of_equation(family: Builtin, expression: str) -> str:
+    """The x scale of a fitted curve of ``family`` from its canonical equation text."""
+    if len(family.scales) == 1:
+        return family.scales[0]
+    return LOG if LOG_MARK in expression.replace(" ", "") else LINEAR
+
+
+def where_words(family: Builtin, scale: str, *, article: str = "the") -> str:
+    """Why x must be >= 0, in words ("the logistic4 curve is on log x")."""
+    if scale == LOG:
+        return f"{article} {family.name} curve is on log x"
+    return f"{article} {family.name} curve raises x to a parameter's power"
+
+
+def first_negative(xs: np.ndarray) -> int | None:
+    """Position of the first x < 0, or None."""
+    found = np.flatnonzero(np.asarray(xs, dtype=float) < 0)
+    return None if found.size == 0 else int(found[0])
+
+
+def check_grid(family: Builtin, scale: str, spec: GridSpec, xs: np.ndarray) -> None:
+    """Refuse a fit's grid with a point x < 0 when the curve needs x >= 0.
+
+    ``xs`` are :func:`service.core.data.grid.grid_points` of ``spec``.
+
+    Raises
+    ------
+    DataError
+        Naming ``grid.x[i]``, ``grid.start``, ``grid.stop`` or ``grid``.
+    """
+    bad = first_negative(xs) if nonnegative_x(family, scale) else None
+    if bad is None:
+        return
+    other = ', or fit with model.scale = "linear"' if scale == LOG else ""
+    raise DataError(
+        f"Grid point {bad} (x = {float(xs[bad])!r}) is negative, but {where_words(family, scale)}"
+        ": the curve is defined for x >= 0 only.", field=grid_field(spec, xs, bad),
+        fix=f"{_lead(scale)}: give only grid points x >= 0 (grid.x, or grid.start >= 0), or "
+            f"omit the grid to use the data range{other}.")
+
+
+def check_prediction_x(family: Builtin, expression: str, xs: np.ndarray,
+                       field: str = "x") -> None:
+    """Refuse prediction x < 0 for a stored curve of ``family`` that needs x >= 0.
+
+    Raises
+    ------
+    DataError
+        Naming ``x[i]`` (``field[i]``) of the first negative value.
+    """
+    scale = scale_of_equation(family, expression)
+    bad = first_negative(xs) if nonnegative_x(family, scale) else None
+    if bad is None:
+        return
+    other = ', or refit with model.scale = "linear"' if scale == LOG else ""
+    raise DataError(
+        f"{field}[{bad}] = {float(xs[bad])!r} is negative, but "
+        f"{where_words(family, scale, article='the stored')}: the curve is defined for x >= 0 "
+        "only.",
+        field=f"{field}[{bad}]",
+        fix=f"{_lead(scale)}: send only x >= 0{other}.")
+
+
+def _lead(scale: str) -> str:
+    return "This curve is on log x" if scale == LOG else "This curve needs x >= 0"
+
+
+def predict(family: Builtin, fitted, x, *, level: float | None = None, m: int = 1):
+    """:func:`service.core.nonlinear.analysis.predict` after refusing x outside the curve's
+    domain (:func:`check_prediction_x`)."""
+    xs = np.array(x, dtype=float).reshape(-1)
+    check_prediction_x(family, fitted.expression, xs)
+    return analysis.predict(fitted, xs, level=level, m=m)
