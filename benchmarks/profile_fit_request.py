@@ -17,7 +17,14 @@ Not a gunicorn measurement: a worker adds its own HTTP parsing, socket work and 
 the request (bench_fit_overhead.py measures that, as CPU time per request). Nothing is
 asserted.
 
-Run: ``.venv/bin/python benchmarks/profile_fit_request.py [--requests 3000]``.
+``--baseline CHECKOUT`` instead compares the whole request of this checkout and of another
+(say the commit before a change, exported with ``git archive``): each measured in its own
+fresh interpreter with that checkout first on ``sys.path``, alternately, ``--rounds`` times;
+printed are the best wall and CPU (process) time per request of each and their ratio.
+Small changes need this: on a shared machine a single run swings by more than they move.
+
+Run: ``.venv/bin/python benchmarks/profile_fit_request.py [--requests 3000]
+[--baseline /tmp/base --rounds 6]``.
 """
 
 from __future__ import annotations
@@ -34,8 +41,10 @@ import time
 from pathlib import Path
 
 ROOT = Path(__file__).resolve().parent.parent
-if str(ROOT) not in sys.path:
-    sys.path.insert(0, str(ROOT))
+# --baseline runs this file with another checkout to be measured (it must come first)
+CHECKOUT = os.environ.get("CURVEWISE_PROFILE_CHECKOUT", str(ROOT))
+if sys.path[:1] != [CHECKOUT]:
+    sys.path.insert(0, CHECKOUT)
 os.environ.setdefault("PROMETHEUS_MULTIPROC_DIR", tempfile.mkdtemp(prefix="curvewise-prof-"))
 
 # (module, function, label): timed inside real requests; indented labels are inside others
@@ -163,10 +172,61 @@ def hook_costs(body: bytes, answer: bytes, count: int) -> dict[str, float]:
     }
 
 
+def whole_request(count: int, rounds: int = 5) -> tuple[float, float]:
+    """Best wall and CPU microseconds per request of this interpreter's checkout."""
+    from benchmarks.bench_fit_overhead import request_body
+
+    one = request_runner(quiet_app(), "/v1/fit", request_body())
+    for _ in range(min(count, 500)):
+        one()
+    gc.collect()
+    gc.freeze()
+    wall = cpu = float("inf")
+    for _ in range(rounds):
+        started, cpu_started = time.perf_counter(), time.process_time()
+        for _ in range(count):
+            one()
+        wall = min(wall, (time.perf_counter() - started) / count * 1e6)
+        cpu = min(cpu, (time.process_time() - cpu_started) / count * 1e6)
+    return wall, cpu
+
+
+def compare(baseline: Path, count: int, rounds: int) -> int:
+    """The whole request of this checkout and of ``baseline``, alternately, in fresh
+    interpreters (each checkout first on sys.path): best wall and CPU of each."""
+    import subprocess
+
+    roots = {"this checkout": ROOT, "baseline": baseline.resolve()}
+    best = {name: [float("inf"), float("inf")] for name in roots}
+    for _ in range(rounds):
+        for name, root in roots.items():
+            out = subprocess.run(
+                [sys.executable, str(Path(__file__).resolve()), "--whole", str(count)],
+                cwd=root, env={**os.environ, "CURVEWISE_PROFILE_CHECKOUT": str(root)}, check=True,
+                capture_output=True, text=True).stdout.split()
+            best[name] = [min(b, float(v)) for b, v in zip(best[name], out, strict=True)]
+    print(f"whole /v1/fit request in-process, best of {rounds} alternated runs x 5 rounds "
+          f"of {count} requests (us per request):")
+    for name, (wall, cpu) in best.items():
+        print(f"  {name:14s} wall {wall:7.1f}  CPU {cpu:7.1f}  ({roots[name]})")
+    (wall, cpu), (base_wall, base_cpu) = best.values()
+    print(f"this checkout / baseline: wall {wall / base_wall:.3f}, CPU {cpu / base_cpu:.3f}")
+    return 0
+
+
 def main(argv=None) -> int:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--requests", type=int, default=3000, help="requests per round")
+    parser.add_argument("--baseline", type=Path, metavar="CHECKOUT",
+                        help="compare the whole request with another checkout, alternately")
+    parser.add_argument("--rounds", type=int, default=6, help="alternations for --baseline")
+    parser.add_argument("--whole", type=int, metavar="N", help=argparse.SUPPRESS)
     args = parser.parse_args(argv)
+    if args.whole:  # one side of --baseline, in this interpreter's checkout
+        print(*(f"{v:.2f}" for v in whole_request(args.whole)))
+        return 0
+    if args.baseline is not None:
+        return compare(args.baseline, min(args.requests, 1000), args.rounds)
     from benchmarks.bench_fit_overhead import echo_app, request_body
 
     body = request_body()

@@ -13,6 +13,7 @@ import logging
 from types import FunctionType
 
 from flask import Flask, Response, request
+from flask.sessions import NullSession, SecureCookieSessionInterface
 from flask_smorest import Api
 from werkzeug.exceptions import HTTPException, InternalServerError
 
@@ -80,8 +81,21 @@ def fit_error_body(error: FitError) -> dict:
 MAX_REMEMBERED_FUNCTIONS = 1000
 
 
+class _SharedNullSession(SecureCookieSessionInterface):
+    """Flask's cookie sessions, with one read-only null session for every request instead of
+    a new one each (the API keeps no session: without a secret key Flask opens none; a null
+    session refuses every change, so one can serve all requests)."""
+
+    _null = NullSession()
+
+    def make_null_session(self, app: Flask) -> NullSession:
+        return self._null
+
+
 class CurvewiseFlask(Flask):
     """Flask app whose unhandled exceptions are logged once, by the 500 handler below."""
+
+    session_interface = _SharedNullSession()
 
     def ensure_sync(self, func):
         """Flask's answer per plain function, remembered: Flask asks it for every hook and

@@ -41,4 +41,5 @@ class OrjsonProvider(JSONProvider):
 
     def response(self, *args, **kwargs):
         obj = self._prepare_response_obj(args, kwargs)
-        return self._app.response_class(dumps_bytes(obj), mimetype="application/json")
+        # content_type, not mimetype: the same header without werkzeug's charset rule lookup
+        return self._app.response_class(dumps_bytes(obj), content_type="application/json")

@@ -194,12 +194,14 @@ class DeadlineMiddleware:
             _disarm(previous)
             _retire_if(fired and retire)
             raise
-        body = _GuardedBody(result, previous, lambda: _retire_if(fired and retire))
         if fired or environ.get(PRODUCED_KEY):
             # the answer is the 503 already, or wholly produced: only the server's writes are
             # left, and an interruption there would cut a finished answer short
-            body.disarm()
-        return body
+            _disarm(previous)
+            if not (fired and retire):
+                return result  # nothing is left to do after the body: the server closes it
+            return _GuardedBody(result, previous, lambda: _retire_if(True), armed=False)
+        return _GuardedBody(result, previous, lambda: _retire_if(fired and retire))
 
     def _timeout_response(self, environ, start_response, restart: bool):
         error = ComputeTimeout(self.limit)
@@ -244,11 +246,11 @@ def _disarm(previous: _Previous) -> None:
 class _GuardedBody:
     """Response iterable that keeps the timer armed until the server has the whole body."""
 
-    def __init__(self, body, previous, after) -> None:
+    def __init__(self, body, previous, after, armed: bool = True) -> None:
         self._body = body
         self._previous = previous
         self._after = after
-        self._armed = True
+        self._armed = armed
         self._closed = False
 
     def __iter__(self):

@@ -157,7 +157,7 @@ def incoming_request_id() -> str:
     """The request's own well-formed X-Request-ID, or a fresh random id."""
     # the WSGI variable of the header, read directly (request.headers.get derives the same key)
     given = request.environ.get(_REQUEST_ID_ENVIRON, "")
-    return given if _REQUEST_ID_OK.fullmatch(given) else random_request_id()
+    return given if given and _REQUEST_ID_OK.fullmatch(given) else random_request_id()
 
 
 def random_request_id() -> str:

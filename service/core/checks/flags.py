@@ -45,6 +45,8 @@ faulty series; ``tests/core/test_flag_calibration.py`` holds them to the levels.
 
 from __future__ import annotations
 
+import numpy as np
+
 from service.core.results import Diagnostics, Prediction, TrustFlag
 
 FAMILY_ALPHA = 0.05        # chance of any test-based caution/serious flag on a clean fit
@@ -98,8 +100,9 @@ def trust_flags(*, n: int, p: int, exact: bool, condition: float,
                              {"condition_number": condition, "threshold": COND_CAUTION}))
     if diagnostics is not None:
         out.extend(_from_diagnostics(diagnostics))
-    if grid is not None and grid.extrapolated.any():
-        k = int(grid.extrapolated.sum())
+    # count_nonzero: a direct C count (``.any()``/``.sum()`` go through numpy's reductions)
+    k = 0 if grid is None else int(np.count_nonzero(grid.extrapolated))
+    if k:
         out.append(TrustFlag("extrapolation", "caution",
                              f"{k} grid point(s) lie outside the range of the data; the curve "
                              "there is not supported by observations.",

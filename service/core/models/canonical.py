@@ -123,9 +123,11 @@ def to_vector(values) -> list:
 
 def to_matrix(values) -> list:
     """A list of rows of :func:`to_float` values (at least 2-D)."""
-    array = np.atleast_2d(np.asarray(values, dtype=float))
-    if array.ndim > 2:  # each row flattened, as to_vector does
-        array = array.reshape(array.shape[0], int(np.prod(array.shape[1:])))
+    array = np.asarray(values, dtype=float)
+    if array.ndim != 2:  # a writer's matrices are 2-D already (atleast_2d: ~2 us a call)
+        array = np.atleast_2d(array)
+        if array.ndim > 2:  # each row flattened, as to_vector does
+            array = array.reshape(array.shape[0], int(np.prod(array.shape[1:])))
     return _with_none(array + 0.0)  # + 0.0 turns -0.0 into 0.0
 
 
