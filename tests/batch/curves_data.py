@@ -119,7 +119,7 @@ def weibull(rng, count):
 def logistic5(rng, count):
     """Asymmetric falling dose-response curves on log x: 12 concentrations x 2 replicates,
     y_left ~100, y_right ~5, ec50 ~0.1, asymmetry ~0.5 (the high-dose end approached slowly)."""
-    x = np.repeat(np.geomspace(1e-3, 10.0, 12), 2)
+    x = np.repeat(np.geomspace(1e-4, 100.0, 13), 2)
     out = []
     for _ in range(count):
         left, right = 100.0 + rng.normal(0, 3), 5.0 + rng.normal(0, 2)
@@ -127,7 +127,7 @@ def logistic5(rng, count):
         g = 0.5 * np.exp(rng.normal(0, 0.2))
         c = 2.0 ** (1.0 / g) - 1.0
         y = right + (left - right) / (1.0 + c * (x / ec50) ** slope) ** g
-        out.append((x, y + rng.normal(0, 2.0, x.size)))
+        out.append((x, y + rng.normal(0, 1.0, x.size)))
     return out
 
 

@@ -18,11 +18,13 @@ into two phases), so the batch solves from every start the single fit solves fro
 * order grid best, shape, other minima; a start repeating an earlier one is dropped.
 
 Every start is solved (:func:`.curves_solver4.solve`); the kept fit is the first
-converged one of the lowest RSS (an RSS lower by 1e-9 relative replaces it). When a
-start did not converge yet got lower than the kept fit -- where the single fit solves on
-with its full budget and may report ``lower_rss_not_converged`` -- or when none
-converged, or when a logistic5 start ended at an asymmetry <= 0 (outside the family,
-where the single fit may have gone elsewhere), the series goes to the single fit.
+converged one of the lowest RSS (an RSS lower by 1e-9 relative replaces it). The series
+goes to the single fit whenever the single fit could keep another fit: when a start did
+not converge here (the single fit's solver, another method with restarts, may converge
+from it elsewhere, or report ``lower_rss_not_converged``), when a logistic5 start ended
+at an asymmetry <= 0 (outside the family), and when a logistic5 grid start at asymmetry 1
+would change the kept fit if it were replaced by its mirror (the same curve, so which one
+of the two the single fit's grid keeps is a matter of rounding).
 """
 
 from __future__ import annotations
@@ -140,9 +142,13 @@ def _grid(fid, u, y, sw, k, axes, shape):
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
-def grid_starts(fid, u, y, sw, k, pure, starts):
+def grid_starts(fid, u, y, sw, k, pure, starts, mirrors):
     """The grid's best point and next local minima of distinct RSS (nonlinear values into
-    the rows of ``starts``); returns how many (at most :data:`COUNT`)."""
+    the rows of ``starts``); returns how many (at most :data:`COUNT`).
+
+    A logistic5 start at asymmetry 1 is the same curve as its mirror (slope negated, the
+    ends swapped), so which of the two the grid keeps is a matter of rounding: the
+    mirror's nonlinear values go to the same row of ``mirrors`` (NaN slope: none)."""
     axes = np.empty((3, 2 * STEEPNESS.size + TWO_RATES.size))
     shape = np.empty(3, dtype=np.int64)
     rss = _grid(fid, u, y, sw, k, axes, shape)
@@ -182,8 +188,12 @@ def grid_starts(fid, u, y, sw, k, pure, starts):
         i1 = (at // n2) % n1
         i0 = at // (n1 * n2)
         starts[found, 0], starts[found, 1] = axes[0, i0], axes[1, i1]
+        mirrors[found, 0] = np.nan
         if fid != BIEXPONENTIAL:
             starts[found, 2] = axes[2, i2]
+            if axes[2, i2] == 1.0 and axes[0, 0] < 0:
+                mirrors[found, 0], mirrors[found, 1] = axes[0, n0 - 1 - i0], axes[1, i1]
+                mirrors[found, 2] = 1.0
         found += 1
         if found == COUNT:
             break
@@ -233,24 +243,43 @@ def peel(u, y, out, v):
     return True
 
 
+@numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
+def _solve_from(fid, nl, pooled, n, cols, coef, theta, mats, fj, work):
+    """Linear parameters at ``nl``, then solve on the pooled data (as
+    :func:`.curves_kernel._attempt`). Returns ``(started, code, rss, offset, iterations)``;
+    ``started`` False when the curve is not finite at ``nl`` (not a start)."""
+    ul, yl, swl, pure, k = pooled
+    lin = cols.shape[0]
+    if project(fid, nl, ul[:k], yl[:k], swl[:k], cols[:, :k], coef, work) == np.inf:
+        return False, -1, np.inf, np.nan, 0
+    for j in range(lin):
+        theta[j] = coef[j]
+    for j in range(theta.size - lin):
+        theta[lin + j] = nl[j]
+    c, rss, off, iters, _ = solve(fid, theta, ul[:k], yl[:k], swl[:k], mats, 200, pure, n, fj)
+    if fid != BIEXPONENTIAL and not theta[theta.size - 1] > 0:
+        c = -1                          # asymmetry <= 0: outside the family
+    return True, c, rss, off, iters
+
+
 @numba.njit(cache=True, nogil=True, error_model="numpy")
 def solve_starts(fid, x, u, y, lev, means, m, v, pooled, n, cols, coef, theta, best, mats,
                  fj, work):
-    """Solve from every start on the pooled data (as :func:`.curves_kernel._attempt`); the
-    kept estimates into ``best``.
+    """Solve from every start; the kept estimates into ``best``.
 
-    Returns ``(found, rss, start, iterations, current, code, offset, lower)``: ``start``
+    Returns ``(found, rss, start, iterations, current, code, offset, unsure)``: ``start``
     the kept start's code (0 shape, 1 grid best, j grid_local_j), ``current`` True when
-    the solver's scratch holds the kept fit (it was solved last), ``lower`` True when a
-    start that did not converge got lower than the kept fit (the single fit decides).
+    the solver's scratch holds the kept fit (it was solved last), ``unsure`` True when the
+    single fit may keep another fit: a start did not converge here (or ended at an
+    asymmetry <= 0, outside the family), or the mirror of a start would change the kept fit.
     """
     ul, yl, swl, pure, k = pooled
-    lin = cols.shape[0]
     p = theta.size
-    grid = np.empty((COUNT, 3))
+    free = p - cols.shape[0]
+    grid, mirrors = np.empty((COUNT, 3)), np.empty((COUNT, 3))
     starts = np.empty((MAX_STARTS, 3))
     tags = np.empty(MAX_STARTS, dtype=np.int64)
-    found_grid = grid_starts(fid, ul[:k], yl[:k], swl[:k], k, pure, grid)
+    found_grid = grid_starts(fid, ul[:k], yl[:k], swl[:k], k, pure, grid, mirrors)
     nl = np.empty(3)
     if fid == BIEXPONENTIAL:
         has_shape = peel(u, y, nl, v)
@@ -266,41 +295,54 @@ def solve_starts(fid, x, u, y, lev, means, m, v, pooled, n, cols, coef, theta, b
             candidate, tag = nl, SHAPE
         else:
             at = 0 if j == 0 else j - 1
+            if at >= found_grid:
+                continue
             candidate, tag = grid[at], at + 1
         repeat = False
         for t in range(total):          # a start equal to an earlier one (1e-9 relative)
             same = True
-            for q in range(p - lin):
+            for q in range(free):
                 same &= abs(candidate[q] - starts[t, q]) <= 1e-9 * abs(starts[t, q])
             repeat |= same
-        if repeat or (j == 0 and found_grid == 0):
+        if repeat:
             continue
         starts[total, :] = candidate
         tags[total] = tag
         total += 1
-    found, lower = False, False
-    best_rss, lowest_failed, start, spent, last = np.inf, np.inf, -1, 0, -1
+    found, unsure = False, False
+    best_rss, start, spent, last = np.inf, -1, 0, -1
     code, offset, current = -1, np.nan, False
+    outcome = np.full(MAX_STARTS, np.nan)      # RSS of each converged start (NaN: failed)
     for t in range(total):
-        if project(fid, starts[t], ul[:k], yl[:k], swl[:k], cols[:, :k], coef, work) == np.inf:
-            continue                    # the curve is not finite there: not a start
-        for j in range(lin):
-            theta[j] = coef[j]
-        for j in range(p - lin):
-            theta[lin + j] = starts[t, j]
-        c, rss, off, iters, _ = solve(fid, theta, ul[:k], yl[:k], swl[:k], mats, 200, pure, n,
-                                      fj)
+        started, c, rss, off, iters = _solve_from(fid, starts[t], pooled, n, cols, coef, theta,
+                                                  mats, fj, work)
         spent += iters
-        if fid != BIEXPONENTIAL and not theta[p - 1] > 0:
-            lower = True                # asymmetry <= 0: outside the family (the single fit
-            continue                    # may have gone elsewhere from here)
-        if c <= SMALL_GRADIENT:
-            if not found or rss < best_rss * (1.0 - SAME_RSS):
-                found, best_rss, start, last, code, offset = True, rss, tags[t], t, c, off
-                best[:] = theta
-        elif rss < lowest_failed:
-            lowest_failed = rss
+        if not started:
+            continue
+        if not 0 <= c <= SMALL_GRADIENT:
+            unsure = True
+            continue
+        outcome[t] = rss
+        if not found or rss < best_rss * (1.0 - SAME_RSS):
+            found, best_rss, start, last, code, offset = True, rss, tags[t], t, c, off
+            best[:] = theta
         current = last == t
-    if found:
-        lower |= lowest_failed < best_rss * (1.0 - SAME_RSS)
-    return found, best_rss, start, spent, current, code, offset, lower
+    for t in range(total):              # logistic5 at asymmetry 1: the mirror as well
+        at = tags[t] - 1
+        if unsure or at < 0 or mirrors[at, 0] != mirrors[at, 0]:
+            continue
+        started, c, rss, off, iters = _solve_from(fid, mirrors[at], pooled, n, cols, coef,
+                                                  theta, mats, fj, work)
+        spent += iters
+        current = False
+        if not started:
+            continue
+        if not 0 <= c <= SMALL_GRADIENT:
+            unsure = True
+            continue
+        other = rss                     # the lowest RSS had the grid kept the mirror
+        for s in range(total):
+            if s != t and outcome[s] == outcome[s]:
+                other = min(other, outcome[s])
+        unsure |= abs(other - best_rss) > SAME_RSS * best_rss
+    return found, best_rss, start, spent, current, code, offset, unsure
