@@ -10,8 +10,10 @@ tangent plane, an exact fit, or constant x.
 Per series: the shape start (:func:`.curves_starts.shape_start`) is solved first
 (:func:`.curves_solver4.solve`); the grid's best point too when the shape
 start did not converge, or always with ``always_grid`` (the single fit solves
-both and keeps the lowest converged). logistic4 is written with slope > 0
-(the mirror of a falling curve, as the single fit reports it). Then, at the
+both and keeps the lowest converged); logistic5 and biexponential from every start of
+the single fit (:mod:`.curves_multistart`). logistic4 is written with slope > 0
+(the mirror of a falling curve, as the single fit reports it), biexponential with
+k_fast > k_slow. Then, at the
 estimates, with ``e`` the weighted residuals and the tangent plane
 ``Q = sqrt(W) J R^-1``: standard errors ``sigma sqrt(diag (J'WJ)^-1)``,
 leverages ``h = rowsums(Q²)``, Durbin-Watson's d and its p-value from Q's
