@@ -22,6 +22,7 @@ match: :func:`test_series_the_engine_cannot_match_get_the_single_fit` covers tho
 from __future__ import annotations
 
 import numpy as np
+import orjson
 import pytest
 from scipy import stats
 from scipy.optimize import least_squares
@@ -96,9 +97,9 @@ def test_series_the_engine_cannot_match_get_the_single_fit():
     # seeded logistic5 plates where some starts run to the edge of the parameter space
     # (asymmetry -> 0 or infinity) or a start and its mirror at asymmetry 1 end apart
     model, make, _, _ = CASES["logistic5"]
-    series = make(np.random.default_rng(3), 20)
+    series = make(np.random.default_rng(3), 12)
     batch = fit_many_curves(*data.flat(series), model=model)
-    assert batch.ok.all() and batch.compiled.sum() >= 12 and not batch.compiled.all()
+    assert batch.ok.all() and batch.compiled.sum() >= 8 and not batch.compiled.all()
     for g, (xs, ys) in enumerate(series):
         ref = fit_series(xs, ys, model=model, options=RELATIVE)
         est = [c.estimate for c in ref.coefficients]
@@ -108,3 +109,32 @@ def test_series_the_engine_cannot_match_get_the_single_fit():
         else:                          # the single fit's own answer, notices and all
             assert np.array_equal(batch.estimates[g], est), g
             assert batch.notices.get(g, ()) == ref.warnings, g
+
+
+def test_threads_give_the_same_fits(monkeypatch):
+    from service.core.batch import curves
+    monkeypatch.setattr(curves, "CHUNK_SERIES", 5)          # several chunks: two threads
+    model, series, _ = _series("biexponential", 12)
+    x, y, lengths = data.flat(series)
+    one = fit_many_curves(x, y, lengths, model=model)
+    two = fit_many_curves(x, y, lengths, model=model, workers=2)
+    assert one.compiled.all() and np.array_equal(one.estimates, two.estimates)
+    assert np.array_equal(one.std_errors, two.std_errors)
+
+
+def test_json_batch_of_biexponential_curves_equals_v1_fit(client):
+    # oracle: the service's own /v1/fit answer for each series (parameters in report order)
+    model, series, _ = _series("biexponential", 3)
+    body = {"series": [{"id": f"s{i}", "x": x.tolist(), "y": y.tolist()}
+                       for i, (x, y) in enumerate(series)], "model": {"family": "biexponential"}}
+    res = client.post("/v1/batch", data=orjson.dumps(body), content_type="application/json")
+    assert res.status_code == 200, res.data[:300]
+    for result, (x, y) in zip(res.get_json()["results"], series, strict=True):
+        fit = result["fit"]
+        assert fit["parameters"] == ["a_fast", "k_fast", "a_slow", "k_slow"]
+        single = client.post("/v1/fit", data=orjson.dumps(
+            {"x": x.tolist(), "y": y.tolist(), "model": {"family": "biexponential"},
+             "grid": None}), content_type="application/json").get_json()
+        rows = single["coefficients"]
+        assert rel(fit["estimate"], [r["estimate"] for r in rows]) < 1e-7
+        assert rel(fit["std_error"], [r["std_error"] for r in rows]) < 1e-7
