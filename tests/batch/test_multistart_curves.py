@@ -138,3 +138,22 @@ def test_json_batch_of_biexponential_curves_equals_v1_fit(client):
         rows = single["coefficients"]
         assert rel(fit["estimate"], [r["estimate"] for r in rows]) < 1e-7
         assert rel(fit["std_error"], [r["std_error"] for r in rows]) < 1e-7
+
+
+@pytest.mark.parametrize("name", ["logistic5", "biexponential"])
+def test_bad_series_get_the_single_fits_error_or_answer(name):
+    model, good, _ = _series(name, 2)
+    x0, y0 = good[0]
+    bad = [(x0, np.where(np.arange(x0.size) == 5, np.nan, y0)),     # a missing y
+           (x0[:4], y0[:4]),                                          # too few points
+           (x0, np.full(x0.size, 7.0))]                               # constant y
+    batch = fit_many_curves(*data.flat([good[0], *bad, good[1]]), model=model)
+    assert batch.compiled.tolist() == [True, False, False, False, True]
+    for row, (xs, ys) in enumerate(bad, start=1):   # oracle: the single fit of that series
+        try:
+            ref = fit_series(xs, ys, model=model, options=RELATIVE)
+        except ValueError as single:
+            error = batch.errors[row]
+            assert (error.code, error.field) == (single.code, single.field)
+        else:
+            assert np.array_equal(batch.estimates[row], [c.estimate for c in ref.coefficients])
