@@ -225,15 +225,15 @@ def fit_rows(fid, x, y, w, offsets, rows, cut_t, cut_cook, sw_start, sw_coef, al
                 fj, basis_work)
             if lower:
                 continue
-        elif shape_start(fid, xs, u, ys, lev, means, m, nl, v[:n]):
+        if shape_start(fid, xs, u, ys, lev, means, m, nl, v[:n]):     # (False for those)
             ok, rss, off, iters, c, fresh = _attempt(fid, nl, n, pooled, cols, coef, theta,
                                                      mats, fj, basis_work)
             spent += iters
             if ok:
                 found, best_rss, current, code, offset = True, rss, True, c, off
                 best[:] = theta
-        if not is_multistart(fid) and (always_grid or not found) and grid_start(
-                fid, xs, u, ys, sw, cols, coef, nl, basis_work):
+        if (always_grid or not found) and grid_start(fid, xs, u, ys, sw, cols, coef, nl,
+                                                       basis_work):
             ok, rss, off, iters, c, fresh = _attempt(fid, nl, n, pooled, cols, coef, theta,
                                                      mats, fj, basis_work)
             spent += iters
