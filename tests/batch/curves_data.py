@@ -116,6 +116,47 @@ def weibull(rng, count):
     return out
 
 
+def logistic5(rng, count):
+    """Asymmetric falling dose-response curves on log x: 12 concentrations x 2 replicates,
+    y_left ~100, y_right ~5, ec50 ~0.1, asymmetry ~0.5 (the high-dose end approached slowly)."""
+    x = np.repeat(np.geomspace(1e-4, 100.0, 13), 2)
+    out = []
+    for _ in range(count):
+        left, right = 100.0 + rng.normal(0, 3), 5.0 + rng.normal(0, 2)
+        slope, ec50 = 1.2 * np.exp(rng.normal(0, 0.2)), 0.1 * np.exp(rng.normal(0, 0.5))
+        g = 0.5 * np.exp(rng.normal(0, 0.2))
+        c = 2.0 ** (1.0 / g) - 1.0
+        y = right + (left - right) / (1.0 + c * (x / ec50) ** slope) ** g
+        out.append((x, y + rng.normal(0, 1.0, x.size)))
+    return out
+
+
+def logistic5_linear(rng, count):
+    """Asymmetric rising curves on linear x (the linear-scale logistic5), 16 x 2 points."""
+    x = np.repeat(np.linspace(0.0, 10.0, 16), 2)
+    out = []
+    for _ in range(count):
+        mid, slope = 5.0 + rng.normal(0, 0.5), 1.0 * np.exp(rng.normal(0, 0.2))
+        g = 2.0 * np.exp(rng.normal(0, 0.2))
+        c = 2.0 ** (1.0 / g) - 1.0
+        y = 20.0 + (2.0 - 20.0) / (1.0 + c * np.exp(slope * (x - mid))) ** g
+        out.append((x, y + rng.normal(0, 0.3, x.size)))
+    return out
+
+
+def biexponential(rng, count):
+    """Two-phase decays: a fast phase ~8 at rate ~1, a slow one ~4 at rate ~0.1
+    (14 times from 0.25 to 24, geometrically spaced, x 2 replicates)."""
+    x = np.repeat(np.geomspace(0.25, 24.0, 14), 2)
+    out = []
+    for _ in range(count):
+        a_fast, k_fast = 8.0 * np.exp(rng.normal(0, 0.1)), 1.0 * np.exp(rng.normal(0, 0.2))
+        a_slow, k_slow = 4.0 * np.exp(rng.normal(0, 0.1)), 0.1 * np.exp(rng.normal(0, 0.2))
+        y = a_fast * np.exp(-k_fast * x) + a_slow * np.exp(-k_slow * x)
+        out.append((x, y + rng.normal(0, 0.1, x.size)))
+    return out
+
+
 def flat(series):
     """Concatenated x, y and the lengths of ``series`` ((x, y) pairs)."""
     return (np.concatenate([s[0] for s in series]), np.concatenate([s[1] for s in series]),

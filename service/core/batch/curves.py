@@ -40,7 +40,14 @@ import numpy as np
 
 from service.core.batch import layout
 from service.core.batch.curves_kernel import STATS, fit_rows
-from service.core.batch.curves_models import COMPILED, L4_LOG, N_PARAMETERS, POWER, WEIBULL
+from service.core.batch.curves_models import (
+    COMPILED,
+    L4_LOG,
+    L5_LOG,
+    N_PARAMETERS,
+    POWER,
+    WEIBULL,
+)
 from service.core.batch.curves_points import screen
 from service.core.batch.curves_post import finish
 from service.core.batch.curves_results import (
@@ -185,7 +192,7 @@ def _compiled(out, fid, x, y, w, lengths, offsets, workers, always_grid,
     p = N_PARAMETERS[fid]
     G = lengths.size
     take = np.flatnonzero(screen(x, y, np.empty(0) if w is None else w, offsets,
-                                 fid in (L4_LOG, POWER, WEIBULL), p + 2))
+                                 fid in (L4_LOG, L5_LOG, POWER, WEIBULL), p + 2))
     if take.size == 0:
         return np.arange(G)
     cut_t, cut_cook = _cut_tables(p, int(lengths[take].max()))

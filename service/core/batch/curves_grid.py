@@ -24,6 +24,7 @@ from service.core.batch.curves_models import (
     POWER,
     WEIBULL,
 )
+from service.core.batch.curves_models_extra import L5_LOG
 from service.core.batch.curves_starts import project
 
 STEEPNESS = np.geomspace(0.5, 100.0, 10)           # as builtin.dose_response and growth
@@ -52,8 +53,11 @@ def _geom(lo, hi, k, count):
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
 def grid_start(fid, x, u, y, sw, cols, coef, out, work):
-    """The best point of the family's grid (nonlinear values into ``out``); False if none.
+    """The best point of the family's grid (nonlinear values into ``out``); False if none
+    (and for logistic5 and biexponential, whose grids are :mod:`.curves_multistart_grid`'s).
     ``work``: scratch for :func:`.curves_starts.project`."""
+    if fid >= L5_LOG:
+        return False
     best = np.inf
     trial = np.empty(2)
     if fid == L4_LOG or fid == L4_LINEAR:

@@ -10,8 +10,10 @@ tangent plane, an exact fit, or constant x.
 Per series: the shape start (:func:`.curves_starts.shape_start`) is solved first
 (:func:`.curves_solver4.solve`); the grid's best point too when the shape
 start did not converge, or always with ``always_grid`` (the single fit solves
-both and keeps the lowest converged). logistic4 is written with slope > 0
-(the mirror of a falling curve, as the single fit reports it). Then, at the
+both and keeps the lowest converged); logistic5 and biexponential from every start of
+the single fit (:mod:`.curves_multistart`). logistic4 is written with slope > 0
+(the mirror of a falling curve, as the single fit reports it), biexponential with
+k_fast > k_slow. Then, at the
 estimates, with ``e`` the weighted residuals and the tangent plane
 ``Q = sqrt(W) J R^-1``: standard errors ``sigma sqrt(diag (J'WJ)^-1)``,
 leverages ``h = rowsums(Q²)``, Durbin-Watson's d and its p-value from Q's
@@ -30,6 +32,7 @@ import numpy as np
 
 from service.core.batch.curves_grid import grid_start
 from service.core.batch.curves_models import (
+    BIEXPONENTIAL,
     GAUSSIAN_PEAK,
     L4_LINEAR,
     L4_LOG,
@@ -38,6 +41,7 @@ from service.core.batch.curves_models import (
     evaluate,
     on_log_x,
 )
+from service.core.batch.curves_multistart import is_multistart, solve_starts
 from service.core.batch.curves_points import (
     pool,
     shapiro_w_p,
@@ -57,7 +61,7 @@ STATS = ("rss", "tss", "sum_log_w", "relative_offset", "iterations", "terminatio
          "max_correlation", "shapiro_wilk", "shapiro_wilk_p")
 """Columns of the ``stats`` output, in order."""
 S = {name: i for i, name in enumerate(STATS)}
-SHAPE, GRID = 0, 1          # the start a series' fit came from
+SHAPE, GRID, REWRITTEN = 0, 1, 5   # the start a series' fit came from (curves_post.STARTS)
 SAME_RSS = 1e-9             # as builtin.fit.SAME_RSS
 EXACT_RTOL = 1e-13          # as nonlinear.analysis.EXACT_RTOL
 _RSS, _TSS, _LOGW, _OFFSET, _ITER, _TERM, _START = 0, 1, 2, 3, 4, 5, 6
@@ -203,7 +207,7 @@ def fit_rows(fid, x, y, w, offsets, rows, cut_t, cut_cook, sw_start, sw_coef, al
     jac, mats = np.empty(p * nmax), np.empty((scratch_rows(p), p))
     work = np.empty((3 * p + 1, p))
     cols_all, q = np.empty((lin, nmax)), np.empty((p, nmax))
-    coef, nl, theta, best = np.empty(lin), np.empty(2), np.empty(p), np.empty(p)
+    coef, nl, theta, best = np.empty(lin), np.empty(3), np.empty(p), np.empty(p)
     ul_all, yl_all, swl_all = np.empty(nmax), np.empty(nmax), np.empty(nmax)
     for r in rows:
         a, b = offsets[r], offsets[r + 1]
@@ -224,7 +228,13 @@ def fit_rows(fid, x, y, w, offsets, rows, cut_t, cut_cook, sw_start, sw_coef, al
         pooled = (ul_all, yl_all, swl_all, ss_pure, k)
         found, best_rss, start, spent, current = False, np.inf, SHAPE, 0, False
         code, offset, fresh = -1, np.nan, False
-        if shape_start(fid, xs, u, ys, lev, means, m, nl, v[:n]):
+        if is_multistart(fid):          # logistic5, biexponential: every start, as the single fit
+            found, best_rss, start, spent, current, code, offset, lower = solve_starts(
+                fid, xs, u, ys, lev, means, m, v[:n], pooled, n, cols, coef, theta, best, mats,
+                fj, basis_work)
+            if lower:
+                continue
+        if shape_start(fid, xs, u, ys, lev, means, m, nl, v[:n]):     # (False for those)
             ok, rss, off, iters, c, fresh = _attempt(fid, nl, n, pooled, cols, coef, theta,
                                                      mats, fj, basis_work)
             spent += iters
@@ -250,6 +260,9 @@ def fit_rows(fid, x, y, w, offsets, rows, cut_t, cut_cook, sw_start, sw_coef, al
         if fid == GAUSSIAN_PEAK and theta[3] < 0:                  # the same curve, width > 0
             theta[3] = -theta[3]
             current = False
+        if fid == BIEXPONENTIAL and theta[2] < theta[3]:           # k_fast > k_slow
+            theta[0], theta[1], theta[2], theta[3] = best[1], best[0], best[3], best[2]
+            current, start = False, start + REWRITTEN
         if not current:     # the solver's state (factor, column norms) at the kept estimates
             code, rss, offset, _, fresh = solve(fid, theta, ul_all[:k], yl_all[:k],
                                                 swl_all[:k], mats, 200, ss_pure, n, fj)
@@ -293,4 +306,7 @@ def fit_rows(fid, x, y, w, offsets, rows, cut_t, cut_cook, sw_start, sw_coef, al
             tss += ws[i] * (ys[i] - swy / sw_total) ** 2
         row[_TSS], row[_LOGW] = tss, logw
         est[r] = theta
+        if fid == BIEXPONENTIAL:     # the report's order: a_fast, k_fast, a_slow, k_slow
+            est[r, 1], est[r, 2] = theta[2], theta[1]
+            se[r, 1], se[r, 2] = se[r, 2], se[r, 1]
         status[r] = 0

@@ -23,8 +23,8 @@ Jacobian columns are the linear basis of the start search (:func:`basis`):
 * weibull: ``plateau + (y0 - plateau) exp(-v)``, ``v = (x/tau)^shape`` computed on
   ``u = ln x`` like logistic4's log scale (``v = 0`` at x = 0 for shape > 0).
 
-The other built-in families are fitted series by series by the single-fit
-engine (:mod:`service.core.batch.curves`).
+logistic5 (both scales) and biexponential are in :mod:`.curves_models_extra`; every
+built-in family has a compiled kernel.
 """
 
 from __future__ import annotations
@@ -33,6 +33,9 @@ import math
 
 import numba
 import numpy as np
+
+from service.core.batch import curves_models_extra as extra
+from service.core.batch.curves_models_extra import BIEXPONENTIAL, L5_LINEAR, L5_LOG
 
 _SUM = {"reassoc", "nsz"}  # vectorized sums only; no assumption about NaN or infinity
 
@@ -43,20 +46,21 @@ COMPILED = {("logistic4", "log"): L4_LOG, ("logistic4", "linear"): L4_LINEAR,
             ("michaelis_menten", "linear"): MICHAELIS_MENTEN,
             ("logistic_growth", "linear"): LOGISTIC_GROWTH, ("gompertz", "linear"): GOMPERTZ,
             ("power", "linear"): POWER, ("gaussian_peak", "linear"): GAUSSIAN_PEAK,
-            ("weibull", "linear"): WEIBULL}
+            ("weibull", "linear"): WEIBULL, ("logistic5", "log"): L5_LOG,
+            ("logistic5", "linear"): L5_LINEAR, ("biexponential", "linear"): BIEXPONENTIAL}
 """Family id by ``(family name, x scale)``."""
 
-N_PARAMETERS = (4, 4, 3, 2, 3, 3, 2, 4, 4)
+N_PARAMETERS = (4, 4, 3, 2, 3, 3, 2, 4, 4, 5, 5, 4)
 """Parameters of each family id."""
 
-LINEAR_COLUMNS = (2, 2, 2, 1, 1, 1, 1, 2, 2)
+LINEAR_COLUMNS = (2, 2, 2, 1, 1, 1, 1, 2, 2, 2, 2, 2)
 """Conditionally linear parameters of each family id (the first ones of the order)."""
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
 def on_log_x(fid):
     """True when the family's ``u`` is ``ln x`` (-inf at x = 0)."""
-    return fid == L4_LOG or fid == WEIBULL
+    return fid == L4_LOG or fid == WEIBULL or fid == L5_LOG
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
@@ -69,6 +73,8 @@ def constants(fid, theta):
         return theta[3], -theta[2]
     if fid == WEIBULL:
         return math.log(theta[2]), 0.0
+    if fid >= L5_LOG:
+        return extra.constants(fid, theta)
     return 0.0, 0.0
 
 
@@ -109,6 +115,8 @@ def prepass(fid, theta, c0, u, buf):
         for i in range(n):
             t = (u[i] - centre) / width
             buf[i] = math.exp(-0.5 * t * t)
+    elif fid >= L5_LOG:
+        extra.prepass(fid, theta, c0, u, buf)
     else:
         shape = theta[3]
         for i in range(n):
@@ -119,6 +127,8 @@ def prepass(fid, theta, c0, u, buf):
 def point(fid, theta, c0, c1, ui, bi, row):
     """The curve at one point (returned) and its gradient into ``row`` (p values), from
     the point's :func:`prepass` value ``bi``."""
+    if fid >= L5_LOG:
+        return extra.point(fid, theta, c0, c1, ui, bi, row)
     if fid == L4_LOG or fid == L4_LINEAR:
         span = theta[0] - theta[1]
         dg = -bi * (1.0 - bi) * span           # d g / d (slope (u - c0)), g = 1/(1 + z)

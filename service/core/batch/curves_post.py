@@ -36,7 +36,10 @@ from service.core.checks.flags import POINTS_PER_PARAMETER, TEST_ALPHA
 from service.core.nonlinear.flags import CORRELATION_CUT, RELATIVE_SE_CUT
 
 LOG_2PI = math.log(2 * math.pi)
-STARTS = ("shape", "grid_best")
+_FIRST = ("shape", "grid_best", "grid_local_2", "grid_local_3", "grid_local_4")
+STARTS = _FIRST + tuple(f"{name}_rewritten" for name in _FIRST)
+"""Start codes of the kernel (:mod:`.curves_kernel`, :mod:`.curves_multistart`): the
+start, then the same written in the family's convention and solved again."""
 _BIT = {code: i for i, code in enumerate(CURVE_FLAG_CODES)}
 
 

@@ -112,7 +112,8 @@ def _line(u, v):
 def shape_start(fid, x, u, y, lev, means, m, out, v):
     """The nonlinear values read off the data's shape into ``out``; False when there is none
     (also for the families that start from the grid alone: logistic_growth, gompertz,
-    power, gaussian_peak, weibull)."""
+    power, gaussian_peak, weibull; and for logistic5 and biexponential, whose starts are
+    :mod:`.curves_multistart`'s)."""
     n = u.size
     if fid >= LOGISTIC_GROWTH:
         return False

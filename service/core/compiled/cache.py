@@ -18,6 +18,8 @@ from pathlib import Path
 
 KERNEL_MODULES = ("batch.basis", "batch.curves_grid", "batch.curves_kernel",
                   "batch.curves_linearize", "batch.curves_linearize4", "batch.curves_models",
+                  "batch.curves_models_extra", "batch.curves_multistart",
+                  "batch.curves_multistart_grid",
                   "batch.curves_points", "batch.curves_solver", "batch.curves_solver4",
                   "batch.curves_starts",
                   "batch.ftail", "batch.kernel", "batch.kernel_steps", "batch.residuals",

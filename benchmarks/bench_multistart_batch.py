@@ -1,0 +1,145 @@
+"""logistic5 and biexponential batches: the compiled multi-start engine against the single fit.
+
+Data (seeded, invented, the designs of tests/batch/curves_data.py):
+
+* ``logistic5``: falling asymmetric dose-response curves on log x, 13 concentrations
+  (1e-4 .. 100) x 2 replicates, y_left ~100, y_right ~5, ec50 ~0.1, asymmetry ~0.5, sd 1;
+* ``logistic5_linear``: rising asymmetric curves on linear x, 16 x 2 points, sd 0.3;
+* ``biexponential``: two-phase decays (8 at rate ~1, 4 at rate ~0.1), 14 times
+  (0.25 .. 24) x 2 replicates, sd 0.1.
+
+Measured in one run, old and new alternating (``--rounds`` each, the median printed), per
+CPU-second (``time.process_time``): the batch engine as it is
+(``service.core.batch.curves.fit_many_curves``, summary) and the same call with the compiled
+engine switched off (``compiled_family`` -> None: every series through the single fit, the
+path these families took before), on the first ``--single`` series. Also printed: the share
+of series the compiled engine hands to the single fit, and the agreement with the single fit
+on the first ``--check`` series (estimates relative to max(|estimate|, standard error), and
+plainly relative; standard errors relative).
+
+Nothing is asserted (speed is printed, never tested).
+
+Run: ``.venv/bin/python benchmarks/bench_multistart_batch.py [--series 2000] [--single 100]``.
+"""
+
+from __future__ import annotations
+
+import argparse
+import statistics
+import sys
+import time
+from pathlib import Path
+
+import numpy as np
+
+sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
+from service.core.batch import curves  # noqa: E402
+from service.core.families import fit_series  # noqa: E402
+from service.core.spec import FitOptions, ModelSpec  # noqa: E402
+
+SEED = 20261205
+
+
+def logistic5(rng, count, linear=False):
+    """Asymmetric logistic curves (see the module docstring)."""
+    if linear:
+        x = np.repeat(np.linspace(0.0, 10.0, 16), 2)
+    else:
+        x = np.repeat(np.geomspace(1e-4, 100.0, 13), 2)
+    out = []
+    for _ in range(count):
+        if linear:
+            mid, slope = 5.0 + rng.normal(0, 0.5), 1.0 * np.exp(rng.normal(0, 0.2))
+            g = 2.0 * np.exp(rng.normal(0, 0.2))
+            c = 2.0 ** (1.0 / g) - 1.0
+            y = 20.0 + (2.0 - 20.0) / (1.0 + c * np.exp(slope * (x - mid))) ** g
+            out.append((x, y + rng.normal(0, 0.3, x.size)))
+            continue
+        left, right = 100.0 + rng.normal(0, 3), 5.0 + rng.normal(0, 2)
+        slope, ec50 = 1.2 * np.exp(rng.normal(0, 0.2)), 0.1 * np.exp(rng.normal(0, 0.5))
+        g = 0.5 * np.exp(rng.normal(0, 0.2))
+        c = 2.0 ** (1.0 / g) - 1.0
+        y = right + (left - right) / (1.0 + c * (x / ec50) ** slope) ** g
+        out.append((x, y + rng.normal(0, 1.0, x.size)))
+    return out
+
+
+def biexponential(rng, count):
+    """Two-phase decays (see the module docstring)."""
+    x = np.repeat(np.geomspace(0.25, 24.0, 14), 2)
+    out = []
+    for _ in range(count):
+        a_fast, k_fast = 8.0 * np.exp(rng.normal(0, 0.1)), 1.0 * np.exp(rng.normal(0, 0.2))
+        a_slow, k_slow = 4.0 * np.exp(rng.normal(0, 0.1)), 0.1 * np.exp(rng.normal(0, 0.2))
+        y = a_fast * np.exp(-k_fast * x) + a_slow * np.exp(-k_slow * x)
+        out.append((x, y + rng.normal(0, 0.1, x.size)))
+    return out
+
+
+CASES = {"logistic5": (ModelSpec(family="logistic5"), lambda r, n: logistic5(r, n)),
+         "logistic5_linear": (ModelSpec(family="logistic5", scale="linear"),
+                              lambda r, n: logistic5(r, n, linear=True)),
+         "biexponential": (ModelSpec(family="biexponential"), biexponential)}
+
+
+def flat(series):
+    return (np.concatenate([s[0] for s in series]), np.concatenate([s[1] for s in series]),
+            np.array([s[0].size for s in series]))
+
+
+def cpu(fn):
+    start = time.process_time()
+    out = fn()
+    return time.process_time() - start, out
+
+
+def run(name: str, args) -> None:
+    model, make = CASES[name]
+    series = make(np.random.default_rng(SEED), args.series)
+    x, y, lengths = flat(series)
+    xs, ys, ls = flat(series[:args.single])
+    real = curves.compiled_family
+    curves.fit_many_curves(xs[:lengths[:2].sum()], ys[:lengths[:2].sum()], lengths[:2],
+                           model=model)                 # compile / load the kernels first
+    new_times, old_times, batch = [], [], None
+    for _ in range(args.rounds):
+        t, batch = cpu(lambda: curves.fit_many_curves(x, y, lengths, model=model))
+        new_times.append(t / args.series)
+        curves.compiled_family = lambda *a, **k: None
+        try:
+            t, _ = cpu(lambda: curves.fit_many_curves(xs, ys, ls, model=model))
+        finally:
+            curves.compiled_family = real
+        old_times.append(t / args.single)
+    new, old = statistics.median(new_times), statistics.median(old_times)
+    handed = 1.0 - batch.compiled.mean()
+    worst_scaled = worst_plain = worst_se = 0.0
+    for i, (sx, sy) in enumerate(series[:args.check]):
+        ref = fit_series(sx, sy, model=model, options=FitOptions(grid=None))
+        est = np.array([c.estimate for c in ref.coefficients])
+        se = np.array([c.std_error for c in ref.coefficients])
+        diff = np.abs(batch.estimates[i] - est)
+        worst_scaled = max(worst_scaled, float(np.max(diff / np.maximum(np.abs(est), se))))
+        worst_plain = max(worst_plain, float(np.max(diff / np.abs(est))))
+        worst_se = max(worst_se, float(np.max(np.abs(batch.std_errors[i] - se) / se)))
+    print(f"{name:17s} batch {1 / new:8.0f} series/CPU-s | single fit {1 / old:6.1f} "
+          f"series/CPU-s | ratio {old / new:6.1f}x | handed to the single fit "
+          f"{handed:5.1%} | agreement on {args.check}: estimates {worst_scaled:.1e} "
+          f"(of max(|est|, se); plain {worst_plain:.1e}), SEs {worst_se:.1e}")
+
+
+def main() -> None:
+    parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
+    parser.add_argument("--series", type=int, default=2_000)
+    parser.add_argument("--single", type=int, default=100,
+                        help="series through the single fit per round")
+    parser.add_argument("--check", type=int, default=100, help="series checked against /v1/fit")
+    parser.add_argument("--rounds", type=int, default=2)
+    parser.add_argument("--family", choices=sorted(CASES), action="append")
+    args = parser.parse_args()
+    for name in args.family or list(CASES):
+        run(name, args)
+
+
+if __name__ == "__main__":
+    main()
