@@ -18,6 +18,7 @@ import pytest
 from scipy import optimize
 
 from service.core import ModelSpec, fit_series
+from service.core.models import curve_batch
 from service.core.models.brent_batch import brent_many
 from service.core.models.curve_inverse import _CurveReader, invert_curve
 
@@ -76,7 +77,8 @@ def _same(a: float, b: float) -> bool:
 
 @pytest.mark.parametrize("name", ["log4", "log4_blank", "linear4", "log5", "decreasing",
                                   "peak"])
-def test_batched_inversion_equals_the_scalar_search(name):
+def test_batched_inversion_equals_the_scalar_search(name, monkeypatch):
+    monkeypatch.setattr(curve_batch, "CHUNK", 64)  # several blocks per request
     rng = np.random.default_rng([2026, len(name)])
     fitted = _series(name, rng)
     y, m = _readings(fitted, rng, 150)
@@ -131,3 +133,21 @@ def test_batched_brent_hands_back_brackets_without_a_sign_change_or_with_a_nan()
     assert roots[0] == -1.0 and resolved[0]
     assert not resolved[1]
     assert resolved[2] and abs(roots[2] - 0.25) <= 1e-15
+
+
+@pytest.mark.parametrize("name", ["log4", "decreasing"])
+def test_binary_search_finds_the_grid_crossings_of_the_full_table(name):
+    # oracle: the table of signs of values - y over every grid point (the general path)
+    rng = np.random.default_rng([77, len(name)])
+    fitted = _series(name, rng)
+    values = _CurveReader(fitted, fitted.level).values
+    assert np.all(np.diff(values) > 0) or np.all(np.diff(values) < 0)  # the fast path
+    y, _ = _readings(fitted, rng, 400)
+    fast = curve_batch._grid_crossings(values, y)
+    table = curve_batch._grid_crossings(values, y, table=True)
+    zero_at, change_at, n_zero, n_change = (np.asarray(v) for v in fast)
+    np.testing.assert_array_equal(n_zero, table[2])
+    np.testing.assert_array_equal(n_change, table[3])
+    np.testing.assert_array_equal(zero_at[n_zero == 1], table[0][n_zero == 1])
+    np.testing.assert_array_equal(change_at[n_change == 1], table[1][n_change == 1])
+    assert n_zero.sum() > 0 and n_change.sum() > 0

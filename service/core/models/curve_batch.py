@@ -8,12 +8,12 @@ one array operation, and every bracket of the block is refined together by
 :func:`~service.core.models.brent_batch.brent_many` (Brent's method, the same steps and
 tolerances as the scalar search, one function call per round for the whole block).
 
-Readings the grid does not settle alone go to the scalar search, unchanged: no root or
-several roots in the range (the ladder beyond the range, ``outside_range`` /
-``no_real_root`` / ``multiple_roots_in_range``), and any bracket on which the batched
-search met a NaN or did not converge. An interval end with no sign change of ``h`` on
-the grid is looked for on the ladder beyond the range by the scalar
-:meth:`~service.core.models.curve_inverse._CurveReader.limit_beyond`.
+The ladder beyond the range (the nearest root outside it for a reading with none
+inside, an interval end with no sign change of ``h`` on the grid) is walked for all
+readings together too (:func:`~service.core.models.ladder_batch.first_crossings`).
+Only readings with several roots in the range (``multiple_roots_in_range``) and any
+reading on which a batched search met a NaN or did not converge go to the scalar
+search, unchanged.
 """
 
 from __future__ import annotations
@@ -24,6 +24,7 @@ import numpy as np
 
 from service.core.models.brent_batch import brent_many
 from service.core.models.inverse import InverseEstimate
+from service.core.models.ladder_batch import first_crossings
 
 CHUNK = 256  # readings per block: a few (CHUNK x grid) arrays of doubles, ~8 MB each
 
@@ -52,43 +53,83 @@ def read_all(reader, y: np.ndarray, m: np.ndarray) -> tuple[InverseEstimate, ...
 
 
 def _read_block(reader, y: np.ndarray, m: np.ndarray) -> list[InverseEstimate]:
-    x_hat, settled = _estimates(reader, y)
+    x_hat, settled, unreached = _estimates(reader, y)
     answers: list[InverseEstimate | None] = [None] * len(y)
-    for j in np.flatnonzero(~settled):
-        answers[j] = reader.read(float(y[j]), int(m[j]))
+    beyond, found = _outside_roots(reader, y[unreached])
+    for k, j in enumerate(np.flatnonzero(unreached)):
+        if found[k]:
+            status = "no_real_root" if math.isnan(beyond[k]) else "outside_range"
+            others = () if math.isnan(beyond[k]) else (float(beyond[k]),)
+            answers[j] = InverseEstimate(float(y[j]), int(m[j]), math.nan, math.nan, math.nan,
+                                         status, others)
     rows = np.flatnonzero(settled)
     if rows.size:
         lower, upper, status, fallback = _intervals(reader, x_hat[rows], y[rows], m[rows])
         for k, j in enumerate(rows):
-            if fallback[k]:
-                answers[j] = reader.read(float(y[j]), int(m[j]))
-                continue
-            final = status[k] if reader.monotone else "not_monotone"
-            answers[j] = InverseEstimate(float(y[j]), int(m[j]), float(x_hat[j]),
-                                         float(lower[k]), float(upper[k]), final, ())
+            if not fallback[k]:
+                final = status[k] if reader.monotone else "not_monotone"
+                answers[j] = InverseEstimate(float(y[j]), int(m[j]), float(x_hat[j]),
+                                             float(lower[k]), float(upper[k]), final, ())
+    for j, answer in enumerate(answers):
+        if answer is None:  # several roots in the range, or a batched search failed
+            answers[j] = reader.read(float(y[j]), int(m[j]))
     return answers
 
 
-def _estimates(reader, y: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """The single root in the range of each reading; ``settled`` False where there is not
-    exactly one (or its search failed): those readings take the scalar path."""
+def _outside_roots(reader, y: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """The nearest root beyond the range of readings with none inside: below ``x_min``
+    first, then above ``x_max`` (NaN where neither); ``found`` False where a search failed."""
+    below, found = first_crossings(reader.lo, reader._ladder(-1),
+                                   lambda x, r: reader.f(x) - y[r], y.size)
+    rest = np.flatnonzero(np.isnan(below) & found)
+    above, found_above = first_crossings(reader.hi, reader._ladder(+1),
+                                         lambda x, r: reader.f(x) - y[rest[r]], rest.size)
+    below[rest], found[rest] = above, found_above
+    return below, found
+
+
+def _estimates(reader, y: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """The single root in the range of each reading (``settled``), and which readings have
+    none (``unreached``); neither where there are several or the search failed."""
     grid = reader.grid
-    gap = reader.values[None, :] - y[:, None]
-    zero = gap == 0.0
-    change = np.sign(gap[:, :-1]) * np.sign(gap[:, 1:]) < 0
-    n_zero, n_change = zero.sum(axis=1), change.sum(axis=1)
+    zero_at, change_at, n_zero, n_change = _grid_crossings(reader.values, y)
     x_hat = np.full(y.size, math.nan)
     on_grid = (n_zero == 1) & (n_change == 0)
-    x_hat[on_grid] = grid[np.argmax(zero[on_grid], axis=1)]
+    x_hat[on_grid] = grid[zero_at[on_grid]]
     crossing = np.flatnonzero((n_zero == 0) & (n_change == 1))
     settled = on_grid.copy()
     if crossing.size:
-        i = np.argmax(change[crossing], axis=1)
+        i = change_at[crossing]
         roots, resolved = brent_many(lambda x, r: reader.f(x) - y[crossing[r]],
                                      grid[i], grid[i + 1])
         x_hat[crossing] = roots
         settled[crossing] = resolved
-    return x_hat, settled
+    return x_hat, settled, (n_zero == 0) & (n_change == 0)
+
+
+def _grid_crossings(values: np.ndarray, y: np.ndarray, table: bool = False):
+    """Per reading: the first grid index where ``values == y``, the first interval where
+    ``values - y`` changes sign, and how many of each. By binary search when the values
+    are finite and strictly monotone (one of either at most), else (or ``table``) on a
+    full table of readings by grid points."""
+    step = np.diff(values)
+    if not table and np.all(np.isfinite(values)) and (np.all(step > 0) or np.all(step < 0)):
+        rising = step[0] > 0
+        ordered = values if rising else values[::-1]
+        pos = np.searchsorted(ordered, y, side="left")
+        hit = (pos < ordered.size) & (ordered[np.minimum(pos, ordered.size - 1)] == y)
+        inside = ~hit & (pos > 0) & (pos < ordered.size)
+        if not rising:  # index in the reversed order back to the grid's
+            zero_at, change_at = ordered.size - 1 - pos, ordered.size - 1 - pos
+        else:
+            zero_at, change_at = pos, pos - 1
+        return (np.clip(zero_at, 0, None), np.clip(change_at, 0, None), hit.astype(int),
+                inside.astype(int))
+    gap = values[None, :] - y[:, None]
+    zero = gap == 0.0
+    change = np.sign(gap[:, :-1]) * np.sign(gap[:, 1:]) < 0
+    return (np.argmax(zero, axis=1), np.argmax(change, axis=1), zero.sum(axis=1),
+            change.sum(axis=1))
 
 
 def _intervals(reader, x_hat, y, m):
@@ -114,12 +155,10 @@ def _intervals(reader, x_hat, y, m):
     for side in (0, 1):
         failed |= ~limits[side][1]
     lo_x, hi_x = limits[0][0], limits[1][0]
-    for k in np.flatnonzero(beyond[0] & ~failed):
-        found = reader.limit_beyond(-1, float(y[rows[k]]), int(mm[k]))
-        lo_x[k] = math.nan if found is None else found
-    for k in np.flatnonzero(beyond[1] & ~failed):
-        found = reader.limit_beyond(+1, float(y[rows[k]]), int(mm[k]))
-        hi_x[k] = math.nan if found is None else found
+    for direction, limit, need in ((-1, lo_x, beyond[0]), (+1, hi_x, beyond[1])):
+        need = np.flatnonzero(need & ~failed)
+        limit[need], ok = _limits_beyond(reader, direction, y[rows][need], mm[need])
+        failed[need] |= ~ok
     with np.errstate(invalid="ignore"):
         elsewhere = (grid[None, :] < lo_x[:, None]) | (grid[None, :] > hi_x[:, None])
         disjoint = np.any(elsewhere & (h <= 0), axis=1)
@@ -129,6 +168,13 @@ def _intervals(reader, x_hat, y, m):
         exceeds, "interval_exceeds_range", np.where(disjoint, "interval_disjoint", "ok")))
     lower[rows], upper[rows], status[rows], fallback[rows] = lo_x, hi_x, block, failed
     return lower, upper, status, fallback
+
+
+def _limits_beyond(reader, direction: int, y: np.ndarray, m: np.ndarray):
+    """Interval limits beyond one end of the range, on the ladder (NaN: unbounded)."""
+    end = reader.lo if direction < 0 else reader.hi
+    return first_crossings(end, reader._ladder(direction),
+                           lambda x, r: reader.outside_band(x, y[r], m[r]), y.size)
 
 
 def _grid_limits(reader, h, x_hat, y, m):
