@@ -134,65 +134,34 @@ def _grid_crossings(values: np.ndarray, y: np.ndarray, table: bool = False):
 
 def _intervals(reader, x_hat, y, m):
     """Interval limits and band status of each estimate; ``fallback`` where a batched
-    search failed (the reading is redone by the scalar path)."""
-    count, grid = y.size, reader.grid
+    search failed (the reading is redone by the scalar path). Readings are taken by
+    replicate count (one band each)."""
+    count = y.size
     lower, upper = np.full(count, math.nan), np.full(count, math.nan)
     status = np.full(count, "interval_undefined", dtype=object)
     fallback = np.zeros(count, dtype=bool)
-    counts, which = np.unique(m, return_inverse=True)
-    bands = [reader._band(int(k)) for k in counts]
-    defined = np.array([bool(np.all(np.isfinite(lo)) and np.all(np.isfinite(up)))
-                        for lo, up in bands])[which]
-    rows = np.flatnonzero(defined)
-    if rows.size == 0:
-        return lower, upper, status, fallback
-    band_lo = np.stack([band[0] for band in bands])[which[rows]]
-    band_up = np.stack([band[1] for band in bands])[which[rows]]
-    y0, mm, xh = y[rows, None], m[rows], x_hat[rows]
-    h = np.maximum(band_lo - y0, y0 - band_up)
-    limits, beyond = _grid_limits(reader, h, xh, y[rows], mm)
-    failed = np.zeros(rows.size, dtype=bool)
-    for side in (0, 1):
-        failed |= ~limits[side][1]
-    lo_x, hi_x = limits[0][0], limits[1][0]
-    for direction, limit, need in ((-1, lo_x, beyond[0]), (+1, hi_x, beyond[1])):
-        need = np.flatnonzero(need & ~failed)
-        limit[need], ok = _limits_beyond(reader, direction, y[rows][need], mm[need])
-        failed[need] |= ~ok
-    with np.errstate(invalid="ignore"):
-        elsewhere = (grid[None, :] < lo_x[:, None]) | (grid[None, :] > hi_x[:, None])
-        disjoint = np.any(elsewhere & (h <= 0), axis=1)
-        exceeds = (lo_x < reader.lo) | (hi_x > reader.hi)
-    unbounded = np.isnan(lo_x) | np.isnan(hi_x)
-    block = np.where(unbounded, "interval_unbounded", np.where(
-        exceeds, "interval_exceeds_range", np.where(disjoint, "interval_disjoint", "ok")))
-    lower[rows], upper[rows], status[rows], fallback[rows] = lo_x, hi_x, block, failed
+    for k in np.unique(m):
+        band_lo, band_up = reader._band(int(k))
+        rows = np.flatnonzero(m == k)
+        if np.all(np.isfinite(band_lo)) and np.all(np.isfinite(band_up)):
+            lower[rows], upper[rows], status[rows], fallback[rows] = _band_limits(
+                reader, band_lo, band_up, x_hat[rows], y[rows], m[rows])
     return lower, upper, status, fallback
 
 
-def _limits_beyond(reader, direction: int, y: np.ndarray, m: np.ndarray):
-    """Interval limits beyond one end of the range, on the ladder (NaN: unbounded)."""
-    end = reader.lo if direction < 0 else reader.hi
-    return first_crossings(end, reader._ladder(direction),
-                           lambda x, r: reader.outside_band(x, y[r], m[r]), y.size)
-
-
-def _grid_limits(reader, h, x_hat, y, m):
-    """Each side's first grid point moving away from the estimate where the band leaves
-    y0 (``h > 0``), refined by the batched Brent search between it and the point before
-    (the estimate when it is the nearest). Returns ``((limit, resolved), ...)`` per side
-    and, per side, where no such grid point exists (the ladder beyond the range decides)."""
+def _band_limits(reader, band_lo, band_up, x_hat, y, m):
+    """Limits and status for readings sharing one (finite) band. ``h > 0`` (the band
+    leaves y0) is, exactly, ``lower > y0 or upper < y0``, taken as a table of booleans."""
     grid, size = reader.grid, reader.grid.size
-    positive = h > 0
-    left_of = grid[None, :] < x_hat[:, None]
-    right_of = grid[None, :] > x_hat[:, None]
-    left = positive & left_of
-    right = positive & right_of
+    leaves = (band_lo[None, :] > y[:, None]) | (band_up[None, :] < y[:, None])
+    columns = np.arange(size)[None, :]
+    nearest_left = np.searchsorted(grid, x_hat, side="left") - 1  # last grid x < x_hat
+    nearest_right = np.searchsorted(grid, x_hat, side="right")  # first grid x > x_hat
+    left = leaves & (columns <= nearest_left[:, None])
+    right = leaves & (columns >= nearest_right[:, None])
     has_left, has_right = left.any(axis=1), right.any(axis=1)
     j_left = size - 1 - np.argmax(left[:, ::-1], axis=1)
     j_right = np.argmax(right, axis=1)
-    nearest_left = left_of.sum(axis=1) - 1
-    nearest_right = size - right_of.sum(axis=1)
     near_left = np.where(j_left == nearest_left, x_hat, grid[np.minimum(j_left + 1, size - 1)])
     near_right = np.where(j_right == nearest_right, x_hat, grid[np.maximum(j_right - 1, 0)])
     a = np.concatenate([grid[j_left][has_left], near_right[has_right]])
@@ -201,10 +170,29 @@ def _grid_limits(reader, h, x_hat, y, m):
     roots, resolved = brent_many(
         lambda x, r: reader.outside_band(x, y[owners[r]], m[owners[r]]), a, b)
     split = int(has_left.sum())
-    sides = []
-    for side, has in ((slice(0, split), has_left), (slice(split, None), has_right)):
-        limit = np.full(y.size, math.nan)
-        ok = np.ones(y.size, dtype=bool)
-        limit[has], ok[has] = roots[side], resolved[side]
-        sides.append((limit, ok))
-    return sides, (~has_left, ~has_right)
+    lo_x, hi_x = np.full(y.size, math.nan), np.full(y.size, math.nan)
+    failed = np.zeros(y.size, dtype=bool)
+    lo_x[has_left], hi_x[has_right] = roots[:split], roots[split:]
+    failed[owners] |= ~resolved
+    for direction, limit, need in ((-1, lo_x, ~has_left), (+1, hi_x, ~has_right)):
+        need = np.flatnonzero(need & ~failed)
+        limit[need], ok = _limits_beyond(reader, direction, y[need], m[need])
+        failed[need] |= ~ok
+    # the band contains y0 somewhere outside [lo_x, hi_x]: at its first or last such point
+    inside = ~leaves
+    first_in = np.argmax(inside, axis=1)
+    last_in = size - 1 - np.argmax(inside[:, ::-1], axis=1)
+    with np.errstate(invalid="ignore"):
+        disjoint = inside.any(axis=1) & ((grid[first_in] < lo_x) | (grid[last_in] > hi_x))
+        exceeds = (lo_x < reader.lo) | (hi_x > reader.hi)
+    unbounded = np.isnan(lo_x) | np.isnan(hi_x)
+    status = np.where(unbounded, "interval_unbounded", np.where(
+        exceeds, "interval_exceeds_range", np.where(disjoint, "interval_disjoint", "ok")))
+    return lo_x, hi_x, status.astype(object), failed
+
+
+def _limits_beyond(reader, direction: int, y: np.ndarray, m: np.ndarray):
+    """Interval limits beyond one end of the range, on the ladder (NaN: unbounded)."""
+    end = reader.lo if direction < 0 else reader.hi
+    return first_crossings(end, reader._ladder(direction),
+                           lambda x, r: reader.outside_band(x, y[r], m[r]), y.size)
