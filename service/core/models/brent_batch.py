@@ -91,6 +91,8 @@ class _BrentState:
         self.delta = self.sbis = np.zeros_like(a)
 
     def keep(self, mask: np.ndarray) -> None:
+        if mask.all():
+            return
         for name in ("rows", "xtol", "xpre", "fpre", "xcur", "fcur", "xblk", "fblk", "spre",
                      "scur", "delta", "sbis"):
             setattr(self, name, getattr(self, name)[mask])

@@ -26,7 +26,8 @@ from service.core.models.brent_batch import brent_many
 from service.core.models.inverse import InverseEstimate
 from service.core.models.ladder_batch import first_crossings
 
-CHUNK = 256  # readings per block: a few (CHUNK x grid) arrays of doubles, ~8 MB each
+CHUNK = 256  # readings per block: a few (CHUNK x grid) tables, 1 MB per boolean table
+BATCH_FROM = 2  # fewer readings than this take the scalar search (same answers, less set-up)
 
 
 def read_all(reader, y: np.ndarray, m: np.ndarray) -> tuple[InverseEstimate, ...]:
@@ -46,6 +47,8 @@ def read_all(reader, y: np.ndarray, m: np.ndarray) -> tuple[InverseEstimate, ...
     tuple of InverseEstimate
         One per reading, in order.
     """
+    if len(y) < BATCH_FROM:  # one reading: the scalar search costs less than the set-up
+        return tuple(reader.read(float(v), int(k)) for v, k in zip(y, m, strict=True))
     out: list[InverseEstimate] = []
     for start in range(0, len(y), CHUNK):
         out.extend(_read_block(reader, y[start:start + CHUNK], m[start:start + CHUNK]))
@@ -157,10 +160,11 @@ def _band_limits(reader, band_lo, band_up, x_hat, y, m):
     columns = np.arange(size)[None, :]
     nearest_left = np.searchsorted(grid, x_hat, side="left") - 1  # last grid x < x_hat
     nearest_right = np.searchsorted(grid, x_hat, side="right")  # first grid x > x_hat
-    left = leaves & (columns <= nearest_left[:, None])
+    reverse = np.ascontiguousarray(leaves[:, ::-1])  # last-true searches run forwards
+    left = reverse & (columns >= (size - 1 - nearest_left)[:, None])
     right = leaves & (columns >= nearest_right[:, None])
     has_left, has_right = left.any(axis=1), right.any(axis=1)
-    j_left = size - 1 - np.argmax(left[:, ::-1], axis=1)
+    j_left = size - 1 - np.argmax(left, axis=1)
     j_right = np.argmax(right, axis=1)
     near_left = np.where(j_left == nearest_left, x_hat, grid[np.minimum(j_left + 1, size - 1)])
     near_right = np.where(j_right == nearest_right, x_hat, grid[np.maximum(j_right - 1, 0)])
@@ -181,7 +185,7 @@ def _band_limits(reader, band_lo, band_up, x_hat, y, m):
     # the band contains y0 somewhere outside [lo_x, hi_x]: at its first or last such point
     inside = ~leaves
     first_in = np.argmax(inside, axis=1)
-    last_in = size - 1 - np.argmax(inside[:, ::-1], axis=1)
+    last_in = size - 1 - np.argmax(~reverse, axis=1)
     with np.errstate(invalid="ignore"):
         disjoint = inside.any(axis=1) & ((grid[first_in] < lo_x) | (grid[last_in] > hi_x))
         exceeds = (lo_x < reader.lo) | (hi_x > reader.hi)
