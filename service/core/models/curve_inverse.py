@@ -20,6 +20,10 @@ A reading the curve reaches only outside the range is ``outside_range`` (that x
 in ``other_roots``); one it never reaches within ``FAR_WIDTHS`` range widths (beyond
 an asymptote) is ``no_real_root``. The statuses are those of the polynomials
 (:data:`service.core.models.inverse.STATUSES`).
+
+:func:`invert_curve` runs this search for all readings together
+(:mod:`service.core.models.curve_batch`); :meth:`_CurveReader.read`, the search for one
+reading, is its fallback and its reference.
 """
 
 from __future__ import annotations
