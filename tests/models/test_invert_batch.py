@@ -127,12 +127,14 @@ def test_batched_brent_hands_back_brackets_without_a_sign_change_or_with_a_nan()
     # one whose function turns NaN inside is left unresolved for the scalar path
     def fn(x, rows):
         out = np.where(rows == 0, x + 3.0, x - 0.25)
-        return np.where((rows == 1) & (x > 0.2) & (x < 0.8), np.nan, out)
+        return np.where((rows % 2 == 1) & (x > 0.2) & (x < 0.8), np.nan, out)
 
-    roots, resolved = brent_many(fn, np.array([-1.0, -1.0, 0.0]), np.array([1.0, 1.0, 1.0]))
+    roots, resolved = brent_many(fn, np.array([-1.0, -1.0, 0.0, 0.5]),
+                                 np.array([1.0, 1.0, 1.0, 1.0]))
     assert roots[0] == -1.0 and resolved[0]
     assert not resolved[1]
     assert resolved[2] and abs(roots[2] - 0.25) <= 1e-15
+    assert not resolved[3]  # NaN at an end: the scalar search decides
 
 
 @pytest.mark.parametrize("name", ["log4", "decreasing"])

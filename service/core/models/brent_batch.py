@@ -8,8 +8,8 @@ otherwise. Only the function evaluations are shared: each round evaluates the fu
 once for every bracket still open, so a plate of readings costs one array call per round
 instead of one Python call per reading and round.
 
-A bracket that meets a NaN or is not converged after :data:`MAXITER` rounds is handed
-back unresolved (the scalar search raises there), for the caller to decide.
+A bracket that meets a NaN, has a non-finite end, or is not converged after
+:data:`MAXITER` rounds is handed back unresolved, for the caller to decide.
 """
 
 from __future__ import annotations
@@ -42,7 +42,9 @@ def brent_many(fn: BatchFunction, a, b) -> tuple[np.ndarray, np.ndarray]:
         The root of each bracket. Where re-evaluating the ends shows no sign change
         (rounding) or a non-finite value, the end nearer zero, as the scalar search does.
     resolved : ndarray of bool
-        False where the search met a NaN or did not converge (the scalar search raises).
+        False where the search met a NaN or did not converge (the scalar search raises),
+        or an end was not finite (a model that fails on one point fails the whole call,
+        so the scalar search decides).
     """
     a = np.asarray(a, dtype=float)
     b = np.asarray(b, dtype=float)
@@ -57,6 +59,8 @@ def brent_many(fn: BatchFunction, a, b) -> tuple[np.ndarray, np.ndarray]:
         no_change = ~finite | (fa * fb > 0)
         nearer = np.where((np.abs(fa) <= np.abs(fb)) | ~np.isfinite(fb), a, b)
         roots[no_change] = nearer[no_change]
+        # a non-finite end may come from another bracket's point failing the shared call
+        resolved[~finite] = False
         at_a = ~no_change & (fa == 0)
         at_b = ~no_change & ~at_a & (fb == 0)
         roots[at_a], roots[at_b] = a[at_a], b[at_b]
