@@ -6,7 +6,9 @@ the batched Brent iteration itself. Estimates and interval ends must agree to 1e
 relative (the scalar search's own tolerance is 4 eps relative, finer), statuses and
 other roots exactly. The calibration series are seeded invented designs (demo data);
 the readings cover the curve, its plateaus exactly, beyond both asymptotes, exact grid
-values, and mixed replicate counts.
+values, and mixed replicate counts; the curves are log-x and linear-x logistic4 (one
+with a zero-dose blank, one decreasing, one with no residual df: no band), logistic5
+and a peak (several roots; a disjoint band set).
 """
 
 from __future__ import annotations
@@ -46,6 +48,9 @@ def _series(name: str, rng):
     elif name == "log5":
         x, y, spec = doses, _logistic(doses, 0.3, 2.5, 1.0, 2.0, g=0.6), ModelSpec(
             family="logistic5")
+    elif name == "no_df":  # as many points as parameters: no residual df, no band
+        x = np.array([0.01, 0.3, 3.0, 100.0])
+        y, spec = _logistic(x, 0.1, 2.0, 1.2, 1.0), ModelSpec(family="logistic4", scale="log")
     elif name == "decreasing":
         x, y, spec = doses, _logistic(doses, 3.0, 0.4, 0.9, 3.0), ModelSpec(
             family="logistic4", scale="log")
@@ -76,7 +81,7 @@ def _same(a: float, b: float) -> bool:
 
 
 @pytest.mark.parametrize("name", ["log4", "log4_blank", "linear4", "log5", "decreasing",
-                                  "peak"])
+                                  "peak", "no_df"])
 def test_batched_inversion_equals_the_scalar_search(name, monkeypatch):
     monkeypatch.setattr(curve_batch, "CHUNK", 64)  # several blocks per request
     rng = np.random.default_rng([2026, len(name)])
@@ -98,6 +103,8 @@ def test_batched_inversion_equals_the_scalar_search(name, monkeypatch):
     # the readings reach the cases they are meant to (the comparison covers them)
     if name == "peak":
         assert "not_monotone" in statuses and "multiple_roots_in_range" in statuses
+    elif name == "no_df":
+        assert {"interval_undefined", "no_real_root"} <= statuses
     else:
         assert {"ok", "no_real_root", "interval_unbounded"} <= statuses
     if name in ("log4", "log5", "decreasing"):
@@ -153,3 +160,25 @@ def test_binary_search_finds_the_grid_crossings_of_the_full_table(name):
     np.testing.assert_array_equal(zero_at[n_zero == 1], table[0][n_zero == 1])
     np.testing.assert_array_equal(change_at[n_change == 1], table[1][n_change == 1])
     assert n_zero.sum() > 0 and n_change.sum() > 0
+
+
+def test_batched_intervals_equal_the_scalar_ones_where_the_band_set_is_disjoint():
+    # oracle: _CurveReader._interval, the one-reading interval search. On a peak, the
+    # band around the left root of a reading also contains it around the right root,
+    # so the statuses include interval_disjoint (hidden by not_monotone in /v1/invert)
+    rng = np.random.default_rng(3101)
+    fitted = _series("peak", rng)
+    reader = _CurveReader(fitted, fitted.level)
+    top = int(np.argmax(reader.values))
+    y = rng.uniform(reader.values[0] + 0.05, reader.values[top] - 0.05, 60)
+    m = rng.integers(1, 4, y.size)
+    x_hat = np.array([optimize.brentq(lambda t, v=v: float(reader.f([t])[0] - v),
+                                      reader.lo, float(reader.grid[top])) for v in y])
+    with np.errstate(all="ignore"):
+        lower, upper, status, fallback = curve_batch._intervals(reader, x_hat, y, m)
+        scalar = [reader._interval(float(x), float(v), int(k))
+                  for x, v, k in zip(x_hat, y, m, strict=True)]
+    assert not fallback.any()
+    for k, (lo, hi, st) in enumerate(scalar):
+        assert status[k] == st and _same(lower[k], lo) and _same(upper[k], hi)
+    assert "interval_disjoint" in set(status)
