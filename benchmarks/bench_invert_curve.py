@@ -9,14 +9,15 @@ interval_unbounded, no_real_root; the single reading sits mid-curve), replicates
   :mod:`service.core.models.curve_batch`);
 * ``invert_curve`` of a baseline tree (``--baseline DIR``, e.g. the start-of-session
   commit unpacked by ``git archive <commit> | tar -x -C DIR``), which read one reading
-  at a time; both must give the same answers, checked here.
+  at a time; without ``--baseline``, this tree's one-reading search (the batched path's
+  fallback and reference) for every reading. Both must give the same answers, checked here.
 
 Each contender runs in its own fresh interpreter (the two trees hold modules of the same
 names), rounds alternate baseline and tree, and the best CPU time (``process_time``) of
 each is kept, so a busy machine slows both alike. The working range (precision profile,
 :mod:`service.core.models.precision_profile`, once per curve) is timed in this tree.
 
-Run: ``.venv/bin/python benchmarks/bench_invert_curve.py --baseline /tmp/base``.
+Run: ``.venv/bin/python benchmarks/bench_invert_curve.py [--baseline /tmp/base]``.
 """
 
 from __future__ import annotations
@@ -39,6 +40,9 @@ from service.core import ModelSpec, fit_series
 from service.core.models.curve_inverse import invert_curve
 from service.core.models.precision_profile import precision_profile
 count, calls, profile = int(sys.argv[1]), int(sys.argv[2]), sys.argv[3] == "1"
+if sys.argv[4] == "1":  # every reading through the one-reading search
+    from service.core.models import curve_batch
+    curve_batch.BATCH_FROM = float("inf")
 body = plate()
 fitted = fit_series(body["x"], body["y"], model=ModelSpec(family="logistic4")).model
 lo, hi = fitted.model.values(np.array([fitted.x_min, fitted.x_max]), fitted.estimates)
@@ -60,10 +64,12 @@ print(json.dumps({"seconds": best, "rows": rows, "profile": cost}))
 """
 
 
-def _run(tree: Path, count: int, calls: int, profile: bool = False) -> dict:
+def _run(tree: Path, count: int, calls: int, profile: bool = False, scalar: bool = False
+         ) -> dict:
     done = subprocess.run([sys.executable, "-c", _WORKER, str(count), str(calls),
-                           "1" if profile else "0"], cwd=tree, capture_output=True,
-                          text=True, check=True, env={**os.environ, "PYTHONPATH": str(tree)})
+                           "1" if profile else "0", "1" if scalar else "0"], cwd=tree,
+                          capture_output=True, text=True, check=True,
+                          env={**os.environ, "PYTHONPATH": str(tree)})
     return json.loads(done.stdout.strip().splitlines()[-1])
 
 
@@ -80,15 +86,18 @@ def _same(a: list, b: list) -> bool:
 
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    parser.add_argument("--baseline", type=Path, required=True,
-                        help="an unpacked tree of the commit to compare against")
-    base = parser.parse_args().baseline.resolve()
+    parser.add_argument("--baseline", type=Path, default=None,
+                        help="an unpacked tree of the commit to compare against "
+                             "(default: this tree's one-reading search)")
+    given = parser.parse_args().baseline
+    base = ROOT if given is None else given.resolve()
+    print(f"baseline: {base if given else 'this tree, one reading at a time'}")
     for count, (calls, rounds) in SIZES.items():
         best = {"baseline": float("inf"), "tree": float("inf")}
         rows = {}
         for _ in range(rounds):
             for name, tree in (("baseline", base), ("tree", ROOT)):
-                result = _run(tree, count, calls)
+                result = _run(tree, count, calls, scalar=given is None and name == "baseline")
                 best[name] = min(best[name], result["seconds"])
                 rows[name] = result["rows"]
         statuses: dict[str, int] = {}
