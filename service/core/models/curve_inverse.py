@@ -20,6 +20,10 @@ A reading the curve reaches only outside the range is ``outside_range`` (that x
 in ``other_roots``); one it never reaches within ``FAR_WIDTHS`` range widths (beyond
 an asymptote) is ``no_real_root``. The statuses are those of the polynomials
 (:data:`service.core.models.inverse.STATUSES`).
+
+:func:`invert_curve` runs this search for all readings together
+(:mod:`service.core.models.curve_batch`); :meth:`_CurveReader.read`, the search for one
+reading, is its fallback and its reference.
 """
 
 from __future__ import annotations
@@ -30,6 +34,7 @@ import numpy as np
 from scipy import optimize, special
 
 from service.core.errors import DataError, SpecError
+from service.core.models.curve_batch import read_all
 from service.core.models.inverse import InverseEstimate, Inversion, _replicates
 from service.core.nonlinear.analysis import predict
 from service.core.nonlinear.problem import MODEL_FAILURES
@@ -82,7 +87,7 @@ def invert_curve(fitted: FittedCurve, y, *, replicates=1, level: float | None = 
     m = _replicates(replicates, len(y))
     with np.errstate(all="ignore"):
         reader = _CurveReader(fitted, level)
-        estimates = tuple(reader.read(float(y0), int(k)) for y0, k in zip(y, m, strict=True))
+        estimates = read_all(reader, y, np.asarray(m))
     return Inversion(estimates, level, reader.monotone, reader.turning_points,
                      fitted.x_min, fitted.x_max)
 
@@ -192,17 +197,21 @@ class _CurveReader:
         out[~(np.isfinite(fit) & np.isfinite(grad).all(axis=1))] = np.nan
         return out
 
+    def limit_beyond(self, direction: int, y0: float, m: int) -> float | None:
+        """The interval limit on one side when the band contains y0 up to that end of the
+        range: the first sign change on the ladder beyond it, or None (unbounded)."""
+        end = self.lo if direction < 0 else self.hi
+        return _first_crossing(end, self._ladder(direction),
+                               lambda x: self.outside_band(x, y0, m))
+
     def _interval(self, x_hat: float, y0: float, m: int) -> tuple[float, float, str]:
         lower, upper = self._band(m)
         if not (np.all(np.isfinite(lower)) and np.all(np.isfinite(upper))):
             return math.nan, math.nan, "interval_undefined"
         h = np.maximum(lower - y0, y0 - upper)
 
-        def h_at(x):
-            return self.outside_band(x, y0, m)
-
         def h_scalar(x: float) -> float:
-            return float(h_at(x)[0])
+            return float(self.outside_band(x, y0, m)[0])
 
         limits = []
         for direction in (-1, +1):
@@ -216,8 +225,7 @@ class _CurveReader:
                 near = x_hat if k == 0 else float(xs[k - 1])
                 limits.append(_brent(h_scalar, *sorted((near, float(xs[k])))))
             else:
-                end = self.lo if direction < 0 else self.hi
-                limits.append(_first_crossing(end, self._ladder(direction), h_at))
+                limits.append(self.limit_beyond(direction, y0, m))
         lo_x = math.nan if limits[0] is None else limits[0]
         hi_x = math.nan if limits[1] is None else limits[1]
         if limits[0] is None or limits[1] is None:
