@@ -198,3 +198,21 @@ def test_a_level_a_hair_below_one_keeps_finite_limits(client, assay):
     row = out["coefficients"][0]
     assert row["upper"] == pytest.approx(row["estimate"] + crit * row["std_error"], rel=1e-9)
     assert all(v is not None for v in out["grid"]["mean_upper"])
+
+
+def test_grid_points_where_the_equation_is_undefined_are_null_and_said(client):
+    # log(x) is undefined for x <= 0 (a fact of arithmetic; numpy gives nan/-inf there), so the
+    # fitted curve has no value at those grid points: they are null and a warning names them.
+    x = np.linspace(1.0, 10.0, 12)
+    y = 2.0 * np.log(x) + 1.0 + 0.05 * np.sin(np.arange(12))
+    body = {"x": x.tolist(), "y": y.tolist(),
+            "model": {"family": "expression", "expression": "a*log(x) + b",
+                      "parameters": {"a": 1, "b": 0}},
+            "grid": {"x": [-1, 0, 1, 2]}}
+    out = _fit(client, body)
+    assert out["grid"]["fit"][:2] == [None, None]
+    assert np.allclose(out["grid"]["fit"][2:], np.polyval(
+        np.polyfit(np.log(x), y, 1), np.log([1.0, 2.0])), rtol=1e-8)  # numpy oracle
+    codes = {w["code"]: w["message"] for w in out["warnings"]}
+    assert "non_finite_prediction" in codes
+    assert "2 of the 4 grid points (x = -1.0, 0.0)" in codes["non_finite_prediction"]
