@@ -91,6 +91,8 @@ class PredictResponseSchema(Schema):
     level = number("Confidence level used.")
     replicates = integer("m used for the observation band.")
     extrapolated_count = integer("How many x lie outside the fitted data range.")
+    undefined_count = integer("How many x the fitted curve has no finite value at (an equation "
+                              "undefined or overflowing there): their rows are null.")
 
 
 class ReplicatesField(fields.Field):

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 from dataclasses import asdict
 
+import numpy as np
 from flask import current_app
 from flask_smorest import Blueprint
 
@@ -46,7 +47,8 @@ def predict_view(body):
     if columns["unbounded"] is None:  # a family that does not mark unbounded limits
         columns["unbounded"] = [False] * len(result.x)
     return {"predictions": columns, "level": result.level, "replicates": body["replicates"],
-            "extrapolated_count": int(result.extrapolated.sum())}
+            "extrapolated_count": int(result.extrapolated.sum()),
+            "undefined_count": int(np.count_nonzero(~np.isfinite(result.fit)))}
 
 
 @blp.route("/v1/invert", methods=["POST"])

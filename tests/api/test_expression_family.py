@@ -216,3 +216,17 @@ def test_grid_points_where_the_equation_is_undefined_are_null_and_said(client):
     codes = {w["code"]: w["message"] for w in out["warnings"]}
     assert "non_finite_prediction" in codes
     assert "2 of the 4 grid points (x = -1.0, 0.0)" in codes["non_finite_prediction"]
+
+
+def test_predict_counts_the_x_where_the_stored_equation_is_undefined(client):
+    # log(x) has no finite value at x <= 0 (arithmetic); those rows are null and counted.
+    x = np.linspace(1.0, 10.0, 12)
+    y = 2.0 * np.log(x) + 1.0 + 0.05 * np.cos(np.arange(12))
+    fitted = _fit(client, {"x": x.tolist(), "y": y.tolist(),
+                           "model": {"family": "expression", "expression": "a*log(x) + b",
+                                     "parameters": {"a": 1, "b": 0}}})["fitted_model"]
+    res = post_json(client, "/v1/predict", {"fitted_model": fitted, "x": [-2, 0, 3]})
+    assert res.status_code == 200, res.data[:300]
+    body = res.get_json()
+    assert [row["fit"] is None for row in body["predictions"]] == [True, True, False]
+    assert body["undefined_count"] == 2 and body["extrapolated_count"] == 2

@@ -35,6 +35,7 @@ class Predictions(Result):
     level: float | None = None
     replicates: int | None = None
     extrapolated_count: int | None = None
+    undefined_count: int | None = None
     raw: Mapping[str, Any] = field(default_factory=empty_mapping)
 
 
