@@ -1,0 +1,71 @@
+"""The starts the compiled multi-start could not solve, re-solved with the single fit's solver.
+
+:func:`.curves_multistart.solve_starts` keeps the lowest converged fit of its starts. A
+start that does not converge there (its Levenberg-Marquardt stalls, e.g. with logistic5's
+asymmetry running to 0 or to infinity, or ends at an asymmetry <= 0) may still converge,
+or end lower, in the single fit, whose solver retries with other methods
+(:func:`service.core.nonlinear.builtin.fit.best_fit`). Rather than fitting such a series
+again from the start, :func:`settle` solves only those starts, each exactly as the single
+fit does (:func:`service.core.nonlinear.builtin.fit.solve_start`, the single fit's own
+automatic starts and data), and lets the compiled fit stand when every one of them either
+cannot be solved (passed over by the single fit too) or ends clearly above the kept
+residual sum of squares (by :data:`CLEAR`, relative): then it is neither the single fit's
+kept fit (which needs an RSS lower by 1e-9), nor the lowest of all (which would be solved
+on, or reported as ``lower_rss_not_converged``), so the single fit keeps the same start and
+the same estimates. Otherwise, and when the single fit's starts are not as many as the
+kernel's, the series goes to the single fit.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from service.core.batch.curves_multistart import failed_starts
+from service.core.data.inputs import clean_data
+from service.core.errors import SpecError
+from service.core.interrupt import checkpoint
+from service.core.nonlinear.builtin.catalogue import BUILTINS
+from service.core.nonlinear.builtin.definition import series_of
+from service.core.nonlinear.builtin.fit import solve_start
+from service.core.nonlinear.builtin.spec_check import equation, scale_of
+from service.core.nonlinear.builtin.starts import Held, automatic_starts
+from service.core.spec import FitOptions, ModelSpec
+
+CLEAR = 1e-7   # far above the 1e-9 of best_fit's comparisons and the solvers' disagreement
+
+
+def settle(model: ModelSpec, options: FitOptions, x, y, w, offsets, rows, status,
+           kept_rss) -> np.ndarray:
+    """For each row of ``rows`` (provisional ``status``, fitted by the kernel at residual
+    sum of squares ``kept_rss``): True when the kernel's fit is the single fit's.
+
+    ``model`` has no fixed values, bounds or start values (the compiled engine's models).
+    """
+    builtin = BUILTINS[model.family]
+    scale = scale_of(builtin, model)
+    compiled = equation(builtin.name, scale, ())
+    free = compiled.parameter_names
+    lower, upper = np.full(len(free), -np.inf), np.full(len(free), np.inf)
+    held = Held({}, {}, {}, {})
+    stands = np.zeros(len(rows), dtype=bool)
+    for i, row in enumerate(rows.tolist()):
+        checkpoint()
+        failed, total = failed_starts(status[row])
+        a, b = offsets[row], offsets[row + 1]
+        with np.errstate(all="ignore"):
+            data = clean_data(x[a:b], y[a:b], None if w is None else w[a:b], options.missing)
+            starts = automatic_starts(builtin, series_of(data.x, data.y, data.w, scale), held)
+            if len(starts) != total:
+                continue
+            stands[i] = all(_clear(compiled, data, starts[t], lower, upper, kept_rss[i])
+                            for t in range(total) if failed >> t & 1)
+    return stands
+
+
+def _clear(compiled, data, start, lower, upper, kept: float) -> bool:
+    """True when the single fit's solve of ``start`` cannot change its kept fit."""
+    try:
+        solution = solve_start(compiled, data, start, lower, upper)
+    except SpecError:                   # the single fit passes this start over
+        return True
+    return bool(solution.rss > kept * (1.0 + CLEAR))
