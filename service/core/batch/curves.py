@@ -49,7 +49,7 @@ from service.core.batch.curves_models import (
     WEIBULL,
 )
 from service.core.batch.curves_points import screen
-from service.core.batch.curves_post import finish
+from service.core.batch.curves_post import STARTS, finish
 from service.core.batch.curves_resolve import settle
 from service.core.batch.curves_results import (
     CurveBatchResult,
@@ -223,8 +223,10 @@ def _compiled(out, fid, x, y, w, lengths, offsets, workers, always_grid, spec) -
             run(chunk)
     provisional = np.flatnonzero(status >= 2)
     if provisional.size:
+        kept = stats[provisional]
         stands = settle(model, options, x, y, w, offsets, provisional, status,
-                        stats[provisional, STATS.index("rss")])
+                        kept[:, STATS.index("rss")],
+                        [STARTS[int(code)] for code in kept[:, STATS.index("start")]])
         status[provisional] = np.where(stands, 0, 1)
     done = np.flatnonzero(status == 0)
     if done.size == G:                    # every row: slices, no gathering

@@ -7,13 +7,20 @@ or end lower, in the single fit, whose solver retries with other methods
 (:func:`service.core.nonlinear.builtin.fit.best_fit`). Rather than fitting such a series
 again from the start, :func:`settle` solves only those starts, each exactly as the single
 fit does (:func:`service.core.nonlinear.builtin.fit.solve_start`, the single fit's own
-automatic starts and data), and lets the compiled fit stand when every one of them either
-cannot be solved (passed over by the single fit too) or ends clearly above the kept
-residual sum of squares (by :data:`CLEAR`, relative): then it is neither the single fit's
-kept fit (which needs an RSS lower by 1e-9), nor the lowest of all (which would be solved
-on, or reported as ``lower_rss_not_converged``), so the single fit keeps the same start and
-the same estimates. Otherwise, and when the single fit's starts are not as many as the
-kernel's, the series goes to the single fit.
+automatic starts and data), and lets the compiled fit stand when every one of them
+
+* cannot be solved (the single fit passes it over too), or
+* ends clearly above the kept residual sum of squares (by :data:`CLEAR`, relative), or
+* converges, comes after the kept start in the single fit's order, and is not lower than
+  the kept RSS (by :data:`SAME`, a tenth of the single fit's 1e-9): it often reaches the
+  very minimum the kernel kept.
+
+Then it is neither the single fit's kept fit (the first converged one of the lowest RSS;
+a later one needs an RSS lower by 1e-9 to replace it), nor the lowest of all when it did
+not converge (which the single fit would solve on, or report as
+``lower_rss_not_converged``), so the single fit keeps the same start and the same
+estimates. Otherwise, and when the single fit's starts are not as many as the kernel's or
+do not include the kept one, the series goes to the single fit.
 """
 
 from __future__ import annotations
@@ -29,15 +36,18 @@ from service.core.nonlinear.builtin.definition import series_of
 from service.core.nonlinear.builtin.fit import solve_start
 from service.core.nonlinear.builtin.spec_check import equation, scale_of
 from service.core.nonlinear.builtin.starts import Held, automatic_starts
+from service.core.nonlinear.polish import CONVERGED
 from service.core.spec import FitOptions, ModelSpec
 
 CLEAR = 1e-7   # far above the 1e-9 of best_fit's comparisons and the solvers' disagreement
+SAME = 1e-10   # a tenth of best_fit's SAME_RSS
 
 
 def settle(model: ModelSpec, options: FitOptions, x, y, w, offsets, rows, status,
-           kept_rss) -> np.ndarray:
+           kept_rss, kept_start) -> np.ndarray:
     """For each row of ``rows`` (provisional ``status``, fitted by the kernel at residual
-    sum of squares ``kept_rss``): True when the kernel's fit is the single fit's.
+    sum of squares ``kept_rss`` from the start named ``kept_start``, as
+    :data:`.curves_post.STARTS`): True when the kernel's fit is the single fit's.
 
     ``model`` has no fixed values, bounds or start values (the compiled engine's models).
     """
@@ -55,17 +65,23 @@ def settle(model: ModelSpec, options: FitOptions, x, y, w, offsets, rows, status
         with np.errstate(all="ignore"):
             data = clean_data(x[a:b], y[a:b], None if w is None else w[a:b], options.missing)
             starts = automatic_starts(builtin, series_of(data.x, data.y, data.w, scale), held)
-            if len(starts) != total:
+            names = [start.strategy for start in starts]
+            kept = kept_start[i].removesuffix("_rewritten")
+            if len(starts) != total or kept not in names:
                 continue
-            stands[i] = all(_clear(compiled, data, starts[t], lower, upper, kept_rss[i])
+            stands[i] = all(_clear(compiled, data, starts[t], lower, upper, kept_rss[i],
+                                   t > names.index(kept))
                             for t in range(total) if failed >> t & 1)
     return stands
 
 
-def _clear(compiled, data, start, lower, upper, kept: float) -> bool:
-    """True when the single fit's solve of ``start`` cannot change its kept fit."""
+def _clear(compiled, data, start, lower, upper, kept: float, later: bool) -> bool:
+    """True when the single fit's solve of ``start`` cannot change its kept fit (of RSS
+    ``kept``); ``later``: ``start`` comes after the kept one."""
     try:
         solution = solve_start(compiled, data, start, lower, upper)
     except SpecError:                   # the single fit passes this start over
         return True
+    if later and solution.termination in CONVERGED:
+        return bool(solution.rss > kept * (1.0 - SAME))
     return bool(solution.rss > kept * (1.0 + CLEAR))
