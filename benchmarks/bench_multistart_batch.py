@@ -103,9 +103,9 @@ def run(name: str, args) -> None:
     real, settle, settled = curves.compiled_family, curves.settle, []
 
     def counted(*a):
-        stands = settle(*a)
-        settled.append(int(stands.sum()))
-        return stands
+        out = settle(*a)
+        settled.append(int(out[0].sum()))
+        return out
     curves.fit_many_curves(xs[:lengths[:2].sum()], ys[:lengths[:2].sum()], lengths[:2],
                            model=model)                 # compile / load the kernels first
     new_times, old_times, batch = [], [], None

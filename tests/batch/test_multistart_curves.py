@@ -94,27 +94,31 @@ def test_the_minimum_is_scipys(name):
         assert rel(batch.estimates[i], ref.x) < 1e-6, (batch.estimates[i], ref.x)
 
 
+@pytest.mark.parametrize("seed", [6, 7])
 def test_starts_the_kernel_cannot_solve_are_re_solved_alone_and_the_fit_stays(
-        monkeypatch, compiled_only):
-    # seeded logistic5 plate where some series have a start the compiled solver cannot
-    # finish (it stalls with the asymmetry running off, or ends at asymmetry <= 0): these
-    # series went to the single fit whole; now only those starts are solved, with the
-    # single fit's own solver (curves_resolve.settle), and the kernel's fit stands (with
-    # this seed, series 1 and 5 went to the single fit before that)
+        seed, monkeypatch, compiled_only):
+    # seeded logistic5 plates where some series have a start the compiled solver cannot
+    # finish (it ends at asymmetry <= 0, running through infinity): these series went to
+    # the single fit whole (seed 6: series 3 and 8, seed 7: 1 and 5); now only those starts
+    # are solved, with the single fit's own solver (curves_resolve.settle), and the
+    # kernel's fit stands -- with seed 6, series 3 under the name of such a start, which
+    # the single fit solves to the same fit before the start kept here
     from service.core.batch import curves
-    settled = []
+    settled, renamed = [], []
 
     def spy(*args):
-        stands = real(*args)
+        stands, names = real(*args)
         settled.extend(np.asarray(args[6])[stands].tolist())
-        return stands
+        renamed.extend(name for name in names if name is not None)
+        return stands, names
 
     real = curves.settle
     monkeypatch.setattr(curves, "settle", spy)
     model, make, _, _ = CASES["logistic5"]
-    series = make(np.random.default_rng(7), 12)
+    series = make(np.random.default_rng(seed), 12)
     batch = fit_many_curves(*data.flat(series), model=model)
-    assert settled and batch.compiled.all() and batch.ok.all()
+    assert len(settled) == 2 and batch.compiled.all() and batch.ok.all()
+    assert len(renamed) == (1 if seed == 6 else 0)
     cols = batch.columns
     for g in settled:               # oracle: the single fit of the series
         ref = fit_series(*series[g], model=model, options=RELATIVE)
@@ -132,7 +136,7 @@ def test_series_the_engine_cannot_match_get_the_single_fit():
     # fit's solver, a fit at least as good as the kernel's, or a start and its mirror at
     # asymmetry 1 end apart
     model, make, _, _ = CASES["logistic5"]
-    series = make(np.random.default_rng(6), 12)
+    series = make(np.random.default_rng(12), 12)
     batch = fit_many_curves(*data.flat(series), model=model)
     assert batch.ok.all() and batch.compiled.sum() >= 8 and not batch.compiled.all()
     for g, (xs, ys) in enumerate(series):

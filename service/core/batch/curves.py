@@ -224,10 +224,14 @@ def _compiled(out, fid, x, y, w, lengths, offsets, workers, always_grid, spec) -
     provisional = np.flatnonzero(status >= 2)
     if provisional.size:
         kept = stats[provisional]
-        stands = settle(model, options, x, y, w, offsets, provisional, status,
-                        kept[:, STATS.index("rss")],
-                        [STARTS[int(code)] for code in kept[:, STATS.index("start")]])
+        stands, renamed = settle(model, options, x, y, w, offsets, provisional, status,
+                                 kept[:, STATS.index("rss")],
+                                 [STARTS[int(code)] for code in kept[:, STATS.index("start")]],
+                                 est[provisional])
         status[provisional] = np.where(stands, 0, 1)
+        for row, name in zip(provisional.tolist(), renamed, strict=True):
+            if name is not None:        # the single fit's name of the start of this fit
+                stats[row, STATS.index("start")] = STARTS.index(name)
     done = np.flatnonzero(status == 0)
     if done.size == G:                    # every row: slices, no gathering
         finish(out, slice(None), stats, lengths, p, known)

@@ -151,7 +151,8 @@ def solve_starts(fid, x, u, y, lev, means, m, v, pooled, n, cols, coef, theta, b
         if not started:
             continue
         if not 0 <= c <= SMALL_GRADIENT:
-            failed |= 1 << t            # for the single fit's own solver (resolve_failed)
+            failed |= 1 << t            # for the single fit's own solver (curves_resolve)
+            current = False             # the solver's scratch holds this start's end
             continue
         outcome[t] = rss
         if not found or rss < best_rss * (1.0 - SAME_RSS):
