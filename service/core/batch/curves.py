@@ -49,7 +49,8 @@ from service.core.batch.curves_models import (
     WEIBULL,
 )
 from service.core.batch.curves_points import screen
-from service.core.batch.curves_post import finish
+from service.core.batch.curves_post import STARTS, finish
+from service.core.batch.curves_resolve import settle
 from service.core.batch.curves_results import (
     CurveBatchResult,
     empty_curve_columns,
@@ -167,7 +168,8 @@ def fit_many_curves(x, y, lengths, weights=None, *, model: ModelSpec,
         fid = None
     single = np.arange(G)
     if fid is not None:
-        single = _compiled(out, fid, x, y, w, lengths, offsets, workers, always_grid, known)
+        single = _compiled(out, fid, x, y, w, lengths, offsets, workers, always_grid,
+                           (model, options))
     plain = options if detail == "full" else replace(options, grid=None)
     for row in single.tolist():
         checkpoint()
@@ -186,9 +188,13 @@ def fit_many_curves(x, y, lengths, weights=None, *, model: ModelSpec,
     return CurveBatchResult(model.family, names, **out)
 
 
-def _compiled(out, fid, x, y, w, lengths, offsets, workers, always_grid,
-              known=False) -> np.ndarray:
-    """Fit the rows the kernel may take; return the rows left for the single fit."""
+def _compiled(out, fid, x, y, w, lengths, offsets, workers, always_grid, spec) -> np.ndarray:
+    """Fit the rows the kernel may take; return the rows left for the single fit.
+
+    ``spec`` is ``(model, options)``; a provisional row (a start failed in the kernel)
+    stands when :func:`.curves_resolve.settle` says so."""
+    model, options = spec
+    known = options.weighting == KNOWN_SD
     p = N_PARAMETERS[fid]
     G = lengths.size
     take = np.flatnonzero(screen(x, y, np.empty(0) if w is None else w, offsets,
@@ -198,7 +204,7 @@ def _compiled(out, fid, x, y, w, lengths, offsets, workers, always_grid,
     cut_t, cut_cook = _cut_tables(p, int(lengths[take].max()))
     sw_start, sw_coef = _shapiro_table(lengths[take])
     wk = np.empty(0) if w is None else w
-    status = np.ones(G, dtype=np.int8)
+    status = np.ones(G, dtype=np.int64)
     stats = np.full((G, len(STATS)), np.nan)
     est, se = out["estimates"], out["std_errors"]
 
@@ -215,6 +221,17 @@ def _compiled(out, fid, x, y, w, lengths, offsets, workers, always_grid,
     else:
         for chunk in chunks:
             run(chunk)
+    provisional = np.flatnonzero(status >= 2)
+    if provisional.size:
+        kept = stats[provisional]
+        stands, renamed = settle(model, options, x, y, w, offsets, provisional, status,
+                                 kept[:, STATS.index("rss")],
+                                 [STARTS[int(code)] for code in kept[:, STATS.index("start")]],
+                                 est[provisional])
+        status[provisional] = np.where(stands, 0, 1)
+        for row, name in zip(provisional.tolist(), renamed, strict=True):
+            if name is not None:        # the single fit's name of the start of this fit
+                stats[row, STATS.index("start")] = STARTS.index(name)
     done = np.flatnonzero(status == 0)
     if done.size == G:                    # every row: slices, no gathering
         finish(out, slice(None), stats, lengths, p, known)

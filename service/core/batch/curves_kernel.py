@@ -5,7 +5,9 @@
 standard errors and the columns of :data:`STATS`, or marks the series for the
 single-fit engine (``status`` 1). A series is handed over when the kernel
 cannot promise the single fit's answer: no start converged, a singular
-tangent plane, an exact fit, or constant x.
+tangent plane, an exact fit, or constant x. A multi-start series whose fit here
+stands unless a start that failed here would change it gets a provisional status
+(:func:`.curves_multistart.provisional`: the caller re-solves those starts).
 
 Per series: the shape start (:func:`.curves_starts.shape_start`) is solved first
 (:func:`.curves_solver4.solve`); the grid's best point too when the shape
@@ -41,7 +43,7 @@ from service.core.batch.curves_models import (
     evaluate,
     on_log_x,
 )
-from service.core.batch.curves_multistart import is_multistart, solve_starts
+from service.core.batch.curves_multistart import attempt, is_multistart, solve_starts
 from service.core.batch.curves_points import (
     pool,
     shapiro_w_p,
@@ -51,7 +53,7 @@ from service.core.batch.curves_points import (
 )
 from service.core.batch.curves_solver import SMALL_GRADIENT, factor_and_norms, scratch_rows
 from service.core.batch.curves_solver4 import solve
-from service.core.batch.curves_starts import levels, project, shape_start
+from service.core.batch.curves_starts import levels, shape_start
 from service.core.checks.kernels import chi2_tail, dw_p, dw_traces
 
 STATS = ("rss", "tss", "sum_log_w", "relative_offset", "iterations", "termination", "start",
@@ -67,26 +69,6 @@ EXACT_RTOL = 1e-13          # as nonlinear.analysis.EXACT_RTOL
 _RSS, _TSS, _LOGW, _OFFSET, _ITER, _TERM, _START = 0, 1, 2, 3, 4, 5, 6
 _DW, _DWP, _BP, _BPP, _LOF, _LOFDF, _PUREDF = 7, 8, 9, 10, 11, 12, 13
 _NOUT, _NINF, _NHIGH, _NBOTH, _NLEVER, _CORR, _SW, _SWP = 14, 15, 16, 17, 18, 19, 20, 21
-
-
-@numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
-def _attempt(fid, nl, n, pooled, cols, coef, theta, mats, fj, work):
-    """Linear parameters at ``nl``, then solve, both on the pooled data (``pooled``:
-    distinct u, mean y, sqrt summed weights, pure-error SS, m; the linear least squares
-    of the points and of their pools have the same solution); ``n`` points.
-    Returns (converged, rss, offset, iters, code, fresh) (``fresh``: as
-    :func:`.curves_solver4.solve`)."""
-    lin = cols.shape[0]
-    ul, yl, swl, pure, m = pooled
-    if project(fid, nl, ul[:m], yl[:m], swl[:m], cols[:, :m], coef, work) == np.inf:
-        return False, np.inf, np.nan, 0, -1, False
-    for j in range(lin):
-        theta[j] = coef[j]
-    for j in range(theta.size - lin):
-        theta[lin + j] = nl[j]
-    code, rss, offset, iters, fresh = solve(fid, theta, ul[:m], yl[:m], swl[:m], mats, 200,
-                                            pure, n, fj)
-    return code <= SMALL_GRADIENT, rss, offset, iters, code, fresh
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
@@ -227,15 +209,15 @@ def fit_rows(fid, x, y, w, offsets, rows, cut_t, cut_cook, sw_start, sw_coef, al
         k, ss_pure = pool(u, ys, ws, order, ul_all, yl_all, swl_all, which)
         pooled = (ul_all, yl_all, swl_all, ss_pure, k)
         found, best_rss, start, spent, current = False, np.inf, SHAPE, 0, False
-        code, offset, fresh = -1, np.nan, False
+        code, offset, fresh, settle = -1, np.nan, False, 0
         if is_multistart(fid):          # logistic5, biexponential: every start, as the single fit
-            found, best_rss, start, spent, current, code, offset, lower = solve_starts(
-                fid, xs, u, ys, lev, means, m, v[:n], pooled, n, cols, coef, theta, best, mats,
-                fj, basis_work)
-            if lower:
+            found, best_rss, start, spent, current, code, offset, unsure, settle = \
+                solve_starts(fid, xs, u, ys, lev, means, m, v[:n], pooled, n, cols, coef, theta,
+                             best, mats, fj, basis_work)
+            if unsure:
                 continue
         if shape_start(fid, xs, u, ys, lev, means, m, nl, v[:n]):     # (False for those)
-            ok, rss, off, iters, c, fresh = _attempt(fid, nl, n, pooled, cols, coef, theta,
+            ok, rss, off, iters, c, fresh = attempt(fid, nl, n, pooled, cols, coef, theta,
                                                      mats, fj, basis_work)
             spent += iters
             if ok:
@@ -243,7 +225,7 @@ def fit_rows(fid, x, y, w, offsets, rows, cut_t, cut_cook, sw_start, sw_coef, al
                 best[:] = theta
         if (always_grid or not found) and grid_start(fid, xs, u, ys, sw, cols, coef, nl,
                                                        basis_work):
-            ok, rss, off, iters, c, fresh = _attempt(fid, nl, n, pooled, cols, coef, theta,
+            ok, rss, off, iters, c, fresh = attempt(fid, nl, n, pooled, cols, coef, theta,
                                                      mats, fj, basis_work)
             spent += iters
             current = False
@@ -309,4 +291,4 @@ def fit_rows(fid, x, y, w, offsets, rows, cut_t, cut_cook, sw_start, sw_coef, al
         if fid == BIEXPONENTIAL:     # the report's order: a_fast, k_fast, a_slow, k_slow
             est[r, 1], est[r, 2] = theta[2], theta[1]
             se[r, 1], se[r, 2] = se[r, 2], se[r, 1]
-        status[r] = 0
+        status[r] = settle      # 0, or provisional: failed starts (curves_multistart)

@@ -19,12 +19,14 @@ into two phases), so the batch solves from every start the single fit solves fro
 
 Every start is solved (:func:`.curves_solver4.solve`); the kept fit is the first
 converged one of the lowest RSS (an RSS lower by 1e-9 relative replaces it). The series
-goes to the single fit whenever the single fit could keep another fit: when a start did
-not converge here (the single fit's solver, another method with restarts, may converge
-from it elsewhere, or report ``lower_rss_not_converged``), when a logistic5 start ended
-at an asymmetry <= 0 (outside the family), and when a logistic5 grid start at asymmetry 1
-would change the kept fit if it were replaced by its mirror (the same curve, so which one
-of the two the single fit's grid keeps is a matter of rounding).
+goes to the single fit when no start converged here, and when a logistic5 grid start at
+asymmetry 1 would change the kept fit if it were replaced by its mirror (the same curve,
+so which one of the two the single fit's grid keeps is a matter of rounding). When a
+start did not converge here (or a logistic5 start ended at an asymmetry <= 0, outside the
+family), the single fit's solver (another method with restarts) may still converge from
+it elsewhere, or report ``lower_rss_not_converged``: the series is fitted here all the
+same, with a provisional status naming those starts (:func:`provisional`), and the
+caller re-solves just them with the single fit's solver (:mod:`.curves_resolve`).
 """
 
 from __future__ import annotations
@@ -41,6 +43,7 @@ from service.core.batch.curves_starts import project, shape_start
 
 SAME_RSS = 1e-9                                        # as builtin.fit.SAME_RSS
 MAX_STARTS = COUNT + 1
+MASK_BITS = MAX_STARTS                  # a bit per start in a provisional status
 SHAPE = 0      # start codes: 0 shape, 1 grid best, k grid_local_k
 
 
@@ -48,6 +51,26 @@ SHAPE = 0      # start codes: 0 shape, 1 grid best, k grid_local_k
 def is_multistart(fid):
     """True for the families fitted from every automatic start (logistic5, biexponential)."""
     return fid >= L5_LOG
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
+def attempt(fid, nl, n, pooled, cols, coef, theta, mats, fj, work):
+    """Linear parameters at ``nl``, then solve, both on the pooled data (``pooled``:
+    distinct u, mean y, sqrt summed weights, pure-error SS, m; the linear least squares
+    of the points and of their pools have the same solution); ``n`` points.
+    Returns (converged, rss, offset, iters, code, fresh) (``fresh``: as
+    :func:`.curves_solver4.solve`). Used by :mod:`.curves_kernel` for the one-start families."""
+    lin = cols.shape[0]
+    ul, yl, swl, pure, m = pooled
+    if project(fid, nl, ul[:m], yl[:m], swl[:m], cols[:, :m], coef, work) == np.inf:
+        return False, np.inf, np.nan, 0, -1, False
+    for j in range(lin):
+        theta[j] = coef[j]
+    for j in range(theta.size - lin):
+        theta[lin + j] = nl[j]
+    code, rss, offset, iters, fresh = solve(fid, theta, ul[:m], yl[:m], swl[:m], mats, 200,
+                                            pure, n, fj)
+    return code <= SMALL_GRADIENT, rss, offset, iters, code, fresh
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
@@ -74,11 +97,12 @@ def solve_starts(fid, x, u, y, lev, means, m, v, pooled, n, cols, coef, theta, b
                  fj, work):
     """Solve from every start; the kept estimates into ``best``.
 
-    Returns ``(found, rss, start, iterations, current, code, offset, unsure)``: ``start``
-    the kept start's code (0 shape, 1 grid best, j grid_local_j), ``current`` True when
-    the solver's scratch holds the kept fit (it was solved last), ``unsure`` True when the
-    single fit may keep another fit: a start did not converge here (or ended at an
-    asymmetry <= 0, outside the family), or the mirror of a start would change the kept fit.
+    Returns ``(found, rss, start, iterations, current, code, offset, unsure, status)``:
+    ``start`` the kept start's code (0 shape, 1 grid best, j grid_local_j), ``current``
+    True when the solver's scratch holds the kept fit (it was solved last), ``unsure``
+    True when the mirror of a start would change the kept fit (or could not be solved),
+    ``status`` the series' :func:`provisional` status (the starts that did not converge
+    here, or ended at an asymmetry <= 0, outside the family).
     """
     ul, yl, swl, pure, k = pooled
     p = theta.size
@@ -116,7 +140,7 @@ def solve_starts(fid, x, u, y, lev, means, m, v, pooled, n, cols, coef, theta, b
         starts[total, :] = candidate
         tags[total] = tag
         total += 1
-    found, unsure = False, False
+    found, unsure, failed = False, False, 0
     best_rss, start, spent, last = np.inf, -1, 0, -1
     code, offset, current = -1, np.nan, False
     outcome = np.full(MAX_STARTS, np.nan)      # RSS of each converged start (NaN: failed)
@@ -127,7 +151,8 @@ def solve_starts(fid, x, u, y, lev, means, m, v, pooled, n, cols, coef, theta, b
         if not started:
             continue
         if not 0 <= c <= SMALL_GRADIENT:
-            unsure = True
+            failed |= 1 << t            # for the single fit's own solver (curves_resolve)
+            current = False             # the solver's scratch holds this start's end
             continue
         outcome[t] = rss
         if not found or rss < best_rss * (1.0 - SAME_RSS):
@@ -136,7 +161,7 @@ def solve_starts(fid, x, u, y, lev, means, m, v, pooled, n, cols, coef, theta, b
         current = last == t
     for t in range(total):              # logistic5 at asymmetry 1: the mirror as well
         at = tags[t] - 1
-        if unsure or at < 0 or mirrors[at, 0] != mirrors[at, 0]:
+        if unsure or not found or at < 0 or mirrors[at, 0] != mirrors[at, 0]:
             continue
         started, c, rss, off, iters = _solve_from(fid, mirrors[at], pooled, n, cols, coef,
                                                   theta, mats, fj, work)
@@ -152,4 +177,19 @@ def solve_starts(fid, x, u, y, lev, means, m, v, pooled, n, cols, coef, theta, b
             if s != t and outcome[s] == outcome[s]:
                 other = min(other, outcome[s])
         unsure |= abs(other - best_rss) > SAME_RSS * best_rss
-    return found, best_rss, start, spent, current, code, offset, unsure
+    return (found, best_rss, start, spent, current, code, offset, unsure,
+            provisional(failed, total))
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def provisional(failed, total):
+    """The kernel's ``status`` of a series fitted here whose starts ``failed`` (a bit mask
+    of the ``total`` starts, in order) did not converge here: 0 when none, else
+    ``2 + (total << MASK_BITS | failed)`` (:func:`failed_starts` reads it back)."""
+    return 0 if failed == 0 else 2 + (total << MASK_BITS | failed)
+
+
+def failed_starts(status: int) -> tuple[int, int]:
+    """``(failed, total)`` of a :func:`provisional` status (>= 2)."""
+    code = int(status) - 2
+    return code & ((1 << MASK_BITS) - 1), code >> MASK_BITS

@@ -107,15 +107,14 @@ def best_fit(family: Builtin, compiled, data, scale: str, held: Held) -> Kept:
                         field="model.parameters",
                         fix="Give start values for the parameters in model.parameters, or "
                             "check that the data suit this family.")
-    budget = {} if starts[0].strategy == "given" else {"max_iterations": EXPLORE_ITERATIONS}
+    explore = starts[0].strategy != "given"   # automatic starts: the short budget
     best: Kept | None = None
     lowest: Kept | None = None
     tried = 0
     for start in starts:
-        vector = [start.values[n] for n in free]
         try:
-            solution = solve(compiled, data.x, data.y, vector, weights=data.w, lower=lower,
-                             upper=upper, **budget)
+            solution = solve_start(compiled, data, start, lower, upper,
+                                   EXPLORE_ITERATIONS if explore else None)
         except SpecError:
             if start.strategy == "given":
                 raise
@@ -131,7 +130,7 @@ def best_fit(family: Builtin, compiled, data, scale: str, held: Held) -> Kept:
                         field="model.parameters",
                         fix="Give start values for the parameters in model.parameters, or "
                             "check that the data suit this family.")
-    if budget and lowest.solution.termination not in CONVERGED:  # on with the full budget
+    if explore and lowest.solution.termination not in CONVERGED:  # on with the full budget
         try:
             more = solve(compiled, data.x, data.y, lowest.solution.estimates, weights=data.w,
                          lower=lower, upper=upper)
@@ -142,6 +141,16 @@ def best_fit(family: Builtin, compiled, data, scale: str, held: Held) -> Kept:
         if more.rss < lowest.solution.rss:
             lowest = lowest._replace(solution=more)
     return best._replace(tried=tried, lowest=lowest.solution)
+
+
+def solve_start(compiled, data, start: Start, lower: np.ndarray, upper: np.ndarray,
+                max_iterations: int | None = EXPLORE_ITERATIONS) -> Solution:
+    """One start's solve as :func:`best_fit` does it (``max_iterations`` None: the
+    engine's full budget, for given starts); ``SpecError`` when the curve is not finite
+    there. The compiled batch re-solves the starts its own solver could not with this."""
+    budget = {} if max_iterations is None else {"max_iterations": max_iterations}
+    return solve(compiled, data.x, data.y, [start.values[n] for n in compiled.parameter_names],
+                 weights=data.w, lower=lower, upper=upper, **budget)
 
 
 def _better(new: Solution, old: Solution) -> bool:
