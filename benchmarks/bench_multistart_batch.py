@@ -1,6 +1,6 @@
 """logistic5 and biexponential batches: the compiled multi-start engine against the single fit.
 
-Data (seeded, invented, the designs of tests/batch/curves_data.py):
+Data (seeded, invented: the generators of tests/batch/curves_data.py):
 
 * ``logistic5``: falling asymmetric dose-response curves on log x, 13 concentrations
   (1e-4 .. 100) x 2 replicates, y_left ~100, y_right ~5, ec50 ~0.1, asymmetry ~0.5, sd 1;
@@ -38,50 +38,15 @@ sys.path.insert(0, str(Path(__file__).resolve().parent.parent))
 from service.core.batch import curves  # noqa: E402
 from service.core.families import fit_series  # noqa: E402
 from service.core.spec import FitOptions, ModelSpec  # noqa: E402
+from tests.batch import curves_data as data  # noqa: E402
 
 SEED = 20261205
 
 
-def logistic5(rng, count, linear=False):
-    """Asymmetric logistic curves (see the module docstring)."""
-    if linear:
-        x = np.repeat(np.linspace(0.0, 10.0, 16), 2)
-    else:
-        x = np.repeat(np.geomspace(1e-4, 100.0, 13), 2)
-    out = []
-    for _ in range(count):
-        if linear:
-            mid, slope = 5.0 + rng.normal(0, 0.5), 1.0 * np.exp(rng.normal(0, 0.2))
-            g = 2.0 * np.exp(rng.normal(0, 0.2))
-            c = 2.0 ** (1.0 / g) - 1.0
-            y = 20.0 + (2.0 - 20.0) / (1.0 + c * np.exp(slope * (x - mid))) ** g
-            out.append((x, y + rng.normal(0, 0.3, x.size)))
-            continue
-        left, right = 100.0 + rng.normal(0, 3), 5.0 + rng.normal(0, 2)
-        slope, ec50 = 1.2 * np.exp(rng.normal(0, 0.2)), 0.1 * np.exp(rng.normal(0, 0.5))
-        g = 0.5 * np.exp(rng.normal(0, 0.2))
-        c = 2.0 ** (1.0 / g) - 1.0
-        y = right + (left - right) / (1.0 + c * (x / ec50) ** slope) ** g
-        out.append((x, y + rng.normal(0, 1.0, x.size)))
-    return out
-
-
-def biexponential(rng, count):
-    """Two-phase decays (see the module docstring)."""
-    x = np.repeat(np.geomspace(0.25, 24.0, 14), 2)
-    out = []
-    for _ in range(count):
-        a_fast, k_fast = 8.0 * np.exp(rng.normal(0, 0.1)), 1.0 * np.exp(rng.normal(0, 0.2))
-        a_slow, k_slow = 4.0 * np.exp(rng.normal(0, 0.1)), 0.1 * np.exp(rng.normal(0, 0.2))
-        y = a_fast * np.exp(-k_fast * x) + a_slow * np.exp(-k_slow * x)
-        out.append((x, y + rng.normal(0, 0.1, x.size)))
-    return out
-
-
-CASES = {"logistic5": (ModelSpec(family="logistic5"), lambda r, n: logistic5(r, n)),
+CASES = {"logistic5": (ModelSpec(family="logistic5"), data.logistic5),
          "logistic5_linear": (ModelSpec(family="logistic5", scale="linear"),
-                              lambda r, n: logistic5(r, n, linear=True)),
-         "biexponential": (ModelSpec(family="biexponential"), biexponential)}
+                              data.logistic5_linear),
+         "biexponential": (ModelSpec(family="biexponential"), data.biexponential)}
 
 
 def flat(series):
