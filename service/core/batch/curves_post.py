@@ -32,6 +32,7 @@ from scipy import special
 from service.core.batch.curves_kernel import S
 from service.core.batch.curves_results import CURVE_FLAG_CODES
 from service.core.batch.curves_solver import CODES
+from service.core.batch.residuals import RESIDUAL_TESTS, tested_only
 from service.core.checks.flags import POINTS_PER_PARAMETER, TEST_ALPHA
 from service.core.nonlinear.flags import CORRELATION_CUT, RELATIVE_SE_CUT
 
@@ -78,9 +79,9 @@ def finish(out: dict, rows, stats: np.ndarray, n: np.ndarray, p: int,
         stats[:, S["start"]].astype(np.int64)]
     cols["iterations"][rows] = stats[:, S["iterations"]].astype(np.int64)
     cols["relative_offset"][rows] = stats[:, S["relative_offset"]]
-    for name in ("durbin_watson", "durbin_watson_p", "breusch_pagan", "breusch_pagan_p",
-                 "lack_of_fit_f", "shapiro_wilk", "shapiro_wilk_p"):
-        cols[name][rows] = np.where((df >= 2) | ("lack" in name), stats[:, S[name]], np.nan)
+    for name in RESIDUAL_TESTS:
+        cols[name][rows] = tested_only(stats[:, S[name]], df)
+    cols["lack_of_fit_f"][rows] = lof_f
     cols["lack_of_fit_p"][rows] = lof_p
     for name in ("n_outliers", "n_influential", "n_high_leverage"):
         cols[name][rows] = stats[:, S[name]].astype(np.int64)

@@ -176,25 +176,12 @@ def fit_chunk(u, z, w, offsets, rows, spec: BlockSpec, tabs, marks, resid):
     cols["durbin_watson_p"] = durbin_watson.p_value(
         cols["durbin_watson"], n - p, *durbin_watson.traces(
             n, sc[:, SC["dw_trace_g"]], sc[:, SC["dw_frob_g"]], sc[:, SC["dw_frob_aq"]]))
-    _one_df_untested(cols)
+    for name in resid_checks.RESIDUAL_TESTS:
+        cols[name] = resid_checks.tested_only(cols[name], cols["df_residual"])
     cols["flags"], cols["flag_levels"] = _flags(cols, sc, p, sc[:, SC["exact"]] > 0,
                                                 sc[:, SC["condition_number"]])
     outliers, influential = _points(marks, offsets, fitted, cols)
     return (ChunkResult(fitted, cols, coef, se, cands, outliers, influential), rows[~ok])
-
-
-RESIDUAL_TESTS = ("shapiro_wilk", "shapiro_wilk_p", "breusch_pagan", "breusch_pagan_p",
-                  "durbin_watson", "durbin_watson_p")
-
-
-def _one_df_untested(cols) -> None:
-    """No residual test with one residual df, as in fit_series
-    (:func:`service.core.checks.diagnostics.formal_tests`): the statistics are then fixed by
-    the design."""
-    one = cols["df_residual"] < 2
-    if one.any():
-        for name in RESIDUAL_TESTS:
-            cols[name] = np.where(one, np.nan, cols[name])
 
 
 def _chi_square(rss, df, known: bool) -> tuple[np.ndarray, np.ndarray]:

@@ -15,10 +15,14 @@ from __future__ import annotations
 import numba
 import numpy as np
 
+from service.core.checks.diagnostics import MIN_TEST_DF
 from service.core.checks.kernels import shapiro_p
 from service.core.checks.shapiro_tables import SHAPIRO_MAX_N
 
 OUTLIER_BIT, INFLUENTIAL_BIT = 1, 2
+RESIDUAL_TESTS = ("shapiro_wilk", "shapiro_wilk_p", "breusch_pagan", "breusch_pagan_p",
+                  "durbin_watson", "durbin_watson_p")
+"""The batch columns of the residual tests (statistic and p-value of each)."""
 _SUM = {"reassoc", "nsz"}  # vectorized sums only; no assumption about NaN or infinity
 
 
@@ -197,3 +201,10 @@ def collect(marks, offsets, rows, bit):
                 where[k], index[k] = g, i - a
                 k += 1
     return where, index
+
+
+def tested_only(values: np.ndarray, df: np.ndarray) -> np.ndarray:
+    """A residual test's column with NaN where the series has fewer than
+    :data:`~service.core.checks.diagnostics.MIN_TEST_DF` residual df (not run, as in the
+    single fit's :func:`~service.core.checks.diagnostics.formal_tests`)."""
+    return np.where(df >= MIN_TEST_DF, values, np.nan)

@@ -56,12 +56,16 @@ def shapiro_coefficients(n: int, tested: bool) -> np.ndarray:
     return shapiro_weights(n) if tested and 3 <= n <= SHAPIRO_MAX_N else NO_WEIGHTS
 
 
+MIN_TEST_DF = 2
+"""Residual degrees of freedom the residual tests need (with one, every scale-free
+statistic of the residuals is fixed by the design)."""
+
 ONE_DF = ("one residual degree of freedom: the residuals are one fixed vector times a scale, "
           "so the test would judge the x design, not the data")
 
 
 def formal_tests(tested: bool, exact: bool, n: int, sw: tuple, bp: TestResult,
-                 dw: TestResult, df: int = 2) -> tuple[TestResult, ...]:
+                 dw: TestResult, df: int = MIN_TEST_DF) -> tuple[TestResult, ...]:
     """Shapiro-Wilk, Breusch-Pagan and Durbin-Watson results, or why they were not run.
 
     ``sw`` is ``(status, w, p)`` from :func:`service.core.checks.kernels.residual_tests`;
@@ -69,7 +73,7 @@ def formal_tests(tested: bool, exact: bool, n: int, sw: tuple, bp: TestResult,
     freedom the tests are not run: every scale-free statistic of the residuals is then fixed
     by the design (three evenly spaced points always give Shapiro-Wilk's smallest W, 0.75).
     """
-    if tested and df >= 2:
+    if tested and df >= MIN_TEST_DF:
         return (shapiro_result(*sw, n), bp, dw)
     why = ("exact fit: residuals are rounding noise" if exact else ONE_DF if tested
            else "no residual df")
