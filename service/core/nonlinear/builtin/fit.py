@@ -30,7 +30,7 @@ from service.core.errors import DataError, DesignError, SpecError
 from service.core.nonlinear.analysis import report
 from service.core.nonlinear.builtin.definition import LOG, Builtin, series_of
 from service.core.nonlinear.builtin.derived import derived_rows
-from service.core.nonlinear.builtin.domain import check_grid
+from service.core.nonlinear.builtin.domain import check_grid, first_negative, nonnegative_x
 from service.core.nonlinear.builtin.spec_check import check_spec, equation, scale_of
 from service.core.nonlinear.builtin.starts import Held, Start, automatic_starts
 from service.core.nonlinear.polish import CONVERGED
@@ -199,14 +199,12 @@ def _check_data(family: Builtin, scale: str, x: np.ndarray, p: int) -> None:
     if x.size < p:
         raise DesignError(f"{x.size} points cannot determine {p} parameters.", field="x",
                           fix=f"Send at least {p} points (5 per parameter is common practice).")
-    if scale == LOG or family.x_domain == "nonnegative":
-        negative = np.flatnonzero(x < 0)
-        if negative.size:
-            i = int(negative[0])
-            where = "on the log scale" if scale == LOG else f"in the {family.name} curve"
-            raise DataError(f"x[{i}] = {x[i]:g} is negative: x must be >= 0 {where}.",
-                            field=f"x[{i}]", fix="Send x >= 0" + (
-                                ', or use model.scale = "linear".' if scale == LOG else "."))
+    i = first_negative(x) if nonnegative_x(family, scale) else None
+    if i is not None:
+        where = "on the log scale" if scale == LOG else f"in the {family.name} curve"
+        raise DataError(f"x[{i}] = {x[i]:g} is negative: x must be >= 0 {where}.",
+                        field=f"x[{i}]", fix="Send x >= 0" + (
+                            ', or use model.scale = "linear".' if scale == LOG else "."))
     if scale == LOG and np.unique(x[x > 0]).size < 2:
         raise DesignError("The log scale needs at least two distinct x > 0.", field="x",
                           fix='Send more doses, or use model.scale = "linear".')
