@@ -75,3 +75,25 @@ def test_scale_is_read_back_from_every_equation():
                 assert scale_of_equation(family, text) == scale, (name, scale, text)
                 if len(family.scales) > 1:
                     assert (LOG_MARK in text.replace(" ", "")) == (scale == LOG), text
+
+
+def test_data_grid_and_prediction_refusals_share_one_shape(client):
+    """The three refusals of x < 0 (data, grid, /v1/predict) word the point, the reason and
+    the fix alike (service.core.nonlinear.builtin.domain.refuse_negative)."""
+    body = _body("logistic4", "log")
+    x = list(body["x"])
+    x[3] = -0.5
+    data = assert_problem(post_json(client, "/v1/fit", {**body, "x": x}), 422, "invalid_data",
+                          "x[3]")
+    grid = assert_problem(post_json(client, "/v1/fit", {**body, "grid": {"x": [-1.0, 1.0]}}),
+                          422, "invalid_data", "grid.x[0]")
+    document = post_json(client, "/v1/fit", body).get_json()["fitted_model"]
+    predicted = assert_problem(post_json(client, "/v1/predict", {
+        "fitted_model": document, "x": [1.0, 0.0, -0.5]}), 422, "invalid_data", "x[2]")
+    for problem, point, article in ((data, "x[3] = -0.5", "the"),
+                                    (grid, "Grid point 0 (x = -1.0)", "the"),
+                                    (predicted, "x[2] = -0.5", "the stored")):
+        detail = problem["detail"]
+        assert (f"{point} is negative, but {article} logistic4 curve is on log x: the curve is "
+                "defined for x >= 0 only.") in detail, detail
+        assert "This curve is on log x: " in detail and 'model.scale = "linear"' in detail

@@ -59,15 +59,10 @@ def check_grid(family: Builtin, scale: str, spec: GridSpec, xs: np.ndarray) -> N
     DataError
         Naming ``grid.x[i]``, ``grid.start``, ``grid.stop`` or ``grid``.
     """
-    bad = first_negative(xs) if nonnegative_x(family, scale) else None
-    if bad is None:
-        return
-    other = ', or fit with model.scale = "linear"' if scale == LOG else ""
-    raise DataError(
-        f"Grid point {bad} (x = {float(xs[bad])!r}) is negative, but {where_words(family, scale)}"
-        ": the curve is defined for x >= 0 only.", field=grid_field(spec, xs, bad),
-        fix=f"{_lead(scale)}: give only grid points x >= 0 (grid.x, or grid.start >= 0), or "
-            f"omit the grid to use the data range{other}.")
+    refuse_negative(family, scale, xs, point=lambda i: f"Grid point {i} (x = {float(xs[i])!r})",
+                    field=lambda i: grid_field(spec, xs, i),
+                    send="give only grid points x >= 0 (grid.x, or grid.start >= 0), or omit "
+                         "the grid to use the data range")
 
 
 def check_prediction_x(family: Builtin, expression: str, xs: np.ndarray,
@@ -79,17 +74,45 @@ def check_prediction_x(family: Builtin, expression: str, xs: np.ndarray,
     DataError
         Naming ``x[i]`` (``field[i]``) of the first negative value.
     """
-    scale = scale_of_equation(family, expression)
+    refuse_negative(family, scale_of_equation(family, expression), xs, stored=True,
+                    point=lambda i: f"{field}[{i}] = {float(xs[i])!r}",
+                    field=lambda i: f"{field}[{i}]", send="send only x >= 0")
+
+
+def refuse_negative(family: Builtin, scale: str, xs: np.ndarray, *, point, field, send: str,
+                    stored: bool = False) -> None:
+    """Refuse the first x < 0 of ``xs`` when the curve on ``scale`` needs x >= 0.
+
+    Parameters
+    ----------
+    family : Builtin
+        The curve's family.
+    scale : str
+        Its x scale (``"log"`` or ``"linear"``).
+    xs : ndarray
+        The x to check.
+    point, field : callable
+        From the position of the first negative x: how the message names it
+        (``"x[2] = -0.5"``) and the field of the refusal (``"x[2]"``).
+    send : str
+        What to send instead, in words (the fix after the reason).
+    stored : bool
+        The curve is a stored fit (its own words, and "refit" in the fix).
+
+    Raises
+    ------
+    DataError
+        One shape of words for every refusal: the point, why x must be >= 0, the fix.
+    """
     bad = first_negative(xs) if nonnegative_x(family, scale) else None
     if bad is None:
         return
-    other = ', or refit with model.scale = "linear"' if scale == LOG else ""
+    article, verb = ("the stored", "refit") if stored else ("the", "fit")
+    other = f', or {verb} with model.scale = "linear"' if scale == LOG else ""
     raise DataError(
-        f"{field}[{bad}] = {float(xs[bad])!r} is negative, but "
-        f"{where_words(family, scale, article='the stored')}: the curve is defined for x >= 0 "
-        "only.",
-        field=f"{field}[{bad}]",
-        fix=f"{_lead(scale)}: send only x >= 0{other}.")
+        f"{point(bad)} is negative, but {where_words(family, scale, article=article)}: the "
+        "curve is defined for x >= 0 only.", field=field(bad),
+        fix=f"{_lead(scale)}: {send}{other}.")
 
 
 def _lead(scale: str) -> str:

@@ -26,11 +26,11 @@ import numpy as np
 from service.core.checks.known_sd import require_weights
 from service.core.data.grid import grid_points
 from service.core.data.inputs import clean_data
-from service.core.errors import DataError, DesignError, SpecError
+from service.core.errors import DesignError, SpecError
 from service.core.nonlinear.analysis import report
 from service.core.nonlinear.builtin.definition import LOG, Builtin, series_of
 from service.core.nonlinear.builtin.derived import derived_rows
-from service.core.nonlinear.builtin.domain import check_grid, first_negative, nonnegative_x
+from service.core.nonlinear.builtin.domain import check_grid, refuse_negative
 from service.core.nonlinear.builtin.spec_check import check_spec, equation, scale_of
 from service.core.nonlinear.builtin.starts import Held, Start, automatic_starts
 from service.core.nonlinear.polish import CONVERGED
@@ -199,12 +199,8 @@ def _check_data(family: Builtin, scale: str, x: np.ndarray, p: int) -> None:
     if x.size < p:
         raise DesignError(f"{x.size} points cannot determine {p} parameters.", field="x",
                           fix=f"Send at least {p} points (5 per parameter is common practice).")
-    i = first_negative(x) if nonnegative_x(family, scale) else None
-    if i is not None:
-        where = "on the log scale" if scale == LOG else f"in the {family.name} curve"
-        raise DataError(f"x[{i}] = {x[i]:g} is negative: x must be >= 0 {where}.",
-                        field=f"x[{i}]", fix="Send x >= 0" + (
-                            ', or use model.scale = "linear".' if scale == LOG else "."))
+    refuse_negative(family, scale, x, point=lambda i: f"x[{i}] = {float(x[i])!r}",
+                    field=lambda i: f"x[{i}]", send="send only x >= 0")
     if scale == LOG and np.unique(x[x > 0]).size < 2:
         raise DesignError("The log scale needs at least two distinct x > 0.", field="x",
                           fix='Send more doses, or use model.scale = "linear".')
