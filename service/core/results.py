@@ -140,7 +140,10 @@ class Prediction:
     stays on the fitting (transformed) scale. ``unbounded`` marks x where a
     limit has no finite value on the original scale (the band reaches the pole
     of the ``reciprocal`` transform, or leaves the double range); that limit
-    is NaN. None from families without it (read as all False).
+    is NaN. None from families without it (read as all False). ``notices``: what the
+    code that computed the values found wrong with them (``non_finite_prediction`` where the
+    curve has no finite value, ``no_covariance`` where the bands are missing), for a report
+    to pass on; empty when there is nothing to say.
     """
 
     x: FloatArray
@@ -155,6 +158,7 @@ class Prediction:
     extrapolated: np.ndarray  # bool
     level: float
     unbounded: np.ndarray | None = None  # bool
+    notices: tuple[Notice, ...] = ()
 
 
 class TestResult(NamedTuple):

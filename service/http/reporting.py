@@ -109,6 +109,7 @@ def prediction_section(prediction: Prediction) -> dict:
     """Grid/prediction arrays under their contract names (``unbounded`` all false when a
     family does not mark it)."""
     out = plain(prediction)
+    del out["notices"]  # the report's warnings carry them
     if out["unbounded"] is None:
         out["unbounded"] = [False] * len(prediction.x)
     return out

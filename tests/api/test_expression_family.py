@@ -8,6 +8,7 @@ import numpy as np
 import pytest
 from scipy import optimize, stats
 
+from service.core import predict, read_document
 from tests.api.helpers import assert_problem, post_json
 
 FOUR_PL = "d + (a - d)/(1 + (x/c)^b)"
@@ -215,7 +216,8 @@ def test_grid_points_where_the_equation_is_undefined_are_null_and_said(client):
         np.polyfit(np.log(x), y, 1), np.log([1.0, 2.0])), rtol=1e-8)  # numpy oracle
     codes = {w["code"]: w["message"] for w in out["warnings"]}
     assert "non_finite_prediction" in codes
-    assert "2 of the 4 grid points (x = -1.0, 0.0)" in codes["non_finite_prediction"]
+    assert "2 of the 4 points asked for (x = -1.0, 0.0)" in codes["non_finite_prediction"]
+    assert list(codes).count("non_finite_prediction") == 1
 
 
 def test_predict_counts_the_x_where_the_stored_equation_is_undefined(client):
@@ -230,3 +232,7 @@ def test_predict_counts_the_x_where_the_stored_equation_is_undefined(client):
     body = res.get_json()
     assert [row["fit"] is None for row in body["predictions"]] == [True, True, False]
     assert body["undefined_count"] == 2 and body["extrapolated_count"] == 2
+    # the core's prediction says the same count in its own notice (the fit's grid warning)
+    notices = predict(read_document(fitted), [-2, 0, 3]).notices
+    assert [n.code for n in notices] == ["non_finite_prediction"]
+    assert "at 2 of the 3 points asked for (x = -2.0, 0.0)" in notices[0].message

@@ -125,7 +125,7 @@ def report(solution, data, equation, names: tuple[str, ...], family: str, expres
     flags.extend(trust_flags(n=n, p=p, exact=exact, condition=NAN, diagnostics=diagnostics,
                              grid=grid))
     notices = _notices(solution.notices, inference.notices, profile.notices,
-                       _grid_notices(grid))
+                       () if grid is None else grid.notices)
     return NonlinearReport(fitted, data.n_input, tuple(data.dropped), rows,
                            inference.correlation, _statistics(inference, n, p), info,
                            diagnostics, grid, tuple(flags), notices)
@@ -156,7 +156,8 @@ def predict(fitted: FittedCurve, x, *, level: float | None = None, m: int = 1) -
         spread = wide * bands.se_fit
     return Prediction(bands.x, bands.fit, bands.se_fit, bands.mean_lower, bands.mean_upper,
                       bands.obs_lower, bands.obs_upper, _frozen(bands.fit - spread),
-                      _frozen(bands.fit + spread), bands.extrapolated, level)
+                      _frozen(bands.fit + spread), bands.extrapolated, level,
+                      notices=tuple(Notice(n.code, n.message) for n in bands.notices))
 
 
 def _frozen(values: np.ndarray) -> np.ndarray:
@@ -194,19 +195,6 @@ def _statistics(inf, n: int, p: int) -> FitStatistics:
     return FitStatistics(n, p, p - 1, df, inf.rss, inf.tss, True, inf.r_squared, adj,
                          inf.sigma, NAN, NAN, inf.log_likelihood, inf.aic, inf.aicc, inf.bic,
                          NAN, NAN, inf.condition_number)
-
-
-def _grid_notices(grid: Prediction | None) -> tuple[Notice, ...]:
-    """Say where the fitted curve is not finite on the grid (there its values are null)."""
-    if grid is None or np.isfinite(grid.fit).all():
-        return ()
-    where = np.flatnonzero(~np.isfinite(grid.fit))
-    shown = ", ".join(repr(float(grid.x[i])) for i in where[:5])
-    more = ", ..." if where.size > 5 else ""
-    return (Notice("non_finite_prediction",
-                   f"the fitted curve is not finite at {where.size} of the {grid.fit.size} grid "
-                   f"points (x = {shown}{more}), so their values are null; the equation is "
-                   "undefined or overflows there"),)
 
 
 def _notices(*groups) -> tuple[Notice, ...]:

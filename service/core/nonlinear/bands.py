@@ -119,8 +119,7 @@ def band_values(model, xs: np.ndarray, theta: np.ndarray, cov: np.ndarray, facto
     fit, grad = _evaluate(model, xs, theta, k, p)
     bad = ~(np.isfinite(fit) & np.isfinite(grad).all(axis=1))
     if bad.any():
-        notices.append(Notice("non_finite_prediction", f"the model is not finite at {bad.sum()} "
-                              "of the new x; those predictions are missing"))
+        notices.append(Notice("non_finite_prediction", non_finite_words(xs, bad)))
         fit[bad], grad[bad] = np.nan, np.nan
     if not np.isfinite(cov).all():
         notices.append(Notice("no_covariance", "no parameter covariance (rank-deficient "
@@ -137,6 +136,19 @@ def band_values(model, xs: np.ndarray, theta: np.ndarray, cov: np.ndarray, facto
                  obs_lower=frozen(fit - crit * se_obs), obs_upper=frozen(fit + crit * se_obs),
                  extrapolated=frozen(extrapolated, dtype=bool), level=level,
                  critical_value=crit, replicates=int(replicates), notices=tuple(notices))
+
+
+def non_finite_words(xs: np.ndarray, bad: np.ndarray) -> str:
+    """The ``non_finite_prediction`` message: how many of ``xs`` (rows) are ``bad``, the
+    first five of them, and why their values are null."""
+    where = np.flatnonzero(bad)
+    rows = xs.reshape(xs.shape[0], -1)
+    shown = ", ".join(repr(float(rows[i, 0])) if rows.shape[1] == 1
+                      else repr(tuple(map(float, rows[i]))) for i in where[:5])
+    more = ", ..." if where.size > 5 else ""
+    return (f"the fitted curve is not finite at {where.size} of the {xs.shape[0]} points "
+            f"asked for (x = {shown}{more}), so their values are null; the equation is "
+            "undefined or overflows there")
 
 
 def _evaluate(model, xs, theta, k: int, p: int) -> tuple[np.ndarray, np.ndarray]:

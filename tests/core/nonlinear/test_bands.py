@@ -91,6 +91,7 @@ def test_two_predictor_extrapolation_and_missing_predictions():
     assert np.isfinite(bands.fit[:3]).all() and np.isnan(bands.fit[3])  # log(-1)
     assert np.isnan(bands.mean_lower[3]) and np.isnan(bands.se_fit[3])
     assert [n.code for n in bands.notices] == ["non_finite_prediction"]
+    assert "at 1 of the 4 points asked for (x = (-1.0, 15.0))" in bands.notices[0].message
     with pytest.raises(DataError) as err:
         predict(sol, np.array([2.0, 15.0]))
     assert err.value.field == "grid.x"
