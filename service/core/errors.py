@@ -9,7 +9,8 @@ Hierarchy::
 
     FitError(ValueError)            base: something about this input cannot be fitted
     ├── DataError                   the arrays themselves: lengths, NaN/inf, empty, weights <= 0
-    │   └── TransformError          a value is outside the domain of the requested transform
+    │   └── TransformError          a value is outside the domain of the requested transform,
+    │                               or an x outside a curve defined for x >= 0 only
     ├── DesignError                 the design cannot support the model: too few points or
     │                               distinct x for the degree, rank deficiency
     ├── SpecError                   the model/options do not make sense together
@@ -85,7 +86,9 @@ class DataError(FitError):
 
 
 class TransformError(DataError):
-    """A value lies outside the domain of the requested transform (e.g. log of x <= 0)."""
+    """A value lies outside the domain of the model: of the requested transform (e.g. log of
+    x <= 0), or an x < 0 for a curve defined for x >= 0 only (a log-x dose-response curve,
+    a power of x: :mod:`service.core.nonlinear.builtin.domain`)."""
 
     code = "transform_domain"
 

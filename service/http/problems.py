@@ -73,8 +73,10 @@ CATALOGUE: dict[str, ProblemKind] = {kind.code: kind for kind in (
                 "offending index.",
                 "Fix the array named in errors."),
     ProblemKind("transform_domain", 422, "Value outside the transform's domain",
-                "A value is outside the domain of the requested transform (e.g. log of x <= 0).",
-                "Choose another transform, or remove the point."),
+                "A value is outside the domain of the requested transform (e.g. log of x <= 0), "
+                "or an x < 0 for a curve defined for x >= 0 only (a built-in curve on log x, "
+                "power, weibull): in the data, the grid or the x of /v1/predict.",
+                "Choose another transform or scale, or remove the point."),
     ProblemKind("insufficient_design", 422, "Too little information for the model",
                 "Too few points or distinct x values for the degree, or a rank-deficient design.",
                 "Lower the degree, or add points at new x values."),

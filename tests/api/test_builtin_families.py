@@ -169,7 +169,7 @@ def test_logistic4_scales_and_a_falling_curve(client):
     assert lin["model"]["expression"] == "y_right + (y_left - y_right)/(1 + exp(slope*(x - ec50)))"
     negative = post_json(client, "/v1/fit", {"x": [-1.0] + x.tolist()[1:], "y": y.tolist(),
                                              "model": {"family": "logistic4"}})
-    assert_problem(negative, 422, "invalid_data", "x[0]")
+    assert_problem(negative, 422, "transform_domain", "x[0]")
 
 
 def test_known_sd_weighting_for_a_built_in_family(client):

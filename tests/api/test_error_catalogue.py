@@ -107,8 +107,13 @@ CASES = {
         ("weights <= 0", {}, _post({**FIT, "weights": [1.0, 0.0, 1.0, 1.0, 1.0, 1.0]})),
         ("ratio is over 1e16", {}, _post({**FIT, "weights": [1.0, 1e17, 1.0, 1.0, 1.0,
                                                                1.0]}))],
-    "transform_domain": [("log of x <= 0", {}, _post({"x": [0.0] + X[1:], "y": Y, "model": {
-        "degree": 1, "transform_x": "log"}}))],
+    "transform_domain": [
+        ("log of x <= 0", {}, _post({"x": [0.0] + X[1:], "y": Y, "model": {
+            "degree": 1, "transform_x": "log"}})),
+        ("an x < 0 (data, grid or /v1/predict) for a curve defined for x >= 0 only", {},
+         _post({"x": [-1.0] + X[1:], "y": Y, "model": {"family": "power"}})),
+        ("an x < 0 (data, grid or /v1/predict) for a curve defined for x >= 0 only", {},
+         _post({**FIT, "model": {"family": "power"}, "grid": {"x": [-1.0, 1.0]}}))],
     "insufficient_design": [
         ("too few points", {}, _post({"x": [1.0], "y": [2.0]})),
         ("distinct x for the degree", {}, _post({"x": [1.0, 1.0, 2.0, 2.0], "y": Y[:4],

@@ -1,4 +1,5 @@
-"""x outside a built-in curve's domain: the fit's grid and /v1/predict refuse it (422).
+"""x outside a built-in curve's domain: the fit's data, grid and /v1/predict refuse it (422,
+code transform_domain, as for x outside a polynomial's x transform).
 
 The rule is the families' own: a log-scale dose-response curve (x^slope) and the curves
 raising x to a parameter (power, weibull) are defined for x >= 0, which the single fit
@@ -38,15 +39,15 @@ def _body(name: str, scale: str | None):
 def test_negative_grid_and_prediction_x_are_refused(client, name):
     body = _body(name, RESTRICTED[name])
     problem = assert_problem(post_json(client, "/v1/fit", {**body, "grid": {"x": [-1.0, 1.0]}}),
-                             422, "invalid_data", "grid.x[0]")
+                             422, "transform_domain", "grid.x[0]")
     assert "x >= 0" in problem["detail"], problem
     assert_problem(post_json(client, "/v1/fit", {**body, "grid": {"start": -2.0, "stop": 1.0}}),
-                   422, "invalid_data", "grid.start")
+                   422, "transform_domain", "grid.start")
     fitted = post_json(client, "/v1/fit", body)
     assert fitted.status_code == 200, fitted.data[:400]
     document = fitted.get_json()["fitted_model"]
     problem = assert_problem(post_json(client, "/v1/predict", {
-        "fitted_model": document, "x": [1.0, 0.0, -0.5]}), 422, "invalid_data", "x[2]")
+        "fitted_model": document, "x": [1.0, 0.0, -0.5]}), 422, "transform_domain", "x[2]")
     assert "send only x >= 0" in problem["detail"], problem
     ok = post_json(client, "/v1/predict", {"fitted_model": document, "x": [0.5, 2.0]})
     assert ok.status_code == 200, ok.data[:400]
@@ -83,13 +84,13 @@ def test_data_grid_and_prediction_refusals_share_one_shape(client):
     body = _body("logistic4", "log")
     x = list(body["x"])
     x[3] = -0.5
-    data = assert_problem(post_json(client, "/v1/fit", {**body, "x": x}), 422, "invalid_data",
+    data = assert_problem(post_json(client, "/v1/fit", {**body, "x": x}), 422, "transform_domain",
                           "x[3]")
     grid = assert_problem(post_json(client, "/v1/fit", {**body, "grid": {"x": [-1.0, 1.0]}}),
-                          422, "invalid_data", "grid.x[0]")
+                          422, "transform_domain", "grid.x[0]")
     document = post_json(client, "/v1/fit", body).get_json()["fitted_model"]
     predicted = assert_problem(post_json(client, "/v1/predict", {
-        "fitted_model": document, "x": [1.0, 0.0, -0.5]}), 422, "invalid_data", "x[2]")
+        "fitted_model": document, "x": [1.0, 0.0, -0.5]}), 422, "transform_domain", "x[2]")
     for problem, point, article in ((data, "x[3] = -0.5", "the"),
                                     (grid, "Grid point 0 (x = -1.0)", "the"),
                                     (predicted, "x[2] = -0.5", "the stored")):

@@ -6,7 +6,9 @@ are defined for x >= 0 only; their fit refuses data x < 0
 (:func:`service.core.nonlinear.builtin.fit.fit_series`). The same rule refuses a
 fit's grid and the x of ``/v1/predict`` (NaN there would be a silent null), with
 the field named and the fix in words, as the polynomial path does for its x
-transform (:func:`service.core.data.grid.check_domain`).
+transform (:func:`service.core.data.grid.check_domain`), and with its code
+(``transform_domain``): to a caller both are an x outside where the model is defined,
+fixed the same way (drop the point, or choose another transform or scale).
 """
 
 from __future__ import annotations
@@ -14,7 +16,7 @@ from __future__ import annotations
 import numpy as np
 
 from service.core.data.grid import grid_field
-from service.core.errors import DataError
+from service.core.errors import TransformError
 from service.core.nonlinear import analysis
 from service.core.nonlinear.builtin.definition import LINEAR, LOG, Builtin
 from service.core.spec import GridSpec
@@ -56,7 +58,7 @@ def check_grid(family: Builtin, scale: str, spec: GridSpec, xs: np.ndarray) -> N
 
     Raises
     ------
-    DataError
+    TransformError
         Naming ``grid.x[i]``, ``grid.start``, ``grid.stop`` or ``grid``.
     """
     refuse_negative(family, scale, xs, point=lambda i: f"Grid point {i} (x = {float(xs[i])!r})",
@@ -71,7 +73,7 @@ def check_prediction_x(family: Builtin, expression: str, xs: np.ndarray,
 
     Raises
     ------
-    DataError
+    TransformError
         Naming ``x[i]`` (``field[i]``) of the first negative value.
     """
     refuse_negative(family, scale_of_equation(family, expression), xs, stored=True,
@@ -101,15 +103,17 @@ def refuse_negative(family: Builtin, scale: str, xs: np.ndarray, *, point, field
 
     Raises
     ------
-    DataError
-        One shape of words for every refusal: the point, why x must be >= 0, the fix.
+    TransformError
+        Code ``transform_domain``, as for x outside the domain of a polynomial's x
+        transform: one shape of words for every refusal (the point, why x must be >= 0,
+        the fix).
     """
     bad = first_negative(xs) if nonnegative_x(family, scale) else None
     if bad is None:
         return
     article, verb = ("the stored", "refit") if stored else ("the", "fit")
     other = f', or {verb} with model.scale = "linear"' if scale == LOG else ""
-    raise DataError(
+    raise TransformError(
         f"{point(bad)} is negative, but {where_words(family, scale, article=article)}: the "
         "curve is defined for x >= 0 only.", field=field(bad),
         fix=f"{_lead(scale)}: {send}{other}.")
