@@ -1,6 +1,6 @@
 """The batched nonlinear inversion equals the per-reading (scalar) search it replaced.
 
-Oracles: ``_CurveReader.read`` (the per-reading Brent search the service ran before the
+Oracles: ``CurveReader.read`` (the per-reading Brent search the service ran before the
 batched path; kept as its fallback) on every reading, and ``scipy.optimize.brentq`` for
 the batched Brent iteration itself. Estimates and interval ends must agree to 1e-10
 relative (the scalar search's own tolerance is 4 eps relative, finer), statuses and
@@ -22,7 +22,8 @@ from scipy import optimize
 from service.core import ModelSpec, fit_series
 from service.core.models import curve_batch
 from service.core.models.brent_batch import brent_many
-from service.core.models.curve_inverse import _CurveReader, invert_curve
+from service.core.models.curve_inverse import invert_curve
+from service.core.models.curve_reader import CurveReader
 
 RTOL = 1e-10
 
@@ -63,7 +64,7 @@ def _series(name: str, rng):
 
 
 def _readings(fitted, rng, count: int):
-    reader = _CurveReader(fitted, fitted.level)
+    reader = CurveReader(fitted, fitted.level)
     ends = reader.values[[0, -1]]
     lo, hi = float(np.min(reader.values)), float(np.max(reader.values))
     reach = hi - lo
@@ -88,7 +89,7 @@ def test_batched_inversion_equals_the_scalar_search(name, monkeypatch):
     fitted = _series(name, rng)
     y, m = _readings(fitted, rng, 150)
     batched = invert_curve(fitted, y, replicates=m)
-    reader = _CurveReader(fitted, fitted.level)
+    reader = CurveReader(fitted, fitted.level)
     with np.errstate(all="ignore"):
         scalar = [reader.read(float(v), int(k)) for v, k in zip(y, m, strict=True)]
     statuses = set()
@@ -149,7 +150,7 @@ def test_binary_search_finds_the_grid_crossings_of_the_full_table(name):
     # oracle: the table of signs of values - y over every grid point (the general path)
     rng = np.random.default_rng([77, len(name)])
     fitted = _series(name, rng)
-    values = _CurveReader(fitted, fitted.level).values
+    values = CurveReader(fitted, fitted.level).values
     assert np.all(np.diff(values) > 0) or np.all(np.diff(values) < 0)  # the fast path
     y, _ = _readings(fitted, rng, 400)
     fast = curve_batch._grid_crossings(values, y)
@@ -163,12 +164,12 @@ def test_binary_search_finds_the_grid_crossings_of_the_full_table(name):
 
 
 def test_batched_intervals_equal_the_scalar_ones_where_the_band_set_is_disjoint():
-    # oracle: _CurveReader._interval, the one-reading interval search. On a peak, the
+    # oracle: CurveReader._interval, the one-reading interval search. On a peak, the
     # band around the left root of a reading also contains it around the right root,
     # so the statuses include interval_disjoint (hidden by not_monotone in /v1/invert)
     rng = np.random.default_rng(3101)
     fitted = _series("peak", rng)
-    reader = _CurveReader(fitted, fitted.level)
+    reader = CurveReader(fitted, fitted.level)
     top = int(np.argmax(reader.values))
     y = rng.uniform(reader.values[0] + 0.05, reader.values[top] - 0.05, 60)
     m = rng.integers(1, 4, y.size)

@@ -1,7 +1,7 @@
 """Brent's bracketed root finder (Brent 1973) stepping many brackets together.
 
 Each bracket keeps its own state and follows the same rules, step for step and with
-the same tolerances, as the scalar search of :func:`service.core.models.curve_inverse._brent`
+the same tolerances, as the scalar search of :func:`service.core.models.curve_reader._brent`
 (``scipy.optimize.brentq`` with ``xtol = 4 eps max(|a|, |b|)``, ``rtol = 4 eps``, 200
 iterations): inverse quadratic or secant steps while they shrink fast enough, bisection
 otherwise. Only the function evaluations are shared: each round evaluates the function

@@ -1,7 +1,7 @@
 """Reading a plate of observed y back through one nonlinear curve, all readings at once.
 
 The same method and the same answers as the per-reading search of
-:class:`service.core.models.curve_inverse._CurveReader` (see that module), organised
+:class:`service.core.models.curve_reader.CurveReader` (see that module), organised
 by stage instead of by reading: for a block of :data:`CHUNK` readings the sign changes
 of ``f - y0`` and of the band test ``h`` are located on the grid for every reading in
 one array operation, and every bracket of the block is refined together by
@@ -35,8 +35,9 @@ def read_all(reader, y: np.ndarray, m: np.ndarray) -> tuple[InverseEstimate, ...
 
     Parameters
     ----------
-    reader : _CurveReader
-        The curve's grid, band cache and scalar search.
+    reader : CurveReader
+        The curve's grid, bands, ladder and scalar search
+        (:class:`service.core.models.curve_reader.CurveReader`).
     y : ndarray
         Finite readings.
     m : ndarray of int
@@ -82,10 +83,10 @@ def _read_block(reader, y: np.ndarray, m: np.ndarray) -> list[InverseEstimate]:
 def _outside_roots(reader, y: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """The nearest root beyond the range of readings with none inside: below ``x_min``
     first, then above ``x_max`` (NaN where neither); ``found`` False where a search failed."""
-    below, found = first_crossings(reader.lo, reader._ladder(-1),
+    below, found = first_crossings(reader.lo, reader.ladder(-1),
                                    lambda x, r: reader.f(x) - y[r], y.size)
     rest = np.flatnonzero(np.isnan(below) & found)
-    above, found_above = first_crossings(reader.hi, reader._ladder(+1),
+    above, found_above = first_crossings(reader.hi, reader.ladder(+1),
                                          lambda x, r: reader.f(x) - y[rest[r]], rest.size)
     below[rest], found[rest] = above, found_above
     return below, found
@@ -144,7 +145,7 @@ def _intervals(reader, x_hat, y, m):
     status = np.full(count, "interval_undefined", dtype=object)
     fallback = np.zeros(count, dtype=bool)
     for k in np.unique(m):
-        band_lo, band_up = reader._band(int(k))
+        band_lo, band_up = reader.band(int(k))
         rows = np.flatnonzero(m == k)
         if np.all(np.isfinite(band_lo)) and np.all(np.isfinite(band_up)):
             lower[rows], upper[rows], status[rows], fallback[rows] = _band_limits(
@@ -198,5 +199,5 @@ def _band_limits(reader, band_lo, band_up, x_hat, y, m):
 def _limits_beyond(reader, direction: int, y: np.ndarray, m: np.ndarray):
     """Interval limits beyond one end of the range, on the ladder (NaN: unbounded)."""
     end = reader.lo if direction < 0 else reader.hi
-    return first_crossings(end, reader._ladder(direction),
+    return first_crossings(end, reader.ladder(direction),
                            lambda x, r: reader.outside_band(x, y[r], m[r]), y.size)

@@ -1,6 +1,6 @@
 """The first sign change along a ladder of points beyond the range, for many readings.
 
-The batched form of :func:`service.core.models.curve_inverse._first_crossing`, with its
+The batched form of :func:`service.core.models.curve_reader._first_crossing`, with its
 rules: walking outward from ``start`` along ``ladder``, points where the function is
 not finite are skipped; the first point where it is zero is the answer; otherwise the
 first point whose sign (``> 0`` or not) differs from the last finite point before it

@@ -1,0 +1,263 @@
+"""The reader of one nonlinear calibration curve: its grid, monotonicity, bands and the
+search for one reading.
+
+:class:`CurveReader` holds what every reading of a curve shares (the dense grid over the
+calibrated range, the curve and its slope there, whether it is monotone, the bands per
+replicate count, the ladder beyond the range) and the search for one reading
+(:meth:`CurveReader.read`): the method is described in
+:mod:`service.core.models.curve_inverse`. The batched search
+(:mod:`service.core.models.curve_batch`) uses the same grid, bands and ladder, and this
+search as its fallback and reference.
+"""
+
+from __future__ import annotations
+
+import math
+
+import numpy as np
+from scipy import optimize, special
+
+from service.core.models.inverse import InverseEstimate
+from service.core.nonlinear.analysis import predict
+from service.core.nonlinear.problem import MODEL_FAILURES
+from service.core.nonlinear.report import FittedCurve
+
+GRID_POINTS = 2049
+FAR_WIDTHS = 1e6  # how far beyond the range a root or an interval limit is looked for
+_EPS = float(np.finfo(float).eps)
+
+
+def sensitivity(fitted: FittedCurve, x) -> np.ndarray:
+    """Slope ``dy/dx`` of the fitted curve at each x (exact derivative of the equation)."""
+    with np.errstate(all="ignore"):
+        return fitted.model.derivative_x(np.atleast_1d(np.asarray(x, dtype=float)),
+                                         fitted.estimates)
+
+
+
+class CurveReader:
+    """The grid, monotonicity and per-reading root and interval search of one curve."""
+
+    def __init__(self, fitted: FittedCurve, level: float) -> None:
+        self.fitted, self.level = fitted, level
+        self.lo, self.hi = fitted.x_min, fitted.x_max
+        self.width = self.hi - self.lo
+        self.grid = _grid(self.lo, self.hi)
+        self.values = self.f(self.grid)
+        slope = sensitivity(fitted, self.grid)
+        # the slope may vanish or be unbounded at an end of the range without the curve
+        # ceasing to be strictly monotone there (a log-dose logistic at a zero dose: 0 for
+        # slope > 1, infinite for slope < 1); the inner grid must keep one strict sign
+        finite = np.all(np.isfinite(self.values)) and np.all(np.isfinite(slope[1:-1]))
+        inner = np.sign(slope[1:-1])
+        ends = np.nan_to_num(np.sign(slope[[0, -1]]), nan=0.0)
+        self.monotone = bool(finite and ((np.all(inner > 0) and np.all(ends >= 0))
+                                         or (np.all(inner < 0) and np.all(ends <= 0))))
+        self.turning_points = self._turning(slope) if finite else ()
+        self._bands: dict[int, tuple[np.ndarray, np.ndarray]] = {}
+        self.crit = _critical_value(fitted, level)
+
+    def f(self, x) -> np.ndarray:
+        return self.fitted.model.values(np.atleast_1d(np.asarray(x, dtype=float)),
+                                        self.fitted.estimates)
+
+    def _turning(self, slope: np.ndarray) -> tuple[float, ...]:
+        change = np.flatnonzero(np.sign(slope[:-1]) * np.sign(slope[1:]) < 0)
+        return tuple(_brent(lambda x: float(sensitivity(self.fitted, [x])[0]),
+                            self.grid[i], self.grid[i + 1]) for i in change)
+
+    # --- the estimate
+    def read(self, y0: float, m: int) -> InverseEstimate:
+        gap = self.values - y0
+        inside = _crossings(self.grid, gap, lambda x: float(self.f([x])[0] - y0))
+        if not inside:
+            outside = self._outside_root(y0)
+            status = "no_real_root" if outside is None else "outside_range"
+            others = () if outside is None else (outside,)
+            return InverseEstimate(y0, m, math.nan, math.nan, math.nan, status, others)
+        if len(inside) > 1:
+            return InverseEstimate(y0, m, math.nan, math.nan, math.nan,
+                                   "multiple_roots_in_range", tuple(inside))
+        x_hat = inside[0]
+        lower, upper, status = self._interval(x_hat, y0, m)
+        if not self.monotone:
+            status = "not_monotone"
+        return InverseEstimate(y0, m, x_hat, lower, upper, status, ())
+
+    def _outside_root(self, y0: float) -> float | None:
+        """The nearest x beyond the range where the curve reaches ``y0``, or None."""
+        for end, ladder in ((self.lo, self.ladder(-1)), (self.hi, self.ladder(+1))):
+            found = _first_crossing(end, ladder, lambda x: self.f(x) - y0)
+            if found is not None:
+                return found
+        return None
+
+    def ladder(self, direction: int) -> np.ndarray:
+        """Points beyond one end of the range, outward, where roots and interval limits
+        outside it are looked for.
+
+        Parameters
+        ----------
+        direction : {-1, +1}
+            Below ``x_min`` (-1) or above ``x_max`` (+1).
+
+        Returns
+        -------
+        ndarray
+            A geometric ladder of range widths (from 2^-12 widths up to
+            :data:`FAR_WIDTHS`), and, towards zero from a positive ``x_min``, halvings of
+            ``x_min`` and 0 itself, so curves defined for x > 0 are probed up to their
+            edge; ordered moving away from the range.
+        """
+        end = self.hi if direction > 0 else self.lo
+        steps = end + direction * self.width * 2.0 ** np.arange(-12, math.log2(FAR_WIDTHS) + 1)
+        if direction < 0 and self.lo > 0:
+            steps = np.concatenate([steps[steps > 0], self.lo * 2.0 ** -np.arange(1, 60),
+                                    [0.0]])
+            steps = np.sort(steps)[::-1]
+        return steps
+
+    # --- the interval
+    def band(self, m: int) -> tuple[np.ndarray, np.ndarray]:
+        """The band for the mean of ``m`` new readings on the grid, computed once per ``m``.
+
+        Parameters
+        ----------
+        m : int
+            Replicate count of the readings.
+
+        Returns
+        -------
+        lower, upper : ndarray
+            The observation band's limits at each point of :attr:`grid`
+            (:func:`~service.core.nonlinear.analysis.predict` at the reader's level);
+            NaN where the curve or its band is not finite.
+        """
+        if m not in self._bands:
+            band = predict(self.fitted, self.grid, level=self.level, m=m)
+            self._bands[m] = (np.asarray(band.obs_lower), np.asarray(band.obs_upper))
+        return self._bands[m]
+
+    def outside_band(self, x, y0: float, m: int) -> np.ndarray:
+        """``max(lower - y0, y0 - upper)`` of the band for the mean of m readings at each x:
+        negative where the band contains y0. The band of
+        :func:`~service.core.nonlinear.analysis.predict` (same formula, same critical value),
+        evaluated without its bookkeeping: the interval search calls this dozens of times
+        per reading."""
+        xs = np.atleast_1d(np.asarray(x, dtype=float))
+        fitted = self.fitted
+        try:
+            fit, grad = fitted.model.values_and_jacobian(xs, fitted.estimates)
+            fit, grad = np.array(fit, dtype=float), np.array(grad, dtype=float)
+        except MODEL_FAILURES:
+            return np.full(xs.shape, np.nan)
+        if fit.shape != xs.shape or grad.shape != (xs.size, fitted.estimates.size):
+            return np.full(xs.shape, np.nan)
+        se_fit = np.sqrt(np.maximum(np.einsum("ij,jk,ik->i", grad, fitted.covariance, grad),
+                                    0.0))
+        spread = self.crit * np.sqrt(se_fit ** 2 + fitted.noise_variance / m)
+        out = np.maximum((fit - spread) - y0, y0 - (fit + spread))
+        out[~(np.isfinite(fit) & np.isfinite(grad).all(axis=1))] = np.nan
+        return out
+
+    def limit_beyond(self, direction: int, y0: float, m: int) -> float | None:
+        """The interval limit on one side when the band contains y0 up to that end of the
+        range: the first sign change on the ladder beyond it, or None (unbounded)."""
+        end = self.lo if direction < 0 else self.hi
+        return _first_crossing(end, self.ladder(direction),
+                               lambda x: self.outside_band(x, y0, m))
+
+    def _interval(self, x_hat: float, y0: float, m: int) -> tuple[float, float, str]:
+        lower, upper = self.band(m)
+        if not (np.all(np.isfinite(lower)) and np.all(np.isfinite(upper))):
+            return math.nan, math.nan, "interval_undefined"
+        h = np.maximum(lower - y0, y0 - upper)
+
+        def h_scalar(x: float) -> float:
+            return float(self.outside_band(x, y0, m)[0])
+
+        limits = []
+        for direction in (-1, +1):
+            side = (self.grid < x_hat) if direction < 0 else (self.grid > x_hat)
+            xs, hs = self.grid[side], h[side]
+            if direction < 0:
+                xs, hs = xs[::-1], hs[::-1]
+            out = np.flatnonzero(hs > 0)
+            if out.size:
+                k = int(out[0])
+                near = x_hat if k == 0 else float(xs[k - 1])
+                limits.append(_brent(h_scalar, *sorted((near, float(xs[k])))))
+            else:
+                limits.append(self.limit_beyond(direction, y0, m))
+        lo_x = math.nan if limits[0] is None else limits[0]
+        hi_x = math.nan if limits[1] is None else limits[1]
+        if limits[0] is None or limits[1] is None:
+            return lo_x, hi_x, "interval_unbounded"
+        if lo_x < self.lo or hi_x > self.hi:
+            return lo_x, hi_x, "interval_exceeds_range"
+        elsewhere = (self.grid < lo_x) | (self.grid > hi_x)
+        if np.any(h[elsewhere] <= 0):
+            return lo_x, hi_x, "interval_disjoint"
+        return lo_x, hi_x, "ok"
+
+
+def _grid(lo: float, hi: float) -> np.ndarray:
+    """``GRID_POINTS`` equally spaced over the range, joined (for a positive range) by as
+    many geometrically spaced: dose-response curves on a dose axis spanning decades turn
+    in the first few percent of the range."""
+    grid = np.linspace(lo, hi, GRID_POINTS)
+    if lo > 0:
+        grid = np.union1d(grid, np.geomspace(lo, hi, GRID_POINTS))
+        grid[0], grid[-1] = lo, hi
+    return grid
+
+
+def _crossings(grid: np.ndarray, gap: np.ndarray, fn) -> list[float]:
+    """Every x in the range where ``gap`` (fn on the grid) is zero or changes sign."""
+    roots = []
+    for i in np.flatnonzero(gap == 0.0):
+        roots.append(float(grid[i]))
+    for i in np.flatnonzero(np.sign(gap[:-1]) * np.sign(gap[1:]) < 0):
+        roots.append(_brent(fn, grid[i], grid[i + 1]))
+    return sorted(roots)
+
+
+def _first_crossing(start: float, ladder: np.ndarray, fn) -> float | None:
+    """The first sign change of ``fn`` walking from ``start`` along ``ladder`` (outward),
+    skipping points where fn is not finite; refined by Brent's method. ``fn`` takes an
+    array of x (the whole ladder is evaluated in one call)."""
+    value = float(fn(np.array([start]))[0])
+    if not math.isfinite(value):
+        return None
+    previous = start
+    steps = np.asarray(ladder, dtype=float)
+    values = np.asarray(fn(steps), dtype=float)
+    for x, current in zip(steps.tolist(), values.tolist(), strict=True):
+        if not math.isfinite(current):
+            continue
+        if current == 0.0:
+            return float(x)
+        if (current > 0) != (value > 0):
+            a, b = sorted((previous, float(x)))
+            return _brent(lambda t: float(fn(np.array([t]))[0]), a, b)
+        previous, value = float(x), current
+    return None
+
+
+def _critical_value(fitted: FittedCurve, level: float) -> float:
+    """The two-sided critical value of the bands at ``level`` (as in ``predict``)."""
+    if fitted.distribution == "normal":
+        return float(-special.ndtri(0.5 * (1.0 - level)))
+    if fitted.df_residual > 0:
+        return float(-special.stdtrit(fitted.df_residual, 0.5 * (1.0 - level)))
+    return math.nan
+
+
+def _brent(fn, a: float, b: float) -> float:
+    """Brent's method on a bracket found on a grid; when re-evaluating an end at one point
+    lands on the other side by rounding (no sign change left), the end nearer zero."""
+    fa, fb = fn(a), fn(b)
+    if not (math.isfinite(fa) and math.isfinite(fb)) or fa * fb > 0:
+        return float(a if abs(fa) <= abs(fb) or not math.isfinite(fb) else b)
+    xtol = 4 * _EPS * max(abs(a), abs(b), 1e-300)
+    return float(optimize.brentq(fn, a, b, xtol=xtol, rtol=4 * _EPS, maxiter=200))
