@@ -19,7 +19,9 @@ conventions of the single fit (:mod:`service.core.nonlinear.inference`,
 * flags at the per-test level ``TEST_ALPHA``; influence and leverage are info
   unless one of their points is also an outlier. ``poorly_determined_parameter``
   rests on the relative standard error alone: profile limits (the single fit's
-  other evidence for it) are not computed in a batch summary.
+  other evidence for it) are not computed in a batch summary, so a row can lack the flag
+  where the single fit has it (an unbounded profile side), never the reverse; no cheap
+  rule decides a profile side (docs/scaling.md, "Flags of a compiled row").
 """
 
 from __future__ import annotations
