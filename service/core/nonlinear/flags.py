@@ -8,7 +8,9 @@ Thresholds (each flag's evidence carries the number and the cut-off):
 * ``parameter_at_bound`` (caution): an estimate sits on a bound the caller
   set; its standard error and limits ignore the bound.
 * ``parameters_not_identifiable`` (serious): the Jacobian is rank deficient
-  at the estimates (some parameter combinations are not determined).
+  at the estimates (some parameter combinations are not determined). The rank is
+  that of the free parameters' columns (a parameter held on a bound has no column
+  in the solver's tangent plane), so it is compared with the free count.
 * ``parameters_nearly_redundant`` (caution): some |correlation| above 0.99
   (common practice; Bates & Watts 1988 discuss the symptom).
 * ``poorly_determined_parameter`` (caution): a relative standard error above
@@ -42,11 +44,12 @@ def nonlinear_flags(info: FitInfo, rows: tuple[ParameterRow, ...], correlation: 
                              {"termination": info.termination,
                               "relative_offset": info.relative_offset,
                               "iterations": info.iterations}))
-    if info.jacobian_rank < len(rows):
+    free = sum(status == "free" for status in info.bound_status)
+    if info.jacobian_rank < free:
         out.append(TrustFlag("parameters_not_identifiable", "serious",
                              "Some parameters cannot be told apart from these data (the "
                              "Jacobian is rank deficient): fix one of them or rewrite the model.",
-                             {"rank": info.jacobian_rank, "parameters": len(rows)}))
+                             {"rank": info.jacobian_rank, "parameters": free}))
     at_bound = [n for n, s in zip(names, info.bound_status, strict=True) if s != "free"]
     if at_bound:
         out.append(TrustFlag("parameter_at_bound", "caution",
