@@ -55,5 +55,5 @@ class DerivedSchema(Schema):
     profile_lower = number("Lower profile-likelihood limit: the parameter's profile limit "
                            "mapped through the (monotone) formula; null when not found.")
     profile_upper = number("Upper profile-likelihood limit, likewise.")
-    profile_lower_status = text("found, unbounded or not_computed.")
-    profile_upper_status = text("found, unbounded or not_computed.")
+    profile_lower_status = text("found, bound, unbounded or not_computed.")
+    profile_upper_status = text("found, bound, unbounded or not_computed.")

@@ -6,7 +6,8 @@ Thresholds (each flag's evidence carries the number and the cut-off):
 * ``not_converged`` (serious): the solver stopped without meeting the Bates &
   Watts relative-offset criterion; the numbers describe where it stopped.
 * ``parameter_at_bound`` (caution): an estimate sits on a bound the caller
-  set; its standard error and limits ignore the bound.
+  set; its standard error and Wald limits ignore the bound (its profile limit
+  on that side is the bound).
 * ``parameters_not_identifiable`` (serious): the Jacobian is rank deficient
   at the estimates (some parameter combinations are not determined). The rank is
   that of the free parameters' columns (a parameter held on a bound has no column
@@ -54,7 +55,8 @@ def nonlinear_flags(info: FitInfo, rows: tuple[ParameterRow, ...], correlation: 
     if at_bound:
         out.append(TrustFlag("parameter_at_bound", "caution",
                              f"{', '.join(at_bound)} sit(s) on a bound you set; the standard "
-                             "errors and limits do not account for the bound.",
+                             "errors and Wald limits do not account for the bound (the "
+                             "profile limits do).",
                              {"parameters": tuple(at_bound)}))
     pairs = _correlated_pairs(names, correlation)
     if pairs:

@@ -108,7 +108,7 @@ def _notices(problem: Problem, outcome, objective: Objective, attempts) -> tuple
         for s, status in zip(names, a.bound_status, strict=True):
             if status != "free":
                 out.append(Notice("parameter_at_bound", f"{s} is at its {status} bound; its "
-                                  "standard error and limits ignore the bound"))
+                                  "standard error and Wald limits ignore the bound"))
         if a.tangent.rank < int(a.free.sum()):
             out.append(Notice("jacobian_rank_deficient",
                               f"the Jacobian has rank {a.tangent.rank} of {int(a.free.sum())}"))

@@ -14,6 +14,7 @@ truncation by the parameter space is common practice).
 from __future__ import annotations
 
 import numpy as np
+import pytest
 from scipy.optimize import curve_fit
 
 from service.core.nonlinear.builtin.catalogue import BUILTINS
@@ -60,3 +61,27 @@ def test_a_binding_bound_is_not_reported_as_unidentifiable_parameters():
     codes = {f.code for f in report.flags}
     assert "parameter_at_bound" in codes
     assert "parameters_not_identifiable" not in codes
+
+
+def test_a_profile_stopped_by_the_bound_ends_at_the_bound():
+    # Bound 0.06 does not bind (estimate 0.0646), but the unconstrained lower profile
+    # limit (about 0.037) lies beyond it: the confidence set ends at the bound, which is
+    # a limit (status "bound"), not a sign that the data fail to bound y_left.
+    report = _fit(0.06)
+    y_left = report.coefficients[0]
+    assert report.fit_info.bound_status[0] == "free"
+    assert y_left.estimate == pytest.approx(_scipy(0.06)[0], rel=1e-5)  # oracle: scipy
+    assert y_left.profile_lower_status == "bound"
+    assert y_left.profile_lower == 0.06
+    assert y_left.profile_upper_status == "found"
+    assert "poorly_determined_parameter" not in {f.code for f in report.flags}
+    assert any(n.code == "profile_at_bound" and "y_left" in n.message
+               for n in report.warnings)
+
+
+def test_an_estimate_on_its_bound_has_the_bound_as_its_profile_limit():
+    report = _fit(0.07)
+    y_left = report.coefficients[0]
+    assert y_left.estimate == 0.07
+    assert (y_left.profile_lower, y_left.profile_lower_status) == (0.07, "bound")
+    assert y_left.profile_upper_status == "found" and y_left.profile_upper > 0.07

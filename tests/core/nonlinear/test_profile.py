@@ -154,8 +154,11 @@ def test_bound_stops_the_search():
     x, y, free = _unsaturated_michaelis_menten()
     bound = free.estimates[1] + 2.0 * infer(free).parameters[1].std_error
     sol = solve(MichaelisMenten(), x, y, [10.0, 4.0], upper=[np.inf, bound])
-    (lim,) = profile_limits(sol, parameters=("km",)).limits
-    assert lim.upper_status == "unbounded" and "bound" in lim.reason
+    result = profile_limits(sol, parameters=("km",))
+    (lim,) = result.limits
+    # the constrained confidence set {km <= bound : |tau| <= c} ends at the bound
+    assert lim.upper_status == "bound" and lim.upper == bound and "bound" in lim.reason
+    assert [n.code for n in result.notices] == ["profile_at_bound"]
 
 
 def test_not_computed_when_the_fit_did_not_converge_and_bad_names():

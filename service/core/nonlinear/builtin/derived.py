@@ -45,10 +45,10 @@ def _row(derived: Derived, row: ParameterRow) -> DerivedRow:
 
 
 def _mapped(derived: Derived, limit: float, status: str) -> tuple[float, str]:
-    if status != "found" or not math.isfinite(limit):
+    if status not in ("found", "bound") or not math.isfinite(limit):
         return NAN, status
     lo_dom, hi_dom = derived.domain
     if not lo_dom < limit < hi_dom:
         return NAN, "unbounded"
     with np.errstate(all="ignore"):
-        return float(derived.value(np.float64(limit))), "found"
+        return float(derived.value(np.float64(limit))), status
