@@ -1,4 +1,5 @@
-"""What a fit reports about a parameter held by a bound the caller set.
+"""What a fit reports about a parameter held by a bound the caller set, and about a derived
+quantity its estimate leaves undefined.
 
 A 4PL standard curve with zero-dose blanks (invented data, seeded) is fitted
 with a lower bound on y_left, once where the bound binds (the estimate sits on
@@ -85,3 +86,21 @@ def test_an_estimate_on_its_bound_has_the_bound_as_its_profile_limit():
     assert y_left.estimate == 0.07
     assert (y_left.profile_lower, y_left.profile_lower_status) == (0.07, "bound")
     assert y_left.profile_upper_status == "found" and y_left.profile_upper > 0.07
+
+
+def test_a_derived_quantity_outside_its_domain_says_why_it_is_null():
+    # Falling straight-line data (seeded demo): the exponential fit has k < 0 (the distance
+    # to the plateau grows), where ln 2 / k is no half-life (oracle: the definition, a
+    # half-life needs k > 0). The null row must come with a warning naming it and k.
+    rng = np.random.default_rng(4)
+    rng.normal(0.0, 1.0, 14)
+    t = np.linspace(0.0, 10.0, 12)
+    y = 50.0 - 0.5 * t + rng.normal(0.0, 0.3, t.size)
+    report = fit_series(BUILTINS["exponential"], t, y, model=ModelSpec(family="exponential"),
+                        options=OPTIONS)
+    k = next(r for r in report.coefficients if r.term == "k")
+    (half_life,) = report.derived
+    assert k.estimate < 0 and np.isnan(half_life.estimate)
+    notes = [n for n in report.warnings if n.code == "derived_not_computed"]
+    assert len(notes) == 1
+    assert "half_life" in notes[0].message and "k = -" in notes[0].message

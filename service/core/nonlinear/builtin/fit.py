@@ -29,7 +29,7 @@ from service.core.data.inputs import clean_data
 from service.core.errors import DataError, DesignError, SpecError
 from service.core.nonlinear.analysis import report
 from service.core.nonlinear.builtin.definition import LOG, Builtin, series_of
-from service.core.nonlinear.builtin.derived import derived_rows
+from service.core.nonlinear.builtin.derived import derived_notices, derived_rows
 from service.core.nonlinear.builtin.domain import check_grid, first_negative, nonnegative_x
 from service.core.nonlinear.builtin.spec_check import check_spec, equation, scale_of
 from service.core.nonlinear.builtin.starts import Held, Start, automatic_starts
@@ -86,7 +86,8 @@ def fit_series(family: Builtin, x, y, weights=None, *, model: ModelSpec,
                      options=options, started_from="given" if given else "automatic",
                      start_strategy=kept.start.strategy, starts_tried=kept.tried)
         return replace(out, derived=derived_rows(family, out),
-                       warnings=out.warnings + _lower_elsewhere(kept, free))
+                       warnings=out.warnings + _lower_elsewhere(kept, free)
+                       + derived_notices(family, out))
 
 
 def best_fit(family: Builtin, compiled, data, scale: str, held: Held) -> Kept:
