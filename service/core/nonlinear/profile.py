@@ -81,9 +81,10 @@ def profile_limits(solution: Solution, *, level: float = 0.95, weight_mode: str 
     Returns
     -------
     ProfileLimits
-        One row per profiled parameter with a status per side, a
-        ``profile_unbounded`` notice per parameter with an unbounded side and a
-        ``profile_at_bound`` notice per parameter with a side ended by its bound.
+        One row per profiled parameter with a status per side; a
+        ``profile_unbounded``, ``profile_at_bound`` or ``profile_not_computed``
+        notice per parameter with a side of that status (the last only when the
+        side failed for a reason of its own, not the whole fit's).
 
     Raises
     ------
@@ -123,10 +124,14 @@ def profile_limits(solution: Solution, *, level: float = 0.95, weight_mode: str 
         why = "; ".join(s.reason for s in sides if s.reason)
         limits.append(ProfileLimit(name, est, sides[0].limit, sides[1].limit, sides[0].status,
                                    sides[1].status, why, sides[0].refits + sides[1].refits))
+    # a side not computed for the whole fit's reason (not converged, no df...) is told by
+    # the fit's own notices; one not computed for a reason of its own is told here
     notices = tuple(Notice(code, f"{lim.name}: {lim.reason}") for lim in limits
                     for code, status in (("profile_unbounded", "unbounded"),
-                                         ("profile_at_bound", "bound"))
-                    if status in (lim.lower_status, lim.upper_status))
+                                         ("profile_at_bound", "bound"),
+                                         ("profile_not_computed", "not_computed"))
+                    if status in (lim.lower_status, lim.upper_status)
+                    and not (status == "not_computed" and reason))
     return ProfileLimits(tuple(limits), level, crit, weight_mode, notices)
 
 
@@ -201,7 +206,8 @@ def _search(solution, j, sign, crit, scale, se, follow, max_se, xtol) -> _Side:
         step = (target - point.tau) / point.dtau if point.dtau > 0 else np.inf
         step = sign * min(max(abs(step), MIN_STEP_SE * se), MAX_STEP_SE * se)
         b = point.b + step
-    return _refine(solution, j, sign, scale, inside, outside, target, se * xtol, refits)
+    found = _refine(solution, j, sign, scale, inside, outside, target, se * xtol, refits)
+    return found._replace(reason=f"{side}: {found.reason}") if found.reason else found
 
 
 def _refine(solution, j, sign, scale, inside: _Point, outside: _Point, target, xtol,

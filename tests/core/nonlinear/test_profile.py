@@ -171,3 +171,24 @@ def test_not_computed_when_the_fit_did_not_converge_and_bad_names():
     with pytest.raises(SpecError) as err:
         profile_limits(sol, parameters=("slope",))
     assert err.value.field == "profile.parameters"
+
+
+def test_a_side_not_computed_for_its_own_reason_is_a_warning():
+    # A "converged" solution moved one standard error above the minimum along the slope
+    # (as a solver stopping early would leave it): the lower side's profile meets a lower
+    # sum of squares and cannot compute that limit. The response schema sends readers to
+    # the warnings for the reason, so the reason must be there.
+    from dataclasses import replace
+
+    x, y, _ = logistic_data(0)
+    free = solve(Logistic4(), x, y, [0.0, 1.0, 3.0, 1.5])
+    j = 1
+    estimates = free.estimates.copy()
+    estimates[j] += infer(free).parameters[j].std_error
+    fitted = Logistic4().values(x, estimates)
+    moved = replace(free, estimates=estimates, rss=float(np.sum((y - fitted) ** 2)))
+    result = profile_limits(moved, parameters=(moved.parameter_names[j],))
+    (lim,) = result.limits
+    assert lim.lower_status == "not_computed"
+    (note,) = [n for n in result.notices if n.code == "profile_not_computed"]
+    assert note.message.startswith(f"{lim.name}: lower: a lower sum of squares exists")
