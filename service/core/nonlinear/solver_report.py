@@ -50,8 +50,10 @@ def _termination(problem: Problem, theta0, outcome, objective: Objective) -> tup
         "small_step": "converged: the remaining Gauss-Newton correction is below the float64 "
                       f"resolution of the estimates (relative offset {offset:.2g})",
         "iteration_limit": f"stopped after {objective.njev} iterations without meeting the "
-                           f"convergence check (relative offset {offset:.2g}); try better "
-                           "start values or a larger iteration budget",
+                           f"convergence check (relative offset {offset:.2g}); try other "
+                           "start values, or hold a parameter the data barely determine "
+                           "(large standard error, high correlation) with model.fixed (or a "
+                           "number in your equation) or bound it",
         "non_finite_model": "stopped: the model or its derivatives are not finite around the "
                             "last point reached; try other start values or bound the parameters",
         "stalled": "no step lowers the sum of squares although the convergence check is not "

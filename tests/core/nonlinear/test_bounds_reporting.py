@@ -104,3 +104,18 @@ def test_a_derived_quantity_outside_its_domain_says_why_it_is_null():
     notes = [n for n in report.warnings if n.code == "derived_not_computed"]
     assert len(notes) == 1
     assert "half_life" in notes[0].message and "k = -" in notes[0].message
+
+
+def test_an_unfinished_fit_suggests_what_the_caller_can_change():
+    # Seven doses with one step between 1 and 10 (seeded demo): the 4PL slope can grow
+    # without end, so the solver stops on its iteration limit. The advice must name
+    # things a request can change (start values, model.fixed, bounds): the HTTP API has
+    # no iteration budget to raise.
+    x = np.array([0.0, 0.01, 0.1, 1.0, 10.0, 100.0, 1000.0])
+    y = np.array([0.6388, 0.5819, 0.6507, 0.6189, 1.1056, 1.3209, 1.319])
+    report = fit_series(BUILTINS["logistic4"], x, y, model=ModelSpec(family="logistic4"),
+                        options=OPTIONS)
+    info = report.fit_info
+    assert not info.converged and info.termination == "iteration_limit"
+    assert "iteration budget" not in info.message
+    assert "model.fixed" in info.message and "bound" in info.message
