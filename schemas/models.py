@@ -33,7 +33,10 @@ class PredictRequestSchema(StrictSchema):
     fitted_model = FittedModelField(required=True, metadata={
         "description": "The fitted_model document from a /v1/fit response, unchanged."})
     x = NumberArray(required=True, data=True, metadata={
-        "description": "Where to predict, on the original x scale."})
+        "description": "Where to predict, on the original x scale."}, error_messages={
+        "item_null": "null is not an x to predict at. Remove it (this endpoint has no "
+                     "missing option).",
+        "data_empty": "Empty array: send at least one x to predict at."})
     level = StrictFloat(load_default=None, allow_none=True, validate=_LEVEL, metadata={
         "description": "Confidence level of the bands; default: the document's level."})
     replicates = StrictInteger(load_default=1, validate=validate.Range(
@@ -135,7 +138,9 @@ class InvertRequestSchema(StrictSchema):
     y = NumberArray(required=True, data=True, metadata={
         "description": "Observed readings (original y scale); each the mean of its replicates, "
                        "each of variance sigma^2 (weight 1 on a weighted fit's scale; see "
-                       "docs/fitted-model.md, Limits and caveats)."})
+                       "docs/fitted-model.md, Limits and caveats)."}, error_messages={
+        "item_null": "null is not a reading. Remove it (this endpoint has no missing option).",
+        "data_empty": "Empty array: send at least one reading to read x back from."})
     replicates = ReplicatesField(load_default=1)
     level = StrictFloat(load_default=None, allow_none=True, validate=_LEVEL, metadata={
         "description": "Level of the calibration intervals; default: the document's level."})
