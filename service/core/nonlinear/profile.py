@@ -108,7 +108,7 @@ def profile_limits(solution: Solution, *, level: float = 0.95, weight_mode: str 
     if unknown:
         raise SpecError(f"no parameter named {', '.join(unknown)}", field="profile.parameters",
                         fix=f"choose from {', '.join(names)}")
-    limits = []
+    limits, notices = [], []
     for j, name in enumerate(names):
         if parameters is not None and name not in parameters:
             continue
@@ -124,15 +124,24 @@ def profile_limits(solution: Solution, *, level: float = 0.95, weight_mode: str 
         why = "; ".join(s.reason for s in sides if s.reason)
         limits.append(ProfileLimit(name, est, sides[0].limit, sides[1].limit, sides[0].status,
                                    sides[1].status, why, sides[0].refits + sides[1].refits))
-    # a side not computed for the whole fit's reason (not converged, no df...) is told by
-    # the fit's own notices; one not computed for a reason of its own is told here
-    notices = tuple(Notice(code, f"{lim.name}: {lim.reason}") for lim in limits
-                    for code, status in (("profile_unbounded", "unbounded"),
-                                         ("profile_at_bound", "bound"),
-                                         ("profile_not_computed", "not_computed"))
-                    if status in (lim.lower_status, lim.upper_status)
-                    and not (status == "not_computed" and reason))
-    return ProfileLimits(tuple(limits), level, crit, weight_mode, notices)
+        notices += _side_notices(name, sides)
+    return ProfileLimits(tuple(limits), level, crit, weight_mode, tuple(notices))
+
+
+_SIDE_NOTICES = (("profile_unbounded", "unbounded"), ("profile_at_bound", "bound"),
+                 ("profile_not_computed", "not_computed"))
+
+
+def _side_notices(name: str, sides: list[_Side]) -> list[Notice]:
+    """One notice per status other than found, with the reasons of the sides that have it
+    (a side not computed for the whole fit's reason, e.g. no convergence, is told by the
+    fit's own notices and never reaches here)."""
+    out = []
+    for code, status in _SIDE_NOTICES:
+        reasons = [s.reason for s in sides if s.status == status and s.reason]
+        if reasons:
+            out.append(Notice(code, f"{name}: {'; '.join(reasons)}"))
+    return out
 
 
 def _why_not(solution: Solution, crit: float, scale: float, cov: np.ndarray) -> str:

@@ -119,3 +119,4 @@ def test_an_unfinished_fit_suggests_what_the_caller_can_change():
     assert not info.converged and info.termination == "iteration_limit"
     assert "iteration budget" not in info.message
     assert "model.fixed" in info.message and "bound" in info.message
+

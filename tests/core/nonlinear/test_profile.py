@@ -192,3 +192,19 @@ def test_a_side_not_computed_for_its_own_reason_is_a_warning():
     assert lim.lower_status == "not_computed"
     (note,) = [n for n in result.notices if n.code == "profile_not_computed"]
     assert note.message.startswith(f"{lim.name}: lower: a lower sum of squares exists")
+
+
+def test_each_profile_notice_carries_only_its_own_side():
+    # km of the unsaturated fit: its upper side is unbounded (30 SE); a lower bound one SE
+    # below the estimate ends the lower side there. Each notice names its own side only.
+    x, y, free = _unsaturated_michaelis_menten()
+    bound = free.estimates[1] - infer(free).parameters[1].std_error
+    sol = solve(MichaelisMenten(), x, y, [10.0, 4.0], lower=[-np.inf, bound])
+    result = profile_limits(sol, parameters=("km",))
+    (lim,) = result.limits
+    assert (lim.lower_status, lim.upper_status) == ("bound", "unbounded")
+    notes = {n.code: n.message for n in result.notices}
+    assert notes["profile_at_bound"].startswith("km: lower: ") and "upper" not in \
+        notes["profile_at_bound"]
+    assert notes["profile_unbounded"].startswith("km: upper: ") and "lower" not in \
+        notes["profile_unbounded"]
