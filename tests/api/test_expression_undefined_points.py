@@ -37,3 +37,15 @@ def test_start_values_that_one_change_repairs_still_name_the_parameters(client):
                                                                                "c": 1.0}}})
     body = assert_problem(res, 422, "invalid_spec", field="model.parameters")
     assert "changing c (e.g. c=-1) alone" in body["detail"]
+
+
+def test_a_fixed_value_that_no_start_can_fit_is_named(client):
+    # logistic4 on log x with a zero-dose blank: a fixed slope < 0 makes x^slope infinite at
+    # x = 0 whatever the other values, so the refusal must point at model.fixed and quote the
+    # family's constraint on slope (GET /v1/families), not ask for start values.
+    x = [0.0, 0.0, 0.1, 0.3, 1.0, 3.0, 10.0, 30.0, 100.0]
+    y = [0.05, 0.06, 0.1, 0.2, 0.5, 1.2, 1.9, 2.3, 2.45]
+    res = post_json(client, "/v1/fit", {"x": x, "y": y, "model": {
+        "family": "logistic4", "fixed": {"slope": -1.2}}})
+    body = assert_problem(res, 422, "invalid_spec", field="model.fixed")
+    assert "slope=-1.2" in body["detail"] and "> 0" in body["detail"]

@@ -104,10 +104,7 @@ def best_fit(family: Builtin, compiled, data, scale: str, held: Held) -> Kept:
     else:
         starts = automatic_starts(family, series_of(data.x, data.y, data.w, scale), held)
     if not starts:
-        raise SpecError(f"No start made the {family.name} curve finite at every x.",
-                        field="model.parameters",
-                        fix="Give start values for the parameters in model.parameters, or "
-                            "check that the data suit this family.")
+        raise _no_start(family, held)
     explore = starts[0].strategy != "given"   # automatic starts: the short budget
     best: Kept | None = None
     lowest: Kept | None = None
@@ -127,10 +124,7 @@ def best_fit(family: Builtin, compiled, data, scale: str, held: Held) -> Kept:
         if best is None or _better(solution, best.solution):
             best = found
     if best is None:
-        raise SpecError(f"No start made the {family.name} curve finite at every x.",
-                        field="model.parameters",
-                        fix="Give start values for the parameters in model.parameters, or "
-                            "check that the data suit this family.")
+        raise _no_start(family, held)
     if explore and lowest.solution.termination not in CONVERGED:  # on with the full budget
         try:
             more = solve(compiled, data.x, data.y, lowest.solution.estimates, weights=data.w,
@@ -159,6 +153,22 @@ def _better(new: Solution, old: Solution) -> bool:
     if new_ok != old_ok:
         return new_ok
     return new.rss < old.rss * (1.0 - SAME_RSS)
+
+
+def _no_start(family: Builtin, held: Held) -> SpecError:
+    """No start could be solved: with fixed values, they are the first suspects."""
+    if held.fixed:
+        shown = ", ".join(f"{n}={v:g}" for n, v in held.fixed.items())
+        rules = "; ".join(f"{p.name}: {p.constraint}" for p in family.parameters
+                          if p.name in held.fixed)
+        return SpecError(f"No start made the {family.name} curve finite at every x with the "
+                         f"fixed values {shown} (constraints: {rules}).", field="model.fixed",
+                         fix="Fix values that meet the constraints (GET /v1/families), or "
+                             "leave those parameters free.")
+    return SpecError(f"No start made the {family.name} curve finite at every x.",
+                     field="model.parameters",
+                     fix="Give start values for the parameters in model.parameters, or "
+                         "check that the data suit this family.")
 
 
 def _lower_elsewhere(kept: Kept, free: tuple[str, ...]) -> tuple[Notice, ...]:
