@@ -1,5 +1,6 @@
 """An equation that is undefined at some of the caller's x (log(x) at a zero-dose blank) is
-refused naming that point, not the start values, which no choice could repair.
+refused naming that point, not the start values, which no choice could repair; a built-in
+curve that a fixed value makes unfittable is refused naming model.fixed.
 
 Oracle: the arithmetic fact that log(0) is not finite; the request positions are those of
 the body (a null dropped with missing=drop does not shift them)."""
