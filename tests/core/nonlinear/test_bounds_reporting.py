@@ -120,3 +120,20 @@ def test_an_unfinished_fit_suggests_what_the_caller_can_change():
     assert "iteration budget" not in info.message
     assert "model.fixed" in info.message and "bound" in info.message
 
+
+
+def test_high_leverage_of_a_curve_is_not_explained_by_distant_x():
+    # A gaussian peak on 41 evenly spaced x (seeded demo): the tangent-plane leverage is
+    # high where the curve's parameters act most (around the peak's flanks), not at x far
+    # from the rest, so the message must not give that as the reason (Cook & Weisberg 1982 define
+    # nonlinear leverage on the tangent plane; no x here is far from the others).
+    rng = np.random.default_rng(3)
+    x = np.linspace(400.0, 600.0, 41)
+    y = 10.0 + 80.0 * np.exp(-(x - 512.0) ** 2 / (2 * 15.0 ** 2)) + rng.normal(0.0, 2.0, x.size)
+    report = fit_series(BUILTINS["gaussian_peak"], x, y,
+                        model=ModelSpec(family="gaussian_peak"), options=OPTIONS)
+    (flag,) = [f for f in report.flags if f.code == "high_leverage"]
+    inner = [i for i in flag.evidence["indices"] if 5 <= i <= 35]
+    assert inner, flag.evidence   # the premise: leverage is high well inside the x range
+    assert "(x far from the rest)" not in flag.message
+    assert "where a curve's parameters act most" in flag.message
