@@ -137,3 +137,19 @@ def test_high_leverage_of_a_curve_is_not_explained_by_distant_x():
     assert inner, flag.evidence   # the premise: leverage is high well inside the x range
     assert "(x far from the rest)" not in flag.message
     assert "where a curve's parameters act most" in flag.message
+
+
+def test_an_estimate_that_breaks_its_documented_constraint_is_warned_about():
+    # Falling readings with a zero blank (invented): the Michaelis-Menten least-squares
+    # optimum has km < 0, which GET /v1/families documents as "> 0": the curve
+    # vmax*x/(km + x) then has a pole at x = -km, here between the blank and 0.5
+    # (oracle: the algebra of the equation). The fit must say so.
+    x = np.array([0.0, 0.5, 1.0, 2.0, 4.0, 8.0])
+    y = np.array([9.0, 7.1, 5.0, 3.5, 2.5, 1.8])
+    report = fit_series(BUILTINS["michaelis_menten"], x, y,
+                        model=ModelSpec(family="michaelis_menten"), options=OPTIONS)
+    km = next(r for r in report.coefficients if r.term == "km").estimate
+    assert km < 0
+    (note,) = [n for n in report.warnings if n.code == "parameter_outside_constraint"]
+    assert "km" in note.message and "> 0" in note.message
+    assert f"pole at x = {-km:.6g}" in note.message

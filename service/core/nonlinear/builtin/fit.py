@@ -28,6 +28,7 @@ from service.core.data.grid import grid_points
 from service.core.data.inputs import clean_data
 from service.core.errors import DataError, DesignError, SpecError
 from service.core.nonlinear.analysis import report
+from service.core.nonlinear.builtin.constraints import constraint_notices
 from service.core.nonlinear.builtin.definition import LOG, Builtin, series_of
 from service.core.nonlinear.builtin.derived import derived_notices, derived_rows
 from service.core.nonlinear.builtin.domain import check_grid, first_negative, nonnegative_x
@@ -87,7 +88,9 @@ def fit_series(family: Builtin, x, y, weights=None, *, model: ModelSpec,
                      start_strategy=kept.start.strategy, starts_tried=kept.tried)
         return replace(out, derived=derived_rows(family, out),
                        warnings=out.warnings + _lower_elsewhere(kept, free)
-                       + derived_notices(family, out))
+                       + derived_notices(family, out)
+                       + constraint_notices(family, out, float(data.x.min()),
+                                            float(data.x.max())))
 
 
 def best_fit(family: Builtin, compiled, data, scale: str, held: Held) -> Kept:
