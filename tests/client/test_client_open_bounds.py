@@ -46,3 +46,15 @@ def test_an_infinite_bound_on_the_wrong_side_is_refused_naming_it(inprocess_clie
     with pytest.raises(InputError, match=rf"model\.{side}\.km is {value}") as err:
         inprocess_client.fit(S, V, model={"family": "michaelis_menten", side: {"km": value}})
     assert "point" not in str(err.value)
+
+
+def test_the_arrow_options_take_infinite_bounds_as_none_too():
+    import json
+    from urllib.parse import unquote
+
+    from curvewise_client.arrow import options_query
+
+    query = options_query({"family": "michaelis_menten", "upper": {"km": math.inf},
+                           "lower": {"vmax": 0.0}}, None)
+    sent = json.loads(unquote(query.removeprefix("?options=")))
+    assert sent == {"model": {"family": "michaelis_menten", "lower": {"vmax": 0.0}}}
