@@ -184,7 +184,8 @@ class NumberArray(fields.Field):
         values are ``null``).
     data : bool
         The array is data (x, y, weights): an empty one is ``invalid_data``
-        (a :class:`CodedMessage`), as the core says of empty arrays.
+        (a :class:`CodedMessage`), as the core says of empty arrays; its message is
+        ``error_messages["data_empty"]`` when given.
 
     Errors are keyed by the first bad element: ``{17: ["..."]}`` under the field,
     which the service reports as the path ``y[17]``; the message names every other
@@ -226,9 +227,9 @@ class NumberArray(fields.Field):
         n = len(value)
         if n < self.min_items:
             if self.data and n == 0:
-                raise ValidationError(CodedMessage(
-                    "Empty array: send at least one value (as many as the model has "
-                    "coefficients, and more to judge the fit).", "invalid_data"))
+                raise ValidationError(CodedMessage(self.error_messages.get(
+                    "data_empty", "Empty array: send at least one value (as many as the model "
+                    "has coefficients, and more to judge the fit)."), "invalid_data"))
             raise self.make_error("too_few", min=self.min_items, n=n)
         if self.max_items is not None and n > self.max_items:
             raise self.make_error("too_many", max=self.max_items, n=n)

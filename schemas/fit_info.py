@@ -29,7 +29,8 @@ class FitInfoSchema(Schema):
     gradient_norm = number("Largest cosine between the residuals and a Jacobian column.")
     bound_status = fields.List(fields.String(), metadata={
         "description": "free, lower or upper per parameter (on a bound you set)."})
-    jacobian_rank = integer("Rank of the weighted, column-scaled Jacobian at the estimates.")
+    jacobian_rank = integer("Rank of the weighted, column-scaled Jacobian at the estimates, "
+                            "over the free parameters (those not on a bound).")
     condition_number = number("Its condition number.")
     start_strategy = text("The start the reported fit came from: given, or for automatic "
                           "starts grid_best (best point of the grid search with the linear "
@@ -54,5 +55,5 @@ class DerivedSchema(Schema):
     profile_lower = number("Lower profile-likelihood limit: the parameter's profile limit "
                            "mapped through the (monotone) formula; null when not found.")
     profile_upper = number("Upper profile-likelihood limit, likewise.")
-    profile_lower_status = text("found, unbounded or not_computed.")
-    profile_upper_status = text("found, unbounded or not_computed.")
+    profile_lower_status = text("found, bound, unbounded or not_computed.")
+    profile_upper_status = text("found, bound, unbounded or not_computed.")

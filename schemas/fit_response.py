@@ -52,12 +52,15 @@ class CoefficientSchema(Schema):
     lower = number("Lower confidence limit at the requested level.", required=True)
     upper = number("Upper confidence limit at the requested level.", required=True)
     profile_lower = number("Lower profile-likelihood limit (nonlinear families; null when the "
-                           "profile never reaches the critical value on that side).")
+                           "profile never reaches the critical value on that side; your "
+                           "lower bound when the limit is that bound).")
     profile_upper = number("Upper profile-likelihood limit (nonlinear families; null when "
                            "unbounded).")
-    profile_lower_status = text("found, unbounded (the data do not bound the parameter on "
-                                "that side) or not_computed (see warnings).")
-    profile_upper_status = text("found, unbounded or not_computed.")
+    profile_lower_status = text("found, bound (the profile stays below the critical value up "
+                                "to the bound you set, or the estimate is on it: the limit is "
+                                "that bound), unbounded (the data do not bound the parameter "
+                                "on that side) or not_computed (see warnings).")
+    profile_upper_status = text("found, bound, unbounded or not_computed.")
 
 
 class AnovaRowSchema(Schema):

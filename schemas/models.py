@@ -33,7 +33,10 @@ class PredictRequestSchema(StrictSchema):
     fitted_model = FittedModelField(required=True, metadata={
         "description": "The fitted_model document from a /v1/fit response, unchanged."})
     x = NumberArray(required=True, data=True, metadata={
-        "description": "Where to predict, on the original x scale."})
+        "description": "Where to predict, on the original x scale."}, error_messages={
+        "item_null": "null is not an x to predict at. Remove it (this endpoint has no "
+                     "missing option).",
+        "data_empty": "Empty array: send at least one x to predict at."})
     level = StrictFloat(load_default=None, allow_none=True, validate=_LEVEL, metadata={
         "description": "Confidence level of the bands; default: the document's level."})
     replicates = StrictInteger(load_default=1, validate=validate.Range(
@@ -49,8 +52,11 @@ class PredictionRowSchema(Schema):
     se_mean = number("Standard error of the fitted mean (fitting scale).")
     mean_lower = number("Lower limit for the mean response.")
     mean_upper = number("Upper limit for the mean response.")
-    obs_lower = number("Lower limit for the mean of `replicates` new readings.")
-    obs_upper = number("Upper limit for the mean of `replicates` new readings.")
+    obs_lower = number("Lower limit for the mean of `replicates` new readings, each of "
+                       "variance sigma^2 (weight 1 on a weighted fit's scale: with weights "
+                       "1/y^2, say, that is a reading's variance at y = 1 only).")
+    obs_upper = number("Upper limit for the mean of `replicates` new readings (same "
+                       "variance).")
     band_lower = number("Lower limit of the simultaneous (Working-Hotelling) band.")
     band_upper = number("Upper limit of the simultaneous (Working-Hotelling) band.")
     extrapolated = fields.Boolean(metadata={
@@ -130,7 +136,11 @@ class InvertRequestSchema(StrictSchema):
     fitted_model = FittedModelField(required=True, metadata={
         "description": "The fitted_model document from a /v1/fit response, unchanged."})
     y = NumberArray(required=True, data=True, metadata={
-        "description": "Observed readings (original y scale); each the mean of its replicates."})
+        "description": "Observed readings (original y scale); each the mean of its replicates, "
+                       "each of variance sigma^2 (weight 1 on a weighted fit's scale; see "
+                       "docs/fitted-model.md, Limits and caveats)."}, error_messages={
+        "item_null": "null is not a reading. Remove it (this endpoint has no missing option).",
+        "data_empty": "Empty array: send at least one reading to read x back from."})
     replicates = ReplicatesField(load_default=1)
     level = StrictFloat(load_default=None, allow_none=True, validate=_LEVEL, metadata={
         "description": "Level of the calibration intervals; default: the document's level."})

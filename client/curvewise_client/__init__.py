@@ -40,6 +40,7 @@ from curvewise_client.results import (  # noqa: E402
     BatchResult,
     Candidate,
     Coefficient,
+    DerivedQuantity,
     Diagnostics,
     Estimate,
     Estimates,
@@ -65,7 +66,8 @@ from curvewise_client.wsgi import WSGITransport  # noqa: E402
 
 __all__ = [
     "AnovaRow", "ApiError", "BadRequest", "BatchItem", "BatchResult", "Candidate", "Client",
-    "Coefficient", "ComputeTimeout", "ConnectError", "CurvewiseError", "Diagnostics", "Estimate",
+    "Coefficient", "ComputeTimeout", "ConnectError", "CurvewiseError", "DerivedQuantity",
+    "Diagnostics", "Estimate",
     "Estimates", "Families", "Family", "FamilyOption", "Figure", "FitInfo", "FitResult",
     "Forbidden", "Grid", "HTTPTransport", "InputError", "Limits", "ModelInfo", "NotFound", "Notice",
     "PayloadTooLarge",

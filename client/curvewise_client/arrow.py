@@ -21,6 +21,7 @@ from collections.abc import Mapping
 from typing import Any
 from urllib.parse import quote
 
+from curvewise_client.bodies import open_bounds
 from curvewise_client.errors import CurvewiseError
 
 ARROW_STREAM = "application/vnd.apache.arrow.stream"
@@ -113,7 +114,9 @@ def options_query(model: Mapping[str, Any] | None, options: Mapping[str, Any] | 
     if model is not None:
         if "model" in shared:
             raise TableInputError("give the model once: model=... or options={'model': ...}")
-        shared["model"] = dict(model)
+        shared["model"] = model
+    if isinstance(shared.get("model"), Mapping):   # infinite bounds: none, as for JSON
+        shared["model"] = open_bounds(dict(shared["model"]), "model")
     if not shared:
         return ""
     try:

@@ -29,7 +29,7 @@ def fit_body(x: Any, y: Any, *, weights: Any = None, model: Mapping[str, Any] | 
              weighting: str | None = None, include: Sequence[str] | None = None
              ) -> dict[str, Any]:
     """The ``/v1/fit`` request body as a dict (shortcuts merged into ``model``)."""
-    spec = mapping(model, "model", "{'degree': 2}") or {}
+    spec = open_bounds(mapping(model, "model", "{'degree': 2}") or {}, "model")
     spec.update(drop_none(degree=degree, max_degree=max_degree, select=select))
     body: dict[str, Any] = {"x": numbers(x, "x"), "y": numbers(y, "y")}
     if weights is not None:
@@ -57,8 +57,9 @@ def _nan_to_none(value: Any, path: str = "") -> Any:
     if isinstance(value, float) and not math.isfinite(value):
         if math.isnan(value):
             return None
+        data = path.split(".")[-1].split("[")[0] in _SERIES_ARRAYS
         raise InputError(f"{path or 'value'} is infinite; JSON has no infinity — send a finite "
-                         "number or drop the point")
+                         "number" + (" or drop the point" if data else ""))
     if isinstance(value, Mapping):
         return {k: _nan_to_none(v, f"{path}.{k}" if path else str(k)) for k, v in value.items()}
     if isinstance(value, (list, tuple)):
@@ -156,6 +157,34 @@ def mapping(value: Any, name: str, example: str) -> dict[str, Any] | None:
     return dict(value)
 
 
+def open_bounds(spec: dict[str, Any], name: str) -> dict[str, Any]:
+    """``spec`` with bounds of -inf (lower) and +inf (upper) left out: "no bound", as in
+    scipy's ``bounds=(-inf, inf)``; JSON has no infinity and the service reads an absent
+    bound as none. Also inside ``candidates``. An infinity on the wrong side is refused."""
+    out = dict(spec)
+    for side, none in (("lower", -math.inf), ("upper", math.inf)):
+        bounds = out.get(side)
+        if not isinstance(bounds, Mapping):
+            continue
+        kept = {}
+        for key, value in bounds.items():
+            if isinstance(value, Real) and not isinstance(value, bool) and math.isinf(value):
+                if value != none:
+                    raise InputError(f"{name}.{side}.{key} is {float(value)}: a {side} bound "
+                                     f"must be finite, or {none} for none (then left out)")
+                continue
+            kept[key] = value
+        if kept:
+            out[side] = kept
+        else:
+            out.pop(side)
+    candidates = out.get("candidates")
+    if isinstance(candidates, (list, tuple)):
+        out["candidates"] = [open_bounds(dict(c), f"{name}.candidates[{i}]")
+                             if isinstance(c, Mapping) else c for i, c in enumerate(candidates)]
+    return out
+
+
 def drop_none(**members: Any) -> dict[str, Any]:
     return {k: v for k, v in members.items() if v is not None}
 
@@ -170,6 +199,8 @@ def series_body(item: Any, position: int | None = None) -> dict[str, Any]:
         raise InputError(f"{where} must be a mapping such as {{'id': 'a', 'x': [...], "
                          f"'y': [...]}}, not a {type(item).__name__}")
     out = {k: v for k, v in item.items() if v is not None}
+    if isinstance(out.get("model"), Mapping):
+        out["model"] = open_bounds(dict(out["model"]), f"{where}.model")
     for key in _SERIES_ARRAYS:
         if key in out:
             out[key] = numbers(out[key], f"{where}.{key}")
@@ -200,6 +231,7 @@ def iterable_series(series: Any) -> Any:
 def shared_members(*, model: Mapping[str, Any] | None, include: Sequence[str] | None,
                    grid: Mapping[str, Any] | None, **members: Any) -> dict[str, Any]:
     """The shared members of a batch request, None left out."""
-    return drop_none(model=mapping(model, "model", "{'max_degree': 3}") or None,
+    spec = mapping(model, "model", "{'max_degree': 3}")
+    return drop_none(model=open_bounds(spec, "model") if spec else None,
                      include=strings(include, "include"),
                      grid=mapping(grid, "grid", "{'count': 200}") or None, **members)

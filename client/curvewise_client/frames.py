@@ -43,10 +43,14 @@ def anova_frame(fit: FitResult):
 
 
 def candidates_frame(fit: FitResult):
-    """The selection trail: one row per candidate degree, every criterion."""
-    if fit.selection is None:
-        raise ValueError("this fit carries no selection section")
-    return _pandas().DataFrame(_records(fit.selection.candidates)).set_index("degree")
+    """The candidates compared: one row per polynomial degree of the selection trail, or one
+    per model of a ``model.candidates`` comparison (by ``label``), every criterion."""
+    if fit.selection is not None:
+        return _pandas().DataFrame(_records(fit.selection.candidates)).set_index("degree")
+    if fit.comparison is not None:
+        return _pandas().DataFrame(_records(fit.comparison.candidates)).set_index("label")
+    raise ValueError("this fit compared no candidates: ask for a polynomial degree selection "
+                     "(max_degree with select) or list models under model.candidates")
 
 
 def grid_frame(fit: FitResult):

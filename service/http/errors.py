@@ -231,12 +231,25 @@ def flatten_errors(nested: dict, prefix: str = "") -> dict:
             path = f"{prefix}[{key}]"
         else:
             path = f"{prefix}.{key}" if prefix else str(key)
-        if isinstance(value, dict):
+        if isinstance(value, dict) and _dict_entry_errors(value):
+            # a mapping field's entry: a bad value is the entry's own path, a bad key
+            # (a parameter name) is the mapping's path, never marshmallow's .value/.key
+            for part, messages in value.items():
+                where = path if part == "value" else prefix
+                out.setdefault(where or "_body", []).extend(str(m) for m in messages)
+        elif isinstance(value, dict):
             out.update(flatten_errors(value, path))
         else:
             messages = list(value) if isinstance(value, (list, tuple)) else [str(value)]
             out.setdefault(path or "_body", []).extend(str(m) for m in messages)
     return out
+
+
+def _dict_entry_errors(value: dict) -> bool:
+    """True for marshmallow's errors of one entry of a ``fields.Dict``: ``{"key": [...]}``
+    and/or ``{"value": [...]}`` (no request schema has fields named key or value)."""
+    return bool(value) and set(value) <= {"key", "value"} and all(
+        isinstance(v, list) for v in value.values())
 
 
 def register(app: Flask) -> None:

@@ -19,6 +19,7 @@ from curvewise_client.results.fit import (  # noqa: F401
     Coefficient,
     ComparedModel,
     Comparison,
+    DerivedQuantity,
     Diagnostics,
     FitInfo,
     FitResult,

@@ -43,6 +43,24 @@ class Coefficient(Result):
 
 
 @dataclass(frozen=True, slots=True, repr=False)
+class DerivedQuantity(Result):
+    """A quantity computed from one parameter (e.g. a half-life from a rate constant), with
+    its delta-method standard error, Wald limits and mapped profile limits."""
+
+    name: str
+    meaning: str = ""
+    parameter: str | None = None
+    estimate: float | None = None
+    std_error: float | None = None
+    lower: float | None = None
+    upper: float | None = None
+    profile_lower: float | None = None
+    profile_upper: float | None = None
+    profile_lower_status: str | None = None
+    profile_upper_status: str | None = None
+
+
+@dataclass(frozen=True, slots=True, repr=False)
 class FitInfo(Result):
     """How a nonlinear fit was started, how it converged and why it stopped."""
 
@@ -60,6 +78,8 @@ class FitInfo(Result):
     bound_status: tuple[str, ...] = ()
     jacobian_rank: int | None = None
     condition_number: float | None = None
+    start_strategy: str | None = None
+    starts_tried: int | None = None
 
 
 @dataclass(frozen=True, slots=True, repr=False)
@@ -254,6 +274,7 @@ class FitResult(Result):
     statistics: Statistics | None = None
     selection: Selection | None = None
     fit_info: FitInfo | None = None
+    derived: tuple[DerivedQuantity, ...] = ()
     correlation: tuple[tuple[float | None, ...], ...] = ()
     diagnostics: Diagnostics | None = None
     grid: Grid | None = None
@@ -271,11 +292,11 @@ class FitResult(Result):
         return self.model.degree if self.model else None
 
 
-
 register(FitResult, model=of(ModelInfo), coefficients=items(of(Coefficient)),
          anova=items(of(AnovaRow)), statistics=of(Statistics), selection=of(Selection),
          grid=of(Grid), diagnostics=of(Diagnostics), warnings=items(of(Notice)),
-         flags=items(of(TrustFlag)), fit_info=of(FitInfo), comparison=of(Comparison))
+         flags=items(of(TrustFlag)), fit_info=of(FitInfo), comparison=of(Comparison),
+         derived=items(of(DerivedQuantity)))
 register(Comparison, candidates=items(of(ComparedModel)), nested_tests=items(of(NestedTest)))
 register(Selection, candidates=items(of(Candidate)))
 register(Diagnostics, tests=items(of(TestResult)))

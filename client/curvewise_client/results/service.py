@@ -110,6 +110,7 @@ class Limits(Result):
     max_degree: int | None = None
     max_grid_points: int | None = None
     max_series: int | None = None
+    max_full_series: int | None = None
     max_total_points: int | None = None
     request_timeout: float | None = None
 

@@ -171,8 +171,9 @@ def _from_diagnostics(d: Diagnostics) -> list[TrustFlag]:
             message = (f"{len(both)} high-leverage point(s) are influential outliers: the "
                        "curve leans on points that disagree with the rest.")
         else:
-            message = (f"{len(d.high_leverage)} point(s) have high leverage (x far from the "
-                       "rest), so the curve leans on them; none is an influential outlier.")
+            message = (f"{len(d.high_leverage)} point(s) have high leverage (the fit leans "
+                       "on their y: x far from the rest, or where a curve's parameters act "
+                       "most); none is an influential outlier.")
         out.append(TrustFlag("high_leverage", "caution" if both else "info", message,
                              {"indices": d.high_leverage, "influential_outliers": both,
                               "threshold": d.thresholds["leverage"]}))

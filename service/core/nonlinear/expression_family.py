@@ -11,7 +11,7 @@ from functools import lru_cache
 
 import numpy as np
 
-from service.core.data.inputs import check_options
+from service.core.data.inputs import check_options, clean_data
 from service.core.errors import SpecError
 from service.core.nonlinear.analysis import analyse
 from service.core.nonlinear.expression import compile_model
@@ -54,15 +54,36 @@ def fit_series(x, y, weights=None, *, model: ModelSpec, options: FitOptions) -> 
     ------
     DataError, DesignError, SpecError
         Each names the offending field and how to fix it (an equation that is not
-        finite at the start values names ``model.parameters``).
+        finite at the start values names ``model.parameters``, or ``x[i]``, the
+        request's position, when no start value can make it finite there).
     """
     check_spec(model, options)
     names = tuple(name for name, _ in model.parameters)
     equation = compiled(model.expression, names)
     start = [value for _, value in model.parameters]
-    return analyse(equation, names, "expression", equation.text, x, y, weights, start,
-                   lower=bounds(model.lower, names, -np.inf, "model.lower"),
-                   upper=bounds(model.upper, names, np.inf, "model.upper"), options=options)
+    try:
+        return analyse(equation, names, "expression", equation.text, x, y, weights, start,
+                       lower=bounds(model.lower, names, -np.inf, "model.lower"),
+                       upper=bounds(model.upper, names, np.inf, "model.upper"),
+                       options=options)
+    except SpecError as error:
+        raise _at_request_position(error, x, y, weights, options) from None
+
+
+def _at_request_position(error: SpecError, x, y, weights, options: FitOptions) -> SpecError:
+    """``error`` naming ``x[i]`` of the cleaned series, renamed to the request's position
+    (points dropped by ``missing="drop"`` shift the cleaned positions)."""
+    field = error.field or ""
+    if not (field.startswith("x[") and field.endswith("]") and field[2:-1].isdigit()):
+        return error
+    with np.errstate(all="ignore"):
+        index = clean_data(x, y, weights, options.missing).index
+    i = int(field[2:-1])
+    if i >= index.size or int(index[i]) == i:
+        return error
+    old, new = field, f"x[{int(index[i])}]"
+    return SpecError(error.message.replace(old, new), field=new, fix=error.fix,
+                     code=error.code, details=error.details)
 
 
 def bounds(given, names: tuple[str, ...], default: float, field: str) -> np.ndarray:

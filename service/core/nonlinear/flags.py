@@ -6,9 +6,12 @@ Thresholds (each flag's evidence carries the number and the cut-off):
 * ``not_converged`` (serious): the solver stopped without meeting the Bates &
   Watts relative-offset criterion; the numbers describe where it stopped.
 * ``parameter_at_bound`` (caution): an estimate sits on a bound the caller
-  set; its standard error and limits ignore the bound.
+  set; its standard error and Wald limits ignore the bound (its profile limit
+  on that side is the bound).
 * ``parameters_not_identifiable`` (serious): the Jacobian is rank deficient
-  at the estimates (some parameter combinations are not determined).
+  at the estimates (some parameter combinations are not determined). The rank is
+  that of the free parameters' columns (a parameter held on a bound has no column
+  in the solver's tangent plane), so it is compared with the free count.
 * ``parameters_nearly_redundant`` (caution): some |correlation| above 0.99
   (common practice; Bates & Watts 1988 discuss the symptom).
 * ``poorly_determined_parameter`` (caution): a relative standard error above
@@ -42,16 +45,18 @@ def nonlinear_flags(info: FitInfo, rows: tuple[ParameterRow, ...], correlation: 
                              {"termination": info.termination,
                               "relative_offset": info.relative_offset,
                               "iterations": info.iterations}))
-    if info.jacobian_rank < len(rows):
+    free = sum(status == "free" for status in info.bound_status)
+    if info.jacobian_rank < free:
         out.append(TrustFlag("parameters_not_identifiable", "serious",
                              "Some parameters cannot be told apart from these data (the "
                              "Jacobian is rank deficient): fix one of them or rewrite the model.",
-                             {"rank": info.jacobian_rank, "parameters": len(rows)}))
+                             {"rank": info.jacobian_rank, "parameters": free}))
     at_bound = [n for n, s in zip(names, info.bound_status, strict=True) if s != "free"]
     if at_bound:
         out.append(TrustFlag("parameter_at_bound", "caution",
                              f"{', '.join(at_bound)} sit(s) on a bound you set; the standard "
-                             "errors and limits do not account for the bound.",
+                             "errors and Wald limits do not account for the bound (the "
+                             "profile limits do).",
                              {"parameters": tuple(at_bound)}))
     pairs = _correlated_pairs(names, correlation)
     if pairs:

@@ -156,8 +156,9 @@ def check_start(problem: Problem, start) -> tuple[np.ndarray, np.ndarray, np.nda
 
     Raises :class:`SpecError` with field ``"model.parameters"`` when the model
     or its Jacobian is not finite at the start (naming the parameters to
-    change), or ``"model.lower"``/``"model.upper"`` when a start value lies
-    outside its bounds.
+    change), ``"x[i]"`` when it is not finite at some points whatever single
+    start value changes (``log(x)`` at ``x = 0``), or ``"model.lower"``/
+    ``"model.upper"`` when a start value lies outside its bounds.
     """
     names = problem.parameter_names
     theta = _vector(start, "start values", "model.parameters", SpecError)
@@ -175,11 +176,22 @@ def check_start(problem: Problem, start) -> tuple[np.ndarray, np.ndarray, np.nda
     shown = ", ".join(f"{s}={v:.6g}" for s, v in zip(names, theta, strict=True))
     if f is None:
         hint = _single_changes(problem, theta)
-        raise SpecError(f"The model is not finite at the start values ({shown}) for some x"
-                        + (f"; changing {hint} alone makes it finite." if hint else "."),
+        if hint:
+            raise SpecError(f"The model is not finite at the start values ({shown}) for some "
+                            f"x; changing {hint} alone makes it finite.",
+                            field="model.parameters", fix=f"Change the start value of {hint}.")
+        bad = _undefined_points(problem, theta)
+        if bad.size and bad.size < problem.n:
+            i = int(bad[0])
+            raise SpecError(f"The model is not finite at x[{i}] = {problem.x[i]:.6g} "
+                            f"({bad.size} of {problem.n} points) at the start values ({shown}), "
+                            "and no single start value changes that.", field=f"x[{i}]",
+                            fix="Drop the points where the equation is undefined (e.g. a "
+                                "zero dose under log(x)), or write the equation so it is "
+                                "defined there.")
+        raise SpecError(f"The model is not finite at the start values ({shown}) for some x.",
                         field="model.parameters",
-                        fix=f"Change the start value of {hint}." if hint else
-                        "Change the start values so the model is finite at every x.")
+                        fix="Change the start values so the model is finite at every x.")
     if jac is None:
         bad = _bad_columns(problem, theta)
         which = ", ".join(bad) if bad else ", ".join(names)
@@ -207,6 +219,18 @@ def _single_changes(problem: Problem, theta: np.ndarray) -> str:
                 found.append(f"{name} (e.g. {name}={value:.6g})")
                 break
     return " or ".join(found)
+
+
+def _undefined_points(problem: Problem, theta: np.ndarray) -> np.ndarray:
+    """Positions where the model is not finite at ``theta`` (empty when it cannot tell)."""
+    try:
+        with np.errstate(all="ignore"):
+            f = np.asarray(problem.model.values(problem.x, theta), dtype=float)
+    except MODEL_FAILURES:
+        return np.empty(0, dtype=int)
+    if f.shape != problem.y.shape:
+        return np.empty(0, dtype=int)
+    return np.flatnonzero(~np.isfinite(f))
 
 
 def _bad_columns(problem: Problem, theta: np.ndarray) -> list[str]:

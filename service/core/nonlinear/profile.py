@@ -17,8 +17,11 @@ until ``|tau|`` passes ``c``. The bracketed root is then refined by a
 safeguarded Newton iteration (bisection whenever Newton leaves the bracket).
 Each refit is warm-started from the neighbouring profile point moved along
 the linearised path ``d theta / d b``. A side is ``"unbounded"`` (limit NaN)
-when ``|tau|`` stays below ``c`` out to ``max_se`` standard errors, up to a
-bound on the parameter, or up to where the model stops being finite.
+when ``|tau|`` stays below ``c`` out to ``max_se`` standard errors or up to where
+the model stops being finite. A bound the caller set truncates the confidence
+set ``{b inside the bounds : |tau(b)| <= c}``: when ``|tau|`` stays below ``c``
+up to the bound (or the estimate is on it), that side's limit is the bound
+itself, with status ``"bound"`` (the data alone would allow more).
 """
 
 from __future__ import annotations
@@ -48,7 +51,7 @@ class _Point(NamedTuple):
 
 class _Side(NamedTuple):
     limit: float
-    status: str  # "found" | "unbounded" | "not_computed"
+    status: str  # "found" | "bound" | "unbounded" | "not_computed"
     reason: str
     refits: int
 
@@ -78,8 +81,10 @@ def profile_limits(solution: Solution, *, level: float = 0.95, weight_mode: str 
     Returns
     -------
     ProfileLimits
-        One row per profiled parameter with a status per side, and a
-        ``profile_unbounded`` notice per parameter with an unbounded side.
+        One row per profiled parameter with a status per side; a
+        ``profile_unbounded``, ``profile_at_bound`` or ``profile_not_computed``
+        notice per parameter with a side of that status (the last only when the
+        side failed for a reason of its own, not the whole fit's).
 
     Raises
     ------
@@ -103,7 +108,7 @@ def profile_limits(solution: Solution, *, level: float = 0.95, weight_mode: str 
     if unknown:
         raise SpecError(f"no parameter named {', '.join(unknown)}", field="profile.parameters",
                         fix=f"choose from {', '.join(names)}")
-    limits = []
+    limits, notices = [], []
     for j, name in enumerate(names):
         if parameters is not None and name not in parameters:
             continue
@@ -119,9 +124,24 @@ def profile_limits(solution: Solution, *, level: float = 0.95, weight_mode: str 
         why = "; ".join(s.reason for s in sides if s.reason)
         limits.append(ProfileLimit(name, est, sides[0].limit, sides[1].limit, sides[0].status,
                                    sides[1].status, why, sides[0].refits + sides[1].refits))
-    notices = tuple(Notice("profile_unbounded", f"{lim.name}: {lim.reason}") for lim in limits
-                    if "unbounded" in (lim.lower_status, lim.upper_status))
-    return ProfileLimits(tuple(limits), level, crit, weight_mode, notices)
+        notices += _side_notices(name, sides)
+    return ProfileLimits(tuple(limits), level, crit, weight_mode, tuple(notices))
+
+
+_SIDE_NOTICES = (("profile_unbounded", "unbounded"), ("profile_at_bound", "bound"),
+                 ("profile_not_computed", "not_computed"))
+
+
+def _side_notices(name: str, sides: list[_Side]) -> list[Notice]:
+    """One notice per status other than found, with the reasons of the sides that have it
+    (a side not computed for the whole fit's reason, e.g. no convergence, is told by the
+    fit's own notices and never reaches here)."""
+    out = []
+    for code, status in _SIDE_NOTICES:
+        reasons = [s.reason for s in sides if s.status == status and s.reason]
+        if reasons:
+            out.append(Notice(code, f"{name}: {'; '.join(reasons)}"))
+    return out
 
 
 def _why_not(solution: Solution, crit: float, scale: float, cov: np.ndarray) -> str:
@@ -157,7 +177,8 @@ def _search(solution, j, sign, crit, scale, se, follow, max_se, xtol) -> _Side:
     bound = problem.lower[j] if sign < 0 else problem.upper[j]
     side = "lower" if sign < 0 else "upper"
     if est == bound:
-        return _Side(np.nan, "not_computed", f"{side}: the estimate is at its bound", 0)
+        return _Side(float(bound), "bound", f"{side}: the estimate is on the bound you set, "
+                     "so the limit is the bound", 0)
     start_fit = Constrained(solution.estimates.copy(), solution.rss, 0.0, follow, True, 0)
     inside = _Point(est, 0.0, 0.0, 1.0 / se, start_fit)
     target = sign * crit
@@ -185,15 +206,17 @@ def _search(solution, j, sign, crit, scale, se, follow, max_se, xtol) -> _Side:
             outside = point
             break
         if b == bound:
-            return _Side(np.nan, "unbounded", f"{side}: the profile stays below the critical "
-                         f"value up to the bound {bound:.6g}", refits)
+            return _Side(float(bound), "bound", f"{side}: the profile stays below the critical "
+                         f"value up to the bound {bound:.6g} you set, so the limit is the bound",
+                         refits)
         if refits >= MAX_REFITS_PER_SIDE:
             return _Side(np.nan, "not_computed", f"{side}: search budget exhausted", refits)
         inside = point
         step = (target - point.tau) / point.dtau if point.dtau > 0 else np.inf
         step = sign * min(max(abs(step), MIN_STEP_SE * se), MAX_STEP_SE * se)
         b = point.b + step
-    return _refine(solution, j, sign, scale, inside, outside, target, se * xtol, refits)
+    found = _refine(solution, j, sign, scale, inside, outside, target, se * xtol, refits)
+    return found._replace(reason=f"{side}: {found.reason}") if found.reason else found
 
 
 def _refine(solution, j, sign, scale, inside: _Point, outside: _Point, target, xtol,

@@ -3,8 +3,10 @@ and the fitted curve kept for later prediction.
 
 The parameter rows extend the polynomial coefficient rows (same first seven
 fields) with profile-likelihood limits and the status of each side:
-``"found"``, ``"unbounded"`` (the profile never reaches the critical value:
-the data do not bound the parameter on that side; the limit is NaN) or
+``"found"``, ``"bound"`` (the limit is a bound the caller set: the profile stays
+below the critical value up to it), ``"unbounded"`` (the profile never reaches
+the critical value: the data do not bound the parameter on that side; the limit
+is NaN) or
 ``"not_computed"`` (NaN; the fit's notices say why).
 """
 

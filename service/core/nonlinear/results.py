@@ -165,9 +165,11 @@ class Inference:
 class ProfileLimit(NamedTuple):
     """Profile-likelihood limits of one parameter.
 
-    ``lower_status``/``upper_status`` are ``"found"``, ``"unbounded"`` (the
-    profile does not reach the critical value within the search; the limit is
-    NaN) or ``"not_computed"`` (NaN; ``reason`` says why). ``refits`` counts
+    ``lower_status``/``upper_status`` are ``"found"``, ``"bound"`` (the profile
+    stays below the critical value up to a bound the caller set, or the estimate
+    is on it: the limit is that bound), ``"unbounded"`` (the profile does not
+    reach the critical value within the search; the limit is NaN) or
+    ``"not_computed"`` (NaN; ``reason`` says why). ``refits`` counts
     constrained re-minimisations spent on this parameter.
     """
 

@@ -50,8 +50,10 @@ def _termination(problem: Problem, theta0, outcome, objective: Objective) -> tup
         "small_step": "converged: the remaining Gauss-Newton correction is below the float64 "
                       f"resolution of the estimates (relative offset {offset:.2g})",
         "iteration_limit": f"stopped after {objective.njev} iterations without meeting the "
-                           f"convergence check (relative offset {offset:.2g}); try better "
-                           "start values or a larger iteration budget",
+                           f"convergence check (relative offset {offset:.2g}); try other "
+                           "start values, or hold a parameter the data barely determine "
+                           "(large standard error, high correlation) with model.fixed (or a "
+                           "number in your equation) or bound it",
         "non_finite_model": "stopped: the model or its derivatives are not finite around the "
                             "last point reached; try other start values or bound the parameters",
         "stalled": "no step lowers the sum of squares although the convergence check is not "
@@ -108,7 +110,7 @@ def _notices(problem: Problem, outcome, objective: Objective, attempts) -> tuple
         for s, status in zip(names, a.bound_status, strict=True):
             if status != "free":
                 out.append(Notice("parameter_at_bound", f"{s} is at its {status} bound; its "
-                                  "standard error and limits ignore the bound"))
+                                  "standard error and Wald limits ignore the bound"))
         if a.tangent.rank < int(a.free.sum()):
             out.append(Notice("jacobian_rank_deficient",
                               f"the Jacobian has rank {a.tangent.rank} of {int(a.free.sum())}"))

@@ -154,8 +154,11 @@ def test_bound_stops_the_search():
     x, y, free = _unsaturated_michaelis_menten()
     bound = free.estimates[1] + 2.0 * infer(free).parameters[1].std_error
     sol = solve(MichaelisMenten(), x, y, [10.0, 4.0], upper=[np.inf, bound])
-    (lim,) = profile_limits(sol, parameters=("km",)).limits
-    assert lim.upper_status == "unbounded" and "bound" in lim.reason
+    result = profile_limits(sol, parameters=("km",))
+    (lim,) = result.limits
+    # the constrained confidence set {km <= bound : |tau| <= c} ends at the bound
+    assert lim.upper_status == "bound" and lim.upper == bound and "bound" in lim.reason
+    assert [n.code for n in result.notices] == ["profile_at_bound"]
 
 
 def test_not_computed_when_the_fit_did_not_converge_and_bad_names():
@@ -168,3 +171,40 @@ def test_not_computed_when_the_fit_did_not_converge_and_bad_names():
     with pytest.raises(SpecError) as err:
         profile_limits(sol, parameters=("slope",))
     assert err.value.field == "profile.parameters"
+
+
+def test_a_side_not_computed_for_its_own_reason_is_a_warning():
+    # A "converged" solution moved one standard error above the minimum along the slope
+    # (as a solver stopping early would leave it): the lower side's profile meets a lower
+    # sum of squares and cannot compute that limit. The response schema sends readers to
+    # the warnings for the reason, so the reason must be there.
+    from dataclasses import replace
+
+    x, y, _ = logistic_data(0)
+    free = solve(Logistic4(), x, y, [0.0, 1.0, 3.0, 1.5])
+    j = 1
+    estimates = free.estimates.copy()
+    estimates[j] += infer(free).parameters[j].std_error
+    fitted = Logistic4().values(x, estimates)
+    moved = replace(free, estimates=estimates, rss=float(np.sum((y - fitted) ** 2)))
+    result = profile_limits(moved, parameters=(moved.parameter_names[j],))
+    (lim,) = result.limits
+    assert lim.lower_status == "not_computed"
+    (note,) = [n for n in result.notices if n.code == "profile_not_computed"]
+    assert note.message.startswith(f"{lim.name}: lower: a lower sum of squares exists")
+
+
+def test_each_profile_notice_carries_only_its_own_side():
+    # km of the unsaturated fit: its upper side is unbounded (30 SE); a lower bound one SE
+    # below the estimate ends the lower side there. Each notice names its own side only.
+    x, y, free = _unsaturated_michaelis_menten()
+    bound = free.estimates[1] - infer(free).parameters[1].std_error
+    sol = solve(MichaelisMenten(), x, y, [10.0, 4.0], lower=[-np.inf, bound])
+    result = profile_limits(sol, parameters=("km",))
+    (lim,) = result.limits
+    assert (lim.lower_status, lim.upper_status) == ("bound", "unbounded")
+    notes = {n.code: n.message for n in result.notices}
+    assert notes["profile_at_bound"].startswith("km: lower: ") and "upper" not in \
+        notes["profile_at_bound"]
+    assert notes["profile_unbounded"].startswith("km: upper: ") and "lower" not in \
+        notes["profile_unbounded"]

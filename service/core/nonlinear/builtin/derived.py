@@ -15,6 +15,7 @@ import numpy as np
 
 from service.core.nonlinear.builtin.definition import Builtin, Derived
 from service.core.nonlinear.report import DerivedRow, NonlinearReport, ParameterRow
+from service.core.results import Notice
 
 NAN = float("nan")
 
@@ -23,6 +24,30 @@ def derived_rows(family: Builtin, report: NonlinearReport) -> tuple[DerivedRow, 
     """One row per derived quantity of ``family`` whose parameter was fitted (not fixed)."""
     rows = {row.term: row for row in report.coefficients}
     return tuple(_row(d, rows[d.parameter]) for d in family.derived if d.parameter in rows)
+
+
+def derived_notices(family: Builtin, report: NonlinearReport) -> tuple[Notice, ...]:
+    """A ``derived_not_computed`` notice per derived quantity left null because its
+    parameter's estimate lies outside the range where the quantity is defined."""
+    rows = {row.term: row for row in report.coefficients}
+    out = []
+    for d in family.derived:
+        row = rows.get(d.parameter)
+        if row is None or not math.isfinite(row.estimate):
+            continue
+        if d.domain[0] < row.estimate < d.domain[1]:
+            continue
+        out.append(Notice("derived_not_computed", (
+            f"{d.name} is null: {d.parameter} = {row.estimate:.6g} lies outside "
+            f"{_interval(d.parameter, d.domain)}, where {d.name} is defined.")))
+    return tuple(out)
+
+
+def _interval(name: str, domain: tuple[float, float]) -> str:
+    lo, hi = domain
+    if math.isinf(hi):
+        return f"{name} > {lo:g}"
+    return f"{name} < {hi:g}" if math.isinf(lo) else f"{lo:g} < {name} < {hi:g}"
 
 
 def _row(derived: Derived, row: ParameterRow) -> DerivedRow:
@@ -45,10 +70,10 @@ def _row(derived: Derived, row: ParameterRow) -> DerivedRow:
 
 
 def _mapped(derived: Derived, limit: float, status: str) -> tuple[float, str]:
-    if status != "found" or not math.isfinite(limit):
+    if status not in ("found", "bound") or not math.isfinite(limit):
         return NAN, status
     lo_dom, hi_dom = derived.domain
     if not lo_dom < limit < hi_dom:
         return NAN, "unbounded"
     with np.errstate(all="ignore"):
-        return float(derived.value(np.float64(limit))), "found"
+        return float(derived.value(np.float64(limit))), status

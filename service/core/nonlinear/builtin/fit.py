@@ -28,8 +28,9 @@ from service.core.data.grid import grid_points
 from service.core.data.inputs import clean_data
 from service.core.errors import DesignError, SpecError
 from service.core.nonlinear.analysis import report
+from service.core.nonlinear.builtin.constraints import constraint_notices
 from service.core.nonlinear.builtin.definition import LOG, Builtin, series_of
-from service.core.nonlinear.builtin.derived import derived_rows
+from service.core.nonlinear.builtin.derived import derived_notices, derived_rows
 from service.core.nonlinear.builtin.domain import check_grid, refuse_negative
 from service.core.nonlinear.builtin.spec_check import check_spec, equation, scale_of
 from service.core.nonlinear.builtin.starts import Held, Start, automatic_starts
@@ -86,7 +87,10 @@ def fit_series(family: Builtin, x, y, weights=None, *, model: ModelSpec,
                      options=options, started_from="given" if given else "automatic",
                      start_strategy=kept.start.strategy, starts_tried=kept.tried)
         return replace(out, derived=derived_rows(family, out),
-                       warnings=out.warnings + _lower_elsewhere(kept, free))
+                       warnings=out.warnings + _lower_elsewhere(kept, free)
+                       + derived_notices(family, out)
+                       + constraint_notices(family, out, float(data.x.min()),
+                                            float(data.x.max())))
 
 
 def best_fit(family: Builtin, compiled, data, scale: str, held: Held) -> Kept:
@@ -103,10 +107,7 @@ def best_fit(family: Builtin, compiled, data, scale: str, held: Held) -> Kept:
     else:
         starts = automatic_starts(family, series_of(data.x, data.y, data.w, scale), held)
     if not starts:
-        raise SpecError(f"No start made the {family.name} curve finite at every x.",
-                        field="model.parameters",
-                        fix="Give start values for the parameters in model.parameters, or "
-                            "check that the data suit this family.")
+        raise _no_start(family, held)
     explore = starts[0].strategy != "given"   # automatic starts: the short budget
     best: Kept | None = None
     lowest: Kept | None = None
@@ -126,10 +127,7 @@ def best_fit(family: Builtin, compiled, data, scale: str, held: Held) -> Kept:
         if best is None or _better(solution, best.solution):
             best = found
     if best is None:
-        raise SpecError(f"No start made the {family.name} curve finite at every x.",
-                        field="model.parameters",
-                        fix="Give start values for the parameters in model.parameters, or "
-                            "check that the data suit this family.")
+        raise _no_start(family, held)
     if explore and lowest.solution.termination not in CONVERGED:  # on with the full budget
         try:
             more = solve(compiled, data.x, data.y, lowest.solution.estimates, weights=data.w,
@@ -158,6 +156,22 @@ def _better(new: Solution, old: Solution) -> bool:
     if new_ok != old_ok:
         return new_ok
     return new.rss < old.rss * (1.0 - SAME_RSS)
+
+
+def _no_start(family: Builtin, held: Held) -> SpecError:
+    """No start could be solved: with fixed values, they are the first suspects."""
+    if held.fixed:
+        shown = ", ".join(f"{n}={v:g}" for n, v in held.fixed.items())
+        rules = "; ".join(f"{p.name}: {p.constraint}" for p in family.parameters
+                          if p.name in held.fixed)
+        return SpecError(f"No start made the {family.name} curve finite at every x with the "
+                         f"fixed values {shown} (constraints: {rules}).", field="model.fixed",
+                         fix="Fix values that meet the constraints (GET /v1/families), or "
+                             "leave those parameters free.")
+    return SpecError(f"No start made the {family.name} curve finite at every x.",
+                     field="model.parameters",
+                     fix="Give start values for the parameters in model.parameters, or "
+                         "check that the data suit this family.")
 
 
 def _lower_elsewhere(kept: Kept, free: tuple[str, ...]) -> tuple[Notice, ...]:
