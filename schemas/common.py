@@ -24,6 +24,7 @@ WEIGHTINGS = ("relative", "known_sd")
 SELECT_METHODS = ("sequential_f", "aic", "aicc", "bic", "press", "adj_r2")
 TRANSFORMS = ("none", "log", "log10", "sqrt", "reciprocal")
 MISSING_POLICIES = ("error", "drop")
+GRID_SPACINGS = ("linear", "log")
 SECTIONS = ("coefficients", "anova", "statistics", "selection", "diagnostics", "grid",
             "fitted_model")
 HARD_MAX_DEGREE = 12

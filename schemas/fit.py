@@ -5,7 +5,7 @@ from __future__ import annotations
 import numpy as np
 from marshmallow import ValidationError, fields, post_load, pre_load, validate, validates_schema
 
-from schemas.common import MISSING_POLICIES, SECTIONS, WEIGHTINGS, StrictSchema
+from schemas.common import GRID_SPACINGS, MISSING_POLICIES, SECTIONS, WEIGHTINGS, StrictSchema
 from schemas.fields import (
     CodedMessage,
     NumberArray,
@@ -36,6 +36,12 @@ class GridSchema(StrictSchema):
                        metadata={"description": "Spacing from start to stop (inclusive)."})
     x = NumberArray(metadata={"description": "Explicit grid points."}, error_messages={
         "item_null": "Grid points must be numbers. Remove the null."})
+    spacing = choice(GRID_SPACINGS, "How count points are spaced: linear (equal steps) or log "
+                     "(equal ratios, for a log x axis; needs x > 0 over the grid). Default: log "
+                     "for a built-in curve on log x (model.scale log, e.g. logistic4) with no "
+                     "start and stop, linear otherwise. A log grid over data with a zero-dose "
+                     "blank runs from the smallest positive x to the largest, with x = 0 as "
+                     "its own first point (the curve is defined there).")
 
     @validates_schema
     def _one_form(self, data, **kwargs):
@@ -50,6 +56,9 @@ class GridSchema(StrictSchema):
                                   "stop" if has_start else "start")
         if "step" in data and not has_start:
             raise ValidationError("step needs start and stop.", "step")
+        if "step" in data and data.get("spacing") == "log":
+            raise ValidationError("A step spaces the grid evenly; give count instead of step "
+                                  "for a log-spaced grid.", "spacing")
         if "step" in data and "count" in data:
             raise ValidationError("Give step or count, not both.", "count")
         if has_start and not data["stop"] > data["start"]:
@@ -59,10 +68,10 @@ class GridSchema(StrictSchema):
     def _to_spec_fields(self, data, **kwargs):
         if "x" in data:
             return {"count": None, "start": None, "stop": None, "step": None,
-                    "x": data["x"]}
+                    "x": data["x"], "spacing": None}
         count = data.get("count", None if "step" in data else 200)
         return {"count": count, "start": data.get("start"), "stop": data.get("stop"),
-                "step": data.get("step"), "x": None}
+                "step": data.get("step"), "x": None, "spacing": data.get("spacing")}
 
 
 _MODEL_DEFAULT = ModelSchema()
@@ -89,7 +98,9 @@ class FitRequestSchema(StrictSchema):
     grid = fields.Nested(GridSchema, allow_none=True,
                          load_default=lambda: _GRID_DEFAULT.load({}), metadata={
                              "description": "Where to evaluate the curve and bands. Default: "
-                                            "200 points over the data range; null: no grid."})
+                                            "200 points over the data range (log-spaced "
+                                            "for a built-in curve on log x, see "
+                                            "grid.spacing); null: no grid."})
     level = StrictFloat(load_default=0.95, validate=_LEVEL, metadata={
         "description": "Confidence level for coefficient limits and bands."})
     missing = choice(MISSING_POLICIES, "What a null (missing) value in x, y or weights "

@@ -31,7 +31,7 @@ _TOP = frozenset(("x", "y", "weights", "model", "grid", "level", "missing", "wei
                   "include"))
 _MODEL = frozenset(("family", "degree", "max_degree", "min_degree", "select", "alpha",
                     "intercept", "transform_x", "transform_y"))
-_GRID = frozenset(("count", "start", "stop", "step", "x"))
+_GRID = frozenset(("count", "start", "stop", "step", "x", "spacing"))
 _SECTIONS = frozenset(SECTIONS)
 _SELECT = frozenset(SELECT_METHODS)
 _TRANSFORMS = frozenset(TRANSFORMS)
@@ -200,7 +200,11 @@ def _grid(value) -> dict | None:
         if len(value) != 1:
             raise Declined
         return {"count": None, "start": None, "stop": None, "step": None,
-                "x": _numbers(value["x"], False)}
+                "x": _numbers(value["x"], False), "spacing": None}
+    spacing = value.get("spacing")
+    if spacing not in ("linear", "log") and "spacing" in value or (
+            spacing == "log" and "step" in value):
+        raise Declined
     count = value.get("count")
     if count is not None:
         count = _integer(count, 2)
@@ -220,4 +224,5 @@ def _grid(value) -> dict | None:
             raise Declined
     elif count is None:
         count = 200
-    return {"count": count, "start": start, "stop": stop, "step": step, "x": None}
+    return {"count": count, "start": start, "stop": stop, "step": step, "x": None,
+            "spacing": spacing}

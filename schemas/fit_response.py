@@ -37,6 +37,8 @@ class FittedModelSummarySchema(Schema):
     expression = text("The fitted equation in canonical form (nonlinear families; fixed "
                       "parameters of a built-in family appear as their numbers).")
     weighting = text("How the weights were read: relative or known_sd.")
+    scale = text("Built-in families: the x scale of the curve, log (dose-response on log x, "
+                 "x >= 0; the default grid is then log-spaced) or linear.")
     transform_x = text("Transform applied to x before fitting.")
     transform_y = text("Transform applied to y before fitting.")
 

@@ -13,6 +13,7 @@ SELECT_METHODS = ("sequential_f", "aic", "aicc", "bic", "press", "adj_r2")
 TRANSFORMS = ("none", "log", "log10", "sqrt", "reciprocal")
 MISSING_POLICIES = ("error", "drop")
 WEIGHTINGS = ("relative", "known_sd")
+GRID_SPACINGS = ("linear", "log")
 SECTIONS = ("coefficients", "anova", "statistics", "selection", "diagnostics", "grid",
             "fitted_model")
 HARD_MAX_DEGREE = 12  # absolute ceiling of the core; the service limit may be lower
@@ -87,8 +88,11 @@ class GridSpec:
     """Where to evaluate the fitted curve and its bands.
 
     Exactly one form is used: explicit ``x``; or ``start``/``stop``/``step``;
-    or ``count`` evenly spaced points over the data range (the default, 200).
+    or ``count`` points over the data range (the default, 200).
     ``start``/``stop`` without ``step`` use ``count`` points between them.
+    ``spacing`` spaces a ``count`` grid: ``"linear"`` (equal steps), ``"log"``
+    (equal ratios), or None: log for a count over the data range of a curve on log
+    x, linear otherwise (:func:`service.core.data.grid.resolved_spacing`).
     """
 
     count: int | None = 200
@@ -96,6 +100,7 @@ class GridSpec:
     stop: float | None = None
     step: float | None = None
     x: tuple[float, ...] | None = None
+    spacing: str | None = None
 
 
 @dataclass(frozen=True, slots=True)

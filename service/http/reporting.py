@@ -12,6 +12,7 @@ from operator import attrgetter
 
 from service.core.compare import Comparison
 from service.core.families import family_of
+from service.core.nonlinear.builtin.catalogue import curve_scale
 from service.core.nonlinear.report import NonlinearReport
 from service.core.results import FitReport, Prediction
 
@@ -139,6 +140,9 @@ def nonlinear_response(report: NonlinearReport, include) -> dict:
         "n_input": report.n_input,
         "dropped": list(report.dropped),
     }
+    scale = curve_scale(fitted.family, fitted.expression)
+    if scale is not None:  # a built-in curve: on log x or on x
+        body["model"]["scale"] = scale
     wanted = set(include)
     if "coefficients" in wanted:
         body["coefficients"] = plain_rows(report.coefficients)

@@ -34,7 +34,8 @@ def grid_spec(grid: dict | None) -> GridSpec | None:
         return None
     x = grid["x"]
     return GridSpec(count=grid["count"], start=grid["start"], stop=grid["stop"],
-                    step=grid["step"], x=None if x is None else tuple(x.tolist()))
+                    step=grid["step"], x=None if x is None else tuple(x.tolist()),
+                    spacing=grid.get("spacing"))
 
 
 def fit_options(body: dict, settings: Settings) -> FitOptions:

@@ -122,7 +122,7 @@ def test_no_intercept_uses_uncentred_r_squared(client):
 
 # fields the schema documents for the nonlinear families only (and their model summary)
 NONLINEAR_ONLY = {"fit_info", "correlation", "expression", "comparison",
-                  "derived"}
+                  "derived", "scale"}
 
 
 def test_every_section_and_field_is_present(client, seeded):

@@ -12,7 +12,8 @@ from curvewise_client.results.plain import Result
 
 @dataclass(frozen=True, slots=True, repr=False)
 class ModelInfo(Result):
-    """The fitted model: family, degree and term names in order."""
+    """The fitted model: family, degree and term names in order (a built-in curve's x
+    scale in ``scale``: ``"log"`` or ``"linear"``)."""
 
     family: str | None = None
     degree: int | None = None
@@ -22,6 +23,7 @@ class ModelInfo(Result):
     transform_y: str | None = None
     expression: str | None = None
     weighting: str | None = None
+    scale: str | None = None
 
 
 @dataclass(frozen=True, slots=True, repr=False)

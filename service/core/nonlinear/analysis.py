@@ -24,7 +24,7 @@ from service.core.checks.known_sd import (
 )
 from service.core.checks.lack_of_fit import distinct_count
 from service.core.checks.quantiles import f_quantile
-from service.core.data.grid import grid_points
+from service.core.data.grid import fit_grid
 from service.core.data.inputs import clean_data
 from service.core.errors import DesignError, SpecError
 from service.core.nonlinear.bands import band_values
@@ -85,13 +85,16 @@ def analyse(equation, names: tuple[str, ...], family: str, expression: str, x, y
 
 def report(solution, data, equation, names: tuple[str, ...], family: str, expression: str,
            start, *, options: FitOptions, started_from: str = "given",
-           start_strategy: str = "given", starts_tried: int = 1) -> NonlinearReport:
+           start_strategy: str = "given", starts_tried: int = 1,
+           log_x: bool = False) -> NonlinearReport:
     """The report of a solved fit (what :func:`analyse` does after :func:`solve`).
 
     For families that choose among several solved starts themselves: ``solution``
     is the kept :class:`Solution` of ``data`` (a cleaned series,
     :func:`service.core.data.inputs.clean_data`), ``start`` the start it came from,
     ``start_strategy`` its name and ``starts_tried`` how many starts were solved.
+    ``log_x``: the curve is on log x (a built-in family's log scale), so its grid is
+    log-spaced unless the caller chose (:func:`service.core.data.grid.grid_points`).
     """
     n, p = data.x.size, len(names)
     mode, level = options.weighting, float(options.level)
@@ -107,7 +110,7 @@ def report(solution, data, equation, names: tuple[str, ...], family: str, expres
                          inference.distribution, level, equation)
     grid = None
     if options.grid is not None:
-        grid = predict(fitted, grid_points(options.grid, x_lo, x_hi, options.max_grid_points))
+        grid = predict(fitted, fit_grid(options, data.x, log_x))
     sqrt_w = None if data.w is None else np.sqrt(data.w)
     zw = data.y if sqrt_w is None else sqrt_w * data.y
     exact = solution.rss <= (EXACT_RTOL ** 2) * float(zw @ zw)

@@ -24,7 +24,7 @@ from typing import NamedTuple
 import numpy as np
 
 from service.core.checks.known_sd import require_weights
-from service.core.data.grid import grid_points
+from service.core.data.grid import fit_grid
 from service.core.data.inputs import clean_data
 from service.core.errors import DesignError, SpecError
 from service.core.nonlinear.analysis import report
@@ -77,15 +77,15 @@ def fit_series(family: Builtin, x, y, weights=None, *, model: ModelSpec,
         data = clean_data(x, y, weights, options.missing)
         _check_data(family, scale, data.x, len(free))
         if options.grid is not None:  # before the solve: a grid outside the domain is refused
-            check_grid(family, scale, options.grid, grid_points(
-                options.grid, float(data.x.min()), float(data.x.max()), options.max_grid_points))
+            check_grid(family, scale, options.grid, fit_grid(options, data.x, scale == LOG))
         kept = best_fit(family, compiled, data, scale, held)
         kept = _canonical(family, compiled, data, held, kept)
         start = np.array([kept.start.values[name] for name in free])
         given = kept.start.strategy == "given"
         out = report(kept.solution, data, compiled, free, family.name, compiled.text, start,
                      options=options, started_from="given" if given else "automatic",
-                     start_strategy=kept.start.strategy, starts_tried=kept.tried)
+                     start_strategy=kept.start.strategy, starts_tried=kept.tried,
+                     log_x=scale == LOG)
         return replace(out, derived=derived_rows(family, out),
                        warnings=out.warnings + _lower_elsewhere(kept, free)
                        + derived_notices(family, out)
