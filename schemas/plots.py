@@ -95,9 +95,12 @@ class PlotOptionsSchema(StrictSchema):
                   "description": "linear (default) or log: the x axis of the panels drawn "
                                  "against x (fit, studentized_residuals, spread, the candidates' "
                                  "curves). Dose-response curves are read on log concentration. "
-                                 "log needs every x > 0 (a zero-dose blank is refused with a "
-                                 "422 naming plot.x_scale); curves are then evaluated on "
-                                 "geometrically spaced x."})
+                                 "On log, every point is still fitted, but points at x <= 0 "
+                                 "(zero-dose blanks) cannot be placed on the axis: they are "
+                                 "not drawn, the figure's note line says how many, and so does "
+                                 "the X-Points-Not-Drawn response header; a body with no x > 0 "
+                                 "is refused with a 422 naming plot.x_scale. Curves are drawn "
+                                 "on geometrically spaced x from the smallest positive x."})
     title = _label("A title over the whole figure.")
     x_label = _label("Label of the x axis on the fit panel (default x).")
     y_label = _label("Label of the y axis on the fit panel (default y).")

@@ -93,7 +93,8 @@ class Client(Caller):
 
         Panels: ``fit``, ``studentized_residuals``, ``influence``, ``spread``,
         ``half_normal``, ``selection`` (default ``["fit"]``); sizes in pixels (left out,
-        the figure grows to fit its panels); ``x_scale="log"`` draws x on a log axis.
+        the figure grows to fit its panels); ``x_scale="log"`` draws x on a log axis (points
+        at x <= 0 are fitted but not drawn: ``Figure.points_not_drawn`` counts them).
         """
         if format not in IMAGE_TYPES:
             raise InputError(f"format must be one of {sorted(IMAGE_TYPES)}, not {format!r}")
@@ -108,7 +109,9 @@ class Client(Caller):
         data = response.read()
         if not response.content_type.startswith("image/"):
             raise ProtocolError(f"/v1/plot answered {response.content_type!r}, not an image")
-        return Figure(content_type=response.content_type, data=data)
+        hidden = response.headers.get("x-points-not-drawn")
+        return Figure(content_type=response.content_type, data=data,
+                      points_not_drawn=None if hidden is None else int(hidden))
 
     def batch(self, series: Iterable[Mapping[str, Any]], *,
               model: Mapping[str, Any] | None = None, detail: str | None = None,

@@ -4,7 +4,9 @@ Any family's report: a polynomial ``FitReport`` or a nonlinear family's report (
 ``model`` a ``FittedCurve``: no degree selection, parameters by name). With a
 comparison (``model.candidates``) the chosen candidate's report is drawn and
 ``candidates`` holds every fitted candidate's curve for the selection panel. On a log x
-axis the curve is evaluated on geometrically spaced x so it is smooth on that axis.
+axis the curve is evaluated on geometrically spaced x so it is smooth on that axis, from
+the smallest positive x: points at x <= 0 (zero-dose blanks) are fitted with the rest but
+cannot be placed on that axis, and ``hidden`` counts them for the figure's note.
 """
 
 from __future__ import annotations
@@ -42,6 +44,8 @@ class PlotData:
     :data:`FLAG_KINDS` to a mask of the points the core's diagnostics flagged,
     and ``thresholds`` holds the cut-offs it used (``Diagnostics.thresholds``:
     ``outlier_t``, ``leverage``, ``cooks_distance``...), empty without diagnostics.
+    ``x_min``, ``x_max`` are the x range drawn: the fit's, from the smallest positive x on
+    a log axis, where ``hidden`` used points at x <= 0 are fitted but not drawn.
     """
 
     index: np.ndarray
@@ -66,6 +70,7 @@ class PlotData:
     candidates: tuple[CandidateCurve, ...] = ()
     criterion_name: str = ""
     log_x: bool = False
+    hidden: int = 0
 
     @property
     def n(self) -> int:
@@ -80,6 +85,19 @@ class PlotData:
     def threshold(self, name: str) -> float:
         """One cut-off of the diagnostics, NaN when it was not computed."""
         return float(self.thresholds.get(name, np.nan))
+
+
+def hidden_note(data: PlotData) -> str:
+    """``"; 2 points at x ≤ 0 fitted, not drawn"`` for a panel's note line ("" when none)."""
+    if not data.hidden:
+        return ""
+    return f"; {data.hidden} point{'s' if data.hidden != 1 else ''} at x ≤ 0 fitted, not drawn"
+
+
+def not_drawn(report, x) -> int:
+    """How many points ``report`` fitted at x <= 0 (a log x axis cannot draw them)."""
+    used = np.delete(np.asarray(x, dtype=float), np.asarray(report.dropped, dtype=int))
+    return int(np.count_nonzero(used <= 0))
 
 
 def describe(data: PlotData) -> str:
@@ -117,8 +135,12 @@ def gather(report, x, y, weights=None, *, log_x: bool = False, comparison=None) 
         index = np.asarray(diag.index, dtype=int)
     else:
         index = np.setdiff1d(np.arange(report.n_input), np.asarray(report.dropped, dtype=int))
+    x_used = x_all[index]
+    x_min, hidden = model.x_min, 0
     if log_x:
-        grid = predict(model, curve_x(model.x_min, model.x_max, True))
+        hidden = int(np.count_nonzero(x_used <= 0))
+        x_min = float(x_used[x_used > 0].min()) if hidden else model.x_min
+        grid = predict(model, curve_x(x_min, model.x_max, True))
     elif report.grid is not None and report.grid.x.size:
         grid = report.grid
     else:
@@ -141,16 +163,16 @@ def gather(report, x, y, weights=None, *, log_x: bool = False, comparison=None) 
             flags[kind] = np.isin(index, np.asarray(positions, dtype=int))
         thresholds = dict(diag.thresholds)
         breusch_pagan = next((t for t in diag.tests if t.name == "breusch_pagan"), None)
-    return PlotData(index=index, x=x_all[index], y=y_all[index], residual=residual,
+    return PlotData(index=index, x=x_used, y=y_all[index], residual=residual,
                     studentized=studentized, leverage=leverage, weights=used_weights,
                     flags=flags, thresholds=thresholds, breusch_pagan=breusch_pagan,
                     grid=grid, selection=getattr(report, "selection", None), model=model,
                     degree=getattr(model, "degree", None),
                     n_parameters=int(report.statistics.n_parameters),
-                    weighted=model.weighted, x_min=model.x_min, x_max=model.x_max,
+                    weighted=model.weighted, x_min=x_min, x_max=model.x_max,
                     family=getattr(model, "family", None) or "polynomial",
-                    candidates=_candidates(comparison, log_x),
-                    criterion_name=_criterion(comparison), log_x=log_x)
+                    candidates=_candidates(comparison, log_x, x_min if hidden else None),
+                    criterion_name=_criterion(comparison), log_x=log_x, hidden=hidden)
 
 
 def _criterion(comparison) -> str:
@@ -160,8 +182,10 @@ def _criterion(comparison) -> str:
     return {"aic": "AIC", "bic": "BIC"}.get(comparison.select, "AICc")
 
 
-def _candidates(comparison, log_x: bool) -> tuple[CandidateCurve, ...]:
-    """Every fitted candidate's curve over the x range of all of them."""
+def _candidates(comparison, log_x: bool, positive: float | None = None,
+                ) -> tuple[CandidateCurve, ...]:
+    """Every fitted candidate's curve over the x range of all of them (from ``positive``,
+    the smallest positive x, on a log axis over data with x <= 0)."""
     if comparison is None:
         return ()
     key = "aicc" if comparison.select == "f_test" else comparison.select
@@ -169,7 +193,7 @@ def _candidates(comparison, log_x: bool) -> tuple[CandidateCurve, ...]:
                                          strict=True) if r is not None]
     if not fitted:
         return ()
-    lo = min(r.model.x_min for _, r in fitted)
+    lo = positive if positive is not None else min(r.model.x_min for _, r in fitted)
     hi = max(r.model.x_max for _, r in fitted)
     xs = curve_x(lo, hi, log_x)
     chosen = comparison.candidates[comparison.chosen].label

@@ -35,7 +35,8 @@ def build_figure(report: FitReport, x, y, weights=None,
     Raises
     ------
     SpecError
-        A log x axis with an x that is not positive (``plot.x_scale``); the selection
+        A log x axis with no x > 0 to draw (``plot.x_scale``; points at x <= 0 are
+        fitted but not drawn, and the fit panel's note says how many); the selection
         panel of a nonlinear fit that compared nothing (``plot.panels``). When the asked
         height leaves a panel less than the minimum plotting area once
         the legend strip is known (``plot.height``), or no size within the limits fits

@@ -57,8 +57,9 @@ class PlotOptions:
         Plain labels; default ``x`` and ``y``.
     x_scale : str
         ``"linear"`` or ``"log"``: the x axis of the panels drawn along x (dose-response
-        curves are read on log concentration); log needs every x > 0
-        (:func:`check_log_x`).
+        curves are read on log concentration); log draws the x > 0 only: points at x <= 0
+        (zero-dose blanks) are fitted but not drawn, and the figure says how many
+        (:func:`check_log_x` refuses a log axis with nothing positive to draw).
 
     Raises
     ------
@@ -157,12 +158,14 @@ class PlotOptions:
         return any(p not in ("fit", "selection") for p in self.panels)
 
 
-def check_log_x(x) -> None:
-    """Refuse a log x axis when some x is not positive (naming ``plot.x_scale``)."""
+def check_log_x(x) -> int:
+    """Refuse a log x axis with no positive x to draw (naming ``plot.x_scale``); else return
+    how many finite x are zero or negative: they are fitted but not drawn on that axis."""
     values = np.asarray(x, dtype=float)
-    bad = np.flatnonzero(~(values > 0))
-    if bad.size:
-        raise SpecError(f"x[{int(bad[0])}] = {values[bad[0]]:g} cannot be drawn on a log x axis "
-                        f"({bad.size} of {values.size} x are zero or negative).",
-                        field="plot.x_scale", fix="Use x_scale linear, or leave out the x "
-                        "that are not positive (e.g. a zero-dose blank).")
+    finite = values[np.isfinite(values)]
+    hidden = int(np.count_nonzero(finite <= 0))
+    if hidden and hidden == finite.size:
+        raise SpecError(f"None of the {finite.size} x is positive: nothing can be drawn on a log "
+                        "x axis.", field="plot.x_scale", fix="Use x_scale linear (every x "
+                        "is fitted either way; a log axis draws only the x > 0).")
+    return hidden

@@ -11,7 +11,7 @@ import numpy as np
 from matplotlib import ticker
 
 from service.plots import marks, style
-from service.plots.data import PlotData, describe
+from service.plots.data import PlotData, describe, hidden_note
 from service.plots.options import COMPARISON_TITLE, PANEL_TITLES, PlotOptions
 from service.plots.panels_checks import (
     draw_half_normal,
@@ -48,7 +48,7 @@ def draw_fit(ax, data: PlotData, options: PlotOptions) -> None:
         for edge in (data.x_min, data.x_max):
             ax.axvline(edge, **style.REFERENCE)
     marks.finish(ax, PANEL_TITLES["fit"], f"{describe(data)}, {data.n} points, "
-                 f"{data.n_parameters} parameters", options.x_label or "x",
+                 f"{data.n_parameters} parameters{hidden_note(data)}", options.x_label or "x",
                  options.y_label or "y")
 
 
@@ -84,6 +84,8 @@ def draw_candidates(ax, data: PlotData, options: PlotOptions) -> None:
         ax.plot(curve.x, curve.fit, label=f"{'chosen: ' if curve.chosen else ''}{curve.label}, "
                 f"{data.criterion_name} {curve.criterion:.4g}", **look)
     note = f"{len(data.candidates)} candidates fitted, ranked by {data.criterion_name}"
+    if "fit" not in options.panels:
+        note += hidden_note(data)
     marks.finish(ax, COMPARISON_TITLE, note, options.x_label or "x", options.y_label or "y")
 
 

@@ -12,7 +12,7 @@ from __future__ import annotations
 import numpy as np
 
 from service.plots import basis, marks, style
-from service.plots.data import PlotData
+from service.plots.data import PlotData, hidden_note
 from service.plots.envelope import envelope
 from service.plots.options import PANEL_TITLES, PlotOptions
 from service.plots.spread import spread
@@ -32,9 +32,14 @@ def draw_studentized_residuals(ax, data: PlotData, options: PlotOptions) -> None
     marks.flags(ax, data, data.x, t)
     ax.set_ylim(-(reach := marks.symmetric_limit(t, limit)), reach)
     note = (f"Bonferroni limits ±{limit:.3g} (α = {data.threshold('outlier_alpha'):g})"
-            if np.isfinite(limit) else UNDEFINED)
+            if np.isfinite(limit) else UNDEFINED) + _hidden(data, options)
     marks.finish(ax, PANEL_TITLES["studentized_residuals"], note, options.x_label or "x",
                  "studentized residual")
+
+
+def _hidden(data: PlotData, options: PlotOptions) -> str:
+    """The points not drawn on a log x axis, said here when no fit panel says it."""
+    return "" if "fit" in options.panels else hidden_note(data)
 
 
 def cook_contour(data: PlotData, h_max: float) -> tuple[np.ndarray, np.ndarray]:
@@ -104,7 +109,8 @@ def draw_spread(ax, data: PlotData, options: PlotOptions) -> None:
     if found.curve_y.size:
         top.append(float(np.max(found.curve_y)))
     ax.set_ylim(0.0, 1.08 * max(top))
-    marks.finish(ax, PANEL_TITLES["spread"], note, options.x_label or "x", "e² ÷ mean e²")
+    marks.finish(ax, PANEL_TITLES["spread"], note + _hidden(data, options),
+                 options.x_label or "x", "e² ÷ mean e²")
 
 
 def draw_half_normal(ax, data: PlotData, options: PlotOptions) -> None:

@@ -95,7 +95,7 @@ def style_axes(ax) -> None:
 def log_x_axis(ax, x_min: float, x_max: float) -> None:
     """A logarithmic x axis with plain tick labels (0.01, 1, 100: never mathtext, which
     the service does not parse); decades, or 1-2-5 steps over less than two decades."""
-    ax.set_xscale("log")
+    ax.set_xscale("log", nonpositive="mask")  # x <= 0 (blanks) fitted, not drawn
     decades = math.log10(x_max / x_min) if x_min > 0 and x_max > x_min else 0.0
     subs = (1.0,) if decades >= 2 else (1.0, 2.0, 5.0)
     ax.xaxis.set_major_locator(ticker.LogLocator(base=10, subs=subs, numticks=9))

@@ -19,6 +19,8 @@ class Figure(Result):
 
     content_type: str
     data: bytes
+    points_not_drawn: int | None = None
+    """With ``x_scale="log"``: points at x <= 0 fitted but not drawn (None otherwise)."""
 
     @property
     def format(self) -> str:
