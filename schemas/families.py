@@ -89,7 +89,9 @@ class FamiliesResponseSchema(Schema):
     sections = fields.List(fields.String(), required=True,
                            metadata={"description": "Values of include."})
     defaults = fields.Dict(keys=fields.String(), required=True, metadata={
-        "description": "Defaults of the top-level /v1/fit options (level, missing, grid)."})
+        "description": "Defaults of the top-level /v1/fit options (level, missing, grid, include); "
+        "grid_spacing: a count-only grid is evenly spaced, except for a built-in curve on "
+        "log x (model.scale \"log\"), whose grid is log-spaced (grid.spacing)."})
     limits = fields.Nested(LimitsSchema, required=True)
 
 

@@ -39,6 +39,7 @@ def families():
         "missing_policies": list(MISSING_POLICIES),
         "sections": list(SECTIONS),
         "defaults": {"level": 0.95, "missing": "error", "grid": {"count": 200},
+                     "grid_spacing": {"default": "linear", "built_in_curve_on_log_x": "log"},
                      "include": list(SECTIONS)},
         "limits": {name: getattr(settings, name) for name in (
             "max_body_bytes", "max_points", "max_degree", "max_grid_points", "max_series",

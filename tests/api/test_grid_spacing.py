@@ -112,3 +112,14 @@ def test_spacing_refusals_name_the_field(client, grid, field):
     x, y = _dose_response()
     assert_problem(post_json(client, "/v1/fit", {"x": x, "y": y, "grid": grid}), 422,
                    "validation_error", field)
+
+
+def test_families_states_the_spacing_rule_the_fit_follows(client):
+    # /v1/families' defaults are what a fit without grid.spacing does (this file's checks above)
+    spacing = client.get("/v1/families").get_json()["defaults"]["grid_spacing"]
+    assert spacing == {"default": "linear", "built_in_curve_on_log_x": "log"}
+    x, y = _dose_response()
+    curve = _fit(client, {"x": x, "y": y, "model": {"family": "logistic4"}, "grid": {"count": 5}})
+    line = _fit(client, {"x": x, "y": y, "model": {"degree": 1}, "grid": {"count": 5}})
+    np.testing.assert_allclose(curve["grid"]["x"], np.geomspace(0.01, 100.0, 5), rtol=1e-12)
+    np.testing.assert_allclose(line["grid"]["x"], np.linspace(0.01, 100.0, 5), rtol=1e-12)
