@@ -8,7 +8,7 @@ from __future__ import annotations
 
 import math
 
-from marshmallow import Schema, ValidationError, fields, validate
+from marshmallow import Schema, ValidationError, fields, validate, validates_schema
 
 from schemas.common import StrictSchema, integer, number, text
 from schemas.curve_document import WorkingRangeSchema
@@ -27,6 +27,40 @@ _RISK = validate.Range(0, 0.5, min_inclusive=False, max_inclusive=False,
                        error="Must be strictly between 0 and 0.5, e.g. 0.05.")
 
 
+_WEIGHTS_FIX = ("Send one weight per {what}, each finite and > 0: the weight a new reading "
+                "carries on the fit's weight scale (e.g. 1/y^2 for a fit weighted 1/y^2; "
+                "1/sd^2 of the reading for a fit with known standard deviations), or leave "
+                "weights out for weight 1.")
+
+
+def _weights_field(what: str) -> NumberArray:
+    return NumberArray(load_default=None, allow_none=True, metadata={"description": (
+        f"Optional, one per {what}: the weight a new reading there carries on the fit's weight "
+        "scale (the variance of one reading is sigma^2 / weight). A fit weighted 1/y^2 "
+        "stores sigma^2 at weight 1, i.e. at y = 1: send 1/y^2 of each reading for its own "
+        "variance. With known standard deviations (weighting known_sd, sigma = 1) send "
+        "1/sd^2 of the new reading in the fit's units. Default: weight 1 for every "
+        "reading, which is right only for an unweighted fit (or a reading of weight 1).")},
+        error_messages={"item_null": "null is not a weight. Send a number > 0, or leave "
+                                     "weights out for weight 1."})
+
+
+def _check_weights(data: dict, what: str, count_field: str) -> None:
+    """weights: one finite positive number per value of ``count_field`` (422 naming
+    ``weights[i]`` otherwise)."""
+    weights = data.get("weights")
+    if weights is None or count_field not in data:
+        return
+    fix = _WEIGHTS_FIX.format(what=what)
+    if len(weights) != len(data[count_field]):
+        raise ValidationError(f"weights has {len(weights)} values for {len(data[count_field])} "
+                              f"{count_field} values. {fix}", "weights")
+    bad = [i for i, w in enumerate(weights.tolist()) if not (math.isfinite(w) and w > 0)]
+    if bad:
+        raise ValidationError({"weights": {bad[0]: [
+            f"weights[{bad[0]}] = {float(weights[bad[0]])!r} is not > 0. {fix}"]}})
+
+
 class PredictRequestSchema(StrictSchema):
     """Predict at new x with a stored fitted model."""
 
@@ -42,6 +76,11 @@ class PredictRequestSchema(StrictSchema):
     replicates = StrictInteger(load_default=1, validate=validate.Range(
         min=1, error="Must be 1 or more."), metadata={"maximum": MAX_JSON_INTEGER,
         "description": "m: the observation band covers the mean of m future readings."})
+    weights = _weights_field("x")
+
+    @validates_schema
+    def _weights(self, data, **kwargs):
+        _check_weights(data, "x", "x")
 
 
 class PredictionRowSchema(Schema):
@@ -53,8 +92,9 @@ class PredictionRowSchema(Schema):
     mean_lower = number("Lower limit for the mean response.")
     mean_upper = number("Upper limit for the mean response.")
     obs_lower = number("Lower limit for the mean of `replicates` new readings, each of "
-                       "variance sigma^2 (weight 1 on a weighted fit's scale: with weights "
-                       "1/y^2, say, that is a reading's variance at y = 1 only).")
+                       "variance sigma^2 / weight (the request's weights; without them weight "
+                       "1, the variance sigma^2 of a reading of weight 1 on a weighted fit's "
+                       "scale: with weights 1/y^2, say, a reading's variance at y = 1 only).")
     obs_upper = number("Upper limit for the mean of `replicates` new readings (same "
                        "variance).")
     band_lower = number("Lower limit of the simultaneous (Working-Hotelling) band.")
@@ -137,8 +177,9 @@ class InvertRequestSchema(StrictSchema):
         "description": "The fitted_model document from a /v1/fit response, unchanged."})
     y = NumberArray(required=True, data=True, metadata={
         "description": "Observed readings (original y scale); each the mean of its replicates, "
-                       "each of variance sigma^2 (weight 1 on a weighted fit's scale; see "
-                       "docs/fitted-model.md, Limits and caveats)."}, error_messages={
+                       "each of variance sigma^2 / weight (the request's weights; weight 1 "
+                       "without them; see docs/fitted-model.md, Limits and caveats)."},
+        error_messages={
         "item_null": "null is not a reading. Remove it (this endpoint has no missing option).",
         "data_empty": "Empty array: send at least one reading to read x back from."})
     replicates = ReplicatesField(load_default=1)
@@ -153,6 +194,11 @@ class InvertRequestSchema(StrictSchema):
         error="Must be strictly between 0 and 1, e.g. 0.2 for 20%."), metadata={
         "description": "logistic4/logistic5: the CV limit of the working range (0.2 = 20%, "
                        "common practice in bioanalytical method validation)."})
+    weights = _weights_field("y")
+
+    @validates_schema
+    def _weights(self, data, **kwargs):
+        _check_weights(data, "reading", "y")
 
 
 class EstimateSchema(Schema):

@@ -42,7 +42,8 @@ def predict_view(body):
     """Predict with intervals at new x from a stored fitted model."""
     fitted = read_document(body["fitted_model"], field_prefix="fitted_model.")
     _check_count("x", len(body["x"]))
-    result = predict(fitted, body["x"], level=body["level"], m=body["replicates"])
+    result = predict(fitted, body["x"], level=body["level"], m=body["replicates"],
+                     weights=body.get("weights"))
     columns = {name: getattr(result, name) for name in _PREDICT_COLUMNS}
     if columns["unbounded"] is None:  # a family that does not mark unbounded limits
         columns["unbounded"] = [False] * len(result.x)
@@ -65,7 +66,8 @@ def invert_view(body):
         raise SpecError(f"The {entry.name} family cannot be read backwards.",
                         field="fitted_model.family", fix="Invert a model of a family that "
                         "GET /v1/families lists as invertible.")
-    result = entry.invert(fitted, body["y"], replicates=body["replicates"], level=body["level"])
+    result = entry.invert(fitted, body["y"], replicates=body["replicates"], level=body["level"],
+                          weights=body.get("weights"))
     slopes = _slopes(entry.sensitivity, fitted, [e.x for e in result.estimates])
     columns = {name: [getattr(e, name) for e in result.estimates]
                for name in ("y", "replicates", "x", "lower", "upper", "status", "other_roots")}

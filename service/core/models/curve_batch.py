@@ -30,7 +30,8 @@ CHUNK = 256  # readings per block: a few (CHUNK x grid) tables, 1 MB per boolean
 BATCH_FROM = 2  # fewer readings than this take the scalar search (same answers, less set-up)
 
 
-def read_all(reader, y: np.ndarray, m: np.ndarray) -> tuple[InverseEstimate, ...]:
+def read_all(reader, y: np.ndarray, m: np.ndarray, w: np.ndarray | None = None
+             ) -> tuple[InverseEstimate, ...]:
     """Every reading read back (estimate, interval, status) as the scalar reader does.
 
     Parameters
@@ -42,21 +43,26 @@ def read_all(reader, y: np.ndarray, m: np.ndarray) -> tuple[InverseEstimate, ...
         Finite readings.
     m : ndarray of int
         Replicate count of each reading.
+    w : ndarray, optional
+        Weight of each reading (default 1): the bands use ``m w``.
 
     Returns
     -------
     tuple of InverseEstimate
         One per reading, in order.
     """
+    w = np.ones(len(y)) if w is None else w
     if len(y) < BATCH_FROM:  # one reading: the scalar search costs less than the set-up
-        return tuple(reader.read(float(v), int(k)) for v, k in zip(y, m, strict=True))
+        return tuple(reader.read(float(v), int(k), float(g))
+                     for v, k, g in zip(y, m, w, strict=True))
     out: list[InverseEstimate] = []
     for start in range(0, len(y), CHUNK):
-        out.extend(_read_block(reader, y[start:start + CHUNK], m[start:start + CHUNK]))
+        block = slice(start, start + CHUNK)
+        out.extend(_read_block(reader, y[block], m[block], w[block]))
     return tuple(out)
 
 
-def _read_block(reader, y: np.ndarray, m: np.ndarray) -> list[InverseEstimate]:
+def _read_block(reader, y: np.ndarray, m: np.ndarray, w: np.ndarray) -> list[InverseEstimate]:
     x_hat, settled, unreached = _estimates(reader, y)
     answers: list[InverseEstimate | None] = [None] * len(y)
     beyond, found = _outside_roots(reader, y[unreached])
@@ -68,7 +74,8 @@ def _read_block(reader, y: np.ndarray, m: np.ndarray) -> list[InverseEstimate]:
                                          status, others)
     rows = np.flatnonzero(settled)
     if rows.size:
-        lower, upper, status, fallback = _intervals(reader, x_hat[rows], y[rows], m[rows])
+        lower, upper, status, fallback = _intervals(reader, x_hat[rows], y[rows],
+                                                    m[rows] * w[rows])
         for k, j in enumerate(rows):
             if not fallback[k]:
                 final = status[k] if reader.monotone else "not_monotone"
@@ -76,7 +83,7 @@ def _read_block(reader, y: np.ndarray, m: np.ndarray) -> list[InverseEstimate]:
                                              float(lower[k]), float(upper[k]), final, ())
     for j, answer in enumerate(answers):
         if answer is None:  # several roots in the range, or a batched search failed
-            answers[j] = reader.read(float(y[j]), int(m[j]))
+            answers[j] = reader.read(float(y[j]), int(m[j]), float(w[j]))
     return answers
 
 
@@ -139,13 +146,13 @@ def _grid_crossings(values: np.ndarray, y: np.ndarray, table: bool = False):
 def _intervals(reader, x_hat, y, m):
     """Interval limits and band status of each estimate; ``fallback`` where a batched
     search failed (the reading is redone by the scalar path). Readings are taken by
-    replicate count (one band each)."""
+    replicate count times weight ``m`` (one band each)."""
     count = y.size
     lower, upper = np.full(count, math.nan), np.full(count, math.nan)
     status = np.full(count, "interval_undefined", dtype=object)
     fallback = np.zeros(count, dtype=bool)
     for k in np.unique(m):
-        band_lo, band_up = reader.band(int(k))
+        band_lo, band_up = reader.band(float(k))
         rows = np.flatnonzero(m == k)
         if np.all(np.isfinite(band_lo)) and np.all(np.isfinite(band_up)):
             lower[rows], upper[rows], status[rows], fallback[rows] = _band_limits(

@@ -54,7 +54,7 @@ class CurveReader:
         self.monotone = bool(finite and ((np.all(inner > 0) and np.all(ends >= 0))
                                          or (np.all(inner < 0) and np.all(ends <= 0))))
         self.turning_points = self._turning(slope) if finite else ()
-        self._bands: dict[int, tuple[np.ndarray, np.ndarray]] = {}
+        self._bands: dict[float, tuple[np.ndarray, np.ndarray]] = {}
         self.crit = _critical_value(fitted, level)
 
     def f(self, x) -> np.ndarray:
@@ -67,7 +67,8 @@ class CurveReader:
                             self.grid[i], self.grid[i + 1]) for i in change)
 
     # --- the estimate
-    def read(self, y0: float, m: int) -> InverseEstimate:
+    def read(self, y0: float, m: int, weight: float = 1.0) -> InverseEstimate:
+        """One reading (the mean of ``m`` readings of weight ``weight``) read back."""
         gap = self.values - y0
         inside = _crossings(self.grid, gap, lambda x: float(self.f([x])[0] - y0))
         if not inside:
@@ -79,7 +80,7 @@ class CurveReader:
             return InverseEstimate(y0, m, math.nan, math.nan, math.nan,
                                    "multiple_roots_in_range", tuple(inside))
         x_hat = inside[0]
-        lower, upper, status = self._interval(x_hat, y0, m)
+        lower, upper, status = self._interval(x_hat, y0, m * weight)
         if not self.monotone:
             status = "not_monotone"
         return InverseEstimate(y0, m, x_hat, lower, upper, status, ())
@@ -118,13 +119,14 @@ class CurveReader:
         return steps
 
     # --- the interval
-    def band(self, m: int) -> tuple[np.ndarray, np.ndarray]:
+    def band(self, m: float) -> tuple[np.ndarray, np.ndarray]:
         """The band for the mean of ``m`` new readings on the grid, computed once per ``m``.
 
         Parameters
         ----------
-        m : int
-            Replicate count of the readings.
+        m : float
+            Replicate count of the readings times their weight (the band's variance of a
+            new mean is ``noise_variance / m``).
 
         Returns
         -------
@@ -134,7 +136,9 @@ class CurveReader:
             NaN where the curve or its band is not finite.
         """
         if m not in self._bands:
-            band = predict(self.fitted, self.grid, level=self.level, m=m)
+            whole = float(m).is_integer()
+            band = predict(self.fitted, self.grid, level=self.level, m=int(m) if whole else 1,
+                           weights=None if whole else np.full(self.grid.size, float(m)))
             self._bands[m] = (np.asarray(band.obs_lower), np.asarray(band.obs_upper))
         return self._bands[m]
 

@@ -123,9 +123,10 @@ def _lead(scale: str) -> str:
     return "This curve is on log x" if scale == LOG else "This curve needs x >= 0"
 
 
-def predict(family: Builtin, fitted, x, *, level: float | None = None, m: int = 1):
+def predict(family: Builtin, fitted, x, *, level: float | None = None, m: int = 1,
+            weights=None):
     """:func:`service.core.nonlinear.analysis.predict` after refusing x outside the curve's
     domain (:func:`check_prediction_x`)."""
     xs = np.array(x, dtype=float).reshape(-1)
     check_prediction_x(family, fitted.expression, xs)
-    return analysis.predict(fitted, xs, level=level, m=m)
+    return analysis.predict(fitted, xs, level=level, m=m, weights=weights)
