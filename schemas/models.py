@@ -213,6 +213,7 @@ class EstimateSchema(Schema):
     status = text("ok, or why there is no single trustworthy in-range answer: not_monotone, "
                   "no_real_root, roots_unresolved, outside_range, multiple_roots_in_range, "
                   "interval_exceeds_range, interval_disjoint, interval_unbounded, "
+                  "interval_at_domain_edge (lower cut at x = 0, the curve's domain edge), "
                   "interval_undefined (meanings in docs/fitted-model.md).")
     other_roots = fields.List(fields.Float(), metadata={
         "description": "Other real x that give this y (not chosen), ascending."})

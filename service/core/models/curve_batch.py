@@ -190,6 +190,11 @@ def _band_limits(reader, band_lo, band_up, x_hat, y, m):
         need = np.flatnonzero(need & ~failed)
         limit[need], ok = _limits_beyond(reader, direction, y[need], m[need])
         failed[need] |= ~ok
+    # no lower crossing down to x = 0 on a curve defined for x >= 0: cut at that edge
+    open_low = np.flatnonzero(np.isnan(lo_x) & ~failed)
+    at_edge = np.zeros(y.size, dtype=bool)
+    at_edge[open_low] = reader.holds_at_edge(y[open_low], m[open_low])
+    lo_x[at_edge] = 0.0
     # the band contains y0 somewhere outside [lo_x, hi_x]: at its first or last such point
     inside = ~leaves
     first_in = np.argmax(inside, axis=1)
@@ -199,7 +204,8 @@ def _band_limits(reader, band_lo, band_up, x_hat, y, m):
         exceeds = (lo_x < reader.lo) | (hi_x > reader.hi)
     unbounded = np.isnan(lo_x) | np.isnan(hi_x)
     status = np.where(unbounded, "interval_unbounded", np.where(
-        exceeds, "interval_exceeds_range", np.where(disjoint, "interval_disjoint", "ok")))
+        at_edge, "interval_at_domain_edge", np.where(
+            exceeds, "interval_exceeds_range", np.where(disjoint, "interval_disjoint", "ok"))))
     return lo_x, hi_x, status.astype(object), failed
 
 

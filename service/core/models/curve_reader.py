@@ -19,6 +19,7 @@ from scipy import optimize, special
 
 from service.core.models.inverse import InverseEstimate
 from service.core.nonlinear.analysis import predict
+from service.core.nonlinear.builtin.domain import curve_needs_nonnegative_x
 from service.core.nonlinear.problem import MODEL_FAILURES
 from service.core.nonlinear.report import FittedCurve
 
@@ -56,6 +57,8 @@ class CurveReader:
         self.turning_points = self._turning(slope) if finite else ()
         self._bands: dict[float, tuple[np.ndarray, np.ndarray]] = {}
         self.crit = _critical_value(fitted, level)
+        # x = 0 is the domain edge of a log-dose (or power-of-x) curve: nothing lies below
+        self.nonnegative = curve_needs_nonnegative_x(fitted.family, fitted.expression)
 
     def f(self, x) -> np.ndarray:
         return self.fitted.model.values(np.atleast_1d(np.asarray(x, dtype=float)),
@@ -108,7 +111,8 @@ class CurveReader:
             A geometric ladder of range widths (from 2^-12 widths up to
             :data:`FAR_WIDTHS`), and, towards zero from a positive ``x_min``, halvings of
             ``x_min`` and 0 itself, so curves defined for x > 0 are probed up to their
-            edge; ordered moving away from the range.
+            edge; ordered moving away from the range. Below a curve defined for x >= 0
+            only (:attr:`nonnegative`) the ladder stops at 0 (empty when ``x_min`` is 0).
         """
         end = self.hi if direction > 0 else self.lo
         steps = end + direction * self.width * 2.0 ** np.arange(-12, math.log2(FAR_WIDTHS) + 1)
@@ -116,7 +120,20 @@ class CurveReader:
             steps = np.concatenate([steps[steps > 0], self.lo * 2.0 ** -np.arange(1, 60),
                                     [0.0]])
             steps = np.sort(steps)[::-1]
+        elif direction < 0 and self.nonnegative:
+            steps = steps[steps >= 0]
         return steps
+
+    def holds_at_edge(self, y0, m) -> np.ndarray:
+        """Whether the band for the mean of ``m`` readings contains ``y0`` at x = 0, the
+        domain edge of a curve defined for x >= 0 only (always False for other curves):
+        where a lower limit found no crossing, it is cut there (``interval_at_domain_edge``).
+        ``y0`` and ``m`` are arrays (one per reading) or scalars."""
+        y0, m = np.atleast_1d(y0), np.atleast_1d(m)
+        if not self.nonnegative:
+            return np.zeros(y0.shape, dtype=bool)
+        with np.errstate(invalid="ignore"):
+            return self.outside_band(np.zeros(y0.shape), y0, m) <= 0
 
     # --- the interval
     def band(self, m: float) -> tuple[np.ndarray, np.ndarray]:
@@ -193,10 +210,13 @@ class CurveReader:
                 limits.append(_brent(h_scalar, *sorted((near, float(xs[k])))))
             else:
                 limits.append(self.limit_beyond(direction, y0, m))
-        lo_x = math.nan if limits[0] is None else limits[0]
+        at_edge = limits[0] is None and bool(self.holds_at_edge(y0, m)[0])
+        lo_x = 0.0 if at_edge else math.nan if limits[0] is None else limits[0]
         hi_x = math.nan if limits[1] is None else limits[1]
-        if limits[0] is None or limits[1] is None:
+        if math.isnan(lo_x) or limits[1] is None:
             return lo_x, hi_x, "interval_unbounded"
+        if at_edge:
+            return lo_x, hi_x, "interval_at_domain_edge"
         if lo_x < self.lo or hi_x > self.hi:
             return lo_x, hi_x, "interval_exceeds_range"
         elsewhere = (self.grid < lo_x) | (self.grid > hi_x)

@@ -47,6 +47,8 @@ STATUSES = {
     "multiple_roots_in_range": "Several x inside the calibrated range give this y.",
     "interval_exceeds_range": "The estimate is in range but the interval reaches outside it.",
     "interval_unbounded": "The band is too wide for the slope: the interval has no finite limit.",
+    "interval_at_domain_edge": "The band holds the reading down to x = 0, the smallest x the "
+                               "curve is defined at: the lower limit is cut there (0).",
     "interval_disjoint": "The band also contains the reading at other x inside the range.",
     "interval_undefined": "No residual df (sigma undefined), or unresolvable in double precision.",
 }
@@ -200,8 +202,12 @@ def _read_all(curve: CalibrationCurve, y, y_t, m, w=None) -> tuple[InverseEstima
                                        picks[i], others))
             continue
         lo, hi, band_status = limits[i]
+        if band_status != "interval_undefined" and curve.at_domain_edge(lo, hi):
+            band_status = "interval_at_domain_edge"  # x cannot go below 0: cut there
         status = band_status if picks[i] == "ok" else picks[i]
         x_hat, lo_x, hi_x = curve.to_x([chosen[i], lo, hi])
+        if band_status == "interval_at_domain_edge":
+            lo_x = 0.0
         if not transforms.is_increasing(curve.fitted.transform_x):
             lo_x, hi_x = hi_x, lo_x
         out.append(InverseEstimate(float(y[i]), int(m[i]), x_hat, lo_x, hi_x, status, others))

@@ -66,6 +66,17 @@ class CalibrationCurve:
         """Whether t lies in the calibrated range (within the tolerance)."""
         return self.t_lo - self.tol <= t <= self.t_hi + self.tol
 
+    def at_domain_edge(self, lo: float, hi: float) -> bool:
+        """Whether the lower limit ``lo`` (t; NaN: none found) lies at or past x = 0, the edge
+        of an x transform defined for x > 0 (log, log10) or x >= 0 (sqrt), with a finite
+        upper limit ``hi``: the limit is then cut at x = 0 (``interval_at_domain_edge``)."""
+        name = self.fitted.transform_x
+        if name not in ("log", "log10", "sqrt") or not math.isfinite(hi):
+            return False
+        if math.isnan(lo):  # the band holds the reading down to t = -far: to x -> 0
+            return True
+        return name == "sqrt" and self.fitted.x_shift + self.fitted.x_scale * lo < 0.0
+
     def gap(self, t, y0, m):
         """(f(t) - y0)^2 - (q sigma)^2 (1/m + w(t)): <= 0 where the band contains y0."""
         return (P.polyval(t, self.coef) - y0) ** 2 - self.qs ** 2 * (1.0 / m + P.polyval(t, self.w))
