@@ -10,7 +10,7 @@ import math
 
 from marshmallow import Schema, ValidationError, fields, validate, validates_schema
 
-from schemas.common import StrictSchema, integer, number, text
+from schemas.common import NoticeSchema, StrictSchema, integer, number, text
 from schemas.curve_document import WorkingRangeSchema
 from schemas.document import FittedModelField
 from schemas.fields import (
@@ -139,6 +139,11 @@ class PredictResponseSchema(Schema):
     extrapolated_count = integer("How many x lie outside the fitted data range.")
     undefined_count = integer("How many x the fitted curve has no finite value at (an equation "
                               "undefined or overflowing there): their rows are null.")
+    intervals_withheld = fields.Nested(NoticeSchema, metadata={
+        "description": "Present only when the stored fit has no residual variance (sigma = 0: "
+                       "the curve passes through every point): code no_residual_variance; "
+                       "fit is given, but se_mean and every limit are null, since a "
+                       "zero-width band would claim a certainty the data cannot give."})
 
 
 class ReplicatesField(fields.Field):
@@ -214,7 +219,8 @@ class EstimateSchema(Schema):
                   "no_real_root, roots_unresolved, outside_range, multiple_roots_in_range, "
                   "interval_exceeds_range, interval_disjoint, interval_unbounded, "
                   "interval_at_domain_edge (lower cut at x = 0, the curve's domain edge), "
-                  "interval_undefined (meanings in docs/fitted-model.md).")
+                  "interval_undefined, no_residual_variance (an exact fit, sigma = 0: x "
+                  "without limits) (meanings in docs/fitted-model.md).")
     other_roots = fields.List(fields.Float(), metadata={
         "description": "Other real x that give this y (not chosen), ascending."})
     sensitivity = number("Slope dy/dx of the curve at x (null when x is null).")

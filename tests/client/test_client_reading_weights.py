@@ -42,3 +42,15 @@ def test_bad_weights_come_back_as_a_named_error(inprocess_client):
     with pytest.raises(UnprocessableInput) as caught:
         inprocess_client.invert(fit.fitted_model, [0.25, 0.5], weights=[1.0, -1.0])
     assert "weights[1]" in caught.value.field_errors
+
+
+def test_an_exact_fit_predicts_without_limits_and_says_why(inprocess_client):
+    # y = 1 + 2x through five points: sigma = 0; the fitted value by hand is 1 + 2 * 1.5
+    fit = inprocess_client.fit([0, 1, 2, 3, 4], [1, 3, 5, 7, 9], model={"degree": 1})
+    result = inprocess_client.predict(fit.fitted_model, [1.5])
+    (row,) = result.predictions
+    assert row.fit == pytest.approx(4.0, rel=1e-12)
+    assert row.obs_lower is None and row.se_mean is None
+    assert result.intervals_withheld.code == "no_residual_variance"
+    (estimate,) = inprocess_client.invert(fit.fitted_model, [4.0]).estimates
+    assert estimate.status == "no_residual_variance" and estimate.lower is None

@@ -23,6 +23,7 @@ import math
 import numpy as np
 
 from service.core.models.brent_batch import brent_many
+from service.core.models.exact_fit import NO_RESIDUAL_VARIANCE, no_residual_variance
 from service.core.models.inverse import InverseEstimate
 from service.core.models.ladder_batch import first_crossings
 
@@ -151,6 +152,9 @@ def _intervals(reader, x_hat, y, m):
     lower, upper = np.full(count, math.nan), np.full(count, math.nan)
     status = np.full(count, "interval_undefined", dtype=object)
     fallback = np.zeros(count, dtype=bool)
+    if no_residual_variance(reader.fitted):  # an exact fit: no interval can be given
+        status[:] = NO_RESIDUAL_VARIANCE
+        return lower, upper, status, fallback
     for k in np.unique(m):
         band_lo, band_up = reader.band(float(k))
         rows = np.flatnonzero(m == k)

@@ -17,6 +17,7 @@ import math
 import numpy as np
 from scipy import optimize, special
 
+from service.core.models.exact_fit import NO_RESIDUAL_VARIANCE, no_residual_variance
 from service.core.models.inverse import InverseEstimate
 from service.core.nonlinear.analysis import predict
 from service.core.nonlinear.builtin.domain import curve_needs_nonnegative_x
@@ -189,6 +190,8 @@ class CurveReader:
                                lambda x: self.outside_band(x, y0, m))
 
     def _interval(self, x_hat: float, y0: float, m: int) -> tuple[float, float, str]:
+        if no_residual_variance(self.fitted):  # an exact fit: no interval can be given
+            return math.nan, math.nan, NO_RESIDUAL_VARIANCE
         lower, upper = self.band(m)
         if not (np.all(np.isfinite(lower)) and np.all(np.isfinite(upper))):
             return math.nan, math.nan, "interval_undefined"

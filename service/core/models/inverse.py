@@ -51,6 +51,8 @@ STATUSES = {
                                "curve is defined at: the lower limit is cut there (0).",
     "interval_disjoint": "The band also contains the reading at other x inside the range.",
     "interval_undefined": "No residual df (sigma undefined), or unresolvable in double precision.",
+    "no_residual_variance": "The fit passes through every point (sigma = 0): x is the curve's "
+                            "reading, but no interval can be given (lower and upper null).",
 }
 
 

@@ -17,6 +17,7 @@ from scipy import optimize, special
 
 from service.core.checks.known_sd import KNOWN_SD, normal_quantile
 from service.core.data import transforms
+from service.core.models.exact_fit import NO_RESIDUAL_VARIANCE
 from service.core.models.inverse_roots import changes_sign, real_roots
 from service.core.results import FittedPolynomial
 
@@ -86,6 +87,8 @@ class CalibrationCurve:
         count = len(t_hat)
         if not math.isfinite(self.qs) or count == 0:
             return [math.nan] * count, [math.nan] * count, ["interval_undefined"] * count
+        if self.qs == 0.0:  # sigma = 0 (an exact fit): a zero-width interval would mislead
+            return [math.nan] * count, [math.nan] * count, [NO_RESIDUAL_VARIANCE] * count
         m = m.astype(float)
         rise = np.sign(P.polyval(t_hat, self.slope))
         rise[rise == 0] = 1.0
