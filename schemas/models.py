@@ -213,7 +213,8 @@ class EstimateSchema(Schema):
     replicates = integer("m: readings averaged into y.")
     x = number("Estimated x; null unless exactly one root lies in the calibrated range.")
     lower = number("Lower limit of the calibration interval (classical: inverted prediction "
-                   "band for the mean of m readings).")
+                   "band for the mean of m readings, each of variance sigma^2 / weight; "
+                   "weight 1 when the request sends no weights).")
     upper = number("Upper limit of the calibration interval.")
     status = text("ok, or why there is no single trustworthy in-range answer: not_monotone, "
                   "no_real_root, roots_unresolved, outside_range, multiple_roots_in_range, "
