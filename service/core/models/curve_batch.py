@@ -155,20 +155,30 @@ def _intervals(reader, x_hat, y, m):
     if no_residual_variance(reader.fitted):  # an exact fit: no interval can be given
         status[:] = NO_RESIDUAL_VARIANCE
         return lower, upper, status, fallback
-    for k in np.unique(m):
+    whole = m == np.round(m)
+    for k in np.unique(m[whole]):  # whole counts: one band each
         band_lo, band_up = reader.band(float(k))
         rows = np.flatnonzero(m == k)
         if np.all(np.isfinite(band_lo)) and np.all(np.isfinite(band_up)):
             lower[rows], upper[rows], status[rows], fallback[rows] = _band_limits(
-                reader, band_lo, band_up, x_hat[rows], y[rows], m[rows])
+                reader, band_lo[None, :], band_up[None, :], x_hat[rows], y[rows], m[rows])
+    weighted = np.flatnonzero(~whole)  # m times a weight: one table row per reading
+    if weighted.size:
+        band_lo, band_up = reader.band_table(m[weighted])
+        good = np.isfinite(band_lo).all(axis=1) & np.isfinite(band_up).all(axis=1)
+        rows = weighted[good]
+        if rows.size:
+            lower[rows], upper[rows], status[rows], fallback[rows] = _band_limits(
+                reader, band_lo[good], band_up[good], x_hat[rows], y[rows], m[rows])
     return lower, upper, status, fallback
 
 
 def _band_limits(reader, band_lo, band_up, x_hat, y, m):
-    """Limits and status for readings sharing one (finite) band. ``h > 0`` (the band
+    """Limits and status for readings sharing one (finite) band (a row of ``band_lo`` and
+    ``band_up``), or each with its own (one row per reading). ``h > 0`` (the band
     leaves y0) is, exactly, ``lower > y0 or upper < y0``, taken as a table of booleans."""
     grid, size = reader.grid, reader.grid.size
-    leaves = (band_lo[None, :] > y[:, None]) | (band_up[None, :] < y[:, None])
+    leaves = (band_lo > y[:, None]) | (band_up < y[:, None])  # bands: one row, or per reading
     columns = np.arange(size)[None, :]
     nearest_left = np.searchsorted(grid, x_hat, side="left") - 1  # last grid x < x_hat
     nearest_right = np.searchsorted(grid, x_hat, side="right")  # first grid x > x_hat

@@ -57,6 +57,7 @@ class CurveReader:
                                          or (np.all(inner < 0) and np.all(ends <= 0))))
         self.turning_points = self._turning(slope) if finite else ()
         self._bands: dict[float, tuple[np.ndarray, np.ndarray]] = {}
+        self._grid_fit: tuple[np.ndarray, np.ndarray] | None = None
         self.crit = _critical_value(fitted, level)
         # x = 0 is the domain edge of a log-dose (or power-of-x) curve: nothing lies below
         self.nonnegative = curve_needs_nonnegative_x(fitted.family, fitted.expression)
@@ -138,27 +139,32 @@ class CurveReader:
 
     # --- the interval
     def band(self, m: float) -> tuple[np.ndarray, np.ndarray]:
-        """The band for the mean of ``m`` new readings on the grid, computed once per ``m``.
-
-        Parameters
-        ----------
-        m : float
-            Replicate count of the readings times their weight (the band's variance of a
-            new mean is ``noise_variance / m``).
-
-        Returns
-        -------
-        lower, upper : ndarray
-            The observation band's limits at each point of :attr:`grid`
-            (:func:`~service.core.nonlinear.analysis.predict` at the reader's level);
-            NaN where the curve or its band is not finite.
-        """
+        """The observation band's ``lower, upper`` on :attr:`grid` for the mean of ``m``
+        new readings (``m``: replicate count times weight; variance ``noise_variance / m``),
+        computed once per ``m`` (:func:`~service.core.nonlinear.analysis.predict` at the
+        reader's level); NaN where the curve or its band is not finite."""
         if m not in self._bands:
-            whole = float(m).is_integer()
-            band = predict(self.fitted, self.grid, level=self.level, m=int(m) if whole else 1,
-                           weights=None if whole else np.full(self.grid.size, float(m)))
-            self._bands[m] = (np.asarray(band.obs_lower), np.asarray(band.obs_upper))
+            if float(m).is_integer():
+                band = predict(self.fitted, self.grid, level=self.level, m=int(m))
+                self._bands[m] = (np.asarray(band.obs_lower), np.asarray(band.obs_upper))
+            else:  # a weighted reading: the table's formula (batched and single alike)
+                lower, upper = self.band_table(np.array([float(m)]))
+                self._bands[m] = (lower[0], upper[0])
         return self._bands[m]
+
+    def band_table(self, m: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """The bands for many (weighted) replicate counts at once: one row per ``m``, one
+        column per grid point, ``fit -+ crit sqrt(se_fit^2 + noise_variance / m)`` (the
+        formula of :func:`~service.core.nonlinear.analysis.predict`, from its fit and
+        se_fit on the grid, computed once)."""
+        if self._grid_fit is None:
+            at_grid = predict(self.fitted, self.grid, level=self.level, m=1)
+            self._grid_fit = (np.asarray(at_grid.fit), np.asarray(at_grid.se_mean))
+        fit, se = self._grid_fit
+        with np.errstate(all="ignore"):
+            spread = self.crit * np.sqrt(se[None, :] ** 2
+                                         + self.fitted.noise_variance / m[:, None])
+        return fit[None, :] - spread, fit[None, :] + spread
 
     def outside_band(self, x, y0: float, m: int) -> np.ndarray:
         """``max(lower - y0, y0 - upper)`` of the band for the mean of m readings at each x:
