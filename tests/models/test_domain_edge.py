@@ -101,3 +101,14 @@ def test_sqrt_x_polynomial_cuts_the_lower_limit_at_zero():
     assert roots[0] < 0 < roots[1]
     assert row.status == "interval_at_domain_edge" and row.lower == 0.0
     assert row.upper == pytest.approx(roots[1] ** 2, rel=1e-9)
+
+
+def test_both_families_cut_the_lower_limit_even_without_an_upper_one():
+    # a reading of negligible weight (variance sigma^2 / 1e-300): the band holds it
+    # everywhere, so no upper limit exists (interval_unbounded), yet x >= 0 still holds
+    rng = np.random.default_rng(3)
+    x = np.repeat([0.01, 0.1, 0.5, 1.0, 2.0, 5.0, 10.0], 3)
+    y = 1 + 0.3 * np.log(x) + rng.normal(0, 0.03, x.size)
+    line = fit_series(x, y, model=ModelSpec(degree=1, transform_x="log")).model
+    (row,) = invert(line, [0.5], weights=[1e-300]).estimates
+    assert row.status == "interval_unbounded" and row.lower == 0.0 and math.isnan(row.upper)

@@ -33,6 +33,7 @@ import numpy as np
 from service.core.data import transforms
 from service.core.data.reading_weights import reading_weights
 from service.core.errors import DataError, SpecError
+from service.core.models.exact_fit import NO_RESIDUAL_VARIANCE
 from service.core.models.inverse_band import CalibrationCurve
 from service.core.models.inverse_roots import batch_roots
 from service.core.results import FittedPolynomial
@@ -204,11 +205,13 @@ def _read_all(curve: CalibrationCurve, y, y_t, m, w=None) -> tuple[InverseEstima
                                        picks[i], others))
             continue
         lo, hi, band_status = limits[i]
-        if band_status != "interval_undefined" and curve.at_domain_edge(lo, hi):
-            band_status = "interval_at_domain_edge"  # x cannot go below 0: cut there
+        edge = band_status not in ("interval_undefined", NO_RESIDUAL_VARIANCE) and \
+            curve.at_domain_edge(lo)  # x cannot go below 0: the lower limit is cut there
+        if edge and band_status != "interval_unbounded":  # (unbounded: no upper limit)
+            band_status = "interval_at_domain_edge"
         status = band_status if picks[i] == "ok" else picks[i]
         x_hat, lo_x, hi_x = curve.to_x([chosen[i], lo, hi])
-        if band_status == "interval_at_domain_edge":
+        if edge:
             lo_x = 0.0
         if not transforms.is_increasing(curve.fitted.transform_x):
             lo_x, hi_x = hi_x, lo_x

@@ -67,12 +67,12 @@ class CalibrationCurve:
         """Whether t lies in the calibrated range (within the tolerance)."""
         return self.t_lo - self.tol <= t <= self.t_hi + self.tol
 
-    def at_domain_edge(self, lo: float, hi: float) -> bool:
+    def at_domain_edge(self, lo: float) -> bool:
         """Whether the lower limit ``lo`` (t; NaN: none found) lies at or past x = 0, the edge
-        of an x transform defined for x > 0 (log, log10) or x >= 0 (sqrt), with a finite
-        upper limit ``hi``: the limit is then cut at x = 0 (``interval_at_domain_edge``)."""
+        of an x transform defined for x > 0 (log, log10) or x >= 0 (sqrt): the limit is then
+        cut at x = 0 (status ``interval_at_domain_edge`` when the upper limit is finite)."""
         name = self.fitted.transform_x
-        if name not in ("log", "log10", "sqrt") or not math.isfinite(hi):
+        if name not in ("log", "log10", "sqrt"):
             return False
         if math.isnan(lo):  # the band holds the reading down to t = -far: to x -> 0
             return True
