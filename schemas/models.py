@@ -8,9 +8,9 @@ from __future__ import annotations
 
 import math
 
-from marshmallow import Schema, ValidationError, fields, validate
+from marshmallow import Schema, ValidationError, fields, validate, validates_schema
 
-from schemas.common import StrictSchema, integer, number, text
+from schemas.common import NoticeSchema, StrictSchema, integer, number, text
 from schemas.curve_document import WorkingRangeSchema
 from schemas.document import FittedModelField
 from schemas.fields import (
@@ -25,6 +25,40 @@ _LEVEL = validate.Range(0, 1, min_inclusive=False, max_inclusive=False,
                         error="Must be strictly between 0 and 1, e.g. 0.95.")
 _RISK = validate.Range(0, 0.5, min_inclusive=False, max_inclusive=False,
                        error="Must be strictly between 0 and 0.5, e.g. 0.05.")
+
+
+_WEIGHTS_FIX = ("Send one weight per {what}, each finite and > 0: the weight a new reading "
+                "carries on the fit's weight scale (e.g. 1/y^2 for a fit weighted 1/y^2; "
+                "1/sd^2 of the reading for a fit with known standard deviations), or leave "
+                "weights out for weight 1.")
+
+
+def _weights_field(what: str) -> NumberArray:
+    return NumberArray(load_default=None, allow_none=True, metadata={"description": (
+        f"Optional, one per {what}: the weight a new reading there carries on the fit's weight "
+        "scale (the variance of one reading is sigma^2 / weight). A fit weighted 1/y^2 "
+        "stores sigma^2 at weight 1, i.e. at y = 1: send 1/y^2 of each reading for its own "
+        "variance. With known standard deviations (weighting known_sd, sigma = 1) send "
+        "1/sd^2 of the new reading in the fit's units. Default: weight 1 for every "
+        "reading, which is right only for an unweighted fit (or a reading of weight 1).")},
+        error_messages={"item_null": "null is not a weight. Send a number > 0, or leave "
+                                     "weights out for weight 1."})
+
+
+def _check_weights(data: dict, what: str, count_field: str) -> None:
+    """weights: one finite positive number per value of ``count_field`` (422 naming
+    ``weights[i]`` otherwise)."""
+    weights = data.get("weights")
+    if weights is None or count_field not in data:
+        return
+    fix = _WEIGHTS_FIX.format(what=what)
+    if len(weights) != len(data[count_field]):
+        raise ValidationError(f"weights has {len(weights)} values for {len(data[count_field])} "
+                              f"{count_field} values. {fix}", "weights")
+    bad = [i for i, w in enumerate(weights.tolist()) if not (math.isfinite(w) and w > 0)]
+    if bad:
+        raise ValidationError({"weights": {bad[0]: [
+            f"weights[{bad[0]}] = {float(weights[bad[0]])!r} is not > 0. {fix}"]}})
 
 
 class PredictRequestSchema(StrictSchema):
@@ -42,6 +76,11 @@ class PredictRequestSchema(StrictSchema):
     replicates = StrictInteger(load_default=1, validate=validate.Range(
         min=1, error="Must be 1 or more."), metadata={"maximum": MAX_JSON_INTEGER,
         "description": "m: the observation band covers the mean of m future readings."})
+    weights = _weights_field("x")
+
+    @validates_schema
+    def _weights(self, data, **kwargs):
+        _check_weights(data, "x", "x")
 
 
 class PredictionRowSchema(Schema):
@@ -53,8 +92,9 @@ class PredictionRowSchema(Schema):
     mean_lower = number("Lower limit for the mean response.")
     mean_upper = number("Upper limit for the mean response.")
     obs_lower = number("Lower limit for the mean of `replicates` new readings, each of "
-                       "variance sigma^2 (weight 1 on a weighted fit's scale: with weights "
-                       "1/y^2, say, that is a reading's variance at y = 1 only).")
+                       "variance sigma^2 / weight (the request's weights; without them weight "
+                       "1, the variance sigma^2 of a reading of weight 1 on a weighted fit's "
+                       "scale: with weights 1/y^2, say, a reading's variance at y = 1 only).")
     obs_upper = number("Upper limit for the mean of `replicates` new readings (same "
                        "variance).")
     band_lower = number("Lower limit of the simultaneous (Working-Hotelling) band.")
@@ -99,6 +139,11 @@ class PredictResponseSchema(Schema):
     extrapolated_count = integer("How many x lie outside the fitted data range.")
     undefined_count = integer("How many x the fitted curve has no finite value at (an equation "
                               "undefined or overflowing there): their rows are null.")
+    intervals_withheld = fields.Nested(NoticeSchema, metadata={
+        "description": "Present only when the stored fit has no residual variance (sigma = 0: "
+                       "the curve passes through every point): code no_residual_variance; "
+                       "fit is given, but se_mean and every limit are null, since a "
+                       "zero-width band would claim a certainty the data cannot give."})
 
 
 class ReplicatesField(fields.Field):
@@ -137,8 +182,9 @@ class InvertRequestSchema(StrictSchema):
         "description": "The fitted_model document from a /v1/fit response, unchanged."})
     y = NumberArray(required=True, data=True, metadata={
         "description": "Observed readings (original y scale); each the mean of its replicates, "
-                       "each of variance sigma^2 (weight 1 on a weighted fit's scale; see "
-                       "docs/fitted-model.md, Limits and caveats)."}, error_messages={
+                       "each of variance sigma^2 / weight (the request's weights; weight 1 "
+                       "without them; see docs/fitted-model.md, Limits and caveats)."},
+        error_messages={
         "item_null": "null is not a reading. Remove it (this endpoint has no missing option).",
         "data_empty": "Empty array: send at least one reading to read x back from."})
     replicates = ReplicatesField(load_default=1)
@@ -153,6 +199,11 @@ class InvertRequestSchema(StrictSchema):
         error="Must be strictly between 0 and 1, e.g. 0.2 for 20%."), metadata={
         "description": "logistic4/logistic5: the CV limit of the working range (0.2 = 20%, "
                        "common practice in bioanalytical method validation)."})
+    weights = _weights_field("y")
+
+    @validates_schema
+    def _weights(self, data, **kwargs):
+        _check_weights(data, "reading", "y")
 
 
 class EstimateSchema(Schema):
@@ -162,12 +213,15 @@ class EstimateSchema(Schema):
     replicates = integer("m: readings averaged into y.")
     x = number("Estimated x; null unless exactly one root lies in the calibrated range.")
     lower = number("Lower limit of the calibration interval (classical: inverted prediction "
-                   "band for the mean of m readings).")
+                   "band for the mean of m readings, each of variance sigma^2 / weight; "
+                   "weight 1 when the request sends no weights).")
     upper = number("Upper limit of the calibration interval.")
     status = text("ok, or why there is no single trustworthy in-range answer: not_monotone, "
                   "no_real_root, roots_unresolved, outside_range, multiple_roots_in_range, "
                   "interval_exceeds_range, interval_disjoint, interval_unbounded, "
-                  "interval_undefined (meanings in docs/fitted-model.md).")
+                  "interval_at_domain_edge (lower cut at x = 0, the curve's domain edge), "
+                  "interval_undefined, no_residual_variance (an exact fit, sigma = 0: x "
+                  "without limits) (meanings in docs/fitted-model.md).")
     other_roots = fields.List(fields.Float(), metadata={
         "description": "Other real x that give this y (not chosen), ascending."})
     sensitivity = number("Slope dy/dx of the curve at x (null when x is null).")

@@ -183,25 +183,32 @@ class Client(Caller):
         return arrow.decode_tidy(payload, id=id)
 
     def predict(self, fitted_model: Mapping[str, Any] | FitResult, x: Sequence[float], *,
-                level: float | None = None, replicates: int | None = None) -> Predictions:
+                level: float | None = None, replicates: int | None = None,
+                weights: Sequence[float] | None = None) -> Predictions:
         """Predict at new x with a stored fitted-model document (``POST /v1/predict``).
 
         ``fitted_model`` is a :class:`FitResult` or its ``fitted_model`` (as stored, e.g.
         after ``json.loads``). ``replicates`` = m widens the observation band to cover the
-        mean of m future observations (default 1).
+        mean of m future observations (default 1). ``weights`` (one per x) is the weight a
+        new observation there carries on the fit's weight scale, its variance
+        sigma^2 / weight (e.g. 1/y^2 for a fit weighted 1/y^2; default 1).
         """
         body = {"fitted_model": document(fitted_model), "x": numbers(x, "x"),
-                **drop_none(level=level, replicates=replicates)}
+                **drop_none(level=level, replicates=replicates,
+                            weights=None if weights is None else numbers(weights, "weights"))}
         return build(Predictions, self._json("POST", "/v1/predict", body))
 
     def invert(self, fitted_model: Mapping[str, Any] | FitResult, y: Sequence[float], *,
                replicates: int | Sequence[int] | None = None, level: float | None = None,
                detection_alpha: float | None = None, detection_beta: float | None = None,
-               cv_limit: float | None = None) -> Estimates:
+               cv_limit: float | None = None, weights: Sequence[float] | None = None
+               ) -> Estimates:
         """Read x back from observed y (``POST /v1/invert``).
 
-        ``replicates`` is one count for every reading or one per reading; the detection
-        and working-range keywords are the request members of the same name.
+        ``replicates`` is one count for every reading or one per reading; ``weights`` (one
+        per reading, default 1) is each reading's weight on the fit's weight scale, its
+        variance sigma^2 / weight; the detection and working-range keywords are the request
+        members of the same name.
         """
         if replicates is not None and not isinstance(replicates, int):
             replicates = (numbers([replicates], "replicates")[0]   # one numpy count for all
@@ -210,7 +217,8 @@ class Client(Caller):
         body = {"fitted_model": document(fitted_model), "y": numbers(y, "y"),
                 **drop_none(replicates=replicates, level=level,
                             detection_alpha=detection_alpha, detection_beta=detection_beta,
-                            cv_limit=cv_limit)}
+                            cv_limit=cv_limit,
+                            weights=None if weights is None else numbers(weights, "weights"))}
         return build(Estimates, self._json("POST", "/v1/invert", body))
 
     def families(self) -> Families:

@@ -17,6 +17,7 @@ from schemas.models import (
 from service.api.error_docs import error_responses
 from service.core import family_of, predict, read_document
 from service.core.errors import SpecError
+from service.core.models.exact_fit import NO_RESIDUAL_VARIANCE, without_intervals
 
 blp = Blueprint("models", __name__, description="Predict and invert with a fitted-model document.")
 
@@ -42,13 +43,18 @@ def predict_view(body):
     """Predict with intervals at new x from a stored fitted model."""
     fitted = read_document(body["fitted_model"], field_prefix="fitted_model.")
     _check_count("x", len(body["x"]))
-    result = predict(fitted, body["x"], level=body["level"], m=body["replicates"])
+    result = without_intervals(fitted, predict(fitted, body["x"], level=body["level"],
+                                               m=body["replicates"], weights=body.get("weights")))
     columns = {name: getattr(result, name) for name in _PREDICT_COLUMNS}
     if columns["unbounded"] is None:  # a family that does not mark unbounded limits
         columns["unbounded"] = [False] * len(result.x)
-    return {"predictions": columns, "level": result.level, "replicates": body["replicates"],
-            "extrapolated_count": int(result.extrapolated.sum()),
-            "undefined_count": int(np.count_nonzero(~np.isfinite(result.fit)))}
+    answer = {"predictions": columns, "level": result.level, "replicates": body["replicates"],
+              "extrapolated_count": int(result.extrapolated.sum()),
+              "undefined_count": int(np.count_nonzero(~np.isfinite(result.fit)))}
+    withheld = [n for n in result.notices if n.code == NO_RESIDUAL_VARIANCE]
+    if withheld:  # written only when it applies (other answers are unchanged)
+        answer["intervals_withheld"] = {"code": withheld[0].code, "message": withheld[0].message}
+    return answer
 
 
 @blp.route("/v1/invert", methods=["POST"])
@@ -65,7 +71,8 @@ def invert_view(body):
         raise SpecError(f"The {entry.name} family cannot be read backwards.",
                         field="fitted_model.family", fix="Invert a model of a family that "
                         "GET /v1/families lists as invertible.")
-    result = entry.invert(fitted, body["y"], replicates=body["replicates"], level=body["level"])
+    result = entry.invert(fitted, body["y"], replicates=body["replicates"], level=body["level"],
+                          weights=body.get("weights"))
     slopes = _slopes(entry.sensitivity, fitted, [e.x for e in result.estimates])
     columns = {name: [getattr(e, name) for e in result.estimates]
                for name in ("y", "replicates", "x", "lower", "upper", "status", "other_roots")}

@@ -3,7 +3,7 @@
 Public surface (import from here, not from submodules)::
 
     fit_series(x, y, weights=None, *, model=ModelSpec(), options=FitOptions()) -> FitReport
-    predict(fitted, x, *, level=None, m=1) -> Prediction
+    predict(fitted, x, *, level=None, m=1, weights=None) -> Prediction
     read_document(doc, *, field_prefix="") -> fitted model
     FAMILIES, family(name), family_of(fitted)        the model-family registry
 

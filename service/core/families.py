@@ -58,13 +58,13 @@ class Family:
     check_spec : callable
         ``check_spec(model, options)``: raises ``SpecError`` naming the field.
     predict : callable
-        ``predict(fitted, x, *, level=None, m=1) -> Prediction``.
+        ``predict(fitted, x, *, level=None, m=1, weights=None) -> Prediction``.
     write_document, read_document : callable or None
         ``write_document(fitted) -> dict`` and
         ``read_document(doc, *, field_prefix="") -> fitted``; None while the
         family has no portable document.
     invert : callable or None
-        ``invert(fitted, y, *, replicates=1, level=None)``; None when the
+        ``invert(fitted, y, *, replicates=1, level=None, weights=None)``; None when the
         family cannot be read backwards.
     sensitivity, figures_of_merit : callable or None
         Calibration slope ``dy/dx`` at x, and detection/quantification limits.
@@ -190,9 +190,11 @@ def fit_series(x, y, weights=None, *, model: ModelSpec = _DEFAULT_MODEL,
     return family(model.family).fit(x, y, weights, model=model, options=options)
 
 
-def predict(fitted: Any, x, *, level: float | None = None, m: int = 1) -> Prediction:
-    """Predictions with bands at ``x`` from any family's fitted model."""
-    return family_of(fitted).predict(fitted, x, level=level, m=m)
+def predict(fitted: Any, x, *, level: float | None = None, m: int = 1,
+            weights=None) -> Prediction:
+    """Predictions with bands at ``x`` from any family's fitted model; ``weights``: the
+    weight of a new observation at each x (default 1)."""
+    return family_of(fitted).predict(fitted, x, level=level, m=m, weights=weights)
 
 
 def read_document(doc: Any, *, field_prefix: str = "") -> Any:

@@ -7,6 +7,7 @@ from dataclasses import dataclass, field
 from typing import Any
 
 from curvewise_client.results.base import empty_mapping, of, register, rows
+from curvewise_client.results.fit import Notice
 from curvewise_client.results.plain import Result
 
 
@@ -36,6 +37,7 @@ class Predictions(Result):
     replicates: int | None = None
     extrapolated_count: int | None = None
     undefined_count: int | None = None
+    intervals_withheld: Notice | None = None  # an exact fit (sigma = 0): limits are None
     raw: Mapping[str, Any] = field(default_factory=empty_mapping)
 
 
@@ -85,5 +87,5 @@ class Estimates(Result):
 
 
 
-register(Predictions, predictions=rows(of(PredictionRow)))
+register(Predictions, predictions=rows(of(PredictionRow)), intervals_withheld=of(Notice))
 register(Estimates, estimates=rows(of(Estimate)), working_range=of(WorkingRange))

@@ -23,6 +23,7 @@ import math
 import numpy as np
 
 from service.core.models.brent_batch import brent_many
+from service.core.models.exact_fit import NO_RESIDUAL_VARIANCE, no_residual_variance
 from service.core.models.inverse import InverseEstimate
 from service.core.models.ladder_batch import first_crossings
 
@@ -30,7 +31,8 @@ CHUNK = 256  # readings per block: a few (CHUNK x grid) tables, 1 MB per boolean
 BATCH_FROM = 2  # fewer readings than this take the scalar search (same answers, less set-up)
 
 
-def read_all(reader, y: np.ndarray, m: np.ndarray) -> tuple[InverseEstimate, ...]:
+def read_all(reader, y: np.ndarray, m: np.ndarray, w: np.ndarray | None = None
+             ) -> tuple[InverseEstimate, ...]:
     """Every reading read back (estimate, interval, status) as the scalar reader does.
 
     Parameters
@@ -42,21 +44,26 @@ def read_all(reader, y: np.ndarray, m: np.ndarray) -> tuple[InverseEstimate, ...
         Finite readings.
     m : ndarray of int
         Replicate count of each reading.
+    w : ndarray, optional
+        Weight of each reading (default 1): the bands use ``m w``.
 
     Returns
     -------
     tuple of InverseEstimate
         One per reading, in order.
     """
+    w = np.ones(len(y)) if w is None else w
     if len(y) < BATCH_FROM:  # one reading: the scalar search costs less than the set-up
-        return tuple(reader.read(float(v), int(k)) for v, k in zip(y, m, strict=True))
+        return tuple(reader.read(float(v), int(k), float(g))
+                     for v, k, g in zip(y, m, w, strict=True))
     out: list[InverseEstimate] = []
     for start in range(0, len(y), CHUNK):
-        out.extend(_read_block(reader, y[start:start + CHUNK], m[start:start + CHUNK]))
+        block = slice(start, start + CHUNK)
+        out.extend(_read_block(reader, y[block], m[block], w[block]))
     return tuple(out)
 
 
-def _read_block(reader, y: np.ndarray, m: np.ndarray) -> list[InverseEstimate]:
+def _read_block(reader, y: np.ndarray, m: np.ndarray, w: np.ndarray) -> list[InverseEstimate]:
     x_hat, settled, unreached = _estimates(reader, y)
     answers: list[InverseEstimate | None] = [None] * len(y)
     beyond, found = _outside_roots(reader, y[unreached])
@@ -68,7 +75,8 @@ def _read_block(reader, y: np.ndarray, m: np.ndarray) -> list[InverseEstimate]:
                                          status, others)
     rows = np.flatnonzero(settled)
     if rows.size:
-        lower, upper, status, fallback = _intervals(reader, x_hat[rows], y[rows], m[rows])
+        lower, upper, status, fallback = _intervals(reader, x_hat[rows], y[rows],
+                                                    m[rows] * w[rows])
         for k, j in enumerate(rows):
             if not fallback[k]:
                 final = status[k] if reader.monotone else "not_monotone"
@@ -76,7 +84,7 @@ def _read_block(reader, y: np.ndarray, m: np.ndarray) -> list[InverseEstimate]:
                                              float(lower[k]), float(upper[k]), final, ())
     for j, answer in enumerate(answers):
         if answer is None:  # several roots in the range, or a batched search failed
-            answers[j] = reader.read(float(y[j]), int(m[j]))
+            answers[j] = reader.read(float(y[j]), int(m[j]), float(w[j]))
     return answers
 
 
@@ -139,25 +147,38 @@ def _grid_crossings(values: np.ndarray, y: np.ndarray, table: bool = False):
 def _intervals(reader, x_hat, y, m):
     """Interval limits and band status of each estimate; ``fallback`` where a batched
     search failed (the reading is redone by the scalar path). Readings are taken by
-    replicate count (one band each)."""
+    replicate count times weight ``m`` (one band each)."""
     count = y.size
     lower, upper = np.full(count, math.nan), np.full(count, math.nan)
     status = np.full(count, "interval_undefined", dtype=object)
     fallback = np.zeros(count, dtype=bool)
-    for k in np.unique(m):
-        band_lo, band_up = reader.band(int(k))
+    if no_residual_variance(reader.fitted):  # an exact fit: no interval can be given
+        status[:] = NO_RESIDUAL_VARIANCE
+        return lower, upper, status, fallback
+    whole = m == np.round(m)
+    for k in np.unique(m[whole]):  # whole counts: one band each
+        band_lo, band_up = reader.band(float(k))
         rows = np.flatnonzero(m == k)
         if np.all(np.isfinite(band_lo)) and np.all(np.isfinite(band_up)):
             lower[rows], upper[rows], status[rows], fallback[rows] = _band_limits(
-                reader, band_lo, band_up, x_hat[rows], y[rows], m[rows])
+                reader, band_lo[None, :], band_up[None, :], x_hat[rows], y[rows], m[rows])
+    weighted = np.flatnonzero(~whole)  # m times a weight: one table row per reading
+    if weighted.size:
+        band_lo, band_up = reader.band_table(m[weighted])
+        good = np.isfinite(band_lo).all(axis=1) & np.isfinite(band_up).all(axis=1)
+        rows = weighted[good]
+        if rows.size:
+            lower[rows], upper[rows], status[rows], fallback[rows] = _band_limits(
+                reader, band_lo[good], band_up[good], x_hat[rows], y[rows], m[rows])
     return lower, upper, status, fallback
 
 
 def _band_limits(reader, band_lo, band_up, x_hat, y, m):
-    """Limits and status for readings sharing one (finite) band. ``h > 0`` (the band
+    """Limits and status for readings sharing one (finite) band (a row of ``band_lo`` and
+    ``band_up``), or each with its own (one row per reading). ``h > 0`` (the band
     leaves y0) is, exactly, ``lower > y0 or upper < y0``, taken as a table of booleans."""
     grid, size = reader.grid, reader.grid.size
-    leaves = (band_lo[None, :] > y[:, None]) | (band_up[None, :] < y[:, None])
+    leaves = (band_lo > y[:, None]) | (band_up < y[:, None])  # bands: one row, or per reading
     columns = np.arange(size)[None, :]
     nearest_left = np.searchsorted(grid, x_hat, side="left") - 1  # last grid x < x_hat
     nearest_right = np.searchsorted(grid, x_hat, side="right")  # first grid x > x_hat
@@ -183,6 +204,11 @@ def _band_limits(reader, band_lo, band_up, x_hat, y, m):
         need = np.flatnonzero(need & ~failed)
         limit[need], ok = _limits_beyond(reader, direction, y[need], m[need])
         failed[need] |= ~ok
+    # no lower crossing down to x = 0 on a curve defined for x >= 0: cut at that edge
+    open_low = np.flatnonzero(np.isnan(lo_x) & ~failed)
+    at_edge = np.zeros(y.size, dtype=bool)
+    at_edge[open_low] = reader.holds_at_edge(y[open_low], m[open_low])
+    lo_x[at_edge] = 0.0
     # the band contains y0 somewhere outside [lo_x, hi_x]: at its first or last such point
     inside = ~leaves
     first_in = np.argmax(inside, axis=1)
@@ -192,7 +218,8 @@ def _band_limits(reader, band_lo, band_up, x_hat, y, m):
         exceeds = (lo_x < reader.lo) | (hi_x > reader.hi)
     unbounded = np.isnan(lo_x) | np.isnan(hi_x)
     status = np.where(unbounded, "interval_unbounded", np.where(
-        exceeds, "interval_exceeds_range", np.where(disjoint, "interval_disjoint", "ok")))
+        at_edge, "interval_at_domain_edge", np.where(
+            exceeds, "interval_exceeds_range", np.where(disjoint, "interval_disjoint", "ok"))))
     return lo_x, hi_x, status.astype(object), failed
 
 

@@ -67,6 +67,10 @@ def _figures(fitted: FittedCurve, alpha: float, beta: float) -> CalibrationFigur
     if fitted.weighted or fitted.df_residual < 1 or not math.isfinite(fitted.sigma):
         return _unavailable(fitted, "Figures of merit need an unweighted fit with residual "
                             "degrees of freedom.", alpha, beta)
+    if fitted.sigma == 0.0:
+        return _unavailable(fitted, "The fit passes through every point (sigma = 0): no "
+                            "estimate of the noise, so detection and quantification limits "
+                            "cannot be given.", alpha, beta)
     if not fitted.x_max > 0:
         return _unavailable(fitted, "The calibrated range has no positive x.", alpha, beta)
     top = fitted.x_max

@@ -32,6 +32,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from service.core.data.reading_weights import reading_weights
 from service.core.errors import DataError, SpecError
 from service.core.models.curve_batch import read_all
 from service.core.models.curve_reader import CurveReader, sensitivity
@@ -41,8 +42,8 @@ from service.core.nonlinear.report import FittedCurve
 __all__ = ["invert_curve", "sensitivity"]
 
 
-def invert_curve(fitted: FittedCurve, y, *, replicates=1, level: float | None = None
-                 ) -> Inversion:
+def invert_curve(fitted: FittedCurve, y, *, replicates=1, level: float | None = None,
+                 weights=None) -> Inversion:
     """Estimate x for each observed y, with classical calibration intervals.
 
     Parameters
@@ -55,6 +56,9 @@ def invert_curve(fitted: FittedCurve, y, *, replicates=1, level: float | None = 
         ``m`` for every reading, or one count per reading (>= 1).
     level : float, optional
         Interval level; defaults to the fit's level.
+    weights : array_like, optional
+        The weight of each reading on the fit's weight scale (default 1): each of its
+        ``m`` readings has variance ``noise_variance / weight``.
 
     Returns
     -------
@@ -66,7 +70,7 @@ def invert_curve(fitted: FittedCurve, y, *, replicates=1, level: float | None = 
     SpecError
         Bad level, replicates, or a range of a single point.
     DataError
-        Non-finite readings.
+        Non-finite readings, or weights not one finite positive number per reading.
     """
     level = fitted.level if level is None else float(level)
     if not 0 < level < 1:
@@ -81,8 +85,9 @@ def invert_curve(fitted: FittedCurve, y, *, replicates=1, level: float | None = 
         raise DataError(f"y[{bad}] is not a finite number.", field=f"y[{bad}]",
                         fix="Send finite readings only.")
     m = _replicates(replicates, len(y))
+    w = reading_weights(weights, len(y))
     with np.errstate(all="ignore"):
         reader = CurveReader(fitted, level)
-        estimates = read_all(reader, y, np.asarray(m))
+        estimates = read_all(reader, y, np.asarray(m), w)
     return Inversion(estimates, level, reader.monotone, reader.turning_points,
                      fitted.x_min, fitted.x_max)

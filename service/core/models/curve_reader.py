@@ -17,8 +17,10 @@ import math
 import numpy as np
 from scipy import optimize, special
 
+from service.core.models.exact_fit import NO_RESIDUAL_VARIANCE, no_residual_variance
 from service.core.models.inverse import InverseEstimate
 from service.core.nonlinear.analysis import predict
+from service.core.nonlinear.builtin.domain import curve_needs_nonnegative_x
 from service.core.nonlinear.problem import MODEL_FAILURES
 from service.core.nonlinear.report import FittedCurve
 
@@ -54,8 +56,11 @@ class CurveReader:
         self.monotone = bool(finite and ((np.all(inner > 0) and np.all(ends >= 0))
                                          or (np.all(inner < 0) and np.all(ends <= 0))))
         self.turning_points = self._turning(slope) if finite else ()
-        self._bands: dict[int, tuple[np.ndarray, np.ndarray]] = {}
+        self._bands: dict[float, tuple[np.ndarray, np.ndarray]] = {}
+        self._grid_fit: tuple[np.ndarray, np.ndarray] | None = None
         self.crit = _critical_value(fitted, level)
+        # x = 0 is the domain edge of a log-dose (or power-of-x) curve: nothing lies below
+        self.nonnegative = curve_needs_nonnegative_x(fitted.family, fitted.expression)
 
     def f(self, x) -> np.ndarray:
         return self.fitted.model.values(np.atleast_1d(np.asarray(x, dtype=float)),
@@ -67,7 +72,8 @@ class CurveReader:
                             self.grid[i], self.grid[i + 1]) for i in change)
 
     # --- the estimate
-    def read(self, y0: float, m: int) -> InverseEstimate:
+    def read(self, y0: float, m: int, weight: float = 1.0) -> InverseEstimate:
+        """One reading (the mean of ``m`` readings of weight ``weight``) read back."""
         gap = self.values - y0
         inside = _crossings(self.grid, gap, lambda x: float(self.f([x])[0] - y0))
         if not inside:
@@ -79,7 +85,7 @@ class CurveReader:
             return InverseEstimate(y0, m, math.nan, math.nan, math.nan,
                                    "multiple_roots_in_range", tuple(inside))
         x_hat = inside[0]
-        lower, upper, status = self._interval(x_hat, y0, m)
+        lower, upper, status = self._interval(x_hat, y0, m * weight)
         if not self.monotone:
             status = "not_monotone"
         return InverseEstimate(y0, m, x_hat, lower, upper, status, ())
@@ -107,7 +113,8 @@ class CurveReader:
             A geometric ladder of range widths (from 2^-12 widths up to
             :data:`FAR_WIDTHS`), and, towards zero from a positive ``x_min``, halvings of
             ``x_min`` and 0 itself, so curves defined for x > 0 are probed up to their
-            edge; ordered moving away from the range.
+            edge; ordered moving away from the range. Below a curve defined for x >= 0
+            only (:attr:`nonnegative`) the ladder stops at 0 (empty when ``x_min`` is 0).
         """
         end = self.hi if direction > 0 else self.lo
         steps = end + direction * self.width * 2.0 ** np.arange(-12, math.log2(FAR_WIDTHS) + 1)
@@ -115,28 +122,49 @@ class CurveReader:
             steps = np.concatenate([steps[steps > 0], self.lo * 2.0 ** -np.arange(1, 60),
                                     [0.0]])
             steps = np.sort(steps)[::-1]
+        elif direction < 0 and self.nonnegative:
+            steps = steps[steps >= 0]
         return steps
 
+    def holds_at_edge(self, y0, m) -> np.ndarray:
+        """Whether the band for the mean of ``m`` readings contains ``y0`` at x = 0, the
+        domain edge of a curve defined for x >= 0 only (always False for other curves):
+        where a lower limit found no crossing, it is cut there (``interval_at_domain_edge``).
+        ``y0`` and ``m`` are arrays (one per reading) or scalars."""
+        y0, m = np.atleast_1d(y0), np.atleast_1d(m)
+        if not self.nonnegative:
+            return np.zeros(y0.shape, dtype=bool)
+        with np.errstate(invalid="ignore"):
+            return self.outside_band(np.zeros(y0.shape), y0, m) <= 0
+
     # --- the interval
-    def band(self, m: int) -> tuple[np.ndarray, np.ndarray]:
-        """The band for the mean of ``m`` new readings on the grid, computed once per ``m``.
-
-        Parameters
-        ----------
-        m : int
-            Replicate count of the readings.
-
-        Returns
-        -------
-        lower, upper : ndarray
-            The observation band's limits at each point of :attr:`grid`
-            (:func:`~service.core.nonlinear.analysis.predict` at the reader's level);
-            NaN where the curve or its band is not finite.
-        """
+    def band(self, m: float) -> tuple[np.ndarray, np.ndarray]:
+        """The observation band's ``lower, upper`` on :attr:`grid` for the mean of ``m``
+        new readings (``m``: replicate count times weight; variance ``noise_variance / m``),
+        computed once per ``m`` (:func:`~service.core.nonlinear.analysis.predict` at the
+        reader's level); NaN where the curve or its band is not finite."""
         if m not in self._bands:
-            band = predict(self.fitted, self.grid, level=self.level, m=m)
-            self._bands[m] = (np.asarray(band.obs_lower), np.asarray(band.obs_upper))
+            if float(m).is_integer():
+                band = predict(self.fitted, self.grid, level=self.level, m=int(m))
+                self._bands[m] = (np.asarray(band.obs_lower), np.asarray(band.obs_upper))
+            else:  # a weighted reading: the table's formula (batched and single alike)
+                lower, upper = self.band_table(np.array([float(m)]))
+                self._bands[m] = (lower[0], upper[0])
         return self._bands[m]
+
+    def band_table(self, m: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """The bands for many (weighted) replicate counts at once: one row per ``m``, one
+        column per grid point, ``fit -+ crit sqrt(se_fit^2 + noise_variance / m)`` (the
+        formula of :func:`~service.core.nonlinear.analysis.predict`, from its fit and
+        se_fit on the grid, computed once)."""
+        if self._grid_fit is None:
+            at_grid = predict(self.fitted, self.grid, level=self.level, m=1)
+            self._grid_fit = (np.asarray(at_grid.fit), np.asarray(at_grid.se_mean))
+        fit, se = self._grid_fit
+        with np.errstate(all="ignore"):
+            spread = self.crit * np.sqrt(se[None, :] ** 2
+                                         + self.fitted.noise_variance / m[:, None])
+        return fit[None, :] - spread, fit[None, :] + spread
 
     def outside_band(self, x, y0: float, m: int) -> np.ndarray:
         """``max(lower - y0, y0 - upper)`` of the band for the mean of m readings at each x:
@@ -168,6 +196,8 @@ class CurveReader:
                                lambda x: self.outside_band(x, y0, m))
 
     def _interval(self, x_hat: float, y0: float, m: int) -> tuple[float, float, str]:
+        if no_residual_variance(self.fitted):  # an exact fit: no interval can be given
+            return math.nan, math.nan, NO_RESIDUAL_VARIANCE
         lower, upper = self.band(m)
         if not (np.all(np.isfinite(lower)) and np.all(np.isfinite(upper))):
             return math.nan, math.nan, "interval_undefined"
@@ -189,10 +219,13 @@ class CurveReader:
                 limits.append(_brent(h_scalar, *sorted((near, float(xs[k])))))
             else:
                 limits.append(self.limit_beyond(direction, y0, m))
-        lo_x = math.nan if limits[0] is None else limits[0]
+        at_edge = limits[0] is None and bool(self.holds_at_edge(y0, m)[0])
+        lo_x = 0.0 if at_edge else math.nan if limits[0] is None else limits[0]
         hi_x = math.nan if limits[1] is None else limits[1]
-        if limits[0] is None or limits[1] is None:
+        if math.isnan(lo_x) or limits[1] is None:
             return lo_x, hi_x, "interval_unbounded"
+        if at_edge:
+            return lo_x, hi_x, "interval_at_domain_edge"
         if lo_x < self.lo or hi_x > self.hi:
             return lo_x, hi_x, "interval_exceeds_range"
         elsewhere = (self.grid < lo_x) | (self.grid > hi_x)

@@ -9,9 +9,10 @@ mapped back to x.
 
 The calibration interval is the classical one (Eisenhart 1939; Draper & Smith,
 *Applied Regression Analysis*, 3rd ed., sec. 3.2 — from memory): the set of x
-whose prediction band for the mean of ``m`` new readings contains ``y0``,
+whose prediction band for the mean of ``m`` new readings of weight ``w`` (variance
+``sigma^2 / w`` each; ``w`` = 1 unless weights are given) contains ``y0``,
 
-    (f(t) - y0)^2 <= q^2 sigma^2 (1/m + ||R^-T v(t)||^2),   q = t_{1-(1-level)/2, df}.
+    (f(t) - y0)^2 <= q^2 sigma^2 (1/(m w) + ||R^-T v(t)||^2),   q = t_{1-(1-level)/2, df}.
 
 The interval is the piece of that set containing the estimate. Its limits are
 found on each side by Newton steps on ``f(t) - y0 = ±q sigma sqrt(...)``
@@ -30,7 +31,9 @@ from dataclasses import dataclass
 import numpy as np
 
 from service.core.data import transforms
+from service.core.data.reading_weights import reading_weights
 from service.core.errors import DataError, SpecError
+from service.core.models.exact_fit import NO_RESIDUAL_VARIANCE
 from service.core.models.inverse_band import CalibrationCurve
 from service.core.models.inverse_roots import batch_roots
 from service.core.results import FittedPolynomial
@@ -45,8 +48,12 @@ STATUSES = {
     "multiple_roots_in_range": "Several x inside the calibrated range give this y.",
     "interval_exceeds_range": "The estimate is in range but the interval reaches outside it.",
     "interval_unbounded": "The band is too wide for the slope: the interval has no finite limit.",
+    "interval_at_domain_edge": "The band holds the reading down to x = 0, the smallest x the "
+                               "curve is defined at: the lower limit is cut there (0).",
     "interval_disjoint": "The band also contains the reading at other x inside the range.",
     "interval_undefined": "No residual df (sigma undefined), or unresolvable in double precision.",
+    "no_residual_variance": "The fit passes through every point (sigma = 0): x is the curve's "
+                            "reading, but no interval can be given (lower and upper null).",
 }
 
 
@@ -79,8 +86,8 @@ class Inversion:
     x_max: float
 
 
-def invert(fitted: FittedPolynomial, y, *, replicates=1, level: float | None = None
-           ) -> Inversion:
+def invert(fitted: FittedPolynomial, y, *, replicates=1, level: float | None = None,
+           weights=None) -> Inversion:
     """Estimate x for each observed y, with classical calibration intervals.
 
     Parameters
@@ -94,6 +101,9 @@ def invert(fitted: FittedPolynomial, y, *, replicates=1, level: float | None = N
         ``m`` for every reading, or one count per reading (>= 1).
     level : float, optional
         Interval level; defaults to the fit's level.
+    weights : array_like, optional
+        The weight of each reading on the fit's weight scale (default 1): each of its
+        ``m`` readings has variance ``sigma^2 / weight``.
 
     Returns
     -------
@@ -104,7 +114,8 @@ def invert(fitted: FittedPolynomial, y, *, replicates=1, level: float | None = N
     SpecError
         Degree 0, bad level, or replicates not >= 1 / wrong length.
     DataError, TransformError
-        Non-finite readings, or readings outside the y transform's domain.
+        Non-finite readings, readings outside the y transform's domain, or weights not
+        one finite positive number per reading.
     """
     level = fitted.level if level is None else float(level)
     if not 0 < level < 1:
@@ -119,11 +130,13 @@ def invert(fitted: FittedPolynomial, y, *, replicates=1, level: float | None = N
         raise DataError(f"y[{bad}] is not a finite number.", field=f"y[{bad}]",
                         fix="Send finite readings only.")
     m = _replicates(replicates, len(y))
+    w = reading_weights(weights, len(y))
     with np.errstate(all="ignore"):  # extreme values become statuses, never warnings
-        return _invert(fitted, y, m, level)
+        return _invert(fitted, y, m, level, w)
 
 
-def _invert(fitted: FittedPolynomial, y: np.ndarray, m: np.ndarray, level: float) -> Inversion:
+def _invert(fitted: FittedPolynomial, y: np.ndarray, m: np.ndarray, level: float,
+            w: np.ndarray | None = None) -> Inversion:
     curve = CalibrationCurve(fitted, level)
     y_fit = transforms.apply(fitted.transform_y, y, field="y", stored=True)
     if not np.all(np.isfinite(y_fit)):
@@ -131,7 +144,7 @@ def _invert(fitted: FittedPolynomial, y: np.ndarray, m: np.ndarray, level: float
         raise DataError(f"y[{bad}] = {float(y[bad])!r} is not finite after the "
                         f"{fitted.transform_y} transform.", field=f"y[{bad}]",
                         fix="Send readings inside the range the calibration was fitted on.")
-    estimates = _read_all(curve, y, y_fit, m)
+    estimates = _read_all(curve, y, y_fit, m, w)
     return Inversion(estimates=estimates, level=level, monotone=curve.monotone,
                      turning_points=tuple(curve.to_x(curve.turning)), x_min=fitted.x_min,
                      x_max=fitted.x_max)
@@ -157,8 +170,10 @@ def _replicates(replicates, count: int) -> np.ndarray:
     return m.astype(np.int64)
 
 
-def _read_all(curve: CalibrationCurve, y, y_t, m) -> tuple[InverseEstimate, ...]:
-    """Classify every reading by its roots, then attach interval limits where one is chosen."""
+def _read_all(curve: CalibrationCurve, y, y_t, m, w=None) -> tuple[InverseEstimate, ...]:
+    """Classify every reading by its roots, then attach interval limits where one is chosen;
+    the band of a reading is for the mean of ``m`` readings of weight ``w`` (``m w`` is all
+    the band uses)."""
     roots = batch_roots(curve.coef, y_t)
     chosen = np.full(len(y), np.nan)
     picks = []
@@ -178,7 +193,8 @@ def _read_all(curve: CalibrationCurve, y, y_t, m) -> tuple[InverseEstimate, ...]
             chosen[i] = inside[0]
         picks.append(status)
     have = np.flatnonzero(np.isfinite(chosen))
-    lower, upper, band = curve.intervals(chosen[have], y_t[have], m[have])
+    effective = m if w is None else m * w
+    lower, upper, band = curve.intervals(chosen[have], y_t[have], effective[have])
     out = []
     limits = dict(zip(have.tolist(), zip(lower, upper, band, strict=True), strict=True))
     for i, row in enumerate(roots):
@@ -189,8 +205,14 @@ def _read_all(curve: CalibrationCurve, y, y_t, m) -> tuple[InverseEstimate, ...]
                                        picks[i], others))
             continue
         lo, hi, band_status = limits[i]
+        edge = band_status not in ("interval_undefined", NO_RESIDUAL_VARIANCE) and \
+            curve.at_domain_edge(lo)  # x cannot go below 0: the lower limit is cut there
+        if edge and band_status != "interval_unbounded":  # (unbounded: no upper limit)
+            band_status = "interval_at_domain_edge"
         status = band_status if picks[i] == "ok" else picks[i]
         x_hat, lo_x, hi_x = curve.to_x([chosen[i], lo, hi])
+        if edge:
+            lo_x = 0.0
         if not transforms.is_increasing(curve.fitted.transform_x):
             lo_x, hi_x = hi_x, lo_x
         out.append(InverseEstimate(float(y[i]), int(m[i]), x_hat, lo_x, hi_x, status, others))

@@ -17,6 +17,7 @@ from scipy import optimize, special
 
 from service.core.checks.known_sd import KNOWN_SD, normal_quantile
 from service.core.data import transforms
+from service.core.models.exact_fit import NO_RESIDUAL_VARIANCE
 from service.core.models.inverse_roots import changes_sign, real_roots
 from service.core.results import FittedPolynomial
 
@@ -66,6 +67,17 @@ class CalibrationCurve:
         """Whether t lies in the calibrated range (within the tolerance)."""
         return self.t_lo - self.tol <= t <= self.t_hi + self.tol
 
+    def at_domain_edge(self, lo: float) -> bool:
+        """Whether the lower limit ``lo`` (t; NaN: none found) lies at or past x = 0, the edge
+        of an x transform defined for x > 0 (log, log10) or x >= 0 (sqrt): the limit is then
+        cut at x = 0 (status ``interval_at_domain_edge`` when the upper limit is finite)."""
+        name = self.fitted.transform_x
+        if name not in ("log", "log10", "sqrt"):
+            return False
+        if math.isnan(lo):  # the band holds the reading down to t = -far: to x -> 0
+            return True
+        return name == "sqrt" and self.fitted.x_shift + self.fitted.x_scale * lo < 0.0
+
     def gap(self, t, y0, m):
         """(f(t) - y0)^2 - (q sigma)^2 (1/m + w(t)): <= 0 where the band contains y0."""
         return (P.polyval(t, self.coef) - y0) ** 2 - self.qs ** 2 * (1.0 / m + P.polyval(t, self.w))
@@ -75,6 +87,8 @@ class CalibrationCurve:
         count = len(t_hat)
         if not math.isfinite(self.qs) or count == 0:
             return [math.nan] * count, [math.nan] * count, ["interval_undefined"] * count
+        if self.qs == 0.0:  # sigma = 0 (an exact fit): a zero-width interval would mislead
+            return [math.nan] * count, [math.nan] * count, [NO_RESIDUAL_VARIANCE] * count
         m = m.astype(float)
         rise = np.sign(P.polyval(t_hat, self.slope))
         rise[rise == 0] = 1.0

@@ -42,7 +42,7 @@ def first_crossings(start: float, ladder: np.ndarray, fn: BatchFunction, count: 
     ladder = np.asarray(ladder, dtype=float)
     crossing = np.full(count, np.nan)
     resolved = np.ones(count, dtype=bool)
-    if count == 0:
+    if count == 0 or ladder.size == 0:  # nothing to walk (a curve's domain ends there)
         return crossing, resolved
     first = np.asarray(fn(np.full(count, float(start)), rows), dtype=float)
     walks = np.flatnonzero(np.isfinite(first))

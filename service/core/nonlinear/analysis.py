@@ -26,6 +26,7 @@ from service.core.checks.lack_of_fit import distinct_count
 from service.core.checks.quantiles import f_quantile
 from service.core.data.grid import fit_grid
 from service.core.data.inputs import clean_data
+from service.core.data.reading_weights import reading_weights
 from service.core.errors import DesignError, SpecError
 from service.core.nonlinear.bands import band_values
 from service.core.nonlinear.flags import nonlinear_flags
@@ -134,18 +135,22 @@ def report(solution, data, equation, names: tuple[str, ...], family: str, expres
                            diagnostics, grid, tuple(flags), notices)
 
 
-def predict(fitted: FittedCurve, x, *, level: float | None = None, m: int = 1) -> Prediction:
+def predict(fitted: FittedCurve, x, *, level: float | None = None, m: int = 1,
+            weights=None) -> Prediction:
     """Fitted values with mean, new-observation and simultaneous bands at ``x``.
 
     The delta method (tangent plane) around the estimates; the simultaneous band
     uses ``sqrt(p F(p, df))`` (``sqrt(chi²_p)`` with known SDs) in place of the
-    pointwise critical value.
+    pointwise critical value. ``weights`` (one per x, default 1) is the weight of a new
+    observation there: the observation band is for the mean of ``m`` readings of variance
+    ``noise_variance / weight`` (:mod:`service.core.data.reading_weights`).
     """
     level = fitted.level if level is None else float(level)
     if not 0.0 < level < 1.0:
         raise SpecError(f"level = {level!r} is not between 0 and 1.", field="level",
                         fix="Use a confidence level such as 0.95.")
     xs = np.array(x, dtype=float).reshape(-1)
+    w = reading_weights(weights, xs.size)
     p, df = len(fitted.parameter_names), fitted.df_residual
     if fitted.distribution == "normal":
         crit, wide = normal_quantile(level), simultaneous_normal_factor(p, level)
@@ -155,7 +160,7 @@ def predict(fitted: FittedCurve, x, *, level: float | None = None, m: int = 1) -
     with np.errstate(all="ignore"):
         bands = band_values(fitted.model, xs, fitted.estimates, fitted.covariance,
                             fitted.noise_variance, crit, level, int(m),
-                            np.array([fitted.x_min, fitted.x_max]))
+                            np.array([fitted.x_min, fitted.x_max]), w)
         spread = wide * bands.se_fit
     return Prediction(bands.x, bands.fit, bands.se_fit, bands.mean_lower, bands.mean_upper,
                       bands.obs_lower, bands.obs_upper, _frozen(bands.fit - spread),

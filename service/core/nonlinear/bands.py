@@ -92,7 +92,8 @@ def predict(solution: Solution, x_new, *, level: float = 0.95, weight_mode: str 
 
 
 def band_values(model, xs: np.ndarray, theta: np.ndarray, cov: np.ndarray, factor: float,
-                crit: float, level: float, replicates: int, x_data: np.ndarray) -> Bands:
+                crit: float, level: float, replicates: int, x_data: np.ndarray,
+                weights: np.ndarray | None = None) -> Bands:
     """Fit, standard error and both bands at ``xs`` from estimates and their covariance.
 
     Parameters
@@ -113,6 +114,9 @@ def band_values(model, xs: np.ndarray, theta: np.ndarray, cov: np.ndarray, facto
         ``m``: the observation band is for the mean of ``m`` new observations.
     x_data : ndarray
         The fitted data's x (``extrapolated`` marks new x outside its range).
+    weights : ndarray, optional
+        The weight of a new observation at each x (variance ``factor / weight``);
+        None: weight 1.
     """
     k, p = xs.shape[0], theta.size
     notices: list[Notice] = []
@@ -126,7 +130,8 @@ def band_values(model, xs: np.ndarray, theta: np.ndarray, cov: np.ndarray, facto
                               "Jacobian or no residual df): bands are missing"))
     with np.errstate(all="ignore"):
         se_fit = np.sqrt(np.maximum(np.einsum("ij,jk,ik->i", grad, cov, grad), 0.0))
-        se_obs = np.sqrt(se_fit ** 2 + factor / replicates)
+        divisor = replicates if weights is None else replicates * weights
+        se_obs = np.sqrt(se_fit ** 2 + factor / divisor)
     x = x_data.reshape(x_data.shape[0], -1)
     flat = xs.reshape(k, -1)
     extrapolated = ((flat < x.min(axis=0)) | (flat > x.max(axis=0))).any(axis=1)

@@ -6,9 +6,9 @@ numbers as :func:`predict`), so a stored model reproduces the grid exactly.
 Bands, at confidence ``level`` with ``t = t_{df}(1 - (1 - level)/2)``:
 
 * mean: ``fit ± t se``, with ``se = sigma ||R^-T v(t)||``;
-* new observation(s): ``fit ± t sqrt(se² + sigma²/m)`` for the mean of ``m``
-  future observations of unit weight (variance sigma², i.e. weight 1 on the
-  caller's inverse-variance scale);
+* new observation(s): ``fit ± t sqrt(se² + sigma²/(m w))`` for the mean of ``m``
+  future observations of weight ``w`` (variance sigma²/w on the caller's
+  inverse-variance scale; ``w`` = 1 unless ``weights`` are given);
 * simultaneous (Working-Hotelling) band for the whole curve:
   ``fit ± sqrt(p F_{p, df}(level)) se``.
 
@@ -37,6 +37,7 @@ import numpy as np
 from service.core.checks.known_sd import KNOWN_SD, normal_quantile, simultaneous_normal_factor
 from service.core.checks.quantiles import f_quantile, t_quantile
 from service.core.data import transforms
+from service.core.data.reading_weights import reading_weights
 from service.core.errors import DataError, SpecError
 from service.core.polynomial.compiled import bands as kernels_bands
 from service.core.polynomial.compiled.qr import upper_inverse
@@ -52,7 +53,8 @@ def _check_level(level: float) -> float:
     return level
 
 
-def predict(fitted: FittedPolynomial, x, *, level: float | None = None, m: int = 1) -> Prediction:
+def predict(fitted: FittedPolynomial, x, *, level: float | None = None, m: int = 1,
+            weights=None) -> Prediction:
     """Fitted values and bands at ``x`` (original x and y scales).
 
     Parameters
@@ -65,14 +67,18 @@ def predict(fitted: FittedPolynomial, x, *, level: float | None = None, m: int =
         Confidence level; defaults to the level the model was fitted with.
     m : int
         Number of future observations whose mean the observation band covers.
+    weights : array_like, optional
+        The weight of a new observation at each x on the fit's weight scale (default 1):
+        the observation band is for the mean of ``m`` readings of variance
+        ``sigma^2 / weight`` (:mod:`service.core.data.reading_weights`).
 
     Raises
     ------
     DataError, TransformError, SpecError
-        Non-finite x, x outside the x transform's domain, bad level or m.
+        Non-finite x, x outside the x transform's domain, bad level, m or weights.
     """
     with np.errstate(all="ignore"):  # overflow far outside the data becomes NaN, not a warning
-        return _predict(fitted, x, level, m)
+        return _predict(fitted, x, level, m, weights)
 
 
 def grid_prediction(fitted: FittedPolynomial, xs: np.ndarray) -> Prediction:
@@ -85,7 +91,7 @@ def grid_prediction(fitted: FittedPolynomial, xs: np.ndarray) -> Prediction:
                      np.array(fitted.r_factor))
 
 
-def _predict(fitted: FittedPolynomial, x, level: float | None, m: int) -> Prediction:
+def _predict(fitted: FittedPolynomial, x, level: float | None, m: int, weights) -> Prediction:
     level = _check_level(fitted.level if level is None else level)
     if isinstance(m, bool) or int(m) != m or not 1 <= m <= MAX_REPLICATES:
         raise SpecError(f"m = {m!r} is not a whole number from 1 to {MAX_REPLICATES}.",
@@ -98,13 +104,15 @@ def _predict(fitted: FittedPolynomial, x, level: float | None, m: int) -> Predic
         i = int(np.flatnonzero(~np.isfinite(xs))[0])
         raise DataError(f"x[{i}] is not a finite number.", field=f"x[{i}]",
                         fix="Predict only at finite x values.")
+    w = reading_weights(weights, xs.size)
     u = transforms.apply(fitted.transform_x, xs, field="x", stored=True)
     return _evaluate(fitted, xs, u, level, m, np.array(fitted.basis_coefficients, dtype=float),
-                     np.array(fitted.r_factor, dtype=float))
+                     np.array(fitted.r_factor, dtype=float), w)
 
 
 def _evaluate(fitted: FittedPolynomial, xs: np.ndarray, u: np.ndarray, level: float, m: int,
-              coef: np.ndarray, r_factor: np.ndarray) -> Prediction:
+              coef: np.ndarray, r_factor: np.ndarray, w: np.ndarray | None = None
+              ) -> Prediction:
     df = fitted.df_residual
     p = fitted.basis_coefficients.size
     if fitted.weighting == KNOWN_SD:  # sigma is 1: normal and chi-square (Scheffé) factors
@@ -117,6 +125,10 @@ def _evaluate(fitted: FittedPolynomial, xs: np.ndarray, u: np.ndarray, level: fl
     rows, extrap, finite = kernels_bands.curve_bands(
         xs, u, fitted.x_shift, fitted.x_scale, 0 if fitted.intercept else 1, coef,
         upper_inverse(r_factor), fitted.sigma, tq, wh, m, fitted.x_min, fitted.x_max)
+    if w is not None:  # new readings of variance sigma^2 / w: the observation rows again
+        half = tq * np.sqrt(rows[1] ** 2 + fitted.sigma ** 2 / (m * w))
+        rows[4], rows[5] = rows[0] - half, rows[0] + half
+        finite = bool(np.isfinite(rows[2:]).all())
     name = fitted.transform_y
     if name == "none" and finite:  # the usual case: read-only views of the kernel's rows
         values, unbounded = frozen_rows(rows), np.zeros(xs.size, dtype=bool)

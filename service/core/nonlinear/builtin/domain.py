@@ -18,6 +18,7 @@ import numpy as np
 from service.core.data.grid import grid_field
 from service.core.errors import TransformError
 from service.core.nonlinear import analysis
+from service.core.nonlinear.builtin.catalogue import BUILTINS
 from service.core.nonlinear.builtin.definition import LINEAR, LOG, Builtin
 from service.core.spec import GridSpec
 
@@ -29,6 +30,14 @@ linear-scale ones ``exp(slope*(x - ec50))`` (a test holds every built-in to this
 def nonnegative_x(family: Builtin, scale: str) -> bool:
     """Whether the curve on ``scale`` needs x >= 0."""
     return scale == LOG or family.x_domain == "nonnegative"
+
+
+def curve_needs_nonnegative_x(family_name: str, expression: str) -> bool:
+    """Whether a stored curve (its family name and canonical equation) is defined for
+    x >= 0 only: a built-in family on log x, or one raising x to a parameter's power. A
+    user's own equation (family ``expression``) declares no domain: False."""
+    family = BUILTINS.get(family_name)
+    return family is not None and nonnegative_x(family, scale_of_equation(family, expression))
 
 
 def scale_of_equation(family: Builtin, expression: str) -> str:
@@ -123,9 +132,10 @@ def _lead(scale: str) -> str:
     return "This curve is on log x" if scale == LOG else "This curve needs x >= 0"
 
 
-def predict(family: Builtin, fitted, x, *, level: float | None = None, m: int = 1):
+def predict(family: Builtin, fitted, x, *, level: float | None = None, m: int = 1,
+            weights=None):
     """:func:`service.core.nonlinear.analysis.predict` after refusing x outside the curve's
     domain (:func:`check_prediction_x`)."""
     xs = np.array(x, dtype=float).reshape(-1)
     check_prediction_x(family, fitted.expression, xs)
-    return analysis.predict(fitted, xs, level=level, m=m)
+    return analysis.predict(fitted, xs, level=level, m=m, weights=weights)
