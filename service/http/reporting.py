@@ -12,7 +12,7 @@ from operator import attrgetter
 
 from service.core.compare import Comparison
 from service.core.families import family_of
-from service.core.nonlinear.builtin.catalogue import curve_scale
+from service.core.nonlinear.builtin.domain import curve_scale
 from service.core.nonlinear.report import NonlinearReport
 from service.core.results import FitReport, Prediction
 

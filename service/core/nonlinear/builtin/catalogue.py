@@ -7,7 +7,6 @@ from types import MappingProxyType
 
 from service.core.nonlinear.builtin.decay import BIEXPONENTIAL, EXPONENTIAL, WEIBULL
 from service.core.nonlinear.builtin.definition import Builtin
-from service.core.nonlinear.builtin.domain import scale_of_equation
 from service.core.nonlinear.builtin.dose_response import LOGISTIC4, LOGISTIC5
 from service.core.nonlinear.builtin.growth import GOMPERTZ, LOGISTIC_GROWTH
 from service.core.nonlinear.builtin.peak import GAUSSIAN_PEAK
@@ -17,9 +16,3 @@ BUILTINS: Mapping[str, Builtin] = MappingProxyType({b.name: b for b in (
     LOGISTIC4, LOGISTIC5, EXPONENTIAL, MICHAELIS_MENTEN, GOMPERTZ, LOGISTIC_GROWTH, POWER,
     GAUSSIAN_PEAK, BIEXPONENTIAL, WEIBULL)})
 
-
-def curve_scale(family: str, expression: str) -> str | None:
-    """The x scale (``"log"`` or ``"linear"``) of a fitted curve of a built-in ``family``
-    from its canonical equation text; None for any other family (polynomial, expression)."""
-    builtin = BUILTINS.get(family)
-    return None if builtin is None else scale_of_equation(builtin, expression)

@@ -40,6 +40,13 @@ def curve_needs_nonnegative_x(family_name: str, expression: str) -> bool:
     return family is not None and nonnegative_x(family, scale_of_equation(family, expression))
 
 
+def curve_scale(family: str, expression: str) -> str | None:
+    """The x scale (``"log"`` or ``"linear"``) of a fitted curve of a built-in ``family``
+    from its canonical equation text; None for any other family (polynomial, expression)."""
+    builtin = BUILTINS.get(family)
+    return None if builtin is None else scale_of_equation(builtin, expression)
+
+
 def scale_of_equation(family: Builtin, expression: str) -> str:
     """The x scale of a fitted curve of ``family`` from its canonical equation text."""
     if len(family.scales) == 1:
