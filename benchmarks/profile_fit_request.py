@@ -11,7 +11,8 @@ best of five rounds. Printed, in microseconds per request:
    parts run slower inside a request than alone in a loop (their code and data share the
    caches with everything else the request runs), so these are the figures to reason with;
 3. the hooks and middleware: the app with its view answering a constant body (the same
-   bytes), then with one group of hooks removed at a time.
+   bytes), then with one group of hooks removed at a time; last, the real request with no
+   hook and no guard (its difference from the whole request is what they cost in it).
 
 Not a gunicorn measurement: a worker adds its own HTTP parsing, socket work and access to
 the request (bench_fit_overhead.py measures that, as CPU time per request). Nothing is
@@ -156,13 +157,16 @@ def timed_parts(app, body: bytes, count: int) -> dict[str, float]:
 
 
 def hook_costs(body: bytes, answer: bytes, count: int) -> dict[str, float]:
-    """The app with a constant view, whole and with one group of hooks removed at a time."""
+    """The app with a constant view, whole and with one group of hooks removed at a time; and
+    the real request without any hook or the guard (what they cost there, where they run
+    with caches that the fit itself has just used: more than beside a constant view)."""
     from flask import Response
 
-    def variant(before=(), after=(), guard=True):
+    def variant(before=(), after=(), guard=True, constant=True):
         app = quiet_app()
-        app.view_functions["fits.fit"] = lambda *a, **k: Response(answer,
-                                                                  mimetype="application/json")
+        if constant:
+            app.view_functions["fits.fit"] = lambda *a, **k: Response(
+                answer, mimetype="application/json")
         hooks = app.before_request_funcs[None]
         hooks[:] = [f for f in hooks if f.__name__ not in before]
         hooks = app.after_request_funcs[None]
@@ -180,6 +184,7 @@ def hook_costs(body: bytes, answer: bytes, count: int) -> dict[str, float]:
         "  without the deadline guard middleware": variant(guard=False),
         "  without body-size/produced marks": variant(("_body_size",), ("_mark_produced",)),
         "constant view, no hook, no guard": variant(**every),
+        "real /v1/fit view, no hook, no guard": variant(**every, constant=False),
     }
 
 
@@ -258,9 +263,10 @@ def main(argv=None) -> int:
         print(f"  {label:36s} {value:7.1f}")
     top = sum(v for k, v in parts.items() if not k.startswith(" "))
     print(f"  {'rest (Flask, hooks, guard, view glue)':36s} {whole - top:7.1f}")
-    print("hooks and middleware (view answering the same bytes, constant):")
+    print("hooks and middleware (view answering the same bytes, constant; last, the real view):")
     for label, value in hook_costs(body, answer, args.requests).items():
         print(f"  {label:40s} {value:7.1f}")
+    print(f"  (the whole request above, every hook and the guard: {whole:.1f})")
     return 0
 
 
