@@ -117,8 +117,13 @@ def _unsigned_zero(value):
 
 def to_vector(values) -> list:
     """A flat list of :func:`to_float` values."""
-    array = np.asarray(values, dtype=float).ravel() + 0.0  # + 0.0 turns -0.0 into 0.0
-    return _with_none(array)
+    array = np.asarray(values, dtype=float).ravel()
+    out = array.tolist()
+    # a finite sum: every value finite (see _with_none); + 0.0 turns -0.0 into 0.0, the same
+    # IEEE addition as numpy's, on the Python floats (half the cost of a ufunc call on a few)
+    if math.isfinite(sum(out)):
+        return [value + 0.0 for value in out]
+    return _with_none(array + 0.0)
 
 
 def to_matrix(values) -> list:
