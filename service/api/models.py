@@ -16,8 +16,8 @@ from schemas.models import (
 )
 from service.api.error_docs import error_responses
 from service.core import family_of, predict, read_document
+from service.core.checks.exact_fit import NO_RESIDUAL_VARIANCE
 from service.core.errors import SpecError
-from service.core.models.exact_fit import NO_RESIDUAL_VARIANCE, without_intervals
 
 blp = Blueprint("models", __name__, description="Predict and invert with a fitted-model document.")
 
@@ -43,8 +43,8 @@ def predict_view(body):
     """Predict with intervals at new x from a stored fitted model."""
     fitted = read_document(body["fitted_model"], field_prefix="fitted_model.")
     _check_count("x", len(body["x"]))
-    result = without_intervals(fitted, predict(fitted, body["x"], level=body["level"],
-                                               m=body["replicates"], weights=body.get("weights")))
+    result = predict(fitted, body["x"], level=body["level"], m=body["replicates"],
+                     weights=body.get("weights"))
     columns = {name: getattr(result, name) for name in _PREDICT_COLUMNS}
     if columns["unbounded"] is None:  # a family that does not mark unbounded limits
         columns["unbounded"] = [False] * len(result.x)

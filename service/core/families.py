@@ -193,7 +193,8 @@ def fit_series(x, y, weights=None, *, model: ModelSpec = _DEFAULT_MODEL,
 def predict(fitted: Any, x, *, level: float | None = None, m: int = 1,
             weights=None) -> Prediction:
     """Predictions with bands at ``x`` from any family's fitted model; ``weights``: the
-    weight of a new observation at each x (default 1)."""
+    weight of a new observation at each x (default 1). A fit without residual variance
+    (sigma = 0) gives no bands (:func:`.checks.exact_fit.without_intervals`)."""
     return family_of(fitted).predict(fitted, x, level=level, m=m, weights=weights)
 
 

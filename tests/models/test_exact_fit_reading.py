@@ -92,3 +92,18 @@ def test_nonlinear_curve_without_residual_variance_single_and_batched():
         assert got.status == one.status == "no_residual_variance"
         assert got.x == one.x == noisy.x  # the estimate does not depend on sigma
         assert math.isnan(got.lower) and math.isnan(got.upper) and math.isnan(one.upper)
+
+
+def test_the_fit_grid_of_an_exact_fit_withholds_its_bands_as_predict_does(api, exact_line):
+    # the same line through /v1/fit: its grid agrees with /v1/predict from its document
+    # (values 1 + 2x, bands null) and the warning says why the bands are null
+    body = _post(api, "/v1/fit", {"x": [0, 1, 2, 3, 4], "y": [1, 3, 5, 7, 9],
+                                  "model": {"degree": 1}, "grid": {"x": [1.5, 3.0]}})
+    grid = body["grid"]
+    assert grid["fit"] == pytest.approx([4.0, 7.0], rel=1e-12)  # 1 + 2x
+    for name in ("mean_lower", "mean_upper", "obs_lower", "obs_upper"):
+        assert grid[name] == [None, None], name
+    assert "no_residual_variance" in [w["code"] for w in body["warnings"]]
+    assert "exact_fit" in [f["code"] for f in body["flags"]]
+    again = _post(api, "/v1/predict", {"fitted_model": exact_line, "x": [1.5, 3.0]})
+    assert [r["obs_upper"] for r in again["predictions"]] == grid["obs_upper"]

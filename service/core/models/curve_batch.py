@@ -22,8 +22,8 @@ import math
 
 import numpy as np
 
+from service.core.checks.exact_fit import NO_RESIDUAL_VARIANCE, no_residual_variance
 from service.core.models.brent_batch import brent_many
-from service.core.models.exact_fit import NO_RESIDUAL_VARIANCE, no_residual_variance
 from service.core.models.inverse import InverseEstimate
 from service.core.models.ladder_batch import first_crossings
 

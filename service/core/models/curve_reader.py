@@ -17,7 +17,7 @@ import math
 import numpy as np
 from scipy import optimize, special
 
-from service.core.models.exact_fit import NO_RESIDUAL_VARIANCE, no_residual_variance
+from service.core.checks.exact_fit import NO_RESIDUAL_VARIANCE, no_residual_variance
 from service.core.models.inverse import InverseEstimate
 from service.core.nonlinear.analysis import predict
 from service.core.nonlinear.builtin.domain import curve_needs_nonnegative_x

@@ -30,10 +30,10 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from service.core.checks.exact_fit import NO_RESIDUAL_VARIANCE
 from service.core.data import transforms
 from service.core.data.reading_weights import reading_weights
 from service.core.errors import DataError, SpecError
-from service.core.models.exact_fit import NO_RESIDUAL_VARIANCE
 from service.core.models.inverse_band import CalibrationCurve
 from service.core.models.inverse_roots import batch_roots
 from service.core.results import FittedPolynomial

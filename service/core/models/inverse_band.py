@@ -15,9 +15,9 @@ import numpy as np
 from numpy.polynomial import polynomial as P
 from scipy import optimize, special
 
+from service.core.checks.exact_fit import NO_RESIDUAL_VARIANCE
 from service.core.checks.known_sd import KNOWN_SD, normal_quantile
 from service.core.data import transforms
-from service.core.models.exact_fit import NO_RESIDUAL_VARIANCE
 from service.core.models.inverse_roots import changes_sign, real_roots
 from service.core.results import FittedPolynomial
 

@@ -15,6 +15,7 @@ import numpy as np
 from scipy import special
 
 from service.core.checks.diagnostics import residual_diagnostics
+from service.core.checks.exact_fit import without_intervals
 from service.core.checks.flags import TEST_ALPHA, trust_flags
 from service.core.checks.known_sd import (
     chi_square_fit,
@@ -162,10 +163,11 @@ def predict(fitted: FittedCurve, x, *, level: float | None = None, m: int = 1,
                             fitted.noise_variance, crit, level, int(m),
                             np.array([fitted.x_min, fitted.x_max]), w)
         spread = wide * bands.se_fit
-    return Prediction(bands.x, bands.fit, bands.se_fit, bands.mean_lower, bands.mean_upper,
-                      bands.obs_lower, bands.obs_upper, _frozen(bands.fit - spread),
-                      _frozen(bands.fit + spread), bands.extrapolated, level,
-                      notices=tuple(Notice(n.code, n.message) for n in bands.notices))
+    return without_intervals(fitted, Prediction(
+        bands.x, bands.fit, bands.se_fit, bands.mean_lower, bands.mean_upper, bands.obs_lower,
+        bands.obs_upper, _frozen(bands.fit - spread), _frozen(bands.fit + spread),
+        bands.extrapolated, level, notices=tuple(Notice(n.code, n.message)
+                                                 for n in bands.notices)))
 
 
 def _frozen(values: np.ndarray) -> np.ndarray:

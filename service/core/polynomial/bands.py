@@ -34,6 +34,7 @@ import math
 
 import numpy as np
 
+from service.core.checks.exact_fit import without_intervals
 from service.core.checks.known_sd import KNOWN_SD, normal_quantile, simultaneous_normal_factor
 from service.core.checks.quantiles import f_quantile, t_quantile
 from service.core.data import transforms
@@ -134,8 +135,9 @@ def _evaluate(fitted: FittedPolynomial, xs: np.ndarray, u: np.ndarray, level: fl
         values, unbounded = frozen_rows(rows), np.zeros(xs.size, dtype=bool)
     else:
         values, unbounded = _limits(name, rows, finite)
-    return Prediction(frozen_array(xs), *values, frozen_array(extrap, dtype=bool), level,
-                      frozen_array(unbounded, dtype=bool))
+    return without_intervals(fitted, Prediction(
+        frozen_array(xs), *values, frozen_array(extrap, dtype=bool), level,
+        frozen_array(unbounded, dtype=bool)))
 
 
 def _limits(name: str, rows: np.ndarray, finite: bool) -> tuple[list[np.ndarray], np.ndarray]:

@@ -196,6 +196,7 @@ def _fit(x, y, weights, model: ModelSpec, options: FitOptions) -> FitReport:
         gx = grid_points(options.grid, xmin, xmax, options.max_grid_points)
         check_domain(options.grid, gx, model.transform_x)
         grid = grid_prediction(fitted, gx)
+        notices = (*notices, *grid.notices)  # no_residual_variance: bands withheld
     flags = trust_flags(n=n, p=p, exact=m.exact, condition=cond, diagnostics=diagnostics,
                         grid=grid)
     failed = chi_square_flag(chi_square, TEST_ALPHA)
