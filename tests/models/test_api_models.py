@@ -19,12 +19,6 @@ from tests.conftest import load_nist
 PROBLEM = "application/problem+json"
 
 
-@pytest.fixture(scope="module")
-def api():
-    app = create_app({})
-    app.config["TESTING"] = True
-    return app.test_client()
-
 
 def _post(api, path, body):
     return api.post(path, data=orjson.dumps(body), content_type="application/json")

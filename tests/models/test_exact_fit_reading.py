@@ -17,16 +17,8 @@ import numpy as np
 import orjson
 import pytest
 
-from service.app import create_app
 from service.core import ModelSpec, fit_series
 from service.core.models.curve_inverse import invert_curve
-
-
-@pytest.fixture(scope="module")
-def api():
-    app = create_app({})
-    app.config["TESTING"] = True
-    return app.test_client()
 
 
 def _post(api, path, body):

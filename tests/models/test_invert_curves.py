@@ -26,13 +26,6 @@ def _fit(client, body) -> dict:
 
 
 @pytest.fixture(scope="module")
-def api():
-    from service.app import create_app
-
-    return create_app({}).test_client()
-
-
-@pytest.fixture(scope="module")
 def logistic(api):
     case = cases("logistic4", 1, 11)[0]
     model = {"family": "logistic4"} if case.scale is None else {"family": "logistic4",

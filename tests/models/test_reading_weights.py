@@ -16,17 +16,9 @@ import pytest
 import statsmodels.api as sm
 from scipy import stats
 
-from service.app import create_app
 from service.core import ModelSpec, fit_series
 from service.core.models.curve_inverse import invert_curve
 from service.core.models.curve_reader import CurveReader
-
-
-@pytest.fixture(scope="module")
-def api():
-    app = create_app({})
-    app.config["TESTING"] = True
-    return app.test_client()
 
 
 def _post(api, path, body):
