@@ -101,12 +101,12 @@ def _summary(p, x, y, w, sw, f, js, low, d, rss, cut_t, cut_cook, q, e, out, est
     for j in range(p):
         est_se[j] = math.sqrt(sigma2 * cov[j, j]) / d[j]
     worst = 0.0
+    for j in range(p):                   # 1 / sqrt(cov[j, j]) (dq: scratch here)
+        dq[j] = 1.0 / math.sqrt(cov[j, j])
     for j in range(p):
         for k in range(j):
-            worst = max(worst, abs(cov[j, k]) / math.sqrt(cov[j, j] * cov[k, k]))
+            worst = max(worst, abs(cov[j, k]) * dq[j] * dq[k])
     out[_CORR] = worst
-    for i in range(n):
-        e[i] = sw[i] * (y[i] - f[i])
     if p == 4:                           # the same sums unrolled: a loop LLVM vectorizes
         tangent_basis4(inv, js, q, n)
     for i in range(n if p != 4 else 0):
@@ -118,6 +118,7 @@ def _summary(p, x, y, w, sw, f, js, low, d, rss, cut_t, cut_cook, q, e, out, est
     dd = ss = 0.0
     xbar = 0.0
     for i in range(n):
+        e[i] = sw[i] * (y[i] - f[i])
         ss += e[i] * e[i]
         xbar += x[i]
         if i > 0:
@@ -131,7 +132,6 @@ def _summary(p, x, y, w, sw, f, js, low, d, rss, cut_t, cut_cook, q, e, out, est
     sxx = szx = sz = szz = 0.0
     for i in range(n):
         sxx += (x[i] - xbar) * (x[i] - xbar)
-    for i in range(n):
         zc = e[i] * e[i] - ss / n
         sz += zc
         szx += zc * (x[i] - xbar)
@@ -140,18 +140,24 @@ def _summary(p, x, y, w, sw, f, js, low, d, rss, cut_t, cut_cook, q, e, out, est
     out[_BP] = lm
     out[_BPP] = chi2_tail(1, lm) if n > 2 and szz > 0 else np.nan
     n_out = n_inf = n_high = n_both = n_lever = 0
+    # the single fit's tests on squares, multiplied out (no division; the same at h = 1):
+    # Cook's e² h / (p sigma² (1-h)²) > cut, studentized e² > t² scale with
+    # scale = (rss - e²/(1-h)) (1-h) / (df-1) = (rss (1-h) - e²) / (df-1) >= 0
     cut_t2 = cut_t * cut_t
-    for i in range(n):       # the single fit's tests on squares (no square roots)
-        h = 0.0
-        for k in range(p):
-            h += q[k, i] * q[k, i]
+    cook_bar, high_bar, df1 = cut_cook * p * sigma2, 2.0 * p / n, df - 1.0
+    for i in range(n):
+        if p == 4:
+            h = q[0, i] * q[0, i] + q[1, i] * q[1, i] + q[2, i] * q[2, i] + q[3, i] * q[3, i]
+        else:
+            h = 0.0
+            for k in range(p):
+                h += q[k, i] * q[k, i]
         one_h = 1.0 - h
         e2 = e[i] * e[i]
-        cook = e2 / (one_h * sigma2) * h / (p * one_h)
-        scale = (rss - e2 / one_h) / (df - 1) * one_h     # studentized: e / sqrt(scale)
-        outlier = df > 1 and scale >= 0 and e2 > cut_t2 * scale
-        influential = cook > cut_cook
-        high = h > 2.0 * p / n
+        num = rss * one_h - e2
+        outlier = (df > 1) & (num >= 0) & (e2 * df1 > cut_t2 * num)
+        influential = e2 * h > cook_bar * (one_h * one_h)
+        high = h > high_bar
         n_out += outlier
         n_inf += influential
         n_high += high

@@ -19,7 +19,7 @@ FAIL = (np.nan,) * 10
 """The placeholder triangle (or, sliced, vector) of a failed pass or factor."""
 
 
-@numba.njit(cache=True, nogil=True, error_model="numpy")
+@numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
 def linearize4(log_x, t, u, y, sw, pure, fj):
     """One pass over the (pooled) points at ``t`` (a 4-tuple), as
     :func:`.curves_linearize.linearize` with second derivatives: returns

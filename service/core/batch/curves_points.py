@@ -24,7 +24,7 @@ from service.core.checks.kernels import shapiro_p
 INSERTION_MAX = 64
 
 
-@numba.njit(cache=True, nogil=True, error_model="numpy")
+@numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
 def sort_order(u, order):
     """Indices putting ``u`` in ascending order (stable) into ``order[:u.size]``."""
     n = u.size
@@ -39,7 +39,7 @@ def sort_order(u, order):
         order[j] = i
 
 
-@numba.njit(cache=True, nogil=True, error_model="numpy")
+@numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
 def sort_values(values, out):
     """``values`` (no NaN) in ascending order into ``out[:values.size]``: each placed at its
     rank, counted without branches, for short series; numpy's sort above
@@ -56,7 +56,7 @@ def sort_values(values, out):
         out[rank] = v
 
 
-@numba.njit(cache=True, nogil=True, error_model="numpy")
+@numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
 def pool(u, y, w, order, ul, yl, swl, which):
     """Pool the points by distinct u (in ``order``): the distinct u, weighted mean y and
     square root of the summed weights of each into ``ul``, ``yl``, ``swl``, and the pool
@@ -84,7 +84,7 @@ def pool(u, y, w, order, ul, yl, swl, which):
     return k, ss
 
 
-@numba.njit(cache=True, nogil=True, error_model="numpy")
+@numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
 def shapiro_w_p(e, coef, srt):
     """Shapiro-Wilk's W of the residuals ``e`` and its p-value, with the AS R94 weights
     ``coef`` for ``e.size`` points (``srt``: scratch of that length); NaNs when all the
@@ -122,7 +122,7 @@ def tangent_basis4(inv, js, q, n):
         q[3, i] = i30 * j0 + i31 * j1 + i32 * j2 + i33 * j3
 
 
-@numba.njit(cache=True, nogil=True, error_model="numpy")
+@numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
 def tangent_sums(q, p, n, gram, dq):
     """``tr(G)``, ``||G||_F²`` and ``||AQ||_F²`` of the orthonormal tangent basis rows
     ``q[:p, :n]`` (the moments of Durbin-Watson's d, as
@@ -180,7 +180,7 @@ def screen(x, y, w, offsets, log_domain, least):
     return take
 
 
-@numba.njit(cache=True, nogil=True, error_model="numpy")
+@numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
 def _tangent_sums4(q, n):
     """:func:`tangent_sums` for four rows, the sums held in registers."""
     d0 = d1 = d2 = d3 = 0.0

@@ -33,7 +33,7 @@ END_FRACTION = 0.15                               # as builtin.shapes.END_FRACTI
 RANK_RTOL = 1e-10                                  # as builtin.starts.RANK_RTOL
 
 
-@numba.njit(cache=True, nogil=True, error_model="numpy")
+@numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
 def levels(u, y, order, lev, means):
     """Distinct ``u`` (ascending, via ``order``) and the mean y at each; returns their count."""
     k = -1

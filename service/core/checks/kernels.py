@@ -73,6 +73,8 @@ def chi2_tail(df, x):
     if x == np.inf:
         return 0.0
     h = 0.5 * x
+    if df == 1:
+        return math.erfc(math.sqrt(h))         # the odd sum below is empty
     if df % 2 == 0:
         term = total = 1.0
         for j in range(1, df // 2):
