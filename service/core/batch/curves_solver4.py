@@ -3,7 +3,7 @@
 The same Levenberg-Marquardt with Newton steps as
 :func:`.curves_solver.solve_family` (the same steps, tests and stop, operation for
 operation), written for the two logistic4 families alone: the scaled normal matrix,
-its Cholesky factor and the curvature term are tuples of scalars rather than rows
+its ``L D L'`` factors and the curvature term are tuples of scalars rather than rows
 of a scratch array, formed in one pass over the points by
 :func:`.curves_linearize4.linearize4`. No array view is made and no array is allocated per
 call (each view or call with arrays costs atomic reference counts); the final factor
@@ -41,50 +41,55 @@ from service.core.batch.curves_solver import (
 
 @numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
 def _cholesky(a):
-    """Lower Cholesky factor (tuple, row by row) of the lower triangle ``a``, as
-    :func:`.curves_solver.cholesky`; ``(False, ...)`` when not positive definite."""
+    """``L D L'`` factors of the lower triangle ``a`` (no square roots): the unit lower
+    ``L`` row by row with the reciprocals of ``D`` on its diagonal (a tuple laid out
+    as :func:`.curves_solver.cholesky`'s factor; the pivots ``D`` are that factor's
+    squared diagonal, held to the same floor); ``(False, ...)`` when not positive
+    definite. Each column costs one division on the dependency chain where the
+    Cholesky factor costs a square root and a division."""
     a00, a10, a11, a20, a21, a22, a30, a31, a32, a33 = a
-    s = a00
-    if not s > PIVOT_FLOOR:
+    if not a00 > PIVOT_FLOOR:
         return False, _FAIL
-    l00 = math.sqrt(s)
-    l10, l20, l30 = a10 / l00, a20 / l00, a30 / l00
-    s = a11 - l10 * l10
-    if not s > PIVOT_FLOOR:
+    r0 = 1.0 / a00
+    l10, l20, l30 = a10 * r0, a20 * r0, a30 * r0
+    d1 = a11 - l10 * a10
+    if not d1 > PIVOT_FLOOR:
         return False, _FAIL
-    l11 = math.sqrt(s)
-    l21, l31 = (a21 - l20 * l10) / l11, (a31 - l30 * l10) / l11
-    s = a22 - l20 * l20 - l21 * l21
-    if not s > PIVOT_FLOOR:
+    r1 = 1.0 / d1
+    u21, u31 = a21 - l20 * a10, a31 - l30 * a10
+    l21, l31 = u21 * r1, u31 * r1
+    d2 = a22 - l20 * a20 - l21 * u21
+    if not d2 > PIVOT_FLOOR:
         return False, _FAIL
-    l22 = math.sqrt(s)
-    l32 = (a32 - l30 * l20 - l31 * l21) / l22
-    s = a33 - l30 * l30 - l31 * l31 - l32 * l32
-    if not s > PIVOT_FLOOR:
+    r2 = 1.0 / d2
+    u32 = a32 - l30 * a20 - l31 * u21
+    l32 = u32 * r2
+    d3 = a33 - l30 * a30 - l31 * u31 - l32 * u32
+    if not d3 > PIVOT_FLOOR:
         return False, _FAIL
-    return True, (l00, l10, l11, l20, l21, l22, l30, l31, l32, math.sqrt(s))
+    return True, (r0, l10, r1, l20, l21, r2, l30, l31, l32, 1.0 / d3)
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
 def _forward(low, b):
-    """Solve ``low z = b``: ``(z, ||z||²)``. The reciprocals of the diagonal depend on
-    ``low`` alone, so the divisions leave the chain from ``b`` to ``z`` (multiplications)."""
-    l00, l10, l11, l20, l21, l22, l30, l31, l32, l33 = low
-    z0 = b[0] * (1.0 / l00)
-    z1 = (b[1] - l10 * z0) * (1.0 / l11)
-    z2 = (b[2] - l20 * z0 - l21 * z1) * (1.0 / l22)
-    z3 = (b[3] - l30 * z0 - l31 * z1 - l32 * z2) * (1.0 / l33)
-    return (z0, z1, z2, z3), z0 * z0 + z1 * z1 + z2 * z2 + z3 * z3
+    """Solve ``L z = b`` for the factors of :func:`_cholesky`: ``(z, z' D^-1 z)`` (the
+    squared norm of the Cholesky factor's forward solve)."""
+    r0, l10, r1, l20, l21, r2, l30, l31, l32, r3 = low
+    z0 = b[0]
+    z1 = b[1] - l10 * z0
+    z2 = b[2] - l20 * z0 - l21 * z1
+    z3 = b[3] - l30 * z0 - l31 * z1 - l32 * z2
+    return (z0, z1, z2, z3), z0 * z0 * r0 + z1 * z1 * r1 + z2 * z2 * r2 + z3 * z3 * r3
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
 def _backward(low, z):
-    """Solve ``low' x = z`` (by the reciprocals of the diagonal, as :func:`_forward`)."""
-    l00, l10, l11, l20, l21, l22, l30, l31, l32, l33 = low
-    x3 = z[3] * (1.0 / l33)
-    x2 = (z[2] - l32 * x3) * (1.0 / l22)
-    x1 = (z[1] - l21 * x2 - l31 * x3) * (1.0 / l11)
-    x0 = (z[0] - l10 * x1 - l20 * x2 - l30 * x3) * (1.0 / l00)
+    """Solve ``D L' x = z`` (after :func:`_forward`: ``x = (L D L')^-1 b``)."""
+    r0, l10, r1, l20, l21, r2, l30, l31, l32, r3 = low
+    x3 = z[3] * r3
+    x2 = z[2] * r2 - l32 * x3
+    x1 = z[1] * r1 - l21 * x2 - l31 * x3
+    x0 = z[0] * r0 - l10 * x1 - l20 * x2 - l30 * x3
     return x0, x1, x2, x3
 
 
@@ -153,8 +158,8 @@ def _try(log_x, trial, u, y, sw, pure, n, rss, offset, slack, fj):
 def solve4(fid, theta, u, y, sw, mats, max_iterations, pure, n, fj):
     """:func:`.curves_solver.solve_family` for logistic4 (``fid`` L4_LOG or L4_LINEAR):
     the same arguments (and ``fj``, scratch of 5 values per point), steps and stop; on
-    return the Cholesky factor of the scaled ``Js'Js`` at ``theta`` and the column norms
-    are in ``mats`` where :func:`.curves_solver.factor_and_norms` finds them.
+    return the ``L D L'`` factors of the scaled ``Js'Js`` at ``theta`` and the column
+    norms are in ``mats`` where :func:`.curves_solver.factor_and_norms` finds them.
 
     Returns ``(code, rss, offset, iterations, fresh)``: ``fresh`` True when ``fj`` holds
     the curve and its gradient at the returned ``theta`` (the last pass over the points
@@ -246,8 +251,9 @@ def solve4(fid, theta, u, y, sw, mats, max_iterations, pure, n, fj):
 
 @numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
 def _store(mats, low, d):
-    """The factor and the column norms where :func:`.curves_solver.factor_and_norms`
-    reads them (rows 0..3 and row 26 of the scratch for p = 4)."""
+    """The ``L D L'`` factors and the column norms where
+    :func:`.curves_solver.factor_and_norms` reads them (rows 0..3 and row 26 of the
+    scratch for p = 4)."""
     mats[0, 0] = low[0]
     mats[1, 0], mats[1, 1] = low[1], low[2]
     mats[2, 0], mats[2, 1], mats[2, 2] = low[3], low[4], low[5]
