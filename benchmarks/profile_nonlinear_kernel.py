@@ -37,7 +37,7 @@ STAGES = (("        order, which = order_all[:n]", "read: ln x, sqrt w"),
           ("        if shape_ok:", "shape start"),
           ("        if (always_grid or not found)", "solve from the shape start"),
           ("        if not found:", "grid start (when needed)"),
-          ("        zz = 0.0", "orientation, re-solve"),
+          ("        if code > SMALL_GRADIENT", "orientation, re-solve"),
           ("        row = stats[r]", "curve and Jacobian at the estimates"),
           ("        if not math.isfinite(row[_BP])", "inference and residual checks"),
           (None, "lack of fit, TSS, store"))

@@ -203,12 +203,17 @@ def fit_rows(fid, x, y, w, offsets, rows, cut_t, cut_cook, sw_start, sw_coef, al
         xs, ys, ws = x[a:b], y[a:b], (w[a:b] if weighted else ones[:n])
         u, sw, cols = u_all[:n], sw_all[:n], cols_all[:, :n]
         status[r] = 1
+        zz = sw_total = swy = logw = 0.0      # for the exact-fit test and TSS, in this pass
         for i in range(n):
             if i > 0 and xs[i] == xs[i - 1]:           # a replicate: the same u
                 u[i] = u[i - 1]
             else:
                 u[i] = (math.log(xs[i]) if xs[i] > 0 else -np.inf) if log_x else xs[i]
             sw[i] = math.sqrt(ws[i]) if ws[i] != 1.0 else 1.0
+            zz += sw[i] * ys[i] * sw[i] * ys[i]
+            sw_total += ws[i]
+            swy += ws[i] * ys[i]
+            logw += math.log(ws[i]) if ws[i] != 1.0 else 0.0
         order, which = order_all[:n], which_all[:n]
         sort_order(u, order)
         m = levels(u, ys, order, lev, means)
@@ -254,9 +259,6 @@ def fit_rows(fid, x, y, w, offsets, rows, cut_t, cut_cook, sw_start, sw_coef, al
         if not current:     # the solver's state (factor, column norms) at the kept estimates
             code, rss, offset, _, fresh = solve(fid, theta, ul_all[:k], yl_all[:k],
                                                 swl_all[:k], mats, 200, ss_pure, n, fj)
-        zz = 0.0
-        for i in range(n):
-            zz += sw[i] * ys[i] * sw[i] * ys[i]
         if code > SMALL_GRADIENT or not rss > EXACT_RTOL * EXACT_RTOL * zz or n <= p + 1:
             continue
         low, d = factor_and_norms(mats, p)
@@ -284,11 +286,6 @@ def fit_rows(fid, x, y, w, offsets, rows, cut_t, cut_cook, sw_start, sw_coef, al
             row[_LOFDF], row[_PUREDF] = k - p, n - k
             if k - p > 0 and ss_pure > 0:
                 row[_LOF] = (max(rss - ss_pure, 0.0) / (k - p)) / (ss_pure / (n - k))
-        sw_total = swy = logw = 0.0
-        for i in range(n):
-            sw_total += ws[i]
-            swy += ws[i] * ys[i]
-            logw += math.log(ws[i]) if ws[i] != 1.0 else 0.0
         tss = 0.0
         for i in range(n):
             tss += ws[i] * (ys[i] - swy / sw_total) ** 2
