@@ -19,7 +19,7 @@ FAIL = (np.nan,) * 10
 """The placeholder triangle (or, sliced, vector) of a failed pass or factor."""
 
 
-@numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
+@numba.njit(cache=True, nogil=True, error_model="numpy")
 def linearize4(log_x, t, u, y, sw, pure, fj):
     """One pass over the (pooled) points at ``t`` (a 4-tuple), as
     :func:`.curves_linearize.linearize` with second derivatives: returns
@@ -105,3 +105,9 @@ def linearize4(log_x, t, u, y, sw, pure, fj):
     return (True, rss + pure, 4.0 * worst, slack,
             (a00, a10, a11, a20, a21, a22, a30, a31, a32, a33), (g0, g1, g2, g3),
             (d0, d1, d2, d3), (0.0, 0.0, 0.0, h20, h21, h22, h30, h31, h32, h33))
+
+
+linearize4_inline = numba.njit(cache=True, nogil=True, error_model="numpy",
+                               inline="always")(linearize4.py_func)
+""":func:`linearize4` compiled into its caller: for the solver's two hot passes (the Newton
+and the damped trial; each copy adds several seconds to the cold compile)."""

@@ -20,6 +20,7 @@ import numpy as np
 
 from service.core.batch.curves_linearize4 import FAIL as _FAIL
 from service.core.batch.curves_linearize4 import linearize4 as _linearize
+from service.core.batch.curves_linearize4 import linearize4_inline as _pass
 from service.core.batch.curves_models import L4_LOG, has_curvature
 from service.core.batch.curves_solver import (
     ACCELERATE_OFFSET,
@@ -139,10 +140,12 @@ def _damped(a, lam, cm, newton):
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
-def _try(log_x, trial, u, y, sw, pure, n, rss, offset, slack, fj):
-    """:func:`.curves_solver._try`: ``(verdict, code, rss, offset, slack, floor-free state)``
-    with the trial point's ``(a, g, d, cm, low)`` when accepted (verdict 1)."""
-    ok, rt, floor_t, slack_t, a, g, d, cm = _linearize(log_x, trial, u, y, sw, pure, fj)
+def _try(passed, n, rss, offset, slack):
+    """:func:`.curves_solver._try` on ``passed``, the pass over the points at the trial
+    (:func:`.curves_linearize4.linearize4`): ``(verdict, code, rss, offset, slack,
+    floor-free state)`` with the trial point's ``(a, g, d, cm, low)`` when accepted
+    (verdict 1)."""
+    ok, rt, floor_t, slack_t, a, g, d, cm = passed
     if not ok:
         return 0, -1, rss, offset, slack, a, g, d, cm, _FAIL
     flat = offset <= FLAT_OFFSET and rt <= rss + slack
@@ -185,7 +188,7 @@ def solve4(fid, theta, u, y, sw, mats, max_iterations, pure, n, fj):
             outcome, _, extra = _step(t, _damped(a, lam, cm, True), g, d)
             if outcome == 2:
                 verdict, c, r, o, sl, a2, g2, d2, cm2, low2 = _try(
-                    log_x, extra, u, y, sw, pure, n, rss, offset, slack, fj)
+                    _pass(log_x, extra, u, y, sw, pure, fj), n, rss, offset, slack)
                 if verdict == 1:
                     fresh = True
                     have_prev = False
@@ -213,8 +216,8 @@ def solve4(fid, theta, u, y, sw, mats, max_iterations, pure, n, fj):
                              trial[1] - gamma * (t[1] - prev_t[1] + s[1] - prev_s[1]),
                              trial[2] - gamma * (t[2] - prev_t[2] + s[2] - prev_s[2]),
                              trial[3] - gamma * (t[3] - prev_t[3] + s[3] - prev_s[3]))
-                    verdict, c, r, o, sl, a2, g2, d2, cm2, low2 = _try(
-                        log_x, extra, u, y, sw, pure, n, rss, offset, slack, fj)
+                    verdict, c, r, o, sl, a2, g2, d2, cm2, low2 = _try(     # (rare: a call)
+                        _linearize(log_x, extra, u, y, sw, pure, fj), n, rss, offset, slack)
                     if verdict == 1:
                         fresh = True
                         prev_t, prev_s = t, s
@@ -224,7 +227,7 @@ def solve4(fid, theta, u, y, sw, mats, max_iterations, pure, n, fj):
                         lam = max(lam * 0.1, 1e-12)
                         break
             verdict, c, r, o, sl, a2, g2, d2, cm2, low2 = _try(
-                log_x, trial, u, y, sw, pure, n, rss, offset, slack, fj)
+                _pass(log_x, trial, u, y, sw, pure, fj), n, rss, offset, slack)
             if verdict == 1:
                 fresh = True
                 prev_t, prev_s = t, s
