@@ -44,10 +44,8 @@ CODES = ("relative_offset", "small_gradient", "stalled", "singular_jacobian", "i
 
 @numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
 def cholesky(a, p, low):
-    """``L D L'`` factors of ``a[:p, :p]`` into ``low``: unit ``L`` below the diagonal,
-    ``1/D`` on it (``D``: the Cholesky factor's squared diagonal, floored by
-    :data:`PIVOT_FLOOR`), ``L D`` above it. False when not positive definite. No square
-    root: one division per column on the dependency chain."""
+    """``L D L'`` of ``a[:p, :p]`` into ``low`` (unit ``L`` below the diagonal, ``1/D`` on it,
+    ``L D`` above; pivots ``D`` floored by :data:`PIVOT_FLOOR`); False if not definite."""
     for j in range(p):
         s = a[j, j]
         for k in range(j):
