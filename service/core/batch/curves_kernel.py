@@ -187,7 +187,7 @@ def fit_rows(fid, x, y, w, offsets, rows, cut_t, cut_cook, sw_start, sw_coef, al
     u_all, sw_all = np.empty(nmax), np.empty(nmax)
     weighted, ones = w.size > 0, np.ones(nmax)
     f, v = np.empty(nmax), np.empty(nmax)
-    lev, means = np.empty(nmax), np.empty(nmax)
+    lev_all, means_all = np.empty(nmax), np.empty(nmax)
     e_all, srt_all = np.empty(nmax), np.empty(nmax)
     order_all, which_all = np.empty(nmax, dtype=np.int64), np.empty(nmax, dtype=np.int64)
     fj = np.empty((p + 1) * nmax)           # the curve and its gradient at the pooled u
@@ -216,8 +216,11 @@ def fit_rows(fid, x, y, w, offsets, rows, cut_t, cut_cook, sw_start, sw_coef, al
             logw += math.log(ws[i]) if ws[i] != 1.0 else 0.0
         order, which = order_all[:n], which_all[:n]
         sort_order(u, order)
-        m = levels(u, ys, order, lev, means)
         k, ss_pure = pool(u, ys, ws, order, ul_all, yl_all, swl_all, which)
+        lev, means, m = ul_all, yl_all, k    # unit weights: the pools' means, bit for bit
+        if weighted:
+            lev, means = lev_all, means_all
+            m = levels(u, ys, order, lev, means)
         pooled = (ul_all, yl_all, swl_all, ss_pure, k)
         found, best_rss, start, spent, current = False, np.inf, SHAPE, 0, False
         code, offset, fresh, settle = -1, np.nan, False, 0
