@@ -13,10 +13,9 @@ Per series: the shape start (:func:`.curves_starts.shape_start`) is solved first
 (:func:`.curves_solver4.solve`); the grid's best point too when the shape
 start did not converge, or always with ``always_grid`` (the single fit solves
 both and keeps the lowest converged); logistic5 and biexponential from every start of
-the single fit (:mod:`.curves_multistart`). logistic4 is written with slope > 0
-(the mirror of a falling curve, as the single fit reports it), biexponential with
-k_fast > k_slow. Then, at the
-estimates, with ``e`` the weighted residuals and the tangent plane
+the single fit (:mod:`.curves_multistart`). logistic4 is written with slope > 0 (the
+mirror of a falling curve, as the single fit reports it), biexponential with k_fast >
+k_slow. Then, at the estimates, with ``e`` the weighted residuals and the tangent plane
 ``Q = sqrt(W) J R^-1``: standard errors ``sigma sqrt(diag (J'WJ)^-1)``,
 leverages ``h = rowsums(Q²)``, Durbin-Watson's d and its p-value from Q's
 moments (:func:`service.core.checks.kernels.dw_p`), Koenker's Breusch-Pagan
@@ -140,11 +139,9 @@ def _summary(p, x, y, w, sw, f, js, low, d, rss, cut_t, cut_cook, q, e, out, est
     out[_BP] = lm
     out[_BPP] = chi2_tail(1, lm) if n > 2 and szz > 0 else np.nan
     n_out = n_inf = n_high = n_both = n_lever = 0
-    # the single fit's tests on squares, multiplied out (no division; the same at h = 1):
-    # Cook's e² h / (p sigma² (1-h)²) > cut, studentized e² > t² scale with
-    # scale = (rss - e²/(1-h)) (1-h) / (df-1) = (rss (1-h) - e²) / (df-1) >= 0
-    cut_t2 = cut_t * cut_t
-    cook_bar, high_bar, df1 = cut_cook * p * sigma2, 2.0 * p / n, df - 1.0
+    # the single fit's tests on squares, multiplied out (no division; the same at h = 1): Cook's
+    # e² h / (p sigma² (1-h)²) > cut, studentized e² > t² (rss (1-h) - e²) / (df-1) >= 0
+    cut_t2, cook_bar, high_bar, df1 = cut_t * cut_t, cut_cook * p * sigma2, 2.0 * p / n, df - 1.0
     for i in range(n):
         if p == 4:
             h = q[0, i] * q[0, i] + q[1, i] * q[1, i] + q[2, i] * q[2, i] + q[3, i] * q[3, i]
@@ -204,16 +201,19 @@ def fit_rows(fid, x, y, w, offsets, rows, cut_t, cut_cook, sw_start, sw_coef, al
         u, sw, cols = u_all[:n], sw_all[:n], cols_all[:, :n]
         status[r] = 1
         zz = sw_total = swy = logw = 0.0      # for the exact-fit test and TSS, in this pass
+        w_last, sw_last, logw_last = 1.0, 1.0, 0.0     # a weight's root and log, until it changes
         for i in range(n):
             if i > 0 and xs[i] == xs[i - 1]:           # a replicate: the same u
                 u[i] = u[i - 1]
             else:
                 u[i] = (math.log(xs[i]) if xs[i] > 0 else -np.inf) if log_x else xs[i]
-            sw[i] = math.sqrt(ws[i]) if ws[i] != 1.0 else 1.0
+            if ws[i] != w_last:
+                w_last, sw_last, logw_last = ws[i], math.sqrt(ws[i]), math.log(ws[i])
+            sw[i] = sw_last
             zz += sw[i] * ys[i] * sw[i] * ys[i]
             sw_total += ws[i]
             swy += ws[i] * ys[i]
-            logw += math.log(ws[i]) if ws[i] != 1.0 else 0.0
+            logw += logw_last
         order, which = order_all[:n], which_all[:n]
         sort_order(u, order)
         k, ss_pure = pool(u, ys, ws, order, ul_all, yl_all, swl_all, which)
