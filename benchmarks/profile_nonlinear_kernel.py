@@ -32,12 +32,12 @@ from service.core.batch.curves import fit_many_curves  # noqa: E402
 # (text the stop goes before, name of the stage that ends there); shape_start is split
 # from its solve by the replacement below
 STAGES = (("        order, which = order_all[:n]", "read: ln x, sqrt w"),
-          ("        m = levels(", "sort by x"),
+          ("        k, ss_pure = pool(", "sort by x"),
           ("        pooled = (ul_all", "levels, pooling"),
           ("        if shape_ok:", "shape start"),
           ("        if (always_grid or not found)", "solve from the shape start"),
           ("        if not found:", "grid start (when needed)"),
-          ("        zz = 0.0", "orientation, re-solve"),
+          ("        if code > SMALL_GRADIENT", "orientation, re-solve"),
           ("        row = stats[r]", "curve and Jacobian at the estimates"),
           ("        if not math.isfinite(row[_BP])", "inference and residual checks"),
           (None, "lack of fit, TSS, store"))

@@ -112,7 +112,7 @@ def _shapiro_table(lengths: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     3..SHAPIRO_MAX_N)."""
     start = np.full(int(lengths.max()) + 1, -1, dtype=np.int64)
     parts, at = [], 0
-    for n in np.unique(lengths).tolist():
+    for n in np.flatnonzero(np.bincount(lengths)).tolist():      # the lengths present
         if 3 <= n <= SHAPIRO_MAX_N:
             start[n] = at
             parts.append(shapiro_weights(n))

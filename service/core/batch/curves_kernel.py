@@ -13,10 +13,9 @@ Per series: the shape start (:func:`.curves_starts.shape_start`) is solved first
 (:func:`.curves_solver4.solve`); the grid's best point too when the shape
 start did not converge, or always with ``always_grid`` (the single fit solves
 both and keeps the lowest converged); logistic5 and biexponential from every start of
-the single fit (:mod:`.curves_multistart`). logistic4 is written with slope > 0
-(the mirror of a falling curve, as the single fit reports it), biexponential with
-k_fast > k_slow. Then, at the
-estimates, with ``e`` the weighted residuals and the tangent plane
+the single fit (:mod:`.curves_multistart`). logistic4 is written with slope > 0 (the
+mirror of a falling curve, as the single fit reports it), biexponential with k_fast >
+k_slow. Then, at the estimates, with ``e`` the weighted residuals and the tangent plane
 ``Q = sqrt(W) J R^-1``: standard errors ``sigma sqrt(diag (J'WJ)^-1)``,
 leverages ``h = rowsums(Q²)``, Durbin-Watson's d and its p-value from Q's
 moments (:func:`service.core.checks.kernels.dw_p`), Koenker's Breusch-Pagan
@@ -101,12 +100,12 @@ def _summary(p, x, y, w, sw, f, js, low, d, rss, cut_t, cut_cook, q, e, out, est
     for j in range(p):
         est_se[j] = math.sqrt(sigma2 * cov[j, j]) / d[j]
     worst = 0.0
+    for j in range(p):                   # 1 / sqrt(cov[j, j]) (dq: scratch here)
+        dq[j] = 1.0 / math.sqrt(cov[j, j])
     for j in range(p):
         for k in range(j):
-            worst = max(worst, abs(cov[j, k]) / math.sqrt(cov[j, j] * cov[k, k]))
+            worst = max(worst, abs(cov[j, k]) * dq[j] * dq[k])
     out[_CORR] = worst
-    for i in range(n):
-        e[i] = sw[i] * (y[i] - f[i])
     if p == 4:                           # the same sums unrolled: a loop LLVM vectorizes
         tangent_basis4(inv, js, q, n)
     for i in range(n if p != 4 else 0):
@@ -118,6 +117,7 @@ def _summary(p, x, y, w, sw, f, js, low, d, rss, cut_t, cut_cook, q, e, out, est
     dd = ss = 0.0
     xbar = 0.0
     for i in range(n):
+        e[i] = sw[i] * (y[i] - f[i])
         ss += e[i] * e[i]
         xbar += x[i]
         if i > 0:
@@ -131,7 +131,6 @@ def _summary(p, x, y, w, sw, f, js, low, d, rss, cut_t, cut_cook, q, e, out, est
     sxx = szx = sz = szz = 0.0
     for i in range(n):
         sxx += (x[i] - xbar) * (x[i] - xbar)
-    for i in range(n):
         zc = e[i] * e[i] - ss / n
         sz += zc
         szx += zc * (x[i] - xbar)
@@ -140,18 +139,22 @@ def _summary(p, x, y, w, sw, f, js, low, d, rss, cut_t, cut_cook, q, e, out, est
     out[_BP] = lm
     out[_BPP] = chi2_tail(1, lm) if n > 2 and szz > 0 else np.nan
     n_out = n_inf = n_high = n_both = n_lever = 0
-    cut_t2 = cut_t * cut_t
-    for i in range(n):       # the single fit's tests on squares (no square roots)
-        h = 0.0
-        for k in range(p):
-            h += q[k, i] * q[k, i]
+    # the single fit's tests on squares, multiplied out (no division; the same at h = 1): Cook's
+    # e² h / (p sigma² (1-h)²) > cut, studentized e² > t² (rss (1-h) - e²) / (df-1) >= 0
+    cut_t2, cook_bar, high_bar, df1 = cut_t * cut_t, cut_cook * p * sigma2, 2.0 * p / n, df - 1.0
+    for i in range(n):
+        if p == 4:
+            h = q[0, i] * q[0, i] + q[1, i] * q[1, i] + q[2, i] * q[2, i] + q[3, i] * q[3, i]
+        else:
+            h = 0.0
+            for k in range(p):
+                h += q[k, i] * q[k, i]
         one_h = 1.0 - h
         e2 = e[i] * e[i]
-        cook = e2 / (one_h * sigma2) * h / (p * one_h)
-        scale = (rss - e2 / one_h) / (df - 1) * one_h     # studentized: e / sqrt(scale)
-        outlier = df > 1 and scale >= 0 and e2 > cut_t2 * scale
-        influential = cook > cut_cook
-        high = h > 2.0 * p / n
+        num = rss * one_h - e2
+        outlier = (df > 1) & (num >= 0) & (e2 * df1 > cut_t2 * num)
+        influential = e2 * h > cook_bar * (one_h * one_h)
+        high = h > high_bar
         n_out += outlier
         n_inf += influential
         n_high += high
@@ -181,7 +184,7 @@ def fit_rows(fid, x, y, w, offsets, rows, cut_t, cut_cook, sw_start, sw_coef, al
     u_all, sw_all = np.empty(nmax), np.empty(nmax)
     weighted, ones = w.size > 0, np.ones(nmax)
     f, v = np.empty(nmax), np.empty(nmax)
-    lev, means = np.empty(nmax), np.empty(nmax)
+    lev_all, means_all = np.empty(nmax), np.empty(nmax)
     e_all, srt_all = np.empty(nmax), np.empty(nmax)
     order_all, which_all = np.empty(nmax, dtype=np.int64), np.empty(nmax, dtype=np.int64)
     fj = np.empty((p + 1) * nmax)           # the curve and its gradient at the pooled u
@@ -197,16 +200,27 @@ def fit_rows(fid, x, y, w, offsets, rows, cut_t, cut_cook, sw_start, sw_coef, al
         xs, ys, ws = x[a:b], y[a:b], (w[a:b] if weighted else ones[:n])
         u, sw, cols = u_all[:n], sw_all[:n], cols_all[:, :n]
         status[r] = 1
+        zz = sw_total = swy = logw = 0.0      # for the exact-fit test and TSS, in this pass
+        w_last, sw_last, logw_last = 1.0, 1.0, 0.0     # a weight's root and log, until it changes
         for i in range(n):
             if i > 0 and xs[i] == xs[i - 1]:           # a replicate: the same u
                 u[i] = u[i - 1]
             else:
                 u[i] = (math.log(xs[i]) if xs[i] > 0 else -np.inf) if log_x else xs[i]
-            sw[i] = math.sqrt(ws[i]) if ws[i] != 1.0 else 1.0
+            if ws[i] != w_last:
+                w_last, sw_last, logw_last = ws[i], math.sqrt(ws[i]), math.log(ws[i])
+            sw[i] = sw_last
+            zz += sw[i] * ys[i] * sw[i] * ys[i]
+            sw_total += ws[i]
+            swy += ws[i] * ys[i]
+            logw += logw_last
         order, which = order_all[:n], which_all[:n]
         sort_order(u, order)
-        m = levels(u, ys, order, lev, means)
         k, ss_pure = pool(u, ys, ws, order, ul_all, yl_all, swl_all, which)
+        lev, means, m = ul_all, yl_all, k    # unit weights: the pools' means, bit for bit
+        if weighted:
+            lev, means = lev_all, means_all
+            m = levels(u, ys, order, lev, means)
         pooled = (ul_all, yl_all, swl_all, ss_pure, k)
         found, best_rss, start, spent, current = False, np.inf, SHAPE, 0, False
         code, offset, fresh, settle = -1, np.nan, False, 0
@@ -248,9 +262,6 @@ def fit_rows(fid, x, y, w, offsets, rows, cut_t, cut_cook, sw_start, sw_coef, al
         if not current:     # the solver's state (factor, column norms) at the kept estimates
             code, rss, offset, _, fresh = solve(fid, theta, ul_all[:k], yl_all[:k],
                                                 swl_all[:k], mats, 200, ss_pure, n, fj)
-        zz = 0.0
-        for i in range(n):
-            zz += sw[i] * ys[i] * sw[i] * ys[i]
         if code > SMALL_GRADIENT or not rss > EXACT_RTOL * EXACT_RTOL * zz or n <= p + 1:
             continue
         low, d = factor_and_norms(mats, p)
@@ -278,11 +289,6 @@ def fit_rows(fid, x, y, w, offsets, rows, cut_t, cut_cook, sw_start, sw_coef, al
             row[_LOFDF], row[_PUREDF] = k - p, n - k
             if k - p > 0 and ss_pure > 0:
                 row[_LOF] = (max(rss - ss_pure, 0.0) / (k - p)) / (ss_pure / (n - k))
-        sw_total = swy = logw = 0.0
-        for i in range(n):
-            sw_total += ws[i]
-            swy += ws[i] * ys[i]
-            logw += math.log(ws[i]) if ws[i] != 1.0 else 0.0
         tss = 0.0
         for i in range(n):
             tss += ws[i] * (ys[i] - swy / sw_total) ** 2

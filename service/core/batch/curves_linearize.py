@@ -53,7 +53,7 @@ def linearize(fid, theta, u, y, sw, p, a, g, d, row, buf, second, cm, hess):
             cj = row[j] * w
             g[j] += cj * ri
             for k in range(j + 1):
-                a[j, k] += cj * row[k] * w
+                a[j, k] += cj * (row[k] * w)
         if second:
             curvature(fid, theta, c0, c1, u[i], buf[i], hess)
             for j in range(p):
@@ -108,16 +108,16 @@ def _linearize4(fid, theta, u, y, sw, a, g, d, row, buf, second, cm, hess):
         g1 += c_1 * ri
         g2 += c_2 * ri
         g3 += c_3 * ri
-        a00 += c_0 * r0 * w
-        a10 += c_1 * r0 * w
-        a11 += c_1 * r1 * w
-        a20 += c_2 * r0 * w
-        a21 += c_2 * r1 * w
-        a22 += c_2 * r2 * w
-        a30 += c_3 * r0 * w
-        a31 += c_3 * r1 * w
-        a32 += c_3 * r2 * w
-        a33 += c_3 * r3 * w
+        a00 += c_0 * c_0
+        a10 += c_1 * c_0
+        a11 += c_1 * c_1
+        a20 += c_2 * c_0
+        a21 += c_2 * c_1
+        a22 += c_2 * c_2
+        a30 += c_3 * c_0
+        a31 += c_3 * c_1
+        a32 += c_3 * c_2
+        a33 += c_3 * c_3
         if second:
             curvature(fid, theta, c0, c1, u[i], buf[i], hess)
             wr = w * ri

@@ -63,16 +63,16 @@ def linearize4(log_x, t, u, y, sw, pure, fj):
         g1 += c_1 * ri
         g2 += c_2 * ri
         g3 += c_3 * ri
-        a00 += c_0 * r0 * w
-        a10 += c_1 * r0 * w
-        a11 += c_1 * r1 * w
-        a20 += c_2 * r0 * w
-        a21 += c_2 * r1 * w
-        a22 += c_2 * r2 * w
-        a30 += c_3 * r0 * w
-        a31 += c_3 * r1 * w
-        a32 += c_3 * r2 * w
-        a33 += c_3 * r3 * w
+        a00 += c_0 * c_0
+        a10 += c_1 * c_0
+        a11 += c_1 * c_1
+        a20 += c_2 * c_0
+        a21 += c_2 * c_1
+        a22 += c_2 * c_2
+        a30 += c_3 * c_0
+        a31 += c_3 * c_1
+        a32 += c_3 * c_2
+        a33 += c_3 * c_3
         q1 = -bi * (1.0 - bi)                          # curvature (curves_models.curvature)
         q2 = q1 * (2.0 * bi - 1.0)
         wr = w * ri
@@ -105,3 +105,9 @@ def linearize4(log_x, t, u, y, sw, pure, fj):
     return (True, rss + pure, 4.0 * worst, slack,
             (a00, a10, a11, a20, a21, a22, a30, a31, a32, a33), (g0, g1, g2, g3),
             (d0, d1, d2, d3), (0.0, 0.0, 0.0, h20, h21, h22, h30, h31, h32, h33))
+
+
+linearize4_inline = numba.njit(cache=True, nogil=True, error_model="numpy",
+                               inline="always")(linearize4.py_func)
+""":func:`linearize4` compiled into its caller: for the solver's two hot passes (the Newton
+and the damped trial; each copy adds several seconds to the cold compile)."""

@@ -24,7 +24,7 @@ from service.core.checks.kernels import shapiro_p
 INSERTION_MAX = 64
 
 
-@numba.njit(cache=True, nogil=True, error_model="numpy")
+@numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
 def sort_order(u, order):
     """Indices putting ``u`` in ascending order (stable) into ``order[:u.size]``."""
     n = u.size
@@ -39,7 +39,7 @@ def sort_order(u, order):
         order[j] = i
 
 
-@numba.njit(cache=True, nogil=True, error_model="numpy")
+@numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
 def sort_values(values, out):
     """``values`` (no NaN) in ascending order into ``out[:values.size]``: each placed at its
     rank, counted without branches, for short series; numpy's sort above
@@ -48,15 +48,27 @@ def sort_values(values, out):
     if n > INSERTION_MAX:
         out[:n] = np.sort(values)
         return
-    for i in range(n):
-        v = values[i]
+    i = 0
+    while i + 4 <= n:           # four ranks counted side by side (independent sums)
+        v0, v1, v2, v3 = values[i], values[i + 1], values[i + 2], values[i + 3]
+        r0 = r1 = r2 = r3 = 0
+        for j in range(n):
+            vj = values[j]
+            r0 += (vj < v0) | ((vj == v0) & (j < i))
+            r1 += (vj < v1) | ((vj == v1) & (j < i + 1))
+            r2 += (vj < v2) | ((vj == v2) & (j < i + 2))
+            r3 += (vj < v3) | ((vj == v3) & (j < i + 3))
+        out[r0], out[r1], out[r2], out[r3] = v0, v1, v2, v3
+        i += 4
+    for k in range(i, n):
+        v = values[k]
         rank = 0
         for j in range(n):
-            rank += (values[j] < v) | ((values[j] == v) & (j < i))
+            rank += (values[j] < v) | ((values[j] == v) & (j < k))
         out[rank] = v
 
 
-@numba.njit(cache=True, nogil=True, error_model="numpy")
+@numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
 def pool(u, y, w, order, ul, yl, swl, which):
     """Pool the points by distinct u (in ``order``): the distinct u, weighted mean y and
     square root of the summed weights of each into ``ul``, ``yl``, ``swl``, and the pool
@@ -84,7 +96,7 @@ def pool(u, y, w, order, ul, yl, swl, which):
     return k, ss
 
 
-@numba.njit(cache=True, nogil=True, error_model="numpy")
+@numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
 def shapiro_w_p(e, coef, srt):
     """Shapiro-Wilk's W of the residuals ``e`` and its p-value, with the AS R94 weights
     ``coef`` for ``e.size`` points (``srt``: scratch of that length); NaNs when all the
@@ -122,7 +134,7 @@ def tangent_basis4(inv, js, q, n):
         q[3, i] = i30 * j0 + i31 * j1 + i32 * j2 + i33 * j3
 
 
-@numba.njit(cache=True, nogil=True, error_model="numpy")
+@numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
 def tangent_sums(q, p, n, gram, dq):
     """``tr(G)``, ``||G||_F²`` and ``||AQ||_F²`` of the orthonormal tangent basis rows
     ``q[:p, :n]`` (the moments of Durbin-Watson's d, as
@@ -180,7 +192,7 @@ def screen(x, y, w, offsets, log_domain, least):
     return take
 
 
-@numba.njit(cache=True, nogil=True, error_model="numpy")
+@numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
 def _tangent_sums4(q, n):
     """:func:`tangent_sums` for four rows, the sums held in registers."""
     d0 = d1 = d2 = d3 = 0.0

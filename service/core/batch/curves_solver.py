@@ -2,7 +2,7 @@
 
 Method: Levenberg-Marquardt on the normal equations of the column-scaled
 weighted Jacobian ``Js = sqrt(W) J D^-1`` (``D``: column norms, so the damping
-``lambda I`` is Marquardt's scaling), Cholesky factors of the small p x p
+``lambda I`` is Marquardt's scaling), L D L' factors (no square roots) of the small p x p
 systems. Convergence is judged at a point with the single fit's criterion,
 the Bates & Watts (1981) relative offset
 ``(||Q1' r|| / sqrt(p)) / (||r - Q1 Q1' r|| / sqrt(n - p))``, where
@@ -44,44 +44,46 @@ CODES = ("relative_offset", "small_gradient", "stalled", "singular_jacobian", "i
 
 @numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
 def cholesky(a, p, low):
-    """Lower Cholesky factor of ``a[:p, :p]`` into ``low``; False when not positive definite."""
+    """``L D L'`` of ``a[:p, :p]`` into ``low`` (unit ``L`` below the diagonal, ``1/D`` on it,
+    ``L D`` above; pivots ``D`` floored by :data:`PIVOT_FLOOR`); False if not definite."""
     for j in range(p):
         s = a[j, j]
         for k in range(j):
-            s -= low[j, k] * low[j, k]
+            s -= low[j, k] * low[k, j]
         if not s > PIVOT_FLOOR:
             return False
-        low[j, j] = math.sqrt(s)
+        r = 1.0 / s
+        low[j, j] = r
         for i in range(j + 1, p):
             t = a[i, j]
             for k in range(j):
-                t -= low[i, k] * low[j, k]
-            low[i, j] = t / low[j, j]
+                t -= low[i, k] * low[k, j]
+            low[j, i] = t
+            low[i, j] = t * r
     return True
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
 def forward(low, p, b, out):
-    """Solve ``low z = b``; returns ``||z||²``. By the reciprocals of the diagonal, which
-    depend on ``low`` alone: the divisions leave the chain from ``b`` to ``z``."""
+    """Solve ``L z = b`` (:func:`cholesky`'s factors); returns ``z' D^-1 z``."""
     total = 0.0
     for i in range(p):
         t = b[i]
         for k in range(i):
             t -= low[i, k] * out[k]
-        out[i] = t * (1.0 / low[i, i])
-        total += out[i] * out[i]
+        out[i] = t
+        total += t * t * low[i, i]
     return total
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
 def backward(low, p, z, out):
-    """Solve ``low' x = z`` (by the reciprocals of the diagonal, as :func:`forward`)."""
+    """Solve ``D L' x = z`` (after :func:`forward`: ``x = (L D L')^-1 b``)."""
     for i in range(p - 1, -1, -1):
-        t = z[i]
+        t = z[i] * low[i, i]
         for k in range(i + 1, p):
             t -= low[k, i] * out[k]
-        out[i] = t * (1.0 / low[i, i])
+        out[i] = t
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
@@ -90,7 +92,7 @@ def check(a, g, d, p, low, z, rss, floor, n):
 
     ``code`` is RELATIVE_OFFSET or SMALL_GRADIENT when met, SINGULAR for a singular
     tangent plane (or a zero column), STALLED for a zero residual, else -1 (go on).
-    ``low`` receives the Cholesky factor of ``a``.
+    ``low`` receives the ``L D L'`` factors of ``a`` (:func:`cholesky`).
     """
     for j in range(p):
         if not d[j] > 0:
@@ -194,7 +196,7 @@ def solve_family(fid, theta, u, y, sw, mats, max_iterations, pure, n):
     of the points, at a third of the work for triplicates.
 
     ``mats`` is scratch of shape ``(scratch_rows(p), p)``; on a converged return
-    :func:`factor_and_norms` reads the Cholesky factor of the scaled ``Js'Js`` at
+    :func:`factor_and_norms` makes the Cholesky factor of the scaled ``Js'Js`` at
     ``theta`` and the column norms ``D`` from it.
 
     A step is accepted when it lowers the RSS; once the relative offset is below
@@ -301,6 +303,13 @@ def solve_family(fid, theta, u, y, sw, mats, max_iterations, pure, n):
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
 def factor_and_norms(mats, p):
-    """The Cholesky factor of the scaled ``Js'Js`` and the column norms ``D`` that
-    :func:`solve_family` and :func:`.curves_solver4.solve4` leave in the scratch."""
-    return mats[0:p], mats[6 * p + 2]
+    """The Cholesky factor ``L sqrt(D)`` of the scaled ``Js'Js`` (made in place, once per
+    solve, from the factors :func:`solve_family` and :func:`.curves_solver4.solve4`
+    leave in the scratch) and the column norms ``D``."""
+    low = mats[0:p]
+    for j in range(p):
+        root = 1.0 / math.sqrt(low[j, j])
+        low[j, j] = root
+        for i in range(j + 1, p):
+            low[i, j] *= root
+    return low, mats[6 * p + 2]

@@ -3,7 +3,7 @@
 The same Levenberg-Marquardt with Newton steps as
 :func:`.curves_solver.solve_family` (the same steps, tests and stop, operation for
 operation), written for the two logistic4 families alone: the scaled normal matrix,
-its Cholesky factor and the curvature term are tuples of scalars rather than rows
+its ``L D L'`` factors and the curvature term are tuples of scalars rather than rows
 of a scratch array, formed in one pass over the points by
 :func:`.curves_linearize4.linearize4`. No array view is made and no array is allocated per
 call (each view or call with arrays costs atomic reference counts); the final factor
@@ -20,6 +20,7 @@ import numpy as np
 
 from service.core.batch.curves_linearize4 import FAIL as _FAIL
 from service.core.batch.curves_linearize4 import linearize4 as _linearize
+from service.core.batch.curves_linearize4 import linearize4_inline as _pass
 from service.core.batch.curves_models import L4_LOG, has_curvature
 from service.core.batch.curves_solver import (
     ACCELERATE_OFFSET,
@@ -41,50 +42,55 @@ from service.core.batch.curves_solver import (
 
 @numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
 def _cholesky(a):
-    """Lower Cholesky factor (tuple, row by row) of the lower triangle ``a``, as
-    :func:`.curves_solver.cholesky`; ``(False, ...)`` when not positive definite."""
+    """``L D L'`` factors of the lower triangle ``a`` (no square roots): the unit lower
+    ``L`` row by row with the reciprocals of ``D`` on its diagonal (a tuple laid out
+    as :func:`.curves_solver.cholesky`'s factor; the pivots ``D`` are that factor's
+    squared diagonal, held to the same floor); ``(False, ...)`` when not positive
+    definite. Each column costs one division on the dependency chain where the
+    Cholesky factor costs a square root and a division."""
     a00, a10, a11, a20, a21, a22, a30, a31, a32, a33 = a
-    s = a00
-    if not s > PIVOT_FLOOR:
+    if not a00 > PIVOT_FLOOR:
         return False, _FAIL
-    l00 = math.sqrt(s)
-    l10, l20, l30 = a10 / l00, a20 / l00, a30 / l00
-    s = a11 - l10 * l10
-    if not s > PIVOT_FLOOR:
+    r0 = 1.0 / a00
+    l10, l20, l30 = a10 * r0, a20 * r0, a30 * r0
+    d1 = a11 - l10 * a10
+    if not d1 > PIVOT_FLOOR:
         return False, _FAIL
-    l11 = math.sqrt(s)
-    l21, l31 = (a21 - l20 * l10) / l11, (a31 - l30 * l10) / l11
-    s = a22 - l20 * l20 - l21 * l21
-    if not s > PIVOT_FLOOR:
+    r1 = 1.0 / d1
+    u21, u31 = a21 - l20 * a10, a31 - l30 * a10
+    l21, l31 = u21 * r1, u31 * r1
+    d2 = a22 - l20 * a20 - l21 * u21
+    if not d2 > PIVOT_FLOOR:
         return False, _FAIL
-    l22 = math.sqrt(s)
-    l32 = (a32 - l30 * l20 - l31 * l21) / l22
-    s = a33 - l30 * l30 - l31 * l31 - l32 * l32
-    if not s > PIVOT_FLOOR:
+    r2 = 1.0 / d2
+    u32 = a32 - l30 * a20 - l31 * u21
+    l32 = u32 * r2
+    d3 = a33 - l30 * a30 - l31 * u31 - l32 * u32
+    if not d3 > PIVOT_FLOOR:
         return False, _FAIL
-    return True, (l00, l10, l11, l20, l21, l22, l30, l31, l32, math.sqrt(s))
+    return True, (r0, l10, r1, l20, l21, r2, l30, l31, l32, 1.0 / d3)
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
 def _forward(low, b):
-    """Solve ``low z = b``: ``(z, ||z||²)``. The reciprocals of the diagonal depend on
-    ``low`` alone, so the divisions leave the chain from ``b`` to ``z`` (multiplications)."""
-    l00, l10, l11, l20, l21, l22, l30, l31, l32, l33 = low
-    z0 = b[0] * (1.0 / l00)
-    z1 = (b[1] - l10 * z0) * (1.0 / l11)
-    z2 = (b[2] - l20 * z0 - l21 * z1) * (1.0 / l22)
-    z3 = (b[3] - l30 * z0 - l31 * z1 - l32 * z2) * (1.0 / l33)
-    return (z0, z1, z2, z3), z0 * z0 + z1 * z1 + z2 * z2 + z3 * z3
+    """Solve ``L z = b`` for the factors of :func:`_cholesky`: ``(z, z' D^-1 z)`` (the
+    squared norm of the Cholesky factor's forward solve)."""
+    r0, l10, r1, l20, l21, r2, l30, l31, l32, r3 = low
+    z0 = b[0]
+    z1 = b[1] - l10 * z0
+    z2 = b[2] - l20 * z0 - l21 * z1
+    z3 = b[3] - l30 * z0 - l31 * z1 - l32 * z2
+    return (z0, z1, z2, z3), z0 * z0 * r0 + z1 * z1 * r1 + z2 * z2 * r2 + z3 * z3 * r3
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
 def _backward(low, z):
-    """Solve ``low' x = z`` (by the reciprocals of the diagonal, as :func:`_forward`)."""
-    l00, l10, l11, l20, l21, l22, l30, l31, l32, l33 = low
-    x3 = z[3] * (1.0 / l33)
-    x2 = (z[2] - l32 * x3) * (1.0 / l22)
-    x1 = (z[1] - l21 * x2 - l31 * x3) * (1.0 / l11)
-    x0 = (z[0] - l10 * x1 - l20 * x2 - l30 * x3) * (1.0 / l00)
+    """Solve ``D L' x = z`` (after :func:`_forward`: ``x = (L D L')^-1 b``)."""
+    r0, l10, r1, l20, l21, r2, l30, l31, l32, r3 = low
+    x3 = z[3] * r3
+    x2 = z[2] * r2 - l32 * x3
+    x1 = z[1] * r1 - l21 * x2 - l31 * x3
+    x0 = z[0] * r0 - l10 * x1 - l20 * x2 - l30 * x3
     return x0, x1, x2, x3
 
 
@@ -134,10 +140,12 @@ def _damped(a, lam, cm, newton):
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
-def _try(log_x, trial, u, y, sw, pure, n, rss, offset, slack, fj):
-    """:func:`.curves_solver._try`: ``(verdict, code, rss, offset, slack, floor-free state)``
-    with the trial point's ``(a, g, d, cm, low)`` when accepted (verdict 1)."""
-    ok, rt, floor_t, slack_t, a, g, d, cm = _linearize(log_x, trial, u, y, sw, pure, fj)
+def _try(passed, n, rss, offset, slack):
+    """:func:`.curves_solver._try` on ``passed``, the pass over the points at the trial
+    (:func:`.curves_linearize4.linearize4`): ``(verdict, code, rss, offset, slack,
+    floor-free state)`` with the trial point's ``(a, g, d, cm, low)`` when accepted
+    (verdict 1)."""
+    ok, rt, floor_t, slack_t, a, g, d, cm = passed
     if not ok:
         return 0, -1, rss, offset, slack, a, g, d, cm, _FAIL
     flat = offset <= FLAT_OFFSET and rt <= rss + slack
@@ -153,8 +161,8 @@ def _try(log_x, trial, u, y, sw, pure, n, rss, offset, slack, fj):
 def solve4(fid, theta, u, y, sw, mats, max_iterations, pure, n, fj):
     """:func:`.curves_solver.solve_family` for logistic4 (``fid`` L4_LOG or L4_LINEAR):
     the same arguments (and ``fj``, scratch of 5 values per point), steps and stop; on
-    return the Cholesky factor of the scaled ``Js'Js`` at ``theta`` and the column norms
-    are in ``mats`` where :func:`.curves_solver.factor_and_norms` finds them.
+    return the ``L D L'`` factors of the scaled ``Js'Js`` at ``theta`` and the column
+    norms are in ``mats`` where :func:`.curves_solver.factor_and_norms` finds them.
 
     Returns ``(code, rss, offset, iterations, fresh)``: ``fresh`` True when ``fj`` holds
     the curve and its gradient at the returned ``theta`` (the last pass over the points
@@ -180,7 +188,7 @@ def solve4(fid, theta, u, y, sw, mats, max_iterations, pure, n, fj):
             outcome, _, extra = _step(t, _damped(a, lam, cm, True), g, d)
             if outcome == 2:
                 verdict, c, r, o, sl, a2, g2, d2, cm2, low2 = _try(
-                    log_x, extra, u, y, sw, pure, n, rss, offset, slack, fj)
+                    _pass(log_x, extra, u, y, sw, pure, fj), n, rss, offset, slack)
                 if verdict == 1:
                     fresh = True
                     have_prev = False
@@ -208,8 +216,8 @@ def solve4(fid, theta, u, y, sw, mats, max_iterations, pure, n, fj):
                              trial[1] - gamma * (t[1] - prev_t[1] + s[1] - prev_s[1]),
                              trial[2] - gamma * (t[2] - prev_t[2] + s[2] - prev_s[2]),
                              trial[3] - gamma * (t[3] - prev_t[3] + s[3] - prev_s[3]))
-                    verdict, c, r, o, sl, a2, g2, d2, cm2, low2 = _try(
-                        log_x, extra, u, y, sw, pure, n, rss, offset, slack, fj)
+                    verdict, c, r, o, sl, a2, g2, d2, cm2, low2 = _try(     # (rare: a call)
+                        _linearize(log_x, extra, u, y, sw, pure, fj), n, rss, offset, slack)
                     if verdict == 1:
                         fresh = True
                         prev_t, prev_s = t, s
@@ -219,7 +227,7 @@ def solve4(fid, theta, u, y, sw, mats, max_iterations, pure, n, fj):
                         lam = max(lam * 0.1, 1e-12)
                         break
             verdict, c, r, o, sl, a2, g2, d2, cm2, low2 = _try(
-                log_x, trial, u, y, sw, pure, n, rss, offset, slack, fj)
+                _pass(log_x, trial, u, y, sw, pure, fj), n, rss, offset, slack)
             if verdict == 1:
                 fresh = True
                 prev_t, prev_s = t, s
@@ -246,8 +254,9 @@ def solve4(fid, theta, u, y, sw, mats, max_iterations, pure, n, fj):
 
 @numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
 def _store(mats, low, d):
-    """The factor and the column norms where :func:`.curves_solver.factor_and_norms`
-    reads them (rows 0..3 and row 26 of the scratch for p = 4)."""
+    """The ``L D L'`` factors and the column norms where
+    :func:`.curves_solver.factor_and_norms` reads them (rows 0..3 and row 26 of the
+    scratch for p = 4)."""
     mats[0, 0] = low[0]
     mats[1, 0], mats[1, 1] = low[1], low[2]
     mats[2, 0], mats[2, 1], mats[2, 2] = low[3], low[4], low[5]

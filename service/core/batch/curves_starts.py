@@ -33,7 +33,7 @@ END_FRACTION = 0.15                               # as builtin.shapes.END_FRACTI
 RANK_RTOL = 1e-10                                  # as builtin.starts.RANK_RTOL
 
 
-@numba.njit(cache=True, nogil=True, error_model="numpy")
+@numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
 def levels(u, y, order, lev, means):
     """Distinct ``u`` (ascending, via ``order``) and the mean y at each; returns their count."""
     k = -1
@@ -82,28 +82,29 @@ def _crossing(lev, means, m, level):
 def _line(u, v):
     """Least-squares (intercept, slope) of v on u over the points where both are finite (the
     callers mark a point left out by a NaN v); NaNs if < 2 distinct u."""
-    n = 0
-    su = sv = 0.0
     first = np.nan
-    distinct = False
     for i in range(u.size):
         if math.isfinite(u[i]) and math.isfinite(v[i]):
-            if n == 0:
-                first = u[i]
-            elif u[i] != first:
-                distinct = True
-            n += 1
-            su += u[i]
-            sv += v[i]
+            first = u[i]
+            break
+    n = 0
+    su = sv = 0.0
+    distinct = False
+    for i in range(u.size):         # selects, not branches: the pattern of kept points
+        ok = math.isfinite(u[i]) & math.isfinite(v[i])      # is the data's
+        distinct |= ok & (u[i] != first)
+        n += ok
+        su += u[i] if ok else 0.0
+        sv += v[i] if ok else 0.0
     if not distinct:
         return np.nan, np.nan
     mu, mv = su / n, sv / n
     suu = suv = 0.0
     for i in range(u.size):
-        if math.isfinite(u[i]) and math.isfinite(v[i]):
-            du = u[i] - mu
-            suu += du * du
-            suv += du * (v[i] - mv)
+        ok = math.isfinite(u[i]) & math.isfinite(v[i])
+        du = u[i] - mu if ok else 0.0
+        suu += du * du
+        suv += du * (v[i] - mv) if ok else 0.0
     slope = suv / suu
     return mv - slope * mu, slope
 
