@@ -99,3 +99,27 @@ def test_the_fit_grid_of_an_exact_fit_withholds_its_bands_as_predict_does(api, e
     assert "exact_fit" in [f["code"] for f in body["flags"]]
     again = _post(api, "/v1/predict", {"fitted_model": exact_line, "x": [1.5, 3.0]})
     assert [r["obs_upper"] for r in again["predictions"]] == grid["obs_upper"]
+
+
+def test_a_nonlinear_curve_through_every_point_stores_sigma_zero(api):
+    # y = 3.1 x / (0.7 + x) exactly (hand computation, no noise): the Michaelis-Menten fit
+    # reproduces it to rounding (a residual SD of about 1e-16 before this rule), so, as a
+    # polynomial's, its document stores sigma 0 and its grid and predictions give no
+    # bands; the same curve with noise keeps them
+    x = np.linspace(0.5, 6.5, 9)
+    curve = 3.1 * x / (0.7 + x)
+    model = {"family": "michaelis_menten"}
+    exact = _post(api, "/v1/fit", {"x": x.tolist(), "y": curve.tolist(), "model": model,
+                                    "grid": {"x": [1.0, 2.0]}})
+    assert "exact_fit" in [f["code"] for f in exact["flags"]]
+    assert exact["fitted_model"]["sigma"] == 0.0
+    assert exact["grid"]["fit"] == pytest.approx([3.1 / 1.7, 6.2 / 2.7], rel=1e-9)
+    assert exact["grid"]["obs_lower"] == [None, None]
+    assert "no_residual_variance" in [w["code"] for w in exact["warnings"]]
+    again = _post(api, "/v1/predict", {"fitted_model": exact["fitted_model"], "x": [1.0]})
+    assert again["intervals_withheld"]["code"] == "no_residual_variance"
+    rng = np.random.default_rng(11)
+    noisy = _post(api, "/v1/fit", {"x": x.tolist(), "model": model, "grid": {"x": [1.0]},
+                                    "y": (curve + rng.normal(0, 0.01, x.size)).tolist()})
+    assert noisy["fitted_model"]["sigma"] > 0
+    assert noisy["grid"]["obs_lower"][0] < noisy["grid"]["fit"][0]

@@ -16,6 +16,7 @@ from dataclasses import replace
 
 import numpy as np
 
+from service.core.checks.known_sd import KNOWN_SD
 from service.core.results import Notice, Prediction, frozen_array
 
 NO_RESIDUAL_VARIANCE = "no_residual_variance"
@@ -27,13 +28,15 @@ _LIMITS = ("se_mean", "mean_lower", "mean_upper", "obs_lower", "obs_upper", "ban
 
 
 def no_residual_variance(fitted) -> bool:
-    """Whether the stored fit has sigma exactly 0 (known-SD fits have sigma 1: never).
+    """Whether the stored fit has sigma exactly 0 (never with known SDs: the noise is known).
 
     Parameters
     ----------
     fitted : FittedPolynomial or FittedCurve
         Any family's fitted model (both carry ``sigma``).
     """
+    if fitted.weighting == KNOWN_SD:  # the noise is known: the bands stand
+        return False
     sigma = float(fitted.sigma)
     return not math.isnan(sigma) and sigma == 0.0
 

@@ -18,6 +18,7 @@ from service.core.checks.diagnostics import residual_diagnostics
 from service.core.checks.exact_fit import without_intervals
 from service.core.checks.flags import TEST_ALPHA, trust_flags
 from service.core.checks.known_sd import (
+    KNOWN_SD,
     chi_square_fit,
     normal_quantile,
     require_weights,
@@ -106,16 +107,21 @@ def report(solution, data, equation, names: tuple[str, ...], family: str, expres
                               r.upper, pl.lower, pl.upper, pl.lower_status, pl.upper_status)
                  for r, pl in zip(inference.parameters, profile.limits, strict=True))
     x_lo, x_hi = float(data.x.min()), float(data.x.max())
+    sqrt_w = None if data.w is None else np.sqrt(data.w)
+    zw = data.y if sqrt_w is None else sqrt_w * data.y
+    exact = solution.rss <= (EXACT_RTOL ** 2) * float(zw @ zw)
+    # an exact fit stores sigma 0, as the polynomial does: no noise estimate, so no bands
+    # (checks.exact_fit); known SDs keep theirs (the noise is known), and with no residual
+    # df sigma stays undefined
+    sigma, noise = ((0.0, 0.0) if exact and mode != KNOWN_SD and inference.df_residual > 0
+                    else (inference.sigma, inference.covariance_scale))
     fitted = FittedCurve(family, expression, names, solution.estimates,
-                         inference.covariance, inference.sigma, inference.covariance_scale,
+                         inference.covariance, sigma, noise,
                          inference.df_residual, n, x_lo, x_hi, data.w is not None, mode,
                          inference.distribution, level, equation)
     grid = None
     if options.grid is not None:
         grid = predict(fitted, fit_grid(options, data.x, log_x))
-    sqrt_w = None if data.w is None else np.sqrt(data.w)
-    zw = data.y if sqrt_w is None else sqrt_w * data.y
-    exact = solution.rss <= (EXACT_RTOL ** 2) * float(zw @ zw)
     distinct = data.distinct if data.distinct is not None else distinct_count(data.x)
     diagnostics = residual_diagnostics(
         data.index, data.x, np.array(solution.weighted_residuals), inference.leverage, zw,
