@@ -45,6 +45,7 @@ from service.core.batch.curves_models import (
 from service.core.batch.curves_multistart import attempt, is_multistart, solve_starts
 from service.core.batch.curves_points import (
     pool,
+    shapiro_normals,
     shapiro_w_p,
     sort_order,
     tangent_basis4,
@@ -72,12 +73,11 @@ _NOUT, _NINF, _NHIGH, _NBOTH, _NLEVER, _CORR, _SW, _SWP = 14, 15, 16, 17, 18, 19
 
 @numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
 def _summary(p, x, y, w, sw, f, js, low, d, rss, cut_t, cut_cook, q, e, out, est_se,
-             sw_coef, srt, work):
+             sw_coef, srt, work, sw_normal):
     """Inference and residual checks at the estimates into ``out`` (stats row) and ``est_se``.
 
     ``js`` is the scaled weighted Jacobian (p x n), ``low`` the Cholesky factor of ``js'js`` and
-    ``d`` the column norms (as :func:`.curves_solver4.solve` leaves them); ``work`` is scratch
-    of shape (3p + 1, p)."""
+    ``d`` the column norms (as :func:`.curves_solver4.solve` leaves them); ``work``: (3p + 1, p)."""
     n = y.size
     df = n - p
     sigma2 = rss / df
@@ -124,7 +124,7 @@ def _summary(p, x, y, w, sw, f, js, low, d, rss, cut_t, cut_cook, q, e, out, est
             dd += (e[i] - e[i - 1]) * (e[i] - e[i - 1])
     xbar /= n
     out[_DW] = dd / ss if ss > 0 else np.nan
-    out[_SW], out[_SWP] = shapiro_w_p(e, sw_coef, srt)
+    out[_SW], out[_SWP] = shapiro_w_p(e, sw_coef, srt, sw_normal)
     tg, fg, faq = tangent_sums(q, p, n, gram, dq)
     tr1, tr2 = dw_traces(n, tg, fg, faq)
     out[_DWP] = dw_p(out[_DW], n - p, tr1, tr2)
@@ -183,8 +183,8 @@ def fit_rows(fid, x, y, w, offsets, rows, cut_t, cut_cook, sw_start, sw_coef, al
         nmax = max(nmax, offsets[r + 1] - offsets[r])
     u_all, sw_all = np.empty(nmax), np.empty(nmax)
     weighted, ones = w.size > 0, np.ones(nmax)
-    f, v = np.empty(nmax), np.empty(nmax)
-    lev_all, means_all = np.empty(nmax), np.empty(nmax)
+    f, v, lev_all, means_all = np.empty(nmax), np.empty(nmax), np.empty(nmax), np.empty(nmax)
+    sw_normals = shapiro_normals(nmax)      # Shapiro-Wilk's p: what depends on n only
     e_all, srt_all = np.empty(nmax), np.empty(nmax)
     order_all, which_all = np.empty(nmax, dtype=np.int64), np.empty(nmax, dtype=np.int64)
     fj = np.empty((p + 1) * nmax)           # the curve and its gradient at the pooled u
@@ -281,7 +281,7 @@ def fit_rows(fid, x, y, w, offsets, rows, cut_t, cut_cook, sw_start, sw_coef, al
         at = sw_start[n]
         _summary(p, xs, ys, ws, sw, f[:n], js, low, d, rss, cut_t[n], cut_cook[n], q,
                  e_all[:n], row, se[r], sw_coef[max(at, 0):at + n if at >= 0 else 0],
-                 srt_all[:n], work)
+                 srt_all[:n], work, sw_normals[n])
         if not math.isfinite(row[_BP]) and n > 2:      # constant x: the single fit decides
             continue
         row[_LOF] = row[_LOFDF] = row[_PUREDF] = np.nan

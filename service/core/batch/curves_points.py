@@ -19,7 +19,7 @@ import math
 import numba
 import numpy as np
 
-from service.core.checks.kernels import shapiro_p
+from service.core.checks.kernels import shapiro_normal, shapiro_p_from
 
 INSERTION_MAX = 64
 
@@ -97,10 +97,11 @@ def pool(u, y, w, order, ul, yl, swl, which):
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
-def shapiro_w_p(e, coef, srt):
+def shapiro_w_p(e, coef, srt, normal):
     """Shapiro-Wilk's W of the residuals ``e`` and its p-value, with the AS R94 weights
-    ``coef`` for ``e.size`` points (``srt``: scratch of that length); NaNs when all the
-    residuals are equal or the weights are not given (empty ``coef``)."""
+    ``coef`` for ``e.size`` points (``srt``: scratch of that length; ``normal``: row
+    ``e.size`` of :func:`shapiro_normals`); NaNs when all the residuals are equal or the
+    weights are not given (empty ``coef``)."""
     n = e.size
     if coef.size != n:
         return np.nan, np.nan
@@ -116,7 +117,17 @@ def shapiro_w_p(e, coef, srt):
         spread += (srt[i] - mean) * (srt[i] - mean)
         acc += coef[i] * srt[i]
     w = min(acc * acc / spread, 1.0)
-    return w, shapiro_p(w, n)
+    return w, shapiro_p_from(w, n, normal[0], normal[1])
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def shapiro_normals(nmax):
+    """Row ``n`` (12 <= n <= nmax): :func:`service.core.checks.kernels.shapiro_normal` of n
+    (computed once per chunk, not per series); NaN below 12 (not used there)."""
+    out = np.full((nmax + 1, 2), np.nan)
+    for n in range(12, nmax + 1):
+        out[n, 0], out[n, 1] = shapiro_normal(n)
+    return out
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
