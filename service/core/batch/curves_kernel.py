@@ -45,6 +45,7 @@ from service.core.batch.curves_models import (
 from service.core.batch.curves_multistart import attempt, is_multistart, solve_starts
 from service.core.batch.curves_points import (
     pool,
+    read_series,
     shapiro_normals,
     shapiro_w_p,
     sort_order,
@@ -194,26 +195,17 @@ def fit_rows(fid, x, y, w, offsets, rows, cut_t, cut_cook, sw_start, sw_coef, al
     cols_all, q = np.empty((lin, nmax)), np.empty((p, nmax))
     coef, nl, theta, best = np.empty(lin), np.empty(3), np.empty(p), np.empty(p)
     ul_all, yl_all, swl_all = np.empty(nmax), np.empty(nmax), np.empty(nmax)
+    a_before = b_before = 0
     for r in rows:
         a, b = offsets[r], offsets[r + 1]
         n = b - a
         xs, ys, ws = x[a:b], y[a:b], (w[a:b] if weighted else ones[:n])
         u, sw, cols = u_all[:n], sw_all[:n], cols_all[:, :n]
         status[r] = 1
-        zz = sw_total = swy = logw = 0.0      # for the exact-fit test and TSS, in this pass
-        w_last, sw_last, logw_last = 1.0, 1.0, 0.0     # a weight's root and log, until it changes
-        for i in range(n):
-            if i > 0 and xs[i] == xs[i - 1]:           # a replicate: the same u
-                u[i] = u[i - 1]
-            else:
-                u[i] = (math.log(xs[i]) if xs[i] > 0 else -np.inf) if log_x else xs[i]
-            if ws[i] != w_last:
-                w_last, sw_last, logw_last = ws[i], math.sqrt(ws[i]), math.log(ws[i])
-            sw[i] = sw_last
-            zz += sw[i] * ys[i] * sw[i] * ys[i]
-            sw_total += ws[i]
-            swy += ws[i] * ys[i]
-            logw += logw_last
+        # u and sqrt(w); the sums for the exact-fit test and TSS. u_all still holds the u of
+        # the series before (x[a_before:b_before]): a point at its x keeps its u
+        zz, sw_total, swy, logw = read_series(xs, ys, ws, log_x, x[a_before:b_before], u, sw)
+        a_before, b_before = a, b
         order, which = order_all[:n], which_all[:n]
         sort_order(u, order)
         k, ss_pure = pool(u, ys, ws, order, ul_all, yl_all, swl_all, which)
