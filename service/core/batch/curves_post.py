@@ -35,6 +35,7 @@ from service.core.batch.curves_flags import flag_masks
 from service.core.batch.curves_kernel import S
 from service.core.batch.curves_solver import CODES
 from service.core.batch.residuals import RESIDUAL_TESTS, tested_only
+from service.core.checks.diagnostics import MIN_TEST_DF
 
 LOG_2PI = math.log(2 * math.pi)
 _FIRST = ("shape", "grid_best", "grid_local_2", "grid_local_3", "grid_local_4")
@@ -72,14 +73,13 @@ def finish(out: dict, rows, stats: np.ndarray, n: np.ndarray, p: int,
     cols["adj_r_squared"][rows] = 1.0 - (1.0 - r2) * (n - 1) / df
     cols["aic"][rows], cols["bic"][rows] = aic, -2.0 * llf + p * np.log(n)
     cols["converged"][rows] = True
-    cols["termination"][rows] = np.asarray(CODES, dtype=object)[
-        stats[:, S["termination"]].astype(np.int64)]
-    cols["start_strategy"][rows] = np.asarray(STARTS, dtype=object)[
-        stats[:, S["start"]].astype(np.int64)]
+    cols["termination"][rows] = _names(CODES, stats[:, S["termination"]])
+    cols["start_strategy"][rows] = _names(STARTS, stats[:, S["start"]])
     cols["iterations"][rows] = stats[:, S["iterations"]].astype(np.int64)
     cols["relative_offset"][rows] = stats[:, S["relative_offset"]]
+    every = bool((df >= MIN_TEST_DF).all())   # every row tested: the columns as they are
     for name in RESIDUAL_TESTS:
-        cols[name][rows] = tested_only(stats[:, S[name]], df)
+        cols[name][rows] = stats[:, S[name]] if every else tested_only(stats[:, S[name]], df)
     cols["lack_of_fit_f"][rows] = lof_f
     cols["lack_of_fit_p"][rows] = lof_p
     for name in ("n_outliers", "n_influential", "n_high_leverage"):
@@ -87,6 +87,15 @@ def finish(out: dict, rows, stats: np.ndarray, n: np.ndarray, p: int,
     _flags(out, rows, stats, n, p)
     out["ok"][rows] = True
     out["compiled"][rows] = True
+
+
+def _names(names: tuple[str, ...], codes: np.ndarray):
+    """The name of each code (floats holding whole numbers): one name when all are equal
+    (the common case: an object column filled with one string, no gathering)."""
+    codes = codes.astype(np.int64)
+    if codes.size and codes.min() == codes.max():
+        return names[int(codes[0])]
+    return np.asarray(names, dtype=object)[codes]
 
 
 def _known_sd(out, rows, sigma, rss, df) -> None:
