@@ -129,21 +129,17 @@ def _summary(p, x, y, w, sw, f, js, low, d, rss, cut_t, cut_cook, q, e, out, est
     tg, fg, faq = tangent_sums(q, p, n, gram, dq)
     tr1, tr2 = dw_traces(n, tg, fg, faq)
     out[_DWP] = dw_p(out[_DW], n - p, tr1, tr2)
-    sxx = szx = sz = szz = 0.0
+    sxx = szx = sz = szz = 0.0           # Breusch-Pagan's sums, in the loop of the counts
+    n_out = n_inf = n_high = n_both = n_lever = 0
+    # the single fit's tests on squares, multiplied out (no division; the same at h = 1): Cook's
+    # e² h / (p sigma² (1-h)²) > cut, studentized e² > t² (rss (1-h) - e²) / (df-1) >= 0
+    cut_t2, cook_bar, high_bar, df1 = cut_t * cut_t, cut_cook * p * sigma2, 2.0 * p / n, df - 1.0
     for i in range(n):
         sxx += (x[i] - xbar) * (x[i] - xbar)
         zc = e[i] * e[i] - ss / n
         sz += zc
         szx += zc * (x[i] - xbar)
         szz += zc * zc
-    lm = n * (sz * sz / n + szx * szx / sxx) / szz if szz > 0 else np.nan
-    out[_BP] = lm
-    out[_BPP] = chi2_tail(1, lm) if n > 2 and szz > 0 else np.nan
-    n_out = n_inf = n_high = n_both = n_lever = 0
-    # the single fit's tests on squares, multiplied out (no division; the same at h = 1): Cook's
-    # e² h / (p sigma² (1-h)²) > cut, studentized e² > t² (rss (1-h) - e²) / (df-1) >= 0
-    cut_t2, cook_bar, high_bar, df1 = cut_t * cut_t, cut_cook * p * sigma2, 2.0 * p / n, df - 1.0
-    for i in range(n):
         if p == 4:
             h = q[0, i] * q[0, i] + q[1, i] * q[1, i] + q[2, i] * q[2, i] + q[3, i] * q[3, i]
         else:
@@ -163,6 +159,9 @@ def _summary(p, x, y, w, sw, f, js, low, d, rss, cut_t, cut_cook, q, e, out, est
         n_lever += outlier and influential and high
     out[_NOUT], out[_NINF], out[_NHIGH] = n_out, n_inf, n_high
     out[_NBOTH], out[_NLEVER] = n_both, n_lever
+    lm = n * (sz * sz / n + szx * szx / sxx) / szz if szz > 0 else np.nan
+    out[_BP] = lm
+    out[_BPP] = chi2_tail(1, lm) if n > 2 and szz > 0 else np.nan
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
