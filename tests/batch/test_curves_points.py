@@ -102,12 +102,14 @@ def test_read_series_reuses_u_at_the_same_x():
     xs[[4, 5, 17]] = [0.5, 0.0, 3.0]                # changed points, one at x = 0
     ys, ws = rng.normal(size=24), rng.uniform(0.5, 2.0, 24)
     u, sw = np.full(24, np.nan), np.empty(24)
-    read_series(before, ys, ws, True, np.empty(0), u, sw)
-    sums = read_series(xs, ys, ws, True, before, u, sw)
+    assert not read_series(before, ys, ws, True, np.empty(0), u, sw)[4]
+    assert read_series(before, ys, ws, True, before, u, sw)[4]       # the same x
+    *sums, same_x = read_series(xs, ys, ws, True, before, u, sw)
+    assert not same_x
     with np.errstate(divide="ignore"):
         assert np.array_equal(u, np.log(xs))          # ln 0 = -inf
     assert np.array_equal(sw, np.sqrt(ws))
-    assert sums == pytest.approx((np.sum(ws * ys**2), ws.sum(), np.sum(ws * ys),
+    assert tuple(sums) == pytest.approx((np.sum(ws * ys**2), ws.sum(), np.sum(ws * ys),
                                   np.log(ws).sum()), rel=1e-12)
     read_series(xs, ys, ws, False, before, u, sw)     # linear scale: u is x
     assert np.array_equal(u, xs)

@@ -203,10 +203,12 @@ def fit_rows(fid, x, y, w, offsets, rows, cut_t, cut_cook, sw_start, sw_coef, al
         status[r] = 1
         # u and sqrt(w); the sums for the exact-fit test and TSS. u_all still holds the u of
         # the series before (x[a_before:b_before]): a point at its x keeps its u
-        zz, sw_total, swy, logw = read_series(xs, ys, ws, log_x, x[a_before:b_before], u, sw)
+        zz, sw_total, swy, logw, same_x = read_series(xs, ys, ws, log_x, x[a_before:b_before],
+                                                      u, sw)
         a_before, b_before = a, b
         order, which = order_all[:n], which_all[:n]
-        sort_order(u, order)
+        if not same_x:                  # the x of the series before: its order stands
+            sort_order(u, order)
         k, ss_pure = pool(u, ys, ws, order, ul_all, yl_all, swl_all, which)
         lev, means, m = ul_all, yl_all, k    # unit weights: the pools' means, bit for bit
         if weighted:

@@ -28,16 +28,19 @@ INSERTION_MAX = 64
 @numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
 def read_series(xs, ys, ws, log_x, x_before, u, sw):
     """The position ``u`` of each point (ln x on the log scale, -inf at x = 0) and the square
-    roots ``sw`` of the weights ``ws``; returns ``(sum w y², sum w, sum w y, sum log w)``.
+    roots ``sw`` of the weights ``ws``; returns ``(sum w y², sum w, sum w y, sum log w,
+    same_x)``, ``same_x`` True when x is ``x_before`` point for point.
 
     A logarithm is taken only where x changes: a replicate takes the u of the point before,
     and on the log scale a point at the x of the same point of the series before
     (``x_before``, whose u ``u`` still holds: plates share their doses) keeps that u. A
     weight's root and logarithm are taken when it differs from the weight before."""
     same = x_before.size if log_x else 0
+    same_x = x_before.size == xs.size
     zz = sw_total = swy = logw = 0.0
     w_last, sw_last, logw_last = 1.0, 1.0, 0.0
     for i in range(xs.size):
+        same_x &= i < x_before.size and xs[i] == x_before[i]
         if i > 0 and xs[i] == xs[i - 1]:           # a replicate: the same u
             u[i] = u[i - 1]
         elif not (i < same and xs[i] == x_before[i]):
@@ -49,7 +52,7 @@ def read_series(xs, ys, ws, log_x, x_before, u, sw):
         sw_total += ws[i]
         swy += ws[i] * ys[i]
         logw += logw_last
-    return zz, sw_total, swy, logw
+    return zz, sw_total, swy, logw, same_x
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
