@@ -14,12 +14,15 @@ from scipy import stats
 
 from service.core.batch.curves_points import (
     pool,
+    read_series,
+    shapiro_normals,
     shapiro_w_p,
     sort_order,
     sort_values,
     tangent_basis4,
     tangent_sums,
 )
+from service.core.checks.kernels import shapiro_p
 from service.core.checks.shapiro_tables import shapiro_weights
 
 
@@ -82,8 +85,31 @@ def test_tangent_basis4_is_the_triangular_product(n):
 @pytest.mark.parametrize("n", [3, 10, 24, 120])
 def test_shapiro_equals_scipy(n):
     e = np.random.default_rng(n).standard_t(5, size=n)
-    w, p = shapiro_w_p(e, shapiro_weights(n), np.empty(n))
+    normal = shapiro_normals(max(n, 12))[n]
+    w, p = shapiro_w_p(e, shapiro_weights(n), np.empty(n), normal)
     ref = stats.shapiro(e)
     assert w == pytest.approx(ref.statistic, rel=1e-6)
     assert p == pytest.approx(ref.pvalue, rel=1e-5)
-    assert np.isnan(shapiro_w_p(np.full(n, 2.0), shapiro_weights(n), np.empty(n))[0])
+    assert p == shapiro_p(w, n)         # the table's row: the same operations, the same bits
+    assert np.isnan(shapiro_w_p(np.full(n, 2.0), shapiro_weights(n), np.empty(n), normal)[0])
+
+
+def test_read_series_reuses_u_at_the_same_x():
+    # the u of a point at the x of the series before is kept: equal to a fresh ln x, bit for bit
+    rng = np.random.default_rng(7)
+    before = np.repeat(np.geomspace(1e-3, 10.0, 8), 3)
+    xs = before.copy()
+    xs[[4, 5, 17]] = [0.5, 0.0, 3.0]                # changed points, one at x = 0
+    ys, ws = rng.normal(size=24), rng.uniform(0.5, 2.0, 24)
+    u, sw = np.full(24, np.nan), np.empty(24)
+    assert not read_series(before, ys, ws, True, np.empty(0), u, sw)[4]
+    assert read_series(before, ys, ws, True, before, u, sw)[4]       # the same x
+    *sums, same_x = read_series(xs, ys, ws, True, before, u, sw)
+    assert not same_x
+    with np.errstate(divide="ignore"):
+        assert np.array_equal(u, np.log(xs))          # ln 0 = -inf
+    assert np.array_equal(sw, np.sqrt(ws))
+    assert tuple(sums) == pytest.approx((np.sum(ws * ys**2), ws.sum(), np.sum(ws * ys),
+                                  np.log(ws).sum()), rel=1e-12)
+    read_series(xs, ys, ws, False, before, u, sw)     # linear scale: u is x
+    assert np.array_equal(u, xs)

@@ -45,6 +45,8 @@ from service.core.batch.curves_models import (
 from service.core.batch.curves_multistart import attempt, is_multistart, solve_starts
 from service.core.batch.curves_points import (
     pool,
+    read_series,
+    shapiro_normals,
     shapiro_w_p,
     sort_order,
     tangent_basis4,
@@ -72,12 +74,11 @@ _NOUT, _NINF, _NHIGH, _NBOTH, _NLEVER, _CORR, _SW, _SWP = 14, 15, 16, 17, 18, 19
 
 @numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
 def _summary(p, x, y, w, sw, f, js, low, d, rss, cut_t, cut_cook, q, e, out, est_se,
-             sw_coef, srt, work):
+             sw_coef, srt, work, sw_normal):
     """Inference and residual checks at the estimates into ``out`` (stats row) and ``est_se``.
 
     ``js`` is the scaled weighted Jacobian (p x n), ``low`` the Cholesky factor of ``js'js`` and
-    ``d`` the column norms (as :func:`.curves_solver4.solve` leaves them); ``work`` is scratch
-    of shape (3p + 1, p)."""
+    ``d`` the column norms (as :func:`.curves_solver4.solve` leaves them); ``work``: (3p + 1, p)."""
     n = y.size
     df = n - p
     sigma2 = rss / df
@@ -124,25 +125,21 @@ def _summary(p, x, y, w, sw, f, js, low, d, rss, cut_t, cut_cook, q, e, out, est
             dd += (e[i] - e[i - 1]) * (e[i] - e[i - 1])
     xbar /= n
     out[_DW] = dd / ss if ss > 0 else np.nan
-    out[_SW], out[_SWP] = shapiro_w_p(e, sw_coef, srt)
+    out[_SW], out[_SWP] = shapiro_w_p(e, sw_coef, srt, sw_normal)
     tg, fg, faq = tangent_sums(q, p, n, gram, dq)
     tr1, tr2 = dw_traces(n, tg, fg, faq)
     out[_DWP] = dw_p(out[_DW], n - p, tr1, tr2)
-    sxx = szx = sz = szz = 0.0
+    sxx = szx = sz = szz = 0.0           # Breusch-Pagan's sums, in the loop of the counts
+    n_out = n_inf = n_high = n_both = n_lever = 0
+    # the single fit's tests on squares, multiplied out (no division; the same at h = 1): Cook's
+    # e² h / (p sigma² (1-h)²) > cut, studentized e² > t² (rss (1-h) - e²) / (df-1) >= 0
+    cut_t2, cook_bar, high_bar, df1 = cut_t * cut_t, cut_cook * p * sigma2, 2.0 * p / n, df - 1.0
     for i in range(n):
         sxx += (x[i] - xbar) * (x[i] - xbar)
         zc = e[i] * e[i] - ss / n
         sz += zc
         szx += zc * (x[i] - xbar)
         szz += zc * zc
-    lm = n * (sz * sz / n + szx * szx / sxx) / szz if szz > 0 else np.nan
-    out[_BP] = lm
-    out[_BPP] = chi2_tail(1, lm) if n > 2 and szz > 0 else np.nan
-    n_out = n_inf = n_high = n_both = n_lever = 0
-    # the single fit's tests on squares, multiplied out (no division; the same at h = 1): Cook's
-    # e² h / (p sigma² (1-h)²) > cut, studentized e² > t² (rss (1-h) - e²) / (df-1) >= 0
-    cut_t2, cook_bar, high_bar, df1 = cut_t * cut_t, cut_cook * p * sigma2, 2.0 * p / n, df - 1.0
-    for i in range(n):
         if p == 4:
             h = q[0, i] * q[0, i] + q[1, i] * q[1, i] + q[2, i] * q[2, i] + q[3, i] * q[3, i]
         else:
@@ -162,6 +159,9 @@ def _summary(p, x, y, w, sw, f, js, low, d, rss, cut_t, cut_cook, q, e, out, est
         n_lever += outlier and influential and high
     out[_NOUT], out[_NINF], out[_NHIGH] = n_out, n_inf, n_high
     out[_NBOTH], out[_NLEVER] = n_both, n_lever
+    lm = n * (sz * sz / n + szx * szx / sxx) / szz if szz > 0 else np.nan
+    out[_BP] = lm
+    out[_BPP] = chi2_tail(1, lm) if n > 2 and szz > 0 else np.nan
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
@@ -183,8 +183,8 @@ def fit_rows(fid, x, y, w, offsets, rows, cut_t, cut_cook, sw_start, sw_coef, al
         nmax = max(nmax, offsets[r + 1] - offsets[r])
     u_all, sw_all = np.empty(nmax), np.empty(nmax)
     weighted, ones = w.size > 0, np.ones(nmax)
-    f, v = np.empty(nmax), np.empty(nmax)
-    lev_all, means_all = np.empty(nmax), np.empty(nmax)
+    f, v, lev_all, means_all = np.empty(nmax), np.empty(nmax), np.empty(nmax), np.empty(nmax)
+    sw_normals = shapiro_normals(nmax)      # Shapiro-Wilk's p: what depends on n only
     e_all, srt_all = np.empty(nmax), np.empty(nmax)
     order_all, which_all = np.empty(nmax, dtype=np.int64), np.empty(nmax, dtype=np.int64)
     fj = np.empty((p + 1) * nmax)           # the curve and its gradient at the pooled u
@@ -194,28 +194,21 @@ def fit_rows(fid, x, y, w, offsets, rows, cut_t, cut_cook, sw_start, sw_coef, al
     cols_all, q = np.empty((lin, nmax)), np.empty((p, nmax))
     coef, nl, theta, best = np.empty(lin), np.empty(3), np.empty(p), np.empty(p)
     ul_all, yl_all, swl_all = np.empty(nmax), np.empty(nmax), np.empty(nmax)
+    a_before = b_before = 0
     for r in rows:
         a, b = offsets[r], offsets[r + 1]
         n = b - a
         xs, ys, ws = x[a:b], y[a:b], (w[a:b] if weighted else ones[:n])
         u, sw, cols = u_all[:n], sw_all[:n], cols_all[:, :n]
         status[r] = 1
-        zz = sw_total = swy = logw = 0.0      # for the exact-fit test and TSS, in this pass
-        w_last, sw_last, logw_last = 1.0, 1.0, 0.0     # a weight's root and log, until it changes
-        for i in range(n):
-            if i > 0 and xs[i] == xs[i - 1]:           # a replicate: the same u
-                u[i] = u[i - 1]
-            else:
-                u[i] = (math.log(xs[i]) if xs[i] > 0 else -np.inf) if log_x else xs[i]
-            if ws[i] != w_last:
-                w_last, sw_last, logw_last = ws[i], math.sqrt(ws[i]), math.log(ws[i])
-            sw[i] = sw_last
-            zz += sw[i] * ys[i] * sw[i] * ys[i]
-            sw_total += ws[i]
-            swy += ws[i] * ys[i]
-            logw += logw_last
+        # u and sqrt(w); the sums for the exact-fit test and TSS. u_all still holds the u of
+        # the series before (x[a_before:b_before]): a point at its x keeps its u
+        zz, sw_total, swy, logw, same_x = read_series(xs, ys, ws, log_x, x[a_before:b_before],
+                                                      u, sw)
+        a_before, b_before = a, b
         order, which = order_all[:n], which_all[:n]
-        sort_order(u, order)
+        if not same_x:                  # the x of the series before: its order stands
+            sort_order(u, order)
         k, ss_pure = pool(u, ys, ws, order, ul_all, yl_all, swl_all, which)
         lev, means, m = ul_all, yl_all, k    # unit weights: the pools' means, bit for bit
         if weighted:
@@ -281,7 +274,7 @@ def fit_rows(fid, x, y, w, offsets, rows, cut_t, cut_cook, sw_start, sw_coef, al
         at = sw_start[n]
         _summary(p, xs, ys, ws, sw, f[:n], js, low, d, rss, cut_t[n], cut_cook[n], q,
                  e_all[:n], row, se[r], sw_coef[max(at, 0):at + n if at >= 0 else 0],
-                 srt_all[:n], work)
+                 srt_all[:n], work, sw_normals[n])
         if not math.isfinite(row[_BP]) and n > 2:      # constant x: the single fit decides
             continue
         row[_LOF] = row[_LOFDF] = row[_PUREDF] = np.nan

@@ -2,6 +2,7 @@
 
 Written for short series (tens of points) with no allocation per series:
 
+* :func:`read_series`: the positions (ln x on the log scale) and square roots of the weights;
 * :func:`sort_order`: the ascending order of ``u`` (a stable insertion sort up to
   :data:`INSERTION_MAX` points, numpy's merge sort above);
 * :func:`pool`: the points pooled by distinct ``u`` (weighted means, square roots of the
@@ -19,9 +20,39 @@ import math
 import numba
 import numpy as np
 
-from service.core.checks.kernels import shapiro_p
+from service.core.checks.kernels import shapiro_normal, shapiro_p_from
 
 INSERTION_MAX = 64
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
+def read_series(xs, ys, ws, log_x, x_before, u, sw):
+    """The position ``u`` of each point (ln x on the log scale, -inf at x = 0) and the square
+    roots ``sw`` of the weights ``ws``; returns ``(sum w y², sum w, sum w y, sum log w,
+    same_x)``, ``same_x`` True when x is ``x_before`` point for point.
+
+    A logarithm is taken only where x changes: a replicate takes the u of the point before,
+    and on the log scale a point at the x of the same point of the series before
+    (``x_before``, whose u ``u`` still holds: plates share their doses) keeps that u. A
+    weight's root and logarithm are taken when it differs from the weight before."""
+    same = x_before.size if log_x else 0
+    same_x = x_before.size == xs.size
+    zz = sw_total = swy = logw = 0.0
+    w_last, sw_last, logw_last = 1.0, 1.0, 0.0
+    for i in range(xs.size):
+        same_x &= i < x_before.size and xs[i] == x_before[i]
+        if i > 0 and xs[i] == xs[i - 1]:           # a replicate: the same u
+            u[i] = u[i - 1]
+        elif not (i < same and xs[i] == x_before[i]):
+            u[i] = (math.log(xs[i]) if xs[i] > 0 else -np.inf) if log_x else xs[i]
+        if ws[i] != w_last:
+            w_last, sw_last, logw_last = ws[i], math.sqrt(ws[i]), math.log(ws[i])
+        sw[i] = sw_last
+        zz += sw[i] * ys[i] * sw[i] * ys[i]
+        sw_total += ws[i]
+        swy += ws[i] * ys[i]
+        logw += logw_last
+    return zz, sw_total, swy, logw, same_x
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
@@ -97,10 +128,11 @@ def pool(u, y, w, order, ul, yl, swl, which):
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")
-def shapiro_w_p(e, coef, srt):
+def shapiro_w_p(e, coef, srt, normal):
     """Shapiro-Wilk's W of the residuals ``e`` and its p-value, with the AS R94 weights
-    ``coef`` for ``e.size`` points (``srt``: scratch of that length); NaNs when all the
-    residuals are equal or the weights are not given (empty ``coef``)."""
+    ``coef`` for ``e.size`` points (``srt``: scratch of that length; ``normal``: row
+    ``e.size`` of :func:`shapiro_normals`); NaNs when all the residuals are equal or the
+    weights are not given (empty ``coef``)."""
     n = e.size
     if coef.size != n:
         return np.nan, np.nan
@@ -116,7 +148,17 @@ def shapiro_w_p(e, coef, srt):
         spread += (srt[i] - mean) * (srt[i] - mean)
         acc += coef[i] * srt[i]
     w = min(acc * acc / spread, 1.0)
-    return w, shapiro_p(w, n)
+    return w, shapiro_p_from(w, n, normal[0], normal[1])
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def shapiro_normals(nmax):
+    """Row ``n`` (12 <= n <= nmax): :func:`service.core.checks.kernels.shapiro_normal` of n
+    (computed once per chunk, not per series); NaN below 12 (not used there)."""
+    out = np.full((nmax + 1, 2), np.nan)
+    for n in range(12, nmax + 1):
+        out[n, 0], out[n, 1] = shapiro_normal(n)
+    return out
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy", inline="always")

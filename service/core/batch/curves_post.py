@@ -31,19 +31,17 @@ import math
 import numpy as np
 from scipy import special
 
+from service.core.batch.curves_flags import flag_masks
 from service.core.batch.curves_kernel import S
-from service.core.batch.curves_results import CURVE_FLAG_CODES
 from service.core.batch.curves_solver import CODES
 from service.core.batch.residuals import RESIDUAL_TESTS, tested_only
-from service.core.checks.flags import POINTS_PER_PARAMETER, TEST_ALPHA
-from service.core.nonlinear.flags import CORRELATION_CUT, RELATIVE_SE_CUT
+from service.core.checks.diagnostics import MIN_TEST_DF
 
 LOG_2PI = math.log(2 * math.pi)
 _FIRST = ("shape", "grid_best", "grid_local_2", "grid_local_3", "grid_local_4")
 STARTS = _FIRST + tuple(f"{name}_rewritten" for name in _FIRST)
 """Start codes of the kernel (:mod:`.curves_kernel`, :mod:`.curves_multistart`): the
 start, then the same written in the family's convention and solved again."""
-_BIT = {code: i for i, code in enumerate(CURVE_FLAG_CODES)}
 
 
 def finish(out: dict, rows, stats: np.ndarray, n: np.ndarray, p: int,
@@ -75,14 +73,13 @@ def finish(out: dict, rows, stats: np.ndarray, n: np.ndarray, p: int,
     cols["adj_r_squared"][rows] = 1.0 - (1.0 - r2) * (n - 1) / df
     cols["aic"][rows], cols["bic"][rows] = aic, -2.0 * llf + p * np.log(n)
     cols["converged"][rows] = True
-    cols["termination"][rows] = np.asarray(CODES, dtype=object)[
-        stats[:, S["termination"]].astype(np.int64)]
-    cols["start_strategy"][rows] = np.asarray(STARTS, dtype=object)[
-        stats[:, S["start"]].astype(np.int64)]
+    cols["termination"][rows] = _names(CODES, stats[:, S["termination"]])
+    cols["start_strategy"][rows] = _names(STARTS, stats[:, S["start"]])
     cols["iterations"][rows] = stats[:, S["iterations"]].astype(np.int64)
     cols["relative_offset"][rows] = stats[:, S["relative_offset"]]
+    every = bool((df >= MIN_TEST_DF).all())   # every row tested: the columns as they are
     for name in RESIDUAL_TESTS:
-        cols[name][rows] = tested_only(stats[:, S[name]], df)
+        cols[name][rows] = stats[:, S[name]] if every else tested_only(stats[:, S[name]], df)
     cols["lack_of_fit_f"][rows] = lof_f
     cols["lack_of_fit_p"][rows] = lof_p
     for name in ("n_outliers", "n_influential", "n_high_leverage"):
@@ -90,6 +87,15 @@ def finish(out: dict, rows, stats: np.ndarray, n: np.ndarray, p: int,
     _flags(out, rows, stats, n, p)
     out["ok"][rows] = True
     out["compiled"][rows] = True
+
+
+def _names(names: tuple[str, ...], codes: np.ndarray):
+    """The name of each code (floats holding whole numbers): one name when all are equal
+    (the common case: an object column filled with one string, no gathering)."""
+    codes = codes.astype(np.int64)
+    if codes.size and codes.min() == codes.max():
+        return names[int(codes[0])]
+    return np.asarray(names, dtype=object)[codes]
 
 
 def _known_sd(out, rows, sigma, rss, df) -> None:
@@ -105,26 +111,7 @@ def _known_sd(out, rows, sigma, rss, df) -> None:
 
 def _flags(out, rows, stats, n, p) -> None:
     cols = out["columns"]
-    est, se = out["estimates"][rows], out["std_errors"][rows]
-    with np.errstate(all="ignore"):
-        relative = np.where(est != 0, np.abs(se / est), np.inf)
-    both = stats[:, S["n_influential_outliers"]] > 0
-    lever = stats[:, S["n_high_leverage_influential_outliers"]] > 0
-    rules = (("parameters_nearly_redundant", stats[:, S["max_correlation"]] > CORRELATION_CUT, 1),
-             ("poorly_determined_parameter", ~(relative <= RELATIVE_SE_CUT).all(axis=1), 1),
-             ("chi_square_fit_failed", cols["chi_square_fit_p"][rows] < TEST_ALPHA, 2),
-             ("few_points_per_parameter", n < POINTS_PER_PARAMETER * p, 0),
-             ("lack_of_fit", cols["lack_of_fit_p"][rows] < TEST_ALPHA, 2),
-             ("non_normal_residuals", cols["shapiro_wilk_p"][rows] < TEST_ALPHA, 1),
-             ("non_constant_variance", cols["breusch_pagan_p"][rows] < TEST_ALPHA, 1),
-             ("serial_correlation", cols["durbin_watson_p"][rows] < TEST_ALPHA, 1),
-             ("outliers", stats[:, S["n_outliers"]] > 0, 1),
-             ("influential_points", stats[:, S["n_influential"]] > 0, both.astype(int)),
-             ("high_leverage", stats[:, S["n_high_leverage"]] > 0, lever.astype(int)))
-    mask = np.zeros(n.size, dtype=np.int64)
-    levels = np.zeros(n.size, dtype=np.int64)
-    for code, fired, level in rules:
-        i = _BIT[code]
-        mask |= fired.astype(np.int64) << i
-        levels |= np.where(fired, np.asarray(level, dtype=np.int64), 0) << 2 * i
-    cols["flags"][rows], cols["flag_levels"][rows] = mask, levels
+    cols["flags"][rows], cols["flag_levels"][rows] = flag_masks(
+        stats, out["estimates"][rows], out["std_errors"][rows], n, p,
+        *(cols[name][rows] for name in ("chi_square_fit_p", "lack_of_fit_p", "shapiro_wilk_p",
+                                        "breusch_pagan_p", "durbin_watson_p")))

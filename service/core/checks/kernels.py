@@ -41,6 +41,14 @@ def _poly(coefs, x):
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
+def shapiro_normal(n):
+    """Mean and SD of Royston's normal approximation of ``log(1 - W)`` for ``n >= 12``
+    points (AS R94); they depend on ``n`` only."""
+    ln = math.log(n)
+    return _poly(C5, ln), math.exp(_poly(C6, ln))
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
 def shapiro_p(w, n):
     """Royston's p-value for Shapiro-Wilk's W of ``n`` points (AS R94); NaN below 3 points."""
     if n < 3 or w != w:
@@ -49,14 +57,22 @@ def shapiro_p(w, n):
         return max(6.0 / math.pi * (math.asin(math.sqrt(w)) - math.pi / 3.0), 0.0)
     y = math.log1p(-w)
     if n >= 12:
-        ln = math.log(n)
-        z = (y - _poly(C5, ln)) / math.exp(_poly(C6, ln))
+        location, scale = shapiro_normal(n)
+        z = (y - location) / scale
     else:
         gamma = _poly(GAMMA, n)
         if y >= gamma:
             return 1e-99
         z = (-math.log(gamma - y) - _poly(C3, n)) / math.exp(_poly(C4, n))
     return 0.5 * math.erfc(z / math.sqrt(2.0))   # upper normal tail at z
+
+
+@numba.njit(cache=True, nogil=True, error_model="numpy")
+def shapiro_p_from(w, n, location, scale):
+    """:func:`shapiro_p` with ``shapiro_normal(n)`` given (ignored below 12 points)."""
+    if n < 12 or w != w:
+        return shapiro_p(w, n)
+    return 0.5 * math.erfc((math.log1p(-w) - location) / scale / math.sqrt(2.0))
 
 
 @numba.njit(cache=True, nogil=True, error_model="numpy")
