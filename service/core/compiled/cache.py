@@ -16,7 +16,7 @@ import hashlib
 import importlib
 from pathlib import Path
 
-KERNEL_MODULES = ("batch.basis", "batch.curves_grid", "batch.curves_kernel",
+KERNEL_MODULES = ("batch.basis", "batch.curves_flags", "batch.curves_grid", "batch.curves_kernel",
                   "batch.curves_linearize", "batch.curves_linearize4", "batch.curves_models",
                   "batch.curves_models_extra", "batch.curves_multistart",
                   "batch.curves_multistart_grid",
