@@ -141,15 +141,11 @@ class CurveReader:
     def band(self, m: float) -> tuple[np.ndarray, np.ndarray]:
         """The observation band's ``lower, upper`` on :attr:`grid` for the mean of ``m``
         new readings (``m``: replicate count times weight; variance ``noise_variance / m``),
-        computed once per ``m`` (:func:`~service.core.nonlinear.analysis.predict` at the
-        reader's level); NaN where the curve or its band is not finite."""
+        a row of :meth:`band_table` kept per ``m``; NaN where the curve or its band is not
+        finite."""
         if m not in self._bands:
-            if float(m).is_integer():
-                band = predict(self.fitted, self.grid, level=self.level, m=int(m))
-                self._bands[m] = (np.asarray(band.obs_lower), np.asarray(band.obs_upper))
-            else:  # a weighted reading: the table's formula (batched and single alike)
-                lower, upper = self.band_table(np.array([float(m)]))
-                self._bands[m] = (lower[0], upper[0])
+            lower, upper = self.band_table(np.array([float(m)]))
+            self._bands[m] = (lower[0], upper[0])
         return self._bands[m]
 
     def band_table(self, m: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
