@@ -23,6 +23,8 @@ NO_RESIDUAL_VARIANCE = "no_residual_variance"
 MESSAGE = ("The fit passes through every point (sigma = 0): the data give no estimate of the "
            "noise, so no interval can be given; the values are the curve's only. Measure "
            "replicates or more points than parameters to get intervals.")
+FIGURES_REASON = ("The fit passes through every point (sigma = 0): no estimate of the noise, "
+                  "so detection and quantification limits cannot be given.")
 _LIMITS = ("se_mean", "mean_lower", "mean_upper", "obs_lower", "obs_upper", "band_lower",
            "band_upper")
 

@@ -29,6 +29,7 @@ import numpy as np
 from numpy.polynomial import polynomial as P
 from scipy import optimize, stats
 
+from service.core.checks.exact_fit import FIGURES_REASON, no_residual_variance
 from service.core.data import transforms
 from service.core.results import FittedPolynomial
 
@@ -148,9 +149,8 @@ def _unavailable(fitted: FittedPolynomial) -> str:
         return "Weighted fit: the blank's standard deviation is not sigma; not computed."
     if fitted.df_residual < 1 or not math.isfinite(fitted.sigma):
         return "No residual degrees of freedom: sigma is undefined."
-    if fitted.sigma == 0.0:
-        return ("The fit passes through every point (sigma = 0): no estimate of the noise, so "
-                "detection and quantification limits cannot be given.")
+    if no_residual_variance(fitted):
+        return FIGURES_REASON
     coef = _coef(fitted)
     slope0 = P.polyval(-fitted.x_shift / fitted.x_scale, P.polyder(coef))
     if slope0 == 0:

@@ -26,6 +26,7 @@ import math
 import numpy as np
 from scipy import optimize, stats
 
+from service.core.checks.exact_fit import FIGURES_REASON, no_residual_variance
 from service.core.models.calibration import (
     ICH_DETECTION_FACTOR,
     ICH_QUANTIFICATION_FACTOR,
@@ -67,10 +68,8 @@ def _figures(fitted: FittedCurve, alpha: float, beta: float) -> CalibrationFigur
     if fitted.weighted or fitted.df_residual < 1 or not math.isfinite(fitted.sigma):
         return _unavailable(fitted, "Figures of merit need an unweighted fit with residual "
                             "degrees of freedom.", alpha, beta)
-    if fitted.sigma == 0.0:
-        return _unavailable(fitted, "The fit passes through every point (sigma = 0): no "
-                            "estimate of the noise, so detection and quantification limits "
-                            "cannot be given.", alpha, beta)
+    if no_residual_variance(fitted):
+        return _unavailable(fitted, FIGURES_REASON, alpha, beta)
     if not fitted.x_max > 0:
         return _unavailable(fitted, "The calibrated range has no positive x.", alpha, beta)
     top = fitted.x_max

@@ -15,7 +15,7 @@ import numpy as np
 from numpy.polynomial import polynomial as P
 from scipy import optimize, special
 
-from service.core.checks.exact_fit import NO_RESIDUAL_VARIANCE
+from service.core.checks.exact_fit import NO_RESIDUAL_VARIANCE, no_residual_variance
 from service.core.checks.known_sd import KNOWN_SD, normal_quantile
 from service.core.data import transforms
 from service.core.models.inverse_roots import changes_sign, real_roots
@@ -87,7 +87,7 @@ class CalibrationCurve:
         count = len(t_hat)
         if not math.isfinite(self.qs) or count == 0:
             return [math.nan] * count, [math.nan] * count, ["interval_undefined"] * count
-        if self.qs == 0.0:  # sigma = 0 (an exact fit): a zero-width interval would mislead
+        if no_residual_variance(self.fitted):  # an exact fit: a zero-width interval misleads
             return [math.nan] * count, [math.nan] * count, [NO_RESIDUAL_VARIANCE] * count
         m = m.astype(float)
         rise = np.sign(P.polyval(t_hat, self.slope))
