@@ -158,14 +158,12 @@ class PlotOptions:
         return any(p not in ("fit", "selection") for p in self.panels)
 
 
-def check_log_x(x) -> int:
-    """Refuse a log x axis with no positive x to draw (naming ``plot.x_scale``); else return
-    how many finite x are zero or negative: they are fitted but not drawn on that axis."""
+def check_log_x(x) -> None:
+    """Refuse a log x axis with no positive x to draw (naming ``plot.x_scale``); x <= 0 are
+    fitted but not drawn on that axis (:func:`service.plots.data.not_drawn` counts them)."""
     values = np.asarray(x, dtype=float)
     finite = values[np.isfinite(values)]
-    hidden = int(np.count_nonzero(finite <= 0))
-    if hidden and hidden == finite.size:
+    if finite.size and not np.any(finite > 0):
         raise SpecError(f"None of the {finite.size} x is positive: nothing can be drawn on a log "
                         "x axis.", field="plot.x_scale", fix="Use x_scale linear (every x "
                         "is fitted either way; a log axis draws only the x > 0).")
-    return hidden
