@@ -23,7 +23,14 @@ import math
 import numpy as np
 from marshmallow import ValidationError
 
-from schemas.common import MISSING_POLICIES, SECTIONS, SELECT_METHODS, TRANSFORMS, WEIGHTINGS
+from schemas.common import (
+    GRID_SPACINGS,
+    MISSING_POLICIES,
+    SECTIONS,
+    SELECT_METHODS,
+    TRANSFORMS,
+    WEIGHTINGS,
+)
 from schemas.fields import MAX_JSON_INTEGER
 from schemas.model_field import MODEL_SCHEMAS, _loader
 
@@ -35,6 +42,7 @@ _GRID = frozenset(("count", "start", "stop", "step", "x", "spacing"))
 _SECTIONS = frozenset(SECTIONS)
 _SELECT = frozenset(SELECT_METHODS)
 _TRANSFORMS = frozenset(TRANSFORMS)
+_SPACINGS = frozenset(GRID_SPACINGS)
 _MISSING = frozenset(MISSING_POLICIES)
 _WEIGHTINGS = frozenset(WEIGHTINGS)
 _NUMBERS = frozenset((float, int))
@@ -201,9 +209,8 @@ def _grid(value) -> dict | None:
             raise Declined
         return {"count": None, "start": None, "stop": None, "step": None,
                 "x": _numbers(value["x"], False), "spacing": None}
-    spacing = value.get("spacing")
-    if spacing not in ("linear", "log") and "spacing" in value or (
-            spacing == "log" and "step" in value):
+    spacing = _choice(value["spacing"], _SPACINGS) if "spacing" in value else None
+    if spacing == "log" and "step" in value:
         raise Declined
     count = value.get("count")
     if count is not None:
