@@ -35,7 +35,6 @@ from service.core.batch.curves_flags import flag_masks
 from service.core.batch.curves_kernel import S
 from service.core.batch.curves_solver import CODES
 from service.core.batch.residuals import RESIDUAL_TESTS, tested_only
-from service.core.checks.diagnostics import MIN_TEST_DF
 
 LOG_2PI = math.log(2 * math.pi)
 _FIRST = ("shape", "grid_best", "grid_local_2", "grid_local_3", "grid_local_4")
@@ -77,9 +76,8 @@ def finish(out: dict, rows, stats: np.ndarray, n: np.ndarray, p: int,
     cols["start_strategy"][rows] = _names(STARTS, stats[:, S["start"]])
     cols["iterations"][rows] = stats[:, S["iterations"]].astype(np.int64)
     cols["relative_offset"][rows] = stats[:, S["relative_offset"]]
-    every = bool((df >= MIN_TEST_DF).all())   # every row tested: the columns as they are
     for name in RESIDUAL_TESTS:
-        cols[name][rows] = stats[:, S[name]] if every else tested_only(stats[:, S[name]], df)
+        cols[name][rows] = tested_only(stats[:, S[name]], df)
     cols["lack_of_fit_f"][rows] = lof_f
     cols["lack_of_fit_p"][rows] = lof_p
     for name in ("n_outliers", "n_influential", "n_high_leverage"):

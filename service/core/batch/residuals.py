@@ -206,5 +206,7 @@ def collect(marks, offsets, rows, bit):
 def tested_only(values: np.ndarray, df: np.ndarray) -> np.ndarray:
     """A residual test's column with NaN where the series has fewer than
     :data:`~service.core.checks.diagnostics.MIN_TEST_DF` residual df (not run, as in the
-    single fit's :func:`~service.core.checks.diagnostics.formal_tests`)."""
-    return np.where(df >= MIN_TEST_DF, values, np.nan)
+    single fit's :func:`~service.core.checks.diagnostics.formal_tests`); ``values`` itself
+    when every series was tested (the common case: no copy)."""
+    tested = df >= MIN_TEST_DF
+    return values if tested.all() else np.where(tested, values, np.nan)
